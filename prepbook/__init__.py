@@ -1,0 +1,3 @@
+"""prepbook: preparation and standardization records for volumetric solutions."""
+
+__version__ = "0.1.0"
