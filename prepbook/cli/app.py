@@ -60,8 +60,33 @@ def _root(
 
 
 def _register() -> None:
-    from prepbook.cli import calc
+    # Each group's module imports only Typer at start-up; its work is imported lazily.
+    from prepbook.cli import (
+        audit,
+        batches,
+        board,
+        calc,
+        demo,
+        instruments,
+        lots,
+        review,
+        setup,
+        specs,
+        standardize,
+        users,
+    )
 
+    app.command("init")(setup.init)
+    app.command("demo")(demo.demo)
+    app.add_typer(users.app, name="user")
+    app.add_typer(lots.app, name="lot")
+    app.add_typer(instruments.app, name="instrument")
+    app.add_typer(specs.app, name="spec")
+    app.add_typer(batches.app, name="batch")
+    app.command("standardize")(standardize.standardize)
+    app.command("review")(review.review)
+    app.command("status")(board.status)
+    app.add_typer(audit.app, name="audit")
     app.add_typer(calc.app, name="calc")
 
 

@@ -1,8 +1,378 @@
-"""prepbook calc: computations without a database."""
+"""prepbook calc: the computations, without a database.
+
+Each command parses its options, calls one function of ``prepbook.lab.calcs``
+(which joins the catalog to the chemistry core) and renders the plain result as
+JSON or as a table.
+"""
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import typer
 
-app = typer.Typer(help="Compute without a database: normality, preparation, corrections, curves.",
-                  no_args_is_help=True)
+from prepbook.cli import output
+from prepbook.errors import InvalidInput
+
+app = typer.Typer(
+    help="Compute without a database: normality, preparation, corrections, curves.",
+    no_args_is_help=True,
+)
+
+JSON = typer.Option(False, "--json", help="Print one JSON document instead of a table.")
+
+
+def _budget_table(budget: list[dict]) -> object:
+    rows = [
+        (
+            line["quantity"],
+            f"{output.sig(line['value'], 6)} {'' if line['unit'] == '1' else line['unit']}".strip(),
+            output.sig(line["u"], 2),
+            "-" if line["u_relative"] is None else f"{line['u_relative'] * 100:.3f} %",
+            output.sig(line["contribution"], 2),
+            f"{line['share_percent']:.1f} %",
+        )
+        for line in budget
+    ]
+    return output.table(
+        "Uncertainty budget (GUM)",
+        ["quantity", "value", "u", "u (rel.)", "contrib. (eq/L)", "share"],
+        rows,
+        right=(1, 2, 3, 4, 5),
+    )
+
+
+@app.command("normality")
+def normality(
+    standard: str = typer.Option(..., "--standard", help="Primary standard: code, name or formula."),
+    rep: list[str] = typer.Option(
+        ..., "--rep", help="One replicate, MASS:VOL: grams of standard and mL of titrant. Repeat."
+    ),
+    titrant: str = typer.Option(
+        None, "--titrant", help="Titrant solute; sets the reaction and gives the molarity."
+    ),
+    purity: str = typer.Option("100", "--purity", help="Purity of the standard, % (certificate)."),
+    purity_u: str = typer.Option(
+        None,
+        "--purity-u",
+        help="Standard uncertainty of the purity, % (default: +/-0.05 % taken as rectangular).",
+    ),
+    blank: str = typer.Option("0", "--blank", help="Blank titration volume, mL."),
+    buoyancy: bool = typer.Option(
+        False, "--buoyancy", help="Correct each weighing for air buoyancy (NIST SOP 2)."
+    ),
+    linearity: str = typer.Option(
+        "0.15", "--linearity", help="Balance linearity, +/- mg (each weighing)."
+    ),
+    burette_tolerance: str = typer.Option(
+        "0.05", "--burette-tolerance", help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
+    ),
+    burette_capacity: str = typer.Option(
+        None, "--burette-capacity", help="Burette capacity, mL: warns below 30 % of it."
+    ),
+    temp_range: str = typer.Option(
+        "3", "--temp-range", help="Laboratory temperature variation, +/- degrees C."
+    ),
+    as_json: bool = JSON,
+) -> None:
+    """Normality of a titrant from replicate titrations of a weighed primary standard."""
+    from prepbook.lab import calcs
+
+    result = calcs.normality(
+        standard=standard,
+        replicates=rep,
+        titrant=titrant,
+        purity_percent=purity,
+        purity_u_percent=purity_u,
+        blank_ml=blank,
+        buoyancy=buoyancy,
+        linearity_mg=linearity,
+        burette_tolerance_ml=burette_tolerance,
+        burette_capacity_ml=burette_capacity,
+        temperature_range_c=temp_range,
+    )
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    out.print(
+        f"[bold]{result['standard']['name']}[/bold] ({result['standard']['formula']}), "
+        f"M = {result['standard']['molar_mass_g_per_mol']:.4f} g/mol, "
+        f"n = {result['standard']['n_eq_per_mol']:g} eq/mol ({result['reaction']}), "
+        f"purity {result['standard']['purity_percent']:g} %"
+    )
+    buoyant = result["buoyancy"]
+    rows = [
+        (
+            r["index"],
+            r["mass_g"],
+            *([output.fixed(r["true_mass_g"], 5)] if buoyant else []),
+            r["volume_ml"],
+            output.sig(r["normality"], 5),
+            "outlier" if r["outlier"] else "",
+        )
+        for r in result["replicates"]
+    ]
+    heads = ["#", "mass (g)", *(["true mass (g)"] if buoyant else []), "titrant (mL)",
+             "normality (eq/L)", "flag"]
+    out.print(output.table("Replicates", heads, rows, right=range(len(heads) - 1)))
+    line = (
+        f"[bold]N = {output.sig(result['normality'], 5)} eq/L[/bold]  "
+        f"(n = {len(result['replicates'])}, SD = {output.sig(result['sd'], 2)}, "
+        f"RSD = {output.fixed(result['rsd_percent'], 3)} %)"
+    )
+    out.print(line)
+    if result["molarity"] is not None:
+        out.print(f"molarity of the titrant: {output.sig(result['molarity'], 5)} mol/L")
+    out.print(
+        f"u = {output.sig(result['u'], 2)} eq/L, U = {output.sig(result['U'], 2)} eq/L "
+        f"(k = {result['k']:g})"
+    )
+    out.print(_budget_table(result["budget"]))
+    output.warn_lines(out, result["warnings"])
+
+
+@app.command("secondary")
+def secondary(
+    reference_normality: str = typer.Option(
+        ..., "--reference-normality", help="Normality of the standardized reference, eq/L."
+    ),
+    aliquot: str = typer.Option(..., "--aliquot", help="Aliquot of the reference pipetted, mL."),
+    rep: list[str] = typer.Option(
+        ..., "--rep", help="mL of the solution being standardized at each endpoint. Repeat."
+    ),
+    blank: str = typer.Option("0", "--blank", help="Blank titration volume, mL."),
+    as_json: bool = JSON,
+) -> None:
+    """Normality against an already standardized solution (N1 V1 = N2 V2)."""
+    from prepbook.lab import calcs
+
+    result = calcs.secondary(
+        reference_normality=reference_normality, aliquot_ml=aliquot, volumes=rep, blank_ml=blank
+    )
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    rows = [
+        (r["index"], r["aliquot_ml"], r["volume_ml"], output.sig(r["normality"], 5),
+         "outlier" if r["outlier"] else "")
+        for r in result["replicates"]
+    ]
+    out.print(output.table("Replicates", ["#", "aliquot (mL)", "titrant (mL)", "normality (eq/L)",
+                                          "flag"], rows, right=(0, 1, 2, 3)))
+    out.print(
+        f"[bold]N = {output.sig(result['normality'], 5)} eq/L[/bold]  "
+        f"(SD = {output.sig(result['sd'], 2)}, RSD = {output.fixed(result['rsd_percent'], 3)} %)"
+    )
+    output.warn_lines(out, result["warnings"])
+
+
+@app.command("solid")
+def solid(
+    solute: str = typer.Argument(..., help="Solute to weigh: code, name or formula."),
+    normality: str = typer.Option(..., "--normality", help="Wanted normality, eq/L."),
+    volume: str = typer.Option(..., "--volume", help="Final volume, mL."),
+    purity: str = typer.Option("100", "--purity", help="Assay of the solid, %."),
+    as_json: bool = JSON,
+) -> None:
+    """Mass of solid to weigh for a volume of a given normality."""
+    from prepbook.lab import calcs
+
+    result = calcs.solid(solute, normality_text=normality, volume_text=volume, purity_text=purity)
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    out.print(
+        f"Weigh [bold]{output.fixed(result['mass_g'], 4)} g[/bold] of {result['name']} "
+        f"({result['formula']}, M = {result['molar_mass_g_per_mol']:.4f} g/mol, "
+        f"n = {result['n_eq_per_mol']:g}) and make up to {result['volume_ml']:g} mL."
+    )
+    output.caution_lines(out, result["cautions"])
+
+
+@app.command("liquid")
+def liquid(
+    reagent: str = typer.Argument(..., help="Concentrated reagent: HCl, H2SO4, HNO3, ..."),
+    normality: str = typer.Option(..., "--normality", help="Wanted normality, eq/L."),
+    volume: str = typer.Option(..., "--volume", help="Final volume, mL."),
+    fraction: str = typer.Option(None, "--fraction", help="Mass fraction, % (default: catalog)."),
+    density: str = typer.Option(None, "--density", help="Density, g/mL (default: catalog)."),
+    as_json: bool = JSON,
+) -> None:
+    """Volume of a concentrated liquid reagent for a volume of a given normality."""
+    from prepbook.lab import calcs
+
+    result = calcs.liquid(reagent, normality_text=normality, volume_text=volume,
+                          fraction_text=fraction, density_text=density)
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    out.print(
+        f"Measure [bold]{output.fixed(result['volume_ml'], 2)} mL[/bold] of {result['name']} "
+        f"({result['mass_fraction_percent']:g} %, {result['density_g_per_ml']:g} g/mL, "
+        f"{output.sig(result['molarity_mol_per_l'], 3)} mol/L) and make up to "
+        f"{result['final_volume_ml']:g} mL."
+    )
+    output.caution_lines(out, result["cautions"])
+
+
+@app.command("dilute")
+def dilute(
+    stock: str = typer.Option(..., "--stock", help="Normality of the stock solution, eq/L."),
+    normality: str = typer.Option(..., "--normality", help="Wanted normality, eq/L."),
+    volume: str = typer.Option(..., "--volume", help="Final volume, mL."),
+    as_json: bool = JSON,
+) -> None:
+    """Volumes of stock and water for a dilution (N1 V1 = N2 V2)."""
+    from prepbook.lab import calcs
+
+    result = calcs.dilute(stock_text=stock, normality_text=normality, volume_text=volume)
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    out.print(
+        f"Take [bold]{output.fixed(result['stock_ml'], 2)} mL[/bold] of stock and make up to "
+        f"{result['volume_ml']:g} mL (about {output.fixed(result['water_ml'], 2)} mL of water)."
+    )
+
+
+@app.command("adjust")
+def adjust(
+    normality: str = typer.Option(..., "--normality", help="Normality found, eq/L."),
+    target: str = typer.Option(..., "--target", help="Nominal normality wanted, eq/L."),
+    volume: str = typer.Option(..., "--volume", help="Volume of the batch now, mL."),
+    stock: str = typer.Option(
+        None, "--stock", help="Normality of a stronger stock, when the batch is too weak."
+    ),
+    as_json: bool = JSON,
+) -> None:
+    """Water (or stronger stock) to add to bring a standardized batch to nominal."""
+    from prepbook.lab import calcs
+
+    result = calcs.adjust(normality_text=normality, target_text=target, volume_text=volume,
+                          stock_text=stock)
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    what = "water" if result["add"] == "water" else "stock"
+    out.print(f"Add [bold]{output.fixed(result['volume_ml'], 2)} mL of {what}[/bold], mix, "
+              "and standardize again.")
+
+
+@app.command("buoyancy")
+def buoyancy(
+    mass: str = typer.Option(..., "--mass", help="Balance reading, g."),
+    density: str = typer.Option(..., "--density", help="Density of the sample, g/cm3."),
+    air_density: str = typer.Option("0.0012", "--air-density", help="Air density, g/cm3."),
+    weights_density: str = typer.Option(
+        "8.0", "--weights-density", help="Density of the reference weights, g/cm3."
+    ),
+    as_json: bool = JSON,
+) -> None:
+    """True mass of a weighed sample, corrected for air buoyancy (NIST IR 6969 SOP 2)."""
+    from prepbook.lab import calcs
+
+    result = calcs.buoyancy(mass_text=mass, density_text=density, air_text=air_density,
+                            weights_text=weights_density)
+    if as_json:
+        output.emit_json(result)
+        return
+    output.console().print(
+        f"true mass [bold]{output.fixed(result['mass_g'], 5)} g[/bold] "
+        f"(correction {result['correction_g'] * 1000:+.3f} mg)"
+    )
+
+
+@app.command("temperature")
+def temperature(
+    normality: str = typer.Option(..., "--normality", help="Normality at the first temperature."),
+    from_c: str = typer.Option(..., "--from", help="Temperature of standardization, C."),
+    to_c: str = typer.Option(..., "--to", help="Temperature of use, C."),
+    as_json: bool = JSON,
+) -> None:
+    """Normality at another temperature (dilute aqueous solution, CIPM water density)."""
+    from prepbook.lab import calcs
+
+    result = calcs.temperature(normality_text=normality, from_text=from_c, to_text=to_c)
+    if as_json:
+        output.emit_json(result)
+        return
+    output.console().print(
+        f"N = [bold]{output.sig(result['normality'], 6)} eq/L[/bold] at {result['to_c']:g} C "
+        f"(factor {result['ratio']:.6f} from {result['from_c']:g} C)"
+    )
+
+
+@app.command("titer")
+def titer(
+    titrant: str = typer.Option(..., "--titrant", help="Titrant solute."),
+    normality: str = typer.Option(..., "--normality", help="Normality of the titrant, eq/L."),
+    analyte: str = typer.Option(..., "--analyte", help="Analyte: code, name or formula."),
+    as_json: bool = JSON,
+) -> None:
+    """Titer: mg of an analyte equivalent to 1 mL of the titrant."""
+    from prepbook.lab import calcs
+
+    result = calcs.titer(titrant=titrant, normality_text=normality, analyte=analyte)
+    if as_json:
+        output.emit_json(result)
+        return
+    output.console().print(
+        f"1 mL of {output.sig(result['normality'], 4)} N {result['titrant']} is equivalent to "
+        f"[bold]{output.sig(result['mg_per_ml'], 5)} mg[/bold] of {result['analyte']} "
+        f"({result['reaction']})"
+    )
+
+
+@app.command("endpoint")
+def endpoint(
+    file: Path = typer.Argument(
+        ..., help="CSV: a header row, then volume (mL) and pH or mV.", show_default=False
+    ),
+    as_json: bool = JSON,
+) -> None:
+    """Equivalence volume from a recorded titration curve (derivative and Gran)."""
+    from prepbook.lab import calcs
+
+    try:
+        text = file.read_text(encoding="utf-8-sig")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InvalidInput(f"cannot read {file}: {exc.__class__.__name__}") from None
+    result = calcs.endpoint(text)
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    out.print(f"equivalence volume [bold]{output.fixed(result['equivalence_ml'], 3)} mL[/bold] "
+              f"({result['method']}, {result['points']} points)")
+    if result["gran_ml"] is not None:
+        out.print(f"Gran estimate {output.fixed(result['gran_ml'], 3)} mL")
+    for note in result["notes"]:
+        out.print(f"note: {note}")
+
+
+@app.command("eqpoint")
+def eqpoint(
+    standard: str = typer.Option(..., "--standard", help="Primary standard (acid or base)."),
+    titrant: str = typer.Option(..., "--titrant", help="Titrant solute (strong acid or base)."),
+    concentration: str = typer.Option(
+        ..., "--concentration", help="Concentration of the salt at equivalence, mol/L."
+    ),
+    as_json: bool = JSON,
+) -> None:
+    """pH at the equivalence point, and the indicators whose range covers it."""
+    from prepbook.lab import calcs
+
+    result = calcs.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration)
+    if as_json:
+        output.emit_json(result)
+        return
+    out = output.console()
+    out.print(f"pH at equivalence [bold]{result['ph']:.2f}[/bold] ({result['reaction']})")
+    out.print("suitable: " + (", ".join(result["suitable"]) or "none of the catalog's indicators"))
+    out.print("unsuitable: " + ", ".join(result["unsuitable"]))

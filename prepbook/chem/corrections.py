@@ -1,0 +1,86 @@
+"""Physical corrections: water density, air buoyancy, normality at another temperature.
+
+Why: a balance reading is not a mass until the air's buoyancy is allowed for, and a
+titrant standardized at one temperature has another strength at another (volumetric
+solutions are standardized and used at 20 C or corrected, British Pharmacopoeia
+Appendix I B).
+
+- Water density: the CIPM formula of Tanaka et al., Metrologia 38 (2001) 301, for
+  air-free pure water at 101.325 kPa, valid 0-40 C.
+- Buoyancy: NIST IR 6969 (2019), SOP 2, m = W (1 - rho_air/rho_weights) /
+  (1 - rho_air/rho_sample), with rho_air = 0.0012 g/cm3 and conventional weights of
+  8.0 g/cm3 unless given.
+- Temperature: a dilute aqueous titrant is taken to expand like water, so its
+  normality scales with the water density, N(t2) = N(t1) rho(t2)/rho(t1). (EURACHEM CG4
+  uses the linear coefficient 2.1e-4 /C, :data:`EXPANSION_PER_C`, for the same effect.)
+"""
+
+from __future__ import annotations
+
+import math
+
+from prepbook.errors import InvalidInput
+
+# Tanaka et al. 2001, Table 1 (CIPM 2001 formula)
+TANAKA_A1_C = -3.983035
+TANAKA_A2_C = 301.797
+TANAKA_A3_C2 = 522528.9
+TANAKA_A4_C = 69.34881
+TANAKA_A5_KG_PER_M3 = 999.974950
+WATER_FORMULA_RANGE_C = (0.0, 40.0)
+
+AIR_G_PER_CM3 = 0.0012  # NIST IR 6969 SOP 2, nominal air density
+WEIGHTS_G_PER_CM3 = 8.0  # conventional density of stainless-steel weights
+EXPANSION_PER_C = 2.1e-4  # EURACHEM/CITAC CG4 Example A2, dilute aqueous solutions
+
+
+def _number(name: str, value: float) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        raise InvalidInput(f"{name} {value!r} is not a finite number")
+    return float(value)
+
+
+def water_density_kg_per_m3(t_c: float) -> float:
+    """Density of air-free water at 101.325 kPa (CIPM, Tanaka et al. 2001), 0-40 C."""
+    t = _number("temperature (C)", t_c)
+    low, high = WATER_FORMULA_RANGE_C
+    if not low <= t <= high:
+        raise InvalidInput(
+            f"temperature {t:g} C is outside {low:g}-{high:g} C, where the CIPM water "
+            "density formula applies"
+        )
+    return TANAKA_A5_KG_PER_M3 * (
+        1.0
+        - (t + TANAKA_A1_C) ** 2 * (t + TANAKA_A2_C) / (TANAKA_A3_C2 * (t + TANAKA_A4_C))
+    )
+
+
+def buoyancy_true_mass(
+    mass_g: float,
+    sample_density: float,
+    air: float = AIR_G_PER_CM3,
+    weights: float = WEIGHTS_G_PER_CM3,
+) -> float:
+    """True mass from a balance reading (NIST IR 6969 SOP 2); densities in g/cm3."""
+    w = _number("mass (g)", mass_g)
+    rho_s = _number("sample density (g/cm3)", sample_density)
+    rho_a = _number("air density (g/cm3)", air)
+    rho_w = _number("weights density (g/cm3)", weights)
+    if w <= 0:
+        raise InvalidInput(f"mass {w:g} g must be positive")
+    if rho_a < 0:
+        raise InvalidInput(f"air density {rho_a:g} g/cm3 must not be negative")
+    if rho_s <= rho_a or rho_w <= rho_a:
+        raise InvalidInput(
+            "the densities of the sample and of the weights must exceed the air density "
+            f"({rho_a:g} g/cm3)"
+        )
+    return w * (1.0 - rho_a / rho_w) / (1.0 - rho_a / rho_s)
+
+
+def normality_at_temperature(n: float, from_c: float, to_c: float) -> float:
+    """Normality at ``to_c`` of a dilute aqueous titrant known at ``from_c``."""
+    normality = _number("normality", n)
+    if normality <= 0:
+        raise InvalidInput(f"normality {normality:g} must be positive")
+    return normality * water_density_kg_per_m3(to_c) / water_density_kg_per_m3(from_c)

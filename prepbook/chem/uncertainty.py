@@ -1,0 +1,175 @@
+"""GUM uncertainty budgets (first-order propagation with the ``uncertainties`` library).
+
+Why: a titrant's normality is reported with its expanded uncertainty so the results
+calculated from it can carry it on (EURACHEM/CITAC CG4, 3rd ed., Example A2 for a
+direct standardization, A3 for a secondary one).
+
+:func:`propagate` evaluates any model of independent input quantities: each input with
+a non-zero standard uncertainty becomes a ``uncertainties`` variable, the model is
+evaluated once, and each budget line's contribution |dy/dx_i| u(x_i) is read from
+``error_components()``. The combined standard uncertainty is their root sum of
+squares; U = k u with k = 2 (about 95 % coverage, CG4 section 8). ``share_percent`` is
+each line's share of the combined *variance*, so the shares add up to 100.
+
+The helpers turn instrument specifications into standard uncertainties the way CG4
+Example A2 does:
+
+- balance linearity +/- a (rectangular, a/sqrt(3)), counted once per weighing, two for a
+  mass by difference (tare and gross);
+- burette tolerance +/- a (triangular, a/sqrt(6)) and a temperature range +/- dT with the
+  volume expansion coefficient of dilute aqueous solutions 2.1e-4 /C (rectangular,
+  V*gamma*dT/sqrt(3)), combined in quadrature.
+
+With A2's inputs (+/- 0.15 mg; 20 mL burette +/- 0.03 mL; +/- 3 C at about 19 mL) the
+helpers give 0.12 mg for the mass (the guide, rounding 0.087 mg to 0.09 mg before
+combining, prints 0.13 mg), 0.012 mL for calibration and 0.0069 mL for temperature
+(the guide prints 0.006 mL), hence 0.014 mL for the volume (the guide: 0.013 mL).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from prepbook.chem.corrections import EXPANSION_PER_C
+from prepbook.errors import InvalidInput
+
+COVERAGE_FACTOR = 2.0  # CG4: k = 2 for about 95 % coverage
+
+
+@dataclass(frozen=True)
+class InputQuantity:
+    """One input of a measurement model with its standard uncertainty."""
+
+    quantity: str  # words, e.g. "mass of primary standard"
+    symbol: str  # e.g. "m"
+    value: float
+    unit: str
+    u: float  # standard uncertainty, same unit as value
+
+
+@dataclass(frozen=True)
+class BudgetLine:
+    """One row of an uncertainty budget."""
+
+    quantity: str
+    symbol: str
+    value: float
+    unit: str
+    u: float
+    u_relative: float | None  # u/|value|; None when the value is zero (e.g. a zero blank)
+    contribution: float  # |dN/dx| * u, in the unit of the result (eq/L)
+    share_percent: float  # share of the combined variance
+
+
+@dataclass(frozen=True)
+class UncertaintyResult:
+    """Combined and expanded uncertainty of a result, with its budget."""
+
+    value: float
+    u: float
+    U: float
+    k: float
+    u_relative: float
+    budget: tuple[BudgetLine, ...]
+    notes: tuple[str, ...] = ()  # what the budget assumed or left out, in words
+
+
+def _check_u(name: str, u: float) -> float:
+    if isinstance(u, bool) or not isinstance(u, (int, float)) or not math.isfinite(u) or u < 0:
+        raise InvalidInput(f"standard uncertainty of {name} ({u!r}) must be a number >= 0")
+    return float(u)
+
+
+def mass_u_from_balance(linearity_g: float, weighings: int = 2) -> float:
+    """Standard u of a net mass from the balance linearity half-width (rectangular),
+    counted once per weighing (EURACHEM/CITAC CG4 Example A2: twice, tare and gross)."""
+    a = _check_u("balance linearity", linearity_g)
+    if isinstance(weighings, bool) or not isinstance(weighings, int) or weighings < 1:
+        raise InvalidInput(f"number of weighings {weighings!r} must be a whole number >= 1")
+    return math.sqrt(weighings) * a / math.sqrt(3.0)
+
+
+def volume_u_from_burette(
+    tolerance_ml: float,
+    volume_ml: float,
+    temperature_range_c: float = 3.0,
+    expansion_per_c: float = EXPANSION_PER_C,
+) -> float:
+    """Standard u of a delivered volume: calibration tolerance as triangular (a/sqrt 6)
+    and a temperature range as rectangular (V*gamma*dT/sqrt 3), CG4 Example A2."""
+    tol = _check_u("burette tolerance", tolerance_ml)
+    dt = _check_u("temperature range", temperature_range_c)
+    gamma = _check_u("expansion coefficient", expansion_per_c)
+    if isinstance(volume_ml, bool) or not isinstance(volume_ml, (int, float)) or not (
+        math.isfinite(volume_ml) and volume_ml > 0
+    ):
+        raise InvalidInput(f"volume {volume_ml!r} mL must be a positive number")
+    calibration = tol / math.sqrt(6.0)
+    temperature = volume_ml * gamma * dt / math.sqrt(3.0)
+    return math.hypot(calibration, temperature)
+
+
+def propagate(
+    model: Callable[..., Any],
+    inputs: Sequence[InputQuantity],
+    *,
+    k: float = COVERAGE_FACTOR,
+    report_value: float | None = None,
+    notes: Sequence[str] = (),
+) -> UncertaintyResult:
+    """Evaluate ``model(*values)`` with first-order GUM propagation.
+
+    ``report_value`` lets the caller report a value computed otherwise (the mean of
+    replicate results) with the *relative* uncertainty found at the model's point;
+    contributions are scaled the same way.
+    """
+    from uncertainties import ufloat  # heavy (pulls numpy): import only when needed
+
+    args: list[Any] = []
+    variables: list[Any] = []
+    for q in inputs:
+        u = _check_u(q.quantity, q.u)
+        if u > 0:
+            var = ufloat(q.value, u, tag=q.symbol)
+            args.append(var)
+            variables.append(var)
+        else:  # a zero-u ufloat warns and adds nothing: pass the plain value
+            args.append(float(q.value))
+            variables.append(None)
+    y = model(*args)
+    y_value = float(getattr(y, "nominal_value", y))
+    if y_value == 0 or not math.isfinite(y_value):
+        raise InvalidInput("the measurement model gives no usable value")
+    components = y.error_components() if hasattr(y, "error_components") else {}
+    scale = 1.0 if report_value is None else float(report_value) / y_value
+    contributions = [
+        abs(float(components.get(var, 0.0))) * abs(scale) if var is not None else 0.0
+        for var in variables
+    ]
+    u_c = math.sqrt(sum(c * c for c in contributions))
+    value = y_value * scale
+    budget = tuple(
+        BudgetLine(
+            quantity=q.quantity,
+            symbol=q.symbol,
+            value=float(q.value),
+            unit=q.unit,
+            u=float(q.u),
+            u_relative=(float(q.u) / abs(q.value)) if q.value != 0 else None,
+            contribution=c,
+            share_percent=(100.0 * c * c / (u_c * u_c)) if u_c > 0 else 0.0,
+        )
+        for q, c in zip(inputs, contributions, strict=True)
+    )
+    return UncertaintyResult(
+        value=value,
+        u=u_c,
+        U=k * u_c,
+        k=k,
+        u_relative=u_c / abs(value),
+        budget=budget,
+        notes=tuple(notes),
+    )

@@ -1,0 +1,36 @@
+"""prepbook demo: build the invented demo lab and show its board."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import typer
+
+from prepbook.cli import output
+
+
+def demo(
+    db: str = typer.Option(
+        "demo-lab.db", "--db", help="Where to build the demo lab (a new SQLite file)."
+    ),
+    replace: bool = typer.Option(
+        False, "--replace", help="Move an existing file at --db aside first (kept as .old-*)."
+    ),
+    as_json: bool = typer.Option(False, "--json", help="Print the board as JSON."),
+) -> None:
+    """Build the demo lab (an invented scenario) in a fresh database and print its board."""
+    from prepbook.cli.board import render_board
+    from prepbook.lab import demo as demo_lab
+
+    res = demo_lab.build(Path(db), replace=replace)
+    if as_json:
+        output.emit_json(res["board"])
+        return
+    out = output.console()
+    out.print(f"[bold]{res['lab']}[/bold]: demo lab built in {res['database']} "
+              f"({res['batches']} batches, {res['runs']} standardizations, "
+              f"{res['events']} audit events)")
+    for line in res["story"]:
+        out.print(f"  {line}")
+    render_board(out, res["board"])
+    out.print(f"\nTry: prepbook --db {res['database']} batch show {res['example_batch']}")

@@ -1,0 +1,102 @@
+"""Rendering helpers shared by the commands: JSON on stdout, Rich tables otherwise.
+
+Rich is imported only when something is drawn, so ``--json`` and ``--help`` do
+not pay for it.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import sys
+from collections.abc import Iterable, Sequence
+from dataclasses import asdict, is_dataclass
+from datetime import date, datetime
+from typing import Any
+
+
+def _default(value: Any) -> Any:
+    if isinstance(value, datetime):
+        return value.isoformat(timespec="seconds")
+    if isinstance(value, date):
+        return value.isoformat()
+    if is_dataclass(value) and not isinstance(value, type):
+        return asdict(value)
+    if isinstance(value, set | frozenset | tuple):
+        return list(value)
+    raise TypeError(f"cannot write {type(value).__name__} as JSON")
+
+
+def _finite(value: Any) -> Any:
+    """JSON has no NaN or infinity: write them as null rather than invalid JSON."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, dict):
+        return {k: _finite(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_finite(v) for v in value]
+    return value
+
+
+def emit_json(data: Any) -> None:
+    """Print one JSON document on stdout and nothing else."""
+    text = json.dumps(_finite(data), default=_default, indent=2, ensure_ascii=False)
+    sys.stdout.write(text + "\n")
+
+
+def console(stderr: bool = False) -> Any:
+    from rich.console import Console
+
+    width = None
+    if os.environ.get("COLUMNS", "").isdigit():
+        width = int(os.environ["COLUMNS"])
+    return Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
+
+
+def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any]],
+          *, right: Iterable[int] = ()) -> Any:
+    from rich.table import Table
+
+    right_set = set(right)
+    tab = Table(title=title, title_justify="left", header_style="bold", show_lines=False)
+    for i, name in enumerate(columns):
+        tab.add_column(name, justify="right" if i in right_set else "left")
+    for row in rows:
+        tab.add_row(*("" if cell is None else str(cell) for cell in row))
+    return tab
+
+
+def sig(value: float | None, digits: int = 5) -> str:
+    """A value for reading by a person: fixed decimals, never used for storage."""
+    if value is None:
+        return "-"
+    if value == 0:
+        return "0"
+    magnitude = math.floor(math.log10(abs(value)))
+    decimals = max(0, digits - 1 - magnitude)
+    return f"{value:.{decimals}f}"
+
+
+def fixed(value: float | None, decimals: int) -> str:
+    return "-" if value is None else f"{value:.{decimals}f}"
+
+
+def warn_lines(out: Any, warnings: Sequence[str]) -> None:
+    for w in warnings:
+        out.print(f"[bold]warning:[/bold] {_escape(w)}")
+
+
+def caution_lines(out: Any, cautions: Sequence[str]) -> None:
+    if not cautions:
+        return
+    out.print("[bold]Safety[/bold] (follow the safety data sheet, local regulations and "
+              "your laboratory's procedures):")
+    for c in cautions:
+        out.print(f"  - {_escape(c)}")
+
+
+def _escape(text: str) -> str:
+    from rich.markup import escape
+
+    return escape(text)

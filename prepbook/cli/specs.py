@@ -1,0 +1,66 @@
+"""prepbook spec: the solutions the lab keeps, built-in and its own."""
+
+from __future__ import annotations
+
+import typer
+
+from prepbook.cli import output
+from prepbook.cli.session import actor, database
+
+app = typer.Typer(help="List solution specs and add the lab's own.", no_args_is_help=True)
+
+
+@app.command("list")
+def list_(ctx: typer.Context,
+          as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    """List solution specs with their acceptance rules and intervals."""
+    from prepbook.lab import specs
+
+    rows = specs.list_specs(database(ctx))
+    if as_json:
+        output.emit_json(rows)
+        return
+    output.console().print(output.table(
+        "Solution specs",
+        ["code", "name", "standard", "indicator", "RSD max %", "factor window",
+         "restandardize (d)", "shelf life (d)"],
+        [(r["code"], r["name"], r["standard"] or "-", r["indicator"] or "-",
+          f"{r['max_rsd_percent']:g}", f"{r['factor_low']:.3f}-{r['factor_high']:.3f}",
+          r["restandardize_days"], r["shelf_life_days"]) for r in rows],
+        right=(4, 6, 7)))
+
+
+@app.command("add")
+def add(
+    ctx: typer.Context,
+    code: str = typer.Argument(..., help="Code: solute and strength, e.g. NaOH-0.5N."),
+    solute: str = typer.Option(..., "--solute", help="Titrant solute (catalog code or name)."),
+    nominal: str = typer.Option(..., "--nominal", help="Nominal concentration."),
+    unit: str = typer.Option("N", "--unit", help="N (normality) or M (molarity)."),
+    name: str = typer.Option(None, "--name", help="Name shown on labels."),
+    reaction: str = typer.Option(None, "--reaction", help="Reaction name, if not the usual."),
+    standard: str = typer.Option(None, "--standard", help="Default primary standard."),
+    indicator: str = typer.Option(None, "--indicator", help="Default indicator."),
+    min_replicates: int = typer.Option(3, "--min-replicates", help="Fewest replicates."),
+    rsd: str = typer.Option("0.2", "--rsd", help="Largest RSD, %."),
+    factor_low: str = typer.Option("0.90", "--factor-low", help="Lowest acceptable factor."),
+    factor_high: str = typer.Option("1.10", "--factor-high", help="Highest acceptable factor."),
+    drift: str = typer.Option("0.5", "--drift", help="Largest change between standardizations, %."),
+    restandardize_days: int = typer.Option(30, "--restandardize-days", help="Interval, days."),
+    shelf_life_days: int = typer.Option(180, "--shelf-life-days", help="Shelf life, days."),
+    storage: str = typer.Option(None, "--storage", help="How to store it."),
+    as_json: bool = typer.Option(False, "--json", help="Print the spec as JSON."),
+) -> None:
+    """Add the lab's own solution spec (reviewer or admin)."""
+    from prepbook.lab import specs
+
+    sp = specs.add_spec(database(ctx), actor=actor(ctx), code=code, solute=solute,
+                        nominal=nominal, unit=unit, name=name, reaction=reaction,
+                        standard=standard, indicator=indicator, min_replicates=min_replicates,
+                        max_rsd_percent=rsd, factor_low=factor_low, factor_high=factor_high,
+                        drift_limit_percent=drift, restandardize_days=restandardize_days,
+                        shelf_life_days=shelf_life_days, storage=storage)
+    if as_json:
+        output.emit_json(sp)
+    else:
+        output.console().print(f"added spec [bold]{sp['code']}[/bold] ({sp['name']})")

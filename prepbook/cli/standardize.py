@@ -1,0 +1,102 @@
+"""prepbook standardize: record replicate titrations of a batch and compute them."""
+
+from __future__ import annotations
+
+import sys
+from typing import Any
+
+import typer
+
+from prepbook.cli import output
+from prepbook.cli.session import actor, database
+from prepbook.errors import InvalidInput
+
+
+def _render(out: Any, res: dict[str, Any]) -> None:
+    rows = [(r["index"], output.sig(r["normality"], 5), "outlier" if r["outlier"] else "")
+            for r in res["replicates"]]
+    out.print(output.table(None, ["#", "normality (eq/L)", "flag"], rows, right=(0, 1)))
+    out.print(
+        f"[bold]N = {output.sig(res['normality'], 5)} eq/L[/bold] at {res['temperature_c']:g} C "
+        f"({output.sig(res['normality_20c'], 5)} at 20 C), factor "
+        f"[bold]{res['factor']:.4f}[/bold], RSD {output.fixed(res['rsd_percent'], 3)} %, "
+        f"U = {output.sig(res['U'], 2)} eq/L (k = {res['k']:g})"
+        if res["U"] is not None else
+        f"[bold]N = {output.sig(res['normality'], 5)} eq/L[/bold], factor {res['factor']:.4f}"
+    )
+    for c in res["checks"]:
+        mark = "ok  " if c["passed"] else ("FAIL" if c["severity"] == "fail" else "warn")
+        out.print(f"  {mark} {c['name']}: {c['message']}")
+
+
+def standardize(
+    ctx: typer.Context,
+    batch: str = typer.Argument(..., help="Batch code."),
+    lot: str = typer.Option(None, "--lot", help="Primary-standard lot weighed."),
+    against: str = typer.Option(
+        None, "--against", help="Standardized batch pipetted (secondary standardization)."
+    ),
+    balance: str = typer.Option(None, "--balance", help="Balance used."),
+    burette: str = typer.Option(None, "--burette", help="Burette used."),
+    temp: str = typer.Option("20", "--temp", help="Temperature of the titrant, C."),
+    blank: str = typer.Option("0", "--blank", help="Blank titration volume, mL."),
+    indicator: str = typer.Option(None, "--indicator", help="Indicator (default: the spec's)."),
+    rep: list[str] = typer.Option(
+        None,
+        "--rep",
+        help="One replicate MASS:VOL (g of standard : mL of titrant), or ALIQUOT:VOL with "
+        "--against. Repeat. Without --rep you are asked for them one at a time.",
+    ),
+    at: str = typer.Option(
+        None, "--at", help="When the work was done (YYYY-MM-DD[THH:MM], UTC), if not now."
+    ),
+    as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+) -> None:
+    """Standardize a batch against a primary-standard lot or a standardized batch."""
+    from prepbook.lab import runs
+
+    db = database(ctx)
+    args: dict[str, Any] = dict(actor=actor(ctx), batch=batch, lot=lot, against=against,
+                                balance=balance, burette=burette, temperature=temp, blank=blank,
+                                indicator=indicator, at=at)
+    replicates = list(rep or [])
+    if not replicates:
+        replicates = _ask(db, args, runs, secondary=against is not None, quiet=as_json)
+    res = runs.standardize(db, replicates=replicates, **args)
+    if as_json:
+        output.emit_json(res)
+        return
+    out = output.console()
+    out.print(f"run [bold]{res['run']}[/bold] of batch {res['batch']}: {res['status']} "
+              f"(checks: {res['verdict']})")
+    _render(out, res)
+
+
+def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bool) -> list[str]:
+    """Ask for replicates one at a time, showing the running result after each."""
+    if not sys.stdin.isatty():
+        raise InvalidInput("no --rep given and no terminal to ask at: pass --rep AMOUNT:VOLUME")
+    out = output.console(stderr=quiet)
+    amount = "aliquot (mL)" if secondary else "mass of standard (g)"
+    out.print(f"Enter each replicate as {amount} and titrant volume (mL); "
+              "an empty line ends.")
+    reps: list[str] = []
+    while True:
+        n = len(reps) + 1
+        a = typer.prompt(f"replicate {n} {amount}", default="", show_default=False).strip()
+        if not a:
+            if not reps:
+                out.print("no replicates: nothing recorded")
+                raise typer.Exit(1)
+            return reps
+        v = typer.prompt(f"replicate {n} titrant volume (mL)").strip()
+        trial = reps + [f"{a}:{v}"]
+        try:
+            res = runs.standardize(db, replicates=trial, record=False, **args)
+        except InvalidInput as exc:
+            out.print(f"[bold]not taken:[/bold] {exc}")
+            continue
+        reps = trial
+        out.print(f"  running: N = {output.sig(res['normality'], 5)} eq/L, factor "
+                  f"{res['factor']:.4f}, RSD {output.fixed(res['rsd_percent'], 3)} % "
+                  f"(n = {len(reps)})")

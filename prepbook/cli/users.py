@@ -1,0 +1,57 @@
+"""prepbook user: the people who record, review and manage."""
+
+from __future__ import annotations
+
+import typer
+
+from prepbook.cli import output
+from prepbook.cli.session import Passphrases, actor, database
+
+app = typer.Typer(help="Add and list users (technician, reviewer, admin).", no_args_is_help=True)
+
+
+@app.command("add")
+def add(
+    ctx: typer.Context,
+    name: str = typer.Argument(..., help="Login name of the new user."),
+    role: str = typer.Option(..., "--role", help="technician, reviewer or admin."),
+    passphrase_stdin: bool = typer.Option(
+        False,
+        "--passphrase-stdin",
+        help="Read the new passphrase from line 1 of standard input and the acting "
+        "admin's from line 2 (not needed for the first user).",
+    ),
+    as_json: bool = typer.Option(False, "--json", help="Print the new user as JSON."),
+) -> None:
+    """Add a user. The first user must be an admin; then only an admin adds users."""
+    from prepbook.lab import people
+
+    db = database(ctx)
+    first = people.user_count(db) == 0
+    secrets = Passphrases(passphrase_stdin)
+    new = secrets.get(f"Passphrase for {name}", confirm=True)
+    admin_pass = None if first else secrets.get(f"Passphrase of {actor(ctx)} (admin)")
+    user = people.add_user(db, actor=actor(ctx), name=name, role=role, passphrase=new,
+                           actor_passphrase=admin_pass)
+    if as_json:
+        output.emit_json(user)
+    else:
+        output.console().print(f"added {user['role']} [bold]{user['name']}[/bold]")
+
+
+@app.command("list")
+def list_(
+    ctx: typer.Context,
+    as_json: bool = typer.Option(False, "--json", help="Print JSON."),
+) -> None:
+    """List the users and their roles."""
+    from prepbook.lab import people
+
+    users = people.list_users(database(ctx))
+    if as_json:
+        output.emit_json(users)
+        return
+    output.console().print(output.table(
+        "Users", ["name", "role", "active", "added", "by"],
+        [(u["name"], u["role"], "yes" if u["active"] else "no", u["created_at"], u["created_by"])
+         for u in users]))

@@ -1,0 +1,168 @@
+"""Parsing of what a person types: numbers, replicates, dates.
+
+Pure and light (stdlib only), shared by the command line, the services and any
+other front end. A reading keeps the text exactly as entered next to its value,
+so "22.20" is stored as "22.20" and never reformatted. Every refusal is an
+``InvalidInput`` whose message names the field and the offending text.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from datetime import UTC, date, datetime, time
+from decimal import Decimal, InvalidOperation
+
+from prepbook.errors import InvalidInput
+
+# Plain decimal notation only: optional sign, digits, optional point and digits.
+# Exponents, thousands separators, "nan" and "inf" are refused on purpose:
+# a bench reading is never written that way, and guessing is how values go wrong.
+_DECIMAL = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)$")
+_MAX_LEN = 32
+
+
+@dataclass(frozen=True)
+class Reading:
+    """A number as entered (``text``) and as computed with (``value``)."""
+
+    text: str
+    value: float
+
+    @property
+    def decimals(self) -> int:
+        """Digits after the point as entered (22.20 -> 2)."""
+        return len(self.text.split(".", 1)[1]) if "." in self.text else 0
+
+
+def _shown(text: str) -> str:
+    clean = "".join(ch if ch.isprintable() else "?" for ch in text)
+    return clean if len(clean) <= 40 else clean[:37] + "..."
+
+
+def parse_number(
+    text: str,
+    what: str,
+    *,
+    positive: bool = False,
+    non_negative: bool = False,
+    maximum: float | None = None,
+) -> Reading:
+    """Parse a plain decimal number typed by a person.
+
+    ``positive`` refuses zero and negatives, ``non_negative`` refuses negatives.
+    """
+    raw = text.strip() if isinstance(text, str) else str(text)
+    if not raw:
+        raise InvalidInput(f"{what}: a number is required")
+    if "," in raw and "." not in raw and _DECIMAL.match(raw.replace(",", ".")):
+        raise InvalidInput(f"{what}: {_shown(raw)!r} uses a comma; write the decimal point as '.'")
+    if len(raw) > _MAX_LEN or not _DECIMAL.match(raw):
+        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a plain decimal number")
+    try:
+        value = float(Decimal(raw))
+    except (InvalidOperation, ValueError, OverflowError):  # pragma: no cover - regex guards
+        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a number") from None
+    if not math.isfinite(value):  # pragma: no cover - regex guards
+        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a finite number")
+    if positive and value <= 0:
+        raise InvalidInput(f"{what} must be greater than zero (got {raw})")
+    if non_negative and value < 0:
+        raise InvalidInput(f"{what} must not be negative (got {raw})")
+    if maximum is not None and value > maximum:
+        raise InvalidInput(f"{what} must not exceed {maximum:g} (got {raw})")
+    return Reading(text=raw.lstrip("+"), value=value)
+
+
+def parse_percent(text: str, what: str) -> Reading:
+    """A percentage in (0, 100], such as a certificate purity."""
+    reading = parse_number(text, what, positive=True)
+    if reading.value > 100:
+        raise InvalidInput(f"{what} must be at most 100 % (got {reading.text})")
+    return reading
+
+
+@dataclass(frozen=True)
+class ReplicateEntry:
+    """One replicate as typed: ``MASS:VOL`` (or ``ALIQUOT:VOL``)."""
+
+    amount: Reading
+    volume: Reading
+
+
+def parse_replicate(text: str, position: int, *, amount_name: str = "mass (g)") -> ReplicateEntry:
+    raw = text.strip()
+    parts = raw.split(":")
+    if len(parts) != 2:
+        raise InvalidInput(
+            f"replicate {position}: {_shown(raw)!r} should be AMOUNT:VOLUME, e.g. 0.4084:20.05"
+        )
+    amount = parse_number(parts[0], f"replicate {position} {amount_name}", positive=True)
+    volume = parse_number(parts[1], f"replicate {position} titrant volume (mL)", positive=True)
+    return ReplicateEntry(amount=amount, volume=volume)
+
+
+def parse_replicates(texts: list[str], *, amount_name: str = "mass (g)") -> list[ReplicateEntry]:
+    if not texts:
+        raise InvalidInput("at least one replicate (--rep AMOUNT:VOLUME) is required")
+    return [parse_replicate(t, i, amount_name=amount_name) for i, t in enumerate(texts, start=1)]
+
+
+def parse_date(text: str, what: str) -> date:
+    """An ISO 8601 calendar date (2026-03-31)."""
+    raw = text.strip()
+    try:
+        return date.fromisoformat(raw)
+    except ValueError:
+        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a date; use YYYY-MM-DD") from None
+
+
+def parse_datetime(text: str, what: str) -> datetime:
+    """An ISO 8601 date or date and time; naive values are taken as UTC.
+
+    Returned as a naive UTC datetime, the form the record stores.
+    """
+    raw = text.strip()
+    try:
+        if len(raw) == 10:
+            moment = datetime.combine(date.fromisoformat(raw), time(12, 0))
+        else:
+            moment = datetime.fromisoformat(raw.replace("Z", "+00:00"))
+    except ValueError:
+        raise InvalidInput(
+            f"{what}: {_shown(raw)!r} is not a date and time; use YYYY-MM-DD or YYYY-MM-DDTHH:MM"
+        ) from None
+    if moment.tzinfo is not None:
+        moment = moment.astimezone(UTC).replace(tzinfo=None)
+    return moment
+
+
+_CODE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._()/+-]{0,47}$")
+
+
+def parse_code(text: str, what: str) -> str:
+    """A record code (lot, instrument, batch): letters, digits and . _ - ( ) / +."""
+    raw = text.strip()
+    if not _CODE.match(raw):
+        raise InvalidInput(
+            f"{what}: {_shown(raw)!r} is not a valid code "
+            "(1-48 letters, digits or . _ - ( ) / +, starting with a letter or digit)"
+        )
+    return raw
+
+
+def parse_text(text: str | None, what: str, *, max_len: int = 2000) -> str | None:
+    """Free text (notes, reasons): printable, bounded, stored as given."""
+    if text is None:
+        return None
+    if len(text) > max_len:
+        raise InvalidInput(f"{what} is longer than {max_len} characters")
+    if any(not (ch.isprintable() or ch in "\n\t") for ch in text):
+        raise InvalidInput(f"{what} contains control characters")
+    return text
+
+
+def utc_now() -> datetime:
+    """Now, as the naive UTC datetime the record stores."""
+    return datetime.now(UTC).replace(tzinfo=None)

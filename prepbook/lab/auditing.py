@@ -1,0 +1,43 @@
+"""Reading and verifying the audit trail, for reviewers and auditors."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from prepbook.errors import InvalidInput
+from prepbook.inputs import parse_date
+from prepbook.store import audit
+from prepbook.store.engine import Database
+from prepbook.store.models import AUDITED_TABLES
+
+
+def log(db: Database, *, record: str | None = None, actor: str | None = None,
+        since: str | None = None, until: str | None = None,
+        limit: int | None = None) -> list[dict[str, Any]]:
+    record_type = record_id = None
+    if record:
+        name, _, rid = record.partition("#")
+        if name not in AUDITED_TABLES:
+            raise InvalidInput(f"unknown record type {name!r}; one of "
+                               f"{', '.join(sorted(AUDITED_TABLES))}")
+        record_type = name
+        if rid:
+            if not rid.isdigit():
+                raise InvalidInput(f"record id {rid!r} is not a number")
+            record_id = int(rid)
+    if limit is not None and limit < 1:
+        raise InvalidInput("--limit must be at least 1")
+    since_d = parse_date(since, "--since") if since else None
+    until_d = parse_date(until, "--until") if until else None
+    if since_d and until_d and since_d > until_d:
+        raise InvalidInput("--since is after --until")
+    with db.session() as s:
+        return audit.log(s, record_type=record_type, record_id=record_id, actor=actor,
+                         since=since_d, until=until_d, limit=limit)
+
+
+def verify(db: Database) -> dict[str, Any]:
+    with db.session() as s:
+        rep = audit.verify(s)
+    return {"ok": rep.ok, "events": rep.events, "head_hash": rep.head_hash,
+            "problems": list(rep.problems)}

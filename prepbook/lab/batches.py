@@ -1,0 +1,311 @@
+"""Batches: making a bottle of titrant, showing its whole chain, its life."""
+
+from __future__ import annotations
+
+import json
+from datetime import date
+from typing import Any
+
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from prepbook.errors import InvalidInput, Refused
+from prepbook.inputs import parse_datetime, parse_number, parse_text, utc_now
+from prepbook.lab import specs as spec_view
+from prepbook.lab.common import acting, by_code, iso, not_future, write
+from prepbook.store.engine import Database
+from prepbook.store.models import Batch, Instrument, Lot, Replicate, Review, Run, Spec, Use
+
+
+def next_code(session: Session, model: type[Batch] | type[Run], prefix: str) -> str:
+    """The next free code ``prefix-N`` (N counts up per prefix)."""
+    like = f"{prefix}-%"
+    taken = set(session.scalars(select(model.code).where(model.code.like(like))))
+    n = len(taken) + 1
+    while f"{prefix}-{n}" in taken:
+        n += 1
+    return f"{prefix}-{n}"
+
+
+def instrument_of(session: Session, code: str | None, kind: str) -> Instrument | None:
+    if code is None:
+        return None
+    ins = by_code(session, Instrument, code, "instrument")
+    if ins.kind != kind:
+        raise InvalidInput(f"instrument {code} is a {ins.kind}, not a {kind}")
+    return ins
+
+
+def current_normality(session: Session, batch: Batch) -> tuple[float | None, Run | None]:
+    """The normality at 20 C of the batch's latest accepted run (None if none)."""
+    run = session.scalars(
+        select(Run)
+        .where(Run.batch_id == batch.id, Run.status == "accepted")
+        .order_by(Run.performed_at.desc(), Run.id.desc())
+        .limit(1)
+    ).first()
+    return (run.normality_20c if run else None), run
+
+
+def make_batch(
+    db: Database,
+    *,
+    actor: str,
+    spec: str,
+    volume: str,
+    solute_mass: str | None = None,
+    solute_lot: str | None = None,
+    stock_volume: str | None = None,
+    from_batch: str | None = None,
+    aliquot: str | None = None,
+    flask: str | None = None,
+    balance: str | None = None,
+    notes: str | None = None,
+    at: str | None = None,
+) -> dict[str, Any]:
+    """Record a new batch and compute its theoretical normality from how it was made."""
+    from prepbook.catalog import loader
+    from prepbook.chem import formula
+    from prepbook.rules import life
+
+    methods = [m for m, given in (("solid", solute_mass is not None),
+                                  ("concentrate", stock_volume is not None),
+                                  ("dilution", from_batch is not None)) if given]
+    if len(methods) != 1:
+        raise InvalidInput("say how the batch was made: exactly one of --solute-mass, "
+                           "--stock-volume or --from-batch (with --aliquot)")
+    method = methods[0]
+    if method == "dilution" and aliquot is None:
+        raise InvalidInput("--from-batch needs --aliquot ML (the volume of stock taken)")
+    if method != "dilution" and aliquot is not None:
+        raise InvalidInput("--aliquot goes with --from-batch")
+    if solute_lot is not None and method != "solid":
+        raise InvalidInput("--solute-lot goes with --solute-mass")
+    vol = parse_number(volume, "final volume (mL)", positive=True)
+    mass = parse_number(solute_mass, "solute mass (g)", positive=True) if solute_mass else None
+    stock = parse_number(stock_volume, "concentrate volume (mL)", positive=True) \
+        if stock_volume else None
+    ali = parse_number(aliquot, "aliquot (mL)", positive=True) if aliquot else None
+    if ali is not None and ali.value >= vol.value:
+        raise InvalidInput(f"aliquot {ali.text} mL must be smaller than the final volume "
+                           f"{vol.text} mL")
+    if stock is not None and stock.value >= vol.value:
+        raise InvalidInput(f"concentrate volume {stock.text} mL must be smaller than the final "
+                           f"volume {vol.text} mL")
+    notes = parse_text(notes, "notes")
+    made_at = not_future(parse_datetime(at, "--at") if at else None, "preparation time")
+
+    with db.session() as s:
+        user = acting(s, actor, doing="make batches")
+        sp = by_code(s, Spec, spec, "solution spec")
+        view = spec_view.view(sp)
+        solute = loader.find_material(view.solute)
+        rx = solute.reaction(name=view.reaction) if view.reaction else solute.reaction()
+        warnings: list[str] = []
+        parents: list[date] = []
+        lot_row: Lot | None = None
+        parent: Batch | None = None
+        if method == "solid":
+            assert mass is not None
+            purity = 1.0
+            if solute_lot is not None:
+                lot_row = by_code(s, Lot, solute_lot, "lot")
+                if lot_row.material_code != solute.code:
+                    raise InvalidInput(f"lot {lot_row.code} is {lot_row.material_code}, but "
+                                       f"{sp.code} is made from {solute.code}")
+                if lot_row.expires < made_at.date():
+                    raise Refused(f"lot {lot_row.code} expired on {lot_row.expires.isoformat()}")
+                purity = float(lot_row.purity_text) / 100
+                parents.append(lot_row.expires)
+            mm = formula.molar_mass(solute.formula)
+            theoretical = 1000 * mass.value * purity * rx.n / (mm.value_g_per_mol * vol.value)
+        elif method == "concentrate":
+            assert stock is not None
+            reagent = loader.find_reagent(solute.code)
+            mm = formula.molar_mass(reagent.formula)
+            theoretical = (stock.value * reagent.density_g_per_ml * reagent.mass_fraction
+                           * reagent.n_eq_per_mol * 1000 / (mm.value_g_per_mol * vol.value))
+        else:
+            assert from_batch is not None and ali is not None
+            parent = by_code(s, Batch, from_batch, "batch")
+            parent_spec = spec_view.view(parent.spec)
+            if parent_spec.solute != view.solute:
+                raise InvalidInput(f"batch {parent.code} is {parent_spec.solute}; {sp.code} "
+                                   f"needs {view.solute}")
+            if parent.retired_at is not None:
+                raise Refused(f"batch {parent.code} is retired and cannot be used")
+            if parent.expires < made_at.date():
+                raise Refused(f"batch {parent.code} expired on {parent.expires.isoformat()}")
+            n_parent, _ = current_normality(s, parent)
+            if n_parent is None:
+                n_parent = parent.theoretical_normality
+                warnings.append(f"stock batch {parent.code} has no accepted standardization; "
+                                "its theoretical normality is used")
+            if n_parent is None:  # pragma: no cover - every batch has one
+                raise Refused(f"batch {parent.code} has no normality to dilute from")
+            theoretical = n_parent * ali.value / vol.value
+            parents.append(parent.expires)
+        flask_row = instrument_of(s, flask, "flask")
+        balance_row = instrument_of(s, balance, "balance")
+        for ins in (flask_row, balance_row):
+            if ins is not None and ins.due < made_at.date():
+                warnings.append(f"{ins.kind} {ins.code} was past its calibration due date "
+                                f"({ins.due.isoformat()})")
+        if flask_row is not None and flask_row.capacity_text is not None \
+                and float(flask_row.capacity_text) != vol.value:
+            warnings.append(f"flask {flask_row.code} holds {flask_row.capacity_text} mL, "
+                            f"not the {vol.text} mL recorded")
+        expires = life.expiry(made_at.date(), view.shelf_life_days, parents)
+        code = next_code(s, Batch, f"{sp.code}-{made_at:%y%m%d}")
+        batch = Batch(
+            code=code, spec_id=sp.id, method=method, volume_ml_text=vol.text,
+            solute_mass_g_text=mass.text if mass else None,
+            solute_lot_id=lot_row.id if lot_row else None,
+            stock_volume_ml_text=stock.text if stock else None,
+            parent_batch_id=parent.id if parent else None,
+            aliquot_ml_text=ali.text if ali else None,
+            flask_id=flask_row.id if flask_row else None,
+            balance_id=balance_row.id if balance_row else None,
+            theoretical_normality=theoretical, made_at=made_at, recorded_at=utc_now(),
+            made_by=user.name, notes=notes, expires=expires,
+        )
+        write(s, user.name, "batch.make", batch, performed_at=made_at)
+        nominal_value = view.to_spec_unit(theoretical, rx.n)
+        return {
+            "batch": code,
+            "spec": sp.code,
+            "method": method,
+            "theoretical_normality": theoretical,
+            "theoretical_factor": nominal_value / view.nominal,
+            "unit": view.unit,
+            "made_at": iso(made_at),
+            "expires": iso(expires),
+            "cautions": view.cautions,
+            "warnings": warnings,
+        }
+
+
+def _replicate_rows(session: Session, run: Run) -> list[dict[str, Any]]:
+    reps = session.scalars(
+        select(Replicate).where(Replicate.run_id == run.id)
+        .order_by(Replicate.position, Replicate.version)
+    ).all()
+    latest: dict[int, int] = {}
+    for r in reps:
+        latest[r.position] = max(latest.get(r.position, 0), r.version)
+    result = json.loads(run.result_json) if run.result_json else {}
+    per_rep = {r["index"]: r for r in result.get("replicates", [])}
+    rows = []
+    for r in reps:
+        current = latest[r.position] == r.version
+        rows.append({
+            "position": r.position,
+            "version": r.version,
+            "current": current,
+            "amount": r.amount_text,
+            "volume_ml": r.volume_ml_text,
+            "excluded": r.excluded,
+            "reason": r.reason,
+            "normality": per_rep.get(r.position, {}).get("normality") if current else None,
+            "outlier": per_rep.get(r.position, {}).get("outlier", False) if current else False,
+            "recorded_by": r.created_by,
+            "recorded_at": iso(r.created_at),
+        })
+    return rows
+
+
+def run_dict(session: Session, run: Run, *, with_replicates: bool = True) -> dict[str, Any]:
+    result = json.loads(run.result_json) if run.result_json else {}
+    reviews = session.scalars(select(Review).where(Review.run_id == run.id)
+                              .order_by(Review.id)).all()
+    out: dict[str, Any] = {
+        "run": run.code,
+        "method": run.method,
+        "status": run.status,
+        "performed_at": iso(run.performed_at),
+        "recorded_at": iso(run.recorded_at),
+        "analyst": run.analyst,
+        "lot": run.lot.code if run.lot else None,
+        "lot_certificate": run.lot.certificate if run.lot else None,
+        "reference_batch": run.reference_batch.code if run.reference_batch else None,
+        "balance": run.balance.code if run.balance else None,
+        "burette": run.burette.code if run.burette else None,
+        "temperature_c": run.temperature_c_text,
+        "blank_ml": run.blank_ml_text,
+        "indicator": run.indicator,
+        "normality": run.normality,
+        "normality_20c": run.normality_20c,
+        "factor": run.factor,
+        "sd": run.sd,
+        "rsd_percent": run.rsd_percent,
+        "u": run.u,
+        "U": run.U,
+        "k": run.k,
+        "verdict": result.get("verdict"),
+        "checks": result.get("checks", []),
+        "budget": result.get("budget", []),
+        "reviews": [{"reviewer": r.reviewer, "decision": r.decision, "reason": r.reason,
+                     "signed_at": iso(r.signed_at)} for r in reviews],
+    }
+    if with_replicates:
+        out["replicates"] = _replicate_rows(session, run)
+    return out
+
+
+def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, Any]:
+    """Everything about one batch, from its preparation to its latest standardization."""
+    from prepbook.lab import board
+
+    today = today or utc_now().date()
+    with db.session() as s:
+        b = by_code(s, Batch, code, "batch")
+        view = spec_view.view(b.spec)
+        runs = s.scalars(select(Run).where(Run.batch_id == b.id)
+                         .order_by(Run.performed_at, Run.id)).all()
+        uses = s.scalars(select(Use).where(Use.batch_id == b.id).order_by(Use.used_at)).all()
+        children = s.scalars(select(Batch.code).where(Batch.parent_batch_id == b.id)).all()
+        life_row = board.batch_life(s, b, today)
+        lot = b.solute_lot
+        return {
+            "batch": b.code,
+            "spec": b.spec.code,
+            "spec_name": b.spec.name,
+            "nominal": view.nominal,
+            "unit": view.unit,
+            "state": life_row["state"],
+            "normality": life_row["normality"],
+            "factor": life_row["factor"],
+            "restandardize_by": life_row["restandardize_by"],
+            "expires": life_row["expires"],
+            "warnings": life_row["warnings"],
+            "preparation": {
+                "method": b.method,
+                "volume_ml": b.volume_ml_text,
+                "solute_mass_g": b.solute_mass_g_text,
+                "solute_lot": lot.code if lot else None,
+                "concentrate_volume_ml": b.stock_volume_ml_text,
+                "from_batch": b.parent_batch.code if b.parent_batch else None,
+                "aliquot_ml": b.aliquot_ml_text,
+                "flask": b.flask.code if b.flask else None,
+                "balance": b.balance.code if b.balance else None,
+                "theoretical_normality": b.theoretical_normality,
+                "made_at": iso(b.made_at),
+                "recorded_at": iso(b.recorded_at),
+                "made_by": b.made_by,
+                "notes": b.notes,
+            },
+            "retired": ({"at": iso(b.retired_at), "by": b.retired_by,
+                         "reason": b.retired_reason} if b.retired_at else None),
+            "runs": [run_dict(s, r) for r in runs],
+            "uses": [{"at": iso(u.used_at), "by": u.used_by, "volume_ml": u.volume_ml_text,
+                      "purpose": u.purpose} for u in uses],
+            "diluted_into": list(children),
+            "storage": view.storage,
+            "hazard": view.hazard,
+        }
+
+
+def batch_count(db: Database) -> int:
+    with db.session() as s:
+        return int(s.scalar(select(func.count()).select_from(Batch)) or 0)
+

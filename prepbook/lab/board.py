@@ -1,0 +1,170 @@
+"""The board: every batch not retired, its state, strength, dates and warnings.
+
+Built with a fixed number of set-based queries whatever the size of the
+history (no query per batch), so it stays quick over years of records.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass
+from datetime import date
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session, aliased
+
+from prepbook.inputs import utc_now
+from prepbook.lab import specs as spec_view
+from prepbook.lab.common import iso, setting
+from prepbook.store.engine import Database
+from prepbook.store.models import Batch, Instrument, Lot, Run, Spec
+
+DEFAULT_LEAD_DAYS = 7  # warn this many days ahead: common practice, no source
+
+# Attention order on the board: what needs action first.
+_ORDER = {"expired": 0, "due": 1, "awaiting-review": 2, "new": 3, "in-service": 4, "retired": 5}
+
+
+@dataclass(frozen=True)
+class _RunFacts:
+    batch_id: int
+    performed_on: date
+    status: str
+    normality: float | None
+    factor: float | None
+    lot_code: str | None
+    lot_expires: date | None
+    instrument_dues: tuple[tuple[str, str, date], ...]
+
+
+def _life(
+    *,
+    batch: Batch,
+    spec: Spec,
+    runs: list[_RunFacts],
+    batch_instruments: list[tuple[str, str, date]],
+    solute_lot: tuple[str, date] | None,
+    today: date,
+    lead_days: int,
+) -> dict[str, Any]:
+    from prepbook.rules import life
+
+    view = spec_view.view(spec)
+    accepted = [r for r in runs if r.status == "accepted"]
+    last = accepted[-1] if accepted else None
+    latest = runs[-1] if runs else None
+    restd = life.restandardize_by(last.performed_on if last else None, view.restandardize_days)
+    state = life.batch_state(
+        retired=batch.retired_at is not None,
+        today=today,
+        expires=batch.expires,
+        has_runs=bool(runs),
+        latest_status=latest.status if latest else None,
+        last_accepted_on=last.performed_on if last else None,
+        restandardize_by=restd,
+    )
+    instruments = list(batch_instruments)
+    if last is not None:
+        instruments.extend(last.instrument_dues)
+    lots: list[tuple[str, date]] = []
+    if last is not None and last.lot_code is not None and last.lot_expires is not None:
+        lots.append((last.lot_code, last.lot_expires))
+    if solute_lot is not None:
+        lots.append(solute_lot)
+    warnings = life.batch_warnings(
+        today=today,
+        lead_days=lead_days,
+        expires=batch.expires,
+        restandardize_by=restd,
+        instruments=instruments,
+        lots=lots,
+        accepted_normalities=[r.normality for r in accepted if r.normality is not None],
+        drift_limit_percent=view.drift_limit_percent,
+        latest_status=latest.status if latest else None,
+    )
+    return {
+        "batch": batch.code,
+        "spec": spec.code,
+        "state": state,
+        "normality": last.normality if last else None,
+        "factor": last.factor if last else None,
+        "standardized_on": iso(last.performed_on) if last else None,
+        "restandardize_by": iso(restd),
+        "expires": iso(batch.expires),
+        "warnings": list(warnings),
+    }
+
+
+def _run_facts(session: Session, batch_ids: list[int] | None) -> dict[int, list[_RunFacts]]:
+    bal = aliased(Instrument)
+    bur = aliased(Instrument)
+    q = (
+        select(Run.batch_id, Run.performed_at, Run.status, Run.normality, Run.factor,
+               Lot.code, Lot.expires, bal.code, bal.due, bur.code, bur.due)
+        .outerjoin(Lot, Run.lot_id == Lot.id)
+        .outerjoin(bal, Run.balance_id == bal.id)
+        .outerjoin(bur, Run.burette_id == bur.id)
+        .order_by(Run.batch_id, Run.performed_at, Run.id)
+    )
+    if batch_ids is not None:
+        q = q.where(Run.batch_id.in_(batch_ids))
+    out: dict[int, list[_RunFacts]] = defaultdict(list)
+    for (bid, at, status, n, f, lot_code, lot_exp, bal_code, bal_due, bur_code,
+         bur_due) in session.execute(q):
+        dues = tuple((c, k, d) for c, k, d in ((bal_code, "balance", bal_due),
+                                               (bur_code, "burette", bur_due)) if c)
+        out[bid].append(_RunFacts(bid, at.date(), status, n, f, lot_code, lot_exp, dues))
+    return out
+
+
+def _batch_rows(session: Session, where: Any) -> list[tuple[Batch, Spec, list, Any]]:
+    flask = aliased(Instrument)
+    bal = aliased(Instrument)
+    q = (
+        select(Batch, Spec, flask.code, flask.due, bal.code, bal.due, Lot.code, Lot.expires)
+        .join(Spec, Batch.spec_id == Spec.id)
+        .outerjoin(flask, Batch.flask_id == flask.id)
+        .outerjoin(bal, Batch.balance_id == bal.id)
+        .outerjoin(Lot, Batch.solute_lot_id == Lot.id)
+        .where(where)
+        .order_by(Batch.id)
+    )
+    rows = []
+    for batch, spec, fc, fd, bc, bd, lc, le in session.execute(q):
+        instruments = [(c, k, d) for c, k, d in ((fc, "flask", fd), (bc, "balance", bd)) if c]
+        rows.append((batch, spec, instruments, (lc, le) if lc else None))
+    return rows
+
+
+def _lead_days(session: Session) -> int:
+    try:
+        return int(setting(session, "warning_lead_days", str(DEFAULT_LEAD_DAYS)))
+    except ValueError:
+        return DEFAULT_LEAD_DAYS
+
+
+def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
+    """State, strength, dates and warnings of one batch."""
+    rows = _batch_rows(session, Batch.id == batch.id)
+    facts = _run_facts(session, [batch.id])
+    b, spec, instruments, lot = rows[0]
+    return _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=instruments,
+                 solute_lot=lot, today=today, lead_days=_lead_days(session))
+
+
+def board(db: Database, today: date | None = None) -> list[dict[str, Any]]:
+    """Every batch not retired, those needing action first."""
+    today = today or utc_now().date()
+    with db.session() as s:
+        lead = _lead_days(s)
+        rows = _batch_rows(s, Batch.retired_at.is_(None))
+        facts = _run_facts(s, None)
+        items = [
+            _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=ins,
+                  solute_lot=lot, today=today, lead_days=lead)
+            for b, spec, ins, lot in rows
+        ]
+    items.sort(key=lambda it: (_ORDER.get(it["state"], 9), it["restandardize_by"] or "9999",
+                               it["expires"], it["batch"]))
+    return items

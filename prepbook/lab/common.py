@@ -1,0 +1,117 @@
+"""Helpers shared by the services: who is acting, looking records up by code.
+
+Only the services (``prepbook.lab``) use ORM objects, and only inside a session;
+what they return is plain data.
+"""
+
+from __future__ import annotations
+
+import difflib
+import json
+from datetime import date, datetime
+from typing import Any, TypeVar
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from prepbook.errors import InvalidInput, NotFound, Refused
+from prepbook.inputs import utc_now
+from prepbook.lab.security import passphrase_matches
+from prepbook.store import audit
+from prepbook.store.models import Base, Batch, Instrument, Lot, Run, Setting, Spec, User
+
+T = TypeVar("T", bound=Base)
+
+RECORDERS = ("technician", "reviewer", "admin")
+REVIEWERS = ("reviewer", "admin")
+
+
+def by_code(session: Session, model: type[T], code: str, what: str) -> T:
+    """The row of ``model`` with this code, or NotFound naming close matches."""
+    row = session.scalars(select(model).where(model.code == code)).first()  # type: ignore[attr-defined]
+    if row is not None:
+        return row
+    # Codes are case-sensitive in the record; offer a case-insensitive match.
+    codes = list(session.scalars(select(model.code)))  # type: ignore[attr-defined]
+    folded = [c for c in codes if c.lower() == code.lower()]
+    close = folded or difflib.get_close_matches(code, codes, n=3, cutoff=0.6)
+    hint = f" (did you mean {', '.join(close)}?)" if close else ""
+    raise NotFound(f"no {what} with code {code!r}{hint}")
+
+
+def user_named(session: Session, name: str) -> User:
+    row = session.scalars(select(User).where(User.name == name)).first()
+    if row is None:
+        raise NotFound(
+            f"{name!r} is not a prepbook user of this database "
+            "(an admin adds users with `prepbook user add`; pass --user NAME to act as one)"
+        )
+    return row
+
+
+def acting(session: Session, name: str, roles: tuple[str, ...] = RECORDERS,
+           doing: str = "do this") -> User:
+    """The active user ``name``, refused unless their role is one of ``roles``."""
+    user = user_named(session, name)
+    if not user.active:
+        raise Refused(f"user {name!r} is disabled")
+    if user.role not in roles:
+        raise Refused(f"{name} is a {user.role}; only a {' or '.join(roles)} may {doing}")
+    return user
+
+
+def check_passphrase(user: User, passphrase: str | None) -> None:
+    if passphrase is None or not passphrase_matches(user.passphrase_hash, passphrase):
+        raise Refused(f"wrong passphrase for {user.name}")
+
+
+def write(session: Session, actor: str, action: str, row: Base, *, reason: str | None = None,
+          performed_at: datetime | None = None) -> None:
+    """Add/flush a row and its audit event in the current transaction."""
+    session.add(row)
+    session.flush()
+    audit.record(session, actor=actor, action=action, row=row, reason=reason,
+                 performed_at=performed_at)
+
+
+def not_future(moment: datetime | None, what: str) -> datetime:
+    now = utc_now()
+    if moment is None:
+        return now
+    if moment > now:
+        raise InvalidInput(f"{what} {moment.isoformat(timespec='minutes')} is in the future")
+    return moment
+
+
+def spec_data(spec: Spec) -> dict[str, Any]:
+    return json.loads(spec.data)
+
+
+def setting(session: Session, key: str, default: str) -> str:
+    row = session.scalars(select(Setting).where(Setting.key == key)).first()
+    return row.value if row is not None else default
+
+
+def iso(value: date | datetime | None) -> str | None:
+    if value is None:
+        return None
+    if isinstance(value, datetime):
+        return value.isoformat(timespec="minutes")
+    return value.isoformat()
+
+
+__all__ = [
+    "Batch",
+    "Instrument",
+    "Lot",
+    "Run",
+    "acting",
+    "by_code",
+    "check_passphrase",
+    "iso",
+    "not_future",
+    "setting",
+    "spec_data",
+    "user_named",
+    "write",
+]

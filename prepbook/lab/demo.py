@@ -1,0 +1,118 @@
+"""Building the demo lab: an invented scenario, entered through the same services
+a bench would use, with its dates counted back from today."""
+
+from __future__ import annotations
+
+import tomllib
+from datetime import UTC, datetime, timedelta
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from prepbook.errors import Refused
+
+DEMO_FILE = "lab.toml"
+
+
+def scenario() -> dict[str, Any]:
+    text = resources.files("prepbook.demo_lab").joinpath(DEMO_FILE).read_text(encoding="utf-8")
+    return tomllib.loads(text)
+
+
+def _moment(today: datetime, day: int, clock: str = "09:00") -> datetime:
+    hh, mm = (int(x) for x in clock.split(":"))
+    return (today + timedelta(days=day)).replace(hour=hh, minute=mm, second=0, microsecond=0)
+
+
+def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
+    """Build the demo lab into a new SQLite file at ``path`` and return its board."""
+    from prepbook.lab import batches, board, instruments, lots, people, runs, setup
+    from prepbook.store.engine import open_database
+
+    path = path.expanduser()
+    if path.exists():
+        if not replace:
+            raise Refused(f"{path} already exists; the demo builds a new database "
+                          "(pass --replace to move the old file aside, or choose another --db)")
+        stamp = datetime.now(UTC).strftime("%Y%m%dT%H%M%S")
+        for suffix in ("", "-wal", "-shm"):
+            old = Path(f"{path}{suffix}")
+            if old.exists():
+                old.rename(f"{path}.old-{stamp}{suffix}")
+    data = scenario()
+    now = datetime.now(UTC).replace(tzinfo=None)
+    today = now.replace(hour=0, minute=0, second=0, microsecond=0)
+    target = str(path)
+    users = {u["name"]: u for u in data["user"]}
+    admin = next(u for u in data["user"] if u["role"] == "admin")
+    setup.initialize(target, actor=admin["name"])
+    db = open_database(target)
+    for u in data["user"]:
+        people.add_user(db, actor=admin["name"], name=u["name"], role=u["role"],
+                        passphrase=u["passphrase"], actor_passphrase=admin["passphrase"])
+    for ins in data["instrument"]:
+        instruments.add_instrument(
+            db, actor=admin["name"], code=ins["code"], kind=ins["kind"],
+            due=(today + timedelta(days=ins["due_day"])).date().isoformat(),
+            capacity=ins.get("capacity"), tolerance=ins.get("tolerance"),
+            readability=ins.get("readability"))
+    for lot in data["lot"]:
+        lots.add_lot(
+            db, actor=admin["name"], material=lot["material"], code=lot["code"],
+            purity=lot["purity"], purity_u=lot.get("purity_u"),
+            expires=(today + timedelta(days=lot["expires_day"])).date().isoformat(),
+            certificate=lot.get("certificate"),
+            dried=((today + timedelta(days=lot["dried_day"])).date().isoformat()
+                   if "dried_day" in lot else None))
+    codes: dict[str, str] = {}
+    run_count = 0
+    for b in data["batch"]:
+        made = _moment(today, b["day"], b.get("time", "09:00"))
+        res = batches.make_batch(
+            db, actor=b["by"], spec=b["spec"], volume=b["volume"],
+            solute_mass=b.get("solute_mass"), stock_volume=b.get("stock_volume"),
+            from_batch=codes[b["from_batch"]] if "from_batch" in b else None,
+            aliquot=b.get("aliquot"), flask=b.get("flask"), balance=b.get("balance"),
+            notes=b.get("notes"), at=made.isoformat(timespec="minutes"))
+        codes[b["key"]] = res["batch"]
+        for r in b.get("run", []):
+            when = _moment(today, r["day"], r.get("time", "10:00"))
+            out = runs.standardize(
+                db, actor=r["by"], batch=res["batch"], replicates=list(r["reps"]),
+                lot=r.get("lot"), against=codes[r["against"]] if "against" in r else None,
+                balance=r.get("balance"), burette=r.get("burette"), temperature=r.get("temp"),
+                blank=r.get("blank"), indicator=r.get("indicator"),
+                at=when.isoformat(timespec="minutes"))
+            run_count += 1
+            rv = r.get("review")
+            if rv:
+                signed = min(when + timedelta(hours=5), now)
+                runs.review(db, actor=rv["by"], run=out["run"],
+                            accept=rv["decision"] == "accept", reason=rv.get("reason"),
+                            passphrase=users[rv["by"]]["passphrase"],
+                            at=signed.isoformat(timespec="minutes"))
+    from prepbook.lab import auditing
+
+    verified = auditing.verify(db)
+    items = board.board(db)
+    story = [
+        "users (demo passphrases): " + ", ".join(
+            f"{u['name']} ({u['role']}, {u['passphrase']})" for u in data["user"]),
+        "sodium hydroxide " + codes["naoh_a"] + " has lost strength to carbon dioxide "
+        "over eleven weeks and is due for restandardization",
+        "hydrochloric acid " + codes["hcl_01"] + " was diluted from the 1 N stock "
+        + codes["hcl_stock"] + " and standardized against sodium hydroxide " + codes["naoh_b"],
+        "a thiosulfate run was rejected and repeated; permanganate " + codes["kmno4"]
+        + " is past its shelf life; an EDTA run awaits review",
+    ]
+    return {
+        "lab": data["lab"],
+        "database": target,
+        "batches": len(codes),
+        "runs": run_count,
+        "events": verified["events"],
+        "verified": verified["ok"],
+        "story": story,
+        "board": items,
+        "example_batch": codes["naoh_a"],
+    }

@@ -1,0 +1,70 @@
+"""Balances, burettes, flasks, pipettes, thermometers and meters, with calibration due dates."""
+
+from __future__ import annotations
+
+from datetime import date
+from typing import Any
+
+from sqlalchemy import select
+
+from prepbook.errors import InvalidInput, Refused
+from prepbook.inputs import parse_code, parse_date, parse_number, utc_now
+from prepbook.lab.common import acting, iso, write
+from prepbook.store.engine import Database
+from prepbook.store.models import INSTRUMENT_KINDS, Instrument
+
+UNITS = {"balance": "g", "burette": "mL", "flask": "mL", "pipette": "mL",
+         "thermometer": "C", "meter": ""}
+
+
+def instrument_dict(ins: Instrument, today: date | None = None) -> dict[str, Any]:
+    today = today or utc_now().date()
+    return {
+        "code": ins.code,
+        "kind": ins.kind,
+        "unit": UNITS.get(ins.kind, ""),
+        "due": iso(ins.due),
+        "overdue": ins.due < today,
+        "capacity": ins.capacity_text,
+        "tolerance": ins.tolerance_text,
+        "readability": ins.readability_text,
+    }
+
+
+def add_instrument(db: Database, *, actor: str, code: str, kind: str, due: str,
+                   capacity: str | None, tolerance: str | None,
+                   readability: str | None) -> dict[str, Any]:
+    code = parse_code(code, "instrument code")
+    if kind not in INSTRUMENT_KINDS:
+        raise InvalidInput(f"instrument kind {kind!r} is not one of {', '.join(INSTRUMENT_KINDS)}")
+    due_d = parse_date(due, "calibration due date")
+    unit = UNITS[kind]
+    cap = parse_number(capacity, f"capacity ({unit})", positive=True) if capacity else None
+    tol = parse_number(tolerance, f"tolerance (+/- {unit})", non_negative=True) if tolerance \
+        else None
+    rd = parse_number(readability, f"readability ({unit})", positive=True) if readability \
+        else None
+    if kind == "burette" and cap is None:
+        raise InvalidInput("a burette needs its --capacity (mL)")
+    if cap is not None and tol is not None and tol.value >= cap.value:
+        raise InvalidInput("tolerance must be smaller than the capacity")
+    if cap is not None and rd is not None and rd.value >= cap.value:
+        raise InvalidInput("readability must be smaller than the capacity")
+    with db.session() as s:
+        user = acting(s, actor, doing="add instruments")
+        if s.scalars(select(Instrument).where(Instrument.code == code)).first() is not None:
+            raise Refused(f"instrument {code!r} already exists")
+        ins = Instrument(code=code, kind=kind, due=due_d,
+                         capacity_text=cap.text if cap else None,
+                         tolerance_text=tol.text if tol else None,
+                         readability_text=rd.text if rd else None,
+                         created_at=utc_now(), created_by=user.name)
+        write(s, user.name, "instrument.add", ins)
+        return instrument_dict(ins)
+
+
+def list_instruments(db: Database) -> list[dict[str, Any]]:
+    today = utc_now().date()
+    with db.session() as s:
+        return [instrument_dict(i, today)
+                for i in s.scalars(select(Instrument).order_by(Instrument.kind, Instrument.code))]

@@ -1,0 +1,71 @@
+"""Primary-standard (and solute) lots with their certificate values."""
+
+from __future__ import annotations
+
+from datetime import date
+from typing import Any
+
+from sqlalchemy import select
+
+from prepbook.errors import InvalidInput, Refused
+from prepbook.inputs import parse_code, parse_date, parse_number, parse_percent, parse_text, utc_now
+from prepbook.lab.common import acting, iso, write
+from prepbook.store.engine import Database
+from prepbook.store.models import Lot
+
+
+def lot_dict(lot: Lot, today: date | None = None) -> dict[str, Any]:
+    today = today or utc_now().date()
+    return {
+        "code": lot.code,
+        "material": lot.material_code,
+        "purity_percent": lot.purity_text,
+        "purity_u_percent": lot.purity_u_text,
+        "expires": iso(lot.expires),
+        "expired": lot.expires < today,
+        "certificate": lot.certificate,
+        "dried_on": iso(lot.dried_on),
+        "opened_on": iso(lot.opened_on),
+        "created_by": lot.created_by,
+    }
+
+
+def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
+            purity_u: str | None, expires: str, certificate: str | None,
+            dried: str | None, opened: str | None = None) -> dict[str, Any]:
+    from prepbook.catalog import loader
+
+    mat = loader.find_material(material)
+    code = parse_code(code, "lot code")
+    purity_r = parse_percent(purity, "purity")
+    purity_u_r = (parse_number(purity_u, "purity uncertainty (%)", non_negative=True)
+                  if purity_u is not None else None)
+    if purity_u_r is not None and purity_u_r.value >= purity_r.value:
+        raise InvalidInput("purity uncertainty must be smaller than the purity")
+    expires_d = parse_date(expires, "expiry date")
+    dried_d = parse_date(dried, "dried date") if dried else None
+    opened_d = parse_date(opened, "opened date") if opened else None
+    today = utc_now().date()
+    for d, what in ((dried_d, "dried date"), (opened_d, "opened date")):
+        if d is not None and d > today:
+            raise InvalidInput(f"{what} {d.isoformat()} is in the future")
+        if d is not None and d > expires_d:
+            raise InvalidInput(f"{what} {d.isoformat()} is after the lot's expiry "
+                               f"{expires_d.isoformat()}")
+    certificate = parse_text(certificate, "certificate", max_len=500)
+    with db.session() as s:
+        user = acting(s, actor, doing="add lots")
+        if s.scalars(select(Lot).where(Lot.code == code)).first() is not None:
+            raise Refused(f"lot {code!r} already exists")
+        lot = Lot(code=code, material_code=mat.code, purity_text=purity_r.text,
+                  purity_u_text=purity_u_r.text if purity_u_r else None, expires=expires_d,
+                  certificate=certificate, dried_on=dried_d, opened_on=opened_d,
+                  created_at=utc_now(), created_by=user.name)
+        write(s, user.name, "lot.add", lot)
+        return lot_dict(lot, today)
+
+
+def list_lots(db: Database) -> list[dict[str, Any]]:
+    today = utc_now().date()
+    with db.session() as s:
+        return [lot_dict(lot, today) for lot in s.scalars(select(Lot).order_by(Lot.code))]

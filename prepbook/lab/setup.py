@@ -1,0 +1,61 @@
+"""Creating or upgrading a database and loading the built-in catalog into it."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import asdict
+from typing import Any
+
+from sqlalchemy import select
+
+from prepbook.inputs import utc_now
+from prepbook.lab.common import write
+from prepbook.store.models import Material, Spec
+
+
+def _json(value: Any) -> str:
+    return json.dumps(value, sort_keys=True, ensure_ascii=False)
+
+
+def initialize(target: str, *, actor: str) -> dict[str, Any]:
+    """Create or upgrade the database, then add any built-in catalog entry it lacks.
+
+    Running it again changes nothing: entries already present are left as they
+    are (a lab's record is never rewritten by a new catalog).
+    """
+    from prepbook.catalog import loader
+    from prepbook.store import migrate
+    from prepbook.store.engine import open_database
+
+    report = migrate.upgrade(target)
+    db = open_database(target)
+    added_materials: list[str] = []
+    added_specs: list[str] = []
+    with db.session() as s:
+        have_m = set(s.scalars(select(Material.code)))
+        have_s = set(s.scalars(select(Spec.code)))
+        now = utc_now()
+        for m in loader.materials():
+            if m.code in have_m:
+                continue
+            write(s, actor, "catalog.material", Material(
+                code=m.code, name=m.name, formula=m.formula, data=_json(asdict(m)),
+                builtin=True, created_at=now))
+            added_materials.append(m.code)
+        for sp in loader.specs():
+            if sp.code in have_s:
+                continue
+            write(s, actor, "catalog.spec", Spec(
+                code=sp.code, name=sp.name, solute_code=sp.solute, nominal=sp.nominal,
+                unit=sp.unit, data=_json(asdict(sp)), builtin=True, created_at=now,
+                created_by=actor))
+            added_specs.append(sp.code)
+    return {
+        "database": db.url_for_display if hasattr(db, "url_for_display") else str(target),
+        "created": report.created,
+        "from_revision": report.from_revision,
+        "to_revision": report.to_revision,
+        "backup": report.backup_path,
+        "materials_added": added_materials,
+        "specs_added": added_specs,
+    }

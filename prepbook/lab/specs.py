@@ -1,0 +1,179 @@
+"""Solution specs as the record holds them: built-in ones and the lab's own."""
+
+from __future__ import annotations
+
+import json
+import re
+from dataclasses import dataclass, field
+from typing import Any
+
+from sqlalchemy import select
+
+from prepbook.errors import InvalidInput, Refused
+from prepbook.inputs import parse_number, parse_text, utc_now
+from prepbook.lab.common import acting, write
+from prepbook.store.engine import Database
+from prepbook.store.models import Spec
+
+
+@dataclass(frozen=True)
+class SpecView:
+    """What the services need of a spec, read from its stored JSON."""
+
+    code: str
+    name: str
+    solute: str
+    reaction: str | None
+    nominal: float
+    unit: str
+    standard: str | None
+    indicator: str | None
+    min_replicates: int
+    max_rsd_percent: float
+    factor_low: float
+    factor_high: float
+    drift_limit_percent: float
+    restandardize_days: int
+    shelf_life_days: int
+    storage: str | None
+    hazard: dict[str, Any] = field(default_factory=dict)
+    cautions: list[str] = field(default_factory=list)
+    data: dict[str, Any] = field(default_factory=dict)
+
+    def to_spec_unit(self, normality: float, n_eq_per_mol: float) -> float:
+        """A normality expressed in the spec's unit (N as is; M divided by n)."""
+        return normality if self.unit == "N" else normality / n_eq_per_mol
+
+    def rules(self) -> Any:
+        from prepbook.rules.acceptance import AcceptanceRules
+
+        return AcceptanceRules(
+            min_replicates=self.min_replicates,
+            max_rsd_percent=self.max_rsd_percent,
+            factor_low=self.factor_low,
+            factor_high=self.factor_high,
+            drift_limit_percent=self.drift_limit_percent,
+        )
+
+
+def _get(d: dict[str, Any], *names: str, default: Any = None) -> Any:
+    for n in names:
+        if n in d and d[n] is not None:
+            return d[n]
+    return default
+
+
+def view(spec: Spec) -> SpecView:
+    d = json.loads(spec.data)
+    return SpecView(
+        code=spec.code,
+        name=spec.name,
+        solute=spec.solute_code,
+        reaction=_get(d, "reaction", "reaction_name"),
+        nominal=spec.nominal,
+        unit=spec.unit,
+        standard=_get(d, "standard"),
+        indicator=_get(d, "indicator"),
+        min_replicates=int(_get(d, "min_replicates", default=3)),
+        max_rsd_percent=float(_get(d, "max_rsd_percent", default=0.2)),
+        factor_low=float(_get(d, "factor_low", default=0.9)),
+        factor_high=float(_get(d, "factor_high", default=1.1)),
+        drift_limit_percent=float(_get(d, "drift_limit_percent", default=0.5)),
+        restandardize_days=int(_get(d, "restandardize_days", default=30)),
+        shelf_life_days=int(_get(d, "shelf_life_days", default=180)),
+        storage=_get(d, "storage"),
+        hazard=_get(d, "hazard", default={}) or {},
+        cautions=list(_get(d, "cautions", default=[]) or []),
+        data=d,
+    )
+
+
+def spec_dict(spec: Spec) -> dict[str, Any]:
+    v = view(spec)
+    return {
+        "code": v.code, "name": v.name, "solute": v.solute, "reaction": v.reaction,
+        "nominal": v.nominal, "unit": v.unit, "standard": v.standard, "indicator": v.indicator,
+        "min_replicates": v.min_replicates, "max_rsd_percent": v.max_rsd_percent,
+        "factor_low": v.factor_low, "factor_high": v.factor_high,
+        "drift_limit_percent": v.drift_limit_percent,
+        "restandardize_days": v.restandardize_days, "shelf_life_days": v.shelf_life_days,
+        "storage": v.storage, "hazard": v.hazard, "cautions": v.cautions,
+        "builtin": spec.builtin,
+    }
+
+
+def list_specs(db: Database) -> list[dict[str, Any]]:
+    with db.session() as s:
+        return [spec_dict(sp) for sp in s.scalars(select(Spec).order_by(Spec.code))]
+
+
+_SPEC_CODE = re.compile(r"^[A-Za-z0-9()]+(-[A-Za-z0-9().]+)+$")
+
+
+def add_spec(
+    db: Database,
+    *,
+    actor: str,
+    code: str,
+    solute: str,
+    nominal: str,
+    unit: str,
+    name: str | None = None,
+    reaction: str | None = None,
+    standard: str | None = None,
+    indicator: str | None = None,
+    min_replicates: int = 3,
+    max_rsd_percent: str = "0.2",
+    factor_low: str = "0.90",
+    factor_high: str = "1.10",
+    drift_limit_percent: str = "0.5",
+    restandardize_days: int = 30,
+    shelf_life_days: int = 180,
+    storage: str | None = None,
+) -> dict[str, Any]:
+    """Add a lab's own solution spec (the built-in ones come from the catalog)."""
+    from prepbook.catalog import loader
+
+    if not _SPEC_CODE.match(code) or len(code) > 40:
+        raise InvalidInput(f"spec code {code!r} should be the solute and strength, "
+                           "e.g. NaOH-0.5N")
+    if unit not in ("N", "M"):
+        raise InvalidInput(f"unit {unit!r} must be N (normality) or M (molarity)")
+    sol = loader.find_material(solute)
+    rx = sol.reaction(name=reaction) if reaction else sol.reaction()
+    std = loader.find_material(standard) if standard else None
+    if indicator:
+        loader.find_indicator(indicator)
+    nom = parse_number(nominal, "nominal concentration", positive=True)
+    rsd = parse_number(max_rsd_percent, "RSD limit (%)", positive=True)
+    lo = parse_number(factor_low, "factor low limit", positive=True)
+    hi = parse_number(factor_high, "factor high limit", positive=True)
+    drift = parse_number(drift_limit_percent, "drift limit (%)", positive=True)
+    if lo.value >= 1 or hi.value <= 1:
+        raise InvalidInput("the factor window must contain 1 (e.g. 0.90 to 1.10)")
+    if min_replicates < 1 or restandardize_days < 1 or shelf_life_days < 1:
+        raise InvalidInput("replicates, restandardization interval and shelf life must be "
+                           "at least 1")
+    if restandardize_days > shelf_life_days:
+        raise InvalidInput("the restandardization interval cannot be longer than the shelf life")
+    storage = parse_text(storage, "storage", max_len=300)
+    data = {
+        "code": code, "name": name or f"{sol.name} {nom.text} {unit}", "solute": sol.code,
+        "reaction": rx.name, "nominal": nom.value, "unit": unit,
+        "standard": std.code if std else None, "indicator": indicator,
+        "min_replicates": min_replicates, "max_rsd_percent": rsd.value,
+        "factor_low": lo.value, "factor_high": hi.value,
+        "drift_limit_percent": drift.value, "restandardize_days": restandardize_days,
+        "shelf_life_days": shelf_life_days, "storage": storage,
+        "hazard": {}, "cautions": list(getattr(sol, "cautions", ()) or ()),
+        "sources": {"all": "set by the laboratory"},
+    }
+    with db.session() as s:
+        user = acting(s, actor, ("reviewer", "admin"), "add solution specs")
+        if s.scalars(select(Spec).where(Spec.code == code)).first() is not None:
+            raise Refused(f"spec {code!r} already exists")
+        sp = Spec(code=code, name=data["name"], solute_code=sol.code, nominal=nom.value,
+                  unit=unit, data=json.dumps(data, sort_keys=True), builtin=False,
+                  created_at=utc_now(), created_by=user.name)
+        write(s, user.name, "spec.add", sp)
+        return spec_dict(sp)

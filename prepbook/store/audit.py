@@ -1,0 +1,560 @@
+"""The append-only audit trail: one hash-chained event per write, and its verification.
+
+Each event stores the canonical JSON snapshot of the whole row after the write.
+Its hash covers (seq, at, actor, action, record_type, record_id, values, reason,
+performed_at, prev_hash), so an edited, removed or reordered event breaks the
+chain. With ``PREPBOOK_AUDIT_KEY_FILE`` naming a file that holds a lab secret
+kept outside the database, the hash is an HMAC and a chain rewritten without the
+secret no longer verifies. ``verify`` also compares every current row with the
+snapshot of its last event, so a row edited, added or deleted behind prepbook's
+back is found and named.
+
+The hash is stored with its scheme (``sha256:<hex>`` or ``hmac-sha256:<hex>``) so
+verification can say which one a chain was written with.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import hmac
+import json
+import math
+import os
+from collections.abc import Callable
+from dataclasses import dataclass
+from datetime import UTC, date, datetime, time, timedelta
+from json.encoder import encode_basestring  # type: ignore[attr-defined]
+from pathlib import Path
+from typing import Any
+
+from sqlalchemy import String, select, type_coerce
+from sqlalchemy.orm import Session
+
+from prepbook.errors import InvalidInput
+from prepbook.store.models import (
+    AUDITED_TABLES,
+    AuditEvent,
+    AuditHead,
+    Base,
+    snapshot,
+    snapshot_columns,
+)
+
+KEY_ENV = "PREPBOOK_AUDIT_KEY_FILE"
+PLAIN = "sha256"
+KEYED = "hmac-sha256"
+_MAX_LISTED = 10  # problems of one kind listed one by one before they are counted
+
+_events = AuditEvent.__table__
+_head = AuditHead.__table__
+
+
+@dataclass(frozen=True)
+class VerifyReport:
+    """Outcome of ``verify``: ok only when the chain and every audited row check out."""
+
+    ok: bool
+    events: int
+    head_hash: str | None
+    problems: tuple[str, ...]
+
+
+# Built once: json.dumps with options would build a new encoder per call (verify is hot).
+_canonical = json.JSONEncoder(
+    sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
+).encode
+_in_order = json.JSONEncoder(separators=(",", ":"), ensure_ascii=False, allow_nan=False).encode
+
+
+def canonical_json(value: Any) -> str:
+    """The one JSON spelling of a value: sorted keys, no spaces, UTF-8, no NaN."""
+    return _canonical(value)
+
+
+def _json_bool(value: bool) -> str:
+    return "true" if value else "false"
+
+
+def _json_float(value: float) -> str:
+    # json writes finite floats with float.__repr__; let it raise on NaN as it would.
+    return float.__repr__(value) if math.isfinite(value) else _in_order(value)
+
+
+# Exactly what _in_order writes for these scalar types, without its per-call setup.
+_SCALAR: dict[type, Callable[[Any], str]] = {
+    str: encode_basestring,
+    int: int.__repr__,
+    float: _json_float,
+    bool: _json_bool,
+    type(None): lambda _value: "null",
+}
+
+
+def _scalar_json(value: Any) -> str:
+    write = _SCALAR.get(type(value))
+    return write(value) if write is not None else _in_order(value)
+
+
+def _object_json(keys: tuple[str, ...], values: Any) -> str:
+    """``_in_order`` of a dict with these (already JSON-quoted, colon-ended) keys."""
+    return "{" + ",".join(k + _scalar_json(v) for k, v in zip(keys, values, strict=True)) + "}"
+
+
+def utc_naive(moment: datetime) -> datetime:
+    """A datetime as naive UTC (aware ones converted; naive ones taken as UTC already)."""
+    if moment.tzinfo is not None:
+        return moment.astimezone(UTC).replace(tzinfo=None)
+    return moment
+
+
+def _iso(moment: datetime | None) -> str | None:
+    return None if moment is None else moment.isoformat(timespec="microseconds")
+
+
+def read_key() -> bytes | None:
+    """The lab's audit secret from the file named by PREPBOOK_AUDIT_KEY_FILE, if set."""
+    name = os.environ.get(KEY_ENV)
+    if not name:
+        return None
+    try:
+        key = Path(name).expanduser().read_bytes().strip()
+    except OSError as exc:
+        raise InvalidInput(f"cannot read the audit key file named by {KEY_ENV}: {exc}") from exc
+    if not key:
+        raise InvalidInput(f"the audit key file named by {KEY_ENV} ({name}) is empty")
+    return key
+
+
+def _hasher(key: bytes | None) -> tuple[str, Callable[[bytes], str]]:
+    if key is None:
+        return PLAIN, lambda payload: hashlib.sha256(payload).hexdigest()
+    return KEYED, lambda payload: hmac.new(key, payload, hashlib.sha256).hexdigest()
+
+
+def _payload(
+    seq: int,
+    at: str | None,
+    actor: str,
+    action: str,
+    record_type: str,
+    record_id: int,
+    values: str,
+    reason: str | None,
+    performed_at: str | None,
+    prev_hash: str | None,
+) -> bytes:
+    if (
+        type(seq) is int
+        and type(record_id) is int
+        and type(at) is str
+        and type(actor) is str
+        and type(action) is str
+        and type(record_type) is str
+        and type(values) is str
+    ):
+        # The usual shapes, written in one go (verify's hot path); same bytes as below.
+        q = encode_basestring
+        text = (
+            f"[{seq},{q(at)},{q(actor)},{q(action)},{q(record_type)},{record_id},{q(values)},"
+            f"{'null' if reason is None else _scalar_json(reason)},"
+            f"{'null' if performed_at is None else _scalar_json(performed_at)},"
+            f"{'null' if prev_hash is None else _scalar_json(prev_hash)}]"
+        )
+        return text.encode()
+    fields = (seq, at, actor, action, record_type, record_id, values, reason, performed_at)
+    # Same bytes as json.dumps(list(fields), separators=(",", ":"), ensure_ascii=False).
+    return ("[" + ",".join(map(_scalar_json, (*fields, prev_hash))) + "]").encode()
+
+
+def record(
+    session: Session,
+    *,
+    actor: str,
+    action: str,
+    row: Base,
+    reason: str | None = None,
+    performed_at: datetime | None = None,
+) -> int:
+    """Append the audit event for a write to ``row`` in the caller's transaction; its seq.
+
+    Call it after every insert or permitted update. The head row is locked for the
+    rest of the transaction (FOR UPDATE on PostgreSQL; on SQLite the session's
+    BEGIN IMMEDIATE already holds the write lock), so events never interleave.
+    """
+    if not actor or not actor.strip():
+        raise InvalidInput("an audit event needs an actor")
+    if not action or not action.strip():
+        raise InvalidInput("an audit event needs an action")
+    table = row.__table__  # type: ignore[attr-defined]
+    if table.name not in AUDITED_TABLES:
+        raise InvalidInput(f"{table.name} rows are not audited")
+    scheme, digest = _hasher(read_key())
+
+    session.flush()
+    values = canonical_json(snapshot(row))
+    record_id = int(row.id)  # type: ignore[attr-defined]
+
+    head = session.execute(
+        select(AuditHead)
+        .where(AuditHead.id == 1)
+        .with_for_update()
+        .execution_options(populate_existing=True)
+    ).scalar_one_or_none()
+    if head is None:
+        # Only a schema built without the migration lacks the seeded head row.
+        if session.execute(select(AuditEvent.seq).limit(1)).first() is not None:
+            from prepbook.errors import IntegrityError
+
+            raise IntegrityError("the audit head row is missing: run `prepbook audit verify`")
+        head = AuditHead(id=1, seq=0, hash=None)
+        session.add(head)
+
+    seq = head.seq + 1
+    at = datetime.now(UTC).replace(tzinfo=None)
+    when = utc_naive(performed_at) if performed_at is not None else None
+    payload = _payload(
+        seq,
+        _iso(at),
+        actor,
+        action,
+        table.name,
+        record_id,
+        values,
+        reason,
+        _iso(when),
+        head.hash,
+    )
+    new_hash = f"{scheme}:{digest(payload)}"
+    session.add(
+        AuditEvent(
+            seq=seq,
+            at=at,
+            actor=actor,
+            action=action,
+            record_type=table.name,
+            record_id=record_id,
+            values=values,
+            reason=reason,
+            performed_at=when,
+            prev_hash=head.hash,
+            hash=new_hash,
+        )
+    )
+    head.seq = seq
+    head.hash = new_hash
+    session.flush()
+    return seq
+
+
+def _label(record_type: str, record_id: Any, values: dict[str, Any] | None) -> str:
+    """'batches #3 (code B-1)': the table, the id and the human key where there is one."""
+    text = f"{record_type} #{record_id}"
+    if values:
+        for key in ("code", "name", "key"):
+            if values.get(key) is not None:
+                return f"{text} ({key} {values[key]})"
+    return text
+
+
+def _stored_time_iso(raw: Any) -> str | None:
+    """The canonical ISO text of a stored time, whatever the driver hands back.
+
+    SQLite gives SQLAlchemy's text ``YYYY-MM-DD HH:MM:SS.ffffff``; that exact shape
+    is rewritten without parsing (verify's hot path). Any other text is parsed; a
+    change to the text changes the result, so the hash check still sees it.
+    """
+    if raw is None:
+        return None
+    if isinstance(raw, datetime):
+        return _iso(raw)
+    text = str(raw)
+    if len(text) == 26 and text[10] == " " and text[19] == ".":
+        return f"{text[:10]}T{text[11:]}"
+    return _iso(datetime.fromisoformat(text))
+
+
+class _Problems:
+    """Problems grouped by kind, each kind listed up to a limit and then counted."""
+
+    def __init__(self) -> None:
+        self._kinds: dict[str, list[str]] = {}
+        self._extra: dict[str, int] = {}
+
+    def add(self, kind: str, message: str) -> None:
+        listed = self._kinds.setdefault(kind, [])
+        if len(listed) < _MAX_LISTED:
+            listed.append(message)
+        else:
+            self._extra[kind] = self._extra.get(kind, 0) + 1
+
+    def as_tuple(self) -> tuple[str, ...]:
+        out: list[str] = []
+        for kind, listed in self._kinds.items():
+            out.extend(listed)
+            if self._extra.get(kind):
+                out.append(f"... and {self._extra[kind]} more like the above ({kind})")
+        return tuple(out)
+
+
+def verify(session: Session) -> VerifyReport:
+    """Recompute the whole chain and check every audited row against its last event."""
+    problems = _Problems()
+    try:
+        key = read_key()
+    except InvalidInput as exc:
+        problems.add("key", f"{exc}; keyed events cannot be checked")
+        key = None
+    scheme, digest = _hasher(key)
+    other = KEYED if scheme == PLAIN else PLAIN
+    conn = session.connection()
+    on_sqlite = conn.dialect.name == "sqlite"
+
+    def time_column(name: str) -> Any:
+        # On SQLite read times as text and parse them here, so one tampered value is
+        # reported instead of aborting the read.
+        column = _events.c[name]
+        return type_coerce(column, String()).label(name) if on_sqlite else column
+
+    stmt = (
+        select(
+            _events.c.seq,
+            time_column("at"),
+            _events.c.actor,
+            _events.c.action,
+            _events.c.record_type,
+            _events.c.record_id,
+            _events.c["values"],
+            _events.c.reason,
+            time_column("performed_at"),
+            _events.c.prev_hash,
+            _events.c.hash,
+        )
+        .order_by(_events.c.seq)
+        .execution_options(yield_per=10_000)
+    )
+    last_values: dict[tuple[str, Any], str] = {}
+    count = 0
+    prev_seq = 0
+    prev_hash: str | None = None
+    wrong_scheme = 0
+    for (
+        seq,
+        at,
+        actor,
+        action,
+        rtype,
+        rid,
+        values,
+        reason,
+        pat,
+        stored_prev,
+        stored,
+    ) in conn.execute(stmt):
+        count += 1
+        if seq != prev_seq + 1:
+            missing = f"#{prev_seq + 1}" if seq == prev_seq + 2 else f"#{prev_seq + 1}-#{seq - 1}"
+            problems.add(
+                "gap", f"audit event {missing} missing before #{seq}: removed outside prepbook"
+            )
+        elif stored_prev != prev_hash:
+            problems.add(
+                "link",
+                f"audit event #{seq} does not link to event #{prev_seq} "
+                "(prev_hash differs): the trail was rewritten",
+            )
+        try:
+            at_iso = _stored_time_iso(at)
+            pat_iso = _stored_time_iso(pat)
+        except ValueError:
+            problems.add(
+                "edited", f"audit event #{seq} has an unreadable time: edited outside prepbook"
+            )
+        else:
+            payload = _payload(
+                seq, at_iso, actor, action, rtype, rid, values, reason, pat_iso, stored_prev
+            )
+            if isinstance(stored, str) and stored.startswith(other + ":"):
+                wrong_scheme += 1
+            elif stored != f"{scheme}:{digest(payload)}":
+                problems.add(
+                    "edited",
+                    f"audit event #{seq} ({_label(rtype, rid, None)}) does "
+                    "not match its hash: edited outside prepbook",
+                )
+        last_values[(rtype, rid)] = values
+        prev_seq = seq
+        prev_hash = stored
+
+    if wrong_scheme:
+        if scheme == PLAIN:
+            problems.add(
+                "key",
+                f"{wrong_scheme} audit event(s) are keyed (hmac-sha256) and "
+                f"cannot be checked without the key: set {KEY_ENV}",
+            )
+        else:
+            problems.add(
+                "key",
+                f"{wrong_scheme} audit event(s) are not keyed although an "
+                "audit key is set: the chain was written or rewritten without it",
+            )
+
+    head = conn.execute(select(_head.c.seq, _head.c.hash).where(_head.c.id == 1)).first()
+    head_rows = conn.execute(select(_head.c.id)).all()
+    if head is None:
+        if count:
+            problems.add("head", "the audit head row is missing")
+    else:
+        if len(head_rows) > 1:
+            problems.add("head", "the audit head table has more than one row")
+        head_seq, head_hash = head
+        if head_seq != prev_seq:
+            if head_seq > prev_seq:
+                problems.add(
+                    "head",
+                    f"the audit head names event #{head_seq} but the trail "
+                    f"ends at #{prev_seq}: events removed from the end",
+                )
+            else:
+                problems.add(
+                    "head",
+                    f"the audit head names event #{head_seq} but the trail "
+                    f"goes on to #{prev_seq}: events added outside prepbook",
+                )
+        elif head_hash != prev_hash:
+            problems.add("head", f"the audit head hash does not match event #{prev_seq}")
+
+    _check_rows(conn, last_values, problems)
+    listed = problems.as_tuple()
+    return VerifyReport(ok=not listed, events=count, head_hash=prev_hash, problems=listed)
+
+
+def _check_rows(conn: Any, last_values: dict[tuple[str, Any], str], problems: _Problems) -> None:
+    """Every audited row must equal the snapshot in its last event, and vice versa."""
+    seen: set[tuple[str, Any]] = set()
+    for name, table in AUDITED_TABLES.items():
+        columns = snapshot_columns(table)
+        names = tuple(n for n, _ in columns)
+        keys = tuple(encode_basestring(n) + ":" for n in names)
+        stmt = select(*(table.c[n] for n in names)).order_by(table.c.id)
+        try:
+            for row in conn.execute(stmt.execution_options(yield_per=10_000)):
+                values = [
+                    None if v is None else convert(v)
+                    for (_, convert), v in zip(columns, row, strict=True)
+                ]
+                # Sorted column order, so this is the canonical JSON record() stored.
+                text = _object_json(keys, values)
+                current = dict(zip(names, values, strict=True))
+                rid = current["id"]
+                seen.add((name, rid))
+                stored = last_values.get((name, rid))
+                if stored is None:
+                    problems.add(
+                        "added",
+                        f"{_label(name, rid, current)} has no audit event: added outside prepbook",
+                    )
+                    continue
+                if text == stored:
+                    continue
+                try:
+                    audited = json.loads(stored)
+                except ValueError:
+                    audited = {}
+                if not isinstance(audited, dict):
+                    audited = {}
+                missing = object()
+                differ = sorted(
+                    column
+                    for column in set(current) | set(audited)
+                    if current.get(column, missing) != audited.get(column, missing)
+                )
+                problems.add(
+                    "differs",
+                    f"{_label(name, rid, current)} differs from its last "
+                    f"audited state in: {', '.join(differ)}",
+                )
+        except (ValueError, TypeError) as exc:
+            problems.add(
+                "unreadable", f"{name}: a row cannot be read ({exc}): edited outside prepbook"
+            )
+
+    for (name, rid), stored in last_values.items():
+        if (name, rid) in seen:
+            continue
+        if name not in AUDITED_TABLES:
+            problems.add("unknown", f"audit events name an unknown table {name!r} (#{rid})")
+            continue
+        try:
+            audited = json.loads(stored)
+        except ValueError:
+            audited = None
+        problems.add(
+            "deleted",
+            f"{_label(name, rid, audited if isinstance(audited, dict) else None)}"
+            " is gone but its audit events remain: deleted outside prepbook",
+        )
+
+
+def log(
+    session: Session,
+    *,
+    record_type: str | None = None,
+    record_id: int | None = None,
+    actor: str | None = None,
+    since: date | datetime | None = None,
+    until: date | datetime | None = None,
+    limit: int | None = None,
+) -> list[dict[str, Any]]:
+    """Audit events as plain dicts, oldest first; ``limit`` keeps the most recent ones.
+
+    Times are UTC. ``since`` is inclusive; ``until`` is inclusive too, and a plain
+    date means the whole of that day.
+    """
+    stmt = select(
+        _events.c.seq,
+        _events.c.at,
+        _events.c.actor,
+        _events.c.action,
+        _events.c.record_type,
+        _events.c.record_id,
+        _events.c.reason,
+        _events.c.performed_at,
+    )
+    if record_type is not None:
+        stmt = stmt.where(_events.c.record_type == record_type)
+    if record_id is not None:
+        stmt = stmt.where(_events.c.record_id == record_id)
+    if actor is not None:
+        stmt = stmt.where(_events.c.actor == actor)
+    if since is not None:
+        start = since if isinstance(since, datetime) else datetime.combine(since, time.min)
+        stmt = stmt.where(_events.c.at >= utc_naive(start))
+    if until is not None:
+        if isinstance(until, datetime):
+            stmt = stmt.where(_events.c.at <= utc_naive(until))
+        else:
+            stmt = stmt.where(_events.c.at < datetime.combine(until + timedelta(days=1), time.min))
+    if limit is not None:
+        if limit < 1:
+            raise InvalidInput(f"limit must be a positive number of events, not {limit}")
+        stmt = stmt.order_by(_events.c.seq.desc()).limit(limit)
+    else:
+        stmt = stmt.order_by(_events.c.seq)
+    rows = session.connection().execute(stmt).all()
+    if limit is not None:
+        rows.reverse()
+    return [
+        {
+            "seq": row.seq,
+            "at": _iso(row.at),
+            "actor": row.actor,
+            "action": row.action,
+            "record": f"{row.record_type} #{row.record_id}",
+            "record_type": row.record_type,
+            "record_id": row.record_id,
+            "reason": row.reason,
+            "performed_at": _iso(row.performed_at),
+        }
+        for row in rows
+    ]

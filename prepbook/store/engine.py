@@ -1,0 +1,246 @@
+"""Where the database is, how to connect to it, and the one-transaction session.
+
+SQLite (the embedded default) runs in WAL mode with a busy timeout and foreign
+keys on, and every write transaction starts with ``BEGIN IMMEDIATE`` so two
+benches writing at once queue for the lock instead of deadlocking on a
+read-then-write upgrade. PostgreSQL URLs pass through unchanged.
+
+This module does not import Alembic: the schema revision is read with a plain
+query and compared with ``prepbook.store.migrate.HEAD_REVISION``.
+"""
+
+from __future__ import annotations
+
+import re
+import sqlite3
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path, PureWindowsPath
+from typing import Any
+
+from sqlalchemy import Engine, create_engine, event, make_url, text
+from sqlalchemy.exc import SQLAlchemyError
+from sqlalchemy.orm import ORMExecuteState, Session, sessionmaker
+
+from prepbook.errors import DatabaseError, IntegrityError
+from prepbook.store.migrate import HEAD_REVISION
+
+BUSY_TIMEOUT_S = 30.0
+_READ_ONLY = "prepbook_read_only"
+_WINDOWS_DRIVE = re.compile(r"^[A-Za-z]:[\\/]")
+
+
+def resolve_url(target: str) -> str:
+    """An SQLAlchemy URL for ``target``: a path becomes ``sqlite:///<absolute path>``.
+
+    Anything containing ``://`` is taken as a URL already. A Windows drive path
+    (``C:\\lab\\prep.db``) is recognised on any platform so a URL written on one
+    machine means the same file everywhere.
+    """
+    target = target.strip()
+    if not target:
+        raise DatabaseError("no database given: pass --db PATH or set PREPBOOK_DB")
+    if "://" in target:
+        return target
+    if target == ":memory:":
+        return "sqlite://"
+    if _WINDOWS_DRIVE.match(target):
+        database = PureWindowsPath(target).as_posix()
+    else:
+        database = str(Path(target).expanduser().resolve())
+    # Escape only what make_url would otherwise read as a query string or an escape.
+    escaped = database.replace("%", "%25").replace("?", "%3F").replace("#", "%23")
+    return f"sqlite:///{escaped}"
+
+
+def sqlite_path(url: str) -> Path | None:
+    """The file behind a SQLite URL, or None for a server or an in-memory database."""
+    parsed = make_url(url)
+    if parsed.get_backend_name() != "sqlite":
+        return None
+    database = parsed.database
+    if not database or database == ":memory:" or database.startswith("file:"):
+        return None
+    return Path(database)
+
+
+def _install_sqlite_pragmas(engine: Engine, *, foreign_keys: bool) -> None:
+    """The pysqlite recipe: driver autocommit off, SQLAlchemy emits BEGIN itself."""
+
+    @event.listens_for(engine, "connect")
+    def _on_connect(dbapi_connection: Any, _record: Any) -> None:
+        # Stop pysqlite from issuing its own deferred BEGIN; we emit ours below.
+        dbapi_connection.isolation_level = None
+        cursor = dbapi_connection.cursor()
+        try:
+            cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
+            cursor.execute("PRAGMA journal_mode = WAL")
+            cursor.execute(f"PRAGMA foreign_keys = {'ON' if foreign_keys else 'OFF'}")
+        finally:
+            cursor.close()
+
+    @event.listens_for(engine, "begin")
+    def _on_begin(connection: Any) -> None:
+        # Writers take the lock up front; read-only sessions keep a deferred BEGIN
+        # so the board never waits for a bench.
+        if connection.get_execution_options().get(_READ_ONLY):
+            connection.exec_driver_sql("BEGIN")
+        else:
+            connection.exec_driver_sql("BEGIN IMMEDIATE")
+
+
+def make_engine(url: str, *, foreign_keys: bool = True) -> Engine:
+    """An engine configured for prepbook (pragmas and BEGIN IMMEDIATE on SQLite)."""
+    if make_url(url).get_backend_name() == "sqlite":
+        engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT_S})
+        _install_sqlite_pragmas(engine, foreign_keys=foreign_keys)
+        return engine
+    return create_engine(url, pool_pre_ping=True)
+
+
+def _refuse_deletes_and_silent_updates(session: Session, _context: Any, _instances: Any) -> None:
+    """Keep the record append-only: no deletes, and only the updatable columns change."""
+    from sqlalchemy import inspect
+
+    from prepbook.store.models import Base
+
+    if session.deleted:
+        names = ", ".join(sorted({type(o).__name__ for o in session.deleted}))
+        raise IntegrityError(f"records are never deleted (attempted on: {names})")
+    for obj in session.dirty:
+        if not isinstance(obj, Base):
+            continue
+        state = inspect(obj)
+        allowed = type(obj).__updatable__
+        changed = []
+        for attr in state.mapper.column_attrs:
+            if attr.key not in allowed and state.attrs[attr.key].history.has_changes():
+                changed.append(attr.key)
+        for rel in state.mapper.relationships:
+            if rel.direction.name != "MANYTOONE":
+                continue
+            local = {c.key for c in rel.local_columns}
+            if not local <= allowed and state.attrs[rel.key].history.has_changes():
+                changed.append(rel.key)
+        if changed:
+            table = state.mapper.local_table.name
+            raise IntegrityError(
+                f"{table} #{state.identity[0] if state.identity else '?'}: "
+                f"{', '.join(sorted(changed))} cannot be changed once recorded; "
+                "record a correction instead"
+            )
+
+
+def _refuse_bulk_writes(state: ORMExecuteState) -> None:
+    """Bulk UPDATE/DELETE would bypass the audit trail; refuse them."""
+    if state.is_delete:
+        raise IntegrityError("records are never deleted (bulk DELETE refused)")
+    if state.is_update:
+        raise IntegrityError("bulk UPDATE bypasses the audit trail; update rows one by one")
+
+
+class Database:
+    """An open prepbook database: its URL, engine and transactional sessions."""
+
+    def __init__(self, url: str, *, engine: Engine | None = None) -> None:
+        self.url = url
+        self.engine = engine if engine is not None else make_engine(url)
+        self.path = sqlite_path(url)
+        self._write = sessionmaker(bind=self.engine, expire_on_commit=False)
+        self._read = sessionmaker(
+            bind=self.engine.execution_options(**{_READ_ONLY: True}), expire_on_commit=False
+        )
+        for factory in (self._write, self._read):
+            event.listen(factory, "before_flush", _refuse_deletes_and_silent_updates)
+            event.listen(factory, "do_orm_execute", _refuse_bulk_writes)
+
+    @property
+    def is_sqlite(self) -> bool:
+        """True for the embedded database (file or memory)."""
+        return self.engine.dialect.name == "sqlite"
+
+    @contextmanager
+    def session(self, *, write: bool = True) -> Iterator[Session]:
+        """One transaction: committed when the block ends, rolled back on any exception.
+
+        ``write=False`` starts a deferred transaction on SQLite, for reads that must
+        not queue behind a writer; it is still rolled back on error.
+        """
+        factory = self._write if write else self._read
+        with factory() as session, session.begin():
+            yield session
+
+    def dispose(self) -> None:
+        """Close pooled connections (lets a test or a backup see a quiet file)."""
+        self.engine.dispose()
+
+    def __repr__(self) -> str:
+        return f"Database({make_url(self.url).render_as_string(hide_password=True)!r})"
+
+
+def _init_hint(what: str) -> DatabaseError:
+    return DatabaseError(f"{what}: run `prepbook init` to create or upgrade it")
+
+
+def _sqlite_revision(path: Path) -> str | None:
+    """The schema revision of a SQLite file, read without creating or changing anything."""
+    try:
+        con = sqlite3.connect(
+            f"{path.resolve().as_uri()}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_S
+        )
+    except sqlite3.Error as exc:
+        raise DatabaseError(f"cannot open the database {path}: {exc}") from exc
+    try:
+        row = con.execute("SELECT version_num FROM alembic_version").fetchone()
+    except sqlite3.OperationalError as exc:
+        if "no such table" in str(exc):
+            return None
+        raise DatabaseError(f"cannot read the database {path}: {exc}") from exc
+    except sqlite3.DatabaseError as exc:
+        raise DatabaseError(f"{path} is not a prepbook database: {exc}") from exc
+    finally:
+        con.close()
+    return row[0] if row else None
+
+
+def _server_revision(db: Database) -> str | None:
+    from sqlalchemy import inspect
+
+    try:
+        with db.engine.connect() as conn:
+            if not inspect(conn).has_table("alembic_version"):
+                return None
+            return conn.execute(text("SELECT version_num FROM alembic_version")).scalar()
+    except SQLAlchemyError as exc:
+        reason = str(exc).splitlines()[0]
+        raise DatabaseError(f"cannot connect to the database: {reason}") from exc
+
+
+def open_database(target: str, *, must_exist: bool = True) -> Database:
+    """Open the database at ``target``; with ``must_exist`` it must be at the schema head.
+
+    A missing SQLite file is reported, never created as a side effect; so is a file
+    whose schema is older (or newer) than this prepbook.
+    """
+    url = resolve_url(target)
+    path = sqlite_path(url)
+    if not must_exist:
+        return Database(url)
+    if path is not None:
+        if not path.is_file():
+            raise _init_hint(f"no prepbook database at {path}")
+        revision = _sqlite_revision(path)
+        db = None
+    else:
+        db = Database(url)
+        revision = _server_revision(db)
+    if revision != HEAD_REVISION:
+        if db is not None:
+            db.dispose()
+        where = str(path) if path is not None else "the database"
+        if revision is None:
+            raise _init_hint(f"{where} has no prepbook schema")
+        raise _init_hint(
+            f"{where} is at schema revision {revision}, this prepbook needs {HEAD_REVISION}"
+        )
+    return db if db is not None else Database(url)
