@@ -9,11 +9,12 @@ import typer
 from prepbook.cli import output
 from prepbook.cli.session import database
 
+# States told in words (never colour alone), in capitals where action is needed.
 STATE_WORDS = {
-    "new": "new (not standardized)",
-    "awaiting-review": "awaiting review",
+    "new": "new",
+    "awaiting-review": "to review",
     "in-service": "in service",
-    "due": "DUE for restandardization",
+    "due": "DUE",
     "expired": "EXPIRED",
     "retired": "retired",
 }
@@ -23,13 +24,20 @@ def render_board(out: Any, items: list[dict[str, Any]]) -> None:
     if not items:
         out.print("no batches yet: make one with `prepbook batch make SPEC ...`")
         return
-    rows = [(it["batch"], it["spec"], STATE_WORDS.get(it["state"], it["state"]),
+    rows = [(it["batch"], STATE_WORDS.get(it["state"], it["state"]),
              output.sig(it["normality"], 5), output.fixed(it["factor"], 4),
-             it["restandardize_by"] or "-", it["expires"], "; ".join(it["warnings"]))
+             it["restandardize_by"] or "-", it["expires"],
+             str(len(it["warnings"])) if it["warnings"] else "")
             for it in items]
-    out.print(output.table("Board", ["batch", "spec", "state", "N (eq/L)", "factor",
-                                     "restandardize by", "expires", "warnings"], rows,
-                           right=(3, 4)))
+    out.print(output.table(f"Board: {len(items)} batches in use",
+                           ["batch", "state", "N (eq/L)", "factor", "restd. by", "expires", "!"],
+                           rows, right=(2, 3, 6), no_wrap=range(7)))
+    flagged = [it for it in items if it["warnings"]]
+    if flagged:
+        out.print("[bold]Warnings[/bold]")
+        for it in flagged:
+            for w in it["warnings"]:
+                out.print(f"  {it['batch']}: {output.escape(w)}")
 
 
 def status(

@@ -199,13 +199,16 @@ def liquid(
     volume: str = typer.Option(..., "--volume", help="Final volume, mL."),
     fraction: str = typer.Option(None, "--fraction", help="Mass fraction, % (default: catalog)."),
     density: str = typer.Option(None, "--density", help="Density, g/mL (default: catalog)."),
+    n: str = typer.Option(
+        None, "--n", help="Equivalents per mole (default: the catalog's titration reaction)."
+    ),
     as_json: bool = JSON,
 ) -> None:
     """Volume of a concentrated liquid reagent for a volume of a given normality."""
     from prepbook.lab import calcs
 
     result = calcs.liquid(reagent, normality_text=normality, volume_text=volume,
-                          fraction_text=fraction, density_text=density)
+                          fraction_text=fraction, density_text=density, n_text=n)
     if as_json:
         output.emit_json(result)
         return

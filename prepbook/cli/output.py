@@ -55,13 +55,17 @@ def console(stderr: bool = False) -> Any:
 
 
 def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any]],
-          *, right: Iterable[int] = ()) -> Any:
+          *, right: Iterable[int] = (), no_wrap: Iterable[int] = ()) -> Any:
+    from rich import box
     from rich.table import Table
 
     right_set = set(right)
-    tab = Table(title=title, title_justify="left", header_style="bold", show_lines=False)
+    keep = set(no_wrap)
+    tab = Table(title=title, title_justify="left", title_style="bold", header_style="bold",
+                show_lines=False, box=box.SIMPLE_HEAD, pad_edge=False,
+                collapse_padding=True)
     for i, name in enumerate(columns):
-        tab.add_column(name, justify="right" if i in right_set else "left")
+        tab.add_column(name, justify="right" if i in right_set else "left", no_wrap=i in keep)
     for row in rows:
         tab.add_row(*("" if cell is None else str(cell) for cell in row))
     return tab
@@ -84,7 +88,7 @@ def fixed(value: float | None, decimals: int) -> str:
 
 def warn_lines(out: Any, warnings: Sequence[str]) -> None:
     for w in warnings:
-        out.print(f"[bold]warning:[/bold] {_escape(w)}")
+        out.print(f"[bold]warning:[/bold] {escape(w)}")
 
 
 def caution_lines(out: Any, cautions: Sequence[str]) -> None:
@@ -93,10 +97,10 @@ def caution_lines(out: Any, cautions: Sequence[str]) -> None:
     out.print("[bold]Safety[/bold] (follow the safety data sheet, local regulations and "
               "your laboratory's procedures):")
     for c in cautions:
-        out.print(f"  - {_escape(c)}")
+        out.print(f"  - {escape(c)}")
 
 
-def _escape(text: str) -> str:
+def escape(text: str) -> str:
     from rich.markup import escape
 
     return escape(text)

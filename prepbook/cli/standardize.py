@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sys
 from typing import Any
 
 import typer
@@ -74,8 +73,6 @@ def standardize(
 
 def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bool) -> list[str]:
     """Ask for replicates one at a time, showing the running result after each."""
-    if not sys.stdin.isatty():
-        raise InvalidInput("no --rep given and no terminal to ask at: pass --rep AMOUNT:VOLUME")
     out = output.console(stderr=quiet)
     amount = "aliquot (mL)" if secondary else "mass of standard (g)"
     out.print(f"Enter each replicate as {amount} and titrant volume (mL); "

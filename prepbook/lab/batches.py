@@ -124,7 +124,7 @@ def make_batch(
             reagent = loader.find_reagent(solute.code)
             mm = formula.molar_mass(reagent.formula)
             theoretical = (stock.value * reagent.density_g_per_ml * reagent.mass_fraction
-                           * reagent.n_eq_per_mol * 1000 / (mm.value_g_per_mol * vol.value))
+                           * rx.n * 1000 / (mm.value_g_per_mol * vol.value))
         else:
             assert from_batch is not None and ali is not None
             parent = by_code(s, Batch, from_batch, "batch")

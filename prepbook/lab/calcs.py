@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from prepbook.errors import InvalidInput
+from prepbook.errors import InvalidInput, NotFound
 from prepbook.inputs import parse_number, parse_percent, parse_replicates
 
 # EURACHEM/CITAC CG4 Example A2 takes a certificate purity of 1.0000 +/- 0.0005 as a
@@ -249,6 +249,7 @@ def liquid(
     volume_text: str,
     fraction_text: str | None = None,
     density_text: str | None = None,
+    n_text: str | None = None,
 ) -> dict:
     from prepbook.catalog import loader
     from prepbook.chem import formula, preparation
@@ -267,8 +268,18 @@ def liquid(
         else rg.density_g_per_ml
     )
     mm = formula.molar_mass(rg.formula)
+    if n_text is not None:
+        n_eq = parse_number(n_text, "equivalents per mole", positive=True).value
+    else:
+        try:
+            n_eq = loader.find_material(rg.formula).reaction().n
+        except NotFound:
+            raise InvalidInput(
+                f"the catalog has no titration reaction for {rg.name}: give its equivalents "
+                "per mole with --n"
+            ) from None
     v_conc = preparation.liquid_volume_ml(
-        n_target, volume, mm.value_g_per_mol, rg.n_eq_per_mol, fraction, density
+        n_target, volume, mm.value_g_per_mol, n_eq, fraction, density
     )
     molarity = 1000 * fraction * density / mm.value_g_per_mol
     return {
@@ -278,7 +289,7 @@ def liquid(
         "mass_fraction_percent": fraction * 100,
         "density_g_per_ml": density,
         "molarity_mol_per_l": molarity,
-        "n_eq_per_mol": rg.n_eq_per_mol,
+        "n_eq_per_mol": n_eq,
         "normality": n_target,
         "final_volume_ml": volume,
         "volume_ml": v_conc,

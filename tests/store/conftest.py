@@ -59,7 +59,9 @@ def add_spec(session: Session, code: str = "NaOH-0.1N", actor: str = "ana") -> S
     return spec
 
 
-def add_batch(session: Session, code: str, actor: str = "ana") -> Batch:
+def add_batch(
+    session: Session, code: str, actor: str = "ana", made_at: datetime | None = None
+) -> Batch:
     """An invented batch (made from solid) and its audit event; adds the spec if needed."""
     spec = session.scalars(select(Spec).where(Spec.code == "NaOH-0.1N")).one_or_none()
     if spec is None:
@@ -71,8 +73,8 @@ def add_batch(session: Session, code: str, actor: str = "ana") -> Batch:
         volume_ml_text="1000",
         solute_mass_g_text="4.1",
         theoretical_normality=0.1025,
-        made_at=now(),
-        recorded_at=now(),
+        made_at=made_at or now(),
+        recorded_at=made_at or now(),
         made_by=actor,
         notes=None,
         expires=date(2031, 1, 31),

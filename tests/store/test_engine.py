@@ -39,7 +39,7 @@ def test_url_passes_through_unchanged() -> None:
 
 
 def test_odd_characters_in_a_file_name_survive_the_url(tmp_path: Path) -> None:
-    path = tmp_path / "lab #2?.db"
+    path = tmp_path / "lab #2?100%.db"
     assert sqlite_path(resolve_url(str(path))) == path
 
 
@@ -214,8 +214,9 @@ def test_opening_a_database_does_not_import_alembic(db_file: Path) -> None:
     code = (
         "import sys\n"
         "from prepbook.store.engine import open_database\n"
+        "from prepbook.store import audit, models\n"
         f"db = open_database({str(db_file)!r})\n"
-        "with db.session(write=False) as s: s.connection()\n"
+        "with db.session(write=False) as s: audit.verify(s)\n"
         "print('alembic' in sys.modules)\n"
     )
     out = subprocess.run(

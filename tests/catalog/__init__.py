@@ -1,0 +1,1 @@
+"""Tests of the built-in catalog (data files and loader)."""

@@ -1,0 +1,1 @@
+"""Tests of the lab-policy rules (acceptance checks, batch life)."""
