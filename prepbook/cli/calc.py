@@ -44,9 +44,11 @@ def _budget_table(budget: list[dict]) -> object:
 
 @app.command("normality")
 def normality(
-    standard: str = typer.Option(..., "--standard", help="Primary standard: code, name or formula."),
+    standard: str = typer.Option(
+        ..., "--standard", help="Primary standard: code, name or formula."
+    ),
     rep: list[str] = typer.Option(
-        ..., "--rep", help="One replicate, MASS:VOL: grams of standard and mL of titrant. Repeat."
+        ..., "--rep", help="One replicate MASS:VOL (g of standard : mL of titrant). Repeat."
     ),
     titrant: str = typer.Option(
         None, "--titrant", help="Titrant solute; sets the reaction and gives the molarity."

@@ -90,7 +90,8 @@ def normality(
     temperature_range_c: str = "3",
 ) -> dict[str, Any]:
     from prepbook.catalog import loader
-    from prepbook.chem import formula, standardization as st
+    from prepbook.chem import formula
+    from prepbook.chem import standardization as st
 
     std_mat = loader.find_material(standard)
     tit_mat = loader.find_material(titrant) if titrant else None

@@ -82,7 +82,8 @@ def standardize(
     replicates are typed one at a time.
     """
     from prepbook.catalog import loader
-    from prepbook.chem import corrections, formula, standardization as st
+    from prepbook.chem import corrections, formula
+    from prepbook.chem import standardization as st
     from prepbook.rules import acceptance
 
     if (lot is None) == (against is None):

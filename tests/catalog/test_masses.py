@@ -105,15 +105,9 @@ def test_reagent_molarity_recomputed_from_mass_fraction_and_density(code: str) -
     mass, u_mass = _mass_and_tolerance(g.formula)
     rho, w = float(density), float(percent) / 100
     c = 1000 * rho * w / mass
-    tol = (
-        c
-        * (
-            _half_last_digit(density) / rho
-            + _half_last_digit(percent) / float(percent)
-            + u_mass / mass
-        )
-        + _half_last_digit(molarity)
-    )
+    tol = c * (
+        _half_last_digit(density) / rho + _half_last_digit(percent) / float(percent) + u_mass / mass
+    ) + _half_last_digit(molarity)
     assert c == pytest.approx(float(molarity), abs=tol)
 
 

@@ -53,13 +53,23 @@ def test_unaltered_copy_loads(data_dir: Path) -> None:
         ("materials.toml", 'statements = ["H319"]', 'statements = ["H999"]', "H999"),
         ("materials.toml", 'pictograms = ["GHS07"]', 'pictograms = ["GHS10"]', "GHS10"),
         ("materials.toml", 'signal_word = "Warning"', 'signal_word = "Careful"', "signal_word"),
-        ("indicators.toml", "low_ph = 8.2\nhigh_ph = 10.0", "low_ph = 10.0\nhigh_ph = 8.2", "ordered"),
-        ("indicators.toml", 'kind = "redox"', 'kind = "redox"\nlow_ph = 1.0\nhigh_ph = 2.0', "only acid-base"),
+        (
+            "indicators.toml",
+            "low_ph = 8.2\nhigh_ph = 10.0",
+            "low_ph = 10.0\nhigh_ph = 8.2",
+            "ordered",
+        ),
+        (
+            "indicators.toml",
+            'kind = "redox"',
+            'kind = "redox"\nlow_ph = 1.0\nhigh_ph = 2.0',
+            "only acid-base",
+        ),
         ("reagents.toml", "mass_fraction = 0.36", "mass_fraction = 36", "mass_fraction"),
         (
             "reagents.toml",
             "  \"Follow the safety data sheet, local regulations and the laboratory's own "
-            "procedures.\",\n",
+            'procedures.",\n',
             "",
             "defer",
         ),
@@ -69,11 +79,26 @@ def test_unaltered_copy_loads(data_dir: Path) -> None:
         ("specs.toml", "factor_low = 0.90", "factor_low = 1.20", "factor window"),
         ("specs.toml", 'unit = "M"', 'unit = "mol/L"', "unit must be"),
         ("specs.toml", 'reaction = "redox-acid"', 'reaction = "redox-neutral"', "pairs with"),
-        ("specs.toml", "restandardize_days = 7\nshelf_life_days = 90", "restandardize_days = 7\nshelf_life_days = 3", "shorter"),
+        (
+            "specs.toml",
+            "restandardize_days = 7\nshelf_life_days = 90",
+            "restandardize_days = 7\nshelf_life_days = 3",
+            "shorter",
+        ),
         ("specs.toml", 'solute = "NaOH"', 'solute = "KHP"', "not a titrant solute"),
-        ("specs.toml", 'standard = "KHP"\n', 'standard = "KHP"\nmax_rsd_percent = 0.3\n', "without naming its source"),
+        (
+            "specs.toml",
+            'standard = "KHP"\n',
+            'standard = "KHP"\nmax_rsd_percent = 0.3\n',
+            "without naming its source",
+        ),
         ("specs.toml", 'max_rsd_percent = "European', 'max_rsd_pct = "European', "unknown key"),
-        ("specs.toml", 'preparation_stock_spec = "H2SO4-0.1N"', 'preparation_stock_spec = "HCl-0.1N"', "stronger spec"),
+        (
+            "specs.toml",
+            'preparation_stock_spec = "H2SO4-0.1N"',
+            'preparation_stock_spec = "HCl-0.1N"',
+            "stronger spec",
+        ),
     ],
 )
 def test_broken_data_is_refused_with_a_named_problem(
