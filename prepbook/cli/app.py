@@ -70,6 +70,7 @@ def _register() -> None:
         instruments,
         lots,
         review,
+        settings,
         setup,
         specs,
         standardize,
@@ -87,6 +88,7 @@ def _register() -> None:
     app.command("review")(review.review)
     app.command("status")(board.status)
     app.add_typer(audit.app, name="audit")
+    app.add_typer(settings.app, name="setting")
     app.add_typer(calc.app, name="calc")
 
 

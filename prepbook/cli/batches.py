@@ -121,3 +121,24 @@ def show(
         output.emit_json(b)
     else:
         _render_show(output.console(), b)
+
+
+@app.command("use")
+def use(
+    ctx: typer.Context,
+    code: str = typer.Argument(..., help="Batch code."),
+    volume: str = typer.Option(None, "--volume", help="Volume drawn, mL."),
+    purpose: str = typer.Option(None, "--purpose", help="What it was used for (sample, method)."),
+    at: str = typer.Option(None, "--at", help="When (YYYY-MM-DD[THH:MM], UTC), if not now."),
+    as_json: bool = typer.Option(False, "--json", help="Print the use as JSON."),
+) -> None:
+    """Record a use of a batch in service (kept so a bad batch's impact can be traced)."""
+    from prepbook.lab import batches
+
+    res = batches.use_batch(database(ctx), actor=actor(ctx), code=code, volume=volume,
+                            purpose=purpose, at=at)
+    if as_json:
+        output.emit_json(res)
+    else:
+        output.console().print(f"use of {res['batch']} recorded: factor "
+                               f"{output.fixed(res['factor'], 4)}")

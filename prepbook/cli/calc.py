@@ -339,6 +339,12 @@ def endpoint(
     file: Path = typer.Argument(
         ..., help="CSV: a header row, then volume (mL) and pH or mV.", show_default=False
     ),
+    sample_ml: str = typer.Option(
+        None, "--sample-ml", help="Volume in the vessel before titrant, mL (Gran after the end)."
+    ),
+    search: str = typer.Option(
+        None, "--between", help="Look for the endpoint only between these mL, e.g. 5:15."
+    ),
     as_json: bool = JSON,
 ) -> None:
     """Equivalence volume from a recorded titration curve (derivative and Gran)."""
@@ -348,7 +354,7 @@ def endpoint(
         text = file.read_text(encoding="utf-8-sig")
     except (OSError, UnicodeDecodeError) as exc:
         raise InvalidInput(f"cannot read {file}: {exc.__class__.__name__}") from None
-    result = calcs.endpoint(text)
+    result = calcs.endpoint(text, sample_ml_text=sample_ml, between_text=search)
     if as_json:
         output.emit_json(result)
         return

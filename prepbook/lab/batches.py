@@ -309,3 +309,27 @@ def batch_count(db: Database) -> int:
     with db.session() as s:
         return int(s.scalar(select(func.count()).select_from(Batch)) or 0)
 
+
+
+def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
+              purpose: str | None = None, at: str | None = None) -> dict[str, Any]:
+    """Record a draw from a batch (kept for impact analysis); only a batch in service."""
+    from prepbook.lab import board
+
+    vol = parse_number(volume, "volume used (mL)", positive=True) if volume else None
+    purpose = parse_text(purpose, "purpose", max_len=500)
+    used_at = not_future(parse_datetime(at, "--at") if at else None, "time of use")
+    with db.session() as s:
+        user = acting(s, actor, doing="use batches")
+        b = by_code(s, Batch, code, "batch")
+        life_row = board.batch_life(s, b, used_at.date())
+        if life_row["state"] != "in-service":
+            raise Refused(f"batch {b.code} is {life_row['state']} and may not be used")
+        if used_at < b.made_at:
+            raise InvalidInput("the use cannot be before the batch was made")
+        use = Use(batch_id=b.id, used_at=used_at, used_by=user.name,
+                  volume_ml_text=vol.text if vol else None, purpose=purpose)
+        write(s, user.name, "batch.use", use, performed_at=used_at)
+        return {"batch": b.code, "used_at": iso(used_at), "used_by": user.name,
+                "volume_ml": vol.text if vol else None, "purpose": purpose,
+                "normality": life_row["normality"], "factor": life_row["factor"]}

@@ -369,11 +369,24 @@ def titer(*, titrant: str, normality_text: str, analyte: str) -> dict:
             "reaction": ana_rx.name, "mg_per_ml": mg}
 
 
-def endpoint(csv_text: str) -> dict:
+def endpoint(csv_text: str, *, sample_ml_text: str | None = None,
+             between_text: str | None = None) -> dict:
     from prepbook.chem import curves
 
+    sample = (parse_number(sample_ml_text, "sample volume (mL)", positive=True).value
+              if sample_ml_text is not None else None)
+    window = None
+    if between_text is not None:
+        lo_text, sep, hi_text = between_text.partition(":")
+        if not sep:
+            raise InvalidInput("--between should be LOW:HIGH in mL, e.g. 5:15")
+        lo = parse_number(lo_text, "--between low (mL)", non_negative=True).value
+        hi = parse_number(hi_text, "--between high (mL)", positive=True).value
+        if lo >= hi:
+            raise InvalidInput("--between: the low volume must be below the high one")
+        window = (lo, hi)
     volumes, readings, kind = curves.read_curve_csv(csv_text)
-    ep = curves.endpoint(volumes, readings, kind=kind)
+    ep = curves.endpoint(volumes, readings, kind=kind, sample_ml=sample, search_ml=window)
     return {"equivalence_ml": ep.equivalence_ml, "method": ep.method, "kind": kind,
             "reading_at_endpoint": ep.reading_at_endpoint, "gran_ml": ep.gran_ml,
             "gran_points": ep.gran_points, "points": ep.points, "notes": list(ep.notes)}

@@ -80,13 +80,17 @@ def expiry(made_on: date, shelf_life_days: int, parents: Sequence[date] = ()) ->
 def drift_between(previous_n: float, current_n: float) -> float:
     """Percent change from the previous accepted normality (or factor) to the current one.
 
-    Positive when the titrant got stronger. Both must be positive numbers.
+    Positive when the titrant got stronger. The arithmetic is the chemistry core's
+    (``chem.trend.drift_percent``) so the board and the trend agree; here both values must
+    also be positive, since a batch's accepted normality cannot be zero or negative.
     """
+    from prepbook.chem.trend import drift_percent
+
     for label, v in (("previous", previous_n), ("current", current_n)):
         number = isinstance(v, int | float) and not isinstance(v, bool)
         if not (number and math.isfinite(v) and v > 0):
             raise InvalidInput(f"{label} normality must be a positive number, not {v!r}")
-    return (current_n - previous_n) / previous_n * 100.0
+    return drift_percent(previous_n, current_n)
 
 
 def batch_state(

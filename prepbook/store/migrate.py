@@ -12,7 +12,7 @@ import sqlite3
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TextIO
 
 if TYPE_CHECKING:
     from alembic.config import Config
@@ -34,13 +34,20 @@ class UpgradeReport:
     backup_path: str | None
 
 
-def alembic_config(url: str | None = None) -> Config:
-    """An Alembic configuration built in code from the installed ``prepbook.migrations``."""
+def alembic_config(url: str | None = None, *, stdout: TextIO | None = None) -> Config:
+    """An Alembic configuration built in code from the installed ``prepbook.migrations``.
+
+    Alembic's own messages go to ``stdout`` if given, else to a buffer: prepbook's
+    stdout belongs to its output (``--json`` prints one document and nothing else).
+    Passing the stream also avoids Alembic's default, the ``sys.stdout`` of the
+    moment Alembic was first imported, which may since have been closed.
+    """
+    import io
     from importlib.resources import files
 
     from alembic.config import Config
 
-    config = Config()
+    config = Config(stdout=stdout if stdout is not None else io.StringIO())
     config.set_main_option("script_location", str(files("prepbook.migrations")))
     if url is not None:
         # Passed as an attribute, not an ini option, so '%' in a password needs no escaping.

@@ -1,0 +1,46 @@
+"""prepbook setting: lab-wide settings (admin, signed)."""
+
+from __future__ import annotations
+
+import typer
+
+from prepbook.cli import output
+from prepbook.cli.session import Passphrases, actor, database
+
+app = typer.Typer(help="Show and change lab-wide settings.", no_args_is_help=True)
+
+
+@app.command("show")
+def show(ctx: typer.Context,
+         as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    """Show every setting, its value and what it does."""
+    from prepbook.lab import settings
+
+    rows = settings.show(database(ctx))
+    if as_json:
+        output.emit_json(rows)
+        return
+    output.console().print(output.table(
+        "Settings", ["key", "value", "default", "what it does", "changed"],
+        [(r["key"], r["value"], r["default"], r["help"],
+          f"{r['changed_at']} by {r['changed_by']}" if r["changed_at"] else "")
+         for r in rows]))
+
+
+@app.command("set")
+def set_(
+    ctx: typer.Context,
+    key: str = typer.Argument(..., help="Setting name (see `prepbook setting show`)."),
+    value: str = typer.Argument(..., help="New value."),
+    reason: str = typer.Option(..., "--reason", help="Why it changes (kept in the audit trail)."),
+    passphrase_stdin: bool = typer.Option(
+        False, "--passphrase-stdin", help="Read your passphrase from standard input."
+    ),
+) -> None:
+    """Change a setting (admin; signed with your passphrase)."""
+    from prepbook.lab import settings
+
+    secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
+    res = settings.set_value(database(ctx), actor=actor(ctx), key=key, value=value,
+                             reason=reason, passphrase=secret)
+    output.console().print(f"{res['key']} = {res['value']} (by {res['changed_by']})")

@@ -1,0 +1,77 @@
+"""Lab-wide settings, changed only by an admin with a signature."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from sqlalchemy import select
+
+from prepbook.errors import InvalidInput
+from prepbook.inputs import parse_text, utc_now
+from prepbook.lab.common import acting, check_passphrase, iso, write
+from prepbook.store.engine import Database
+from prepbook.store.models import Setting
+
+
+@dataclass(frozen=True)
+class SettingInfo:
+    key: str
+    default: str
+    help: str
+    choices: tuple[str, ...] = ()
+    integer_range: tuple[int, int] | None = None
+
+
+KNOWN: dict[str, SettingInfo] = {
+    s.key: s
+    for s in (
+        SettingInfo("buoyancy", "off",
+                    "correct weighings of primary standards for air buoyancy (NIST IR 6969 "
+                    "SOP 2) in standardizations", choices=("on", "off")),
+        SettingInfo("warning_lead_days", "7",
+                    "days of notice before restandardization and expiry dates (common "
+                    "practice, no source)", integer_range=(0, 365)),
+    )
+}
+
+
+def show(db: Database) -> list[dict[str, Any]]:
+    with db.session() as s:
+        rows = {r.key: r for r in s.scalars(select(Setting))}
+    out = []
+    for key, info in KNOWN.items():
+        row = rows.get(key)
+        out.append({"key": key, "value": row.value if row else info.default,
+                    "default": info.default, "help": info.help,
+                    "changed_at": iso(row.updated_at) if row else None,
+                    "changed_by": row.updated_by if row else None})
+    return out
+
+
+def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | None,
+              passphrase: str | None) -> dict[str, Any]:
+    info = KNOWN.get(key)
+    if info is None:
+        raise InvalidInput(f"unknown setting {key!r}; one of {', '.join(KNOWN)}")
+    value = value.strip()
+    if info.choices and value not in info.choices:
+        raise InvalidInput(f"{key} must be one of {', '.join(info.choices)}")
+    if info.integer_range is not None:
+        lo, hi = info.integer_range
+        if not value.isdigit() or not lo <= int(value) <= hi:
+            raise InvalidInput(f"{key} must be a whole number from {lo} to {hi}")
+    reason = parse_text(reason, "reason", max_len=500)
+    if not (reason and reason.strip()):
+        raise InvalidInput("changing a setting needs a --reason")
+    with db.session() as s:
+        admin = acting(s, actor, ("admin",), "change settings")
+        check_passphrase(admin, passphrase)
+        now = utc_now()
+        row = s.scalars(select(Setting).where(Setting.key == key)).first()
+        if row is None:
+            row = Setting(key=key, value=value, updated_at=now, updated_by=admin.name)
+        else:
+            row.value, row.updated_at, row.updated_by = value, now, admin.name
+        write(s, admin.name, "setting.set", row, reason=reason)
+        return {"key": key, "value": value, "changed_by": admin.name}
