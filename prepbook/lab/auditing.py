@@ -31,13 +31,13 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
     until_d = parse_date(until, "--until") if until else None
     if since_d and until_d and since_d > until_d:
         raise InvalidInput("--since is after --until")
-    with db.session() as s:
+    with db.session(write=False) as s:
         return audit.log(s, record_type=record_type, record_id=record_id, actor=actor,
                          since=since_d, until=until_d, limit=limit)
 
 
 def verify(db: Database) -> dict[str, Any]:
-    with db.session() as s:
+    with db.session(write=False) as s:
         rep = audit.verify(s)
     return {"ok": rep.ok, "events": rep.events, "head_hash": rep.head_hash,
             "problems": list(rep.problems)}

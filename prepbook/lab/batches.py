@@ -257,7 +257,7 @@ def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, 
     from prepbook.lab import board
 
     today = today or utc_now().date()
-    with db.session() as s:
+    with db.session(write=False) as s:
         b = by_code(s, Batch, code, "batch")
         view = spec_view.view(b.spec)
         runs = s.scalars(select(Run).where(Run.batch_id == b.id)

@@ -156,7 +156,7 @@ def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
 def board(db: Database, today: date | None = None) -> list[dict[str, Any]]:
     """Every batch not retired, those needing action first."""
     today = today or utc_now().date()
-    with db.session() as s:
+    with db.session(write=False) as s:
         lead = _lead_days(s)
         rows = _batch_rows(s, Batch.retired_at.is_(None))
         facts = _run_facts(s, None)

@@ -65,6 +65,6 @@ def add_instrument(db: Database, *, actor: str, code: str, kind: str, due: str,
 
 def list_instruments(db: Database) -> list[dict[str, Any]]:
     today = utc_now().date()
-    with db.session() as s:
+    with db.session(write=False) as s:
         return [instrument_dict(i, today)
                 for i in s.scalars(select(Instrument).order_by(Instrument.kind, Instrument.code))]

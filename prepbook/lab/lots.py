@@ -67,5 +67,5 @@ def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
 
 def list_lots(db: Database) -> list[dict[str, Any]]:
     today = utc_now().date()
-    with db.session() as s:
+    with db.session(write=False) as s:
         return [lot_dict(lot, today) for lot in s.scalars(select(Lot).order_by(Lot.code))]

@@ -22,7 +22,7 @@ def _user_dict(u: User) -> dict[str, Any]:
 
 
 def user_count(db: Database) -> int:
-    with db.session() as s:
+    with db.session(write=False) as s:
         return int(s.scalar(select(func.count()).select_from(User)) or 0)
 
 
@@ -56,5 +56,5 @@ def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
 
 
 def list_users(db: Database) -> list[dict[str, Any]]:
-    with db.session() as s:
+    with db.session(write=False) as s:
         return [_user_dict(u) for u in s.scalars(select(User).order_by(User.name))]

@@ -37,7 +37,7 @@ KNOWN: dict[str, SettingInfo] = {
 
 
 def show(db: Database) -> list[dict[str, Any]]:
-    with db.session() as s:
+    with db.session(write=False) as s:
         rows = {r.key: r for r in s.scalars(select(Setting))}
     out = []
     for key, info in KNOWN.items():

@@ -103,7 +103,7 @@ def spec_dict(spec: Spec) -> dict[str, Any]:
 
 
 def list_specs(db: Database) -> list[dict[str, Any]]:
-    with db.session() as s:
+    with db.session(write=False) as s:
         return [spec_dict(sp) for sp in s.scalars(select(Spec).order_by(Spec.code))]
 
 

