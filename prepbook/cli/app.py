@@ -88,7 +88,8 @@ def _register() -> None:
     app.command("review")(review.review)
     app.command("status")(board.status)
     app.add_typer(audit.app, name="audit")
-    app.add_typer(settings.app, name="setting")
+    app.add_typer(settings.app, name="settings")
+    app.command("use")(batches.use)
     app.add_typer(calc.app, name="calc")
 
 

@@ -7,7 +7,15 @@ import typer
 from prepbook.cli import output
 from prepbook.cli.session import Passphrases, actor, database
 
-app = typer.Typer(help="Show and change lab-wide settings.", no_args_is_help=True)
+app = typer.Typer(help="Show and change lab-wide settings (`prepbook settings` shows them).",
+                  invoke_without_command=True)
+
+
+@app.callback()
+def _default(ctx: typer.Context,
+             as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    if ctx.invoked_subcommand is None:
+        show(ctx, as_json=as_json)
 
 
 @app.command("show")
@@ -30,7 +38,7 @@ def show(ctx: typer.Context,
 @app.command("set")
 def set_(
     ctx: typer.Context,
-    key: str = typer.Argument(..., help="Setting name (see `prepbook setting show`)."),
+    key: str = typer.Argument(..., help="Setting name (see `prepbook settings`)."),
     value: str = typer.Argument(..., help="New value."),
     reason: str = typer.Option(..., "--reason", help="Why it changes (kept in the audit trail)."),
     passphrase_stdin: bool = typer.Option(

@@ -8,19 +8,19 @@ from tests.conftest import Cli, row_counts
 
 def test_only_a_signed_admin_changes_a_setting(bench: Cli) -> None:  # noqa: F811
     before = row_counts(bench.db)
-    bench.refused("setting", "set", "buoyancy", "on", "--reason", "x", "--passphrase-stdin",
+    bench.refused("settings", "set", "buoyancy", "on", "--reason", "x", "--passphrase-stdin",
                   user="ben", input="ben-passphrase\n")
-    bench.refused("setting", "set", "buoyancy", "on", "--reason", "x", "--passphrase-stdin",
+    bench.refused("settings", "set", "buoyancy", "on", "--reason", "x", "--passphrase-stdin",
                   user="ada", input="wrong-passphrase\n")
-    bench.refused("setting", "set", "buoyancy", "maybe", "--reason", "x", "--passphrase-stdin",
+    bench.refused("settings", "set", "buoyancy", "maybe", "--reason", "x", "--passphrase-stdin",
                   user="ada", input="ada-passphrase\n")
     assert row_counts(bench.db) == before
     # Without --passphrase-stdin and no terminal to ask at: refused, not guessed.
-    bench.refused("setting", "set", "buoyancy", "on", "--reason", "lab decision 12",
+    bench.refused("settings", "set", "buoyancy", "on", "--reason", "lab decision 12",
                   user="ada", input="ada-passphrase\n")
-    bench.ok("setting", "set", "buoyancy", "on", "--reason", "lab decision 12",
+    bench.ok("settings", "set", "buoyancy", "on", "--reason", "lab decision 12",
              "--passphrase-stdin", user="ada", input="ada-passphrase\n")
-    rows = {r["key"]: r for r in bench.json("setting", "show")}
+    rows = {r["key"]: r for r in bench.json("settings")}
     assert rows["buoyancy"]["value"] == "on" and rows["buoyancy"]["changed_by"] == "ada"
     assert bench.json("audit", "verify")["ok"] is True
 
@@ -29,7 +29,7 @@ def test_buoyancy_setting_raises_the_normality_by_the_nist_correction(bench: Cli
     """NIST IR 6969 SOP 2 with KHP 1.636 g/cm3: true mass = W (1 - 0.0012/8) / (1 - 0.0012/1.636),
     so N rises by that same ratio."""
     plain = _standardize(bench, _make_batch(bench))
-    bench.ok("setting", "set", "buoyancy", "on", "--reason", "r", "--passphrase-stdin",
+    bench.ok("settings", "set", "buoyancy", "on", "--reason", "r", "--passphrase-stdin",
              user="ada", input="ada-passphrase\n")
     corrected = _standardize(bench, _make_batch(bench))
     ratio = (1 - 0.0012 / 8.0) / (1 - 0.0012 / 1.636)
@@ -39,13 +39,13 @@ def test_buoyancy_setting_raises_the_normality_by_the_nist_correction(bench: Cli
 def test_uses_only_of_a_batch_in_service(bench: Cli) -> None:  # noqa: F811
     batch = _make_batch(bench)
     before = row_counts(bench.db)
-    result = bench.refused("batch", "use", batch, "--volume", "25", user="ben")
+    result = bench.refused("use", batch, "--volume", "25", user="ben")
     assert "new" in result.stderr
     assert row_counts(bench.db) == before
     run = _standardize(bench, batch)
     bench.ok("review", run["run"], "--accept", "--passphrase-stdin", user="cleo",
              input="cleo-passphrase\n")
-    use = bench.json("batch", "use", batch, "--volume", "25.0", "--purpose", "assay of lot 7",
+    use = bench.json("use", batch, "--volume", "25.0", "--purpose", "assay of lot 7",
                      user="ben")
     assert use["volume_ml"] == "25.0"
     shown = bench.json("batch", "show", batch)
