@@ -1,19 +1,136 @@
-"""Shared fixtures: a CLI runner at a fixed width on a tmp_path database.
+"""Shared fixtures: a CLI runner at a fixed width on a scratch database.
 
 Tests never touch the real home directory or a real lab database: PREPBOOK_DB
 and PREPBOOK_USER are cleared and HOME points into tmp_path.
+
+The database behind the fixtures is a SQLite file under tmp_path, or, when
+PREPBOOK_TEST_PG_URL names a PostgreSQL server whose user may create databases
+(``postgresql+psycopg://USER@127.0.0.1:PORT/postgres``, password in PGPASSWORD),
+a database of its own on that server for each test, created for the test and
+dropped after it. Tests that are about SQLite itself (the file, its pragmas,
+raw sqlite3 access) are skipped on PostgreSQL, each with its reason: request
+``db_file`` (the SQLite file) or mark the test ``@pytest.mark.sqlite_only(reason=...)``.
 """
 
 from __future__ import annotations
 
+import gc
 import json
+import os
 import sqlite3
-from collections.abc import Callable
+import uuid
+import warnings
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
 import pytest
 from typer.testing import CliRunner, Result
+
+PG_URL_ENV = "PREPBOOK_TEST_PG_URL"
+
+# Tests of SQLite itself that take only the `db` fixture (so the `db_file` rule below
+# cannot see them); anything new should use the sqlite_only marker instead.
+SQLITE_ONLY: dict[str, str] = {
+    "tests/store/test_engine.py::test_sqlite_runs_in_wal_with_foreign_keys_and_busy_timeout":
+        "checks SQLite pragmas (WAL journal, foreign_keys, busy_timeout)",
+}
+
+
+def pg_server_url() -> str | None:
+    """The PostgreSQL server the suite runs against, or None for SQLite."""
+    return os.environ.get(PG_URL_ENV) or None
+
+
+def on_postgres() -> bool:
+    return pg_server_url() is not None
+
+
+def pytest_configure(config: pytest.Config) -> None:
+    config.addinivalue_line(
+        "markers",
+        "sqlite_only(reason): about SQLite itself; skipped when the suite runs on PostgreSQL",
+    )
+
+
+def pytest_report_header(config: pytest.Config) -> str:
+    url = pg_server_url()
+    if url is None:
+        return "prepbook database backend: SQLite (a file under tmp_path for each test)"
+    from sqlalchemy.engine import make_url
+
+    shown = make_url(url).render_as_string(hide_password=True)
+    return f"prepbook database backend: PostgreSQL at {shown} (a fresh database for each test)"
+
+
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    if not on_postgres():
+        return
+    for item in items:
+        marker = item.get_closest_marker("sqlite_only")
+        reason = None
+        if marker is not None:
+            reason = marker.kwargs.get("reason") or (marker.args[0] if marker.args else None)
+            reason = reason or "about SQLite itself"
+        else:
+            reason = SQLITE_ONLY.get(item.nodeid.split("[")[0])
+        if reason is not None:
+            item.add_marker(pytest.mark.skip(reason=f"SQLite-specific: {reason}"))
+
+
+def _quiet_collect() -> None:
+    """Collect engines that tests dropped without disposing, before their database goes.
+
+    psycopg warns (ResourceWarning) when a connection is garbage-collected still open;
+    the server end is about to be closed by the DROP below, so that warning is noise.
+    """
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ResourceWarning)
+        gc.collect()
+
+
+@contextmanager
+def scratch_pg_database(server_url: str | None = None) -> Iterator[str]:
+    """A new, empty PostgreSQL database on the test server; its URL; dropped afterwards.
+
+    Only the database created here is ever dropped (its name is made here).
+    """
+    from sqlalchemy import create_engine, text
+    from sqlalchemy.engine import make_url
+    from sqlalchemy.pool import NullPool
+
+    server = server_url or pg_server_url()
+    assert server is not None, f"{PG_URL_ENV} is not set"
+    name = f"prepbook_test_{uuid.uuid4().hex[:16]}"
+    admin = create_engine(server, isolation_level="AUTOCOMMIT", poolclass=NullPool)
+    try:
+        with admin.connect() as conn:
+            conn.execute(text(f'CREATE DATABASE "{name}"'))
+        try:
+            yield make_url(server).set(database=name).render_as_string(hide_password=False)
+        finally:
+            _quiet_collect()
+            with admin.connect() as conn:
+                conn.execute(
+                    text("SELECT pg_terminate_backend(pid) FROM pg_stat_activity "
+                         "WHERE datname = :n AND pid <> pg_backend_pid()"),
+                    {"n": name},
+                )
+                conn.execute(text(f'DROP DATABASE IF EXISTS "{name}"'))
+    finally:
+        admin.dispose()
+
+
+@pytest.fixture
+def db_target(tmp_path: Path) -> Iterator[Path | str]:
+    """Where a test's database lives: a SQLite path under tmp_path, or a scratch
+    PostgreSQL URL when the suite runs on PostgreSQL. Nothing is created yet."""
+    if on_postgres():
+        with scratch_pg_database() as url:
+            yield url
+    else:
+        yield tmp_path / "lab.db"
 
 
 @pytest.fixture(autouse=True)
@@ -29,12 +146,12 @@ def _isolated_env(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
 class Cli:
     """Runs prepbook in-process through Typer's CliRunner."""
 
-    def __init__(self, db: Path) -> None:
+    def __init__(self, db: Path | str) -> None:
         self.db = db
         self.runner = CliRunner()
 
     def __call__(self, *args: str, user: str | None = None, input: str | None = None,
-                 db: Path | None = None) -> Result:
+                 db: Path | str | None = None) -> Result:
         from prepbook.cli.app import app
 
         full = ["--db", str(db or self.db)]
@@ -66,12 +183,18 @@ class Cli:
 
 
 @pytest.fixture
-def cli(tmp_path: Path) -> Cli:
-    return Cli(tmp_path / "lab.db")
+def cli(db_target: Path | str) -> Cli:
+    return Cli(db_target)
 
 
-def row_counts(db: Path) -> dict[str, int]:
-    """Rows in every table, read with plain sqlite3 (not through prepbook)."""
+def is_url(db: Path | str) -> bool:
+    return isinstance(db, str) and "://" in db
+
+
+def row_counts(db: Path | str) -> dict[str, int]:
+    """Rows in every table, read with plain sqlite3 or SQLAlchemy Core (not through prepbook)."""
+    if is_url(db):
+        return _server_row_counts(str(db))
     con = sqlite3.connect(db)
     try:
         names = [r[0] for r in con.execute(
@@ -81,6 +204,20 @@ def row_counts(db: Path) -> dict[str, int]:
         con.close()
 
 
+def _server_row_counts(url: str) -> dict[str, int]:
+    from sqlalchemy import create_engine, func, inspect, select, table
+    from sqlalchemy.pool import NullPool
+
+    engine = create_engine(url, poolclass=NullPool)
+    try:
+        with engine.connect() as conn:
+            names = inspect(conn).get_table_names()
+            return {n: conn.execute(select(func.count()).select_from(table(n))).scalar_one()
+                    for n in names}
+    finally:
+        engine.dispose()
+
+
 @pytest.fixture
-def counts() -> Callable[[Path], dict[str, int]]:
+def counts() -> Callable[[Path | str], dict[str, int]]:
     return row_counts

@@ -66,7 +66,9 @@ def _register() -> None:
         batches,
         board,
         calc,
+        corrections,
         demo,
+        history,
         instruments,
         lots,
         review,
@@ -86,7 +88,11 @@ def _register() -> None:
     app.add_typer(batches.app, name="batch")
     app.command("standardize")(standardize.standardize)
     app.command("review")(review.review)
+    app.command("correct")(corrections.correct)
+    app.command("exclude")(corrections.exclude)
     app.command("status")(board.status)
+    app.command("trend")(history.trend)
+    app.command("trace")(history.trace)
     app.add_typer(audit.app, name="audit")
     app.add_typer(settings.app, name="settings")
     app.command("use")(batches.use)

@@ -142,3 +142,26 @@ def use(
     else:
         output.console().print(f"use of {res['batch']} recorded: factor "
                                f"{output.fixed(res['factor'], 4)}")
+
+
+@app.command("retire")
+def retire(
+    ctx: typer.Context,
+    code: str = typer.Argument(..., help="Batch code."),
+    reason: str = typer.Option(..., "--reason", help="Why (discarded, used up, spoiled...)."),
+    passphrase_stdin: bool = typer.Option(
+        False, "--passphrase-stdin", help="Read your passphrase from standard input."
+    ),
+    as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+) -> None:
+    """Retire a batch (signed): it can no longer be standardized or used; its record stays."""
+    from prepbook.cli.session import Passphrases
+    from prepbook.lab import history
+
+    secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
+    res = history.retire(database(ctx), actor=actor(ctx), code=code, reason=reason,
+                         passphrase=secret)
+    if as_json:
+        output.emit_json(res)
+    else:
+        output.console().print(f"batch [bold]{res['batch']}[/bold] retired: {res['reason']}")

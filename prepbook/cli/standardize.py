@@ -11,8 +11,10 @@ from prepbook.cli.session import actor, database
 from prepbook.errors import InvalidInput
 
 
-def _render(out: Any, res: dict[str, Any]) -> None:
-    rows = [(r["index"], output.sig(r["normality"], 5), "outlier" if r["outlier"] else "")
+def render_result(out: Any, res: dict[str, Any]) -> None:
+    rows = [(r["index"], output.sig(r["normality"], 5),
+             " ".join(w for w, on in (("excluded", r.get("excluded")), ("outlier", r["outlier"]))
+                      if on))
             for r in res["replicates"]]
     out.print(output.table(None, ["#", "normality (eq/L)", "flag"], rows, right=(0, 1)))
     out.print(
@@ -68,7 +70,7 @@ def standardize(
     out = output.console()
     out.print(f"run [bold]{res['run']}[/bold] of batch {res['batch']}: {res['status']} "
               f"(checks: {res['verdict']})")
-    _render(out, res)
+    render_result(out, res)
 
 
 def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bool) -> list[str]:

@@ -23,7 +23,7 @@ def add(
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the new user as JSON."),
 ) -> None:
-    """Add a user. The first user must be an admin; then only an admin adds users."""
+    """Add a user. The first user must be an admin; then only an admin adds users (signed)."""
     from prepbook.lab import people
 
     db = database(ctx)
@@ -55,3 +55,48 @@ def list_(
         "Users", ["name", "role", "active", "added", "by"],
         [(u["name"], u["role"], "yes" if u["active"] else "no", u["created_at"], u["created_by"])
          for u in users]))
+
+
+def _manage(ctx: typer.Context, name: str, reason: str, passphrase_stdin: bool, as_json: bool,
+            verb: str) -> None:
+    from prepbook.lab import people
+
+    secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)} (admin)")
+    fn = {"disable": people.disable_user, "enable": people.enable_user,
+          "unlock": people.unlock_user}[verb]
+    user = fn(database(ctx), actor=actor(ctx), name=name, passphrase=secret, reason=reason)
+    if as_json:
+        output.emit_json(user)
+    else:
+        output.console().print(f"{verb}d {user['name']}" if verb != "unlock"
+                               else f"unlocked {user['name']}")
+
+
+_REASON = typer.Option(..., "--reason", help="Why (kept in the audit trail).")
+_STDIN = typer.Option(False, "--passphrase-stdin",
+                      help="Read your (admin) passphrase from standard input.")
+_JSON = typer.Option(False, "--json", help="Print the user as JSON.")
+
+
+@app.command("disable")
+def disable(ctx: typer.Context, name: str = typer.Argument(..., help="User to disable."),
+            reason: str = _REASON, passphrase_stdin: bool = _STDIN,
+            as_json: bool = _JSON) -> None:
+    """Disable a user (admin, signed): they can do nothing; their records stay."""
+    _manage(ctx, name, reason, passphrase_stdin, as_json, "disable")
+
+
+@app.command("enable")
+def enable(ctx: typer.Context, name: str = typer.Argument(..., help="User to enable again."),
+           reason: str = _REASON, passphrase_stdin: bool = _STDIN,
+           as_json: bool = _JSON) -> None:
+    """Enable a disabled user again (admin, signed)."""
+    _manage(ctx, name, reason, passphrase_stdin, as_json, "enable")
+
+
+@app.command("unlock")
+def unlock(ctx: typer.Context, name: str = typer.Argument(..., help="User to unlock."),
+           reason: str = _REASON, passphrase_stdin: bool = _STDIN,
+           as_json: bool = _JSON) -> None:
+    """Unlock a user locked out by wrong passphrases (admin, signed)."""
+    _manage(ctx, name, reason, passphrase_stdin, as_json, "unlock")

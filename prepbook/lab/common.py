@@ -49,20 +49,66 @@ def user_named(session: Session, name: str) -> User:
     return row
 
 
+DEFAULT_LOCKOUT_AFTER = 5  # wrong passphrases in a row before a lockout: common practice
+
+
+def lockout_after(session: Session) -> int:
+    try:
+        return max(1, int(setting(session, "lockout_after", str(DEFAULT_LOCKOUT_AFTER))))
+    except ValueError:
+        return DEFAULT_LOCKOUT_AFTER
+
+
 def acting(session: Session, name: str, roles: tuple[str, ...] = RECORDERS,
            doing: str = "do this") -> User:
-    """The active user ``name``, refused unless their role is one of ``roles``."""
+    """The active user ``name``, refused unless their role is one of ``roles``.
+
+    A disabled user can do nothing; neither can one locked out by wrong passphrases.
+    """
     user = user_named(session, name)
     if not user.active:
         raise Refused(f"user {name!r} is disabled")
+    limit = lockout_after(session)
+    if user.failed_attempts >= limit:
+        raise Refused(f"{name} is locked out after {user.failed_attempts} wrong passphrases; "
+                      f"an admin must run `prepbook user unlock {name}`")
     if user.role not in roles:
         raise Refused(f"{name} is a {user.role}; only a {' or '.join(roles)} may {doing}")
     return user
 
 
 def check_passphrase(user: User, passphrase: str | None) -> None:
+    """Inside a write: refuse a wrong passphrase (the failure is recorded by ``signed``)."""
     if passphrase is None or not passphrase_matches(user.passphrase_hash, passphrase):
         raise Refused(f"wrong passphrase for {user.name}")
+
+
+def signed(db: Any, name: str, passphrase: str | None, roles: tuple[str, ...] = RECORDERS,
+           doing: str = "do this") -> None:
+    """Verify a signature in its own transaction, before the signed write.
+
+    A wrong passphrase is refused and the failed attempt itself is recorded (with its
+    audit event) even though the action is not; after ``lockout_after`` failures in a
+    row the user is locked out until an admin unlocks them. A right passphrase clears
+    the count.
+    """
+    locked = False
+    with db.session() as s:
+        user = acting(s, name, roles, doing)
+        if passphrase is not None and passphrase_matches(user.passphrase_hash, passphrase):
+            if user.failed_attempts:
+                user.failed_attempts = 0
+                write(s, user.name, "auth.cleared", user, reason="right passphrase")
+            return
+        user.failed_attempts += 1
+        locked = user.failed_attempts >= lockout_after(s)
+        write(s, user.name, "auth.failed", user,
+              reason="wrong passphrase" + ("; locked out" if locked else ""))
+        count = user.failed_attempts
+    if locked:
+        raise Refused(f"wrong passphrase for {name}; {name} is now locked out after {count} "
+                      f"wrong passphrases (an admin must run `prepbook user unlock {name}`)")
+    raise Refused(f"wrong passphrase for {name}")
 
 
 def write(session: Session, actor: str, action: str, row: Base, *, reason: str | None = None,

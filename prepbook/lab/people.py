@@ -8,7 +8,7 @@ from typing import Any
 from sqlalchemy import func, select
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.lab.common import acting, check_passphrase, iso, write
+from prepbook.lab.common import acting, iso, lockout_after, signed, user_named, write
 from prepbook.lab.security import check_new_passphrase, hash_passphrase
 from prepbook.store.engine import Database
 from prepbook.store.models import ROLES, User
@@ -16,8 +16,10 @@ from prepbook.store.models import ROLES, User
 _NAME = re.compile(r"^[A-Za-z][A-Za-z0-9._-]{0,39}$")
 
 
-def _user_dict(u: User) -> dict[str, Any]:
+def _user_dict(u: User, limit: int | None = None) -> dict[str, Any]:
     return {"name": u.name, "role": u.role, "active": u.active,
+            "failed_attempts": u.failed_attempts,
+            "locked": limit is not None and u.failed_attempts >= limit,
             "created_at": iso(u.created_at), "created_by": u.created_by}
 
 
@@ -35,6 +37,8 @@ def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
     if role not in ROLES:
         raise InvalidInput(f"role {role!r} is not one of {', '.join(ROLES)}")
     check_new_passphrase(passphrase)
+    if user_count(db) > 0:
+        signed(db, actor, actor_passphrase, ("admin",), "add users")
     with db.session() as s:
         existing = int(s.scalar(select(func.count()).select_from(User)) or 0)
         if existing == 0:
@@ -43,7 +47,6 @@ def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
             created_by = actor
         else:
             admin = acting(s, actor, ("admin",), "add users")
-            check_passphrase(admin, actor_passphrase)
             created_by = admin.name
         if s.scalars(select(User).where(User.name == name)).first() is not None:
             raise Refused(f"user {name!r} already exists")
@@ -57,4 +60,54 @@ def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
 
 def list_users(db: Database) -> list[dict[str, Any]]:
     with db.session(write=False) as s:
-        return [_user_dict(u) for u in s.scalars(select(User).order_by(User.name))]
+        limit = lockout_after(s)
+        return [_user_dict(u, limit) for u in s.scalars(select(User).order_by(User.name))]
+
+
+def _manage(db: Database, *, actor: str, name: str, passphrase: str | None, reason: str | None,
+            action: str) -> dict[str, Any]:
+    from prepbook.inputs import parse_text
+
+    reason = parse_text(reason, "reason", max_len=500)
+    if not (reason and reason.strip()):
+        raise InvalidInput(f"to {action} a user needs a --reason")
+    if action == "disable" and name == actor:
+        raise Refused("an admin cannot disable themselves; ask another admin")
+    signed(db, actor, passphrase, ("admin",), "manage users")
+    with db.session() as s:
+        admin = acting(s, actor, ("admin",), "manage users")
+        user = user_named(s, name)
+        if action == "disable":
+            if not user.active:
+                raise Refused(f"{name} is already disabled")
+            user.active = False
+        elif action == "enable":
+            if user.active:
+                raise Refused(f"{name} is not disabled")
+            user.active = True
+        else:  # unlock
+            if user.failed_attempts == 0:
+                raise Refused(f"{name} is not locked out")
+            user.failed_attempts = 0
+        write(s, admin.name, f"user.{action}", user, reason=reason)
+        return _user_dict(user, lockout_after(s))
+
+
+def disable_user(db: Database, *, actor: str, name: str, passphrase: str | None,
+                 reason: str | None) -> dict[str, Any]:
+    """A disabled user can do nothing (their records stay)."""
+    return _manage(db, actor=actor, name=name, passphrase=passphrase, reason=reason,
+                   action="disable")
+
+
+def enable_user(db: Database, *, actor: str, name: str, passphrase: str | None,
+                reason: str | None) -> dict[str, Any]:
+    return _manage(db, actor=actor, name=name, passphrase=passphrase, reason=reason,
+                   action="enable")
+
+
+def unlock_user(db: Database, *, actor: str, name: str, passphrase: str | None,
+                reason: str | None) -> dict[str, Any]:
+    """Clear the count of wrong passphrases that locked a user out."""
+    return _manage(db, actor=actor, name=name, passphrase=passphrase, reason=reason,
+                   action="unlock")

@@ -9,7 +9,7 @@ from sqlalchemy import select
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_text, utc_now
-from prepbook.lab.common import acting, check_passphrase, iso, write
+from prepbook.lab.common import acting, iso, signed, write
 from prepbook.store.engine import Database
 from prepbook.store.models import Setting
 
@@ -29,6 +29,16 @@ KNOWN: dict[str, SettingInfo] = {
         SettingInfo("buoyancy", "off",
                     "correct weighings of primary standards for air buoyancy (NIST IR 6969 "
                     "SOP 2) in standardizations", choices=("on", "off")),
+        SettingInfo("lockout_after", "5",
+                    "wrong passphrases in a row that lock a user out until an admin unlocks "
+                    "(common practice, no source)", integer_range=(1, 20)),
+        SettingInfo("min_burette_fraction_percent", "30",
+                    "smallest titrant volume as a percentage of the burette's capacity "
+                    "(USP <31>: 30 %)", integer_range=(1, 100)),
+        SettingInfo("temperature_range_c", "3",
+                    "laboratory temperature variation (+/- C, rectangular) in the titrant "
+                    "volume uncertainty (common practice, no source)",
+                    integer_range=(0, 20)),
         SettingInfo("warning_lead_days", "7",
                     "days of notice before restandardization and expiry dates (common "
                     "practice, no source)", integer_range=(0, 365)),
@@ -64,9 +74,9 @@ def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | N
     reason = parse_text(reason, "reason", max_len=500)
     if not (reason and reason.strip()):
         raise InvalidInput("changing a setting needs a --reason")
+    signed(db, actor, passphrase, ("admin",), "change settings")
     with db.session() as s:
         admin = acting(s, actor, ("admin",), "change settings")
-        check_passphrase(admin, passphrase)
         now = utc_now()
         row = s.scalars(select(Setting).where(Setting.key == key)).first()
         if row is None:

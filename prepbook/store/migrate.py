@@ -20,7 +20,7 @@ if TYPE_CHECKING:
     from prepbook.store.engine import Database
 
 # The newest revision in migrations/versions (checked by tests/store/test_migrations.py).
-HEAD_REVISION = "ff8077f934d0"
+HEAD_REVISION = "3c1a5e7d9b20"
 
 
 @dataclass(frozen=True)

@@ -364,6 +364,39 @@ class AuditHead(Base):
     hash: Mapped[str | None]
 
 
+class LabelPrint(Base):
+    """One print of a bottle label, with what it showed, so an outdated label can be found.
+
+    Exactly one of ``batch_id`` (a titrant bottle) and ``lot_id`` (a primary-standard
+    bottle) is set; ``run_id`` is the standardization whose result the label showed
+    (None when the batch had no accepted run yet). ``shown_json`` is the canonical
+    JSON of every field as printed.
+    """
+
+    __tablename__ = "label_prints"
+    __table_args__ = (
+        CheckConstraint("(batch_id IS NULL) <> (lot_id IS NULL)", name="one_subject"),
+        CheckConstraint("copies >= 1", name="copies"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    batch_id: Mapped[int | None] = mapped_column(ForeignKey("batches.id"), index=True)
+    lot_id: Mapped[int | None] = mapped_column(ForeignKey("lots.id"), index=True)
+    run_id: Mapped[int | None] = mapped_column(ForeignKey("runs.id"))
+    printed_at: Mapped[datetime]
+    printed_by: Mapped[str]
+    size: Mapped[str]
+    sheet: Mapped[str | None]
+    copies: Mapped[int]
+    normality: Mapped[float | None]
+    factor: Mapped[float | None]
+    standardized_on: Mapped[date | None]
+    restandardize_by: Mapped[date | None]
+    expires: Mapped[date | None]
+    file_name: Mapped[str] = mapped_column(Text)
+    shown_json: Mapped[str] = mapped_column(Text)
+
+
 # Every table whose rows the audit trail vouches for (all but the trail itself).
 AUDITED_MODELS: tuple[type[Base], ...] = (
     User,
@@ -377,6 +410,7 @@ AUDITED_MODELS: tuple[type[Base], ...] = (
     Review,
     Use,
     Setting,
+    LabelPrint,
 )
 AUDITED_TABLES: dict[str, Table] = {
     m.__table__.name: m.__table__  # type: ignore[misc]
@@ -461,3 +495,4 @@ def snapshot(row: Base) -> dict[str, Any]:
             if column.table is table:
                 by_name[column.name] = getattr(row, prop.key)
     return snapshot_mapping(table, by_name)
+

@@ -1,4 +1,5 @@
-"""Fixtures for the storage tests: every database lives under tmp_path."""
+"""Fixtures for the storage tests: every database lives under tmp_path, or on the
+scratch PostgreSQL server when PREPBOOK_TEST_PG_URL is set (see tests/conftest.py)."""
 
 from __future__ import annotations
 
@@ -13,6 +14,7 @@ from sqlalchemy.orm import Session
 from prepbook.store import audit, migrate
 from prepbook.store.engine import Database, open_database
 from prepbook.store.models import Batch, Spec
+from tests.conftest import on_postgres
 
 
 @pytest.fixture(autouse=True)
@@ -24,15 +26,23 @@ def _isolated(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
 
 @pytest.fixture
 def db_file(tmp_path: Path) -> Path:
-    """A freshly created database at head."""
+    """A freshly created SQLite database file at head.
+
+    A test that asks for the file works on SQLite itself (raw sqlite3, the file's
+    pragmas, copies of it), so on PostgreSQL it is skipped, saying so.
+    """
+    if on_postgres():
+        pytest.skip("SQLite-specific: works on the SQLite database file itself")
     path = tmp_path / "lab.db"
     migrate.upgrade(str(path))
     return path
 
 
 @pytest.fixture
-def db(db_file: Path) -> Iterator[Database]:
-    database = open_database(str(db_file))
+def db(db_target: Path | str) -> Iterator[Database]:
+    """A freshly created database at head, open (SQLite file or scratch PostgreSQL)."""
+    migrate.upgrade(str(db_target))
+    database = open_database(str(db_target))
     yield database
     database.dispose()
 

@@ -1,0 +1,78 @@
+"""Small read-only services for front ends that stay open (the terminal app).
+
+``head_seq`` is the cheap question a screen asks every few seconds to learn whether
+anyone (another bench, the command line) has written since it last looked: every
+write appends an audit event and moves the audit head in the same transaction.
+The other functions gather what one batch's screen needs beside ``show_batch``:
+the records that make up its history (for its audit events) and its factor trend.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from sqlalchemy import select
+
+from prepbook.lab import auditing
+from prepbook.lab import specs as spec_view
+from prepbook.lab.common import by_code, iso
+from prepbook.store.engine import Database
+from prepbook.store.models import AuditHead, Batch, Replicate, Review, Run, Use
+
+
+def head_seq(db: Database) -> int:
+    """The sequence number of the latest audit event (0 on an empty trail)."""
+    with db.session(write=False) as s:
+        seq = s.scalar(select(AuditHead.seq).limit(1))
+    return int(seq or 0)
+
+
+def batch_records(db: Database, code: str) -> list[str]:
+    """The audited records of one batch's history as ``table#id``: the batch, its
+    runs, their replicates (every version) and reviews, and its uses."""
+    with db.session(write=False) as s:
+        b = by_code(s, Batch, code, "batch")
+        run_ids = list(s.scalars(select(Run.id).where(Run.batch_id == b.id).order_by(Run.id)))
+        records = [f"batches#{b.id}"] + [f"runs#{i}" for i in run_ids]
+        if run_ids:
+            records += [f"replicates#{i}" for i in s.scalars(
+                select(Replicate.id).where(Replicate.run_id.in_(run_ids)).order_by(Replicate.id))]
+            records += [f"reviews#{i}" for i in s.scalars(
+                select(Review.id).where(Review.run_id.in_(run_ids)).order_by(Review.id))]
+        records += [f"uses#{i}" for i in s.scalars(
+            select(Use.id).where(Use.batch_id == b.id).order_by(Use.id))]
+    return records
+
+
+def batch_events(db: Database, code: str) -> list[dict[str, Any]]:
+    """Every audit event of one batch's history, oldest first (as ``audit log``)."""
+    events: dict[int, dict[str, Any]] = {}
+    for record in batch_records(db, code):
+        for ev in auditing.log(db, record=record):
+            events[ev["seq"]] = ev
+    return [events[k] for k in sorted(events)]
+
+
+def batch_trend(db: Database, code: str) -> dict[str, Any]:
+    """The factor of every run of a batch over time, the spec's acceptance window, and
+    the least-squares trend of the accepted runs (``trend`` None below 3 of them)."""
+    from prepbook.chem import trend as chem_trend
+
+    with db.session(write=False) as s:
+        b = by_code(s, Batch, code, "batch")
+        view = spec_view.view(b.spec)
+        rules = view.rules()
+        rows = s.execute(select(Run.code, Run.performed_at, Run.status, Run.factor)
+                         .where(Run.batch_id == b.id)
+                         .order_by(Run.performed_at, Run.id)).all()
+    points = [{"run": c, "at": iso(at), "status": st, "factor": f}
+              for c, at, st, f in rows if f is not None]
+    low, high = rules.factor_low, rules.factor_high
+    accepted = [(at, f) for _, at, st, f in rows if st == "accepted" and f is not None]
+    fitted = None
+    if len(accepted) >= 3 and len({at for at, _ in accepted}) > 1:
+        t = chem_trend.trend(accepted, (low, high))
+        fitted = {"slope_percent_per_30d": t.slope_percent_per_30d, "ci_low": t.ci_low,
+                  "ci_high": t.ci_high, "n": t.n,
+                  "forecast_leaves_window": iso(t.forecast_leaves_window)}
+    return {"batch": code, "window": [low, high], "points": points, "trend": fitted}

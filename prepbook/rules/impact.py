@@ -1,0 +1,62 @@
+"""Which uses of a batch need review when its strength turns out to have moved.
+
+Pure: plain tuples in, plain tuples out. A use needs review when it was made
+between two accepted standardizations that differ by more than the spec's drift
+limit (the titrant may have been off for any of them), or after the last accepted
+standardization and before a run that was then rejected.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import datetime
+
+from prepbook.rules.life import drift_between
+
+
+@dataclass(frozen=True)
+class RunPoint:
+    code: str
+    at: datetime
+    status: str  # "accepted" | "rejected" | "awaiting-review"
+    normality: float | None
+
+
+@dataclass(frozen=True)
+class UsePoint:
+    key: int
+    at: datetime
+
+
+@dataclass(frozen=True)
+class Flag:
+    use: int
+    reason: str
+
+
+def uses_needing_review(runs: Sequence[RunPoint], uses: Sequence[UsePoint],
+                        drift_limit_percent: float) -> tuple[Flag, ...]:
+    """Flags, at most one per use (the first reason found), in the order of ``uses``."""
+    ordered = sorted(runs, key=lambda r: r.at)
+    accepted = [r for r in ordered if r.status == "accepted" and r.normality]
+    reasons: dict[int, str] = {}
+    for prev, cur in zip(accepted, accepted[1:], strict=False):
+        assert prev.normality is not None and cur.normality is not None
+        drift = drift_between(prev.normality, cur.normality)
+        if abs(drift) <= drift_limit_percent:
+            continue
+        why = (f"made between {prev.code} and {cur.code}, whose normalities differ by "
+               f"{drift:+.2f} % (limit {drift_limit_percent:g} %)")
+        for u in uses:
+            if prev.at <= u.at < cur.at:
+                reasons.setdefault(u.key, why)
+    for rej in (r for r in ordered if r.status == "rejected"):
+        before = [a for a in accepted if a.at <= rej.at]
+        since = before[-1].at if before else None
+        why = (f"made after the last accepted standardization and before {rej.code}, "
+               "which was rejected")
+        for u in uses:
+            if u.at < rej.at and (since is None or u.at >= since):
+                reasons.setdefault(u.key, why)
+    return tuple(Flag(u.key, reasons[u.key]) for u in uses if u.key in reasons)

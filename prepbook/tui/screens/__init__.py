@@ -1,0 +1,1 @@
+"""The app's screens: board, batch, recording, preparing, review desk, audit."""

@@ -1,0 +1,258 @@
+"""One batch: its whole chain, its factor trend and its audit events; actions."""
+
+from __future__ import annotations
+
+import inspect
+from typing import Any
+
+from rich.console import Group, RenderableType
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import VerticalScroll
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
+
+from prepbook.errors import PrepbookError
+from prepbook.tui import words
+from prepbook.tui.screens.common import has_service, run_block, safety, small_table
+from prepbook.tui.widgets import TrendChart, colour, state_cell
+
+LABELS, REPORTS = "prepbook.lab.labels", "prepbook.lab.reports"
+
+
+class BatchScreen(Screen[None]):
+    BINDINGS = [
+        Binding("escape", "app.pop_screen", "Back"),
+        Binding("1", "tab('chain')", "Chain"),
+        Binding("2", "tab('trend')", "Trend"),
+        Binding("3", "tab('events')", "Audit events"),
+        Binding("s", "standardize", "Standardize"),
+        Binding("u", "use", "Use"),
+        Binding("l", "label", "Label"),
+        Binding("e", "report", "Report"),
+        Binding("x", "retire", "Retire"),
+    ]
+
+    def __init__(self, code: str) -> None:
+        super().__init__()
+        self.code = code
+        self.data: dict[str, Any] | None = None
+        self._events_loaded = False
+
+    def compose(self) -> ComposeResult:
+        yield Static("", id="topline", classes="topline")
+        with TabbedContent(initial="chain", id="tabs"):
+            with TabPane("1 chain", id="chain"), VerticalScroll():
+                yield Static("", id="chain-body")
+            with TabPane("2 trend", id="trend"), VerticalScroll():
+                yield TrendChart(id="chart")
+                yield Static("", id="trend-points")
+            with TabPane("3 audit events", id="events"):
+                yield DataTable(id="batch-events", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="message", classes="message")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.reload()
+
+    # -- which actions exist here ------------------------------------------------------------
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        from prepbook.lab import batches
+
+        if action == "label":
+            return has_service(LABELS)
+        if action == "report":
+            return has_service(REPORTS)
+        if action == "retire":
+            return hasattr(batches, "retire_batch")
+        return True
+
+    # -- data -------------------------------------------------------------------------------
+    def reload(self) -> None:
+        from prepbook.lab import batches, watch
+
+        db = self.app.db  # type: ignore[attr-defined]
+        try:
+            self.data = batches.show_batch(db, self.code)
+        except PrepbookError as exc:
+            self.say(str(exc), bad=True)
+            return
+        d = self.data
+        self.query_one("#topline", Static).update(Text.assemble(
+            ("prepbook ", "bold"), "batch  ", (d["batch"], "bold"), f"  {d['spec_name']}  ",
+            state_cell(self.app, d["state"]),
+            f"  ·  acting as {self.app.who()}"))  # type: ignore[attr-defined]
+        self.query_one("#chain-body", Static).update(self.chain(d))
+        trend = watch.batch_trend(db, self.code)
+        self.query_one("#chart", TrendChart).set_data(trend)
+        pts = small_table("run", "date", "status", "factor", right=(3,))
+        for p in trend["points"]:
+            pts.add_row(p["run"], words.when(p["at"]), words.run_words(p["status"]),
+                        words.fixed(p["factor"], 5))
+        self.query_one("#trend-points", Static).update(
+            Group(Text(f"\nacceptance window {trend['window'][0]:g} to "
+                       f"{trend['window'][1]:g} (spec {d['spec']})"), pts))
+        if self._events_loaded:
+            self.load_events()
+
+    def chain(self, d: dict[str, Any]) -> RenderableType:
+        parts: list[RenderableType] = []
+        warn = colour(self.app, "warning")
+        parts.append(Text.assemble(
+            ("now  ", "bold"), f"N = {words.sig(d['normality'])} eq/L at 20 °C  ·  factor "
+            f"{words.fixed(d['factor'])} to nominal {d['nominal']:g} {d['unit']}  ·  "
+            f"restandardize by {d['restandardize_by'] or '-'}  ·  expires {d['expires']}"))
+        for w in d["warnings"]:
+            parts.append(Text(f"  ! {w}", style=warn))
+        if d.get("retired"):
+            r = d["retired"]
+            parts.append(Text(f"  retired {words.when(r['at'])} by {r['by']}: {r['reason']}"))
+        p = d["preparation"]
+        parts.append(Text("\npreparation", style="bold"))
+        how = {"solid": f"{p['solute_mass_g']} g of solute"
+                        + (f" from lot {p['solute_lot']}" if p["solute_lot"] else ""),
+               "concentrate": f"{p['concentrate_volume_ml']} mL of concentrated reagent",
+               "dilution": f"{p['aliquot_ml']} mL of batch {p['from_batch']}"}[p["method"]]
+        parts.append(Text(
+            f"  {how}, made up to {p['volume_ml']} mL in flask {p['flask'] or '-'}"
+            f" (balance {p['balance'] or '-'})\n  made {words.when(p['made_at'])} by "
+            f"{p['made_by']}, recorded {words.when(p['recorded_at'])};  theoretical N "
+            f"{words.sig(p['theoretical_normality'])}"
+            + (f"\n  notes: {p['notes']}" if p["notes"] else "")))
+        if d.get("diluted_into"):
+            parts.append(Text(f"  diluted into: {', '.join(d['diluted_into'])}"))
+        parts.append(Text("\nsafety and storage", style="bold"))
+        parts.append(safety(self.app, d.get("hazard"), [], d.get("storage")))
+        parts.append(Text(f"standardizations ({len(d['runs'])})", style="bold"))
+        if not d["runs"]:
+            parts.append(Text("  none yet: press s to record one"))
+        for run in reversed(d["runs"]):  # newest first
+            parts.append(run_block(self.app, run, d["unit"]))
+            parts.append(Text(""))
+        parts.append(Text(f"uses ({len(d['uses'])})", style="bold"))
+        if d["uses"]:
+            t = small_table("when", "by", "mL", "purpose", right=(2,))
+            for u in d["uses"]:
+                t.add_row(words.when(u["at"]), u["by"], u["volume_ml"] or "-",
+                          u["purpose"] or "")
+            parts.append(t)
+        else:
+            parts.append(Text("  none recorded"))
+        return Group(*parts)
+
+    def load_events(self) -> None:
+        from prepbook.lab import watch
+
+        table = self.query_one("#batch-events", DataTable)
+        if not table.columns:
+            for c in ("seq", "at (UTC)", "actor", "action", "record", "performed", "reason"):
+                table.add_column(c)
+        table.clear()
+        for ev in watch.batch_events(self.app.db, self.code):  # type: ignore[attr-defined]
+            table.add_row(str(ev["seq"]), words.when(ev["at"]), ev["actor"], ev["action"],
+                          ev["record"], words.when(ev["performed_at"]), ev["reason"] or "")
+        self._events_loaded = True
+
+    def on_tabbed_content_tab_activated(self, event: TabbedContent.TabActivated) -> None:
+        if event.pane.id == "events" and not self._events_loaded:
+            self.load_events()  # read only when first asked for
+
+    # -- actions ------------------------------------------------------------------------------
+    def say(self, text: str, *, bad: bool = False) -> None:
+        msg = self.query_one("#message", Static)
+        msg.set_class(bad, "refusal")
+        msg.update(text)
+
+    def action_tab(self, tab: str) -> None:
+        self.query_one("#tabs", TabbedContent).active = tab
+
+    def action_standardize(self) -> None:
+        from prepbook.tui.screens.record import RecordScreen
+
+        self.app.push_screen(RecordScreen(self.code))
+
+    def action_use(self) -> None:
+        from prepbook.tui.screens.dialogs import FieldsScreen
+
+        def done(values: dict[str, str] | None) -> None:
+            from prepbook.lab import batches
+
+            if values is None:
+                return
+            try:
+                batches.use_batch(self.app.db, actor=self.app.actor or "",  # type: ignore[attr-defined]
+                                  code=self.code, volume=values["volume"].strip() or None,
+                                  purpose=values["purpose"].strip() or None)
+            except PrepbookError as exc:
+                self.say(f"not recorded: {exc}", bad=True)
+                return
+            self.say(f"use of {self.code} recorded")
+            self.app.wrote()  # type: ignore[attr-defined]
+
+        self.app.push_screen(FieldsScreen(
+            f"Record a use of {self.code}",
+            [("volume", "volume taken (mL, optional)", "e.g. 50"),
+             ("purpose", "purpose (optional)", "what it was used for")]), done)
+
+    def _call(self, fn: Any, **given: Any) -> Any:
+        """Call an optional service with the arguments it declares (labels, reports)."""
+        params = inspect.signature(fn).parameters
+        return fn(**{k: v for k, v in given.items() if k in params})
+
+    def _optional(self, module: str, names: tuple[str, ...], what: str) -> None:
+        import importlib
+
+        mod = importlib.import_module(module)
+        fn = next((getattr(mod, n) for n in names if callable(getattr(mod, n, None))), None)
+        if fn is None:
+            self.say(f"{module} has no {what} function this app knows yet", bad=True)
+            return
+        try:
+            res = self._call(fn, db=self.app.db, actor=self.app.actor,  # type: ignore[attr-defined]
+                             code=self.code, batch=self.code)
+        except PrepbookError as exc:
+            self.say(f"{what} refused: {exc}", bad=True)
+            return
+        self.say(f"{what} done: {res if isinstance(res, str) else 'see the record'}")
+        self.app.wrote()  # type: ignore[attr-defined]
+
+    def action_label(self) -> None:
+        self._optional(LABELS, ("print_label", "batch_label", "label"), "label")
+
+    def action_report(self) -> None:
+        self._optional(REPORTS, ("batch_report", "export_batch", "report"), "report")
+
+    def action_retire(self) -> None:
+        from prepbook.lab import batches
+        from prepbook.tui.screens.dialogs import FieldsScreen, PassphraseScreen
+
+        fn = getattr(batches, "retire_batch", None)
+        if fn is None:
+            return
+        params = inspect.signature(fn).parameters
+
+        def with_reason(values: dict[str, str] | None) -> None:
+            if values is None:
+                return
+            if "passphrase" in params:
+                self.app.push_screen(
+                    PassphraseScreen(self.app.actor or "",  # type: ignore[attr-defined]
+                                     f"retire batch {self.code}: {values['reason']}"),
+                    lambda secret: secret is not None and finish(values["reason"], secret))
+            else:
+                finish(values["reason"], None)
+
+        def finish(reason: str, secret: str | None) -> None:
+            try:
+                self._call(fn, db=self.app.db, actor=self.app.actor,  # type: ignore[attr-defined]
+                           code=self.code, batch=self.code, reason=reason, passphrase=secret)
+            except PrepbookError as exc:
+                self.say(f"not retired: {exc}", bad=True)
+                return
+            self.say(f"batch {self.code} retired")
+            self.app.wrote()  # type: ignore[attr-defined]
+
+        self.app.push_screen(FieldsScreen(f"Retire {self.code}",
+                                          [("reason", "why it is retired", "reason")],
+                                          required=("reason",)), with_reason)

@@ -1,0 +1,115 @@
+"""Rich renderings shared by the batch screen and the review desk."""
+
+from __future__ import annotations
+
+import importlib.util
+from typing import Any
+
+from rich import box
+from rich.console import Group, RenderableType
+from rich.table import Table
+from rich.text import Text
+from textual.app import App
+
+from prepbook.tui import words
+from prepbook.tui.widgets import check_cell, colour, status_cell
+
+DEFER = ("Follow the substance's safety data sheet, local regulations and the "
+         "laboratory's own procedures.")
+
+
+def has_service(module: str) -> bool:
+    """Whether an optional service module (labels, reports ...) is installed."""
+    try:
+        return importlib.util.find_spec(module) is not None
+    except (ImportError, ValueError):
+        return False
+
+
+def small_table(*columns: str, right: tuple[int, ...] = ()) -> Table:
+    t = Table(box=box.SIMPLE_HEAD, pad_edge=False, show_edge=False, expand=False)
+    for i, c in enumerate(columns):
+        t.add_column(c, justify="right" if i in right else "left", no_wrap=i in right)
+    return t
+
+
+def safety(app: App, hazard: dict[str, Any] | None, cautions: list[str] | tuple[str, ...],
+           storage: str | None = None) -> RenderableType:
+    """Hazard statements and cautions, always ending with the deference to the SDS."""
+    out = Text()
+    warn = colour(app, "warning")
+    if hazard:
+        sw = hazard.get("signal_word")
+        if sw:
+            out.append(f"{sw.upper()}  ", style=f"bold {warn}".strip())
+        pict = hazard.get("pictograms") or []
+        if pict:
+            out.append(", ".join(pict))
+        out.append("\n")
+        for s in hazard.get("statements") or []:
+            out.append(f"  {s}\n")
+        if hazard.get("source"):
+            out.append(f"  (hazard at this strength: {hazard['source']})\n", style="dim")
+    shown = [c for c in cautions if c != DEFER]
+    for c in shown:
+        out.append(f"  ! {c}\n", style=warn)
+    if storage:
+        out.append(f"  Storage: {storage}\n")
+    if not any("safety data sheet" in c for c in shown):
+        out.append(f"  {DEFER}\n", style="italic")
+    return out
+
+
+def run_block(app: App, run: dict[str, Any], unit: str = "N") -> RenderableType:
+    """One standardization: how it was done, its replicates, checks, budget and reviews."""
+    head = Text.assemble(
+        (f"run {run['run']}", "bold"), "  ", status_cell(app, run["status"]),
+        f"  {run['method']}  performed {words.when(run['performed_at'])} by {run['analyst']}"
+        f"  (recorded {words.when(run['recorded_at'])})")
+    against = (f"lot {run['lot']} ({run['lot_certificate'] or 'no certificate on record'})"
+               if run.get("lot") else f"against batch {run.get('reference_batch')}")
+    how = Text(f"  {against};  balance {run.get('balance') or '-'};  burette "
+               f"{run.get('burette') or '-'};  {run.get('temperature_c') or '-'} °C;  blank "
+               f"{run.get('blank_ml') or '0'} mL;  indicator {run.get('indicator') or '-'}")
+    res = Text(f"  N = {words.sig(run['normality'])} eq/L at {run.get('temperature_c')} °C, "
+               f"{words.sig(run['normality_20c'])} at 20 °C;  factor "
+               f"{words.fixed(run['factor'])};  RSD {words.sig(run['rsd_percent'], 3)} %;  "
+               f"U = {words.sig(run['U'], 2)} eq/L (k = {words.sig(run['k'], 2)})")
+    parts: list[RenderableType] = [head, how, res]
+    reps = run.get("replicates") or []
+    if reps:
+        amount = "aliquot mL" if run["method"] == "secondary" else "mass g"
+        t = small_table("#", "v", amount, "titrant mL", "N (eq/L)", "note", right=(2, 3, 4))
+        for r in reps:
+            note = []
+            if not r["current"]:
+                note.append("superseded")
+            if r["excluded"]:
+                note.append(f"excluded: {r['reason']}")
+            if r.get("outlier"):
+                note.append("outlier (Grubbs)")
+            t.add_row(str(r["position"]), str(r["version"]), r["amount"], r["volume_ml"],
+                      words.sig(r["normality"]), "; ".join(note),
+                      style="dim" if not r["current"] else "")
+        parts.append(t)
+    checks = run.get("checks") or []
+    if checks:
+        ct = small_table("check", "outcome", "why")
+        for c in checks:
+            ct.add_row(c["name"], check_cell(app, c), c["message"])
+        parts.append(ct)
+    for rv in run.get("reviews") or []:
+        parts.append(Text(f"  {rv['decision']}ed by {rv['reviewer']} on "
+                          f"{words.when(rv['signed_at'])}"
+                          + (f": {rv['reason']}" if rv.get("reason") else "")))
+    return Group(*parts)
+
+
+def budget_table(budget: list[dict[str, Any]]) -> RenderableType:
+    if not budget:
+        return Text("no uncertainty budget")
+    t = small_table("quantity", "value", "unit", "u", "u rel.", "share %", right=(1, 3, 4, 5))
+    for b in budget:
+        t.add_row(b["quantity"], words.sig(b["value"], 6), b["unit"], words.sig(b["u"], 2),
+                  words.sig(b["u_relative"], 2), f"{b['share_percent']:.1f}")
+    return t
