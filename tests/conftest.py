@@ -14,12 +14,10 @@ raw sqlite3 access) are skipped on PostgreSQL, each with its reason: request
 
 from __future__ import annotations
 
-import gc
 import json
 import os
 import sqlite3
 import uuid
-import warnings
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -79,15 +77,33 @@ def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item
             item.add_marker(pytest.mark.skip(reason=f"SQLite-specific: {reason}"))
 
 
-def _quiet_collect() -> None:
-    """Collect engines that tests dropped without disposing, before their database goes.
+@pytest.fixture(autouse=True)
+def _close_server_connections() -> Iterator[None]:
+    """On PostgreSQL, close at the end of each test every connection it opened.
 
-    psycopg warns (ResourceWarning) when a connection is garbage-collected still open;
-    the server end is about to be closed by the DROP below, so that warning is noise.
+    Commands run in-process open a Database and leave it to the garbage collector
+    (a process would simply exit); psycopg then warns that an open connection was
+    collected, which the suite treats as an error. Holding the connections here
+    until the test ends and closing them explicitly keeps that warning meaningful.
     """
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", ResourceWarning)
-        gc.collect()
+    if not on_postgres():
+        yield
+        return
+    from sqlalchemy import event
+    from sqlalchemy.pool import Pool
+
+    opened: list[Any] = []
+
+    def keep(dbapi_connection: Any, _record: Any) -> None:
+        opened.append(dbapi_connection)
+
+    event.listen(Pool, "connect", keep)
+    try:
+        yield
+    finally:
+        event.remove(Pool, "connect", keep)
+        for connection in opened:
+            connection.close()
 
 
 @contextmanager
@@ -110,7 +126,6 @@ def scratch_pg_database(server_url: str | None = None) -> Iterator[str]:
         try:
             yield make_url(server).set(database=name).render_as_string(hide_password=False)
         finally:
-            _quiet_collect()
             with admin.connect() as conn:
                 conn.execute(
                     text("SELECT pg_terminate_backend(pid) FROM pg_stat_activity "

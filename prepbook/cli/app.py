@@ -68,14 +68,18 @@ def _register() -> None:
         calc,
         corrections,
         demo,
+        exports,
         history,
         instruments,
+        labels,
         lots,
+        report,
         review,
         settings,
         setup,
         specs,
         standardize,
+        tui,
         users,
     )
 
@@ -97,6 +101,10 @@ def _register() -> None:
     app.add_typer(settings.app, name="settings")
     app.command("use")(batches.use)
     app.add_typer(calc.app, name="calc")
+    app.command("label")(labels.label)
+    app.command("report")(report.report)
+    app.command("export")(exports.export)
+    app.command("tui")(tui.tui)
 
 
 _register()

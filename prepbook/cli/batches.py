@@ -30,6 +30,9 @@ def make(
     at: str = typer.Option(
         None, "--at", help="When it was made (YYYY-MM-DD[THH:MM], UTC), if not now."
     ),
+    code: str = typer.Option(
+        None, "--code", help="The lab's own bottle code (default: spec-date-number)."
+    ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
     """Record a new batch; prints its code, theoretical normality and the cautions."""
@@ -38,7 +41,8 @@ def make(
     res = batches.make_batch(database(ctx), actor=actor(ctx), spec=spec, volume=volume,
                              solute_mass=solute_mass, solute_lot=solute_lot,
                              stock_volume=stock_volume, from_batch=from_batch, aliquot=aliquot,
-                             flask=flask, balance=balance, notes=notes, at=at)
+                             flask=flask, balance=balance, notes=notes, at=at,
+                             code=code)
     if as_json:
         output.emit_json(res)
         return
@@ -104,6 +108,9 @@ def _render_show(out: Any, b: dict[str, Any]) -> None:
         out.print(f"\nuses: {len(b['uses'])}")
     if b["diluted_into"]:
         out.print("diluted into: " + ", ".join(b["diluted_into"]))
+    if b["uses_needing_review"]:
+        out.print(f"[bold]{len(b['uses_needing_review'])} use(s) need review[/bold] "
+                  f"(see `prepbook trace {b['batch']}`)")
     output.warn_lines(out, b["warnings"])
 
 

@@ -11,7 +11,9 @@ from prepbook.errors import InvalidInput
 
 def review(
     ctx: typer.Context,
-    run: str = typer.Argument(..., help="Run code."),
+    run: str = typer.Argument(
+        ..., help="Run code (or a batch code: its one run awaiting review)."
+    ),
     accept: bool = typer.Option(False, "--accept", help="Accept the run."),
     reject: bool = typer.Option(False, "--reject", help="Reject the run (needs --reason)."),
     reason: str = typer.Option(None, "--reason", help="Why (required to reject)."),

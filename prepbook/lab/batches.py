@@ -10,7 +10,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_datetime, parse_number, parse_text, utc_now
+from prepbook.inputs import parse_code, parse_datetime, parse_number, parse_text, utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.common import acting, by_code, iso, not_future, write
 from prepbook.store.engine import Database
@@ -62,8 +62,13 @@ def make_batch(
     balance: str | None = None,
     notes: str | None = None,
     at: str | None = None,
+    code: str | None = None,
 ) -> dict[str, Any]:
-    """Record a new batch and compute its theoretical normality from how it was made."""
+    """Record a new batch and compute its theoretical normality from how it was made.
+
+    ``code`` is the lab's own bottle code; without it one is made from the spec code,
+    the date and a count (``NaOH-0.1N-261130-1``).
+    """
     from prepbook.catalog import loader
     from prepbook.chem import formula
     from prepbook.rules import life
@@ -93,6 +98,7 @@ def make_batch(
         raise InvalidInput(f"concentrate volume {stock.text} mL must be smaller than the final "
                            f"volume {vol.text} mL")
     notes = parse_text(notes, "notes")
+    own_code = parse_code(code, "batch code") if code is not None else None
     made_at = not_future(parse_datetime(at, "--at") if at else None, "preparation time")
 
     with db.session() as s:
@@ -156,7 +162,12 @@ def make_batch(
             warnings.append(f"flask {flask_row.code} holds {flask_row.capacity_text} mL, "
                             f"not the {vol.text} mL recorded")
         expires = life.expiry(made_at.date(), view.shelf_life_days, parents)
-        code = next_code(s, Batch, f"{sp.code}-{made_at:%y%m%d}")
+        if own_code is not None:
+            if s.scalars(select(Batch).where(Batch.code == own_code)).first() is not None:
+                raise Refused(f"batch {own_code!r} already exists")
+            code = own_code
+        else:
+            code = next_code(s, Batch, f"{sp.code}-{made_at:%y%m%d}")
         batch = Batch(
             code=code, spec_id=sp.id, method=method, volume_ml_text=vol.text,
             solute_mass_g_text=mass.text if mass else None,
@@ -300,9 +311,16 @@ def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, 
             "uses": [{"at": iso(u.used_at), "by": u.used_by, "volume_ml": u.volume_ml_text,
                       "purpose": u.purpose} for u in uses],
             "diluted_into": list(children),
+            "uses_needing_review": _impact(s, b, view.drift_limit_percent),
             "storage": view.storage,
             "hazard": view.hazard,
         }
+
+
+def _impact(session: Session, batch: Batch, drift_limit: float) -> list[dict[str, Any]]:
+    from prepbook.lab.history import impact
+
+    return impact(session, batch, drift_limit)
 
 
 def batch_count(db: Database) -> int:

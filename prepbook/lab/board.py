@@ -6,6 +6,7 @@ history (no query per batch), so it stays quick over years of records.
 
 from __future__ import annotations
 
+import functools
 from collections import defaultdict
 from dataclasses import dataclass
 from datetime import date
@@ -16,7 +17,7 @@ from sqlalchemy.orm import Session, aliased
 
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
-from prepbook.lab.common import iso, setting
+from prepbook.lab.common import iso, life_facts, setting
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Spec
 
@@ -96,19 +97,40 @@ def _life(
     }
 
 
-def _run_facts(session: Session, batch_ids: list[int] | None) -> dict[int, list[_RunFacts]]:
-    bal = aliased(Instrument)
-    bur = aliased(Instrument)
-    q = (
+# Aliases and statements are built once: building them is most of a small query's cost.
+_BALANCE = aliased(Instrument, name="balance")
+_BURETTE = aliased(Instrument, name="burette")
+_FLASK = aliased(Instrument, name="flask")
+
+
+@functools.cache
+def _run_facts_query() -> Any:
+    return (
         select(Run.batch_id, Run.performed_at, Run.status, Run.normality, Run.factor,
-               Lot.code, Lot.expires, bal.code, bal.due, bur.code, bur.due)
+               Lot.code, Lot.expires, _BALANCE.code, _BALANCE.due, _BURETTE.code, _BURETTE.due)
         .outerjoin(Lot, Run.lot_id == Lot.id)
-        .outerjoin(bal, Run.balance_id == bal.id)
-        .outerjoin(bur, Run.burette_id == bur.id)
+        .outerjoin(_BALANCE, Run.balance_id == _BALANCE.id)
+        .outerjoin(_BURETTE, Run.burette_id == _BURETTE.id)
         .order_by(Run.batch_id, Run.performed_at, Run.id)
     )
-    if batch_ids is not None:
-        q = q.where(Run.batch_id.in_(batch_ids))
+
+
+@functools.cache
+def _batch_rows_query() -> Any:
+    return (
+        select(Batch, Spec, _FLASK.code, _FLASK.due, _BALANCE.code, _BALANCE.due, Lot.code,
+               Lot.expires)
+        .join(Spec, Batch.spec_id == Spec.id)
+        .outerjoin(_FLASK, Batch.flask_id == _FLASK.id)
+        .outerjoin(_BALANCE, Batch.balance_id == _BALANCE.id)
+        .outerjoin(Lot, Batch.solute_lot_id == Lot.id)
+        .order_by(Batch.id)
+    )
+
+
+def _run_facts(session: Session, batch_ids: Any) -> dict[int, list[_RunFacts]]:
+    """The runs of the given batches (a list of ids, or a subquery selecting them)."""
+    q = _run_facts_query().where(Run.batch_id.in_(batch_ids))
     out: dict[int, list[_RunFacts]] = defaultdict(list)
     for (bid, at, status, n, f, lot_code, lot_exp, bal_code, bal_due, bur_code,
          bur_due) in session.execute(q):
@@ -119,19 +141,8 @@ def _run_facts(session: Session, batch_ids: list[int] | None) -> dict[int, list[
 
 
 def _batch_rows(session: Session, where: Any) -> list[tuple[Batch, Spec, list, Any]]:
-    flask = aliased(Instrument)
-    bal = aliased(Instrument)
-    q = (
-        select(Batch, Spec, flask.code, flask.due, bal.code, bal.due, Lot.code, Lot.expires)
-        .join(Spec, Batch.spec_id == Spec.id)
-        .outerjoin(flask, Batch.flask_id == flask.id)
-        .outerjoin(bal, Batch.balance_id == bal.id)
-        .outerjoin(Lot, Batch.solute_lot_id == Lot.id)
-        .where(where)
-        .order_by(Batch.id)
-    )
     rows = []
-    for batch, spec, fc, fd, bc, bd, lc, le in session.execute(q):
+    for batch, spec, fc, fd, bc, bd, lc, le in session.execute(_batch_rows_query().where(where)):
         instruments = [(c, k, d) for c, k, d in ((fc, "flask", fd), (bc, "balance", bd)) if c]
         rows.append((batch, spec, instruments, (lc, le) if lc else None))
     return rows
@@ -145,11 +156,21 @@ def _lead_days(session: Session) -> int:
 
 
 def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
-    """State, strength, dates and warnings of one batch."""
-    rows = _batch_rows(session, Batch.id == batch.id)
-    facts = _run_facts(session, [batch.id])
-    b, spec, instruments, lot = rows[0]
-    return _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=instruments,
+    """State, strength, dates and warnings of one batch.
+
+    What it is computed from (the batch, its runs, instruments and lots) is read once
+    per transaction and kept until the transaction writes a batch, run, lot,
+    instrument or spec (``common.life_facts``), so many uses of one batch grouped in
+    one transaction read it once.
+    """
+    def read() -> tuple[Any, ...]:
+        rows = _batch_rows(session, Batch.id == batch.id)
+        facts = _run_facts(session, [batch.id])
+        b, spec, instruments, lot = rows[0]
+        return b, spec, instruments, lot, facts.get(b.id, [])
+
+    b, spec, instruments, lot, runs = life_facts(session, batch.id, read)
+    return _life(batch=b, spec=spec, runs=runs, batch_instruments=instruments,
                  solute_lot=lot, today=today, lead_days=_lead_days(session))
 
 
@@ -159,7 +180,10 @@ def board(db: Database, today: date | None = None) -> list[dict[str, Any]]:
     with db.session(write=False) as s:
         lead = _lead_days(s)
         rows = _batch_rows(s, Batch.retired_at.is_(None))
-        facts = _run_facts(s, None)
+        # Only the runs of the batches shown: retired batches' runs (most of a long
+        # history) are never read.
+        facts = _run_facts(s, select(Batch.id).where(Batch.retired_at.is_(None))
+                           .scalar_subquery())
         items = [
             _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=ins,
                   solute_lot=lot, today=today, lead_days=lead)

@@ -26,10 +26,43 @@ RECORDERS = ("technician", "reviewer", "admin")
 REVIEWERS = ("reviewer", "admin")
 
 
+_MEMO = "prepbook_lookups"
+_SETTINGS = ("settings",)
+
+
+def _memo(session: Session) -> dict[Any, Any]:
+    """Lookups already made in this transaction (code -> row, the settings).
+
+    Codes and user names never change once recorded, and the row found is the
+    session's own identity-mapped object (so it shows this transaction's writes):
+    a second lookup of the same code in the same transaction needs no query. This
+    is what keeps many service calls grouped in one transaction (the synthetic
+    history of ``prepbook demo --years``) quick; a single command does one lookup
+    of each anyway. The memo is dropped when the transaction ends.
+    """
+    transaction = session.get_transaction()
+    held = session.info.get(_MEMO)
+    if held is None or held[0] is not transaction:
+        held = (transaction, {})
+        session.info[_MEMO] = held
+    return held[1]  # type: ignore[no-any-return]
+
+
+def _remembered(session: Session, key: Any) -> Any:
+    row = _memo(session).get(key)
+    # A row from a savepoint that was rolled back is no longer in the session.
+    return row if row is not None and row in session else None
+
+
 def by_code(session: Session, model: type[T], code: str, what: str) -> T:
     """The row of ``model`` with this code, or NotFound naming close matches."""
+    key = (model, code)
+    row = _remembered(session, key)
+    if row is not None:
+        return row  # type: ignore[no-any-return]
     row = session.scalars(select(model).where(model.code == code)).first()  # type: ignore[attr-defined]
     if row is not None:
+        _memo(session)[key] = row
         return row
     # Codes are case-sensitive in the record; offer a case-insensitive match.
     codes = list(session.scalars(select(model.code)))  # type: ignore[attr-defined]
@@ -40,7 +73,13 @@ def by_code(session: Session, model: type[T], code: str, what: str) -> T:
 
 
 def user_named(session: Session, name: str) -> User:
+    key = (User, name)
+    row = _remembered(session, key)
+    if row is not None:
+        return row  # type: ignore[no-any-return]
     row = session.scalars(select(User).where(User.name == name)).first()
+    if row is not None:
+        _memo(session)[key] = row
     if row is None:
         raise NotFound(
             f"{name!r} is not a prepbook user of this database "
@@ -114,6 +153,8 @@ def signed(db: Any, name: str, passphrase: str | None, roles: tuple[str, ...] = 
 def write(session: Session, actor: str, action: str, row: Base, *, reason: str | None = None,
           performed_at: datetime | None = None) -> None:
     """Add/flush a row and its audit event in the current transaction."""
+    if isinstance(row, Setting):
+        _memo(session).pop(_SETTINGS, None)
     session.add(row)
     session.flush()
     audit.record(session, actor=actor, action=action, row=row, reason=reason,
@@ -134,7 +175,17 @@ def spec_data(spec: Spec) -> dict[str, Any]:
 
 
 def setting(session: Session, key: str, default: str) -> str:
-    row = session.scalars(select(Setting).where(Setting.key == key)).first()
+    """A lab setting's value, or ``default`` when the lab has not set it.
+
+    All settings (a handful of rows) are read once per transaction; writing one
+    through ``write`` drops that copy.
+    """
+    memo = _memo(session)
+    rows = memo.get(_SETTINGS)
+    if rows is None or any(r not in session for r in rows.values()):
+        rows = {r.key: r for r in session.scalars(select(Setting))}
+        memo[_SETTINGS] = rows
+    row = rows.get(key)
     return row.value if row is not None else default
 
 

@@ -77,7 +77,7 @@ def _lot(lot: Lot | None) -> dict[str, Any] | None:
             "expires": iso(lot.expires), "dried_on": iso(lot.dried_on)}
 
 
-def _impact(s: Session, b: Batch, drift_limit: float) -> list[dict[str, Any]]:
+def impact(s: Session, b: Batch, drift_limit: float) -> list[dict[str, Any]]:
     from prepbook.rules.impact import RunPoint, UsePoint, uses_needing_review
 
     runs = [RunPoint(r.code, r.performed_at, r.status, r.normality_20c)
@@ -139,7 +139,7 @@ def trace(db: Database, code: str) -> dict[str, Any]:
             "batch": b.code, "spec": b.spec.code, "upward": up,
             "downward": {"diluted_into": children, "reference_for": standardized_against,
                          "uses": uses},
-            "uses_needing_review": _impact(s, b, view.drift_limit_percent),
+            "uses_needing_review": impact(s, b, view.drift_limit_percent),
         }
 
 

@@ -463,9 +463,26 @@ def exclude(db: Database, *, actor: str, run: str, replicate: int, reason: str |
                    passphrase=passphrase, action="exclude", exclude=True)
 
 
+def _run_to_review(s: Session, code: str) -> Run:
+    """The run with this code; or, given a batch code, that batch's one run awaiting review."""
+    r = s.scalars(select(Run).where(Run.code == code)).first()
+    if r is not None:
+        return r
+    b = s.scalars(select(Batch).where(Batch.code == code)).first()
+    if b is None:
+        return by_code(s, Run, code, "run")  # raises NotFound with suggestions
+    waiting = list(s.scalars(select(Run).where(Run.batch_id == b.id,
+                                               Run.status == "awaiting-review")))
+    if len(waiting) != 1:
+        raise InvalidInput(f"batch {b.code} has {len(waiting)} runs awaiting review; "
+                           "name the run" + (": " + ", ".join(w.code for w in waiting)
+                                             if waiting else ""))
+    return waiting[0]
+
+
 def _review_precheck(s: Session, actor: str, run: str) -> Run:
     reviewer = acting(s, actor, REVIEWERS, "review standardizations")
-    r = by_code(s, Run, run, "run")
+    r = _run_to_review(s, run)
     if r.analyst == reviewer.name:
         raise Refused(f"{reviewer.name} recorded run {r.code} and cannot review it; "
                       "a second person must")

@@ -14,7 +14,6 @@ from typing import Any
 from sqlalchemy import select
 
 from prepbook.lab import auditing
-from prepbook.lab import specs as spec_view
 from prepbook.lab.common import by_code, iso
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditHead, Batch, Replicate, Review, Run, Use
@@ -54,25 +53,20 @@ def batch_events(db: Database, code: str) -> list[dict[str, Any]]:
 
 
 def batch_trend(db: Database, code: str) -> dict[str, Any]:
-    """The factor of every run of a batch over time, the spec's acceptance window, and
-    the least-squares trend of the accepted runs (``trend`` None below 3 of them)."""
-    from prepbook.chem import trend as chem_trend
+    """The factor of every run of a batch over time (for a chart: accepted, awaiting and
+    rejected alike), the spec's acceptance window, and ``history.trend`` of the
+    accepted runs (change between them, least-squares slope and forecast)."""
+    from prepbook.lab import history
 
     with db.session(write=False) as s:
         b = by_code(s, Batch, code, "batch")
-        view = spec_view.view(b.spec)
-        rules = view.rules()
         rows = s.execute(select(Run.code, Run.performed_at, Run.status, Run.factor)
                          .where(Run.batch_id == b.id)
                          .order_by(Run.performed_at, Run.id)).all()
-    points = [{"run": c, "at": iso(at), "status": st, "factor": f}
+    fitted = history.trend(db, code)
+    changes = {h["run"]: h for h in fitted["history"]}
+    points = [{"run": c, "at": iso(at), "status": st, "factor": f,
+               "change_percent": changes.get(c, {}).get("change_percent"),
+               "beyond_drift_limit": changes.get(c, {}).get("beyond_drift_limit", False)}
               for c, at, st, f in rows if f is not None]
-    low, high = rules.factor_low, rules.factor_high
-    accepted = [(at, f) for _, at, st, f in rows if st == "accepted" and f is not None]
-    fitted = None
-    if len(accepted) >= 3 and len({at for at, _ in accepted}) > 1:
-        t = chem_trend.trend(accepted, (low, high))
-        fitted = {"slope_percent_per_30d": t.slope_percent_per_30d, "ci_low": t.ci_low,
-                  "ci_high": t.ci_high, "n": t.n,
-                  "forecast_leaves_window": iso(t.forecast_leaves_window)}
-    return {"batch": code, "window": [low, high], "points": points, "trend": fitted}
+    return {"batch": code, "window": fitted["window"], "points": points, "trend": fitted}

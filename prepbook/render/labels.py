@@ -26,14 +26,14 @@ from xml.sax.saxutils import escape
 from prepbook.errors import InvalidInput
 from prepbook.render.sizes import MM, LabelSize, Sheet, grid
 
-MIN_FONT_PT = 4.5  # smallest body text on a label: common practice, no source
+MIN_FONT_PT = 4.25  # smallest body text (a line about 1.75 mm): common practice, no source
 MAX_FONT_PT = 9.0
 STEP_PT = 0.25
 TITLE_SCALE = 1.35
 FACTOR_SCALE = 1.2
 LEADING = 1.17  # line height / font size
 
-SDS_LINE = "Follow the SDS, local regulations and your lab's procedures."
+SDS_LINE = "Follow the SDS, local regulations and lab procedures."
 
 STATE_NOTES = {
     "new": "NOT YET STANDARDIZED - do not use for assays",
@@ -49,9 +49,12 @@ class Line:
     """One paragraph of label text: ``role`` picks the style, ``text`` is plain text
     and ``bold`` lists the leading words printed in bold (the field's name)."""
 
-    role: str  # "title", "strength", "status", "field", "storage", "hazard", "footer"
+    role: str  # "kicker", "title", "strength", "status", "field", "storage", "hazard", "footer"
     text: str
     lead: str = ""  # printed in bold before the text
+    strong: bool = False  # the text itself in bold too (dates to act on)
+    # Run-together fields (name, value, strong): printed "name value · name value"
+    parts: tuple[tuple[str, str, bool], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -61,15 +64,22 @@ class LabelLayout:
     size: str
     font_pt: float
     tier: int  # 0 full text, 1 dates packed, 2 hazard statements by code
-    text_box: tuple[float, float, float, float]  # x, y, width, height (points, from lower left)
-    text_height_pt: float  # height the text actually uses
+    qr_share: float
+    # x, y, width, height in points from the label's lower left: beside the side column, below it
+    text_boxes: tuple[tuple[float, float, float, float], ...]
+    text_heights_pt: tuple[float, ...]  # height the text uses in each box
     qr_box: tuple[float, float, float, float]
-    side_box: tuple[float, float, float, float]  # right column: QR, code, signal word
+    side_box: tuple[float, float, float, float]  # top right: QR, code, signal word
+    code_pt: float
+    code_lines: tuple[str, ...]
+    bar_h: float
     notes: tuple[str, ...] = field(default_factory=tuple)
 
     @property
     def fits(self) -> bool:
-        return self.text_height_pt <= self.text_box[3] + 1e-6
+        boxes = [b for b in self.text_boxes if b[3] > 0.5 and b[2] > 0.5]
+        return all(used <= box[3] + 1e-6 for used, box in zip(self.text_heights_pt, boxes,
+                                                              strict=True))
 
 
 # --- formatting (pure) ----------------------------------------------------------------
@@ -127,59 +137,64 @@ def batch_lines(data: dict[str, Any], tier: int = 0) -> list[Line]:
                           f"{nominal_text(data['nominal'], unit)}",
                           lead=f"Factor {data['factor']:.4f}"))
     else:
-        lines.append(Line("strength", f"{nominal_text(data['nominal'], unit)} "
-                          "(no accepted standardization)", lead="Nominal"))
+        lines.append(Line("strength", nominal_text(data["nominal"], unit), lead="Nominal"))
     note = STATE_NOTES.get(data.get("state") or "")
     if note:
         lines.append(Line("status", note))
     std = data.get("standardized_on")
-    std_text = f"{std} ({data['run']})" if std else "not yet"
-    fields = [
-        ("Batch", data["code"]),
-        ("Made", f"{data['made_on']} by {data['made_by']}"),
-        ("Standardized", std_text),
-        ("Restandardize by", data.get("restandardize_by") or "after the first standardization"),
-        ("Expires", data["expires"]),
+    # At tier 2 the code is left to the side column, where it is printed under the QR code.
+    fields = [] if tier >= 2 else [("Batch", data["code"], False)]
+    fields += [
+        ("Made", f"{data['made_on']} by {data['made_by']}", False),
+        ("Standardized", f"{std} ({data['run']})" if std else "not yet", False),
     ]
-    if tier >= 1:
-        lines.append(Line("field", " · ".join(f"{k} {v}" for k, v in fields)))
-    else:
-        lines.extend(Line("field", str(v), lead=k) for k, v in fields)
+    if data.get("restandardize_by"):
+        fields.append(("Restandardize by", data["restandardize_by"], True))
+    fields.append(("Expires", data["expires"], True))
+    lines.extend(_field_lines(fields, tier))
     if data.get("storage"):
         lines.append(Line("storage", data["storage"], lead="Storage:"))
     lines.extend(_hazard_lines(data.get("hazard") or {}, by_code=tier >= 2))
-    lines.append(Line("footer", f"{SDS_LINE} Label printed {data['printed_on']} by "
-                      f"{data['printed_by']}."))
+    lines.append(_footer(data, tier))
     return lines
+
+
+def _field_lines(fields: list[tuple[str, str, bool]], tier: int) -> list[Line]:
+    if tier >= 1:
+        return [Line("field", "", parts=tuple(fields))]
+    return [Line("field", v, lead=k, strong=strong) for k, v, strong in fields]
 
 
 def lot_lines(data: dict[str, Any], tier: int = 0) -> list[Line]:
     """The text of a primary-standard lot label, in reading order."""
-    lines = [Line("title", data["name"])]
+    lines = [Line("kicker", "PRIMARY STANDARD"), Line("title", data["name"])]
     purity = f"{data['purity_percent']} %"
     if data.get("purity_u_percent"):
         purity += f" ± {data['purity_u_percent']} %"
     lines.append(Line("strength", f"{purity} (certificate)", lead="Purity"))
     if data.get("expired"):
         lines.append(Line("status", "EXPIRED - do not use"))
-    fields = [
-        ("Lot", data["code"]),
-        ("Material", f"{data['material']} ({data['formula']})"),
-        ("Certificate", data.get("certificate") or "none recorded"),
-        ("Opened", data.get("opened_on") or "not recorded"),
-        ("Dried", data.get("dried_on") or "not recorded"),
-        ("Expires", data["expires"]),
+    fields = [] if tier >= 2 else [("Lot", data["code"], False)]
+    fields += [
+        ("Material", f"{data['material']} ({data['formula']})", False),
+        ("Certificate", data.get("certificate") or "none recorded", False),
+        ("Opened", data.get("opened_on") or "not recorded", False),
+        ("Dried", data.get("dried_on") or "not recorded", True),
+        ("Expires", data["expires"], True),
     ]
-    if tier >= 1:
-        lines.append(Line("field", " · ".join(f"{k} {v}" for k, v in fields)))
-    else:
-        lines.extend(Line("field", str(v), lead=k) for k, v in fields)
+    lines.extend(_field_lines(fields, tier))
     if data.get("drying"):
         lines.append(Line("storage", data["drying"], lead="Drying:"))
     lines.extend(_hazard_lines(data.get("hazard") or {}, by_code=tier >= 2))
-    lines.append(Line("footer", f"{SDS_LINE} Label printed {data['printed_on']} by "
-                      f"{data['printed_by']}."))
+    lines.append(_footer(data, tier))
     return lines
+
+
+def _footer(data: dict[str, Any], tier: int) -> Line:
+    if tier >= 2:  # who printed it and when stays in the record (label_prints)
+        return Line("footer", SDS_LINE)
+    return Line("footer", f"{SDS_LINE} Label printed {data['printed_on']} by "
+                f"{data['printed_by']}.")
 
 
 def lines_for(data: dict[str, Any], tier: int = 0) -> list[Line]:
@@ -189,7 +204,8 @@ def lines_for(data: dict[str, Any], tier: int = 0) -> list[Line]:
 # --- layout and drawing (reportlab) ---------------------------------------------------
 
 
-def _styles(font: float) -> dict[str, Any]:
+def _styles(font: float, tier: int = 0) -> dict[str, Any]:
+    from reportlab.lib.colors import black
     from reportlab.lib.enums import TA_LEFT
     from reportlab.lib.styles import ParagraphStyle
 
@@ -201,10 +217,20 @@ def _styles(font: float) -> dict[str, Any]:
         )
 
     gap = font * 0.25
+    # The tightest packing also narrows the step between title, strength and body text.
+    title, strength = (TITLE_SCALE, FACTOR_SCALE) if tier < 2 else (1.2, 1.1)
+    status = style("status", font, bold=True, after=gap)
+    status.borderWidth = 0.6
+    status.borderColor = black
+    status.borderPadding = (font * 0.15, font * 0.3, font * 0.1, font * 0.3)
+    status.leftIndent = font * 0.3
+    status.rightIndent = font * 0.6
+    status.spaceBefore = font * 0.25
     return {
-        "title": style("title", font * TITLE_SCALE, bold=True, after=gap),
-        "strength": style("strength", font * FACTOR_SCALE, after=gap * 0.5),
-        "status": style("status", font, bold=True, after=gap * 0.5),
+        "kicker": style("kicker", font * 0.85, bold=True),
+        "title": style("title", font * title, bold=True, after=gap),
+        "strength": style("strength", font * strength, after=gap * 0.5),
+        "status": status,
         "field": style("field", font),
         "storage": style("storage", font, after=0),
         "hazard": style("hazard", font),
@@ -215,7 +241,11 @@ def _styles(font: float) -> dict[str, Any]:
 def _paragraph(line: Line, styles: dict[str, Any]) -> Any:
     from reportlab.platypus import Paragraph
 
-    body = escape(line.text)
+    if line.parts:
+        body = " · ".join(f"<b>{escape(k)} {escape(v)}</b>" if strong else
+                          f"{escape(k)} {escape(v)}" for k, v, strong in line.parts)
+        return Paragraph(body, styles[line.role])
+    body = f"<b>{escape(line.text)}</b>" if line.strong else escape(line.text)
     if line.lead:
         body = f"<b>{escape(line.lead)}</b> {body}"
     if line.role == "footer":
@@ -232,67 +262,144 @@ def _gap_before(line: Line, previous: Line | None, font: float) -> float:
     return 0.0
 
 
-def _measure(lines: list[Line], width: float, font: float) -> tuple[float, list[Any]]:
-    styles = _styles(font)
-    total = 0.0
-    placed = []
+def _paragraphs(lines: list[Line], font: float, tier: int) -> list[Any]:
+    from reportlab.platypus import Spacer
+
+    styles = _styles(font, tier)
+    story: list[Any] = []
     previous: Line | None = None
     for line in lines:
-        para = _paragraph(line, styles)
-        _, h = para.wrap(width, 10_000)
         gap = _gap_before(line, previous, font)
-        total += gap + h + para.style.spaceAfter
-        placed.append((gap, para, h))
+        if gap:
+            story.append(Spacer(1, gap))
+        story.append(_paragraph(line, styles))
         previous = line
-    return total, placed
+    return story
+
+
+def _frames(geo: _Geometry) -> list[Any]:
+    from reportlab.platypus import Frame
+
+    return [Frame(x, y, w, h, leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0,
+                  showBoundary=0)
+            for x, y, w, h in geo.text_boxes if h > 0.5 and w > 0.5]
+
+
+def _flow(canvas: Any, lines: list[Line], geo: _Geometry, font: float,
+          tier: int) -> list[float] | None:
+    """Flow the text into the frames on ``canvas``; the height used in each frame, or
+    None when some text is left over (it does not fit)."""
+    story = _paragraphs(lines, font, tier)
+    used = []
+    for frame in _frames(geo):
+        _fill(frame, story, canvas)
+        used.append(frame._y1 + frame._height - frame._y)  # top minus the current baseline
+    return None if story else used
+
+
+def _fill(frame: Any, story: list[Any], canvas: Any) -> None:
+    """Add flowables to ``frame`` until one does not fit; split that one across frames."""
+    while story:
+        if frame.add(story[0], canvas, trySplit=0):
+            story.pop(0)
+            continue
+        parts = frame.split(story[0], canvas)
+        if len(parts) >= 2 and frame.add(parts[0], canvas, trySplit=0):
+            story[0:1] = parts[1:]
+        return
 
 
 @dataclass(frozen=True)
 class _Geometry:
     margin: float
-    text_box: tuple[float, float, float, float]
+    text_boxes: tuple[tuple[float, float, float, float], ...]  # beside the side column, below
     side_box: tuple[float, float, float, float]
     qr_side: float
+    code_pt: float
+    code_lines: tuple[str, ...]
+    bar_h: float
 
 
-def _geometry(size: LabelSize) -> _Geometry:
+QR_SHARES = (0.5, 0.42)  # of the label's inner height, tried in turn
+
+
+def _geometry(size: LabelSize, code: str, signal: str | None, font: float,
+              tier: int = 0, qr_share: float = QR_SHARES[0]) -> _Geometry:
+    """Where things go: the side column (QR, code, signal word) at the top right, the text
+    beside it and then across the full width below it."""
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
     w, h = size.width_pt, size.height_pt
-    margin = max(1.5 * MM, min(3 * MM, h * 0.06))
+    margin = max(1.2 * MM, min(3 * MM, h * 0.05))
     gutter = max(1.2 * MM, w * 0.02)
-    side_w = min(w * 0.30, h - 2 * margin)
-    # QR, then the code in print (about two lines), then the signal-word bar.
-    qr = min(side_w, (h - 2 * margin) * 0.72)
-    text_w = w - 2 * margin - side_w - gutter
-    return _Geometry(
-        margin=margin,
-        text_box=(margin, margin, text_w, h - 2 * margin),
-        side_box=(w - margin - side_w, margin, side_w, h - 2 * margin),
-        qr_side=qr,
-    )
+    inner_h = h - 2 * margin
+    # The QR code stays at least 10 mm across (about 0.4 mm a module for a batch code).
+    qr = max(10 * MM, min(26 * MM, inner_h * qr_share, w * 0.28))
+    side_w = qr
+    code_pt, code_lines = _code_lines(code, side_w, max(MIN_FONT_PT, min(font, 7.0)))
+    bar_h = max(font * (1.9 if tier < 2 else 1.6), 6.0) if signal else 0.0
+    bar_h = min(bar_h, 4 * MM)
+    side_h = qr + code_pt * (0.3 + 1.2 * len(code_lines)) + \
+        (bar_h + code_pt * 0.4 if signal else 0.0)
+    side_h = min(side_h, inner_h)
+    top = h - margin
+    side = (w - margin - side_w, top - side_h, side_w, side_h)
+    beside = (margin, top - side_h, w - 2 * margin - side_w - gutter, side_h)
+    below_h = inner_h - side_h - gutter * 0.6
+    below = (margin, margin, w - 2 * margin, max(0.0, below_h))
+    return _Geometry(margin=margin, text_boxes=(beside, below), side_box=side, qr_side=qr,
+                     code_pt=code_pt, code_lines=code_lines, bar_h=bar_h)
+
+
+def _code_lines(code: str, width: float, size: float) -> tuple[float, tuple[str, ...]]:
+    """The code under the QR code: one line if it fits at ``size``, else broken after a
+    hyphen into two lines, else (a code with no hyphen) shrunk to the width."""
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    def fits(text: str) -> bool:
+        return stringWidth(text, "Helvetica-Bold", size) <= width
+
+    if fits(code):
+        return size, (code,)
+    cuts = [i + 1 for i, ch in enumerate(code) if ch == "-" and 0 < i < len(code) - 1]
+    two = [(code[:i], code[i:]) for i in cuts if fits(code[:i]) and fits(code[i:])]
+    if two:
+        return size, min(two, key=lambda parts: abs(len(parts[0]) - len(parts[1])))
+    return size * width / stringWidth(code, "Helvetica-Bold", size), (code,)
 
 
 def layout(data: dict[str, Any], size: LabelSize) -> LabelLayout:
     """Choose the largest font (and the least packing) at which the text fits."""
-    geo = _geometry(size)
-    _, _, text_w, text_h = geo.text_box
+    from reportlab.pdfgen.canvas import Canvas
+
+    scratch = Canvas(io.BytesIO(), pagesize=(size.width_pt, size.height_pt))
+    signal, _, _ = hazard_words(data.get("hazard") or {})
     notes: list[str] = []
-    for tier in (0, 1, 2):
+    # Pack harder before shrinking the text to its smallest: each tier has a floor.
+    for tier, floor in ((0, MIN_FONT_PT + 0.75), (1, MIN_FONT_PT + 0.25), (2, MIN_FONT_PT)):
         lines = lines_for(data, tier)
         font = MAX_FONT_PT
-        while font >= MIN_FONT_PT - 1e-9:
-            used, _ = _measure(lines, text_w, font)
-            if used <= text_h:
+        while font >= floor - 1e-9:
+            for share in QR_SHARES:
+                geo = _geometry(size, data["code"], signal, font, tier, share)
+                used = _flow(scratch, lines, geo, font, tier)
+                if used is not None:
+                    break
+            if used is not None:
                 if tier >= 1:
                     notes.append("the dates are run together on one line to fit")
                 if tier >= 2:
                     notes.append("hazard statements are printed by code (H-numbers) to fit "
                                  f"{size.name}; a larger label carries their full text")
+                    notes.append("the code is printed only under the QR code, and who "
+                                 "printed the label only in the record")
                 sx, sy, sw, sh = geo.side_box
-                qr_box = (sx + (sw - geo.qr_side) / 2, sy + sh - geo.qr_side, geo.qr_side,
-                          geo.qr_side)
-                return LabelLayout(size=size.name, font_pt=font, tier=tier,
-                                   text_box=geo.text_box, text_height_pt=used, qr_box=qr_box,
-                                   side_box=geo.side_box, notes=tuple(notes))
+                qr_box = (sx, sy + sh - geo.qr_side, geo.qr_side, geo.qr_side)
+                return LabelLayout(size=size.name, font_pt=font, tier=tier, qr_share=share,
+                                   text_boxes=geo.text_boxes, text_heights_pt=tuple(used),
+                                   qr_box=qr_box, side_box=geo.side_box, code_pt=geo.code_pt,
+                                   code_lines=geo.code_lines,
+                                   bar_h=geo.bar_h, notes=tuple(notes))
             font = round(font - STEP_PT, 4)
     raise InvalidInput(f"the label text for {data['code']} does not fit on {size.name} even at "
                        f"{MIN_FONT_PT} pt; choose a larger --size")
@@ -306,13 +413,6 @@ def _qr_matrix(text: str) -> list[list[bool]]:
     code.add_data(text)
     code.make(fit=True)
     return [list(row) for row in code.get_matrix()]
-
-
-def _fit_single_line(canvas: Any, text: str, font: str, size: float, width: float) -> float:
-    from reportlab.pdfbase.pdfmetrics import stringWidth
-
-    w = stringWidth(text, font, size)
-    return size if w <= width else size * width / w
 
 
 def _draw_side(canvas: Any, data: dict[str, Any], lay: LabelLayout) -> None:
@@ -335,53 +435,42 @@ def _draw_side(canvas: Any, data: dict[str, Any], lay: LabelLayout) -> None:
             else:
                 c += 1
     sx, sy, sw, sh = lay.side_box
-    code_font = _fit_single_line(canvas, data["code"], "Helvetica-Bold",
-                                 max(lay.font_pt, 5.0), sw)
-    code_y = qy - code_font * 1.25
-    canvas.setFont("Helvetica-Bold", code_font)
-    canvas.drawCentredString(sx + sw / 2, code_y, data["code"])
+    canvas.setFont("Helvetica-Bold", lay.code_pt)
+    for i, part in enumerate(lay.code_lines):
+        canvas.drawCentredString(sx + sw / 2, qy - lay.code_pt * (1.2 * i + 1.05), part)
     signal, _, _ = hazard_words(data.get("hazard") or {})
-    if signal:
+    if signal and lay.bar_h:
         word = signal.upper()
-        room = code_y - code_font * 0.6 - sy
-        bar_h = min(room, max(lay.font_pt * 2.0, 6.0))
-        if bar_h > 4:
-            size = _fit_single_line(canvas, word, "Helvetica-Bold", bar_h * 0.62, sw * 0.9)
-            bar_y = sy + (room - bar_h) / 2 if room > bar_h else sy
-            canvas.rect(sx, bar_y, sw, bar_h, stroke=0, fill=1)
-            canvas.setFillColorRGB(1, 1, 1)
-            canvas.setFont("Helvetica-Bold", size)
-            text_w = stringWidth(word, "Helvetica-Bold", size)
-            canvas.drawString(sx + (sw - text_w) / 2, bar_y + (bar_h - size * 0.72) / 2, word)
-            canvas.setFillColorRGB(0, 0, 0)
+        bar_y = sy
+        size = min(lay.bar_h * 0.62, _fit(word, "Helvetica-Bold", lay.bar_h * 0.62, sw * 0.9))
+        canvas.rect(sx, bar_y, sw, lay.bar_h, stroke=0, fill=1)
+        canvas.setFillColorRGB(1, 1, 1)
+        canvas.setFont("Helvetica-Bold", size)
+        text_w = stringWidth(word, "Helvetica-Bold", size)
+        canvas.drawString(sx + (sw - text_w) / 2, bar_y + (lay.bar_h - size * 0.72) / 2, word)
+        canvas.setFillColorRGB(0, 0, 0)
 
 
-def _draw_text(canvas: Any, data: dict[str, Any], lay: LabelLayout) -> None:
-    x, y, w, h = lay.text_box
-    _, placed = _measure(lines_for(data, lay.tier), w, lay.font_pt)
-    top = y + h
-    for gap, para, ph in placed:
-        top -= gap + ph
-        para.drawOn(canvas, x, top)
-        top -= para.style.spaceAfter
+def _fit(text: str, font: str, size: float, width: float) -> float:
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    w = stringWidth(text, font, size)
+    return size if w <= width else size * width / w
 
 
 def _draw_label(canvas: Any, data: dict[str, Any], lay: LabelLayout, x: float, y: float,
                 size: LabelSize, *, outline: bool) -> None:
     canvas.saveState()
     canvas.translate(x, y)
-    if outline:  # on a plain sheet, a hairline shows where to cut
+    if outline:  # on a plain sheet, a dotted hairline shows where to cut
         canvas.setLineWidth(0.25)
         canvas.setDash(1, 2)
         canvas.rect(0, 0, size.width_pt, size.height_pt, stroke=1, fill=0)
         canvas.setDash()
-    _draw_text(canvas, data, lay)
+    signal, _, _ = hazard_words(data.get("hazard") or {})
+    geo = _geometry(size, data["code"], signal, lay.font_pt, lay.tier, lay.qr_share)
+    _flow(canvas, lines_for(data, lay.tier), geo, lay.font_pt, lay.tier)
     _draw_side(canvas, data, lay)
-    # A rule between the text and the side column, for the eye.
-    sx = lay.side_box[0]
-    gx = (lay.text_box[0] + lay.text_box[2] + sx) / 2
-    canvas.setLineWidth(0.3)
-    canvas.line(gx, lay.text_box[1], gx, lay.text_box[1] + lay.text_box[3])
     canvas.restoreState()
 
 

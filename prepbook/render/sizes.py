@@ -2,9 +2,11 @@
 
 The sizes are common blank adhesive-label formats (metric and inch) as sold by
 many suppliers; they are given by their dimensions, not by any product number.
-A sheet (A4 or US Letter) holds as many labels as fit in a grid, centred, with a
-small gap between labels (common practice, no source: check the stock's own
-pitch before printing on pre-cut sheets).
+A sheet (A4 or US Letter) holds as many labels as fit in a grid inside its
+margins, centred, with a small gap between labels and a dotted cut line round
+each: it is meant for plain adhesive sheets cut by hand (margins and gap are
+common practice, no source). Pre-cut sheets have their own pitch: print one
+label per page and let the printer driver place it, or check the pitch first.
 """
 
 from __future__ import annotations
@@ -56,10 +58,10 @@ SIZES: dict[str, LabelSize] = {
     for s in (
         _mm("100x50mm", 100, 50, "large bottle label"),
         _mm("89x36mm", 89, 36, "address-roll size"),
-        _mm("70x37mm", 70, 37, "24 to an A4 sheet"),
+        _mm("70x37mm", 70, 37, "medium bottle label"),
         _mm("62x29mm", 62, 29, "narrow roll"),
         _inch("4x2in", 4, 2, "large bottle label, inch stock"),
-        _inch("2.625x1in", 2.625, 1, "30 to a Letter sheet"),
+        _inch("2.625x1in", 2.625, 1, "small bottle label, inch stock"),
     )
 }
 DEFAULT_SIZE = "70x37mm"

@@ -166,6 +166,33 @@ def _payload(
     return ("[" + ",".join(map(_scalar_json, (*fields, prev_hash))) + "]").encode()
 
 
+_HEAD_KEY = "prepbook_audit_head"
+
+
+def _locked_head(session: Session) -> AuditHead | None:
+    """The head row, read (and locked) once per transaction.
+
+    The first event of a transaction reads the head FOR UPDATE (on SQLite the
+    BEGIN IMMEDIATE write lock already excludes other writers); until that
+    transaction ends nobody else can move the head, so later events of the same
+    transaction use the row already held instead of reading it again. A savepoint
+    rolled back expires the object, which then reloads itself on first use.
+    """
+    transaction = session.get_transaction()
+    held = session.info.get(_HEAD_KEY)
+    if held is not None and held[0] is transaction and held[1] in session:
+        return held[1]  # type: ignore[no-any-return]
+    head = session.execute(
+        select(AuditHead)
+        .where(AuditHead.id == 1)
+        .with_for_update()
+        .execution_options(populate_existing=True)
+    ).scalar_one_or_none()
+    if head is not None:
+        session.info[_HEAD_KEY] = (transaction, head)
+    return head
+
+
 def record(
     session: Session,
     *,
@@ -194,12 +221,7 @@ def record(
     values = canonical_json(snapshot(row))
     record_id = int(row.id)  # type: ignore[attr-defined]
 
-    head = session.execute(
-        select(AuditHead)
-        .where(AuditHead.id == 1)
-        .with_for_update()
-        .execution_options(populate_existing=True)
-    ).scalar_one_or_none()
+    head = _locked_head(session)
     if head is None:
         # Only a schema built without the migration lacks the seeded head row.
         if session.execute(select(AuditEvent.seq).limit(1)).first() is not None:
@@ -208,6 +230,7 @@ def record(
             raise IntegrityError("the audit head row is missing: run `prepbook audit verify`")
         head = AuditHead(id=1, seq=0, hash=None)
         session.add(head)
+        session.info[_HEAD_KEY] = (session.get_transaction(), head)
 
     seq = head.seq + 1
     at = datetime.now(UTC).replace(tzinfo=None)
@@ -242,7 +265,10 @@ def record(
     )
     head.seq = seq
     head.hash = new_hash
-    session.flush()
+    # Not flushed here: the event and the head go out with the session's next flush
+    # (the next write, query or the commit), in the same transaction. One flush per
+    # write instead of two; whatever reads the trail through the ORM autoflushes, and
+    # ``verify`` and ``log`` flush first.
     return seq
 
 

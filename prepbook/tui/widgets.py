@@ -69,7 +69,7 @@ def draw_trend(points: list[dict[str, Any]], window: tuple[float, float], *, wid
         if vmin <= limit <= vmax or abs(limit - (vmin + vmax) / 2) <= 2 * span:
             lo, hi = min(lo, limit - span * 0.05), max(hi, limit + span * 0.05)
     label_w = 8
-    plot_w = max(width - label_w - 2, 10)
+    plot_w = max(width - label_w - 3, 10)
     times = [_t(p["at"]) for p in points]
     t0, t1 = min(times), max(times)
     total = (t1 - t0).total_seconds() or 1.0
@@ -107,7 +107,7 @@ def draw_trend(points: list[dict[str, Any]], window: tuple[float, float], *, wid
             if lr == r:
                 out.append(f" {text}", style="dim")
         out.append("\n")
-    out.append(f"{'':>{label_w}} └" + "─" * plot_w + "\n")
+    out.append(f"{'':>{label_w}} └" + "─" * (plot_w + 1) + "\n")
     first, last = t0.date().isoformat(), t1.date().isoformat()
     gap = plot_w - len(first) - len(last)
     out.append(f"{'':>{label_w}}  {first}" + (" " * gap + last if t1 != t0 and gap > 0 else ""))
@@ -140,16 +140,17 @@ class TrendChart(Static):
             return
         width = self.size.width or 72
         chart = draw_trend(self.data["points"], tuple(self.data["window"]), width=width)
-        t = self.data.get("trend")
+        t = self.data.get("trend") or {}
         chart.append("\n")
-        if t:
+        if t.get("slope_percent_per_30d") is not None:
+            low, high = t["slope_ci_percent_per_30d"]
             chart.append(
-                f"  least-squares trend of the {t['n']} accepted runs: "
+                f"  least-squares trend of the {len(t['history'])} accepted runs: "
                 f"{t['slope_percent_per_30d']:+.3f} % of nominal per 30 days "
-                f"(95 % CI {t['ci_low']:+.3f} to {t['ci_high']:+.3f})")
-            if t["forecast_leaves_window"]:
+                f"(95 % CI {low:+.3f} to {high:+.3f})")
+            if t.get("forecast_leaves_window"):
                 chart.append(f"; the fitted line leaves the window on "
                              f"{t['forecast_leaves_window']}")
-        else:
-            chart.append("  a trend needs at least 3 accepted runs on different days")
+        if t.get("note"):
+            chart.append(f"\n  {t['note']}")
         self.update(chart)

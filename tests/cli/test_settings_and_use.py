@@ -10,11 +10,15 @@ def test_only_a_signed_admin_changes_a_setting(bench: Cli) -> None:  # noqa: F81
     before = row_counts(bench.db)
     bench.refused("settings", "set", "buoyancy", "on", "--reason", "x", "--passphrase-stdin",
                   user="ben", input="ben-passphrase\n")
-    bench.refused("settings", "set", "buoyancy", "on", "--reason", "x", "--passphrase-stdin",
-                  user="ada", input="wrong-passphrase\n")
     bench.refused("settings", "set", "buoyancy", "maybe", "--reason", "x", "--passphrase-stdin",
                   user="ada", input="ada-passphrase\n")
     assert row_counts(bench.db) == before
+    # A wrong passphrase: refused; only the failed attempt is recorded.
+    bench.refused("settings", "set", "buoyancy", "on", "--reason", "x", "--passphrase-stdin",
+                  user="ada", input="wrong-passphrase\n")
+    after = row_counts(bench.db)
+    assert after["audit_events"] == before["audit_events"] + 1
+    assert after["settings"] == before["settings"]
     # Without --passphrase-stdin and no terminal to ask at: refused, not guessed.
     bench.refused("settings", "set", "buoyancy", "on", "--reason", "lab decision 12",
                   user="ada", input="ada-passphrase\n")

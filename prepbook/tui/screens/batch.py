@@ -58,14 +58,13 @@ class BatchScreen(Screen[None]):
 
     # -- which actions exist here ------------------------------------------------------------
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
-        from prepbook.lab import batches
 
         if action == "label":
             return has_service(LABELS)
         if action == "report":
             return has_service(REPORTS)
         if action == "retire":
-            return hasattr(batches, "retire_batch")
+            return self._retire_service() is not None
         return True
 
     # -- data -------------------------------------------------------------------------------
@@ -86,13 +85,19 @@ class BatchScreen(Screen[None]):
         self.query_one("#chain-body", Static).update(self.chain(d))
         trend = watch.batch_trend(db, self.code)
         self.query_one("#chart", TrendChart).set_data(trend)
-        pts = small_table("run", "date", "status", "factor", right=(3,))
+        pts = small_table("run", "date (UTC)", "status", "factor", "change %", "",
+                          right=(3, 4))
+        limit = trend["trend"].get("drift_limit_percent")
         for p in trend["points"]:
+            ch = p["change_percent"]
             pts.add_row(p["run"], words.when(p["at"]), words.run_words(p["status"]),
-                        words.fixed(p["factor"], 5))
+                        words.fixed(p["factor"], 5), "-" if ch is None else f"{ch:+.3f}",
+                        f"beyond the drift limit {limit:g} %" if p["beyond_drift_limit"]
+                        else "")
         self.query_one("#trend-points", Static).update(
             Group(Text(f"\nacceptance window {trend['window'][0]:g} to "
-                       f"{trend['window'][1]:g} (spec {d['spec']})"), pts))
+                       f"{trend['window'][1]:g} (spec {d['spec']}); change % is between "
+                       "consecutive accepted runs"), pts))
         if self._events_loaded:
             self.load_events()
 
@@ -100,7 +105,8 @@ class BatchScreen(Screen[None]):
         parts: list[RenderableType] = []
         warn = colour(self.app, "warning")
         parts.append(Text.assemble(
-            ("now  ", "bold"), f"N = {words.sig(d['normality'])} eq/L at 20 °C  ·  factor "
+            ("now  ", "bold"), f"N = {words.sig(d['normality'])} eq/L (latest accepted run, at "
+            "its temperature)  ·  factor "
             f"{words.fixed(d['factor'])} to nominal {d['nominal']:g} {d['unit']}  ·  "
             f"restandardize by {d['restandardize_by'] or '-'}  ·  expires {d['expires']}"))
         for w in d["warnings"]:
@@ -195,39 +201,58 @@ class BatchScreen(Screen[None]):
             [("volume", "volume taken (mL, optional)", "e.g. 50"),
              ("purpose", "purpose (optional)", "what it was used for")]), done)
 
+    def _retire_service(self) -> Any:
+        from prepbook.lab import batches
+
+        fn = getattr(batches, "retire_batch", None)
+        if fn is None and has_service("prepbook.lab.history"):
+            from prepbook.lab import history
+
+            fn = getattr(history, "retire", None)
+        return fn
+
     def _call(self, fn: Any, **given: Any) -> Any:
-        """Call an optional service with the arguments it declares (labels, reports)."""
+        """Call a service with the arguments it declares (it may take fewer)."""
         params = inspect.signature(fn).parameters
         return fn(**{k: v for k, v in given.items() if k in params})
 
-    def _optional(self, module: str, names: tuple[str, ...], what: str) -> None:
-        import importlib
+    def _to_file(self, title: str, default: str, work: Any) -> None:
+        from prepbook.tui.screens.dialogs import FieldsScreen
 
-        mod = importlib.import_module(module)
-        fn = next((getattr(mod, n) for n in names if callable(getattr(mod, n, None))), None)
-        if fn is None:
-            self.say(f"{module} has no {what} function this app knows yet", bad=True)
-            return
-        try:
-            res = self._call(fn, db=self.app.db, actor=self.app.actor,  # type: ignore[attr-defined]
-                             code=self.code, batch=self.code)
-        except PrepbookError as exc:
-            self.say(f"{what} refused: {exc}", bad=True)
-            return
-        self.say(f"{what} done: {res if isinstance(res, str) else 'see the record'}")
-        self.app.wrote()  # type: ignore[attr-defined]
+        def done(values: dict[str, str] | None) -> None:
+            if values is None:
+                return
+            try:
+                res = work(values["file"].strip() or default)
+            except PrepbookError as exc:
+                self.say(f"not written: {exc}", bad=True)
+                return
+            self.say(f"written: {res.get('file')}")
+            self.app.wrote()  # type: ignore[attr-defined]
+
+        self.app.push_screen(FieldsScreen(title, [("file", f"PDF file (blank: {default})",
+                                                   default)],
+                                          note="An existing file is never overwritten."), done)
 
     def action_label(self) -> None:
-        self._optional(LABELS, ("print_label", "batch_label", "label"), "label")
+        from prepbook.lab import labels
+
+        app: Any = self.app
+        self._to_file(f"Label for {self.code}", labels.default_file_name(self.code),
+                      lambda out: labels.print_label(app.db, actor=app.actor or "",
+                                                     code=self.code, output=out))
 
     def action_report(self) -> None:
-        self._optional(REPORTS, ("batch_report", "export_batch", "report"), "report")
+        from prepbook.lab import reports
+
+        app: Any = self.app
+        self._to_file(f"Traceability report of {self.code}", f"{self.code}-report.pdf",
+                      lambda out: reports.write_report(app.db, code=self.code, output=out))
 
     def action_retire(self) -> None:
-        from prepbook.lab import batches
         from prepbook.tui.screens.dialogs import FieldsScreen, PassphraseScreen
 
-        fn = getattr(batches, "retire_batch", None)
+        fn = self._retire_service()
         if fn is None:
             return
         params = inspect.signature(fn).parameters

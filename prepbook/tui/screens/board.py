@@ -53,7 +53,7 @@ class BoardScreen(Screen[None]):
         table.add_column(Text("factor", justify="right"), key="factor")
         table.add_column("restd. by", key="restd")
         table.add_column("expires", key="expires")
-        table.add_column("warnings", key="warnings")
+        table.add_column("warnings (in full below)", key="warnings", width=48)
         self.reload()
         table.focus()
 

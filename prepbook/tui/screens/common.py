@@ -5,7 +5,6 @@ from __future__ import annotations
 import importlib.util
 from typing import Any
 
-from rich import box
 from rich.console import Group, RenderableType
 from rich.table import Table
 from rich.text import Text
@@ -27,7 +26,7 @@ def has_service(module: str) -> bool:
 
 
 def small_table(*columns: str, right: tuple[int, ...] = ()) -> Table:
-    t = Table(box=box.SIMPLE_HEAD, pad_edge=False, show_edge=False, expand=False)
+    t = Table(box=None, pad_edge=False, expand=False, header_style="bold underline")
     for i, c in enumerate(columns):
         t.add_column(c, justify="right" if i in right else "left", no_wrap=i in right)
     return t
@@ -48,16 +47,27 @@ def safety(app: App, hazard: dict[str, Any] | None, cautions: list[str] | tuple[
         out.append("\n")
         for s in hazard.get("statements") or []:
             out.append(f"  {s}\n")
+        if not sw and not hazard.get("statements"):
+            out.append("  no hazard classification at this strength in the catalog\n")
         if hazard.get("source"):
             out.append(f"  (hazard at this strength: {hazard['source']})\n", style="dim")
-    shown = [c for c in cautions if c != DEFER]
-    for c in shown:
-        out.append(f"  ! {c}\n", style=warn)
+    # The deference to the SDS and local procedures always comes last, in words.
+    defer = [c for c in cautions if "safety data sheet" in c]
+    for c in cautions:
+        if c not in defer:
+            out.append(f"  ! {c}\n", style=warn)
     if storage:
         out.append(f"  Storage: {storage}\n")
-    if not any("safety data sheet" in c for c in shown):
-        out.append(f"  {DEFER}\n", style="italic")
+    for c in defer or [DEFER]:
+        out.append(f"  {c}\n", style="italic")
     return out
+
+
+def _is_20(text: str | None) -> bool:
+    try:
+        return text is not None and float(text) == 20.0
+    except ValueError:
+        return False
 
 
 def run_block(app: App, run: dict[str, Any], unit: str = "N") -> RenderableType:
@@ -71,8 +81,10 @@ def run_block(app: App, run: dict[str, Any], unit: str = "N") -> RenderableType:
     how = Text(f"  {against};  balance {run.get('balance') or '-'};  burette "
                f"{run.get('burette') or '-'};  {run.get('temperature_c') or '-'} °C;  blank "
                f"{run.get('blank_ml') or '0'} mL;  indicator {run.get('indicator') or '-'}")
-    res = Text(f"  N = {words.sig(run['normality'])} eq/L at {run.get('temperature_c')} °C, "
-               f"{words.sig(run['normality_20c'])} at 20 °C;  factor "
+    at_20 = "" if _is_20(run.get("temperature_c")) else \
+        f", {words.sig(run['normality_20c'])} at 20 °C"
+    res = Text(f"  N = {words.sig(run['normality'])} eq/L at {run.get('temperature_c')} °C"
+               f"{at_20};  factor "
                f"{words.fixed(run['factor'])};  RSD {words.sig(run['rsd_percent'], 3)} %;  "
                f"U = {words.sig(run['U'], 2)} eq/L (k = {words.sig(run['k'], 2)})")
     parts: list[RenderableType] = [head, how, res]

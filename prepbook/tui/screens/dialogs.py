@@ -32,7 +32,9 @@ class WhoScreen(ModalScreen[str]):
             if not self.users:
                 yield Static("This database has no users yet: an admin adds them with "
                              "`prepbook user add`.", classes="refusal")
-            yield OptionList(*[Option(f"{u['name']}  ({u['role']})", id=u["name"])
+            yield OptionList(*[Option(f"{u['name']}  ({u['role']})"
+                                      + ("  · locked out" if u.get("locked") else ""),
+                                      id=u["name"])
                                for u in self.users], id="who-list")
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:

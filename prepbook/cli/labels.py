@@ -1,0 +1,68 @@
+"""prepbook label: a PDF label for a titrant bottle or a primary-standard lot, and the
+labels that no longer match the record."""
+
+from __future__ import annotations
+
+import typer
+
+from prepbook.cli import output
+from prepbook.cli.session import actor, database
+from prepbook.errors import InvalidInput
+
+
+def label(
+    ctx: typer.Context,
+    code: str = typer.Argument(None, help="Batch code (or lot code with --lot).",
+                               show_default=False),
+    out_file: str = typer.Option(None, "-o", "--output",
+                                 help="PDF file to write (default label-CODE.pdf).",
+                                 show_default=False),
+    size: str = typer.Option(None, "--size", help="Label stock, WxH with mm or in: 100x50mm, "
+                             "89x36mm, 70x37mm (default), 62x29mm, 4x2in, 2.625x1in.",
+                             show_default=False),
+    copies: int = typer.Option(1, "--copies", help="How many labels."),
+    sheet: str = typer.Option(None, "--sheet", help="Lay the labels out on a4 or letter "
+                              "sheets instead of one label per page.", show_default=False),
+    lot: bool = typer.Option(False, "--lot", help="CODE is a primary-standard lot."),
+    replace: bool = typer.Option(False, "--replace", help="Overwrite the PDF if it exists."),
+    stale: bool = typer.Option(False, "--stale", help="List bottles whose label no longer "
+                               "matches the current factor or dates (prints nothing)."),
+    as_json: bool = typer.Option(False, "--json", help="Print JSON."),
+) -> None:
+    """Print a bottle label as PDF (recorded), or list outdated labels with --stale."""
+    from prepbook.lab import labels
+
+    if stale:
+        if code is not None:
+            raise InvalidInput("--stale lists every bottle; give no CODE with it")
+        rows = labels.stale_labels(database(ctx))
+        if as_json:
+            output.emit_json(rows)
+            return
+        out = output.console()
+        if not rows:
+            out.print("every labelled bottle matches the record")
+            return
+        out.print(output.table(
+            f"Labels to replace: {len(rows)}",
+            ["batch", "label printed", "by", "shows run", "factor", "why"],
+            [(r["batch"], r["printed_at"], r["printed_by"], r["shown"]["run"] or "-",
+              output.fixed(r["shown"]["factor"], 4), "; ".join(r["reasons"])) for r in rows],
+            no_wrap=(0, 1)))
+        return
+    if code is None:
+        raise InvalidInput("give a batch code (or a lot code with --lot), or --stale")
+    res = labels.print_label(database(ctx), actor=actor(ctx), code=code, output=out_file,
+                             size=size, copies=copies, sheet=sheet, lot=lot, replace=replace)
+    if as_json:
+        output.emit_json(res)
+        return
+    out = output.console()
+    shows = (f", factor {res['factor']:.4f} from run {res['run']}" if res.get("factor")
+             else "")
+    n = res["copies"]
+    out.print(f"{n} {res['kind']} label{'s' if n != 1 else ''} for [bold]{res['code']}[/bold] "
+              f"({res['size']}{', on ' + res['sheet'] + ' sheets' if res['sheet'] else ''}"
+              f"{shows}) written to {output.escape(res['file'])}")
+    for note in res["notes"]:
+        out.print(f"note: {output.escape(note)}")

@@ -1,0 +1,34 @@
+"""prepbook report: the batch's traceability report for an auditor, as PDF."""
+
+from __future__ import annotations
+
+import typer
+
+from prepbook.cli import output
+from prepbook.cli.session import database
+
+
+def report(
+    ctx: typer.Context,
+    code: str = typer.Argument(..., help="Batch code."),
+    out_file: str = typer.Option(..., "-o", "--output", help="PDF file to write."),
+    paper: str = typer.Option("a4", "--paper", help="Paper size: a4 or letter."),
+    replace: bool = typer.Option(False, "--replace", help="Overwrite the PDF if it exists."),
+    as_json: bool = typer.Option(False, "--json", help="Print JSON."),
+) -> None:
+    """Write a batch's traceability report: preparation, every standardization, chart,
+    reviews, corrections, uses, labels and the audit chain's head hash."""
+    from prepbook.lab import reports
+
+    res = reports.write_report(database(ctx), code=code, output=out_file, replace=replace,
+                               paper=paper.lower())
+    if as_json:
+        output.emit_json(res)
+        return
+    out = output.console()
+    out.print(f"report for [bold]{res['batch']}[/bold] ({res['pages']} page"
+              f"{'s' if res['pages'] != 1 else ''}, {res['runs']} standardization"
+              f"{'s' if res['runs'] != 1 else ''}) written to {output.escape(res['file'])}")
+    if not res["audit_ok"]:
+        out.print("[bold]warning:[/bold] the audit trail did not verify; the report says so "
+                  "(run `prepbook audit verify`)")

@@ -1,0 +1,24 @@
+"""prepbook tui: the full-screen terminal app (Textual, imported only here)."""
+
+from __future__ import annotations
+
+import typer
+
+
+def tui(
+    ctx: typer.Context,
+    poll: float = typer.Option(
+        3.0, "--poll", min=0.0,
+        help="Seconds between checks for writes by others (0: never; Ctrl+R reloads)."),
+) -> None:
+    """Open the full-screen app: board, batches, recording, review desk and audit trail."""
+    from prepbook.cli.context import invocation
+    from prepbook.store.engine import open_database
+
+    inv = invocation(ctx)
+    # Only a --user (or PREPBOOK_USER) actually given is taken; otherwise the app asks.
+    given = ctx.find_root().params.get("user")
+    db = open_database(inv.db)  # a missing or old database is refused before the screen opens
+    from prepbook.tui.app import PrepbookApp
+
+    PrepbookApp(db, user=given, poll_seconds=poll).run()

@@ -1,0 +1,160 @@
+"""Exports: one tidy table per kind of record, for spreadsheets and other tools.
+
+One row per record, one column per field, units in the column names, times in
+ISO 8601 UTC (``...Z``), dates as YYYY-MM-DD. Readings are exported exactly as
+they were typed (text); computed values are the unrounded floats of the record.
+"""
+
+from __future__ import annotations
+
+from datetime import date, datetime, time
+from pathlib import Path
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import aliased
+
+from prepbook.errors import InvalidInput
+from prepbook.inputs import parse_date
+from prepbook.store.engine import Database
+from prepbook.store.models import AuditEvent, Batch, Instrument, Lot, Replicate, Run, Spec, Use
+
+KINDS = ("batches", "runs", "replicates", "uses", "audit")
+
+
+def when(value: datetime | None) -> str | None:
+    """A stored (naive UTC) time in ISO 8601 with its zone: 2026-09-12T08:30:00Z."""
+    return None if value is None else value.isoformat() + "Z"
+
+
+def day(value: date | None) -> str | None:
+    return None if value is None else value.isoformat()
+
+
+def _batches(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
+    parent = aliased(Batch)
+    flask = aliased(Instrument)
+    bal = aliased(Instrument)
+    q = (select(Batch, Spec.code, Spec.name, Lot.code, parent.code, flask.code, bal.code)
+         .join(Spec, Batch.spec_id == Spec.id)
+         .outerjoin(Lot, Batch.solute_lot_id == Lot.id)
+         .outerjoin(parent, Batch.parent_batch_id == parent.id)
+         .outerjoin(flask, Batch.flask_id == flask.id)
+         .outerjoin(bal, Batch.balance_id == bal.id)
+         .order_by(Batch.id))
+    if since is not None:
+        q = q.where(Batch.made_at >= since)
+    cols = ["batch", "spec", "spec_name", "method", "volume_ml", "solute_mass_g", "solute_lot",
+            "concentrate_volume_ml", "from_batch", "aliquot_ml", "flask", "balance",
+            "theoretical_normality_eq_per_l", "made_at_utc", "recorded_at_utc", "made_by",
+            "notes", "expires_date", "retired_at_utc", "retired_by", "retired_reason"]
+    rows = [[b.code, sc, sn, b.method, b.volume_ml_text, b.solute_mass_g_text, lc,
+             b.stock_volume_ml_text, pc, b.aliquot_ml_text, fc, bc, b.theoretical_normality,
+             when(b.made_at), when(b.recorded_at), b.made_by, b.notes, day(b.expires),
+             when(b.retired_at), b.retired_by, b.retired_reason]
+            for b, sc, sn, lc, pc, fc, bc in s.execute(q)]
+    return cols, rows
+
+
+def _runs(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
+    ref = aliased(Batch)
+    bal = aliased(Instrument)
+    bur = aliased(Instrument)
+    q = (select(Run, Batch.code, Lot.code, ref.code, bal.code, bur.code)
+         .join(Batch, Run.batch_id == Batch.id)
+         .outerjoin(Lot, Run.lot_id == Lot.id)
+         .outerjoin(ref, Run.reference_batch_id == ref.id)
+         .outerjoin(bal, Run.balance_id == bal.id)
+         .outerjoin(bur, Run.burette_id == bur.id)
+         .order_by(Run.id))
+    if since is not None:
+        q = q.where(Run.performed_at >= since)
+    cols = ["run", "batch", "method", "status", "lot", "reference_batch", "balance", "burette",
+            "temperature_c", "blank_ml", "indicator", "performed_at_utc", "recorded_at_utc",
+            "analyst", "normality_eq_per_l", "normality_20c_eq_per_l", "factor",
+            "sd_eq_per_l", "rsd_percent", "u_eq_per_l", "expanded_u_eq_per_l", "k"]
+    rows = [[r.code, bc, r.method, r.status, lc, rc, balc, burc, r.temperature_c_text,
+             r.blank_ml_text, r.indicator, when(r.performed_at), when(r.recorded_at),
+             r.analyst, r.normality, r.normality_20c, r.factor, r.sd, r.rsd_percent, r.u, r.U,
+             r.k]
+            for r, bc, lc, rc, balc, burc in s.execute(q)]
+    return cols, rows
+
+
+def _replicates(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
+    q = (select(Replicate, Run.code, Run.method, Batch.code)
+         .join(Run, Replicate.run_id == Run.id)
+         .join(Batch, Run.batch_id == Batch.id)
+         .order_by(Replicate.run_id, Replicate.position, Replicate.version))
+    if since is not None:
+        q = q.where(Replicate.created_at >= since)
+    found = list(s.execute(q))
+    latest: dict[tuple[int, int], int] = {}
+    for r, *_ in found:
+        key = (r.run_id, r.position)
+        latest[key] = max(latest.get(key, 0), r.version)
+    cols = ["replicate_id", "run", "batch", "position", "version", "current",
+            "standard_mass_g", "aliquot_ml", "titrant_volume_ml", "excluded", "reason",
+            "supersedes_id", "recorded_at_utc", "recorded_by"]
+    rows = [[r.id, rc, bc, r.position, r.version, latest[(r.run_id, r.position)] == r.version,
+             r.amount_text if method == "direct" else None,
+             r.amount_text if method == "secondary" else None, r.volume_ml_text, r.excluded,
+             r.reason, r.supersedes_id, when(r.created_at), r.created_by]
+            for r, rc, method, bc in found]
+    return cols, rows
+
+
+def _uses(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
+    q = select(Use, Batch.code).join(Batch, Use.batch_id == Batch.id).order_by(Use.id)
+    if since is not None:
+        q = q.where(Use.used_at >= since)
+    cols = ["use_id", "batch", "used_at_utc", "used_by", "volume_ml", "purpose"]
+    rows = [[u.id, bc, when(u.used_at), u.used_by, u.volume_ml_text, u.purpose]
+            for u, bc in s.execute(q)]
+    return cols, rows
+
+
+def _audit(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
+    q = select(AuditEvent).order_by(AuditEvent.seq)
+    if since is not None:
+        q = q.where(AuditEvent.at >= since)
+    cols = ["seq", "at_utc", "actor", "action", "record_type", "record_id", "values_json",
+            "reason", "performed_at_utc", "prev_hash", "hash"]
+    rows = [[e.seq, when(e.at), e.actor, e.action, e.record_type, e.record_id, e.values,
+             e.reason, when(e.performed_at), e.prev_hash, e.hash] for e in s.scalars(q)]
+    return cols, rows
+
+
+_QUERIES = {"batches": _batches, "runs": _runs, "replicates": _replicates, "uses": _uses,
+            "audit": _audit}
+
+
+def table(db: Database, kind: str, *, since: str | None = None
+          ) -> tuple[list[str], list[list[Any]]]:
+    """The columns and rows of one export, read in one transaction."""
+    if kind not in KINDS:
+        raise InvalidInput(f"unknown export {kind!r}; one of {', '.join(KINDS)}")
+    since_at = datetime.combine(parse_date(since, "--since"), time()) if since else None
+    with db.session(write=False) as s:
+        return _QUERIES[kind](s, since_at)
+
+
+def export(db: Database, *, kind: str, fmt: str, output: str, since: str | None = None,
+           replace: bool = False) -> dict[str, Any]:
+    """Write one export to ``output``; returns where and how many rows."""
+    from prepbook.render import exports, files
+
+    fmt = fmt.lower()
+    if kind not in KINDS:
+        raise InvalidInput(f"unknown export {kind!r}; one of {', '.join(KINDS)}")
+    if fmt not in exports.FORMATS:
+        raise InvalidInput(f"unknown format {fmt!r}; one of {', '.join(exports.FORMATS)}")
+    target = Path(output)
+    if target.suffix.lower() != f".{fmt}":
+        raise InvalidInput(f"{target} should end in .{fmt} for --format {fmt}")
+    files.check_target(target, replace=replace)
+    cols, rows = table(db, kind, since=since)
+    neutralised = sum(1 for row in rows for v in row if exports.neutralise(v) is not v)
+    path = exports.write_table(target, fmt, kind, cols, rows, replace=replace)
+    return {"export": kind, "format": fmt, "file": str(path), "rows": len(rows),
+            "columns": cols, "neutralised_cells": neutralised, "since": since}

@@ -1,0 +1,444 @@
+"""The batch traceability report as PDF (reportlab platypus, charts from reportlab.graphics).
+
+Pure: it draws the dict that ``prepbook.lab.reports.gather`` returns. Values are
+shown rounded for reading, and the report says so: the record keeps them whole
+(``prepbook export runs``). Black on white with rules and type weight, so a
+photocopy reads the same as the original.
+"""
+
+from __future__ import annotations
+
+import io
+from datetime import date, datetime
+from typing import Any
+from xml.sax.saxutils import escape
+
+from prepbook.render.labels import significant
+
+PAPERS = ("a4", "letter")
+
+STATUS_WORDS = {"accepted": "accepted", "rejected": "REJECTED",
+                "awaiting-review": "awaiting review"}
+
+
+def _num(value: float | None, digits: int = 5) -> str:
+    return "-" if value is None else significant(value, digits)
+
+
+def _fixed(value: float | None, decimals: int) -> str:
+    return "-" if value is None else f"{value:.{decimals}f}"
+
+
+def _text(value: Any) -> str:
+    return "-" if value is None or value == "" else str(value)
+
+
+class _Styles:
+    def __init__(self) -> None:
+        from reportlab.lib.styles import ParagraphStyle
+
+        base = dict(fontName="Helvetica", fontSize=8.5, leading=10.5)
+        self.body = ParagraphStyle("body", **base)
+        self.small = ParagraphStyle("small", fontName="Helvetica", fontSize=7.5, leading=9)
+        self.cell = ParagraphStyle("cell", fontName="Helvetica", fontSize=7.5, leading=9)
+        self.cell_bold = ParagraphStyle("cellb", fontName="Helvetica-Bold", fontSize=7.5,
+                                        leading=9)
+        self.title = ParagraphStyle("title", fontName="Helvetica-Bold", fontSize=16,
+                                    leading=19, spaceAfter=2)
+        self.subtitle = ParagraphStyle("subtitle", fontName="Helvetica", fontSize=10.5,
+                                       leading=13, spaceAfter=6)
+        self.h1 = ParagraphStyle("h1", fontName="Helvetica-Bold", fontSize=11.5, leading=14,
+                                 spaceBefore=10, spaceAfter=4)
+        self.h2 = ParagraphStyle("h2", fontName="Helvetica-Bold", fontSize=9.5, leading=12,
+                                 spaceBefore=7, spaceAfter=3)
+
+
+def _p(text: Any, style: Any) -> Any:
+    from reportlab.platypus import Paragraph
+
+    return Paragraph(escape(_text(text)), style)
+
+
+def _cell(value: Any, st: _Styles) -> Any:
+    return _p(value, st.cell) if isinstance(value, str | int | float | type(None)) else value
+
+
+def _table(header: list[str], rows: list[list[Any]], widths: list[float], st: _Styles) -> Any:
+    """A ruled table with a bold header row repeated on each page it runs onto."""
+    from reportlab.lib import colors
+    from reportlab.platypus import Table, TableStyle
+
+    data = [[_p(h, st.cell_bold) for h in header]] + [[_cell(c, st) for c in r] for r in rows]
+    table = Table(data, colWidths=widths, repeatRows=1, hAlign="LEFT")
+    style = [
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LEFTPADDING", (0, 0), (-1, -1), 3),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+        ("TOPPADDING", (0, 0), (-1, -1), 1.5),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
+        ("LINEABOVE", (0, 0), (-1, 0), 0.8, colors.black),
+        ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
+        ("LINEBELOW", (0, -1), (-1, -1), 0.5, colors.black),
+    ]
+    # Every other row a light grey, which still reads on a monochrome copy.
+    for i in range(2, len(data), 2):
+        style.append(("BACKGROUND", (0, i), (-1, i), colors.Color(0.93, 0.93, 0.93)))
+    table.setStyle(TableStyle(style))
+    return table
+
+
+def _pairs(rows: list[list[Any]], width: float, st: _Styles) -> Any:
+    """Field names in bold on the left, values on the right, a rule above and below."""
+    from reportlab.lib import colors
+    from reportlab.platypus import Table, TableStyle
+
+    data = [[_p(k, st.cell_bold), _cell(v, st)] for k, v in rows]
+    table = Table(data, colWidths=[0.2 * width, 0.8 * width], hAlign="LEFT")
+    table.setStyle(TableStyle([
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LEFTPADDING", (0, 0), (-1, -1), 3),
+        ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+        ("TOPPADDING", (0, 0), (-1, -1), 1.5),
+        ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
+        ("LINEABOVE", (0, 0), (-1, 0), 0.5, colors.black),
+        ("LINEBELOW", (0, -1), (-1, -1), 0.5, colors.black),
+    ]))
+    return table
+
+
+def _chart(data: dict[str, Any], width: float) -> Any:
+    """Concentration at 20 C of every run over time, with U bars and the acceptance window."""
+    from reportlab.graphics.charts.lineplots import LinePlot
+    from reportlab.graphics.shapes import Drawing, String
+    from reportlab.graphics.widgets.markers import makeMarker
+    from reportlab.lib import colors
+
+    win = data["window"]
+    unit = "mol/L" if win["unit"] == "M" else "eq/L"
+    low = win["nominal"] * win["factor_low"]
+    high = win["nominal"] * win["factor_high"]
+    points = data["chart"]
+    height = 150.0
+    drawing = Drawing(width, height + 30)
+    plot = LinePlot()
+    plot.x, plot.y = 52, 28
+    plot.width, plot.height = width - 150, height - 10
+
+    def day(at: str) -> float:
+        moment = datetime.fromisoformat(at)
+        return moment.toordinal() + (moment.hour * 60 + moment.minute) / 1440
+
+    made = day(data["batch"]["preparation"]["made_at"])
+    xs = [day(p["at"]) for p in points] or [made]
+    x0 = min([made, *xs]) - 2
+    x1 = max([*xs, made]) + 2
+    expires = data["batch"].get("expires")
+    if expires:
+        x1 = max(x1, date.fromisoformat(expires).toordinal() + 1)
+    series: list[list[tuple[float, float]]] = []
+    styles: list[dict[str, Any]] = []
+
+    def add(line: list[tuple[float, float]], **style: Any) -> None:
+        series.append(line)
+        styles.append(style)
+
+    add([(x0, low), (x1, low)], width=0.8, dash=(4, 2))
+    add([(x0, high), (x1, high)], width=0.8, dash=(4, 2))
+    add([(x0, win["nominal"]), (x1, win["nominal"])], width=0.4, dash=(1, 2))
+    for p, x in zip(points, xs, strict=True):
+        if p["U"] is not None:
+            add([(x, p["concentration"] - p["U"]), (x, p["concentration"] + p["U"])], width=0.8)
+    by_status = {"accepted": "FilledCircle", "rejected": "Cross", "awaiting-review": "Square"}
+    for status, marker in by_status.items():
+        pts = [(x, p["concentration"]) for p, x in zip(points, xs, strict=True)
+               if p["status"] == status]
+        if pts:
+            add(pts, width=0, marker=marker, accepted=status == "accepted")
+    accepted = [(x, p["concentration"]) for p, x in zip(points, xs, strict=True)
+                if p["status"] == "accepted"]
+    if len(accepted) > 1:
+        add(accepted, width=0.6)
+    plot.data = series
+    plot.joinedLines = 1
+    for i, style in enumerate(styles):
+        line = plot.lines[i]
+        line.strokeColor = colors.black
+        line.strokeWidth = style.get("width", 0.6)
+        if style.get("dash"):
+            line.strokeDashArray = style["dash"]
+        if style.get("marker"):
+            marker = makeMarker(style["marker"])
+            marker.size = 5
+            marker.fillColor = colors.black if style.get("accepted") else colors.white
+            marker.strokeColor = colors.black
+            line.symbol = marker
+            line.strokeWidth = 0
+            line.strokeColor = None
+    values = [p["concentration"] + s * (p["U"] or 0) for p in points for s in (-1, 1)]
+    span_low = min([low, *values])
+    span_high = max([high, *values])
+    pad = (span_high - span_low) * 0.08
+    plot.yValueAxis.valueMin = span_low - pad
+    plot.yValueAxis.valueMax = span_high + pad
+    plot.yValueAxis.labelTextFormat = lambda v: significant(v, 4)
+    plot.yValueAxis.labels.fontName = "Helvetica"
+    plot.yValueAxis.labels.fontSize = 7
+    plot.xValueAxis.valueMin = x0
+    plot.xValueAxis.valueMax = x1
+    plot.xValueAxis.labelTextFormat = lambda v: date.fromordinal(int(v)).isoformat()
+    plot.xValueAxis.labels.fontName = "Helvetica"
+    plot.xValueAxis.labels.fontSize = 7
+    plot.xValueAxis.labels.angle = 0
+    plot.xValueAxis.maximumTicks = 5
+    plot.xValueAxis.visibleGrid = 0
+    drawing.add(plot)
+    right = plot.x + plot.width + 6
+
+    def y_of(v: float) -> float:
+        lo, hi = plot.yValueAxis.valueMin, plot.yValueAxis.valueMax
+        return plot.y + (v - lo) / (hi - lo) * plot.height
+
+    for v, text in ((high, f"upper {significant(high, 4)} (factor {win['factor_high']:g})"),
+                    (win["nominal"], f"nominal {win['nominal']:g}"),
+                    (low, f"lower {significant(low, 4)} (factor {win['factor_low']:g})")):
+        drawing.add(String(right, y_of(v) - 2.5, text, fontName="Helvetica", fontSize=6.5))
+    drawing.add(String(plot.x, plot.y + plot.height + 8,
+                       f"concentration at 20 °C ({unit}); bars: expanded uncertainty U; "
+                       "filled: accepted, square: awaiting review, cross: rejected",
+                       fontName="Helvetica", fontSize=7))
+    return drawing
+
+
+def _run_section(run: dict[str, Any], unit_word: str, st: _Styles, width: float) -> list[Any]:
+    from reportlab.platypus import KeepTogether, Spacer
+
+    out: list[Any] = []
+    status = STATUS_WORDS.get(run["status"], run["status"])
+    out.append(_p(f"Standardization {run['run']}: {status}", st.h2))
+    against = (f"lot {run['lot']} ({run['lot_certificate'] or 'no certificate recorded'})"
+               if run["lot"] else f"batch {run['reference_batch']}")
+    conditions = [
+        ["Method", f"{run['method']} against {against}"],
+        ["Performed", f"{run['performed_at']} UTC by {run['analyst']} "
+                      f"(recorded {run['recorded_at']})"],
+        ["Instruments", f"balance {_text(run['balance'])}, burette {_text(run['burette'])}"],
+        ["Conditions", f"temperature {_text(run['temperature_c'])} °C, blank "
+                       f"{_text(run['blank_ml'])} mL, indicator {_text(run['indicator'])}"],
+    ]
+    out.append(_pairs(conditions, width, st))
+    out.append(Spacer(1, 4))
+    amount = "mass of standard (g)" if run["method"] == "direct" else "aliquot (mL)"
+    reps = []
+    for r in run.get("replicates", []):
+        flags = []
+        if not r["current"]:
+            flags.append("superseded")
+        if r["excluded"]:
+            flags.append("excluded")
+        if r["outlier"]:
+            flags.append("outlier (Grubbs)")
+        reps.append([f"{r['position']}.{r['version']}", r["amount"], r["volume_ml"],
+                     _num(r["normality"], 6), ", ".join(flags) or "-", _text(r["reason"]),
+                     f"{r['recorded_by']}, {r['recorded_at']}"])
+    out.append(_table(["#.v", amount, "titrant (mL)", "N (eq/L)", "flags", "reason",
+                       "recorded by, at (UTC)"], reps,
+                      [w * width for w in (0.06, 0.15, 0.1, 0.11, 0.14, 0.2, 0.24)], st))
+    out.append(Spacer(1, 4))
+    stats = (f"mean N {_num(run['normality'], 6)} eq/L at {_text(run['temperature_c'])} °C; "
+             f"{_num(run['normality_20c'], 6)} eq/L at 20 °C; factor "
+             f"{_fixed(run['factor'], 5)}; s {_num(run['sd'], 3)} eq/L; RSD "
+             f"{_num(run['rsd_percent'], 3)} %; u {_num(run['u'], 3)} eq/L; U "
+             f"{_num(run['U'], 3)} eq/L (k = {_text(run['k'])}); verdict "
+             f"{_text(run['verdict'])}")
+    out.append(_p("Statistics: " + stats, st.body))
+    if run.get("checks"):
+        out.append(Spacer(1, 3))
+        out.append(_table(
+            ["check", "result", "detail (source)"],
+            [[c["name"], ("pass" if c["passed"] else ("FAIL" if c["severity"] == "fail"
+                                                      else "warning")), c["message"]]
+             for c in run["checks"]],
+            [0.16 * width, 0.09 * width, 0.75 * width], st))
+    if run.get("budget"):
+        out.append(Spacer(1, 3))
+        budget = [[f"{b['quantity']} ({b['symbol']})", _num(b["value"], 6), b["unit"],
+                   _num(b["u"], 3), _num(b["u_relative"], 3), _num(b["contribution"], 3),
+                   _fixed(b["share_percent"], 1)] for b in run["budget"]]
+        out.append(KeepTogether([
+            _p("Uncertainty budget (GUM first-order propagation, EURACHEM/CITAC CG4)",
+               st.small),
+            _table(["quantity", "value", "unit", "u", "u relative", "contribution (eq/L)",
+                    "share %"], budget,
+                   [w * width for w in (0.3, 0.13, 0.08, 0.12, 0.12, 0.15, 0.1)], st)]))
+    reviews = [[r["decision"], r["reviewer"], f"{r['signed_at']} UTC", _text(r["reason"])]
+               for r in run.get("reviews", [])]
+    out.append(Spacer(1, 3))
+    if reviews:
+        out.append(_table(["review", "signed by", "signed at", "reason"], reviews,
+                          [w * width for w in (0.12, 0.18, 0.22, 0.48)], st))
+    else:
+        out.append(_p("Review: not yet signed.", st.body))
+    return out
+
+
+def report_pdf(data: dict[str, Any], *, paper: str = "a4") -> tuple[bytes, int]:
+    """The report's PDF bytes and its page count."""
+    from reportlab.lib.pagesizes import A4, LETTER
+    from reportlab.lib.units import mm
+
+    st = _Styles()
+    pagesize = A4 if paper == "a4" else LETTER
+    margin = 16 * mm
+    width = pagesize[0] - 2 * margin
+    win = data["window"]
+    unit_word = "mol/L" if win["unit"] == "M" else "N"
+
+    def make_story() -> list[Any]:
+        return _story(data, st, width, unit_word)
+
+    return _build(data, make_story, pagesize, margin)
+
+
+def _story(data: dict[str, Any], st: _Styles, width: float, unit_word: str) -> list[Any]:
+    from reportlab.platypus import Spacer
+
+    b = data["batch"]
+    win = data["window"]
+    audit = data["audit"]
+    story: list[Any] = []
+    story.append(_p(f"Batch record: {b['batch']}", st.title))
+    story.append(_p(f"{b['spec_name']} (spec {b['spec']})", st.subtitle))
+    hz = b.get("hazard") or {}
+    current = (f"{_num(b['factor'] and win['nominal'] * b['factor'])} {unit_word} at 20 °C, "
+               f"factor {_fixed(b['factor'], 4)}" if b["factor"] else "no accepted result")
+    summary = [
+        ["State", b["state"]],
+        ["Nominal", f"{win['nominal']:g} {unit_word}; acceptance window factor "
+                    f"{win['factor_low']:g} to {win['factor_high']:g}, RSD at most "
+                    f"{win['max_rsd_percent']:g} %"],
+        ["Current", current],
+        ["Restandardize by", _text(b["restandardize_by"])],
+        ["Expires", _text(b["expires"])],
+        ["Storage", _text(b.get("storage"))],
+        ["Hazard", (f"{hz.get('signal_word') or 'no signal word'}; "
+                    f"{', '.join(hz.get('pictograms') or []) or 'no pictogram'}; "
+                    f"{' '.join(hz.get('statements') or []) or 'no hazard statement'}")],
+        ["Warnings", "; ".join(b["warnings"]) or "none"],
+    ]
+    if b.get("retired"):
+        r = b["retired"]
+        summary.append(["Retired", f"{r['at']} UTC by {r['by']}: {_text(r['reason'])}"])
+    story.append(_pairs(summary, width, st))
+
+    story.append(_p("Preparation", st.h1))
+    p = b["preparation"]
+    how = {"solid": f"{_text(p['solute_mass_g'])} g of solute"
+                    + (f" from lot {p['solute_lot']}" if p["solute_lot"] else ""),
+           "concentrate": f"{_text(p['concentrate_volume_ml'])} mL of concentrated reagent",
+           "dilution": f"{_text(p['aliquot_ml'])} mL of batch {_text(p['from_batch'])}"}
+    prep = [
+        ["Made", f"{p['made_at']} UTC by {p['made_by']} (recorded {p['recorded_at']})"],
+        ["From", f"{how.get(p['method'], p['method'])}, made up to {p['volume_ml']} mL"],
+        ["Instruments", f"flask {_text(p['flask'])}, balance {_text(p['balance'])}"],
+        ["Theoretical", f"{_num(p['theoretical_normality'], 5)} eq/L from how it was made"],
+        ["Notes", _text(p["notes"])],
+        ["Diluted into", ", ".join(b.get("diluted_into") or []) or "-"],
+    ]
+    story.append(_pairs(prep, width, st))
+
+    story.append(_p("Control chart", st.h1))
+    if data["chart"]:
+        story.append(_chart(data, width))
+    else:
+        story.append(_p("No standardization yet.", st.body))
+
+    story.append(_p(f"Standardizations ({len(b['runs'])})", st.h1))
+    if not b["runs"]:
+        story.append(_p("None recorded.", st.body))
+    for run in b["runs"]:
+        story.extend(_run_section(run, unit_word, st, width))
+
+    story.append(_p("Corrections and reasons", st.h1))
+    if data["corrections"]:
+        story.append(_table(["audit #", "at (UTC)", "by", "action", "record", "reason"],
+                            [[e["seq"], e["at"], e["actor"], e["action"], e["record"],
+                              e["reason"]] for e in data["corrections"]],
+                            [w * width for w in (0.08, 0.17, 0.1, 0.15, 0.13, 0.37)], st))
+    else:
+        story.append(_p("No record of this batch was changed with a reason.", st.body))
+
+    story.append(_p("Uses", st.h1))
+    if b["uses"]:
+        story.append(_table(["at (UTC)", "by", "volume (mL)", "purpose"],
+                            [[u["at"], u["by"], _text(u["volume_ml"]), _text(u["purpose"])]
+                             for u in b["uses"]],
+                            [w * width for w in (0.2, 0.15, 0.12, 0.53)], st))
+    else:
+        story.append(_p("No use recorded.", st.body))
+
+    story.append(_p("Labels printed", st.h1))
+    if data["labels"]:
+        story.append(_table(["printed (UTC)", "by", "showed run", "factor", "size", "copies"],
+                            [[lp["printed_at"], lp["printed_by"], _text(lp["run"]),
+                              _fixed(lp["factor"], 4), lp["size"], lp["copies"]]
+                             for lp in data["labels"]],
+                            [w * width for w in (0.22, 0.14, 0.16, 0.14, 0.2, 0.14)], st))
+    else:
+        story.append(_p("No label printed.", st.body))
+
+    story.append(_p("Audit trail", st.h1))
+    audit = data["audit"]
+    verdict = ("verified: the hash chain is intact and every record matches its last "
+               "audited state" if audit["ok"] else
+               f"NOT VERIFIED: {len(audit['problems'])} problem(s): "
+               + "; ".join(audit["problems"][:10]))
+    story.append(_p(f"{audit['events']} events; {verdict}. Head hash "
+                    f"{audit['head_hash'] or '-'}.", st.body))
+    story.append(Spacer(1, 8))
+    story.append(_p("Figures are rounded for reading; the record keeps every value unrounded "
+                    "(prepbook export). Safety: follow the substance's safety data sheet, local "
+                    "regulations and the laboratory's own procedures.", st.small))
+    return story
+
+
+def _build(data: dict[str, Any], make_story: Any, pagesize: tuple[float, float],
+           margin: float) -> tuple[bytes, int]:
+    from reportlab.platypus import SimpleDocTemplate
+
+    b = data["batch"]
+    audit = data["audit"]
+    footer_left = (f"audit chain head {audit['head_hash'] or '-'} "
+                   f"({'verified' if audit['ok'] else 'NOT VERIFIED'})")
+    footer_right = f"printed {data['printed_at']} UTC"
+    header = f"prepbook batch record  {b['batch']}"
+
+    class _Doc(SimpleDocTemplate):
+        pages = 0
+
+    def decorate(canvas: Any, doc: Any) -> None:
+        canvas.saveState()
+        canvas.setFont("Helvetica", 7)
+        top = pagesize[1] - margin + 6
+        canvas.drawString(margin, top, header)
+        canvas.drawRightString(pagesize[0] - margin, top, f"page {doc.page} of {doc.total}")
+        canvas.setLineWidth(0.4)
+        canvas.line(margin, top - 3, pagesize[0] - margin, top - 3)
+        canvas.line(margin, margin - 6, pagesize[0] - margin, margin - 6)
+        canvas.drawString(margin, margin - 15, footer_left)
+        canvas.drawRightString(pagesize[0] - margin, margin - 15, footer_right)
+        canvas.restoreState()
+
+    def build(total: int) -> tuple[bytes, int]:
+        buffer = io.BytesIO()
+        doc = _Doc(buffer, pagesize=pagesize, leftMargin=margin, rightMargin=margin,
+                   topMargin=margin + 4, bottomMargin=margin + 4, invariant=1,
+                   title=f"prepbook batch record {b['batch']}", author="prepbook",
+                   creator="prepbook")
+        doc.total = total  # type: ignore[attr-defined]
+        doc.build(make_story(), onFirstPage=decorate, onLaterPages=decorate)
+        return buffer.getvalue(), doc.page
+
+    # Two passes: the first counts the pages so each can say "page n of N".
+    _, pages = build(0)
+    pdf, pages2 = build(pages)
+    return pdf, pages2

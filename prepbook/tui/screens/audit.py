@@ -1,0 +1,105 @@
+"""The audit trail: events filtered by record, actor and dates, and verification."""
+
+from __future__ import annotations
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Static
+
+from prepbook.errors import PrepbookError
+from prepbook.tui import words
+from prepbook.tui.widgets import colour
+
+PAGE = 200  # newest events first shown; m shows older ones page by page
+
+
+class AuditScreen(Screen[None]):
+    BINDINGS = [
+        Binding("escape", "app.pop_screen", "Back"),
+        Binding("m", "more", "Older events"),
+        Binding("v", "verify", "Verify"),
+        Binding("ctrl+r", "reload", "Reload"),
+    ]
+
+    def __init__(self, record: str | None = None) -> None:
+        super().__init__()
+        self.record = record
+        self.limit = PAGE
+
+    def compose(self) -> ComposeResult:
+        yield Static("", id="topline", classes="topline")
+        with Horizontal(id="filters"):
+            yield Input(value=self.record or "", placeholder="record: batches#3, runs ...",
+                        id="f-record")
+            yield Input(placeholder="actor", id="f-actor")
+            yield Input(placeholder="since YYYY-MM-DD", id="f-since")
+            yield Input(placeholder="until YYYY-MM-DD", id="f-until")
+        yield DataTable(id="events", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="message", classes="message")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        table = self.query_one("#events", DataTable)
+        for c in ("seq", "at (UTC)", "actor", "action", "record", "performed (UTC)", "reason"):
+            table.add_column(c)
+        self.reload()
+        table.focus()
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        self.limit = PAGE
+        self.reload()
+
+    def reload(self) -> None:
+        from prepbook.lab import auditing
+
+        def val(wid: str) -> str | None:
+            return self.query_one(wid, Input).value.strip() or None
+
+        msg = self.query_one("#message", Static)
+        try:
+            events = auditing.log(self.app.db, record=val("#f-record"),  # type: ignore[attr-defined]
+                                  actor=val("#f-actor"), since=val("#f-since"),
+                                  until=val("#f-until"), limit=self.limit + 1)
+        except PrepbookError as exc:
+            msg.set_class(True, "refusal")
+            msg.update(f"filter refused: {exc}")
+            return
+        more = len(events) > self.limit
+        events = events[-self.limit:]
+        table = self.query_one("#events", DataTable)
+        table.clear()
+        for ev in reversed(events):  # newest first
+            table.add_row(str(ev["seq"]), words.when(ev["at"]), ev["actor"], ev["action"],
+                          ev["record"], words.when(ev["performed_at"]), ev["reason"] or "")
+        msg.set_class(False, "refusal")
+        msg.update(f"{len(events)} event(s), newest first"
+                   + ("; m shows older ones" if more else "; that is all of them"))
+        self.query_one("#topline", Static).update(Text.assemble(
+            ("prepbook ", "bold"), "audit trail  ·  Enter in a filter applies it  ·  "
+            "acting as ", self.app.who()))  # type: ignore[attr-defined]
+
+    def action_more(self) -> None:
+        self.limit += PAGE
+        self.reload()
+
+    def action_reload(self) -> None:
+        self.reload()
+
+    def action_verify(self) -> None:
+        from prepbook.lab import auditing
+
+        rep = auditing.verify(self.app.db)  # type: ignore[attr-defined]
+        msg = self.query_one("#message", Static)
+        if rep["ok"]:
+            msg.set_class(False, "refusal")
+            msg.update(Text(f"✓ verified: the chain of {rep['events']} events is intact and "
+                            "every current row matches its last audited state",
+                            style=f"bold {colour(self.app, 'success')}"))
+        else:
+            msg.set_class(True, "refusal")
+            msg.update(Text(f"✖ VERIFY FAILED ({rep['events']} events):\n"
+                            + "\n".join(f"  {p}" for p in rep["problems"]),
+                            style=f"bold {colour(self.app, 'error')}"))

@@ -1,0 +1,237 @@
+"""Preparing a batch: the form, the calculators at hand and the safety cautions.
+
+The calculators are the same services as ``prepbook calc solid / liquid / dilute``;
+recording is ``lab.batches.make_batch``, the service behind ``prepbook batch make``.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from rich.console import Group
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, VerticalScroll
+from textual.screen import Screen
+from textual.widgets import Footer, Input, Label, Select, Static
+
+from prepbook.errors import PrepbookError
+from prepbook.tui import words
+from prepbook.tui.screens.common import safety
+from prepbook.tui.widgets import colour
+
+METHODS = [("weighed solid", "solid"), ("concentrated reagent", "concentrate"),
+           ("dilution of a stock batch", "dilution")]
+# field id -> methods it belongs to
+ONLY = {"mass": ("solid",), "lot": ("solid",), "purity": ("solid",), "balance": ("solid",),
+        "stock": ("concentrate",), "parent": ("dilution",), "aliquot": ("dilution",)}
+
+
+class PrepareScreen(Screen[None]):
+    BINDINGS = [Binding("escape", "app.pop_screen", "Back"),
+                Binding("ctrl+s", "submit", "Record batch")]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.specs: dict[str, dict[str, Any]] = {}
+        self.board: list[dict[str, Any]] = []
+        self.made: str | None = None
+
+    def compose(self) -> ComposeResult:
+        yield Static("", id="topline", classes="topline")
+        with Horizontal(id="record"):
+            with VerticalScroll(id="record-form"):
+                yield Label("what and how", classes="section")
+                f = self._field
+                yield from f("spec", Select([], prompt="solution spec", id="spec", compact=True))
+                yield from f("made from", Select(METHODS, value="solid", allow_blank=False,
+                                                 id="method", compact=True))
+                yield from f("target N", Input(id="target", compact=True), "f-target")
+                yield from f("final volume mL", Input(value="1000", id="volume", compact=True))
+                yield from f("purity %", Input(value="100", id="purity", compact=True),
+                             "f-purity")
+                yield from f("solute mass g", Input(id="mass", compact=True), "f-mass")
+                yield from f("solute lot", Select([], prompt="none", id="lot", compact=True),
+                             "f-lot")
+                yield from f("concentrate mL", Input(id="stock", compact=True), "f-stock")
+                yield from f("stock batch", Select([], prompt="choose", id="parent",
+                                                   compact=True), "f-parent")
+                yield from f("aliquot mL", Input(id="aliquot", compact=True), "f-aliquot")
+                yield from f("flask", Select([], prompt="none named", id="flask", compact=True))
+                yield from f("balance", Select([], prompt="none named", id="balance",
+                                               compact=True), "f-balance")
+                yield from f("notes", Input(id="notes", compact=True))
+                yield from f("made", Input(placeholder="now, or YYYY-MM-DDTHH:MM (UTC)",
+                                           id="at", compact=True))
+            with VerticalScroll(id="record-live"):
+                yield Static("", id="live")
+        yield Footer()
+
+    @staticmethod
+    def _field(label: str, widget: Any, fid: str | None = None) -> ComposeResult:
+        with Horizontal(classes="field", id=fid):
+            yield Label(label, classes="field-label")
+            yield widget
+
+    def on_mount(self) -> None:
+        from prepbook.lab import board, instruments, lots, specs
+
+        db = self.app.db  # type: ignore[attr-defined]
+        self.specs = {s["code"]: s for s in specs.list_specs(db)}
+        self.board = board.board(db)
+        self.query_one("#spec", Select).set_options([(f"{c} · {s['name']}", c)
+                                                     for c, s in self.specs.items()])
+        self.query_one("#lot", Select).set_options(
+            [(f"{lt['code']} · {lt['material']} {lt['purity_percent']} %", lt["code"])
+             for lt in lots.list_lots(db) if not lt["expired"]])
+        ins = instruments.list_instruments(db)
+        for kind in ("flask", "balance"):
+            self.query_one(f"#{kind}", Select).set_options(
+                [(i["code"] + (" · calibration OVERDUE" if i["overdue"] else ""), i["code"])
+                 for i in ins if i["kind"] == kind])
+        self.query_one("#topline", Static).update(Text.assemble(
+            ("prepbook ", "bold"), "prepare a batch  ·  acting as ",
+            self.app.who()))  # type: ignore[attr-defined]
+        self.show_method()
+        self.calculate()
+
+    def show_method(self) -> None:
+        method = self.query_one("#method", Select).value
+        for fid, methods in ONLY.items():
+            self.query_one(f"#f-{fid}").display = method in methods
+
+    # -- events -------------------------------------------------------------------------
+    def on_select_changed(self, event: Select.Changed) -> None:
+        if event.select.id == "spec" and isinstance(event.value, str):
+            spec = self.specs[event.value]
+            self.query_one("#target", Input).value = (
+                f"{spec['nominal']:g}" if spec["unit"] == "N" else "")
+            parents = [it for it in self.board if it["state"] in ("in-service", "due")
+                       and self.specs.get(it["spec"], {}).get("solute") == spec["solute"]
+                       and it["spec"] != spec["code"]]
+            self.query_one("#parent", Select).set_options(
+                [(f"{it['batch']} · N {words.sig(it['normality'])}", it["batch"])
+                 for it in parents])
+        if event.select.id == "method":
+            self.show_method()
+        self.calculate()
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        self.calculate()
+
+    def value(self, wid: str) -> str | None:
+        w = self.query_one(f"#{wid}")
+        v = w.value  # type: ignore[attr-defined]
+        if isinstance(w, Select):
+            return v if isinstance(v, str) else None
+        return v.strip() or None
+
+    # -- calculators ----------------------------------------------------------------------
+    def calculate(self) -> None:
+        from prepbook.lab import calcs
+
+        if self.made:
+            return
+        code = self.value("spec")
+        live = self.query_one("#live", Static)
+        if code is None:
+            live.update(Text("Choose the solution spec: the calculator, the hazards and the "
+                             "cautions for it appear here.", style="italic"))
+            return
+        spec = self.specs[code]
+        method = self.value("method")
+        out = Text.assemble((f"{spec['name']}\n", "bold"))
+        out.append(f"  nominal {spec['nominal']:g} {spec['unit']} · solute {spec['solute']} · "
+                   f"shelf life {spec['shelf_life_days']} days\n")
+        cautions: list[str] = list(spec.get("cautions") or [])
+        target, volume = self.value("target"), self.value("volume")
+        err = colour(self.app, "error")
+        out.append("\ncalculator\n", style="bold")
+        if spec["unit"] != "N" and not target:
+            out.append(f"  this spec is in mol/L: type the target normality (eq/L) for the "
+                       f"calculator, {spec['nominal']:g} M × the equivalents per mole of "
+                       "the reaction\n")
+        elif not (target and volume):
+            out.append("  type the target normality and the final volume\n")
+        else:
+            try:
+                if method == "solid":
+                    r = calcs.solid(spec["solute"], normality_text=target, volume_text=volume,
+                                    purity_text=self.value("purity") or "100")
+                    out.append(f"  weigh {words.sig(r['mass_g'], 5)} g of {r['name']} "
+                               f"({r['formula']}, M = {words.sig(r['molar_mass_g_per_mol'], 6)}"
+                               f" g/mol, n = {r['n_eq_per_mol']:g} eq/mol, purity "
+                               f"{r['purity_percent']:g} %) for {target} N in {volume} mL\n")
+                elif method == "concentrate":
+                    r = calcs.liquid(spec["solute"], normality_text=target, volume_text=volume)
+                    out.append(f"  measure {words.sig(r['volume_ml'], 4)} mL of {r['name']} "
+                               f"({r['mass_fraction_percent']:g} % m/m, "
+                               f"{r['density_g_per_ml']:g} g/mL, about "
+                               f"{words.sig(r['molarity_mol_per_l'], 3)} mol/L) and make up to "
+                               f"{volume} mL\n")
+                    out.append(f"  reagent data: {r['source']}\n", style="dim")
+                else:
+                    parent = self.value("parent")
+                    stock = next((it for it in self.board if it["batch"] == parent), None)
+                    if stock is None or stock["normality"] is None:
+                        out.append("  choose a standardized stock batch\n")
+                        r = {}
+                    else:
+                        r = calcs.dilute(stock_text=repr(stock["normality"]),
+                                         normality_text=target, volume_text=volume)
+                        out.append(f"  take {words.sig(r['stock_ml'], 4)} mL of {parent} "
+                                   f"(N {words.sig(stock['normality'])}) and make up to "
+                                   f"{volume} mL (about {words.sig(r['water_ml'], 4)} mL of "
+                                   "water)\n")
+                cautions += [c for c in r.get("cautions", []) if c not in cautions]
+            except PrepbookError as exc:
+                out.append(f"  ✖ {exc}\n", style=err)
+        out.append("  The calculator only advises: record what was actually weighed or "
+                   "measured.\n", style="dim")
+        out.append("\nsafety\n", style="bold")
+        live.update(Group(out, safety(self.app, spec.get("hazard"), cautions,
+                                      spec.get("storage"))))
+
+    # -- recording ------------------------------------------------------------------------
+    def action_submit(self) -> None:
+        from prepbook.lab import batches
+
+        live = self.query_one("#live", Static)
+        if self.made:
+            return
+        code, method = self.value("spec"), self.value("method")
+        err = colour(self.app, "error")
+        if code is None:
+            live.update(Text("not recorded: choose the solution spec", style=err))
+            return
+        kw: dict[str, Any] = {"actor": self.app.actor or "", "spec": code,  # type: ignore[attr-defined]
+                              "volume": self.value("volume") or "", "flask": self.value("flask"),
+                              "notes": self.value("notes"), "at": self.value("at")}
+        if method == "solid":
+            kw |= {"solute_mass": self.value("mass") or "", "solute_lot": self.value("lot"),
+                   "balance": self.value("balance")}
+        elif method == "concentrate":
+            kw["stock_volume"] = self.value("stock") or ""
+        else:
+            kw |= {"from_batch": self.value("parent") or "", "aliquot": self.value("aliquot")
+                   or ""}
+        try:
+            res = batches.make_batch(self.app.db, **kw)  # type: ignore[attr-defined]
+        except PrepbookError as exc:
+            live.update(Text(f"not recorded, nothing was written: {exc}", style=err))
+            return
+        self.made = res["batch"]
+        out = Text.assemble((f"recorded batch {res['batch']}\n", "bold"))
+        out.append(f"  theoretical N {words.sig(res['theoretical_normality'])} (factor "
+                   f"{words.fixed(res['theoretical_factor'])}); expires {res['expires']}\n"
+                   "  It is new until standardized: open it from the board and press s.\n")
+        for w in res["warnings"]:
+            out.append(f"  ! {w}\n", style=colour(self.app, "warning"))
+        spec = self.specs[code]
+        live.update(Group(out, safety(self.app, spec.get("hazard"), res["cautions"],
+                                      spec.get("storage"))))
+        for w in self.query(Input):
+            w.disabled = True
+        self.app.notify(f"batch {res['batch']} recorded", title="recorded")
+        self.app.wrote()  # type: ignore[attr-defined]

@@ -1,0 +1,48 @@
+"""lab.watch: the cheap change check and a batch's history records and trend."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+
+@pytest.fixture
+def db(tmp_path: Path):
+    from prepbook.lab import demo
+    from prepbook.store.engine import open_database
+
+    demo.build(tmp_path / "d.db")
+    return open_database(str(tmp_path / "d.db"))
+
+
+def test_head_moves_with_every_write_and_batch_events_are_its_history(db) -> None:
+    from prepbook.lab import auditing, batches, watch
+
+    head = watch.head_seq(db)
+    assert head == auditing.log(db, limit=1)[0]["seq"]
+    made = batches.make_batch(db, actor="ines", spec="NaOH-0.1N", volume="1000",
+                              solute_mass="4.10")
+    assert watch.head_seq(db) == head + 1
+    events = watch.batch_events(db, made["batch"])
+    assert [e["action"] for e in events] == ["batch.make"]
+    naoh = watch.batch_events(db, "NaOH-0.1N-260912-1")
+    runs = batches.show_batch(db, "NaOH-0.1N-260912-1")["runs"]
+    # one event per run recorded, per replicate, per review and per status change
+    assert sum(e["action"] == "run.record" for e in naoh) == len(runs)
+    assert sum(e["action"] == "replicate.record" for e in naoh) == sum(
+        len(r["replicates"]) for r in runs)
+    assert [e["seq"] for e in naoh] == sorted(e["seq"] for e in naoh)
+
+
+def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(db) -> None:
+    from prepbook.lab import batches, specs, watch
+
+    code = "NaOH-0.1N-260912-1"
+    t = watch.batch_trend(db, code)
+    shown = batches.show_batch(db, code)
+    assert [p["factor"] for p in t["points"]] == [r["factor"] for r in shown["runs"]]
+    spec = next(s for s in specs.list_specs(db) if s["code"] == shown["spec"])
+    assert t["window"] == [spec["factor_low"], spec["factor_high"]]
+    # the demo's NaOH loses strength to carbon dioxide: the fitted slope is negative
+    assert t["trend"] is not None and t["trend"]["ci_high"] < 0
