@@ -20,6 +20,7 @@ counts are refused.
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 from collections.abc import Mapping, Sequence
@@ -118,7 +119,22 @@ def _parse_part(part: str, whole: str) -> tuple[int, dict[str, int]]:
 
 
 def molar_mass(formula: str) -> MolarMass:
-    """Molar mass of a formula (hydrates included) with CIAAW 2021 atomic weights."""
+    """Molar mass of a formula (hydrates included) with CIAAW 2021 atomic weights.
+
+    Results are kept per formula text (the value is frozen and depends on nothing
+    else), so a service computing many runs parses each formula once.
+    """
+    if isinstance(formula, str):
+        return _molar_mass_memo(formula)
+    return _molar_mass(formula)
+
+
+@functools.lru_cache(maxsize=512)
+def _molar_mass_memo(formula: str) -> MolarMass:
+    return _molar_mass(formula)
+
+
+def _molar_mass(formula: str) -> MolarMass:
     import periodictable
 
     if not isinstance(formula, str) or not formula.strip():

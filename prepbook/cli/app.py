@@ -73,6 +73,7 @@ def _register() -> None:
         instruments,
         labels,
         lots,
+        maintenance,
         report,
         review,
         settings,
@@ -105,6 +106,7 @@ def _register() -> None:
     app.command("report")(report.report)
     app.command("export")(exports.export)
     app.command("tui")(tui.tui)
+    app.command("backup")(maintenance.backup)
 
 
 _register()

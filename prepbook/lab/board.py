@@ -182,8 +182,7 @@ def board(db: Database, today: date | None = None) -> list[dict[str, Any]]:
         rows = _batch_rows(s, Batch.retired_at.is_(None))
         # Only the runs of the batches shown: retired batches' runs (most of a long
         # history) are never read.
-        facts = _run_facts(s, select(Batch.id).where(Batch.retired_at.is_(None))
-                           .scalar_subquery())
+        facts = _run_facts(s, select(Batch.id).where(Batch.retired_at.is_(None)))
         items = [
             _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=ins,
                   solute_lot=lot, today=today, lead_days=lead)

@@ -9,6 +9,7 @@ from __future__ import annotations
 import difflib
 import json
 from datetime import date, datetime
+from collections.abc import Callable
 from typing import Any, TypeVar
 
 from sqlalchemy import select
@@ -18,9 +19,11 @@ from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import utc_now
 from prepbook.lab.security import passphrase_matches
 from prepbook.store import audit
+from prepbook.store.bulk import IDS_KEY
 from prepbook.store.models import Base, Batch, Instrument, Lot, Run, Setting, Spec, User
 
 T = TypeVar("T", bound=Base)
+T2 = TypeVar("T2", bound=tuple)  # type: ignore[type-arg]
 
 RECORDERS = ("technician", "reviewer", "admin")
 REVIEWERS = ("reviewer", "admin")
@@ -52,6 +55,25 @@ def _remembered(session: Session, key: Any) -> Any:
     row = _memo(session).get(key)
     # A row from a savepoint that was rolled back is no longer in the session.
     return row if row is not None and row in session else None
+
+
+_LIFE = ("life",)
+# Writing one of these can change a batch's state, dates or warnings.
+_LIFE_TABLES = frozenset({"batches", "runs", "lots", "instruments", "specs"})
+
+
+def life_facts(session: Session, batch_id: int, read: Callable[[], T2]) -> T2:
+    """What a batch's life is computed from, read once per transaction by ``read()``.
+
+    Kept until this transaction writes (through ``write``) a row that can change it;
+    see ``board.batch_life``.
+    """
+    facts = _memo(session).setdefault(_LIFE, {})
+    held = facts.get(batch_id)
+    if held is None or held[0] not in session:
+        held = read()
+        facts[batch_id] = held
+    return held  # type: ignore[no-any-return]
 
 
 def by_code(session: Session, model: type[T], code: str, what: str) -> T:
@@ -155,8 +177,18 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
     """Add/flush a row and its audit event in the current transaction."""
     if isinstance(row, Setting):
         _memo(session).pop(_SETTINGS, None)
-    session.add(row)
-    session.flush()
+    elif row.__tablename__ in _LIFE_TABLES:
+        _memo(session).pop(_LIFE, None)
+    ids = session.info.get(IDS_KEY)
+    if ids is not None:
+        # Grouped bulk writing (store.bulk): the id is handed out here and the insert
+        # waits for the group's next flush, together with others.
+        if getattr(row, "id", None) is None:
+            ids.assign(row)
+        session.add(row)
+    else:
+        session.add(row)
+        session.flush()
     audit.record(session, actor=actor, action=action, row=row, reason=reason,
                  performed_at=performed_at)
 

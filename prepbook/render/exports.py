@@ -2,6 +2,10 @@
 
 A spreadsheet reads a cell that starts with ``=``, ``+``, ``-``, ``@``, a tab or a
 carriage return as a formula (the "CSV injection" risk described by OWASP).
+XLSX numbers carry 16 significant digits (the openpyxl writer's format, a relative
+difference below 1e-15 from the stored double); CSV carries every float exactly
+(``repr``), so use CSV when a value must read back bit for bit.
+
 Every *text* cell that starts so gets a leading apostrophe in both formats, so
 it is shown as typed and never evaluated; numbers are left as numbers. The
 apostrophe is visible in the cell: the export says exactly what was changed.
@@ -51,7 +55,7 @@ def write_table(path: Path, fmt: str, sheet: str, columns: Sequence[str],
             if fmt == "csv":
                 # pandas prints floats to 16 significant digits, which can drop the last
                 # one; repr() is the shortest text that reads back as the same float.
-                exact = df.map(lambda v: repr(v) if isinstance(v, float) else v)
+                exact = df.map(_exact)
                 exact.to_csv(tmp, index=False, encoding="utf-8", lineterminator="\n")
             else:
                 _write_xlsx(df, tmp, sheet)
@@ -59,6 +63,12 @@ def write_table(path: Path, fmt: str, sheet: str, columns: Sequence[str],
             raise InvalidInput(f"cannot write {path}: {exc.strerror or exc}") from None
         commit()
     return files.absolute(path)
+
+
+def _exact(value: Any) -> Any:
+    if isinstance(value, float):
+        return None if value != value else repr(value)  # NaN is pandas' empty cell
+    return value
 
 
 def _write_xlsx(df: Any, tmp: Path, sheet: str) -> None:

@@ -106,8 +106,11 @@ def _pairs(rows: list[list[Any]], width: float, st: _Styles) -> Any:
     return table
 
 
-def _chart(data: dict[str, Any], width: float) -> Any:
-    """Concentration at 20 C of every run over time, with U bars and the acceptance window."""
+def _chart(data: dict[str, Any], width: float, *, detail: bool = False) -> Any:
+    """Concentration at 20 C of every run over time, with U bars and the acceptance window.
+
+    ``detail`` scales the axis to the results and their U bars (the window lines are
+    drawn only where they fall inside), so drift and overlap can be seen."""
     from reportlab.graphics.charts.lineplots import LinePlot
     from reportlab.graphics.shapes import Drawing, String
     from reportlab.graphics.widgets.markers import makeMarker
@@ -118,7 +121,20 @@ def _chart(data: dict[str, Any], width: float) -> Any:
     low = win["nominal"] * win["factor_low"]
     high = win["nominal"] * win["factor_high"]
     points = data["chart"]
-    height = 150.0
+    values = [p["concentration"] + k * (p["U"] or 0) for p in points for k in (-1, 1)]
+    if detail:
+        span_low, span_high = min(values), max(values)
+        if span_high - span_low < 1e-12:
+            span_low, span_high = span_low * 0.999, span_high * 1.001
+    else:
+        span_low, span_high = min([low, *values]), max([high, *values])
+    pad = (span_high - span_low) * 0.08
+    y_min, y_max = span_low - pad, span_high + pad
+
+    def shown(v: float) -> bool:
+        return y_min <= v <= y_max
+
+    height = 110.0 if detail else 150.0
     drawing = Drawing(width, height + 30)
     plot = LinePlot()
     plot.x, plot.y = 52, 28
@@ -142,9 +158,11 @@ def _chart(data: dict[str, Any], width: float) -> Any:
         series.append(line)
         styles.append(style)
 
-    add([(x0, low), (x1, low)], width=0.8, dash=(4, 2))
-    add([(x0, high), (x1, high)], width=0.8, dash=(4, 2))
-    add([(x0, win["nominal"]), (x1, win["nominal"])], width=0.4, dash=(1, 2))
+    for level, style in ((low, {"width": 0.8, "dash": (4, 2)}),
+                         (high, {"width": 0.8, "dash": (4, 2)}),
+                         (win["nominal"], {"width": 0.4, "dash": (1, 2)})):
+        if shown(level):
+            add([(x0, level), (x1, level)], **style)
     for p, x in zip(points, xs, strict=True):
         if p["U"] is not None:
             add([(x, p["concentration"] - p["U"]), (x, p["concentration"] + p["U"])], width=0.8)
@@ -174,13 +192,9 @@ def _chart(data: dict[str, Any], width: float) -> Any:
             line.symbol = marker
             line.strokeWidth = 0
             line.strokeColor = None
-    values = [p["concentration"] + s * (p["U"] or 0) for p in points for s in (-1, 1)]
-    span_low = min([low, *values])
-    span_high = max([high, *values])
-    pad = (span_high - span_low) * 0.08
-    plot.yValueAxis.valueMin = span_low - pad
-    plot.yValueAxis.valueMax = span_high + pad
-    plot.yValueAxis.labelTextFormat = lambda v: significant(v, 4)
+    plot.yValueAxis.valueMin = y_min
+    plot.yValueAxis.valueMax = y_max
+    plot.yValueAxis.labelTextFormat = lambda v: significant(v, 5 if detail else 4)
     plot.yValueAxis.labels.fontName = "Helvetica"
     plot.yValueAxis.labels.fontSize = 7
     plot.xValueAxis.valueMin = x0
@@ -201,11 +215,14 @@ def _chart(data: dict[str, Any], width: float) -> Any:
     for v, text in ((high, f"upper {significant(high, 4)} (factor {win['factor_high']:g})"),
                     (win["nominal"], f"nominal {win['nominal']:g}"),
                     (low, f"lower {significant(low, 4)} (factor {win['factor_low']:g})")):
-        drawing.add(String(right, y_of(v) - 2.5, text, fontName="Helvetica", fontSize=6.5))
-    drawing.add(String(plot.x, plot.y + plot.height + 8,
-                       f"concentration at 20 °C ({unit}); bars: expanded uncertainty U; "
-                       "filled: accepted, square: awaiting review, cross: rejected",
-                       fontName="Helvetica", fontSize=7))
+        if shown(v):
+            drawing.add(String(right, y_of(v) - 2.5, text, fontName="Helvetica", fontSize=6.5))
+    caption = (f"detail: the axis spans the results only; concentration at 20 °C ({unit})"
+               if detail else
+               f"concentration at 20 °C ({unit}); dashed: acceptance window; bars: U; "
+               "filled: accepted, square: to review, cross: rejected")
+    drawing.add(String(plot.x, plot.y + plot.height + 8, caption, fontName="Helvetica",
+                       fontSize=7))
     return drawing
 
 
@@ -349,6 +366,8 @@ def _story(data: dict[str, Any], st: _Styles, width: float, unit_word: str) -> l
     story.append(_p("Control chart", st.h1))
     if data["chart"]:
         story.append(_chart(data, width))
+        if len(data["chart"]) > 1:
+            story.append(_chart(data, width, detail=True))
     else:
         story.append(_p("No standardization yet.", st.body))
 

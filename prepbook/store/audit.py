@@ -217,7 +217,8 @@ def record(
         raise InvalidInput(f"{table.name} rows are not audited")
     scheme, digest = _hasher(read_key())
 
-    session.flush()
+    if getattr(row, "id", None) is None:
+        session.flush()  # a new row gets its id
     values = canonical_json(snapshot(row))
     record_id = int(row.id)  # type: ignore[attr-defined]
 
@@ -332,6 +333,7 @@ def verify(session: Session) -> VerifyReport:
         key = None
     scheme, digest = _hasher(key)
     other = KEYED if scheme == PLAIN else PLAIN
+    session.flush()  # events still pending in this session are part of the trail
     conn = session.connection()
     on_sqlite = conn.dialect.name == "sqlite"
 
@@ -567,6 +569,7 @@ def log(
         stmt = stmt.order_by(_events.c.seq.desc()).limit(limit)
     else:
         stmt = stmt.order_by(_events.c.seq)
+    session.flush()
     rows = session.connection().execute(stmt).all()
     if limit is not None:
         rows.reverse()

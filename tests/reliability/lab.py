@@ -183,12 +183,12 @@ def process_context() -> Any:
     return multiprocessing.get_context("spawn")
 
 
-def read_lines(fd: int, deadline: float) -> list[str]:
-    """Every complete line from a pipe until its writers are gone (or the deadline)."""
+def read_lines(fd: int, deadline: float, data: bytes = b"") -> list[str]:
+    """Every complete line from a pipe until its writers are gone (or the deadline),
+    after ``data`` already read; a line cut short by a kill is not one."""
     import select as io_select
     import time
 
-    data = b""
     while time.monotonic() < deadline:
         ready, _, _ = io_select.select([fd], [], [], max(0.0, deadline - time.monotonic()))
         if not ready:
@@ -197,5 +197,5 @@ def read_lines(fd: int, deadline: float) -> list[str]:
         if not chunk:
             break
         data += chunk
-    *complete, _partial = data.decode().split("\n")
-    return complete
+    whole, _, _partial = data.rpartition(b"\n")
+    return whole.decode().split("\n") if whole else []

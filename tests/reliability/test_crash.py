@@ -20,8 +20,14 @@ from pathlib import Path
 
 import pytest
 
-from tests.reliability.lab import REPS, build_lab, crash_worker, inventory, process_context, \
-    read_lines
+from tests.reliability.lab import (
+    REPS,
+    build_lab,
+    crash_worker,
+    inventory,
+    process_context,
+    read_lines,
+)
 
 pytestmark = pytest.mark.skipif(sys.platform == "win32", reason="SIGKILL is POSIX only")
 
@@ -43,12 +49,12 @@ def test_killed_benches_leave_whole_records(backend: str) -> None:
         proc.start()
         write_end.close()
         fd = read_end.fileno()
-        ready = read_lines_until(fd, "ready", deadline)
+        ready, rest = read_lines_until(fd, "ready", deadline)
         time.sleep(rng.uniform(0.02, 0.5))
         proc.kill()  # SIGKILL: no cleanup, no rollback by the child
         proc.join(10)
         assert proc.exitcode == -9, proc.exitcode
-        lines = ready + read_lines(fd, deadline)
+        lines = ready + read_lines(fd, deadline, rest)
         read_end.close()
         assert not [line for line in lines if line.startswith("error")], lines
         printed += [line for line in lines if line != "ready"]
@@ -74,8 +80,9 @@ def test_killed_benches_leave_whole_records(backend: str) -> None:
             con.close()
 
 
-def read_lines_until(fd: int, wanted: str, deadline: float) -> list[str]:
-    """Lines from the child up to and including ``wanted`` (its start-up signal)."""
+def read_lines_until(fd: int, wanted: str, deadline: float) -> tuple[list[str], bytes]:
+    """Whole lines from the child up to and including ``wanted`` (its start-up
+    signal), and the bytes read past the last whole line."""
     import os
     import select
 
@@ -87,5 +94,5 @@ def read_lines_until(fd: int, wanted: str, deadline: float) -> list[str]:
         chunk = os.read(fd, 65536) if ready else b""
         assert chunk, "the child ended before it was ready"
         data += chunk
-    return data.decode().split("\n")[:-1] if data.endswith(b"\n") else \
-        data.decode().split("\n")[:-1]
+    whole, _, rest = data.rpartition(b"\n")
+    return whole.decode().split("\n"), rest

@@ -95,7 +95,7 @@ async def test_board_shows_every_demo_batch_and_filters_by_code(lab: Path) -> No
                     "due": "DUE", "expired": "EXPIRED", "new": "new"}[it["state"]]
             assert word in shown[it["batch"]]
         await pilot.press("slash", *"naoh")
-        await pilot.pause()
+        await pilot.pause(0.4)  # the board filters once typing pauses
         assert sorted(board_states(app)) == sorted(it["batch"] for it in expected
                                                    if "naoh" in it["batch"].lower())
 

@@ -45,4 +45,4 @@ def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(db) -> No
     spec = next(s for s in specs.list_specs(db) if s["code"] == shown["spec"])
     assert t["window"] == [spec["factor_low"], spec["factor_high"]]
     # the demo's NaOH loses strength to carbon dioxide: the fitted slope is negative
-    assert t["trend"] is not None and t["trend"]["ci_high"] < 0
+    assert t["trend"]["slope_ci_percent_per_30d"][1] < 0

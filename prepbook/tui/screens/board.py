@@ -33,6 +33,7 @@ class BoardScreen(Screen[None]):
         super().__init__()
         self.items: list[dict[str, Any]] = []
         self.shown: list[dict[str, Any]] = []
+        self._typing: Any = None
 
     def compose(self) -> ComposeResult:
         yield Static("", id="topline", classes="topline")
@@ -127,8 +128,10 @@ class BoardScreen(Screen[None]):
 
     # -- events -----------------------------------------------------------------------------
     def on_input_changed(self, event: Input.Changed) -> None:
-        if event.input.id == "search":
-            self.apply_filter()
+        if event.input.id == "search":  # filter once typing pauses (a long board redraws)
+            if self._typing is not None:
+                self._typing.stop()
+            self._typing = self.set_timer(0.15, self.apply_filter)
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
         self.query_one("#board", DataTable).focus()
