@@ -219,6 +219,33 @@ def row_counts(db: Path | str) -> dict[str, int]:
         con.close()
 
 
+def raw_sql(db: Path | str, sql: str, *params: Any) -> None:
+    """Change the database behind prepbook's back (a tamper test), on either backend.
+
+    ``?`` placeholders, as in sqlite3; on PostgreSQL the statement runs through
+    SQLAlchemy Core with the same values. Committed at once.
+    """
+    if not is_url(db):
+        con = sqlite3.connect(db)
+        try:
+            con.execute(sql, params)
+            con.commit()
+        finally:
+            con.close()
+        return
+    from sqlalchemy import create_engine, text
+    from sqlalchemy.pool import NullPool
+
+    parts = sql.split("?")
+    named = parts[0] + "".join(f":p{i}{rest}" for i, rest in enumerate(parts[1:]))
+    engine = create_engine(str(db), poolclass=NullPool)
+    try:
+        with engine.begin() as conn:
+            conn.execute(text(named), {f"p{i}": v for i, v in enumerate(params)})
+    finally:
+        engine.dispose()
+
+
 def _server_row_counts(url: str) -> dict[str, int]:
     from sqlalchemy import create_engine, func, inspect, select, table
     from sqlalchemy.pool import NullPool

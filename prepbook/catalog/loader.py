@@ -333,18 +333,30 @@ class Catalog:
 
     def find_material(self, query: str) -> Material:
         idx = self._material_index
+        hit = idx.get(_key(query))  # the labels for a "did you mean" only on a miss
+        if hit is not None:
+            return hit
         return _lookup(idx, self._labels(idx, lambda m: m.code), "material", query)
 
     def find_reagent(self, query: str) -> Reagent:
         idx = self._reagent_index
+        hit = idx.get(_key(query))  # the labels for a "did you mean" only on a miss
+        if hit is not None:
+            return hit
         return _lookup(idx, self._labels(idx, lambda r: r.code), "reagent", query)
 
     def find_indicator(self, query: str) -> Indicator:
         idx = self._indicator_index
+        hit = idx.get(_key(query))  # the labels for a "did you mean" only on a miss
+        if hit is not None:
+            return hit
         return _lookup(idx, self._labels(idx, lambda i: i.name), "indicator", query)
 
     def find_spec(self, code: str) -> SpecDefaults:
         idx = self._spec_index
+        hit = idx.get(_key(code))  # the labels for a "did you mean" only on a miss
+        if hit is not None:
+            return hit
         return _lookup(idx, self._labels(idx, lambda s: s.code), "solution spec", code)
 
 

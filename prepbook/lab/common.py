@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import difflib
 import json
-from datetime import date, datetime
 from collections.abc import Callable
+from datetime import date, datetime
 from typing import Any, TypeVar
 
 from sqlalchemy import select
@@ -178,7 +178,14 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
     if isinstance(row, Setting):
         _memo(session).pop(_SETTINGS, None)
     elif row.__tablename__ in _LIFE_TABLES:
-        _memo(session).pop(_LIFE, None)
+        facts = _memo(session).get(_LIFE)
+        if facts:
+            if isinstance(row, Run):
+                facts.pop(row.batch_id, None)
+            elif isinstance(row, Batch):
+                facts.pop(row.id, None)
+            else:  # a lot, instrument or spec may be any batch's
+                facts.clear()
     ids = session.info.get(IDS_KEY)
     if ids is not None:
         # Grouped bulk writing (store.bulk): the id is handed out here and the insert

@@ -4,12 +4,13 @@ a bench would use, with its dates counted back from today."""
 from __future__ import annotations
 
 import tomllib
-from datetime import UTC, datetime, timedelta
+from dataclasses import dataclass, replace
+from datetime import UTC, date, datetime, timedelta
 from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from prepbook.errors import Refused
+from prepbook.errors import InvalidInput, Refused
 
 DEMO_FILE = "lab.toml"
 
@@ -24,12 +25,8 @@ def _moment(today: datetime, day: int, clock: str = "09:00") -> datetime:
     return (today + timedelta(days=day)).replace(hour=hh, minute=mm, second=0, microsecond=0)
 
 
-def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
-    """Build the demo lab into a new SQLite file at ``path`` and return its board."""
-    from prepbook.lab import batches, board, instruments, lots, people, runs, setup
-    from prepbook.store.engine import open_database
-
-    path = path.expanduser()
+def _move_aside(path: Path, replace: bool) -> None:
+    """Refuse an existing file, or with ``replace`` rename it (and its WAL) aside."""
     if path.exists():
         if not replace:
             raise Refused(f"{path} already exists; the demo builds a new database "
@@ -39,6 +36,15 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
             old = Path(f"{path}{suffix}")
             if old.exists():
                 old.rename(f"{path}.old-{stamp}{suffix}")
+
+
+def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
+    """Build the demo lab into a new SQLite file at ``path`` and return its board."""
+    from prepbook.lab import batches, board, instruments, lots, people, runs, setup
+    from prepbook.store.engine import open_database
+
+    path = path.expanduser()
+    _move_aside(path, replace)
     data = scenario()
     now = datetime.now(UTC).replace(tzinfo=None)
     today = now.replace(hour=0, minute=0, second=0, microsecond=0)
@@ -165,20 +171,20 @@ class _LineKind:
 
 
 _KINDS = (
-    _LineKind("NaOH-0.1N", 6, "KHP", -0.00035, cadence_days=4, uses_per_day=2.2),
-    _LineKind("KOH-0.1N", 2, "KHP", -0.00030, cadence_days=4, uses_per_day=1.8),
-    _LineKind("Na2S2O3-0.1N", 5, "KIO3", -0.00015, cadence_days=4, uses_per_day=2.2,
+    _LineKind("NaOH-0.1N", 6, "KHP", -0.00035, cadence_days=3, uses_per_day=1.8),
+    _LineKind("KOH-0.1N", 2, "KHP", -0.00030, cadence_days=3, uses_per_day=1.5),
+    _LineKind("Na2S2O3-0.1N", 5, "KIO3", -0.00015, cadence_days=3, uses_per_day=1.8,
               blank="0.03"),
     _LineKind("KMnO4-0.1N", 2, "Na2C2O4", -0.00003, early_drift=-0.0009, cadence_days=7,
-              uses_per_day=1.8, blank="0.02"),
+              uses_per_day=1.5, blank="0.02"),
     _LineKind("HCl-1N", 1, "Na2CO3", 0.0, concentrate=True, cadence_days=30,
-              uses_per_day=0.6),
+              uses_per_day=0.5),
     _LineKind("HCl-0.1N", 4, None, 0.00001, against="NaOH-0.1N", stock="HCl-1N",
-              cadence_days=7, uses_per_day=2.0),
+              cadence_days=7, uses_per_day=1.6),
     _LineKind("H2SO4-0.1N", 1, "Na2CO3", 0.0, concentrate=True, cadence_days=14,
-              uses_per_day=1.6),
-    _LineKind("AgNO3-0.1N", 2, "NaCl", -0.00002, cadence_days=7, uses_per_day=2.0),
-    _LineKind("EDTA-0.05M", 2, "Zn", -0.00001, cadence_days=7, uses_per_day=2.0),
+              uses_per_day=1.3),
+    _LineKind("AgNO3-0.1N", 2, "NaCl", -0.00002, cadence_days=7, uses_per_day=1.6),
+    _LineKind("EDTA-0.05M", 2, "Zn", -0.00001, cadence_days=7, uses_per_day=1.6),
 )
 
 
@@ -247,7 +253,6 @@ class _History:
                          code=f"SY-{material}-{year}", purity=purity, purity_u="0.05",
                          expires=expires, certificate=f"CoA {material}/{year} (invented)",
                          dried=day.date().isoformat())
-        self.purity = {m: None for m in ()}
 
     def instruments(self) -> tuple[str, str, str]:
         y = self.period_year
@@ -471,15 +476,14 @@ def build_history(path: Path, *, years: int, replace: bool = False, scale: float
     setup.initialize(target, actor=_ADMIN)
     db = GroupedDatabase(target)
     try:
-        with synthetic_demo_hashing():
-            with db.group():
-                people.add_user(db, actor=_ADMIN, name=_ADMIN, role="admin",
-                                passphrase=_passphrase(_ADMIN), actor_passphrase=None)
-                for name, role in [*((t, "technician") for t in _TECHNICIANS),
-                                   *((r, "reviewer") for r in _REVIEWERS)]:
-                    people.add_user(db, actor=_ADMIN, name=name, role=role,
-                                    passphrase=_passphrase(name),
-                                    actor_passphrase=_passphrase(_ADMIN))
+        with synthetic_demo_hashing(), db.group():
+            people.add_user(db, actor=_ADMIN, name=_ADMIN, role="admin",
+                            passphrase=_passphrase(_ADMIN), actor_passphrase=None)
+            for name, role in [*((t, "technician") for t in _TECHNICIANS),
+                               *((r, "reviewer") for r in _REVIEWERS)]:
+                people.add_user(db, actor=_ADMIN, name=name, role=role,
+                                passphrase=_passphrase(name),
+                                actor_passphrase=_passphrase(_ADMIN))
         sim = _History(db, years, scale, seed)
         day = sim.start.replace(hour=0)
         while day.date() <= sim.today.date():

@@ -327,8 +327,6 @@ def _geometry(size: LabelSize, code: str, signal: str | None, font: float,
               tier: int = 0, qr_share: float = QR_SHARES[0]) -> _Geometry:
     """Where things go: the side column (QR, code, signal word) at the top right, the text
     beside it and then across the full width below it."""
-    from reportlab.pdfbase.pdfmetrics import stringWidth
-
     w, h = size.width_pt, size.height_pt
     margin = max(1.2 * MM, min(3 * MM, h * 0.05))
     gutter = max(1.2 * MM, w * 0.02)

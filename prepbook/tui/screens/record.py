@@ -339,6 +339,9 @@ class RecordScreen(Screen[None]):
     def action_submit(self) -> None:
         from prepbook.lab import runs
 
+        if self._timer is not None:  # a pending preview must not cover the outcome
+            self._timer.stop()
+            self._timer = None
         if self.recorded:
             self.say(f"already recorded as run {self.recorded}; Escape goes back")
             return
