@@ -7,7 +7,7 @@ from datetime import date
 from typing import Any
 
 from sqlalchemy import func, select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, joinedload
 
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_code, parse_datetime, parse_number, parse_text, utc_now
@@ -196,11 +196,13 @@ def make_batch(
         }
 
 
-def _replicate_rows(session: Session, run: Run) -> list[dict[str, Any]]:
-    reps = session.scalars(
-        select(Replicate).where(Replicate.run_id == run.id)
-        .order_by(Replicate.position, Replicate.version)
-    ).all()
+def _replicate_rows(session: Session, run: Run,
+                    reps: list[Replicate] | None = None) -> list[dict[str, Any]]:
+    if reps is None:
+        reps = list(session.scalars(
+            select(Replicate).where(Replicate.run_id == run.id)
+            .order_by(Replicate.position, Replicate.version)
+        ))
     latest: dict[int, int] = {}
     for r in reps:
         latest[r.position] = max(latest.get(r.position, 0), r.version)
@@ -225,10 +227,15 @@ def _replicate_rows(session: Session, run: Run) -> list[dict[str, Any]]:
     return rows
 
 
-def run_dict(session: Session, run: Run, *, with_replicates: bool = True) -> dict[str, Any]:
+def run_dict(session: Session, run: Run, *, with_replicates: bool = True,
+             reviews: list[Review] | None = None,
+             replicates: list[Replicate] | None = None) -> dict[str, Any]:
+    """A run as plain data; ``reviews``/``replicates`` when the caller has read them
+    already for many runs at once (``show_batch``), in id / (position, version) order."""
     result = json.loads(run.result_json) if run.result_json else {}
-    reviews = session.scalars(select(Review).where(Review.run_id == run.id)
-                              .order_by(Review.id)).all()
+    if reviews is None:
+        reviews = list(session.scalars(select(Review).where(Review.run_id == run.id)
+                                       .order_by(Review.id)))
     out: dict[str, Any] = {
         "run": run.code,
         "method": run.method,
@@ -259,8 +266,24 @@ def run_dict(session: Session, run: Run, *, with_replicates: bool = True) -> dic
                      "signed_at": iso(r.signed_at)} for r in reviews],
     }
     if with_replicates:
-        out["replicates"] = _replicate_rows(session, run)
+        out["replicates"] = _replicate_rows(session, run, replicates)
     return out
+
+
+def _run_dicts(session: Session, runs: list[Run]) -> list[dict[str, Any]]:
+    """``run_dict`` of many runs with a fixed number of queries (not two per run)."""
+    ids = [r.id for r in runs]
+    reviews: dict[int, list[Review]] = {i: [] for i in ids}
+    replicates: dict[int, list[Replicate]] = {i: [] for i in ids}
+    if ids:
+        for rv in session.scalars(select(Review).where(Review.run_id.in_(ids))
+                                  .order_by(Review.id)):
+            reviews[rv.run_id].append(rv)
+        for rep in session.scalars(select(Replicate).where(Replicate.run_id.in_(ids))
+                                   .order_by(Replicate.position, Replicate.version)):
+            replicates[rep.run_id].append(rep)
+    return [run_dict(session, r, reviews=reviews[r.id], replicates=replicates[r.id])
+            for r in runs]
 
 
 def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, Any]:
@@ -271,8 +294,13 @@ def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, 
     with db.session(write=False) as s:
         b = by_code(s, Batch, code, "batch")
         view = spec_view.view(b.spec)
-        runs = s.scalars(select(Run).where(Run.batch_id == b.id)
-                         .order_by(Run.performed_at, Run.id)).all()
+        # The instruments, lots and reference batches of all the runs come in the same
+        # query; their reviews and replicates in one more each (``_run_dicts``).
+        runs = list(s.scalars(
+            select(Run).where(Run.batch_id == b.id)
+            .options(joinedload(Run.lot), joinedload(Run.reference_batch),
+                     joinedload(Run.balance), joinedload(Run.burette))
+            .order_by(Run.performed_at, Run.id)).unique())
         uses = s.scalars(select(Use).where(Use.batch_id == b.id).order_by(Use.used_at)).all()
         children = s.scalars(select(Batch.code).where(Batch.parent_batch_id == b.id)).all()
         life_row = board.batch_life(s, b, today)
@@ -307,7 +335,7 @@ def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, 
             },
             "retired": ({"at": iso(b.retired_at), "by": b.retired_by,
                          "reason": b.retired_reason} if b.retired_at else None),
-            "runs": [run_dict(s, r) for r in runs],
+            "runs": _run_dicts(s, runs),
             "uses": [{"at": iso(u.used_at), "by": u.used_by, "volume_ml": u.volume_ml_text,
                       "purpose": u.purpose} for u in uses],
             "diluted_into": list(children),

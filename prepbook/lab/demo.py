@@ -180,11 +180,11 @@ _KINDS = (
     _LineKind("HCl-1N", 1, "Na2CO3", 0.0, concentrate=True, cadence_days=30,
               uses_per_day=0.5),
     _LineKind("HCl-0.1N", 4, None, 0.00001, against="NaOH-0.1N", stock="HCl-1N",
-              cadence_days=7, uses_per_day=1.6),
+              cadence_days=5, uses_per_day=1.6),
     _LineKind("H2SO4-0.1N", 1, "Na2CO3", 0.0, concentrate=True, cadence_days=14,
               uses_per_day=1.3),
-    _LineKind("AgNO3-0.1N", 2, "NaCl", -0.00002, cadence_days=7, uses_per_day=1.6),
-    _LineKind("EDTA-0.05M", 2, "Zn", -0.00001, cadence_days=7, uses_per_day=1.6),
+    _LineKind("AgNO3-0.1N", 2, "NaCl", -0.00002, cadence_days=4, uses_per_day=1.6),
+    _LineKind("EDTA-0.05M", 2, "Zn", -0.00001, cadence_days=4, uses_per_day=1.6),
 )
 
 
@@ -209,7 +209,7 @@ class _Bottle:
 
 
 class _History:
-    def __init__(self, db: Any, years: int, scale: float, seed: int) -> None:
+    def __init__(self, db: Any, years: float, scale: float, seed: int) -> None:
         import random
 
         self.db = db
@@ -454,20 +454,21 @@ class _History:
                     self.use(b, when)
 
 
-def build_history(path: Path, *, years: int, replace: bool = False, scale: float = 1.0,
+def build_history(path: Path, *, years: float, replace: bool = False, scale: float = 1.0,
                   seed: int = 20261201) -> dict[str, Any]:
     """Build ``years`` of a busy lab's synthetic history into a new SQLite file.
 
-    ``scale`` multiplies the number of bottles kept in service (1.0: a busy lab of
-    about 28 benches' bottles, roughly 440 batches, 2,700 standardizations and
-    11,000 uses a year); a small scale makes a small history for tests.
+    ``scale`` multiplies the number of bottles kept in service (1.0: a busy lab
+    keeping 25 bottles in service, about 530 batches, 2,600 standardizations and
+    10,500 uses a year); a fraction of a year and a small scale make a small
+    history for tests.
     """
     from prepbook.lab import auditing, board, people, setup
     from prepbook.lab.security import synthetic_demo_hashing
     from prepbook.store.bulk import GroupedDatabase
 
-    if years < 1:
-        raise InvalidInput("--years must be at least 1")
+    if not 0 < years <= 50:
+        raise InvalidInput("--years must be above 0 and at most 50")
     if not 0 < scale <= 4:
         raise InvalidInput("scale must be above 0 and at most 4")
     path = path.expanduser()

@@ -20,7 +20,7 @@ if TYPE_CHECKING:
     from prepbook.store.engine import Database
 
 # The newest revision in migrations/versions (checked by tests/store/test_migrations.py).
-HEAD_REVISION = "3c1a5e7d9b20"
+HEAD_REVISION = "8d2f4b6a1c37"
 
 
 @dataclass(frozen=True)

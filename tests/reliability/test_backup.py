@@ -3,7 +3,7 @@ opens as a database of its own, verifies, and holds every row (issue 6)."""
 
 from __future__ import annotations
 
-import shutil
+import sqlite3
 import threading
 from pathlib import Path
 
@@ -22,9 +22,14 @@ def lab_file(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, str]:
 
 @pytest.fixture
 def lab(lab_file: tuple[Path, str], tmp_path: Path) -> tuple[Cli, str]:
-    """A private copy of the module's lab (made by plain file copy of a quiet file)."""
+    """A private copy of the module's lab (SQLite's backup API: WAL content included)."""
     path = tmp_path / "lab.db"
-    shutil.copyfile(lab_file[0], path)
+    source, dest = sqlite3.connect(lab_file[0]), sqlite3.connect(path)
+    try:
+        source.backup(dest)
+    finally:
+        source.close()
+        dest.close()
     return Cli(path), lab_file[1]
 
 

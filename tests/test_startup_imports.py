@@ -1,0 +1,55 @@
+"""`prepbook --help` and `prepbook calc normality` stay light: they import no database,
+migration, table or PDF library (their speed is measured by tests/benchmarks/bench.py;
+this checks the imports, not the time)."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+HEAVY = ("sqlalchemy", "alembic", "pandas", "reportlab")
+
+# Run the real entry point in a fresh interpreter and report what it imported.
+_WRAPPER = r"""
+import json, sys
+sys.argv = ["prepbook", *json.loads(sys.argv[1])]
+try:
+    from prepbook.cli import main
+    main()
+except SystemExit:
+    pass
+finally:
+    sys.stdout.flush()
+    print("\n@@MODULES@@" + json.dumps(sorted(sys.modules)), file=sys.stderr)
+"""
+
+
+def _run(args: list[str]) -> tuple[set[str], str]:
+    result = subprocess.run([sys.executable, "-c", _WRAPPER, json.dumps(args)],
+                            capture_output=True, text=True, check=True,
+                            env={"PATH": "", "COLUMNS": "100", "PREPBOOK_USER": "ada"})
+    marker = result.stderr.rsplit("@@MODULES@@", 1)[1]
+    return set(json.loads(marker)), result.stdout
+
+
+@pytest.mark.parametrize("args", [
+    ["--help"],
+    ["calc", "normality", "--standard", "KHP", "--titrant", "NaOH",
+     "--rep", "0.8123:39.80", "--rep", "0.8201:40.20", "--rep", "0.8150:39.93", "--json"],
+], ids=["help", "calc-normality"])
+def test_light_commands_import_no_heavy_library(args: list[str]) -> None:
+    loaded, out = _run(args)
+    # The command really ran: its help, or the computed normality.
+    assert "Usage" in out or json.loads(out)["normality"] > 0
+    heavy = sorted(m for m in loaded if m.split(".")[0] in HEAVY)
+    assert heavy == [], f"prepbook {' '.join(args[:2])} imported {heavy[:5]}"
+
+
+def test_the_check_sees_a_heavy_import() -> None:
+    # A command that opens a database must show up as importing SQLAlchemy, or the
+    # check above could never fail.
+    loaded, _ = _run(["--db", "/nonexistent/prepbook-test.db", "status"])
+    assert "sqlalchemy" in loaded
