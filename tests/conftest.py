@@ -70,6 +70,11 @@ def pytest_report_header(config: pytest.Config) -> str:
     return f"prepbook database backend: PostgreSQL at {shown} (a fresh database for each test)"
 
 
+def pytest_terminal_summary(terminalreporter: Any) -> None:
+    # Also at -q, where the header is not shown: which database this run used.
+    terminalreporter.write_line(pytest_report_header(terminalreporter.config))
+
+
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
     if not on_postgres():
         return
