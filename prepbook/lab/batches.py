@@ -13,6 +13,7 @@ from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_code, parse_datetime, parse_number, parse_text, utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.common import acting, by_code, iso, not_future, write
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Replicate, Review, Run, Spec, Use
 
@@ -47,6 +48,7 @@ def current_normality(session: Session, batch: Batch) -> tuple[float | None, Run
     return (run.normality_20c if run else None), run
 
 
+@retry.on_conflict
 def make_batch(
     db: Database,
     *,
@@ -357,6 +359,7 @@ def batch_count(db: Database) -> int:
 
 
 
+@retry.on_conflict
 def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
               purpose: str | None = None, at: str | None = None) -> dict[str, Any]:
     """Record a draw from a batch (kept for impact analysis); only a batch in service."""

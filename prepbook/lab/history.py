@@ -12,6 +12,7 @@ from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_text, utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.common import RECORDERS, acting, by_code, iso, signed, write
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Use
 
@@ -149,6 +150,7 @@ def _last_accepted(s: Session, b: Batch) -> tuple[float | None, Run | None]:
     return current_normality(s, b)
 
 
+@retry.on_conflict
 def retire(db: Database, *, actor: str, code: str, reason: str | None,
            passphrase: str | None) -> dict[str, Any]:
     """Retire a batch (discarded, used up, spoiled): signed, with a reason. It can then be

@@ -10,6 +10,7 @@ from sqlalchemy import select
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_code, parse_date, parse_number, utc_now
 from prepbook.lab.common import acting, iso, write
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import INSTRUMENT_KINDS, Instrument
 
@@ -31,6 +32,7 @@ def instrument_dict(ins: Instrument, today: date | None = None) -> dict[str, Any
     }
 
 
+@retry.on_conflict
 def add_instrument(db: Database, *, actor: str, code: str, kind: str, due: str,
                    capacity: str | None, tolerance: str | None,
                    readability: str | None) -> dict[str, Any]:

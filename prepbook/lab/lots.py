@@ -10,6 +10,7 @@ from sqlalchemy import select
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_code, parse_date, parse_number, parse_percent, parse_text, utc_now
 from prepbook.lab.common import acting, iso, write
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Lot
 
@@ -30,6 +31,7 @@ def lot_dict(lot: Lot, today: date | None = None) -> dict[str, Any]:
     }
 
 
+@retry.on_conflict
 def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
             purity_u: str | None, expires: str, certificate: str | None,
             dried: str | None, opened: str | None = None) -> dict[str, Any]:

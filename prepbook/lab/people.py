@@ -10,6 +10,7 @@ from sqlalchemy import func, select
 from prepbook.errors import InvalidInput, Refused
 from prepbook.lab.common import acting, iso, lockout_after, signed, user_named, write
 from prepbook.lab.security import check_new_passphrase, hash_passphrase
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import ROLES, User
 
@@ -28,6 +29,7 @@ def user_count(db: Database) -> int:
         return int(s.scalar(select(func.count()).select_from(User)) or 0)
 
 
+@retry.on_conflict
 def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
              actor_passphrase: str | None) -> dict[str, Any]:
     """Add a user. The first user must be an admin; after that only an admin adds users."""
@@ -64,6 +66,7 @@ def list_users(db: Database) -> list[dict[str, Any]]:
         return [_user_dict(u, limit) for u in s.scalars(select(User).order_by(User.name))]
 
 
+@retry.on_conflict
 def _manage(db: Database, *, actor: str, name: str, passphrase: str | None, reason: str | None,
             action: str) -> dict[str, Any]:
     from prepbook.inputs import parse_text

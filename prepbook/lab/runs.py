@@ -40,6 +40,7 @@ from prepbook.lab.common import (
     signed,
     write,
 )
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Replicate, Review, Run
 
@@ -282,6 +283,7 @@ def _reference(s: Session, ref_batch: Batch, batch: Batch, performed_at: datetim
     return {"batch": ref_batch.code, "run": ref_run.code, "normality_20c": n20, "u": ref_run.u}
 
 
+@retry.on_conflict
 def standardize(
     db: Database,
     *,
@@ -391,6 +393,7 @@ def _conditions_of(run: Run) -> _Conditions:
         reference=payload.get("reference"))
 
 
+@retry.on_conflict
 def _revise(db: Database, *, actor: str, run: str, position: int, reason: str | None,
             passphrase: str | None, action: str, amount: str | None = None,
             volume: str | None = None, exclude: bool = False) -> dict[str, Any]:
@@ -495,6 +498,7 @@ def _review_precheck(s: Session, actor: str, run: str) -> Run:
     return r
 
 
+@retry.on_conflict
 def review(
     db: Database,
     *,

@@ -10,6 +10,7 @@ from sqlalchemy import select
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_text, utc_now
 from prepbook.lab.common import acting, iso, signed, write
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Setting
 
@@ -59,6 +60,7 @@ def show(db: Database) -> list[dict[str, Any]]:
     return out
 
 
+@retry.on_conflict
 def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | None,
               passphrase: str | None) -> dict[str, Any]:
     info = KNOWN.get(key)

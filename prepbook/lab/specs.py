@@ -12,6 +12,7 @@ from sqlalchemy import select
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_number, parse_text, utc_now
 from prepbook.lab.common import acting, write
+from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Spec
 
@@ -110,6 +111,7 @@ def list_specs(db: Database) -> list[dict[str, Any]]:
 _SPEC_CODE = re.compile(r"^[A-Za-z0-9()]+(-[A-Za-z0-9().]+)+$")
 
 
+@retry.on_conflict
 def add_spec(
     db: Database,
     *,
