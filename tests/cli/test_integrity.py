@@ -150,7 +150,7 @@ def test_a_correction_is_a_new_version_and_returns_the_run_to_review(bench: Cli)
                   "--passphrase-stdin", user="ben", input="ben-passphrase\n")
     assert row_counts(bench.db) == before
     res = bench.json("correct", run, "--replicate", "2", "--volume", "39.30", "--reason",
-                     "transcription error on the bench sheet", "--passphrase-stdin",
+                     "misread burette on the bench sheet", "--passphrase-stdin",
                      user="ben", input="ben-passphrase\n")
     assert res["previous_status"] == "accepted" and res["status"] == "awaiting-review"
     # Recomputed with the corrected reading (EURACHEM A2 model, molmass M):
@@ -162,7 +162,7 @@ def test_a_correction_is_a_new_version_and_returns_the_run_to_review(bench: Cli)
     second = [r for r in reps if r["position"] == 2]
     assert [(r["version"], r["volume_ml"], r["current"]) for r in second] == [
         (1, "39.29", False), (2, "39.30", True)]
-    assert second[1]["reason"] == "transcription error on the bench sheet"
+    assert second[1]["reason"] == "misread burette on the bench sheet"
     assert shown["state"] == "awaiting-review"
     # The person who corrected it may not be its reviewer either: cleo may.
     _accept(bench, run)
