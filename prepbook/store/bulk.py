@@ -88,6 +88,7 @@ class GroupedDatabase(Database):
         if self._open is not None:
             raise DatabaseError("groups do not nest")
         with self._write() as session, session.begin():
+            self.hold_writer_lock(session)
             self._open, self._spoiled = session, None
             session.info[IDS_KEY] = BulkIds(session)
             try:

@@ -3,7 +3,8 @@
 SQLite (the embedded default) runs in WAL mode with a busy timeout and foreign
 keys on, and every write transaction starts with ``BEGIN IMMEDIATE`` so two
 benches writing at once queue for the lock instead of deadlocking on a
-read-then-write upgrade. PostgreSQL URLs pass through unchanged.
+read-then-write upgrade. On PostgreSQL every write transaction first takes one
+transaction-scoped advisory lock, to the same effect.
 
 This module does not import Alembic: the schema revision is read with a plain
 query and compared with ``prepbook.store.migrate.HEAD_REVISION``.
@@ -139,6 +140,11 @@ def _refuse_bulk_writes(state: ORMExecuteState) -> None:
         raise IntegrityError("bulk UPDATE bypasses the audit trail; update rows one by one")
 
 
+# The advisory lock every PostgreSQL write transaction holds (any constant bigint;
+# this one spells "prepbook" in ASCII, truncated to 63 bits).
+WRITER_LOCK_KEY = int.from_bytes(b"prepbook", "big") & (2**63 - 1)
+
+
 class Database:
     """An open prepbook database: its URL, engine and transactional sessions."""
 
@@ -168,7 +174,21 @@ class Database:
         """
         factory = self._write if write else self._read
         with factory() as session, session.begin():
+            if write:
+                self.hold_writer_lock(session)
             yield session
+
+    def hold_writer_lock(self, session: Session) -> None:
+        """Make ``session``'s transaction the only writer until it ends.
+
+        SQLite: BEGIN IMMEDIATE (set on connect) already does this. PostgreSQL: a
+        transaction-scoped advisory lock taken before anything is read, so the next
+        code, the duplicate checks and the audit head are all read after the previous
+        writer has committed (READ COMMITTED sees each statement's latest commits).
+        PostgreSQL releases it itself at commit or rollback, crash included.
+        """
+        if self.engine.dialect.name == "postgresql":
+            session.execute(text("SELECT pg_advisory_xact_lock(:key)"), {"key": WRITER_LOCK_KEY})
 
     def dispose(self) -> None:
         """Close pooled connections (lets a test or a backup see a quiet file)."""

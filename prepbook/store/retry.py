@@ -6,12 +6,13 @@ writes a consistent record or refuses with its ordinary message.
 
 What counts as a collision (and nothing else does):
 
-- PostgreSQL ``unique_violation`` (SQLSTATE 23505). Two transactions under READ
-  COMMITTED can compute the same next code (``NaOH-0.1N-261130-3``, ``R261130-7``)
-  before either has committed; the second insert fails. On the rerun the code
-  counts the first bench's row and moves on. A unique violation that is a real
-  duplicate (the same lot code typed on two benches) is found by the service's
-  own check on the rerun and refused with its usual message.
+- PostgreSQL ``unique_violation`` (SQLSTATE 23505). Write transactions queue on
+  one advisory lock (``Database.hold_writer_lock``), so two of them should never
+  compute the same next code; a writer that does not take the lock (a script on
+  the same server) still could, and the rerun then counts the other row and moves
+  on. A unique violation that is a real duplicate (the same lot code typed on two
+  benches) is found by the service's own check on the rerun and refused with its
+  usual message.
 - PostgreSQL ``serialization_failure`` (40001) and ``deadlock_detected`` (40P01).
 - SQLite ``database is locked`` / ``busy`` once the busy timeout has run out.
 

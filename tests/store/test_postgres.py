@@ -170,3 +170,19 @@ def test_concurrent_writers_keep_one_chain(pg_url: str, tmp_path: Path) -> None:
         database.dispose()
     assert report.ok, report.problems
     assert report.events == 45
+
+
+def test_a_write_transaction_holds_the_writer_lock_until_it_ends(pg: Database) -> None:
+    # Two benches must not both read "the next code" before either commits: every
+    # write transaction queues on one advisory lock (the PostgreSQL counterpart of
+    # SQLite's BEGIN IMMEDIATE). Another connection cannot take it meanwhile.
+    from prepbook.store.engine import WRITER_LOCK_KEY
+
+    probe = "SELECT pg_try_advisory_xact_lock(:k)"
+    with pg.engine.connect() as other:
+        with pg.session() as _writing:
+            assert other.execute(text(probe), {"k": WRITER_LOCK_KEY}).scalar() is False
+            other.rollback()
+        with pg.session(write=False) as _reading:  # readers never queue
+            assert other.execute(text(probe), {"k": WRITER_LOCK_KEY}).scalar() is True
+            other.rollback()
