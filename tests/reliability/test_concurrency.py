@@ -4,9 +4,10 @@ Four processes (one per technician) are released together and each makes
 batches, standardizes them and uses the batch in service on one database.
 Afterwards every write a bench was told is recorded is there, no code was
 handed out twice, every run holds its three replicates and the audit chain
-verifies. SQLite serializes writers (WAL, BEGIN IMMEDIATE, busy timeout); on
-PostgreSQL two transactions can compute the same next code, and the loser is
-rerun by prepbook.store.retry instead of being lost.
+verifies. Writers queue: on SQLite with WAL, BEGIN IMMEDIATE and a busy timeout;
+on PostgreSQL on one transaction-scoped advisory lock, so two transactions never
+compute the same next code (prepbook.store.retry reruns a write that still
+collides rather than losing it).
 
 Bounded: 4 processes x 8 rounds x 3 writes, 120 s at most.
 """
