@@ -122,10 +122,21 @@ def test_tampering_is_found_on_postgres(pg: Database) -> None:
     assert any("batches #2 (code B-2) has no audit event" in p for p in problems)
 
 
-def test_same_row_gives_the_same_snapshot_as_on_sqlite(pg: Database, db: Database) -> None:
+@pytest.fixture
+def sqlite_db(tmp_path: Path) -> Iterator[Database]:
+    """A SQLite file at head, whatever backend the rest of this run uses."""
+    path = str(tmp_path / "side.sqlite3")
+    migrate.upgrade(path)
+    database = open_database(path)
+    assert database.is_sqlite
+    yield database
+    database.dispose()
+
+
+def test_same_row_gives_the_same_snapshot_as_on_sqlite(pg: Database, sqlite_db: Database) -> None:
     made = datetime(2030, 5, 6, 7, 8, 9, 123456)
     seen = []
-    for database in (pg, db):
+    for database in (pg, sqlite_db):
         with database.session() as session:
             add_batch(session, "B-1", made_at=made)
         with database.session(write=False) as session:
