@@ -429,7 +429,6 @@ class _History:
 
     # -- one working day ---------------------------------------------------------------
     def day(self, day: datetime) -> None:
-        last = day.date() >= self.today.date()
         for line, kind in enumerate(self.kinds):
             for slot in range(kind.count):
                 b = self.lines[line][slot]
@@ -445,7 +444,7 @@ class _History:
                 if b.last_accepted is None or \
                         (day.date() - b.last_accepted).days >= kind.cadence_days:
                     self.standardize(b, day.replace(hour=9, minute=self.rng.randrange(60)))
-                if b.last_accepted is None or last:
+                if b.last_accepted is None:
                     continue
                 n = int(kind.uses_per_day) + (self.rng.random() < kind.uses_per_day % 1)
                 for _ in range(n):
@@ -487,13 +486,15 @@ def build_history(path: Path, *, years: float, replace: bool = False, scale: flo
                                 actor_passphrase=_passphrase(_ADMIN))
         sim = _History(db, years, scale, seed)
         day = sim.start.replace(hour=0)
-        while day.date() <= sim.today.date():
+        # Through yesterday: every event of a simulated day is then in the past, whatever
+        # the hour the history is built at.
+        while day.date() < sim.today.date():
             week_end = day + timedelta(days=7)
             with db.group():
                 if sim.period_year is None or day >= datetime(sim.period_year + 1,
                                                               sim.start.month, 1):
                     sim.new_period(day)
-                while day < week_end and day.date() <= sim.today.date():
+                while day < week_end and day.date() < sim.today.date():
                     if day.weekday() < 5:
                         sim.day(day)
                     day += timedelta(days=1)

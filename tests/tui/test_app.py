@@ -20,18 +20,29 @@ from tests.conftest import row_counts
 pytest.importorskip("textual")
 
 SIZE = (140, 45)
-DUE_NAOH = "NaOH-0.1N-260912-1"  # the demo's NaOH batch due for restandardization
 # Three invented KHP replicates near 0.0996 N (mass g : titrant mL), as typed at a bench.
 READINGS = [("0.8215", "40.41"), ("0.8302", "40.83"), ("0.8177", "40.22")]
 
 
 @pytest.fixture(scope="module")
-def demo_db(tmp_path_factory: pytest.TempPathFactory) -> Path:
+def demo_lab(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, str]:
     from prepbook.lab import demo
 
     path = tmp_path_factory.mktemp("demo") / "d.db"
-    demo.build(path)
-    return path
+    story = demo.build(path)
+    return path, story["example_batch"]
+
+
+@pytest.fixture(scope="module")
+def demo_db(demo_lab: tuple[Path, str]) -> Path:
+    return demo_lab[0]
+
+
+@pytest.fixture(scope="module")
+def due_naoh(demo_lab: tuple[Path, str]) -> str:
+    """The demo's NaOH batch due for restandardization (its code carries the date it
+    was made, counted back from today, so it is read from the demo, never typed)."""
+    return demo_lab[1]
 
 
 @pytest.fixture
@@ -102,7 +113,7 @@ async def test_board_shows_every_demo_batch_and_filters_by_code(lab: Path) -> No
 
 @pytest.mark.asyncio
 async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
-        lab: Path) -> None:
+        lab: Path, due_naoh: str) -> None:
     from prepbook.lab import runs
     from prepbook.store.engine import open_database
 
@@ -110,7 +121,7 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         table = app.screen.query_one("#board")
-        table.move_cursor(row=table.get_row_index(DUE_NAOH))
+        table.move_cursor(row=table.get_row_index(due_naoh))
         await pilot.press("s")
         await pilot.pause()
         for i, (mass, volume) in enumerate(READINGS, start=1):
@@ -125,10 +136,10 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
         assert code is not None and code in shown(form.query_one("#live"))
         await pilot.press("escape")
         await pilot.pause()
-        assert "to review" in board_states(app)[DUE_NAOH]
+        assert "to review" in board_states(app)[due_naoh]
 
     queued = {r["run"]: r for r in runs.runs_awaiting_review(open_database(str(lab)))}
-    assert queued[code]["analyst"] == "ines" and queued[code]["batch"] == DUE_NAOH
+    assert queued[code]["analyst"] == "ines" and queued[code]["batch"] == due_naoh
 
     app = make_app(lab, "priya")
     async with app.run_test(size=SIZE) as pilot:
@@ -161,18 +172,18 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
         assert "accepted" in shown(app.screen.query_one("#message"))
         await pilot.press("escape")
         await pilot.pause()
-        assert "in service" in board_states(app)[DUE_NAOH]
+        assert "in service" in board_states(app)[due_naoh]
 
 
 @pytest.mark.asyncio
 async def test_malformed_reading_is_refused_with_a_message_and_nothing_written(
-        lab: Path) -> None:
+        lab: Path, due_naoh: str) -> None:
     app = make_app(lab, "ines")
     before = row_counts(lab)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         table = app.screen.query_one("#board")
-        table.move_cursor(row=table.get_row_index(DUE_NAOH))
+        table.move_cursor(row=table.get_row_index(due_naoh))
         await pilot.press("s")
         await pilot.pause()
         await type_into(pilot, "m1", "0.82,15")

@@ -8,17 +8,20 @@ import pytest
 
 
 @pytest.fixture
-def db(tmp_path: Path):
+def built(tmp_path: Path):
     from prepbook.lab import demo
     from prepbook.store.engine import open_database
 
-    demo.build(tmp_path / "d.db")
-    return open_database(str(tmp_path / "d.db"))
+    story = demo.build(tmp_path / "d.db")
+    # The demo's NaOH batch due for restandardization (its code carries the date it
+    # was made, counted back from today, so it is read from the demo, never typed).
+    return open_database(str(tmp_path / "d.db")), story["example_batch"]
 
 
-def test_head_moves_with_every_write_and_batch_events_are_its_history(db) -> None:
+def test_head_moves_with_every_write_and_batch_events_are_its_history(built) -> None:
     from prepbook.lab import auditing, batches, watch
 
+    db, due_naoh = built
     head = watch.head_seq(db)
     assert head == auditing.log(db, limit=1)[0]["seq"]
     made = batches.make_batch(db, actor="ines", spec="NaOH-0.1N", volume="1000",
@@ -26,8 +29,8 @@ def test_head_moves_with_every_write_and_batch_events_are_its_history(db) -> Non
     assert watch.head_seq(db) == head + 1
     events = watch.batch_events(db, made["batch"])
     assert [e["action"] for e in events] == ["batch.make"]
-    naoh = watch.batch_events(db, "NaOH-0.1N-260912-1")
-    runs = batches.show_batch(db, "NaOH-0.1N-260912-1")["runs"]
+    naoh = watch.batch_events(db, due_naoh)
+    runs = batches.show_batch(db, due_naoh)["runs"]
     # one event per run recorded, per replicate, per review and per status change
     assert sum(e["action"] == "run.record" for e in naoh) == len(runs)
     assert sum(e["action"] == "replicate.record" for e in naoh) == sum(
@@ -35,10 +38,10 @@ def test_head_moves_with_every_write_and_batch_events_are_its_history(db) -> Non
     assert [e["seq"] for e in naoh] == sorted(e["seq"] for e in naoh)
 
 
-def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(db) -> None:
+def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(built) -> None:
     from prepbook.lab import batches, specs, watch
 
-    code = "NaOH-0.1N-260912-1"
+    db, code = built
     t = watch.batch_trend(db, code)
     shown = batches.show_batch(db, code)
     assert [p["factor"] for p in t["points"]] == [r["factor"] for r in shown["runs"]]
