@@ -1,6 +1,8 @@
 """`prepbook --help` and `prepbook calc normality` stay light: they import no database,
-migration, table or PDF library (their speed is measured by tests/benchmarks/bench.py;
-this checks the imports, not the time)."""
+migration, table or PDF library, no Rich and no pydantic; `--help` imports no command
+module, and `calc normality` takes the standard's molar mass from the precomputed table
+instead of importing periodictable (their speed is measured by
+tests/benchmarks/bench.py; this checks the imports, not the time)."""
 
 from __future__ import annotations
 
@@ -10,7 +12,11 @@ import sys
 
 import pytest
 
-HEAVY = ("sqlalchemy", "alembic", "pandas", "reportlab")
+HEAVY = ("sqlalchemy", "alembic", "pandas", "reportlab",
+         # Typer 0.29 imports pydantic to convert every parameter: pyproject keeps it below.
+         "pydantic",
+         # Plain-text help (rich_markup_mode=None) and JSON output draw nothing.
+         "rich")
 
 # Run the real entry point in a fresh interpreter and report what it imported.
 _WRAPPER = r"""
@@ -53,3 +59,27 @@ def test_the_check_sees_a_heavy_import() -> None:
     # check above could never fail.
     loaded, _ = _run(["--db", "/nonexistent/prepbook-test.db", "status"])
     assert "sqlalchemy" in loaded
+
+
+def test_help_imports_no_command_module_and_no_catalog() -> None:
+    loaded, out = _run(["--help"])
+    assert "calc" in out and "batch" in out  # the listing is there, from the static table
+    prepbook = sorted(m for m in loaded if m.startswith("prepbook"))
+    assert prepbook == ["prepbook", "prepbook.cli", "prepbook.cli.app", "prepbook.cli.context",
+                        "prepbook.errors"]
+
+
+def test_calc_normality_imports_only_its_own_command_module_and_no_periodictable() -> None:
+    loaded, out = _run(["calc", "normality", "--standard", "KHP", "--titrant", "NaOH",
+                        "--rep", "0.8123:39.80", "--json"])
+    assert json.loads(out)["standard"]["molar_mass_g_per_mol"] > 0
+    commands = sorted(m for m in loaded if m.startswith("prepbook.cli."))
+    assert commands == ["prepbook.cli.app", "prepbook.cli.calc", "prepbook.cli.context",
+                        "prepbook.cli.output"]
+    assert not {"periodictable", "pyparsing"} & {m.split(".")[0] for m in loaded}
+
+
+def test_the_check_sees_a_command_module() -> None:
+    # Running a group's command loads that group's module (or the checks above prove nothing).
+    loaded, _ = _run(["--db", "/nonexistent/prepbook-test.db", "lot", "list"])
+    assert "prepbook.cli.lots" in loaded

@@ -7,8 +7,11 @@ touching code; this module only parses, validates and indexes it.
 Why it is written this way:
 
 - Standard library only (``tomllib``) and nothing heavy at import time, because the
-  command line imports the catalog for fast commands. ``periodictable`` is imported
-  only while validating, the first time the data is loaded.
+  command line imports the catalog for fast commands. A formula is valid when
+  ``prepbook.chem.formula.molar_mass`` gives it a mass: the packaged formulas come from
+  its precomputed table (``data/molar_masses.toml``), so loading the packaged data
+  imports no periodictable; any formula not in the table (a local edit, a test's
+  altered copy) is parsed by periodictable.
 - The parsed catalog is cached (``functools.cache``): the files are read once per process.
 - Loading validates everything (formulas parse, n > 0, ranges ordered, every reference
   between files resolves, every default names its source) and refuses the whole catalog
@@ -23,7 +26,7 @@ from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, fields
 from typing import TYPE_CHECKING, Any
 
-from prepbook.errors import NotFound, PrepbookError
+from prepbook.errors import InvalidInput, NotFound, PrepbookError
 
 if TYPE_CHECKING:
     from pathlib import Path
@@ -773,12 +776,13 @@ def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:
 
 
 def _formula_problem(formula: str) -> str | None:
-    """None if periodictable parses ``formula`` to a positive mass, else the reason."""
-    import periodictable  # heavy: only while validating
+    """None if ``formula`` has a positive molar mass, as computed for every use of it
+    (precomputed table or periodictable), else the reason."""
+    from prepbook.chem.formula import molar_mass  # light: periodictable only off the table
 
     try:
-        mass = periodictable.formula(formula).mass
-    except Exception as exc:  # periodictable raises ValueError and pyparsing errors
+        mass = molar_mass(formula).value_g_per_mol
+    except InvalidInput as exc:
         return f"does not parse ({exc})"
     if not mass > 0:
         return "has no mass"
@@ -1003,10 +1007,11 @@ def _check_spec(s: SpecDefaults, cat: Catalog) -> list[str]:
 def check_catalog(cat: Catalog) -> tuple[str, ...]:
     """Every consistency problem in ``cat`` (empty when the catalog is sound).
 
-    Checks: formulas parse with periodictable; n > 0; kinds, roles, units known; pKa and
-    pH ranges ordered; factor window around 1; lookups unambiguous; every reference from
-    a reaction or spec to a material, reagent, indicator or spec resolves; every default
-    names its source; reagent and spec cautions defer to the safety data sheet.
+    Checks: formulas have a molar mass (``chem.formula``); n > 0; kinds, roles, units
+    known; pKa and pH ranges ordered; factor window around 1; lookups unambiguous; every
+    reference from a reaction or spec to a material, reagent, indicator or spec resolves;
+    every default names its source; reagent and spec cautions defer to the safety data
+    sheet.
     """
     out: list[str] = []
     for what, items, keys in (

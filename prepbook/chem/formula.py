@@ -16,6 +16,13 @@ Hydrates may be written with any of the separators "·", "•", "⋅", ".", "*" 
 each part optionally led by an integer multiplier: "Na2B4O7·10H2O", "CuSO4.5H2O".
 A "." is always a hydrate separator here, never a decimal point: fractional atom
 counts are refused.
+
+The formulas of the packaged catalog are looked up in a table computed beforehand by
+this module from periodictable (``prepbook/catalog/data/molar_masses.toml``, written by
+``python -m prepbook.catalog.refresh``), so a command that only needs them does not
+import periodictable and its parser. The table holds exactly what the live computation
+gives; ``tests/catalog/test_molar_mass_table.py`` recomputes it and fails on any
+difference. Every other formula is computed live.
 """
 
 from __future__ import annotations
@@ -25,11 +32,15 @@ import math
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from pathlib import Path
 
 from prepbook.errors import InvalidInput
 
 ATOMIC_WEIGHTS_EDITION = "CIAAW 2021 abridged standard atomic weights (via periodictable)"
 HYDRATE_SEPARATORS = ("·", "•", "⋅", ".", "*", "+")
+
+#: The precomputed molar masses: package data of prepbook.catalog, read as a plain file.
+PRECOMPUTED = Path(__file__).parents[1] / "catalog" / "data" / "molar_masses.toml"
 
 _SEPARATOR_RE = re.compile("[" + re.escape("".join(HYDRATE_SEPARATORS)) + "]")
 _MULTIPLIER_RE = re.compile(r"^(\d+)\s*(.*)$", re.DOTALL)
@@ -121,12 +132,40 @@ def _parse_part(part: str, whole: str) -> tuple[int, dict[str, int]]:
 def molar_mass(formula: str) -> MolarMass:
     """Molar mass of a formula (hydrates included) with CIAAW 2021 atomic weights.
 
-    Results are kept per formula text (the value is frozen and depends on nothing
-    else), so a service computing many runs parses each formula once.
+    A formula of the packaged catalog, written exactly as there, comes from the
+    precomputed table; any other is computed from periodictable. Results are kept per
+    formula text (the value is frozen and depends on nothing else), so a service
+    computing many runs parses each formula once.
     """
     if isinstance(formula, str):
-        return _molar_mass_memo(formula)
+        known = precomputed().get(formula)
+        return known if known is not None else _molar_mass_memo(formula)
     return _molar_mass(formula)
+
+
+def molar_mass_live(formula: str) -> MolarMass:
+    """Molar mass computed from periodictable now, never taken from the table: what the
+    table is generated from and checked against."""
+    return _molar_mass(formula)
+
+
+@functools.cache
+def precomputed() -> Mapping[str, MolarMass]:
+    """The precomputed table: formula text -> MolarMass (read once per process)."""
+    import tomllib
+    from types import MappingProxyType
+
+    text = PRECOMPUTED.read_text(encoding="utf-8")
+    return MappingProxyType({
+        row["formula"]: MolarMass(
+            formula=row["formula"],
+            hill=row["hill"],
+            value_g_per_mol=float(row["value_g_per_mol"]),
+            u_g_per_mol=float(row["u_g_per_mol"]),
+            atoms=tuple((str(symbol), int(count)) for symbol, count in row["atoms"]),
+        )
+        for row in tomllib.loads(text)["molar_mass"]
+    })
 
 
 @functools.lru_cache(maxsize=512)

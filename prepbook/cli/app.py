@@ -1,20 +1,146 @@
 """The root Typer app: global options, the command groups, and the one place
-where a ``PrepbookError`` becomes a message on stderr and an exit status."""
+where a ``PrepbookError`` becomes a message on stderr and an exit status.
+
+The root is lazy. ``COMMANDS`` names every command and group with the module that
+defines it and its short help; a command module is imported, and Typer converts its
+commands, only when that command is invoked (or its own ``--help`` is asked for).
+``prepbook --help`` lists the table's short help and imports none of the modules.
+``tests/cli/test_lazy_root.py`` checks the table against the real commands, so it
+cannot drift from them.
+"""
 
 from __future__ import annotations
 
+import importlib
 import sys
-from typing import Any
+from collections.abc import Iterator, Mapping
+from typing import Any, NamedTuple
 
 import typer
-from typer.core import TyperGroup
+from typer.core import TyperCommand, TyperGroup
 
 from prepbook.cli.context import DEFAULT_DB, Invocation, current_user
 from prepbook.errors import PrepbookError
 
 
+class Entry(NamedTuple):
+    """One command of the root: where it is defined, and its short help as listed."""
+
+    name: str
+    module: str  # under prepbook.cli
+    attribute: str  # a function (a command) or a typer.Typer (a group)
+    group: bool
+    short_help: str
+
+
+# In the order `prepbook --help` lists them (commands, then groups, as Typer adds them).
+COMMANDS: tuple[Entry, ...] = (
+    Entry("init", "setup", "init", False,
+          "Create or upgrade the database and load the built-in catalog (safe to repeat)."),
+    Entry("demo", "demo", "demo", False,
+          "Build the demo lab (an invented scenario) in a fresh database and print its board."),
+    Entry("standardize", "standardize", "standardize", False,
+          "Standardize a batch against a primary-standard lot or a standardized batch."),
+    Entry("review", "review", "review", False,
+          "Accept or reject a run awaiting review, signed with your passphrase."),
+    Entry("correct", "corrections", "correct", False,
+          "Correct one replicate (signed): a new version, the run recomputed and back to "
+          "review."),
+    Entry("exclude", "corrections", "exclude", False,
+          "Exclude one replicate (signed, with a reason); the run is recomputed and reviewed "
+          "again."),
+    Entry("status", "board", "status", False,
+          "The board: every batch not retired, the ones needing action first."),
+    Entry("trend", "history", "trend", False,
+          "Accepted history of a batch, its drift, slope and when it will leave its window."),
+    Entry("trace", "history", "trace", False,
+          "The chain upward (lots, certificates, stock, instruments) and downward "
+          "(dilutions, uses)."),
+    Entry("use", "batches", "use", False,
+          "Record a use of a batch in service (kept so a bad batch's impact can be traced)."),
+    Entry("label", "labels", "label", False,
+          "Print a bottle label as PDF (recorded), or list outdated labels with --stale."),
+    Entry("report", "report", "report", False,
+          "Write a batch's traceability report: preparation, every standardization, chart, "
+          "reviews, corrections, uses, labels and the audit chain's head hash."),
+    Entry("export", "exports", "export", False,
+          "Export one table (units in the column names, ISO 8601 dates, formulas made "
+          "inert)."),
+    Entry("tui", "tui", "tui", False,
+          "Open the full-screen app: board, batches, recording, review desk and audit trail."),
+    Entry("backup", "maintenance", "backup", False,
+          "Copy a SQLite database consistently, even while it is in use (on PostgreSQL: says "
+          "how to use pg_dump)."),
+    Entry("user", "users", "app", True, "Add and list users (technician, reviewer, admin)."),
+    Entry("lot", "lots", "app", True, "Add and list primary-standard lots."),
+    Entry("instrument", "instruments", "app", True,
+          "Add and list instruments and their calibration."),
+    Entry("spec", "specs", "app", True, "List solution specs and add the lab's own."),
+    Entry("batch", "batches", "app", True, "Make batches and show their history."),
+    Entry("audit", "audit", "app", True, "Read and verify the audit trail."),
+    Entry("settings", "settings", "app", True,
+          "Show and change lab-wide settings (`prepbook settings` shows them)."),
+    Entry("calc", "calc", "app", True,
+          "Compute without a database: normality, preparation, corrections, curves."),
+)
+
+
+def load(entry: Entry) -> Any:
+    """The Click command for ``entry``, converted by Typer exactly as ``app.command(name)``
+    or ``app.add_typer(..., name=name)`` on the root would convert it."""
+    target = getattr(importlib.import_module(f"prepbook.cli.{entry.module}"), entry.attribute)
+    holder = typer.Typer(rich_markup_mode=app.rich_markup_mode, add_completion=False,
+                         pretty_exceptions_short=app.pretty_exceptions_short)
+    if entry.group:
+        holder.add_typer(target, name=entry.name)
+        return typer.main.get_command(holder).commands[entry.name]  # type: ignore[attr-defined]
+    holder.command(entry.name)(target)
+    return typer.main.get_command(holder)
+
+
+class _LazyCommands(Mapping[str, Any]):
+    """The root's name -> command mapping: names from ``COMMANDS``, each command loaded
+    on first access. Membership, order and ``len`` need no import. Read-only: a new
+    command goes into ``COMMANDS``."""
+
+    def __init__(self, entries: tuple[Entry, ...]) -> None:
+        self._entries = {e.name: e for e in entries}
+        self._loaded: dict[str, Any] = {}
+
+    def __getitem__(self, name: str) -> Any:
+        if name not in self._loaded:
+            self._loaded[name] = load(self._entries[name])  # KeyError: no such command
+        return self._loaded[name]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._entries)
+
+    def __len__(self) -> int:
+        return len(self._entries)
+
+    def __contains__(self, name: object) -> bool:
+        return name in self._entries
+
+
 class _Root(TyperGroup):
-    """Root group that turns prepbook's own errors into exit status 1."""
+    """Root group: commands loaded on demand, and prepbook's own errors turned into
+    exit status 1."""
+
+    def __init__(self, **attrs: Any) -> None:
+        super().__init__(**attrs)
+        self.commands = _LazyCommands(COMMANDS)
+
+    def list_commands(self, ctx: Any) -> list[str]:
+        return list(self.commands)  # the names alone: TyperGroup's would load every command
+
+    def format_commands(self, ctx: Any, formatter: Any) -> None:
+        # The listing shows each command's short help: take it from the table, through
+        # stand-ins that shorten it to the width exactly as the real commands would.
+        stand_ins = {e.name: TyperCommand(name=e.name, help=e.short_help) for e in COMMANDS}
+        limit = formatter.width - 6 - max(len(name) for name in stand_ins)
+        rows = [(name, cmd.get_short_help_str(limit)) for name, cmd in stand_ins.items()]
+        with formatter.section("Commands"):
+            formatter.write_dl(rows)
 
     def invoke(self, ctx: Any) -> Any:
         try:
@@ -26,6 +152,8 @@ class _Root(TyperGroup):
 
 
 app = typer.Typer(
+    # No Rich markup: help is plain text, and Typer never imports its Rich helpers.
+    rich_markup_mode=None,
     cls=_Root,
     name="prepbook",
     help=(
@@ -57,56 +185,3 @@ def _root(
     ),
 ) -> None:
     ctx.obj = Invocation(db=db or DEFAULT_DB, user=user or current_user())
-
-
-def _register() -> None:
-    # Each group's module imports only Typer at start-up; its work is imported lazily.
-    from prepbook.cli import (
-        audit,
-        batches,
-        board,
-        calc,
-        corrections,
-        demo,
-        exports,
-        history,
-        instruments,
-        labels,
-        lots,
-        maintenance,
-        report,
-        review,
-        settings,
-        setup,
-        specs,
-        standardize,
-        tui,
-        users,
-    )
-
-    app.command("init")(setup.init)
-    app.command("demo")(demo.demo)
-    app.add_typer(users.app, name="user")
-    app.add_typer(lots.app, name="lot")
-    app.add_typer(instruments.app, name="instrument")
-    app.add_typer(specs.app, name="spec")
-    app.add_typer(batches.app, name="batch")
-    app.command("standardize")(standardize.standardize)
-    app.command("review")(review.review)
-    app.command("correct")(corrections.correct)
-    app.command("exclude")(corrections.exclude)
-    app.command("status")(board.status)
-    app.command("trend")(history.trend)
-    app.command("trace")(history.trace)
-    app.add_typer(audit.app, name="audit")
-    app.add_typer(settings.app, name="settings")
-    app.command("use")(batches.use)
-    app.add_typer(calc.app, name="calc")
-    app.command("label")(labels.label)
-    app.command("report")(report.report)
-    app.command("export")(exports.export)
-    app.command("tui")(tui.tui)
-    app.command("backup")(maintenance.backup)
-
-
-_register()

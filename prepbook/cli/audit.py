@@ -7,7 +7,11 @@ import typer
 from prepbook.cli import output
 from prepbook.cli.session import database
 
-app = typer.Typer(help="Read and verify the audit trail.", no_args_is_help=True)
+app = typer.Typer(
+    help="Read and verify the audit trail.",
+    no_args_is_help=True,
+    rich_markup_mode=None,
+)
 
 
 @app.command("log")

@@ -9,7 +9,11 @@ import typer
 from prepbook.cli import output
 from prepbook.cli.session import actor, database
 
-app = typer.Typer(help="Make batches and show their history.", no_args_is_help=True)
+app = typer.Typer(
+    help="Make batches and show their history.",
+    no_args_is_help=True,
+    rich_markup_mode=None,
+)
 
 
 @app.command("make")

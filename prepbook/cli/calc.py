@@ -15,6 +15,7 @@ from prepbook.cli import output
 from prepbook.errors import InvalidInput
 
 app = typer.Typer(
+    rich_markup_mode=None,
     help="Compute without a database: normality, preparation, corrections, curves.",
     no_args_is_help=True,
 )

@@ -7,8 +7,11 @@ import typer
 from prepbook.cli import output
 from prepbook.cli.session import Passphrases, actor, database
 
-app = typer.Typer(help="Show and change lab-wide settings (`prepbook settings` shows them).",
-                  invoke_without_command=True)
+app = typer.Typer(
+    help="Show and change lab-wide settings (`prepbook settings` shows them).",
+    invoke_without_command=True,
+    rich_markup_mode=None,
+)
 
 
 @app.callback()

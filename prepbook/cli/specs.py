@@ -7,7 +7,11 @@ import typer
 from prepbook.cli import output
 from prepbook.cli.session import actor, database
 
-app = typer.Typer(help="List solution specs and add the lab's own.", no_args_is_help=True)
+app = typer.Typer(
+    help="List solution specs and add the lab's own.",
+    no_args_is_help=True,
+    rich_markup_mode=None,
+)
 
 
 @app.command("list")

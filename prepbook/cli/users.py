@@ -7,7 +7,11 @@ import typer
 from prepbook.cli import output
 from prepbook.cli.session import Passphrases, actor, database
 
-app = typer.Typer(help="Add and list users (technician, reviewer, admin).", no_args_is_help=True)
+app = typer.Typer(
+    help="Add and list users (technician, reviewer, admin).",
+    no_args_is_help=True,
+    rich_markup_mode=None,
+)
 
 
 @app.command("add")
