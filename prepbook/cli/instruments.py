@@ -8,7 +8,7 @@ from prepbook.cli import output
 from prepbook.cli.session import actor, database
 
 app = typer.Typer(
-    help="Add and list instruments and their calibration.",
+    help="Add and list instruments and record their calibration.",
     no_args_is_help=True,
     rich_markup_mode=None,
 )
@@ -56,3 +56,30 @@ def list_(ctx: typer.Context,
         "Instruments", ["code", "kind", "capacity", "tolerance", "readability", "due"],
         [(r["code"], r["kind"], r["capacity"], r["tolerance"], r["readability"],
           r["due"] + (" (overdue)" if r["overdue"] else "")) for r in rows]))
+
+
+@app.command("calibrate")
+def calibrate(
+    ctx: typer.Context,
+    code: str = typer.Argument(..., help="Instrument code, as on its tag."),
+    calibrated: str = typer.Option(
+        ..., "--calibrated", help="When it was calibrated, YYYY-MM-DD (not in the future)."
+    ),
+    due: str = typer.Option(..., "--due", help="Next calibration due date, YYYY-MM-DD."),
+    certificate: str = typer.Option(
+        None, "--certificate", help="The calibration certificate's number or reference."
+    ),
+    as_json: bool = typer.Option(False, "--json", help="Print the instrument as JSON."),
+) -> None:
+    """Record a recalibration: the new due date (the old one stays in the audit trail)."""
+    from prepbook.lab import instruments
+
+    ins = instruments.calibrate_instrument(database(ctx), actor=actor(ctx), code=code,
+                                           calibrated=calibrated, due=due,
+                                           certificate=certificate)
+    if as_json:
+        output.emit_json(ins)
+        return
+    output.console().print(
+        f"{ins['kind']} [bold]{ins['code']}[/bold] calibrated {ins['calibrated']}, "
+        f"now due {ins['due']} (was due {ins['previous_due']})")

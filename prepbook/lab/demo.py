@@ -136,7 +136,7 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
 # drawn from a seeded random generator around a "true" strength that drifts the way
 # each titrant does (sodium hydroxide takes up carbon dioxide, thiosulfate decays,
 # permanganate settles after preparation). Instruments have one code per yearly
-# calibration period (the record has no recalibration yet).
+# calibration period, so each year's instruments stay apart in the record.
 #
 # Speed: the service calls of one simulated week share one transaction
 # (``store.bulk.GroupedDatabase``); each write keeps its own audit event.

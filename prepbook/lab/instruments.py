@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-from datetime import date
+from datetime import date, datetime
 from typing import Any
 
 from sqlalchemy import select
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_code, parse_date, parse_number, utc_now
-from prepbook.lab.common import acting, iso, write
+from prepbook.inputs import parse_code, parse_date, parse_number, parse_text, utc_now
+from prepbook.lab.common import acting, by_code, iso, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import INSTRUMENT_KINDS, Instrument
@@ -70,3 +70,38 @@ def list_instruments(db: Database) -> list[dict[str, Any]]:
     with db.session(write=False) as s:
         return [instrument_dict(i, today)
                 for i in s.scalars(select(Instrument).order_by(Instrument.kind, Instrument.code))]
+
+
+@retry.on_conflict
+def calibrate_instrument(db: Database, *, actor: str, code: str, calibrated: str, due: str,
+                         certificate: str | None = None) -> dict[str, Any]:
+    """Record a recalibration: the instrument's new due date, with when and on what
+    certificate it was calibrated. The earlier due date stays in the audit trail."""
+    on = parse_date(calibrated, "calibration date")
+    due_d = parse_date(due, "next calibration due date")
+    certificate = parse_text(certificate, "certificate", max_len=200)
+    today = utc_now().date()
+    if on > today:
+        raise InvalidInput(f"the calibration date {on.isoformat()} is in the future")
+    if due_d <= on:
+        raise InvalidInput(f"the new due date {due_d.isoformat()} must be after the "
+                           f"calibration ({on.isoformat()})")
+    with db.session() as s:
+        user = acting(s, actor, doing="record calibrations")
+        ins = by_code(s, Instrument, code, "instrument")
+        if on < ins.created_at.date():
+            raise InvalidInput(f"instrument {ins.code} was added on "
+                               f"{ins.created_at.date().isoformat()}; the calibration "
+                               "cannot be earlier")
+        if due_d == ins.due:
+            raise Refused(f"instrument {ins.code} is already due {due_d.isoformat()}; "
+                          "nothing to record")
+        previous = ins.due
+        ins.due = due_d
+        where = f", certificate {certificate}" if certificate else ""
+        write(s, user.name, "instrument.calibrate", ins,
+              reason=f"calibrated {on.isoformat()}{where}; was due {previous.isoformat()}",
+              performed_at=datetime.combine(on, datetime.min.time()))
+        return instrument_dict(ins, today) | {"calibrated": on.isoformat(),
+                                              "certificate": certificate,
+                                              "previous_due": previous.isoformat()}

@@ -151,6 +151,8 @@ class Instrument(Base):
 
     __tablename__ = "instruments"
     __table_args__ = (CheckConstraint(_one_of("kind", INSTRUMENT_KINDS), name="kind"),)
+    # A recalibration moves the due date; the audit trail keeps every earlier one.
+    __updatable__ = frozenset({"due"})
 
     id: Mapped[int] = mapped_column(primary_key=True)
     code: Mapped[str] = mapped_column(unique=True)
