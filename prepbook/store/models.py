@@ -8,12 +8,17 @@ see ``prepbook.store.engine``), and every write carries an audit event
 (``prepbook.store.audit``).
 
 ``snapshot(row)`` turns a row into the canonical, JSON-safe dict the audit trail
-stores, the same on SQLite and PostgreSQL.
+stores, the same on SQLite and PostgreSQL. A column marked
+``info={"audit": "digest"}`` (a large text derived from the rest of the record,
+such as a run's computed result) enters the snapshot as its fingerprint
+``sha256:<hex>`` instead of in full; see ``fingerprint``.
 """
 
 from __future__ import annotations
 
+import hashlib
 import math
+import re
 from collections.abc import Callable, Mapping
 from datetime import UTC, date, datetime
 from decimal import Decimal
@@ -253,7 +258,9 @@ class Run(Base):
     u: Mapped[float | None]
     U: Mapped[float | None] = mapped_column("expanded_u")  # noqa: N815 (the trade's symbol)
     k: Mapped[float | None]
-    result_json: Mapped[str | None] = mapped_column(Text)
+    # Derived from the inputs above (verdict, checks, budget; ~3.5 KB of JSON): the
+    # audit trail keeps its fingerprint, the masses, volumes and result in full.
+    result_json: Mapped[str | None] = mapped_column(Text, info={"audit": "digest"})
 
     batch: Mapped[Batch] = relationship(back_populates="runs", foreign_keys=[batch_id])
     lot: Mapped[Lot | None] = relationship()
@@ -467,13 +474,81 @@ def canonical_value(column_type: Any, value: Any) -> Any:
     return None if value is None else _converter(column_type)(value)
 
 
+FINGERPRINT_PREFIX = "sha256:"
+_FINGERPRINT = re.compile(r"sha256:[0-9a-f]{64}")
+
+
+def fingerprint(value: Any) -> str:
+    """``sha256:<hex>`` of a text column's UTF-8 text: what the snapshot holds for it.
+
+    Any change to the text changes the fingerprint, so the row check of ``audit
+    verify`` still finds an edit to a digested column.
+    """
+    text = value if type(value) is str else str(value)
+    return FINGERPRINT_PREFIX + hashlib.sha256(text.encode()).hexdigest()
+
+
+def is_fingerprint(value: Any) -> bool:
+    """Whether a snapshot value has the exact shape ``fingerprint`` writes."""
+    return type(value) is str and _FINGERPRINT.fullmatch(value) is not None
+
+
+def audited_in_digest(column: Any) -> bool:
+    """Whether the audit snapshot holds this column as its fingerprint."""
+    return bool(column.info.get("audit") == "digest")
+
+
+@cache
+def digested_columns(table: Table) -> tuple[str, ...]:
+    """The names of ``table``'s columns that the snapshot holds as fingerprints, sorted."""
+    return tuple(sorted(c.name for c in table.columns if audited_in_digest(c)))
+
+
+def legacy_to_digest(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
+    """A snapshot written before a column was digested, in today's form.
+
+    Events recorded before ``fingerprint`` existed hold the full text of a digested
+    column; that text is replaced by its fingerprint (a value already shaped like
+    one is taken as one), so the old snapshot compares with a row read today. The
+    event itself is never rewritten: its hash is over the text it stores.
+    """
+    names = digested_columns(table)
+    if not names:
+        return audited
+    out = dict(audited)
+    for name in names:
+        value = out.get(name)
+        if isinstance(value, str) and not is_fingerprint(value):
+            out[name] = fingerprint(value)
+    return out
+
+
+def passthrough_type(column: Any) -> type | None:
+    """The type a driver value of this column already has when it is canonical.
+
+    Text read as ``str`` and integers read as ``int`` need no canonicaliser (the hot
+    path of ``audit verify``); None when every value goes through it.
+    """
+    convert = _column_converter(column)
+    if convert is _text:
+        return str
+    if convert is int:
+        return int
+    return None
+
+
+def _column_converter(column: Any) -> Callable[[Any], Any]:
+    return fingerprint if audited_in_digest(column) else _converter(column.type)
+
+
 @cache
 def snapshot_columns(table: Table) -> tuple[tuple[str, Callable[[Any], Any]], ...]:
     """(column name, canonicaliser) for every column of ``table``, sorted by name.
 
     Sorted so a dict built in this order dumps to the same JSON as ``sort_keys``.
+    A digested column's canonicaliser is ``fingerprint``.
     """
-    return tuple(sorted((c.name, _converter(c.type)) for c in table.columns))
+    return tuple(sorted((c.name, _column_converter(c)) for c in table.columns))
 
 
 def snapshot_mapping(table: Table, values: Mapping[str, Any]) -> dict[str, Any]:
@@ -498,4 +573,3 @@ def snapshot(row: Base) -> dict[str, Any]:
             if column.table is table:
                 by_name[column.name] = getattr(row, prop.key)
     return snapshot_mapping(table, by_name)
-

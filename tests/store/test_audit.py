@@ -168,6 +168,18 @@ def test_edited_row_is_named_with_its_columns(db: Database, db_file: Path) -> No
     )
 
 
+def test_a_value_of_the_wrong_type_is_reported_as_unreadable(db: Database, db_file: Path) -> None:
+    # SQLite keeps text that is not a number as text in an integer column; the row
+    # check converts it as record() would and says the row cannot be read.
+    _write_lab(db)
+    _raw(db_file, "UPDATE batches SET spec_id = 'one' WHERE code = 'B-1'")
+    problems = _verify(db).problems
+    assert (
+        "batches: a row cannot be read (invalid literal for int() with base 10: 'one'): "
+        "edited outside prepbook" in problems
+    )
+
+
 def test_row_added_outside_prepbook_is_named(db: Database, db_file: Path) -> None:
     _write_lab(db)
     _raw(
