@@ -89,10 +89,6 @@ def calibrate_instrument(db: Database, *, actor: str, code: str, calibrated: str
     with db.session() as s:
         user = acting(s, actor, doing="record calibrations")
         ins = by_code(s, Instrument, code, "instrument")
-        if on < ins.created_at.date():
-            raise InvalidInput(f"instrument {ins.code} was added on "
-                               f"{ins.created_at.date().isoformat()}; the calibration "
-                               "cannot be earlier")
         if due_d == ins.due:
             raise Refused(f"instrument {ins.code} is already due {due_d.isoformat()}; "
                           "nothing to record")
