@@ -9,7 +9,7 @@ Why it is written this way:
 - Standard library only (``tomllib``) and nothing heavy at import time, because the
   command line imports the catalog for fast commands. A formula is valid when
   ``prepbook.chem.formula.molar_mass`` gives it a mass: the packaged formulas come from
-  its precomputed table (``data/molar_masses.toml``), so loading the packaged data
+  its precomputed table (``prepbook/chem/molar_masses.toml``), so loading the packaged data
   imports no periodictable; any formula not in the table (a local edit, a test's
   altered copy) is parsed by periodictable.
 - The parsed catalog is cached (``functools.cache``): the files are read once per process.

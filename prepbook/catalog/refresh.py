@@ -1,4 +1,4 @@
-"""Regenerate ``data/molar_masses.toml``: the molar masses of the catalog's formulas.
+"""Regenerate ``prepbook/chem/molar_masses.toml``: the molar masses of the catalog's formulas.
 
     python -m prepbook.catalog.refresh          # rewrite the file
     python -m prepbook.catalog.refresh --check  # exit 1 if it differs from periodictable

@@ -18,7 +18,7 @@ A "." is always a hydrate separator here, never a decimal point: fractional atom
 counts are refused.
 
 The formulas of the packaged catalog are looked up in a table computed beforehand by
-this module from periodictable (``prepbook/catalog/data/molar_masses.toml``, written by
+this module from periodictable (``prepbook/chem/molar_masses.toml``, written by
 ``python -m prepbook.catalog.refresh``), so a command that only needs them does not
 import periodictable and its parser. The table holds exactly what the live computation
 gives; ``tests/catalog/test_molar_mass_table.py`` recomputes it and fails on any
@@ -39,8 +39,8 @@ from prepbook.errors import InvalidInput
 ATOMIC_WEIGHTS_EDITION = "CIAAW 2021 abridged standard atomic weights (via periodictable)"
 HYDRATE_SEPARATORS = ("·", "•", "⋅", ".", "*", "+")
 
-#: The precomputed molar masses: package data of prepbook.catalog, read as a plain file.
-PRECOMPUTED = Path(__file__).parents[1] / "catalog" / "data" / "molar_masses.toml"
+#: The precomputed molar masses: package data beside this module, read as a plain file.
+PRECOMPUTED = Path(__file__).with_name("molar_masses.toml")
 
 _SEPARATOR_RE = re.compile("[" + re.escape("".join(HYDRATE_SEPARATORS)) + "]")
 _MULTIPLIER_RE = re.compile(r"^(\d+)\s*(.*)$", re.DOTALL)

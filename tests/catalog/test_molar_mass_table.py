@@ -1,4 +1,4 @@
-"""The precomputed molar masses (``prepbook/catalog/data/molar_masses.toml``) are exactly
+"""The precomputed molar masses (``prepbook/chem/molar_masses.toml``) are exactly
 what periodictable gives now, for exactly the catalog's formulas.
 
 The table only saves importing periodictable at start-up; these checks recompute it
