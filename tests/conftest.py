@@ -34,14 +34,6 @@ SQLITE_ONLY: dict[str, str] = {
     "tests/store/test_engine.py::test_sqlite_runs_in_wal_with_foreign_keys_and_busy_timeout":
         "checks SQLite pragmas (WAL journal, foreign_keys, busy_timeout)",
 }
-# Tamper tests that edit the file with sqlite3; their statements are portable, so
-# once their helper calls raw_sql (below) they run on PostgreSQL too: then drop them here.
-_TAMPER = "edits the SQLite file with sqlite3 (use tests.conftest.raw_sql to run everywhere)"
-SQLITE_ONLY.update({f"tests/cli/test_integrity.py::{name}": _TAMPER for name in [
-    "test_an_edited_replicate_is_named", "test_an_inserted_row_is_named",
-    "test_a_deleted_row_is_named", "test_an_edited_or_removed_audit_event_is_found",
-    "test_a_removed_audit_event_is_found", "test_verify_json_lists_problems",
-]})
 
 
 def pg_server_url() -> str | None:

@@ -1,7 +1,8 @@
 """Review, integrity and the life of a batch, through the command line.
 
-Tamper tests edit the SQLite file directly (as someone with a database browser
-would) and check that `audit verify` exits 1 and names what was altered.
+Tamper tests change the database directly (as someone with a database browser or
+a SQL console would: sqlite3 on the file, or plain SQL on the PostgreSQL server)
+and check that `audit verify` exits 1 and names what was altered.
 """
 
 from __future__ import annotations
@@ -16,7 +17,7 @@ import pytest
 from molmass import Formula
 
 from tests.cli.test_bench_flow import REPS, _at, _days, _make_batch, _standardize, bench  # noqa: F401
-from tests.conftest import Cli, row_counts
+from tests.conftest import Cli, raw_sql, row_counts
 
 M_KHP = Formula("KHC8H4O4").mass
 
@@ -24,15 +25,6 @@ M_KHP = Formula("KHC8H4O4").mass
 def _accept(cli: Cli, run: str) -> None:
     cli.ok("review", run, "--accept", "--passphrase-stdin", user="cleo",
            input="cleo-passphrase\n")
-
-
-def _sql(db: Path, sql: str, *args: object) -> None:
-    con = sqlite3.connect(db)
-    try:
-        con.execute(sql, args)
-        con.commit()
-    finally:
-        con.close()
 
 
 def _verify_fails(cli: Cli) -> str:
@@ -56,14 +48,14 @@ def recorded(bench: Cli) -> tuple[Cli, str, str]:  # noqa: F811
 
 def test_an_edited_replicate_is_named(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
-    _sql(cli.db, "UPDATE replicates SET volume_ml_text = '39.61' WHERE position = 1")
+    raw_sql(cli.db, "UPDATE replicates SET volume_ml_text = '39.61' WHERE position = 1")
     out = _verify_fails(cli)
     assert "replicates #1" in out and "volume_ml_text" in out
 
 
 def test_an_inserted_row_is_named(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
-    _sql(cli.db, "INSERT INTO uses (batch_id, used_at, used_by, volume_ml_text, purpose) "
+    raw_sql(cli.db, "INSERT INTO uses (batch_id, used_at, used_by, volume_ml_text, purpose) "
                  "VALUES (1, '2026-01-01 10:00:00', 'ben', '5', 'slipped in')")
     out = _verify_fails(cli)
     assert "uses #2" in out
@@ -71,26 +63,26 @@ def test_an_inserted_row_is_named(recorded: tuple[Cli, str, str]) -> None:
 
 def test_a_deleted_row_is_named(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
-    _sql(cli.db, "DELETE FROM uses WHERE id = 1")
+    raw_sql(cli.db, "DELETE FROM uses WHERE id = 1")
     out = _verify_fails(cli)
     assert "uses #1" in out
 
 
 def test_an_edited_or_removed_audit_event_is_found(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
-    _sql(cli.db, "UPDATE audit_events SET actor = 'mallory' WHERE seq = 3")
+    raw_sql(cli.db, "UPDATE audit_events SET actor = 'mallory' WHERE seq = 3")
     assert "audit event #3" in _verify_fails(cli)
 
 
 def test_a_removed_audit_event_is_found(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
-    _sql(cli.db, "DELETE FROM audit_events WHERE seq = 5")
+    raw_sql(cli.db, "DELETE FROM audit_events WHERE seq = 5")
     assert "#5" in _verify_fails(cli)
 
 
 def test_verify_json_lists_problems(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
-    _sql(cli.db, "UPDATE batches SET notes = 'edited behind its back'")
+    raw_sql(cli.db, "UPDATE batches SET notes = 'edited behind its back'")
     result = cli("audit", "verify", "--json")
     assert result.exit_code == 1
     doc = json.loads(result.stdout)
