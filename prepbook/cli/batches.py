@@ -163,6 +163,9 @@ def retire(
     passphrase_stdin: bool = typer.Option(
         False, "--passphrase-stdin", help="Read your passphrase from standard input."
     ),
+    at: str = typer.Option(
+        None, "--at", help="When it was discarded (YYYY-MM-DD[THH:MM], UTC), if not now."
+    ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
     """Retire a batch (signed): it can no longer be standardized or used; its record stays."""
@@ -171,7 +174,7 @@ def retire(
 
     secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
     res = history.retire(database(ctx), actor=actor(ctx), code=code, reason=reason,
-                         passphrase=secret)
+                         passphrase=secret, at=at)
     if as_json:
         output.emit_json(res)
     else:

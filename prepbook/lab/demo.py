@@ -410,8 +410,9 @@ class _History:
         from prepbook.lab import history
 
         who = self.rng.choice(_TECHNICIANS)
-        history.retire(self.db, actor=who, code=bottle.code,
-                       reason=f"{why} ({day.date().isoformat()})", passphrase=_passphrase(who))
+        history.retire(self.db, actor=who, code=bottle.code, reason=why,
+                       passphrase=_passphrase(who),
+                       at=day.replace(hour=8, minute=0).isoformat(timespec="minutes"))
         self.counts["retired"] += 1
 
     def use(self, bottle: _Bottle, when: datetime) -> None:

@@ -5,13 +5,13 @@ from __future__ import annotations
 from datetime import date
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_text, utc_now
+from prepbook.inputs import parse_datetime, parse_text, utc_now
 from prepbook.lab import specs as spec_view
-from prepbook.lab.common import RECORDERS, acting, by_code, iso, signed, write
+from prepbook.lab.common import RECORDERS, acting, by_code, iso, not_future, signed, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Use
@@ -152,19 +152,34 @@ def _last_accepted(s: Session, b: Batch) -> tuple[float | None, Run | None]:
 
 @retry.on_conflict
 def retire(db: Database, *, actor: str, code: str, reason: str | None,
-           passphrase: str | None) -> dict[str, Any]:
+           passphrase: str | None, at: str | None = None) -> dict[str, Any]:
     """Retire a batch (discarded, used up, spoiled): signed, with a reason. It can then be
-    neither standardized nor used; its record stays."""
+    neither standardized nor used; its record stays.
+
+    ``at`` records when it was really discarded (entered later from the bench log); it
+    cannot be in the future, before the batch was made, or before its last use or
+    standardization. The audit event keeps the time it was entered as well.
+    """
     reason = parse_text(reason, "reason", max_len=1000)
     if not (reason and reason.strip()):
         raise InvalidInput("retiring a batch needs a --reason")
+    retired_at = not_future(parse_datetime(at, "--at") if at else None, "retirement time")
     signed(db, actor, passphrase, RECORDERS, "retire batches")
     with db.session() as s:
         user = acting(s, actor, RECORDERS, "retire batches")
         b = by_code(s, Batch, code, "batch")
         if b.retired_at is not None:
             raise Refused(f"batch {b.code} was already retired on {b.retired_at:%Y-%m-%d}")
-        b.retired_at, b.retired_by, b.retired_reason = utc_now(), user.name, reason
-        write(s, user.name, "batch.retire", b, reason=reason)
+        if retired_at < b.made_at:
+            raise InvalidInput(f"the retirement ({retired_at:%Y-%m-%d %H:%M}) cannot be before "
+                               f"the batch was made ({b.made_at:%Y-%m-%d %H:%M})")
+        last_run = s.scalar(select(func.max(Run.performed_at)).where(Run.batch_id == b.id))
+        last_use = s.scalar(select(func.max(Use.used_at)).where(Use.batch_id == b.id))
+        for last, what in ((last_run, "standardized"), (last_use, "used")):
+            if last is not None and retired_at < last:
+                raise InvalidInput(f"batch {b.code} was {what} on {last:%Y-%m-%d %H:%M}, "
+                                   "after that retirement time")
+        b.retired_at, b.retired_by, b.retired_reason = retired_at, user.name, reason
+        write(s, user.name, "batch.retire", b, reason=reason, performed_at=retired_at)
         return {"batch": b.code, "retired_at": iso(b.retired_at), "retired_by": user.name,
                 "reason": reason}

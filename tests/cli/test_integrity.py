@@ -198,6 +198,29 @@ def test_expired_and_retired_batches_cannot_be_standardized_or_used(bench: Cli) 
     assert fresh not in {b["batch"] for b in bench.json("status")}
 
 
+def test_a_retirement_can_be_dated_but_not_before_what_the_batch_went_through(
+        bench: Cli) -> None:  # noqa: F811
+    batch = _make_batch(bench)  # made two days ago at 08:30
+    _accept(bench, _standardize(bench, batch)["run"])  # standardized yesterday at 10:00
+    sign = {"user": "ben", "input": "ben-passphrase\n"}
+    before = row_counts(bench.db)
+    for at, words in ((_at(-3), "before the batch was made"),
+                      (_at(-1, "09:00"), "was standardized on"),
+                      (_at(2), "in the future"),
+                      ("yesterday", "--at")):
+        r = bench.refused("batch", "retire", batch, "--reason", "spilled", "--at", at,
+                          "--passphrase-stdin", **sign)
+        assert words in r.stderr, (at, r.stderr)
+    assert row_counts(bench.db) == before
+    done = bench.json("batch", "retire", batch, "--reason", "spilled on the bench",
+                      "--at", _at(-1, "16:45"), "--passphrase-stdin", "--json", **sign)
+    assert done["retired_at"] == _at(-1, "16:45")
+    assert bench.json("batch", "show", batch)["retired"]["at"] == _at(-1, "16:45")
+    event = bench.json("audit", "log", "--record", "batches")[-1]
+    assert event["action"] == "batch.retire"
+    assert bench.json("audit", "verify")["ok"] is True
+
+
 def test_a_due_batch_cannot_be_used(bench: Cli) -> None:  # noqa: F811
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
                        "--at", _at(-20), user="ben")["batch"]
