@@ -12,7 +12,7 @@ from collections.abc import Callable
 from datetime import date, datetime
 from typing import Any, TypeVar
 
-from sqlalchemy import select
+from sqlalchemy import inspect, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, NotFound, Refused
@@ -186,13 +186,15 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
                 facts.pop(row.id, None)
             else:  # a lot, instrument or spec may be any batch's
                 facts.clear()
-    ids = session.info.get(IDS_KEY)
-    if ids is not None:
-        # Grouped bulk writing (store.bulk): the id is handed out here and the insert
-        # waits for the group's next flush, together with others.
-        if getattr(row, "id", None) is None:
-            ids.assign(row)
-        session.add(row)
+    writer = session.info.get(IDS_KEY)
+    if writer is not None:
+        # Grouped bulk writing (store.bulk): a new row gets its id here and waits in
+        # the group's buffer for the next statement; a changed row is an UPDATE of
+        # the unit of work as usual.
+        if inspect(row).transient:
+            writer.add(row)
+        else:
+            writer.change(row)
     else:
         session.add(row)
         session.flush()
