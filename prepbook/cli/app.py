@@ -172,6 +172,7 @@ def _root(
     db: str = typer.Option(
         None,
         "--db",
+        metavar="PATH|URL",
         envvar="PREPBOOK_DB",
         help=f"Database: a file path (SQLite, default ./{DEFAULT_DB}) or an SQLAlchemy URL.",
         show_default=False,
@@ -179,8 +180,9 @@ def _root(
     user: str = typer.Option(
         None,
         "--user",
+        metavar="NAME",
         envvar="PREPBOOK_USER",
-        help="Who is acting (default: your login name).",
+        help="Acting user (default: login name).",
         show_default=False,
     ),
 ) -> None:

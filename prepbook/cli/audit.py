@@ -17,12 +17,14 @@ app = typer.Typer(
 @app.command("log")
 def log(
     ctx: typer.Context,
-    record: str = typer.Option(None, "--record", help="Only this record, e.g. batches or "
-                               "batches#3."),
-    actor_name: str = typer.Option(None, "--actor", help="Only this actor."),
-    since: str = typer.Option(None, "--since", help="From this date, YYYY-MM-DD."),
-    until: str = typer.Option(None, "--until", help="Up to this date, YYYY-MM-DD."),
-    limit: int = typer.Option(None, "--limit", help="At most this many events (newest)."),
+    record: str = typer.Option(None, "--record", metavar="RECORD",
+                               help="Only this record, e.g. batches or batches#3."),
+    actor_name: str = typer.Option(None, "--actor", metavar="NAME", help="Only this actor."),
+    since: str = typer.Option(None, "--since", metavar="DATE", help="From this date, YYYY-MM-DD."),
+    until: str = typer.Option(None, "--until", metavar="DATE", help="Up to this date, YYYY-MM-DD."),
+    limit: int = typer.Option(
+        None, "--limit", metavar="N", help="At most this many events (newest)."
+    ),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """List audit events."""

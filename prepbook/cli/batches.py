@@ -19,23 +19,30 @@ app = typer.Typer(
 @app.command("make")
 def make(
     ctx: typer.Context,
-    spec: str = typer.Argument(..., help="Solution spec code, e.g. NaOH-0.1N."),
-    volume: str = typer.Option(..., "--volume", help="Final volume made, mL."),
-    solute_mass: str = typer.Option(None, "--solute-mass", help="Mass of solid dissolved, g."),
-    solute_lot: str = typer.Option(None, "--solute-lot", help="Lot of the solid."),
-    stock_volume: str = typer.Option(
-        None, "--stock-volume", help="Volume of concentrated reagent taken, mL."
+    spec: str = typer.Argument(..., metavar="SPEC", help="Solution spec code, e.g. NaOH-0.1N."),
+    volume: str = typer.Option(..., "--volume", metavar="ML", help="Final volume made, mL."),
+    solute_mass: str = typer.Option(
+        None, "--solute-mass", metavar="G", help="Mass of solid dissolved, g."
     ),
-    from_batch: str = typer.Option(None, "--from-batch", help="Stock batch diluted."),
-    aliquot: str = typer.Option(None, "--aliquot", help="Volume of the stock batch taken, mL."),
-    flask: str = typer.Option(None, "--flask", help="Volumetric flask used."),
-    balance: str = typer.Option(None, "--balance", help="Balance used."),
-    notes: str = typer.Option(None, "--notes", help="Free notes."),
+    solute_lot: str = typer.Option(None, "--solute-lot", metavar="LOT", help="Lot of the solid."),
+    stock_volume: str = typer.Option(
+        None, "--stock-volume", metavar="ML", help="Volume of concentrated reagent taken, mL."
+    ),
+    from_batch: str = typer.Option(
+        None, "--from-batch", metavar="BATCH", help="Stock batch diluted."
+    ),
+    aliquot: str = typer.Option(
+        None, "--aliquot", metavar="ML", help="Volume of the stock batch taken, mL."
+    ),
+    flask: str = typer.Option(None, "--flask", metavar="CODE", help="Volumetric flask used."),
+    balance: str = typer.Option(None, "--balance", metavar="CODE", help="Balance used."),
+    notes: str = typer.Option(None, "--notes", metavar="TEXT", help="Free notes."),
     at: str = typer.Option(
-        None, "--at", help="When it was made (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN", help="When it was made (YYYY-MM-DD[THH:MM], UTC), if not now."
     ),
     code: str = typer.Option(
-        None, "--code", help="The lab's own bottle code (default: spec-date-number)."
+        None, "--code", metavar="CODE",
+        help="The lab's own bottle code (default: spec-date-number)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
@@ -121,7 +128,7 @@ def _render_show(out: Any, b: dict[str, Any]) -> None:
 @app.command("show")
 def show(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Batch code."),
+    code: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """The whole chain of a batch: preparation, standardizations, replicates, reviews."""
@@ -137,10 +144,14 @@ def show(
 @app.command("use")
 def use(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Batch code."),
-    volume: str = typer.Option(None, "--volume", help="Volume drawn, mL."),
-    purpose: str = typer.Option(None, "--purpose", help="What it was used for (sample, method)."),
-    at: str = typer.Option(None, "--at", help="When (YYYY-MM-DD[THH:MM], UTC), if not now."),
+    code: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
+    volume: str = typer.Option(None, "--volume", metavar="ML", help="Volume drawn, mL."),
+    purpose: str = typer.Option(
+        None, "--purpose", metavar="TEXT", help="What it was used for (sample, method)."
+    ),
+    at: str = typer.Option(
+        None, "--at", metavar="WHEN", help="When (YYYY-MM-DD[THH:MM], UTC), if not now."
+    ),
     as_json: bool = typer.Option(False, "--json", help="Print the use as JSON."),
 ) -> None:
     """Record a use of a batch in service (kept so a bad batch's impact can be traced)."""
@@ -158,13 +169,16 @@ def use(
 @app.command("retire")
 def retire(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Batch code."),
-    reason: str = typer.Option(..., "--reason", help="Why (discarded, used up, spoiled...)."),
+    code: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
+    reason: str = typer.Option(
+        ..., "--reason", metavar="TEXT", help="Why (discarded, used up, spoiled...)."
+    ),
     passphrase_stdin: bool = typer.Option(
         False, "--passphrase-stdin", help="Read your passphrase from standard input."
     ),
     at: str = typer.Option(
-        None, "--at", help="When it was discarded (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN",
+        help="When discarded (YYYY-MM-DD[THH:MM], UTC), if not now."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:

@@ -46,35 +46,42 @@ def _budget_table(budget: list[dict]) -> object:
 @app.command("normality")
 def normality(
     standard: str = typer.Option(
-        ..., "--standard", help="Primary standard: code, name or formula."
+        ..., "--standard", metavar="SUBSTANCE", help="Primary standard: code, name or formula."
     ),
     rep: list[str] = typer.Option(
-        ..., "--rep", help="One replicate MASS:VOL (g of standard : mL of titrant). Repeat."
+        ..., "--rep", metavar="MASS:VOL",
+        help="One replicate (g of standard : mL of titrant). Repeat."
     ),
     titrant: str = typer.Option(
-        None, "--titrant", help="Titrant solute; sets the reaction and gives the molarity."
+        None, "--titrant", metavar="SUBSTANCE",
+        help="Titrant solute; gives the reaction and the molarity."
     ),
-    purity: str = typer.Option("100", "--purity", help="Purity of the standard, % (certificate)."),
+    purity: str = typer.Option(
+        "100", "--purity", metavar="PERCENT", help="Certified purity of the standard."
+    ),
     purity_u: str = typer.Option(
         None,
         "--purity-u",
+        metavar="PERCENT",
         help="Standard uncertainty of the purity, % (default: +/-0.05 % taken as rectangular).",
     ),
-    blank: str = typer.Option("0", "--blank", help="Blank titration volume, mL."),
+    blank: str = typer.Option("0", "--blank", metavar="ML", help="Blank titration volume, mL."),
     buoyancy: bool = typer.Option(
         False, "--buoyancy", help="Correct each weighing for air buoyancy (NIST SOP 2)."
     ),
     linearity: str = typer.Option(
-        "0.15", "--linearity", help="Balance linearity, +/- mg (each weighing)."
+        "0.15", "--linearity", metavar="MG", help="Balance linearity, +/- mg (each weighing)."
     ),
     burette_tolerance: str = typer.Option(
-        "0.05", "--burette-tolerance", help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
+        "0.05", "--burette-tolerance", metavar="ML",
+        help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
     ),
     burette_capacity: str = typer.Option(
-        None, "--burette-capacity", help="Burette capacity, mL: warns below 30 % of it."
+        None, "--burette-capacity", metavar="ML",
+        help="Burette capacity, mL: warns below 30 % of it."
     ),
     temp_range: str = typer.Option(
-        "3", "--temp-range", help="Laboratory temperature variation, +/- degrees C."
+        "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
     ),
     as_json: bool = JSON,
 ) -> None:
@@ -138,13 +145,17 @@ def normality(
 @app.command("secondary")
 def secondary(
     reference_normality: str = typer.Option(
-        ..., "--reference-normality", help="Normality of the standardized reference, eq/L."
+        ..., "--reference-normality", metavar="EQ/L",
+        help="Normality of the standardized reference, eq/L."
     ),
-    aliquot: str = typer.Option(..., "--aliquot", help="Aliquot of the reference pipetted, mL."),
+    aliquot: str = typer.Option(
+        ..., "--aliquot", metavar="ML", help="Aliquot of the reference pipetted, mL."
+    ),
     rep: list[str] = typer.Option(
-        ..., "--rep", help="mL of the solution being standardized at each endpoint. Repeat."
+        ..., "--rep", metavar="ML",
+        help="mL of the solution being standardized at each endpoint. Repeat."
     ),
-    blank: str = typer.Option("0", "--blank", help="Blank titration volume, mL."),
+    blank: str = typer.Option("0", "--blank", metavar="ML", help="Blank titration volume, mL."),
     as_json: bool = JSON,
 ) -> None:
     """Normality against an already standardized solution (N1 V1 = N2 V2)."""
@@ -173,10 +184,14 @@ def secondary(
 
 @app.command("solid")
 def solid(
-    solute: str = typer.Argument(..., help="Solute to weigh: code, name or formula."),
-    normality: str = typer.Option(..., "--normality", help="Wanted normality, eq/L."),
-    volume: str = typer.Option(..., "--volume", help="Final volume, mL."),
-    purity: str = typer.Option("100", "--purity", help="Assay of the solid, %."),
+    solute: str = typer.Argument(
+        ..., metavar="SUBSTANCE", help="Solute to weigh: code, name or formula."
+    ),
+    normality: str = typer.Option(
+        ..., "--normality", metavar="EQ/L", help="Wanted normality, eq/L."
+    ),
+    volume: str = typer.Option(..., "--volume", metavar="ML", help="Final volume, mL."),
+    purity: str = typer.Option("100", "--purity", metavar="PERCENT", help="Assay of the solid, %."),
     as_json: bool = JSON,
 ) -> None:
     """Mass of solid to weigh for a volume of a given normality."""
@@ -197,13 +212,22 @@ def solid(
 
 @app.command("liquid")
 def liquid(
-    reagent: str = typer.Argument(..., help="Concentrated reagent: HCl, H2SO4, HNO3, ..."),
-    normality: str = typer.Option(..., "--normality", help="Wanted normality, eq/L."),
-    volume: str = typer.Option(..., "--volume", help="Final volume, mL."),
-    fraction: str = typer.Option(None, "--fraction", help="Mass fraction, % (default: catalog)."),
-    density: str = typer.Option(None, "--density", help="Density, g/mL (default: catalog)."),
+    reagent: str = typer.Argument(
+        ..., metavar="REAGENT", help="Concentrated reagent: HCl, H2SO4, HNO3, ..."
+    ),
+    normality: str = typer.Option(
+        ..., "--normality", metavar="EQ/L", help="Wanted normality, eq/L."
+    ),
+    volume: str = typer.Option(..., "--volume", metavar="ML", help="Final volume, mL."),
+    fraction: str = typer.Option(
+        None, "--fraction", metavar="PERCENT", help="Mass fraction, % (default: catalog)."
+    ),
+    density: str = typer.Option(
+        None, "--density", metavar="G/ML", help="Density, g/mL (default: catalog)."
+    ),
     n: str = typer.Option(
-        None, "--n", help="Equivalents per mole (default: the catalog's titration reaction)."
+        None, "--n", metavar="NUMBER",
+        help="Equivalents per mole (default: the catalog's reaction)."
     ),
     as_json: bool = JSON,
 ) -> None:
@@ -227,9 +251,13 @@ def liquid(
 
 @app.command("dilute")
 def dilute(
-    stock: str = typer.Option(..., "--stock", help="Normality of the stock solution, eq/L."),
-    normality: str = typer.Option(..., "--normality", help="Wanted normality, eq/L."),
-    volume: str = typer.Option(..., "--volume", help="Final volume, mL."),
+    stock: str = typer.Option(
+        ..., "--stock", metavar="EQ/L", help="Normality of the stock solution, eq/L."
+    ),
+    normality: str = typer.Option(
+        ..., "--normality", metavar="EQ/L", help="Wanted normality, eq/L."
+    ),
+    volume: str = typer.Option(..., "--volume", metavar="ML", help="Final volume, mL."),
     as_json: bool = JSON,
 ) -> None:
     """Volumes of stock and water for a dilution (N1 V1 = N2 V2)."""
@@ -248,11 +276,16 @@ def dilute(
 
 @app.command("adjust")
 def adjust(
-    normality: str = typer.Option(..., "--normality", help="Normality found, eq/L."),
-    target: str = typer.Option(..., "--target", help="Nominal normality wanted, eq/L."),
-    volume: str = typer.Option(..., "--volume", help="Volume of the batch now, mL."),
+    normality: str = typer.Option(
+        ..., "--normality", metavar="EQ/L", help="Normality found, eq/L."
+    ),
+    target: str = typer.Option(
+        ..., "--target", metavar="EQ/L", help="Nominal normality wanted, eq/L."
+    ),
+    volume: str = typer.Option(..., "--volume", metavar="ML", help="Volume of the batch now, mL."),
     stock: str = typer.Option(
-        None, "--stock", help="Normality of a stronger stock, when the batch is too weak."
+        None, "--stock", metavar="EQ/L",
+        help="Normality of a stronger stock, when the batch is too weak."
     ),
     as_json: bool = JSON,
 ) -> None:
@@ -272,11 +305,15 @@ def adjust(
 
 @app.command("buoyancy")
 def buoyancy(
-    mass: str = typer.Option(..., "--mass", help="Balance reading, g."),
-    density: str = typer.Option(..., "--density", help="Density of the sample, g/cm3."),
-    air_density: str = typer.Option("0.0012", "--air-density", help="Air density, g/cm3."),
+    mass: str = typer.Option(..., "--mass", metavar="G", help="Balance reading, g."),
+    density: str = typer.Option(
+        ..., "--density", metavar="G/CM3", help="Density of the sample, g/cm3."
+    ),
+    air_density: str = typer.Option(
+        "0.0012", "--air-density", metavar="G/CM3", help="Air density, g/cm3."
+    ),
     weights_density: str = typer.Option(
-        "8.0", "--weights-density", help="Density of the reference weights, g/cm3."
+        "8.0", "--weights-density", metavar="G/CM3", help="Reference weights' density, g/cm3."
     ),
     as_json: bool = JSON,
 ) -> None:
@@ -296,9 +333,13 @@ def buoyancy(
 
 @app.command("temperature")
 def temperature(
-    normality: str = typer.Option(..., "--normality", help="Normality at the first temperature."),
-    from_c: str = typer.Option(..., "--from", help="Temperature of standardization, C."),
-    to_c: str = typer.Option(..., "--to", help="Temperature of use, C."),
+    normality: str = typer.Option(
+        ..., "--normality", metavar="EQ/L", help="Normality at the first temperature."
+    ),
+    from_c: str = typer.Option(
+        ..., "--from", metavar="C", help="Temperature of standardization, C."
+    ),
+    to_c: str = typer.Option(..., "--to", metavar="C", help="Temperature of use, C."),
     as_json: bool = JSON,
 ) -> None:
     """Normality at another temperature (dilute aqueous solution, CIPM water density)."""
@@ -316,9 +357,13 @@ def temperature(
 
 @app.command("titer")
 def titer(
-    titrant: str = typer.Option(..., "--titrant", help="Titrant solute."),
-    normality: str = typer.Option(..., "--normality", help="Normality of the titrant, eq/L."),
-    analyte: str = typer.Option(..., "--analyte", help="Analyte: code, name or formula."),
+    titrant: str = typer.Option(..., "--titrant", metavar="SUBSTANCE", help="Titrant solute."),
+    normality: str = typer.Option(
+        ..., "--normality", metavar="EQ/L", help="Normality of the titrant, eq/L."
+    ),
+    analyte: str = typer.Option(
+        ..., "--analyte", metavar="SUBSTANCE", help="Analyte: code, name or formula."
+    ),
     as_json: bool = JSON,
 ) -> None:
     """Titer: mg of an analyte equivalent to 1 mL of the titrant."""
@@ -338,13 +383,16 @@ def titer(
 @app.command("endpoint")
 def endpoint(
     file: Path = typer.Argument(
-        ..., help="CSV: a header row, then volume (mL) and pH or mV.", show_default=False
+        ..., metavar="FILE",
+        help="CSV: a header row, then volume (mL) and pH or mV.", show_default=False
     ),
     sample_ml: str = typer.Option(
-        None, "--sample-ml", help="Volume in the vessel before titrant, mL (Gran after the end)."
+        None, "--sample-ml", metavar="ML",
+        help="Volume in the vessel before titrant (Gran after the end)."
     ),
     search: str = typer.Option(
-        None, "--between", help="Look for the endpoint only between these mL, e.g. 5:15."
+        None, "--between", metavar="ML:ML",
+        help="Look for the endpoint only between these mL, e.g. 5:15."
     ),
     as_json: bool = JSON,
 ) -> None:
@@ -370,10 +418,15 @@ def endpoint(
 
 @app.command("eqpoint")
 def eqpoint(
-    standard: str = typer.Option(..., "--standard", help="Primary standard (acid or base)."),
-    titrant: str = typer.Option(..., "--titrant", help="Titrant solute (strong acid or base)."),
+    standard: str = typer.Option(
+        ..., "--standard", metavar="SUBSTANCE", help="Primary standard (acid or base)."
+    ),
+    titrant: str = typer.Option(
+        ..., "--titrant", metavar="SUBSTANCE", help="Titrant solute (strong acid or base)."
+    ),
     concentration: str = typer.Option(
-        ..., "--concentration", help="Concentration of the salt at equivalence, mol/L."
+        ..., "--concentration", metavar="MOL/L",
+        help="Concentration of the salt at equivalence, mol/L."
     ),
     as_json: bool = JSON,
 ) -> None:

@@ -11,12 +11,20 @@ from prepbook.cli.standardize import render_result
 
 def correct(
     ctx: typer.Context,
-    run: str = typer.Argument(..., help="Run code."),
-    replicate: int = typer.Option(..., "--replicate", help="Replicate number (from 1)."),
-    mass: str = typer.Option(None, "--mass", help="Corrected mass of standard, g."),
-    aliquot: str = typer.Option(None, "--aliquot", help="Corrected aliquot, mL (secondary)."),
-    volume: str = typer.Option(None, "--volume", help="Corrected titrant volume, mL."),
-    reason: str = typer.Option(..., "--reason", help="Why the reading is corrected."),
+    run: str = typer.Argument(..., metavar="RUN", help="Run code."),
+    replicate: int = typer.Option(
+        ..., "--replicate", metavar="N", help="Replicate number (from 1)."
+    ),
+    mass: str = typer.Option(None, "--mass", metavar="G", help="Corrected mass of standard, g."),
+    aliquot: str = typer.Option(
+        None, "--aliquot", metavar="ML", help="Corrected aliquot, mL (secondary)."
+    ),
+    volume: str = typer.Option(
+        None, "--volume", metavar="ML", help="Corrected titrant volume, mL."
+    ),
+    reason: str = typer.Option(
+        ..., "--reason", metavar="TEXT", help="Why the reading is corrected."
+    ),
     passphrase_stdin: bool = typer.Option(
         False, "--passphrase-stdin", help="Read your passphrase from standard input."
     ),
@@ -37,9 +45,11 @@ def correct(
 
 def exclude(
     ctx: typer.Context,
-    run: str = typer.Argument(..., help="Run code."),
-    replicate: int = typer.Option(..., "--replicate", help="Replicate number (from 1)."),
-    reason: str = typer.Option(..., "--reason", help="Why it is excluded."),
+    run: str = typer.Argument(..., metavar="RUN", help="Run code."),
+    replicate: int = typer.Option(
+        ..., "--replicate", metavar="N", help="Replicate number (from 1)."
+    ),
+    reason: str = typer.Option(..., "--reason", metavar="TEXT", help="Why it is excluded."),
     passphrase_stdin: bool = typer.Option(
         False, "--passphrase-stdin", help="Read your passphrase from standard input."
     ),

@@ -11,14 +11,15 @@ from prepbook.cli import output
 
 def demo(
     db: str = typer.Option(
-        "demo-lab.db", "--db", help="Where to build the demo lab (a new SQLite file)."
+        "demo-lab.db", "--db", metavar="FILE",
+        help="The new SQLite file for the demo lab."
     ),
     replace: bool = typer.Option(
         False, "--replace", help="Move an existing file at --db aside first (kept as .old-*)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the board as JSON."),
     years: int | None = typer.Option(
-        None, "--years", min=1, max=50,
+        None, "--years", metavar="YEARS", min=1, max=50,
         help="Instead of the small demo, generate YEARS of a busy lab's synthetic history "
              "(thousands of batches, runs and uses, all invented) through the same services.",
     ),

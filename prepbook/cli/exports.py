@@ -10,11 +10,12 @@ from prepbook.cli.session import database
 
 def export(
     ctx: typer.Context,
-    kind: str = typer.Argument(..., help="What to export: batches, runs, replicates, uses "
-                               "or audit."),
-    fmt: str = typer.Option(..., "--format", help="csv or xlsx."),
-    out_file: str = typer.Option(..., "-o", "--output", help="File to write."),
-    since: str = typer.Option(None, "--since", help="Only records from this date, YYYY-MM-DD.",
+    kind: str = typer.Argument(..., metavar="TABLE", help="What to export: batches, runs, "
+                               "replicates, uses or audit."),
+    fmt: str = typer.Option(..., "--format", metavar="FORMAT", help="csv or xlsx."),
+    out_file: str = typer.Option(..., "-o", "--output", metavar="FILE", help="File to write."),
+    since: str = typer.Option(None, "--since", metavar="DATE",
+                              help="Only records from this date, YYYY-MM-DD.",
                               show_default=False),
     replace: bool = typer.Option(False, "--replace", help="Overwrite the file if it exists."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),

@@ -10,7 +10,7 @@ from prepbook.cli.session import database
 
 def trend(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Batch code."),
+    code: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """Accepted history of a batch, its drift, slope and when it will leave its window."""
@@ -47,7 +47,7 @@ def trend(
 
 def trace(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Batch code."),
+    code: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """The chain upward (lots, certificates, stock, instruments) and downward (dilutions, uses)."""

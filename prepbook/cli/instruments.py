@@ -17,14 +17,19 @@ app = typer.Typer(
 @app.command("add")
 def add(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Instrument code, as on its tag."),
+    code: str = typer.Argument(..., metavar="CODE", help="Instrument code, as on its tag."),
     kind: str = typer.Option(
-        ..., "--kind", help="balance, burette, flask, pipette, thermometer or meter."
+        ..., "--kind", metavar="KIND",
+        help="balance, burette, flask, pipette, thermometer or meter."
     ),
-    due: str = typer.Option(..., "--due", help="Calibration due date, YYYY-MM-DD."),
-    capacity: str = typer.Option(None, "--capacity", help="Capacity (g or mL)."),
-    tolerance: str = typer.Option(None, "--tolerance", help="Tolerance, +/- (g or mL)."),
-    readability: str = typer.Option(None, "--readability", help="Readability (g or mL)."),
+    due: str = typer.Option(..., "--due", metavar="DATE", help="Calibration due date, YYYY-MM-DD."),
+    capacity: str = typer.Option(None, "--capacity", metavar="G|ML", help="Capacity (g or mL)."),
+    tolerance: str = typer.Option(
+        None, "--tolerance", metavar="G|ML", help="Tolerance, +/- (g or mL)."
+    ),
+    readability: str = typer.Option(
+        None, "--readability", metavar="G|ML", help="Readability (g or mL)."
+    ),
     as_json: bool = typer.Option(False, "--json", help="Print the instrument as JSON."),
 ) -> None:
     """Record an instrument."""
@@ -61,13 +66,17 @@ def list_(ctx: typer.Context,
 @app.command("calibrate")
 def calibrate(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Instrument code, as on its tag."),
+    code: str = typer.Argument(..., metavar="CODE", help="Instrument code, as on its tag."),
     calibrated: str = typer.Option(
-        ..., "--calibrated", help="When it was calibrated, YYYY-MM-DD (not in the future)."
+        ..., "--calibrated", metavar="DATE",
+        help="When it was calibrated, YYYY-MM-DD (not in the future)."
     ),
-    due: str = typer.Option(..., "--due", help="Next calibration due date, YYYY-MM-DD."),
+    due: str = typer.Option(
+        ..., "--due", metavar="DATE", help="Next calibration due date, YYYY-MM-DD."
+    ),
     certificate: str = typer.Option(
-        None, "--certificate", help="The calibration certificate's number or reference."
+        None, "--certificate", metavar="TEXT",
+        help="The calibration certificate's number or reference."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the instrument as JSON."),
 ) -> None:

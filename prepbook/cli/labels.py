@@ -12,16 +12,18 @@ from prepbook.errors import InvalidInput
 
 def label(
     ctx: typer.Context,
-    code: str = typer.Argument(None, help="Batch code (or lot code with --lot).",
+    code: str = typer.Argument(None, metavar="CODE", help="Batch code (or lot code with --lot).",
                                show_default=False),
-    out_file: str = typer.Option(None, "-o", "--output",
+    out_file: str = typer.Option(None, "-o", "--output", metavar="FILE",
                                  help="PDF file to write (default label-CODE.pdf).",
                                  show_default=False),
-    size: str = typer.Option(None, "--size", help="Label stock, WxH with mm or in: 100x50mm, "
+    size: str = typer.Option(None, "--size", metavar="SIZE",
+                             help="Label stock, WxH with mm or in: 100x50mm, "
                              "89x36mm, 70x37mm (default), 62x29mm, 4x2in, 2.625x1in.",
                              show_default=False),
-    copies: int = typer.Option(1, "--copies", help="How many labels."),
-    sheet: str = typer.Option(None, "--sheet", help="Lay the labels out on a4 or letter "
+    copies: int = typer.Option(1, "--copies", metavar="N", help="How many labels."),
+    sheet: str = typer.Option(None, "--sheet", metavar="PAPER",
+                              help="Lay the labels out on a4 or letter "
                               "sheets instead of one label per page.", show_default=False),
     lot: bool = typer.Option(False, "--lot", help="CODE is a primary-standard lot."),
     replace: bool = typer.Option(False, "--replace", help="Overwrite the PDF if it exists."),

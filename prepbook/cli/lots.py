@@ -17,14 +17,20 @@ app = typer.Typer(
 @app.command("add")
 def add(
     ctx: typer.Context,
-    material: str = typer.Argument(..., help="Material: code, name or formula (e.g. KHP)."),
-    code: str = typer.Option(..., "--code", help="Lot code, as on the bottle."),
-    purity: str = typer.Option(..., "--purity", help="Certified purity, %."),
-    purity_u: str = typer.Option(None, "--purity-u", help="Certified uncertainty of purity, %."),
-    expires: str = typer.Option(..., "--expires", help="Expiry date, YYYY-MM-DD."),
-    certificate: str = typer.Option(None, "--certificate", help="Certificate number or note."),
-    dried: str = typer.Option(None, "--dried", help="Date dried, YYYY-MM-DD."),
-    opened: str = typer.Option(None, "--opened", help="Date opened, YYYY-MM-DD."),
+    material: str = typer.Argument(
+        ..., metavar="SUBSTANCE", help="Material: code, name or formula (e.g. KHP)."
+    ),
+    code: str = typer.Option(..., "--code", metavar="CODE", help="Lot code, as on the bottle."),
+    purity: str = typer.Option(..., "--purity", metavar="PERCENT", help="Certified purity, %."),
+    purity_u: str = typer.Option(
+        None, "--purity-u", metavar="PERCENT", help="Certified uncertainty of purity, %."
+    ),
+    expires: str = typer.Option(..., "--expires", metavar="DATE", help="Expiry date, YYYY-MM-DD."),
+    certificate: str = typer.Option(
+        None, "--certificate", metavar="TEXT", help="Certificate number or note."
+    ),
+    dried: str = typer.Option(None, "--dried", metavar="DATE", help="Date dried, YYYY-MM-DD."),
+    opened: str = typer.Option(None, "--opened", metavar="DATE", help="Date opened, YYYY-MM-DD."),
     as_json: bool = typer.Option(False, "--json", help="Print the lot as JSON."),
 ) -> None:
     """Record a lot of a primary standard (or of a solute)."""

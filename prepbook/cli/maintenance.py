@@ -10,8 +10,8 @@ from prepbook.cli.context import invocation
 
 def backup(
     ctx: typer.Context,
-    to: str = typer.Option(..., "-o", "--output", help="The new file to write the copy to "
-                           "(never overwritten).", show_default=False),
+    to: str = typer.Option(..., "-o", "--output", metavar="FILE", help="The new file to write "
+                           "the copy to (never overwritten).", show_default=False),
     as_json: bool = typer.Option(False, "--json", help="Print what was copied as JSON."),
 ) -> None:
     """Copy a SQLite database consistently, even while it is in use (on PostgreSQL:

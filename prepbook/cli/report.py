@@ -10,9 +10,9 @@ from prepbook.cli.session import database
 
 def report(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Batch code."),
-    out_file: str = typer.Option(..., "-o", "--output", help="PDF file to write."),
-    paper: str = typer.Option("a4", "--paper", help="Paper size: a4 or letter."),
+    code: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
+    out_file: str = typer.Option(..., "-o", "--output", metavar="FILE", help="PDF file to write."),
+    paper: str = typer.Option("a4", "--paper", metavar="PAPER", help="Paper size: a4 or letter."),
     replace: bool = typer.Option(False, "--replace", help="Overwrite the PDF if it exists."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:

@@ -12,16 +12,17 @@ from prepbook.errors import InvalidInput
 def review(
     ctx: typer.Context,
     run: str = typer.Argument(
-        ..., help="Run code (or a batch code: its one run awaiting review)."
+        ..., metavar="RUN", help="Run code (or a batch code: its one run awaiting review)."
     ),
     accept: bool = typer.Option(False, "--accept", help="Accept the run."),
     reject: bool = typer.Option(False, "--reject", help="Reject the run (needs --reason)."),
-    reason: str = typer.Option(None, "--reason", help="Why (required to reject)."),
+    reason: str = typer.Option(None, "--reason", metavar="TEXT", help="Why (required to reject)."),
     passphrase_stdin: bool = typer.Option(
         False, "--passphrase-stdin", help="Read your passphrase from standard input."
     ),
     at: str = typer.Option(
-        None, "--at", help="When the review was done (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN",
+        help="When reviewed (YYYY-MM-DD[THH:MM], UTC), if not now."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the reviewed run as JSON."),
 ) -> None:

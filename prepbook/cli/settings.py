@@ -41,9 +41,11 @@ def show(ctx: typer.Context,
 @app.command("set")
 def set_(
     ctx: typer.Context,
-    key: str = typer.Argument(..., help="Setting name (see `prepbook settings`)."),
-    value: str = typer.Argument(..., help="New value."),
-    reason: str = typer.Option(..., "--reason", help="Why it changes (kept in the audit trail)."),
+    key: str = typer.Argument(..., metavar="KEY", help="Setting name (see `prepbook settings`)."),
+    value: str = typer.Argument(..., metavar="VALUE", help="New value."),
+    reason: str = typer.Option(
+        ..., "--reason", metavar="TEXT", help="Why it changes (kept in the audit trail)."
+    ),
     passphrase_stdin: bool = typer.Option(
         False, "--passphrase-stdin", help="Read your passphrase from standard input."
     ),

@@ -37,22 +37,42 @@ def list_(ctx: typer.Context,
 @app.command("add")
 def add(
     ctx: typer.Context,
-    code: str = typer.Argument(..., help="Code: solute and strength, e.g. NaOH-0.5N."),
-    solute: str = typer.Option(..., "--solute", help="Titrant solute (catalog code or name)."),
-    nominal: str = typer.Option(..., "--nominal", help="Nominal concentration."),
-    unit: str = typer.Option("N", "--unit", help="N (normality) or M (molarity)."),
-    name: str = typer.Option(None, "--name", help="Name shown on labels."),
-    reaction: str = typer.Option(None, "--reaction", help="Reaction name, if not the usual."),
-    standard: str = typer.Option(None, "--standard", help="Default primary standard."),
-    indicator: str = typer.Option(None, "--indicator", help="Default indicator."),
-    min_replicates: int = typer.Option(3, "--min-replicates", help="Fewest replicates."),
-    rsd: str = typer.Option("0.2", "--rsd", help="Largest RSD, %."),
-    factor_low: str = typer.Option("0.90", "--factor-low", help="Lowest acceptable factor."),
-    factor_high: str = typer.Option("1.10", "--factor-high", help="Highest acceptable factor."),
-    drift: str = typer.Option("0.5", "--drift", help="Largest change between standardizations, %."),
-    restandardize_days: int = typer.Option(30, "--restandardize-days", help="Interval, days."),
-    shelf_life_days: int = typer.Option(180, "--shelf-life-days", help="Shelf life, days."),
-    storage: str = typer.Option(None, "--storage", help="How to store it."),
+    code: str = typer.Argument(
+        ..., metavar="CODE", help="Code: solute and strength, e.g. NaOH-0.5N."
+    ),
+    solute: str = typer.Option(
+        ..., "--solute", metavar="SUBSTANCE", help="Titrant solute (catalog code or name)."
+    ),
+    nominal: str = typer.Option(..., "--nominal", metavar="NUMBER", help="Nominal concentration."),
+    unit: str = typer.Option("N", "--unit", metavar="UNIT", help="N (normality) or M (molarity)."),
+    name: str = typer.Option(None, "--name", metavar="NAME", help="Name shown on labels."),
+    reaction: str = typer.Option(
+        None, "--reaction", metavar="NAME", help="Reaction name, if not the usual."
+    ),
+    standard: str = typer.Option(
+        None, "--standard", metavar="SUBSTANCE", help="Default primary standard."
+    ),
+    indicator: str = typer.Option(None, "--indicator", metavar="NAME", help="Default indicator."),
+    min_replicates: int = typer.Option(
+        3, "--min-replicates", metavar="N", help="Fewest replicates."
+    ),
+    rsd: str = typer.Option("0.2", "--rsd", metavar="PERCENT", help="Largest RSD, %."),
+    factor_low: str = typer.Option(
+        "0.90", "--factor-low", metavar="NUMBER", help="Lowest acceptable factor."
+    ),
+    factor_high: str = typer.Option(
+        "1.10", "--factor-high", metavar="NUMBER", help="Highest acceptable factor."
+    ),
+    drift: str = typer.Option(
+        "0.5", "--drift", metavar="PERCENT", help="Largest change between standardizations, %."
+    ),
+    restandardize_days: int = typer.Option(
+        30, "--restandardize-days", metavar="DAYS", help="Interval, days."
+    ),
+    shelf_life_days: int = typer.Option(
+        180, "--shelf-life-days", metavar="DAYS", help="Shelf life, days."
+    ),
+    storage: str = typer.Option(None, "--storage", metavar="TEXT", help="How to store it."),
     as_json: bool = typer.Option(False, "--json", help="Print the spec as JSON."),
 ) -> None:
     """Add the lab's own solution spec (reviewer or admin)."""

@@ -32,24 +32,29 @@ def render_result(out: Any, res: dict[str, Any]) -> None:
 
 def standardize(
     ctx: typer.Context,
-    batch: str = typer.Argument(..., help="Batch code."),
-    lot: str = typer.Option(None, "--lot", help="Primary-standard lot weighed."),
+    batch: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
+    lot: str = typer.Option(None, "--lot", metavar="LOT", help="Primary-standard lot weighed."),
     against: str = typer.Option(
-        None, "--against", help="Standardized batch pipetted (secondary standardization)."
+        None, "--against", metavar="BATCH",
+        help="Standardized batch pipetted (secondary standardization)."
     ),
-    balance: str = typer.Option(None, "--balance", help="Balance used."),
-    burette: str = typer.Option(None, "--burette", help="Burette used."),
-    temp: str = typer.Option("20", "--temp", help="Temperature of the titrant, C."),
-    blank: str = typer.Option("0", "--blank", help="Blank titration volume, mL."),
-    indicator: str = typer.Option(None, "--indicator", help="Indicator (default: the spec's)."),
+    balance: str = typer.Option(None, "--balance", metavar="CODE", help="Balance used."),
+    burette: str = typer.Option(None, "--burette", metavar="CODE", help="Burette used."),
+    temp: str = typer.Option("20", "--temp", metavar="C", help="Temperature of the titrant, C."),
+    blank: str = typer.Option("0", "--blank", metavar="ML", help="Blank titration volume, mL."),
+    indicator: str = typer.Option(
+        None, "--indicator", metavar="NAME", help="Indicator (default: the spec's)."
+    ),
     rep: list[str] = typer.Option(
         None,
         "--rep",
-        help="One replicate MASS:VOL (g of standard : mL of titrant), or ALIQUOT:VOL with "
+        metavar="MASS:VOL",
+        help="One replicate (g of standard : mL of titrant), or ALIQUOT:VOL with "
         "--against. Repeat. Without --rep you are asked for them one at a time.",
     ),
     at: str = typer.Option(
-        None, "--at", help="When the work was done (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN",
+        help="When titrated (YYYY-MM-DD[THH:MM], UTC), if not now."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:

@@ -8,7 +8,7 @@ import typer
 def tui(
     ctx: typer.Context,
     poll: float = typer.Option(
-        3.0, "--poll", min=0.0,
+        3.0, "--poll", metavar="SECONDS", min=0.0,
         help="Seconds between checks for writes by others (0: never; Ctrl+R reloads)."),
 ) -> None:
     """Open the full-screen app: board, batches, recording, review desk and audit trail."""

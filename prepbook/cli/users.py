@@ -17,13 +17,13 @@ app = typer.Typer(
 @app.command("add")
 def add(
     ctx: typer.Context,
-    name: str = typer.Argument(..., help="Login name of the new user."),
-    role: str = typer.Option(..., "--role", help="technician, reviewer or admin."),
+    name: str = typer.Argument(..., metavar="NAME", help="Login name of the new user."),
+    role: str = typer.Option(..., "--role", metavar="ROLE", help="technician, reviewer or admin."),
     passphrase_stdin: bool = typer.Option(
         False,
         "--passphrase-stdin",
-        help="Read the new passphrase from line 1 of standard input and the acting "
-        "admin's from line 2 (not needed for the first user).",
+        help="Read the new passphrase (line 1) and the acting admin's (line 2, not for the "
+        "first user) from standard input.",
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the new user as JSON."),
 ) -> None:
@@ -76,14 +76,15 @@ def _manage(ctx: typer.Context, name: str, reason: str, passphrase_stdin: bool, 
                                else f"unlocked {user['name']}")
 
 
-_REASON = typer.Option(..., "--reason", help="Why (kept in the audit trail).")
+_REASON = typer.Option(..., "--reason", metavar="TEXT", help="Why (kept in the audit trail).")
 _STDIN = typer.Option(False, "--passphrase-stdin",
                       help="Read your (admin) passphrase from standard input.")
 _JSON = typer.Option(False, "--json", help="Print the user as JSON.")
 
 
 @app.command("disable")
-def disable(ctx: typer.Context, name: str = typer.Argument(..., help="User to disable."),
+def disable(ctx: typer.Context, name: str = typer.Argument(..., metavar="NAME",
+                                                           help="User to disable."),
             reason: str = _REASON, passphrase_stdin: bool = _STDIN,
             as_json: bool = _JSON) -> None:
     """Disable a user (admin, signed): they can do nothing; their records stay."""
@@ -91,7 +92,8 @@ def disable(ctx: typer.Context, name: str = typer.Argument(..., help="User to di
 
 
 @app.command("enable")
-def enable(ctx: typer.Context, name: str = typer.Argument(..., help="User to enable again."),
+def enable(ctx: typer.Context, name: str = typer.Argument(..., metavar="NAME",
+                                                          help="User to enable again."),
            reason: str = _REASON, passphrase_stdin: bool = _STDIN,
            as_json: bool = _JSON) -> None:
     """Enable a disabled user again (admin, signed)."""
@@ -99,7 +101,8 @@ def enable(ctx: typer.Context, name: str = typer.Argument(..., help="User to ena
 
 
 @app.command("unlock")
-def unlock(ctx: typer.Context, name: str = typer.Argument(..., help="User to unlock."),
+def unlock(ctx: typer.Context, name: str = typer.Argument(..., metavar="NAME",
+                                                          help="User to unlock."),
            reason: str = _REASON, passphrase_stdin: bool = _STDIN,
            as_json: bool = _JSON) -> None:
     """Unlock a user locked out by wrong passphrases (admin, signed)."""

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import typer
 from typer.main import get_command
 from typer.testing import CliRunner
@@ -41,3 +43,42 @@ def test_help_runs_for_every_command() -> None:
 def test_usage_error_exits_2() -> None:
     result = CliRunner().invoke(app, ["calc", "normality", "--no-such-option"])
     assert result.exit_code == 2
+
+
+# Typer's own placeholders, which say nothing of what to type: a type name in angle
+# brackets for an option's value (<str>, <int range>, ...), and an argument's parameter
+# name in lowercase, in braces or brackets, in the Usage line ({code}, [code]).
+_TYPE_PLACEHOLDER = re.compile(r"<[a-z][a-z ]*>")
+_LOWERCASE_ARGUMENT = re.compile(r"[{\[][a-z][a-z0-9_]*(?:\.\.\.)?[}\]]")
+
+
+def _name(path: list[str]) -> str:
+    return " ".join(["prepbook", *path])
+
+
+def test_no_help_screen_shows_a_typer_placeholder() -> None:
+    runner = CliRunner()
+    root = get_command(app)
+    for path, _command in _walk(root, []):
+        result = runner.invoke(app, [*path, "--help"])
+        assert result.exit_code == 0, (path, result.stdout, result.stderr)
+        screen = result.stdout
+        assert not _TYPE_PLACEHOLDER.search(screen), (
+            f"{_name(path)} --help: {_TYPE_PLACEHOLDER.findall(screen)}\n{screen}")
+        usage = screen.split("\n\n", 1)[0]  # the Usage line, however it wraps
+        assert usage.startswith(f"Usage: {_name(path)} "), usage
+        assert not _LOWERCASE_ARGUMENT.search(usage), f"{_name(path)} --help: {usage}"
+
+
+def test_every_argument_and_option_value_has_a_metavar_in_capitals() -> None:
+    root = get_command(app)
+    seen = 0
+    for path, command in _walk(root, []):
+        for param in command.params:
+            if getattr(param, "is_flag", False) or param.name == "help":
+                continue
+            where = f"{_name(path)} {'/'.join(param.opts)}"
+            assert param.metavar, f"{where} has no metavar"
+            assert param.metavar == param.metavar.upper(), f"{where}: {param.metavar!r}"
+            seen += 1
+    assert seen > 100
