@@ -76,8 +76,8 @@ def life_facts(session: Session, batch_id: int, read: Callable[[], T2]) -> T2:
     return held  # type: ignore[no-any-return]
 
 
-def by_code(session: Session, model: type[T], code: str, what: str) -> T:
-    """The row of ``model`` with this code, or NotFound naming close matches."""
+def find_by_code(session: Session, model: type[T], code: str) -> T | None:
+    """The row of ``model`` with this code, or None (looked up once per transaction)."""
     key = (model, code)
     row = _remembered(session, key)
     if row is not None:
@@ -85,6 +85,13 @@ def by_code(session: Session, model: type[T], code: str, what: str) -> T:
     row = session.scalars(select(model).where(model.code == code)).first()  # type: ignore[attr-defined]
     if row is not None:
         _memo(session)[key] = row
+    return row
+
+
+def by_code(session: Session, model: type[T], code: str, what: str) -> T:
+    """The row of ``model`` with this code, or NotFound naming close matches."""
+    row = find_by_code(session, model, code)
+    if row is not None:
         return row
     # Codes are case-sensitive in the record; offer a case-insensitive match.
     codes = list(session.scalars(select(model.code)))  # type: ignore[attr-defined]
@@ -187,6 +194,11 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
             else:  # a lot, instrument or spec may be any batch's
                 facts.clear()
     writer = session.info.get(IDS_KEY)
+    code = getattr(row, "code", None)
+    if code is not None and inspect(row).transient:
+        # A new coded row is found by code for the rest of the transaction without a
+        # query (codes never change once recorded).
+        _memo(session)[(type(row), code)] = row
     if writer is not None:
         # Grouped bulk writing (store.bulk): a new row gets its id here and waits in
         # the group's buffer for the next statement; a changed row is an UPDATE of
@@ -245,6 +257,7 @@ __all__ = [
     "Run",
     "acting",
     "by_code",
+    "find_by_code",
     "check_passphrase",
     "iso",
     "not_future",

@@ -35,6 +35,7 @@ from prepbook.lab.common import (
     REVIEWERS,
     acting,
     by_code,
+    find_by_code,
     not_future,
     setting,
     signed,
@@ -468,10 +469,10 @@ def exclude(db: Database, *, actor: str, run: str, replicate: int, reason: str |
 
 def _run_to_review(s: Session, code: str) -> Run:
     """The run with this code; or, given a batch code, that batch's one run awaiting review."""
-    r = s.scalars(select(Run).where(Run.code == code)).first()
+    r = find_by_code(s, Run, code)
     if r is not None:
         return r
-    b = s.scalars(select(Batch).where(Batch.code == code)).first()
+    b = find_by_code(s, Batch, code)
     if b is None:
         return by_code(s, Run, code, "run")  # raises NotFound with suggestions
     waiting = list(s.scalars(select(Run).where(Run.batch_id == b.id,
