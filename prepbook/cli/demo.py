@@ -8,11 +8,35 @@ import typer
 
 from prepbook.cli import output
 
+DEMO_DB = "demo-lab.db"
+
+
+def _target(ctx: typer.Context, own: str | None) -> str:
+    """The demo's own --db; else a --db typed before the command; else demo-lab.db.
+
+    Only a root --db typed on the command line counts, not PREPBOOK_DB: that names
+    the lab's working database, which a demo must never be aimed at by accident.
+    """
+    from prepbook.errors import InvalidInput
+
+    root = ctx.find_root()
+    target = own
+    source = root.get_parameter_source("db")  # typed, from the environment, or default
+    if target is None and getattr(source, "name", None) == "COMMANDLINE":
+        target = root.params.get("db")
+    target = target or DEMO_DB
+    if "://" in target:
+        raise InvalidInput(f"the demo builds a new SQLite file; {target.split('://')[0]}:// "
+                           "is a server URL (give a file path with --db)")
+    return str(target)
+
 
 def demo(
+    ctx: typer.Context,
     db: str = typer.Option(
-        "demo-lab.db", "--db", metavar="FILE",
-        help="The new SQLite file for the demo lab."
+        None, "--db", metavar="FILE",
+        help=f"The new SQLite file for the demo lab (default: a --db given before "
+             f"`demo`, else {DEMO_DB}).", show_default=False,
     ),
     replace: bool = typer.Option(
         False, "--replace", help="Move an existing file at --db aside first (kept as .old-*)."
@@ -28,10 +52,11 @@ def demo(
     from prepbook.cli.board import render_board
     from prepbook.lab import demo as demo_lab
 
+    target = Path(_target(ctx, db))
     if years is not None:
-        res = demo_lab.build_history(Path(db), years=years, replace=replace)
+        res = demo_lab.build_history(target, years=years, replace=replace)
     else:
-        res = demo_lab.build(Path(db), replace=replace)
+        res = demo_lab.build(target, replace=replace)
     if as_json:
         output.emit_json(res["board"])
         return

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import pytest
@@ -56,3 +57,18 @@ def test_demo_command_prints_the_board(tmp_path: Path) -> None:
     cli = Cli(tmp_path / "unused.db")
     result = cli.ok("demo", "--db", str(tmp_path / "d.db"))
     assert "Board" in result.stdout and "DUE" in result.stdout and "EXPIRED" in result.stdout
+
+
+def test_demo_builds_where_a_db_typed_before_the_command_says(tmp_path: Path) -> None:
+    cli = Cli(tmp_path / "lab.db")
+    result = cli.ok("demo", "--json")
+    assert (tmp_path / "lab.db").exists()
+    assert not (tmp_path / "demo-lab.db").exists()
+    assert json.loads(result.stdout)
+
+
+def test_demo_refuses_a_server_url_and_writes_nothing(tmp_path: Path) -> None:
+    cli = Cli("postgresql+psycopg://someone@127.0.0.1:1/nowhere")
+    result = cli.refused("demo")
+    assert "server URL" in result.stderr
+    assert list(tmp_path.iterdir()) == []
