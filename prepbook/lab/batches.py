@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
+import functools
 import json
 from datetime import date
 from typing import Any
 
-from sqlalchemy import func, select
+from sqlalchemy import bindparam, func, select
 from sqlalchemy.orm import Session, joinedload
 
 from prepbook.errors import InvalidInput, Refused
@@ -20,12 +21,21 @@ from prepbook.store.models import Batch, Instrument, Lot, Replicate, Review, Run
 
 def next_code(session: Session, model: type[Batch] | type[Run], prefix: str) -> str:
     """The next free code ``prefix-N`` (N counts up per prefix)."""
-    like = f"{prefix}-%"
-    taken = set(session.scalars(select(model.code).where(model.code.like(like))))
+    taken = set(session.scalars(_codes_like(model), {"like": f"{prefix}-%"}))
     n = len(taken) + 1
     while f"{prefix}-{n}" in taken:
         n += 1
     return f"{prefix}-{n}"
+
+
+@functools.cache
+def _codes_like(model: type[Batch] | type[Run]) -> Any:
+    return select(model.code).where(model.code.like(bindparam("like")))
+
+
+@functools.cache
+def _reviews_of_run() -> Any:
+    return select(Review).where(Review.run_id == bindparam("run_id")).order_by(Review.id)
 
 
 def instrument_of(session: Session, code: str | None, kind: str) -> Instrument | None:
@@ -236,8 +246,7 @@ def run_dict(session: Session, run: Run, *, with_replicates: bool = True,
     already for many runs at once (``show_batch``), in id / (position, version) order."""
     result = json.loads(run.result_json) if run.result_json else {}
     if reviews is None:
-        reviews = list(session.scalars(select(Review).where(Review.run_id == run.id)
-                                       .order_by(Review.id)))
+        reviews = list(session.scalars(_reviews_of_run(), {"run_id": run.id}))
     out: dict[str, Any] = {
         "run": run.code,
         "method": run.method,

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from datetime import date
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session, aliased
 
 from prepbook.inputs import utc_now
@@ -128,21 +128,38 @@ def _batch_rows_query() -> Any:
     )
 
 
-def _run_facts(session: Session, batch_ids: Any) -> dict[int, list[_RunFacts]]:
-    """The runs of the given batches (a list of ids, or a subquery selecting them)."""
-    q = _run_facts_query().where(Run.batch_id.in_(batch_ids))
+@functools.cache
+def _one_batch_queries() -> tuple[Any, Any]:
+    """The two queries of one batch's life, its id a parameter (built and keyed once)."""
+    return (_batch_rows_query().where(Batch.id == bindparam("batch_id")),
+            _run_facts_query().where(Run.batch_id == bindparam("batch_id")))
+
+
+def _run_facts(session: Session, batch_ids: Any, *,
+               one: int | None = None) -> dict[int, list[_RunFacts]]:
+    """The runs of the given batches (a list of ids, or a subquery selecting them), or
+    with ``one`` of that one batch."""
+    if one is not None:
+        result = session.execute(_one_batch_queries()[1], {"batch_id": one})
+    else:
+        result = session.execute(_run_facts_query().where(Run.batch_id.in_(batch_ids)))
     out: dict[int, list[_RunFacts]] = defaultdict(list)
     for (bid, at, status, n, f, lot_code, lot_exp, bal_code, bal_due, bur_code,
-         bur_due) in session.execute(q):
+         bur_due) in result:
         dues = tuple((c, k, d) for c, k, d in ((bal_code, "balance", bal_due),
                                                (bur_code, "burette", bur_due)) if c)
         out[bid].append(_RunFacts(bid, at.date(), status, n, f, lot_code, lot_exp, dues))
     return out
 
 
-def _batch_rows(session: Session, where: Any) -> list[tuple[Batch, Spec, list, Any]]:
+def _batch_rows(session: Session, where: Any, *,
+                one: int | None = None) -> list[tuple[Batch, Spec, list, Any]]:
     rows = []
-    for batch, spec, fc, fd, bc, bd, lc, le in session.execute(_batch_rows_query().where(where)):
+    if one is not None:
+        result = session.execute(_one_batch_queries()[0], {"batch_id": one})
+    else:
+        result = session.execute(_batch_rows_query().where(where))
+    for batch, spec, fc, fd, bc, bd, lc, le in result:
         instruments = [(c, k, d) for c, k, d in ((fc, "flask", fd), (bc, "balance", bd)) if c]
         rows.append((batch, spec, instruments, (lc, le) if lc else None))
     return rows
@@ -164,8 +181,8 @@ def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
     one transaction read it once.
     """
     def read() -> tuple[Any, ...]:
-        rows = _batch_rows(session, Batch.id == batch.id)
-        facts = _run_facts(session, [batch.id])
+        rows = _batch_rows(session, None, one=batch.id)
+        facts = _run_facts(session, None, one=batch.id)
         b, spec, instruments, lot = rows[0]
         return b, spec, instruments, lot, facts.get(b.id, [])
 

@@ -7,12 +7,13 @@ what they return is plain data.
 from __future__ import annotations
 
 import difflib
+import functools
 import json
 from collections.abc import Callable
 from datetime import date, datetime
 from typing import Any, TypeVar
 
-from sqlalchemy import inspect, select
+from sqlalchemy import bindparam, inspect, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, NotFound, Refused
@@ -82,10 +83,16 @@ def find_by_code(session: Session, model: type[T], code: str) -> T | None:
     row = _remembered(session, key)
     if row is not None:
         return row  # type: ignore[no-any-return]
-    row = session.scalars(select(model).where(model.code == code)).first()  # type: ignore[attr-defined]
+    row = session.scalars(_by_code_query(model), {"code": code}).first()
     if row is not None:
         _memo(session)[key] = row
     return row
+
+
+@functools.cache
+def _by_code_query(model: type[Base]) -> Any:
+    """``model`` by its code, the code a parameter (built and keyed once per model)."""
+    return select(model).where(model.code == bindparam("code"))  # type: ignore[attr-defined]
 
 
 def by_code(session: Session, model: type[T], code: str, what: str) -> T:

@@ -9,13 +9,14 @@ second person's signed decision.
 
 from __future__ import annotations
 
+import functools
 import json
 import math
 from dataclasses import asdict, dataclass, replace
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
@@ -484,14 +485,20 @@ def _run_to_review(s: Session, code: str) -> Run:
     return waiting[0]
 
 
+@functools.cache
+def _correctors_query() -> Any:
+    """Who recorded a later version (a correction) of one of a run's replicates."""
+    return select(Replicate.created_by).where(Replicate.run_id == bindparam("run_id"),
+                                              Replicate.version > 1)
+
+
 def _review_precheck(s: Session, actor: str, run: str) -> Run:
     reviewer = acting(s, actor, REVIEWERS, "review standardizations")
     r = _run_to_review(s, run)
     if r.analyst == reviewer.name:
         raise Refused(f"{reviewer.name} recorded run {r.code} and cannot review it; "
                       "a second person must")
-    corrected_by = {rep.created_by for rep in s.scalars(
-        select(Replicate).where(Replicate.run_id == r.id, Replicate.version > 1))}
+    corrected_by = set(s.scalars(_correctors_query(), {"run_id": r.id}))
     if reviewer.name in corrected_by:
         raise Refused(f"{reviewer.name} corrected run {r.code} and cannot review it")
     if r.status != "awaiting-review":
