@@ -12,7 +12,7 @@ from __future__ import annotations
 import functools
 import json
 import math
-from dataclasses import asdict, dataclass, replace
+from dataclasses import dataclass, fields, replace
 from datetime import datetime
 from typing import Any
 
@@ -61,7 +61,11 @@ def _float(text: str | None) -> float | None:
 
 
 def _budget_dicts(unc: Any) -> list[dict[str, Any]]:
-    return [asdict(line) for line in unc.budget] if unc is not None else []
+    # The budget lines are flat dataclasses of scalars: their fields, without asdict's
+    # recursive deep copy.
+    if unc is None:
+        return []
+    return [{f.name: getattr(line, f.name) for f in fields(line)} for line in unc.budget]
 
 
 def _check_dicts(checks: Any) -> list[dict[str, Any]]:

@@ -101,10 +101,14 @@ class BulkWriter:
                 setattr(row, attr, None)  # loaded as NULL, not expired (no reload)
             values[key] = state[attr]
         self._rows.setdefault(table, []).append(values)
-        # The object joins the session as a stored row: later changes to it are
-        # ordinary UPDATEs, written by the unit of work after this buffer.
+        # The object becomes a stored row. One whose model lets columns change joins
+        # the session (its changes come back through ``change``); one that can never
+        # change (a replicate, a use, a review: most rows) stays outside it, detached,
+        # so the session does not carry hundreds of thousands of rows it will never
+        # write, and a later query reads it from the database like any other row.
         make_transient_to_detached(row)
-        self._session.add(row)
+        if type(row).__updatable__:
+            self._session.add(row)
 
     def change(self, row: Any) -> None:
         """A stored row changed in place: its UPDATE, buffered after the inserts.
