@@ -177,16 +177,16 @@ def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
 
     What it is computed from (the batch, its runs, instruments and lots) is read once
     per transaction and kept until the transaction writes a batch, run, lot,
-    instrument or spec (``common.life_facts``), so many uses of one batch grouped in
-    one transaction read it once.
+    instrument or spec (``common.life_facts``; a run of the batch drops only its runs),
+    so many uses of one batch grouped in one transaction read it once.
     """
-    def read() -> tuple[Any, ...]:
-        rows = _batch_rows(session, None, one=batch.id)
-        facts = _run_facts(session, None, one=batch.id)
-        b, spec, instruments, lot = rows[0]
-        return b, spec, instruments, lot, facts.get(b.id, [])
+    def read_batch() -> tuple[Any, ...]:
+        return _batch_rows(session, None, one=batch.id)[0]
 
-    b, spec, instruments, lot, runs = life_facts(session, batch.id, read)
+    def read_runs() -> list[_RunFacts]:
+        return _run_facts(session, None, one=batch.id).get(batch.id, [])
+
+    (b, spec, instruments, lot), runs = life_facts(session, batch.id, read_batch, read_runs)
     return _life(batch=b, spec=spec, runs=runs, batch_instruments=instruments,
                  solute_lot=lot, today=today, lead_days=_lead_days(session))
 

@@ -59,22 +59,34 @@ def _remembered(session: Session, key: Any) -> Any:
 
 
 _LIFE = ("life",)
+_LIFE_RUNS = ("life", "runs")
 # Writing one of these can change a batch's state, dates or warnings.
 _LIFE_TABLES = frozenset({"batches", "runs", "lots", "instruments", "specs"})
 
 
-def life_facts(session: Session, batch_id: int, read: Callable[[], T2]) -> T2:
-    """What a batch's life is computed from, read once per transaction by ``read()``.
+def life_facts(session: Session, batch_id: int, read_batch: Callable[[], T2],
+               read_runs: Callable[[], Any]) -> tuple[T2, Any]:
+    """What a batch's life is computed from, read once per transaction.
 
-    Kept until this transaction writes (through ``write``) a row that can change it;
-    see ``board.batch_life``.
+    ``read_batch()`` gives the batch's own part (its row, spec, instruments, lot),
+    ``read_runs()`` its runs. Each is kept until this transaction writes (through
+    ``write``) a row that can change it: a run of the batch drops only the runs; the
+    batch itself drops both; a lot, instrument or spec (any batch's) drops all. See
+    ``board.batch_life``.
     """
-    facts = _memo(session).setdefault(_LIFE, {})
-    held = facts.get(batch_id)
+    memo = _memo(session)
+    own = memo.setdefault(_LIFE, {})
+    held = own.get(batch_id)
     if held is None or held[0] not in session:
-        held = read()
-        facts[batch_id] = held
-    return held  # type: ignore[no-any-return]
+        held = read_batch()
+        own[batch_id] = held
+        memo.setdefault(_LIFE_RUNS, {}).pop(batch_id, None)
+    runs_memo = memo.setdefault(_LIFE_RUNS, {})
+    if batch_id in runs_memo:
+        runs = runs_memo[batch_id]
+    else:
+        runs = runs_memo[batch_id] = read_runs()
+    return held, runs
 
 
 def find_by_code(session: Session, model: type[T], code: str) -> T | None:
@@ -192,14 +204,19 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
     if isinstance(row, Setting):
         _memo(session).pop(_SETTINGS, None)
     elif row.__tablename__ in _LIFE_TABLES:
-        facts = _memo(session).get(_LIFE)
-        if facts:
-            if isinstance(row, Run):
-                facts.pop(row.batch_id, None)
-            elif isinstance(row, Batch):
-                facts.pop(row.id, None)
-            else:  # a lot, instrument or spec may be any batch's
-                facts.clear()
+        memo = _memo(session)
+        own, runs = memo.get(_LIFE), memo.get(_LIFE_RUNS)
+        if isinstance(row, Run):
+            if runs:
+                runs.pop(row.batch_id, None)
+        elif isinstance(row, Batch):
+            for facts in (own, runs):
+                if facts:
+                    facts.pop(row.id, None)
+        else:  # a lot, instrument or spec may be any batch's
+            for facts in (own, runs):
+                if facts:
+                    facts.clear()
     writer = session.info.get(IDS_KEY)
     code = getattr(row, "code", None)
     if code is not None and inspect(row).transient:
