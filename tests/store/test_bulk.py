@@ -50,9 +50,21 @@ def _lab(db: Database) -> dict[str, Any]:
                 passphrase=PASS[REVIEWER], at="2026-06-01T10:00")
     used = batches.use_batch(db, actor=TECH, code=code, volume="12.5",
                              purpose="alkalinity, sample GT-1", at="2026-06-02T11:00")
+    # Restandardized (weaker now): a use after it must see the new factor, not the
+    # first one, whether each call is its own transaction or all share one.
+    again = runs.standardize(db, actor=TECH, batch=code, lot="KHP-GT-1", balance="BAL-7",
+                             burette="BUR-7", temperature="21.0",
+                             replicates=["0.8123:40.10", "0.8201:40.49", "0.8150:40.22"],
+                             at="2026-06-02T14:00")
+    runs.review(db, actor=REVIEWER, run=again["run"], accept=True, reason=None,
+                passphrase=PASS[REVIEWER], at="2026-06-02T15:00")
+    later = batches.use_batch(db, actor=TECH, code=code, volume="10.0",
+                              purpose="alkalinity, sample GT-2", at="2026-06-02T16:00")
     history.retire(db, actor=TECH, code=code, reason="used up", passphrase=PASS[TECH],
                    at="2026-06-03T08:00")
-    return {"batch": code, "run": out["run"], "factor": used["factor"]}
+    assert later["factor"] < used["factor"]
+    return {"batch": code, "runs": [out["run"], again["run"]],
+            "factors": [used["factor"], later["factor"]]}
 
 
 def _tables(path: Path) -> dict[str, list[dict[str, Any]]]:
@@ -105,8 +117,8 @@ def test_grouped_writes_record_exactly_what_ordinary_writes_record(tmp_path: Pat
     for name in plain_tables:
         assert grouped_tables[name] == plain_tables[name], name
     # The story really wrote through every table it touches (the comparison is not empty).
-    assert len(plain_tables["replicates"]) == 3 and len(plain_tables["uses"]) == 1
-    assert plain_tables["runs"][0]["status"] == "accepted"
+    assert len(plain_tables["replicates"]) == 6 and len(plain_tables["uses"]) == 2
+    assert [r["status"] for r in plain_tables["runs"]] == ["accepted", "accepted"]
     assert plain_tables["batches"][0]["retired_at"] is not None
 
 
