@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session, aliased
 
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
-from prepbook.lab.common import iso, life_facts, setting
+from prepbook.lab.common import iso, life_facts, life_result, setting
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Spec
 
@@ -187,8 +187,11 @@ def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
         return _run_facts(session, None, one=batch.id).get(batch.id, [])
 
     (b, spec, instruments, lot), runs = life_facts(session, batch.id, read_batch, read_runs)
-    return _life(batch=b, spec=spec, runs=runs, batch_instruments=instruments,
-                 solute_lot=lot, today=today, lead_days=_lead_days(session))
+    lead = _lead_days(session)
+    life = life_result(session, batch.id, (today, lead), lambda: _life(
+        batch=b, spec=spec, runs=runs, batch_instruments=instruments, solute_lot=lot,
+        today=today, lead_days=lead))
+    return {**life, "warnings": list(life["warnings"])}  # the caller's own copy
 
 
 def board(db: Database, today: date | None = None) -> list[dict[str, Any]]:

@@ -25,6 +25,7 @@ from prepbook.store.models import Base, Batch, Instrument, Lot, Run, Setting, Sp
 
 T = TypeVar("T", bound=Base)
 T2 = TypeVar("T2", bound=tuple)  # type: ignore[type-arg]
+T3 = TypeVar("T3")
 
 RECORDERS = ("technician", "reviewer", "admin")
 REVIEWERS = ("reviewer", "admin")
@@ -60,6 +61,7 @@ def _remembered(session: Session, key: Any) -> Any:
 
 _LIFE = ("life",)
 _LIFE_RUNS = ("life", "runs")
+_LIFE_DONE = ("life", "done")
 # Writing one of these can change a batch's state, dates or warnings.
 _LIFE_TABLES = frozenset({"batches", "runs", "lots", "instruments", "specs"})
 
@@ -81,12 +83,23 @@ def life_facts(session: Session, batch_id: int, read_batch: Callable[[], T2],
         held = read_batch()
         own[batch_id] = held
         memo.setdefault(_LIFE_RUNS, {}).pop(batch_id, None)
+        memo.setdefault(_LIFE_DONE, {}).pop(batch_id, None)
     runs_memo = memo.setdefault(_LIFE_RUNS, {})
     if batch_id in runs_memo:
         runs = runs_memo[batch_id]
     else:
         runs = runs_memo[batch_id] = read_runs()
+        memo.setdefault(_LIFE_DONE, {}).pop(batch_id, None)
     return held, runs
+
+
+def life_result(session: Session, batch_id: int, key: Any, compute: Callable[[], T3]) -> T3:
+    """A batch's life for ``key`` (the day and lead time), computed once from the facts
+    ``life_facts`` holds and dropped with them."""
+    done = _memo(session).setdefault(_LIFE_DONE, {}).setdefault(batch_id, {})
+    if key not in done:
+        done[key] = compute()
+    return done[key]  # type: ignore[no-any-return]
 
 
 def find_by_code(session: Session, model: type[T], code: str) -> T | None:
@@ -205,16 +218,17 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
         _memo(session).pop(_SETTINGS, None)
     elif row.__tablename__ in _LIFE_TABLES:
         memo = _memo(session)
-        own, runs = memo.get(_LIFE), memo.get(_LIFE_RUNS)
+        own, runs, done = memo.get(_LIFE), memo.get(_LIFE_RUNS), memo.get(_LIFE_DONE)
         if isinstance(row, Run):
-            if runs:
-                runs.pop(row.batch_id, None)
+            for facts in (runs, done):
+                if facts:
+                    facts.pop(row.batch_id, None)
         elif isinstance(row, Batch):
-            for facts in (own, runs):
+            for facts in (own, runs, done):
                 if facts:
                     facts.pop(row.id, None)
         else:  # a lot, instrument or spec may be any batch's
-            for facts in (own, runs):
+            for facts in (own, runs, done):
                 if facts:
                     facts.clear()
     writer = session.info.get(IDS_KEY)
