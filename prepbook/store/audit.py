@@ -620,24 +620,41 @@ def _row_reader(table: Any, on_sqlite: bool) -> tuple[Any, RowReader, RowReader]
     keeps text columns as read and converts the rest; see ``_check_rows`` for when
     its result may be trusted.
     """
-    from sqlalchemy import Date, DateTime
+    from sqlalchemy import Date, DateTime, and_, case, func
 
     names = tuple(name for name, _ in snapshot_columns(table))
     selected = []
     work: list[tuple[str, Callable[[Any], Any]]] = []
+    as_read: set[str] = set()  # canonical text as selected, for ``quick``
     for name, convert in snapshot_columns(table):
         column = table.c[name]
         if on_sqlite and isinstance(column.type, DateTime | Date) and not audited_in_digest(column):
-            # Read SQLite's stored text and rewrite it without parsing (the hot path);
-            # any change to the text still changes the result.
-            convert = _stored_time_iso if isinstance(column.type, DateTime) else _raw_date_text
-            selected.append(type_coerce(column, String()).label(name))
+            text = type_coerce(column, String())
+            if isinstance(column.type, DateTime):
+                # SQLite's 'YYYY-MM-DD HH:MM:SS.ffffff' rewritten to the canonical ISO
+                # text by SQLite itself (the hot path); any other text is selected as
+                # stored, so it cannot match its snapshot by accident and goes the
+                # careful way, which parses it.
+                selected.append(case(
+                    (and_(func.length(text) == 26, func.substr(text, 11, 1) == " ",
+                          func.substr(text, 20, 1) == "."),
+                     func.substr(text, 1, 10) + "T" + func.substr(text, 12)),
+                    else_=text).label(name))
+                convert = _stored_time_iso
+            else:
+                # A date's stored text 'YYYY-MM-DD' is its canonical text already.
+                selected.append(text.label(name))
+                convert = _raw_date_text
+            as_read.add(name)
         else:
             selected.append(column)
         work.append((name, convert))
     # Text is canonical as read (SQLite's text affinity keeps numbers as text, and
-    # anything else, such as a blob, fails to encode); every other column converts.
-    needed = tuple((n, c) for n, c in work if passthrough_type(table.c[n]) is not str)
+    # anything else, such as a blob, fails to encode), and so is an integer read as an
+    # int (anything else read there spells differently from the event's number, and
+    # goes the careful way); every other column converts.
+    needed = tuple((n, c) for n, c in work
+                   if n not in as_read and passthrough_type(table.c[n]) not in (str, int))
 
     def careful(row: Sequence[Any]) -> dict[str, Any]:
         return {
@@ -653,7 +670,10 @@ def _row_reader(table: Any, on_sqlite: bool) -> tuple[Any, RowReader, RowReader]
                 current[name] = convert(v)
         return current
 
-    return select(*selected).order_by(table.c.id), careful, quick
+    def as_is(row: Sequence[Any]) -> dict[str, Any]:
+        return dict(zip(names, row, strict=True))
+
+    return select(*selected).order_by(table.c.id), careful, (quick if needed else as_is)
 
 
 def _check_rows(
@@ -662,11 +682,11 @@ def _check_rows(
     """Every audited row must equal the snapshot in its last event, and vice versa.
 
     A row equals its snapshot when its canonical JSON is the event's text. The quick
-    snapshot (text as read) is trusted only when it gives exactly the text of an
-    event that matched its hash: that text was written by ``record()``, so a text
-    column read as anything but a string would have spelled it differently. Every
-    other row is made with every canonicaliser, as before (the quick one is kept
-    when its text columns are all strings, which is then the same dict).
+    snapshot (text and integers as read) is trusted only when it gives exactly the
+    text of an event that matched its hash: that text was written by ``record()``, so
+    a text column read as anything but a string, an integer column read as anything
+    but an int, or a time in any other shape would have spelled it differently. Every
+    other row is made with every canonicaliser.
 
     The rows that still differ are looked at again with their events read back: an
     event written before a column was digested holds that column's full text and is
@@ -679,31 +699,22 @@ def _check_rows(
         stmt, careful, quick = _row_reader(table, on_sqlite)
         names = [n for n, _ in snapshot_columns(table)]
         rid_at = names.index("id")
-        text_names = [n for n in names if passthrough_type(table.c[n]) is str]
         # Rows whose text is not their last event's: (row snapshot, its text, event seq).
         recheck: list[tuple[dict[str, Any], str, int]] = []
         try:
             for rows in _batches(conn, stmt):
                 for row in rows:
                     last = last_values.get((name, row[rid_at]))
-                    current: dict[str, Any] | None = None
-                    text: str | None = None
                     if last is not None and last[2]:
                         try:
-                            current = quick(row)
-                            text = _flat_json(current)
+                            quick_text = _flat_json(quick(row))
                         except (ValueError, TypeError):
-                            current = text = None
-                        if text is not None and _digest(text) == last[1]:
+                            quick_text = None
+                        if quick_text is not None and _digest(quick_text) == last[1]:
                             seen.add((name, row[rid_at]))
                             continue
-                        if current is not None and not all(
-                            type(current[n]) is str or current[n] is None for n in text_names
-                        ):
-                            current = text = None  # careful would spell these otherwise
-                    if current is None:
-                        current = careful(row)
-                        text = None
+                    # Not the event's text as read: every value through its canonicaliser.
+                    current = careful(row)
                     key = (name, current["id"])
                     seen.add(key)
                     last = last_values.get(key)
@@ -714,11 +725,10 @@ def _check_rows(
                             "added outside prepbook",
                         )
                         continue
-                    if text is None:
-                        # Columns in sorted order: the canonical JSON record() stores.
-                        text = _flat_json(current)
-                        if _digest(text) == last[1]:
-                            continue
+                    # Columns in sorted order: the canonical JSON record() stores.
+                    text = _flat_json(current)
+                    if _digest(text) == last[1]:
+                        continue
                     problems.reserve("differs")
                     recheck.append((current, text, last[0]))
         except (ValueError, TypeError) as exc:
