@@ -436,6 +436,9 @@ def verify(session: Session) -> VerifyReport:
     other = KEYED if scheme == PLAIN else PLAIN
     session.flush()  # events still pending in this session are part of the trail
     conn = session.connection()
+    writer = writer_of(session)
+    if writer is not None:
+        writer.flush(conn)  # and so are a group's buffered rows and events (store.bulk)
     on_sqlite = conn.dialect.name == "sqlite"
 
     # The last event of each record: its seq, a digest of its snapshot (not the

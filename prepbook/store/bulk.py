@@ -12,13 +12,15 @@ Inside a group, a new row written through ``lab.common.write`` gets its id from
 ``BulkWriter`` (the next id of its table; the group holds the database's write
 lock from its first statement to its commit, so nobody else can take one) and is
 not handed to the ORM's unit of work: its column values are kept in a buffer,
-and the row object joins the session as already stored. Its audit event is
-buffered the same way, and the chain's head is kept in memory. The buffer is
-written out (one multi-row INSERT per table, in foreign-key order, then the head)
-just before the next statement of any kind reaches the database (an engine
-``before_execute`` hook: a query, a lazy load, the unit of work's own UPDATEs),
-and at the end of the group, so no statement ever sees the database without a
-row or event already written. Every row still gets its own audit event, computed
+and the row object becomes a stored row (in the session when its model lets
+columns change). Its audit event is buffered the same way, and the chain's head is
+kept in memory. The rows are written out (one multi-row INSERT per table, in
+foreign-key order, then any buffered UPDATEs) just before the next statement of any
+kind reaches the database (an engine ``before_cursor_execute`` hook: a query, a lazy
+load, the unit of work's own statements); the events and the head go with them
+whenever that statement names an audit table, once 20,000 events wait, and at the
+end of the group. So no statement ever sees the database without a row or event
+already written. Every row still gets its own audit event, computed
 from the same values as outside a group.
 
 A service that raises inside a group spoils the whole group: the block rolls
@@ -42,6 +44,7 @@ from prepbook.errors import DatabaseError, IntegrityError
 from prepbook.store.engine import Database, make_engine, resolve_url, sqlite_path
 
 IDS_KEY = "prepbook_bulk_ids"
+_EVENTS_BACKLOG = 20_000  # audit events held at most before they are written anyway
 
 
 def writer_of(session: Session) -> BulkWriter | None:
@@ -162,8 +165,17 @@ class BulkWriter:
         return bool(self._rows or self._updates or self._events
                     or self._head != self._head_written)
 
-    def flush(self, connection: Connection) -> None:
-        """Write every buffered row, event and the head, in foreign-key order.
+    def before(self, connection: Connection, statement: str) -> None:
+        """Write what ``statement`` may see: the rows always; the trail's events and
+        head when it names an audit table (no service reads them inside a group), or
+        when many events are waiting."""
+        trail = "audit_" in statement or len(self._events) >= _EVENTS_BACKLOG
+        if self._rows or self._updates or (trail and self.pending):
+            self.flush(connection, trail=trail)
+
+    def flush(self, connection: Connection, *, trail: bool = True) -> None:
+        """Write every buffered row (and with ``trail`` every event and the head), in
+        foreign-key order.
 
         The statements are SQLAlchemy's own (compiled once per table and set of
         columns, values through each column type's bind processor), sent with the
@@ -188,6 +200,8 @@ class BulkWriter:
                 updates, self._updates = self._updates, []
                 for table, row_id, values in updates:
                     self._send(cursor, connection, table, [values], row_id=row_id)
+                if not trail:
+                    return
                 events, self._events = self._events, []
                 if events:
                     self._send(cursor, connection, AuditEvent.__table__, events)
@@ -258,12 +272,13 @@ class GroupedDatabase(Database):
             finally:
                 cursor.close()
 
-        @event.listens_for(engine, "before_execute")
-        def _write_buffer_first(conn: Connection, *_args: Any) -> None:
+        @event.listens_for(engine, "before_cursor_execute")
+        def _write_buffer_first(conn: Connection, _cursor: Any, statement: str,
+                                *_args: Any) -> None:
             # Whatever a statement reads or changes, the buffered rows are there first.
             writer = self._writer
             if writer is not None:
-                writer.flush(conn)
+                writer.before(conn, statement)
 
         super().__init__(url, engine=engine)
         self._open: Session | None = None

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from sqlalchemy import text
 
 from prepbook.errors import DatabaseError, IntegrityError, Refused
 from prepbook.lab import auditing, batches, history, instruments, lots, people, runs, setup
@@ -195,3 +196,28 @@ def test_a_group_refuses_a_change_to_a_column_that_never_changes(tmp_path: Path)
     finally:
         db.dispose()
     assert _tables(path) == before
+
+
+def test_verify_inside_a_group_sees_the_buffered_rows_and_events(tmp_path: Path) -> None:
+    from prepbook.store import audit
+
+    path = tmp_path / "grouped.db"
+    _fresh(path)
+    db = GroupedDatabase(str(path))
+    try:
+        with db.group():
+            people.add_user(db, actor=ADMIN, name=ADMIN, role="admin",
+                            passphrase=PASS[ADMIN], actor_passphrase=None)
+            people.add_user(db, actor=ADMIN, name=TECH, role="technician",
+                            passphrase=PASS[TECH], actor_passphrase=PASS[ADMIN])
+            batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
+                               solute_mass="4.0400", at="2026-06-01T08:00")
+            # Events and the head wait in the buffer (no service statement names an
+            # audit table); a verify in the same transaction must still see them all.
+            with db.session() as s:
+                report = audit.verify(s)
+                head = s.execute(text("SELECT seq FROM audit_head")).scalar_one()
+            assert report.ok, report.problems
+            assert report.events == head
+    finally:
+        db.dispose()
