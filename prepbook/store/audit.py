@@ -717,7 +717,14 @@ def _check_rows(
                             seen.add((name, row[rid_at]))
                             continue
                     # Not the event's text as read: every value through its canonicaliser.
-                    current = careful(row)
+                    try:
+                        current = careful(row)
+                    except (ValueError, TypeError) as exc:
+                        # Named on its own; the table's other rows are still checked.
+                        seen.add((name, row[rid_at]))
+                        problems.add("unreadable", f"{name} #{row[rid_at]} cannot be read "
+                                     f"({exc}): edited outside prepbook")
+                        continue
                     key = (name, current["id"])
                     seen.add(key)
                     last = last_values.get(key)

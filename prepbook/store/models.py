@@ -448,6 +448,25 @@ def _float(value: Any) -> float | str:
     return number if math.isfinite(number) else repr(number)
 
 
+def _int(value: Any) -> int:
+    """A whole number as stored; anything else (1.25, 'x', a blob) is refused, never
+    truncated, so a fraction written into a whole-number column cannot pass as it."""
+    if type(value) is int:
+        return value
+    if isinstance(value, float) and value.is_integer():
+        return int(value)
+    raise ValueError(f"{value!r} is not a whole number")
+
+
+def _bool(value: Any) -> bool:
+    """A flag as stored: True/False or 1/0 only (not 2, '' or 'yes')."""
+    if type(value) is bool:
+        return value
+    if type(value) is int and value in (0, 1):
+        return bool(value)
+    raise ValueError(f"{value!r} is not a yes/no flag")
+
+
 def _text(value: Any) -> str:
     return value if type(value) is str else str(value)
 
@@ -459,11 +478,11 @@ def _converter(column_type: Any) -> Callable[[Any], Any]:
     if isinstance(column_type, Date):
         return _date
     if isinstance(column_type, Boolean):
-        return bool
+        return _bool
     if isinstance(column_type, Float):
         return _float
     if isinstance(column_type, Integer):
-        return int
+        return _int
     if isinstance(column_type, String):  # Text is a String
         return _text
     return lambda value: str(value) if isinstance(value, Decimal) else value
@@ -532,7 +551,7 @@ def passthrough_type(column: Any) -> type | None:
     convert = _column_converter(column)
     if convert is _text:
         return str
-    if convert is int:
+    if convert is _int:
         return int
     return None
 

@@ -17,7 +17,7 @@ import pytest
 from molmass import Formula
 
 from tests.cli.test_bench_flow import REPS, _at, _days, _make_batch, _standardize, bench  # noqa: F401
-from tests.conftest import Cli, raw_sql, row_counts
+from tests.conftest import Cli, on_postgres, raw_sql, row_counts
 
 M_KHP = Formula("KHC8H4O4").mass
 
@@ -51,6 +51,22 @@ def test_an_edited_replicate_is_named(recorded: tuple[Cli, str, str]) -> None:
     raw_sql(cli.db, "UPDATE replicates SET volume_ml_text = '39.61' WHERE position = 1")
     out = _verify_fails(cli)
     assert "replicates #1" in out and "volume_ml_text" in out
+
+
+@pytest.mark.parametrize(("sql", "column"), [
+    # A fraction in a whole-number column must not be read back as its whole part...
+    ("UPDATE replicates SET position = 1.25 WHERE id = 1", "position"),
+    # ...nor a flag that is neither 0 nor 1 as a yes or a no.
+    ("UPDATE replicates SET excluded = '' WHERE id = 1", "excluded"),
+])
+def test_a_value_of_the_wrong_kind_is_found_not_coerced(
+        recorded: tuple[Cli, str, str], sql: str, column: str) -> None:
+    cli, _, _ = recorded
+    if on_postgres():
+        pytest.skip("the server's column types refuse these values outright")
+    raw_sql(cli.db, sql)
+    out = _verify_fails(cli)
+    assert "replicates" in out, out
 
 
 def test_an_inserted_row_is_named(recorded: tuple[Cli, str, str]) -> None:
