@@ -613,44 +613,62 @@ def _in_todays_form(raw: str, digested: tuple[str, ...]) -> str | None:
     return None if out is raw else out
 
 
-def _row_reader(table: Any, on_sqlite: bool) -> tuple[Any, RowReader, RowReader]:
-    """The SELECT of every row of ``table`` and two ways of making its snapshot.
+def _row_reader(
+    table: Any, on_sqlite: bool
+) -> tuple[Any, RowReader, Callable[[Sequence[Any]], str], Any]:
+    """The SELECT of every row of ``table``, two ways of reading its snapshot, and on
+    SQLite a SELECT of (snapshot text, id) written by SQLite itself.
 
-    Both give the dict ``record()`` would snapshot, keyed in ``snapshot_columns``
-    order (sorted by name), so it dumps to the canonical JSON the event stored.
-    ``careful`` puts every value through its column's canonicaliser, so a value of
-    the wrong type is converted or refused (``ValueError``/``TypeError``). ``quick``
-    keeps text columns as read and converts the rest; see ``_check_rows`` for when
-    its result may be trusted.
+    ``careful`` gives the dict ``record()`` would snapshot, keyed in
+    ``snapshot_columns`` order (sorted by name) so it dumps to the canonical JSON the
+    event stored, every value through its column's canonicaliser (a value of the
+    wrong type is converted or refused with ``ValueError``/``TypeError``). ``quick``
+    gives that JSON text the fast way, text and integers as read; see
+    ``_check_rows`` for when it may be trusted. The third SELECT (for a table of
+    text, whole numbers, flags and times only; see ``_sql_text_ok``) has SQLite
+    write that text with ``json_object``: a flag as true/false only when it is 1/0,
+    a time rewritten only in the shape SQLAlchemy stores; anything else is spelled
+    as stored, so it cannot equal the event's text by accident.
     """
-    from sqlalchemy import Date, DateTime, and_, case, func
+    from sqlalchemy import Boolean, Date, DateTime, Integer, and_, case, func, literal
 
     names = tuple(name for name, _ in snapshot_columns(table))
     selected = []
+    rendered: list[tuple[str, Any]] = []  # (name, expression) for json_object
     work: list[tuple[str, Callable[[Any], Any]]] = []
     as_read: set[str] = set()  # canonical text as selected, for ``quick``
     for name, convert in snapshot_columns(table):
         column = table.c[name]
         if on_sqlite and isinstance(column.type, DateTime | Date) and not audited_in_digest(column):
             text = type_coerce(column, String())
+            expr: Any
             if isinstance(column.type, DateTime):
                 # SQLite's 'YYYY-MM-DD HH:MM:SS.ffffff' rewritten to the canonical ISO
                 # text by SQLite itself (the hot path); any other text is selected as
                 # stored, so it cannot match its snapshot by accident and goes the
                 # careful way, which parses it.
-                selected.append(case(
+                expr = case(
                     (and_(func.length(text) == 26, func.substr(text, 11, 1) == " ",
                           func.substr(text, 20, 1) == "."),
                      func.substr(text, 1, 10) + "T" + func.substr(text, 12)),
-                    else_=text).label(name))
+                    else_=text)
                 convert = _stored_time_iso
             else:
                 # A date's stored text 'YYYY-MM-DD' is its canonical text already.
-                selected.append(text.label(name))
+                expr = text
                 convert = _raw_date_text
+            selected.append(expr.label(name))
+            rendered.append((name, expr))
             as_read.add(name)
         else:
             selected.append(column)
+            if isinstance(column.type, Boolean):
+                flag = type_coerce(column, Integer())
+                rendered.append((name, case((flag == 1, func.json("true")),
+                                            (flag == 0, func.json("false")), else_=flag)))
+            else:
+                rendered.append((name, type_coerce(column, String())
+                                 if passthrough_type(column) is str else column))
         work.append((name, convert))
     # Text is canonical as read (SQLite's text affinity keeps numbers as text, and
     # anything else, such as a blob, fails to encode), and so is an integer read as an
@@ -665,18 +683,51 @@ def _row_reader(table: Any, on_sqlite: bool) -> tuple[Any, RowReader, RowReader]
             for (name, convert), v in zip(work, row, strict=True)
         }
 
-    def quick(row: Sequence[Any]) -> dict[str, Any]:
+    text_stmt = None
+    if on_sqlite:
+        pairs = [part for name, expr in rendered for part in (literal(name), expr)]
+        text_stmt = select(func.json_object(*pairs).label("snapshot_text_"),
+                           table.c.id).order_by(table.c.id)
+
+    def quick(row: Sequence[Any]) -> str:
         current = dict(zip(names, row, strict=True))
         for name, convert in needed:
             v = current[name]
             if v is not None:
                 current[name] = convert(v)
-        return current
+        return _flat_json(current)
 
-    def as_is(row: Sequence[Any]) -> dict[str, Any]:
-        return dict(zip(names, row, strict=True))
+    def as_is(row: Sequence[Any]) -> str:
+        return _flat_json(dict(zip(names, row, strict=True)))
 
-    return select(*selected).order_by(table.c.id), careful, (quick if needed else as_is)
+    stmt = select(*selected).order_by(table.c.id)
+    return stmt, careful, (quick if needed else as_is), text_stmt
+
+
+def _sql_text_ok(conn: Any, table: Any) -> bool:
+    """Whether SQLite can write this table's snapshot text itself (``_row_reader``).
+
+    Only for text, whole-number, flag and time columns (a float's spelling is
+    Python's own), with SQLite's JSON functions at hand, and no blob stored in any
+    column (``json_object`` refuses blobs: such a row goes the careful way, which
+    names it).
+    """
+    if conn.dialect.name != "sqlite":
+        return False
+    from sqlalchemy import Boolean, Date, DateTime, Integer, func, literal, or_
+    from sqlalchemy.exc import DBAPIError
+
+    columns = [table.c[name] for name, _ in snapshot_columns(table)]
+    if any(audited_in_digest(c) or not isinstance(c.type, String | Integer | Boolean | Date
+                                                  | DateTime) for c in columns):
+        return False
+    try:
+        conn.execute(select(func.json_object(literal("a"), 1)))
+    except DBAPIError:  # an SQLite without its JSON functions: the Python way
+        return False
+    blob = conn.execute(select(table.c.id).where(
+        or_(*(func.typeof(c) == "blob" for c in columns))).limit(1)).first()
+    return blob is None
 
 
 def _check_rows(
@@ -699,48 +750,71 @@ def _check_rows(
     on_sqlite = conn.dialect.name == "sqlite"
     seen: set[tuple[str, Any]] = set()
     for name, table in AUDITED_TABLES.items():
-        stmt, careful, quick = _row_reader(table, on_sqlite)
+        stmt, careful, quick, text_stmt = _row_reader(table, on_sqlite)
         names = [n for n, _ in snapshot_columns(table)]
         rid_at = names.index("id")
         # Rows whose text is not their last event's: (row snapshot, its text, event seq).
         recheck: list[tuple[dict[str, Any], str, int]] = []
+
+        def the_careful_way(row: Sequence[Any], name: str = name, careful: RowReader = careful,
+                            rid_at: int = rid_at,
+                            recheck: list[tuple[dict[str, Any], str, int]] = recheck) -> None:
+            """A row that is not its event's text as read: every value canonicalised."""
+            try:
+                current = careful(row)
+            except (ValueError, TypeError) as exc:
+                # Named on its own; the table's other rows are still checked.
+                seen.add((name, row[rid_at]))
+                problems.add("unreadable", f"{name} #{row[rid_at]} cannot be read "
+                             f"({exc}): edited outside prepbook")
+                return
+            key = (name, current["id"])
+            seen.add(key)
+            last = last_values.get(key)
+            if last is None:
+                problems.add(
+                    "added",
+                    f"{_label(name, key[1], current)} has no audit event: "
+                    "added outside prepbook",
+                )
+                return
+            # Columns in sorted order: the canonical JSON record() stores.
+            text = _flat_json(current)
+            if _digest(text) == last[1]:
+                return
+            problems.reserve("differs")
+            recheck.append((current, text, last[0]))
+
         try:
-            for rows in _batches(conn, stmt):
-                for row in rows:
-                    last = last_values.get((name, row[rid_at]))
-                    if last is not None and last[2]:
-                        try:
-                            quick_text = _flat_json(quick(row))
-                        except (ValueError, TypeError):
-                            quick_text = None
-                        if quick_text is not None and _digest(quick_text) == last[1]:
-                            seen.add((name, row[rid_at]))
-                            continue
-                    # Not the event's text as read: every value through its canonicaliser.
-                    try:
-                        current = careful(row)
-                    except (ValueError, TypeError) as exc:
-                        # Named on its own; the table's other rows are still checked.
-                        seen.add((name, row[rid_at]))
-                        problems.add("unreadable", f"{name} #{row[rid_at]} cannot be read "
-                                     f"({exc}): edited outside prepbook")
-                        continue
-                    key = (name, current["id"])
-                    seen.add(key)
-                    last = last_values.get(key)
-                    if last is None:
-                        problems.add(
-                            "added",
-                            f"{_label(name, key[1], current)} has no audit event: "
-                            "added outside prepbook",
-                        )
-                        continue
-                    # Columns in sorted order: the canonical JSON record() stores.
-                    text = _flat_json(current)
-                    if _digest(text) == last[1]:
-                        continue
-                    problems.reserve("differs")
-                    recheck.append((current, text, last[0]))
+            if text_stmt is not None and _sql_text_ok(conn, table):
+                # SQLite writes each row's text; only the rows it does not match are
+                # read again, whole, and go the careful way.
+                later: list[int] = []
+                for rows in _batches(conn, text_stmt):
+                    for text, rid in rows:
+                        last = last_values.get((name, rid))
+                        if last is not None and last[2] and _digest(text) == last[1]:
+                            seen.add((name, rid))
+                        else:
+                            later.append(rid)
+                for at in range(0, len(later), 500):
+                    chunk = stmt.where(table.c.id.in_(later[at:at + 500]))
+                    for rows in _batches(conn, chunk):
+                        for row in rows:
+                            the_careful_way(row)
+            else:
+                for rows in _batches(conn, stmt):
+                    for row in rows:
+                        last = last_values.get((name, row[rid_at]))
+                        if last is not None and last[2]:
+                            try:
+                                quick_text = quick(row)
+                            except (ValueError, TypeError):
+                                quick_text = None
+                            if quick_text is not None and _digest(quick_text) == last[1]:
+                                seen.add((name, row[rid_at]))
+                                continue
+                        the_careful_way(row)
         except (ValueError, TypeError) as exc:
             problems.add(
                 "unreadable", f"{name}: a row cannot be read ({exc}): edited outside prepbook"

@@ -58,6 +58,11 @@ def test_an_edited_replicate_is_named(recorded: tuple[Cli, str, str]) -> None:
     ("UPDATE replicates SET position = 1.25 WHERE id = 1", "position"),
     # ...nor a flag that is neither 0 nor 1 as a yes or a no.
     ("UPDATE replicates SET excluded = '' WHERE id = 1", "excluded"),
+    # A blob where text belongs (SQLite cannot write it as JSON: the careful way names it).
+    ("UPDATE replicates SET volume_ml_text = x'00ff' WHERE id = 1", "volume_ml_text"),
+    # A time in another shape than the one stored, and a different time.
+    ("UPDATE replicates SET created_at = '2020-01-01 00:00:00.000000' WHERE id = 1",
+     "created_at"),
 ])
 def test_a_value_of_the_wrong_kind_is_found_not_coerced(
         recorded: tuple[Cli, str, str], sql: str, column: str) -> None:

@@ -489,3 +489,18 @@ def test_payload_is_the_json_the_docstring_names() -> None:
     for fields in cases:
         expected = json.dumps(list(fields), separators=(",", ":"), ensure_ascii=False).encode()
         assert audit._payload(*fields) == expected
+
+
+def test_sqlite_writes_the_snapshot_text_only_for_tables_it_spells_like_python(
+        db: Database) -> None:
+    # Floats keep Python's own spelling and digested columns their fingerprint, so
+    # those tables are read the Python way; the others have SQLite write the text.
+    from prepbook.store.audit import _sql_text_ok
+    from prepbook.store.models import AUDITED_TABLES
+
+    if not db.is_sqlite:
+        pytest.skip("SQLite's JSON functions only")
+    with db.session(write=False) as s:
+        chosen = {name: _sql_text_ok(s.connection(), t) for name, t in AUDITED_TABLES.items()}
+    assert chosen["uses"] and chosen["replicates"] and chosen["reviews"]
+    assert not chosen["runs"] and not chosen["batches"] and not chosen["specs"]
