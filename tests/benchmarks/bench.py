@@ -7,7 +7,7 @@ work, each as the median wall time of several runs of a fresh process:
 
 * ``prepbook --help`` and ``prepbook calc normality ... --json`` against
   ``python -c "import typer"`` (target: at most 1.5x);
-* ``prepbook status`` and ``prepbook batch show CODE`` on a ten-year database
+* ``prepbook status`` and ``prepbook batch show BATCH`` on a ten-year database
   against the same commands on a database holding one batch (target: 1.3x);
 * ``prepbook audit verify`` on the ten-year database: events a second (target: at
   least 100,000) and the ratio to a minimal loop that reads the same rows with
