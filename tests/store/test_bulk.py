@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import json
 import sqlite3
+from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
@@ -21,6 +22,7 @@ ADMIN, TECH, REVIEWER = "ines", "tomas", "wren"
 PASS = {ADMIN: "ines-passphrase", TECH: "tomas-passphrase", REVIEWER: "wren-passphrase"}
 # Columns that hold the time a row was entered or a salted hash: they differ between two
 # databases built a moment apart, whatever the write path.
+Grouped = tuple[Path, GroupedDatabase]
 VOLATILE = {"recorded_at", "created_at", "passphrase_hash", "at", "hash", "prev_hash"}
 
 
@@ -91,8 +93,27 @@ def _tables(path: Path) -> dict[str, list[dict[str, Any]]]:
         con.close()
 
 
+def _admin_and_technician(db: Database) -> None:
+    people.add_user(db, actor=ADMIN, name=ADMIN, role="admin", passphrase=PASS[ADMIN],
+                    actor_passphrase=None)
+    people.add_user(db, actor=ADMIN, name=TECH, role="technician", passphrase=PASS[TECH],
+                    actor_passphrase=PASS[ADMIN])
+
+
 def _fresh(path: Path) -> None:
     setup.initialize(str(path), actor=ADMIN)
+
+
+@pytest.fixture
+def grouped(tmp_path: Path) -> Iterator[Grouped]:
+    """A fresh database file opened for grouped writing, and its path."""
+    path = tmp_path / "grouped.db"
+    _fresh(path)
+    db = GroupedDatabase(str(path))
+    try:
+        yield path, db
+    finally:
+        db.dispose()
 
 
 def test_grouped_writes_record_exactly_what_ordinary_writes_record(tmp_path: Path) -> None:
@@ -123,26 +144,18 @@ def test_grouped_writes_record_exactly_what_ordinary_writes_record(tmp_path: Pat
     assert plain_tables["batches"][0]["retired_at"] is not None
 
 
-def test_a_group_reads_its_own_buffered_writes(tmp_path: Path) -> None:
-    path = tmp_path / "grouped.db"
-    _fresh(path)
-    db = GroupedDatabase(str(path))
-    try:
-        with db.group():
-            people.add_user(db, actor=ADMIN, name=ADMIN, role="admin",
-                            passphrase=PASS[ADMIN], actor_passphrase=None)
-            people.add_user(db, actor=ADMIN, name=TECH, role="technician",
-                            passphrase=PASS[TECH], actor_passphrase=PASS[ADMIN])
-            made = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
-                                      solute_mass="4.0400", at="2026-06-01T08:00")
-            again = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
-                                       solute_mass="4.0400", at="2026-06-01T08:30")
-            # Read back inside the same group, before anything was committed.
-            shown = batches.show_batch(db, made["batch"])
-            assert shown["batch"] == made["batch"]
-            assert again["batch"] != made["batch"]  # the next code saw the first one
-    finally:
-        db.dispose()
+def test_a_group_reads_its_own_buffered_writes(grouped: Grouped) -> None:
+    path, db = grouped
+    with db.group():
+        _admin_and_technician(db)
+        made = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
+                                  solute_mass="4.0400", at="2026-06-01T08:00")
+        again = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
+                                   solute_mass="4.0400", at="2026-06-01T08:30")
+        # Read back inside the same group, before anything was committed.
+        shown = batches.show_batch(db, made["batch"])
+        assert shown["batch"] == made["batch"]
+        assert again["batch"] != made["batch"]  # the next code saw the first one
     con = sqlite3.connect(path)
     try:
         codes = [r[0] for r in con.execute("SELECT code FROM batches ORDER BY id")]
@@ -154,70 +167,49 @@ def test_a_group_reads_its_own_buffered_writes(tmp_path: Path) -> None:
     assert head == last
 
 
-def test_a_refusal_inside_a_group_rolls_the_whole_group_back(tmp_path: Path) -> None:
-    path = tmp_path / "grouped.db"
-    _fresh(path)
+def test_a_refusal_inside_a_group_rolls_the_whole_group_back(grouped: Grouped) -> None:
+    path, db = grouped
     before = _tables(path)
-    db = GroupedDatabase(str(path))
-    try:
-        with pytest.raises(DatabaseError, match="rolled back"), db.group():
-            people.add_user(db, actor=ADMIN, name=ADMIN, role="admin",
-                            passphrase=PASS[ADMIN], actor_passphrase=None)
-            people.add_user(db, actor=ADMIN, name=TECH, role="technician",
-                            passphrase=PASS[TECH], actor_passphrase=PASS[ADMIN])
-            made = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
-                                      solute_mass="4.0400", at="2026-06-01T08:00")
-            with pytest.raises(Refused, match="may not be used"):  # never standardized
-                batches.use_batch(db, actor=TECH, code=made["batch"], volume="5",
-                                  purpose="a draw too early", at="2026-06-01T09:00")
-    finally:
-        db.dispose()
+    with pytest.raises(DatabaseError, match="rolled back"), db.group():
+        _admin_and_technician(db)
+        made = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
+                                  solute_mass="4.0400", at="2026-06-01T08:00")
+        with pytest.raises(Refused, match="may not be used"):  # never standardized
+            batches.use_batch(db, actor=TECH, code=made["batch"], volume="5",
+                              purpose="a draw too early", at="2026-06-01T09:00")
     assert _tables(path) == before
 
 
-def test_a_group_refuses_a_change_to_a_column_that_never_changes(tmp_path: Path) -> None:
+def test_a_group_refuses_a_change_to_a_column_that_never_changes(grouped: Grouped) -> None:
     from prepbook.lab.common import write
     from prepbook.store.models import User
 
-    path = tmp_path / "grouped.db"
-    _fresh(path)
-    db = GroupedDatabase(str(path))
-    try:
-        with db.group():
-            people.add_user(db, actor=ADMIN, name=ADMIN, role="admin",
-                            passphrase=PASS[ADMIN], actor_passphrase=None)
-        before = _tables(path)
-        with pytest.raises(DatabaseError, match="rolled back"), db.group(), \
-                pytest.raises(IntegrityError, match="name cannot be changed"), \
-                db.session() as s:
-            user = s.query(User).filter_by(name=ADMIN).one()
-            user.name = "someone-else"
-            write(s, ADMIN, "user.rename", user)
-    finally:
-        db.dispose()
+    path, db = grouped
+    with db.group():
+        people.add_user(db, actor=ADMIN, name=ADMIN, role="admin", passphrase=PASS[ADMIN],
+                        actor_passphrase=None)
+    before = _tables(path)
+    with pytest.raises(DatabaseError, match="rolled back"), db.group(), \
+            pytest.raises(IntegrityError, match="name cannot be changed"), \
+            db.session() as s:
+        user = s.query(User).filter_by(name=ADMIN).one()
+        user.name = "someone-else"
+        write(s, ADMIN, "user.rename", user)
     assert _tables(path) == before
 
 
-def test_verify_inside_a_group_sees_the_buffered_rows_and_events(tmp_path: Path) -> None:
+def test_verify_inside_a_group_sees_the_buffered_rows_and_events(grouped: Grouped) -> None:
     from prepbook.store import audit
 
-    path = tmp_path / "grouped.db"
-    _fresh(path)
-    db = GroupedDatabase(str(path))
-    try:
-        with db.group():
-            people.add_user(db, actor=ADMIN, name=ADMIN, role="admin",
-                            passphrase=PASS[ADMIN], actor_passphrase=None)
-            people.add_user(db, actor=ADMIN, name=TECH, role="technician",
-                            passphrase=PASS[TECH], actor_passphrase=PASS[ADMIN])
-            batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
-                               solute_mass="4.0400", at="2026-06-01T08:00")
-            # Events and the head wait in the buffer (no service statement names an
-            # audit table); a verify in the same transaction must still see them all.
-            with db.session() as s:
-                report = audit.verify(s)
-                head = s.execute(text("SELECT seq FROM audit_head")).scalar_one()
-            assert report.ok, report.problems
-            assert report.events == head
-    finally:
-        db.dispose()
+    _, db = grouped
+    with db.group():
+        _admin_and_technician(db)
+        batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
+                           solute_mass="4.0400", at="2026-06-01T08:00")
+        # Events and the head wait in the buffer (no service statement names an
+        # audit table); a verify in the same transaction must still see them all.
+        with db.session() as s:
+            report = audit.verify(s)
+            head = s.execute(text("SELECT seq FROM audit_head")).scalar_one()
+        assert report.ok, report.problems
+        assert report.events == head
