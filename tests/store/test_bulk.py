@@ -45,28 +45,29 @@ def _lab(db: Database) -> dict[str, Any]:
     made = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
                               solute_mass="4.0400", balance="BAL-7", at="2026-06-01T08:00")
     code = made["batch"]
-    out = runs.standardize(db, actor=TECH, batch=code, lot="KHP-GT-1", balance="BAL-7",
-                           burette="BUR-7", temperature="21.0",
-                           replicates=["0.8123:39.80", "0.8201:40.17", "0.8150:39.93"],
-                           at="2026-06-01T09:00")
-    runs.review(db, actor=REVIEWER, run=out["run"], accept=True, reason=None,
-                passphrase=PASS[REVIEWER], at="2026-06-01T10:00")
+
+    def standardized(replicates: list[str], at: str, reviewed_at: str) -> str:
+        out = runs.standardize(db, actor=TECH, batch=code, lot="KHP-GT-1", balance="BAL-7",
+                               burette="BUR-7", temperature="21.0", replicates=replicates,
+                               at=at)
+        runs.review(db, actor=REVIEWER, run=out["run"], accept=True, reason=None,
+                    passphrase=PASS[REVIEWER], at=reviewed_at)
+        return str(out["run"])
+
+    first = standardized(["0.8123:39.80", "0.8201:40.17", "0.8150:39.93"],
+                         "2026-06-01T09:00", "2026-06-01T10:00")
     used = batches.use_batch(db, actor=TECH, code=code, volume="12.5",
                              purpose="alkalinity, sample GT-1", at="2026-06-02T11:00")
     # Restandardized (weaker now): a use after it must see the new factor, not the
     # first one, whether each call is its own transaction or all share one.
-    again = runs.standardize(db, actor=TECH, batch=code, lot="KHP-GT-1", balance="BAL-7",
-                             burette="BUR-7", temperature="21.0",
-                             replicates=["0.8123:40.10", "0.8201:40.49", "0.8150:40.22"],
-                             at="2026-06-02T14:00")
-    runs.review(db, actor=REVIEWER, run=again["run"], accept=True, reason=None,
-                passphrase=PASS[REVIEWER], at="2026-06-02T15:00")
+    again = standardized(["0.8123:40.10", "0.8201:40.49", "0.8150:40.22"],
+                         "2026-06-02T14:00", "2026-06-02T15:00")
     later = batches.use_batch(db, actor=TECH, code=code, volume="10.0",
                               purpose="alkalinity, sample GT-2", at="2026-06-02T16:00")
     history.retire(db, actor=TECH, code=code, reason="used up", passphrase=PASS[TECH],
                    at="2026-06-03T08:00")
     assert later["factor"] < used["factor"]
-    return {"batch": code, "runs": [out["run"], again["run"]],
+    return {"batch": code, "runs": [first, again],
             "factors": [used["factor"], later["factor"]]}
 
 
