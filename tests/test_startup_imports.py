@@ -13,6 +13,8 @@ import sys
 import pytest
 
 HEAVY = ("sqlalchemy", "alembic", "pandas", "reportlab",
+         # uncertainties would load it (chem.uncertainty._ufloat keeps it out).
+         "numpy",
          # Typer 0.29 imports pydantic to convert every parameter: pyproject keeps it below.
          "pydantic",
          # Plain-text help (rich_markup_mode=None) and JSON output draw nothing.

@@ -9,7 +9,7 @@ Why it is written this way:
 - Standard library only (``tomllib``) and nothing heavy at import time, because the
   command line imports the catalog for fast commands. A formula is valid when
   ``prepbook.chem.formula.molar_mass`` gives it a mass: the packaged formulas come from
-  its precomputed table (``prepbook/chem/molar_masses.toml``), so loading the packaged data
+  its precomputed table (``prepbook/chem/molar_masses.json``), so loading the packaged data
   imports no periodictable; any formula not in the table (a local edit, a test's
   altered copy) is parsed by periodictable.
 - The parsed catalog is cached (``functools.cache``): the files are read once per process.
@@ -714,22 +714,85 @@ def _spec(
     return s
 
 
-def _read_files(directory: Path | None) -> dict[str, Any]:
-    import tomllib
-    from pathlib import Path
+#: The data files as parsed, beside them: ``{"digest": ..., "files": {name: parsed}}``.
+PARSED_COPY = "parsed.json"
 
-    data: dict[str, Any] = {}
-    # The data ships as package data next to this module (pyproject package-data).
-    base = Path(__file__).with_name("data") if directory is None else Path(directory)
+
+def files_digest(raw: Mapping[str, bytes]) -> str:
+    """Each data file's name, length and CRC-32, in their fixed order.
+
+    Enough to tell an edited file from the one the parsed copy was made from (a chance
+    edit keeping both length and CRC is about one in four billion); it is no guard
+    against tampering, and needs none: whoever can edit these files can edit the copy.
+    zlib is loaded at start-up anyway; hashlib would cost more than the whole check.
+    """
+    import zlib
+
+    return ";".join(f"{name}:{len(raw[name])}:{zlib.crc32(raw[name]):08x}" for name in _FILES)
+
+
+def _parsed_copy(base: Path, raw: Mapping[str, bytes]) -> dict[str, Any] | None:
+    """The parsed copy's data when it was made from exactly these bytes, else None.
+
+    Why: tomllib is pure Python and parsing the five files costs more than the rest
+    of ``calc normality``; JSON is parsed in C. The copy is used only when its recorded
+    digest equals the digest of the files as they are now, so an edited file (a
+    chemist's correction, a test's altered copy) is always read from its TOML. A
+    missing, unreadable or stale copy is simply not used.
+    """
+    import json
+
+    try:
+        stored = json.loads((base / PARSED_COPY).read_bytes())
+    except (OSError, ValueError):
+        return None
+    if not isinstance(stored, dict) or stored.get("digest") != files_digest(raw):
+        return None
+    files = stored.get("files")
+    if not isinstance(files, dict) or set(files) != set(_FILES):
+        return None
+    return files
+
+
+def _read_raw(base: Path) -> dict[str, bytes]:
+    raw: dict[str, bytes] = {}
     for name in _FILES:
-        path = base / name
         try:
-            data[name] = tomllib.loads(path.read_text(encoding="utf-8"))
+            raw[name] = (base / name).read_bytes()
         except FileNotFoundError as exc:
             raise CatalogDataError(f"catalog file {name} is missing ({exc})") from exc
+    return raw
+
+
+def parse_files(raw: Mapping[str, bytes]) -> dict[str, Any]:
+    """The data files parsed from their TOML text (what the parsed copy must equal)."""
+    import tomllib
+
+    data: dict[str, Any] = {}
+    for name in _FILES:
+        try:
+            # Newlines as a text-mode read gives them (\r\n and \r become \n).
+            text = raw[name].decode("utf-8").replace("\r\n", "\n").replace("\r", "\n")
+            data[name] = tomllib.loads(text)
+        except UnicodeDecodeError as exc:
+            raise CatalogDataError(f"catalog file {name} is not UTF-8 text: {exc}") from exc
         except tomllib.TOMLDecodeError as exc:
             raise CatalogDataError(f"catalog file {name} is not valid TOML: {exc}") from exc
     return data
+
+
+def data_directory(directory: Path | None = None) -> Path:
+    """Where the data files are: the package's own (package data) by default."""
+    from pathlib import Path
+
+    return Path(__file__).with_name("data") if directory is None else Path(directory)
+
+
+def _read_files(directory: Path | None) -> dict[str, Any]:
+    base = data_directory(directory)
+    raw = _read_raw(base)
+    parsed = _parsed_copy(base, raw)
+    return parsed if parsed is not None else parse_files(raw)
 
 
 def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:

@@ -1,7 +1,15 @@
-"""Regenerate ``prepbook/chem/molar_masses.toml``: the molar masses of the catalog's formulas.
+"""Regenerate the catalog's two derived files.
 
-    python -m prepbook.catalog.refresh          # rewrite the file
-    python -m prepbook.catalog.refresh --check  # exit 1 if it differs from periodictable
+    python -m prepbook.catalog.refresh          # rewrite them
+    python -m prepbook.catalog.refresh --check  # exit 1 if either is out of date
+
+``prepbook/catalog/data/parsed.json`` is the data files as tomllib parses them, with
+the digest of their bytes: the loader reads it instead of parsing TOML while the
+digest matches (``loader._parsed_copy``), and ignores it otherwise, so a stale copy
+costs time, never a wrong value. ``tests/catalog/test_parsed_copy.py`` fails while it
+is stale.
+
+``prepbook/chem/molar_masses.json`` holds the molar masses of the catalog's formulas.
 
 A maintainer's tool, never run by prepbook itself. The table lets ``calc normality``
 and the other commands that only need the catalog's own formulas skip importing
@@ -16,18 +24,28 @@ from __future__ import annotations
 
 import json
 import sys
+from pathlib import Path
 
-from prepbook.catalog.loader import CatalogDataError, _read_files, build_catalog
+from prepbook.catalog.loader import (
+    PARSED_COPY,
+    CatalogDataError,
+    _read_files,
+    _read_raw,
+    build_catalog,
+    data_directory,
+    files_digest,
+    parse_files,
+)
 from prepbook.chem.formula import PRECOMPUTED, molar_mass_live
 
-HEADER = """\
-# Molar masses of the packaged catalog's formulas (materials, then reagents), computed by
-# prepbook.chem.formula from periodictable: CIAAW 2021 abridged standard atomic weights,
-# u from each element's half-width taken as rectangular (EURACHEM/CITAC CG4, Example A2).
-# GENERATED: do not edit. Run `python -m prepbook.catalog.refresh` after changing a formula
-# in materials.toml or reagents.toml, or after upgrading periodictable;
-# tests/catalog/test_molar_mass_table.py fails while this file differs from periodictable.
-"""
+ABOUT = [
+    "Molar masses of the packaged catalog's formulas (materials, then reagents), computed by",
+    "prepbook.chem.formula from periodictable: CIAAW 2021 abridged standard atomic weights,",
+    "u from each element's half-width taken as rectangular (EURACHEM/CITAC CG4, Example A2).",
+    "GENERATED: do not edit. Run `python -m prepbook.catalog.refresh` after changing a formula",
+    "in materials.toml or reagents.toml, or after upgrading periodictable;",
+    "tests/catalog/test_molar_mass_table.py fails while this file differs from periodictable.",
+]
 
 
 def catalog_formulas() -> tuple[str, ...]:
@@ -40,38 +58,45 @@ def catalog_formulas() -> tuple[str, ...]:
 
 
 def render() -> str:
-    """The table's text, computed now from periodictable."""
-    parts = [HEADER]
+    """The table's text, computed now from periodictable: one formula per line."""
+    rows = []
     for text in catalog_formulas():
         mm = molar_mass_live(text)
-        atoms = ", ".join(f"[{json.dumps(symbol)}, {count}]" for symbol, count in mm.atoms)
-        parts.append(
-            "\n[[molar_mass]]\n"
-            f"formula = {json.dumps(text)}\n"
-            f"hill = {json.dumps(mm.hill)}\n"
-            f"atoms = [{atoms}]\n"
-            f"value_g_per_mol = {mm.value_g_per_mol!r}\n"
-            f"u_g_per_mol = {mm.u_g_per_mol!r}\n"
-        )
-    return "".join(parts)
+        row = {"formula": text, "hill": mm.hill, "atoms": [list(a) for a in mm.atoms],
+               "value_g_per_mol": mm.value_g_per_mol, "u_g_per_mol": mm.u_g_per_mol}
+        rows.append("  " + json.dumps(row, ensure_ascii=False))
+    about = json.dumps(ABOUT, ensure_ascii=False, indent=1).replace("\n", "\n ")
+    return ('{\n "about": ' + about + ',\n "molar_mass": [\n' + ",\n".join(rows)
+            + "\n ]\n}\n")
 
 
-def main(argv: list[str]) -> int:
-    path = PRECOMPUTED
-    text = render()
+def render_parsed(directory: Path | None = None) -> str:
+    """The parsed copy's text for the data files as they are now."""
+    raw = _read_raw(data_directory(directory))
+    copy = {"digest": files_digest(raw), "files": parse_files(raw)}
+    return json.dumps(copy, ensure_ascii=False, indent=1) + "\n"
+
+
+def _refresh(path: Path, text: str, what: str, check: bool) -> int:
     current = path.read_text(encoding="utf-8") if path.is_file() else None
-    if "--check" in argv:
-        if current != text:
-            print(f"{path} differs from periodictable: run python -m prepbook.catalog.refresh")
-            return 1
-        print(f"{path} is up to date")
-        return 0
     if current == text:
         print(f"{path} is up to date")
         return 0
+    if check:
+        print(f"{path} is out of date ({what}): run python -m prepbook.catalog.refresh")
+        return 1
     path.write_text(text, encoding="utf-8", newline="\n")
-    print(f"wrote {path} ({len(catalog_formulas())} formulas)")
+    print(f"wrote {path}")
     return 0
+
+
+def main(argv: list[str]) -> int:
+    check = "--check" in argv
+    # The parsed copy first: the formulas are then read through it.
+    parsed = _refresh(data_directory() / PARSED_COPY, render_parsed(),
+                      "it differs from the TOML files", check)
+    masses = _refresh(PRECOMPUTED, render(), "it differs from periodictable", check)
+    return max(parsed, masses)
 
 
 if __name__ == "__main__":

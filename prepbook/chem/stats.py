@@ -24,7 +24,7 @@ import statistics
 from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
-from importlib import resources
+from pathlib import Path
 
 from prepbook.errors import InvalidInput
 
@@ -102,7 +102,9 @@ def grubbs_critical_exact(n: int, alpha: float = 0.05) -> float:
 
 @lru_cache(maxsize=1)
 def _table() -> dict[tuple[int, float], float]:
-    text = resources.files("prepbook.chem").joinpath(GRUBBS_TABLE).read_text(encoding="utf-8")
+    # Package data beside this module, read as a plain file (importlib.resources would
+    # import zipfile and tempfile at start-up for the same bytes).
+    text = Path(__file__).with_name(GRUBBS_TABLE).read_text(encoding="utf-8")
     table: dict[tuple[int, float], float] = {}
     for row in csv.DictReader(text.splitlines()):
         n = int(row["n"])

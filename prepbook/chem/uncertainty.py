@@ -112,6 +112,42 @@ def volume_u_from_burette(
     return math.hypot(calibration, temperature)
 
 
+def _ufloat() -> Callable[..., Any]:
+    """``uncertainties.ufloat``, imported without numpy when numpy is not loaded yet.
+
+    Why: ``uncertainties`` imports numpy whenever it is installed (pandas brings it),
+    only to count numpy's scalar types as constants and for its correlated-variables
+    helpers. Neither is used here: every value handed to it is a Python float, and
+    numpy's scalars are registered as ``numbers.Number``, which it already counts. The
+    import of numpy alone costs more than the rest of ``prepbook calc`` together, so
+    when numpy is not loaded yet (a short command) the library is imported with numpy
+    marked absent, which its own optional-numpy support handles, and the mark is
+    removed at once: numpy stays importable for anything later in the process. With
+    another thread running, or numpy or the library already loaded, it is a plain
+    import. The propagation is the same either way (tests/chem/test_uncertainty_import.py
+    compares the two).
+    """
+    import sys
+
+    if "uncertainties" in sys.modules or "numpy" in sys.modules:
+        from uncertainties import ufloat
+
+        return ufloat
+    import threading
+
+    if threading.active_count() > 1:  # another thread might import numpy meanwhile
+        from uncertainties import ufloat
+
+        return ufloat
+    sys.modules["numpy"] = None  # type: ignore[assignment]  # "import numpy" raises ImportError
+    try:
+        from uncertainties import ufloat
+    finally:
+        if sys.modules.get("numpy", 0) is None:
+            del sys.modules["numpy"]
+    return ufloat
+
+
 def propagate(
     model: Callable[..., Any],
     inputs: Sequence[InputQuantity],
@@ -126,7 +162,7 @@ def propagate(
     replicate results) with the *relative* uncertainty found at the model's point;
     contributions are scaled the same way.
     """
-    from uncertainties import ufloat  # heavy (pulls numpy): import only when needed
+    ufloat = _ufloat()
 
     args: list[Any] = []
     variables: list[Any] = []

@@ -1,4 +1,4 @@
-"""The precomputed molar masses (``prepbook/chem/molar_masses.toml``) are exactly
+"""The precomputed molar masses (``prepbook/chem/molar_masses.json``) are exactly
 what periodictable gives now, for exactly the catalog's formulas.
 
 The table only saves importing periodictable at start-up; these checks recompute it
@@ -60,11 +60,14 @@ def test_any_other_formula_is_computed_live() -> None:
 def test_refresh_check_fails_on_a_stale_file_and_refresh_rewrites_it(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    stale = tmp_path / "molar_masses.toml"
-    stale.write_text(refresh.render().replace("[[molar_mass]]", "[[molar_mass]]\n# edited", 1),
-                     encoding="utf-8")
+    stale = tmp_path / "molar_masses.json"
+    stale.write_text(refresh.render().replace('"hill": "', '"hill": "X', 1), encoding="utf-8")
     monkeypatch.setattr(refresh, "PRECOMPUTED", stale)
+    parsed = tmp_path / "parsed.json"  # the parsed copy is checked and written too
+    monkeypatch.setattr(refresh, "data_directory", lambda: tmp_path)
+    monkeypatch.setattr(refresh, "render_parsed", lambda: "{}\n")
     assert refresh.main(["--check"]) == 1
     assert refresh.main([]) == 0
     assert stale.read_text(encoding="utf-8") == refresh.render()
+    assert parsed.read_text(encoding="utf-8") == "{}\n"
     assert refresh.main(["--check"]) == 0
