@@ -356,6 +356,13 @@ class _Problems:
         self._kinds: dict[str, list[str]] = {}
         self._extra: dict[str, int] = {}
 
+    def copy(self) -> _Problems:
+        """A copy to go back to (verify starts its chain pass again on a fallback)."""
+        out = _Problems()
+        out._kinds = {kind: list(listed) for kind, listed in self._kinds.items()}
+        out._extra = dict(self._extra)
+        return out
+
     def reserve(self, kind: str) -> None:
         """Keep this kind's place in the order, before knowing whether it will list any."""
         self._kinds.setdefault(kind, [])
@@ -424,6 +431,56 @@ def _events_stmt(on_sqlite: bool) -> Any:
     ).order_by(_events.c.seq)
 
 
+class _NoTextFromSQLite(Exception):
+    """SQLite cannot write the events' hashed text here: verify the Python way."""
+
+
+def _sqlite_chain(conn: Any, in_sql: frozenset[str]) -> Iterator[Sequence[Any]] | None:
+    """Every event as (seq, hashed text, record_type, record_id, values, prev_hash, hash),
+    the hashed text written by SQLite's ``json_array``; None without JSON functions.
+
+    The text is what ``_payload`` writes from the same row, for every event prepbook
+    writes (``tests/store/test_audit.py`` checks that none goes the Python way). It can
+    never give a false pass: ``json_array`` writes valid JSON, and two JSON texts that
+    are equal decode to equal values, so an event whose text gives its stored hash
+    holds exactly the values that were hashed (a number stored as text or as a
+    fraction, or text stored as a number, is spelled differently). The one rewrite
+    is a time's space for a "T", which turns only SQLAlchemy's stored shape, or the
+    ISO text itself, into the ISO text, and both read back as that time. Any other
+    text misses its hash and the event is read again and checked the Python way.
+    ``values`` is selected only for the tables not in ``in_sql``. A blob stored in
+    any column makes ``json_array`` fail: ``_NoTextFromSQLite``.
+    """
+    import sqlite3
+
+    from sqlalchemy import case, func, literal
+    from sqlalchemy.exc import DBAPIError
+
+    try:
+        conn.execute(select(func.json_array(literal("a"), 1)))
+    except DBAPIError:
+        return None
+
+    def iso(name: str) -> Any:
+        return func.replace(type_coerce(_events.c[name], String()), " ", "T")
+
+    c = _events.c
+    text = func.json_array(c.seq, iso("at"), c.actor, c.action, c.record_type, c.record_id,
+                           c["values"], c.reason, iso("performed_at"), c.prev_hash)
+    values = (case((c.record_type.in_(sorted(in_sql)), None), else_=c["values"])
+              if in_sql else c["values"])
+    stmt = select(c.seq, text, c.record_type, c.record_id, values, c.prev_hash,
+                  c.hash).order_by(c.seq)
+
+    def batches() -> Iterator[Sequence[Any]]:
+        try:
+            yield from _batches(conn, stmt)
+        except sqlite3.OperationalError as exc:  # a blob: JSON cannot hold it
+            raise _NoTextFromSQLite from exc
+
+    return batches()
+
+
 def verify(session: Session) -> VerifyReport:
     """Recompute the whole chain and check every audited row against its last event."""
     problems = _Problems()
@@ -445,71 +502,130 @@ def verify(session: Session) -> VerifyReport:
     in_sql = frozenset(name for name, table in AUDITED_TABLES.items()
                        if on_sqlite and _sql_text_ok(conn, table))
 
-    # The last event of each record: its seq, a digest of its snapshot (not the
-    # snapshot itself, which for a long history would hold hundreds of MB) and
-    # whether the event matched its hash.
+    # The last event of each record of a table checked the Python way: its seq, a
+    # digest of its snapshot (not the snapshot itself, which for a long history would
+    # hold hundreds of MB) and whether the event matched its hash. For the tables
+    # SQLite compares itself (``_check_rows``), only which records have events.
     last_values: dict[tuple[str, Any], tuple[int, bytes | None, bool]] = {}
-    count = 0
-    prev_seq = 0
+    with_events: dict[str, set[Any]] = {}
+    count = prev_seq = wrong_scheme = 0
     prev_hash: str | None = None
-    wrong_scheme = 0
     prefix = scheme + ":"
     other_prefix = other + ":"
     digest_of = _digest
-    payload_of = _payload
-    for rows in _batches(conn, _events_stmt(on_sqlite)):
-        count += len(rows)
-        for seq, at, actor, action, rtype, rid, values, reason, pat, stored_prev, stored in rows:
-            if seq != prev_seq + 1:
-                missing = (
-                    f"#{prev_seq + 1}" if seq == prev_seq + 2 else f"#{prev_seq + 1}-#{seq - 1}"
-                )
-                problems.add(
-                    "gap", f"audit event {missing} missing before #{seq}: removed outside prepbook"
-                )
-            elif stored_prev != prev_hash:
-                problems.add(
-                    "link",
-                    f"audit event #{seq} does not link to event #{prev_seq} "
-                    "(prev_hash differs): the trail was rewritten",
-                )
-            try:
-                # SQLite's text 'YYYY-MM-DD HH:MM:SS.ffffff' is rewritten in place (the
-                # usual shape); anything else goes through _stored_time_iso, which parses.
-                at_iso: str | None
-                if type(at) is str and len(at) == 26 and at[10] == " " and at[19] == ".":
-                    at_iso = f"{at[:10]}T{at[11:]}"
-                else:
-                    at_iso = _stored_time_iso(at)
-                if pat is None:
-                    pat_iso = None
-                elif type(pat) is str and len(pat) == 26 and pat[10] == " " and pat[19] == ".":
-                    pat_iso = f"{pat[:10]}T{pat[11:]}"
-                else:
-                    pat_iso = _stored_time_iso(pat)
-            except ValueError:
-                verified = False
-                problems.add(
-                    "edited", f"audit event #{seq} has an unreadable time: edited outside prepbook"
-                )
+
+    def event_checks_out(seq: int, at: Any, actor: Any, action: Any, rtype: Any, rid: Any,
+                         values: Any, reason: Any, pat: Any, stored_prev: Any,
+                         stored: Any) -> bool:
+        """Whether one event, read whole, matches its hash (a problem named if not)."""
+        nonlocal wrong_scheme
+        try:
+            # SQLite's text 'YYYY-MM-DD HH:MM:SS.ffffff' is rewritten in place (the
+            # usual shape); anything else goes through _stored_time_iso, which parses.
+            at_iso: str | None
+            if type(at) is str and len(at) == 26 and at[10] == " " and at[19] == ".":
+                at_iso = f"{at[:10]}T{at[11:]}"
             else:
-                payload = payload_of(
-                    seq, at_iso, actor, action, rtype, rid, values, reason, pat_iso, stored_prev
-                )
-                verified = stored == prefix + digest(payload)
+                at_iso = _stored_time_iso(at)
+            if pat is None:
+                pat_iso = None
+            elif type(pat) is str and len(pat) == 26 and pat[10] == " " and pat[19] == ".":
+                pat_iso = f"{pat[:10]}T{pat[11:]}"
+            else:
+                pat_iso = _stored_time_iso(pat)
+        except ValueError:
+            problems.add(
+                "edited", f"audit event #{seq} has an unreadable time: edited outside prepbook"
+            )
+            return False
+        try:
+            payload = _payload(
+                seq, at_iso, actor, action, rtype, rid, values, reason, pat_iso, stored_prev
+            )
+        except (TypeError, ValueError) as exc:  # a blob, say, where text belongs
+            problems.add("edited", f"audit event #{seq} ({_label(rtype, rid, None)}) cannot "
+                         f"be read ({exc}): edited outside prepbook")
+            return False
+        if stored == prefix + digest(payload):
+            return True
+        if isinstance(stored, str) and stored.startswith(other_prefix):
+            wrong_scheme += 1
+        else:
+            problems.add(
+                "edited",
+                f"audit event #{seq} ({_label(rtype, rid, None)}) does "
+                "not match its hash: edited outside prepbook",
+            )
+        return False
+
+    def not_linked(seq: int, stored_prev: Any, prev_seq: int, prev_hash: str | None) -> None:
+        if seq != prev_seq + 1:
+            missing = f"#{prev_seq + 1}" if seq == prev_seq + 2 else f"#{prev_seq + 1}-#{seq - 1}"
+            problems.add(
+                "gap", f"audit event {missing} missing before #{seq}: removed outside prepbook"
+            )
+        else:
+            problems.add(
+                "link",
+                f"audit event #{seq} does not link to event #{prev_seq} "
+                "(prev_hash differs): the trail was rewritten",
+            )
+
+    before = problems.copy()
+    chain = _sqlite_chain(conn, in_sql) if on_sqlite else None
+    try:
+        if chain is None:
+            raise _NoTextFromSQLite
+        # SQLite writes each event's hashed text itself (``_sqlite_chain``). An event
+        # whose text does not give its hash is read again whole after the pass and
+        # checked the Python way, which is the reference: the two agree on every
+        # event prepbook writes, and differ only by costing time.
+        with_events = {name: set() for name in in_sql}
+        later: list[tuple[int, Any, Any]] = []
+        for rows in chain:
+            count += len(rows)
+            for seq, payload, rtype, rid, values, stored_prev, stored in rows:
+                if seq != prev_seq + 1 or stored_prev != prev_hash:
+                    not_linked(seq, stored_prev, prev_seq, prev_hash)
+                verified = payload is not None and stored == prefix + digest(payload.encode())
                 if not verified:
-                    if isinstance(stored, str) and stored.startswith(other_prefix):
-                        wrong_scheme += 1
-                    else:
-                        problems.add(
-                            "edited",
-                            f"audit event #{seq} ({_label(rtype, rid, None)}) does "
-                            "not match its hash: edited outside prepbook",
-                        )
-            last_values[(rtype, rid)] = (
-                seq, None if rtype in in_sql else digest_of(values), verified)
-            prev_seq = seq
-            prev_hash = stored
+                    if not later:
+                        problems.reserve("edited")  # this kind's place in the order
+                    later.append((seq, rtype, rid))
+                ids = with_events.get(rtype)
+                if ids is not None:
+                    ids.add(rid)
+                else:
+                    last_values[(rtype, rid)] = (seq, digest_of(values), verified)
+                prev_seq = seq
+                prev_hash = stored
+        for at in range(0, len(later), 500):
+            chunk = later[at:at + 500]
+            stmt = _events_stmt(True).where(_events.c.seq.in_([seq for seq, _, _ in chunk]))
+            whole = {row[0]: row for rows in _batches(conn, stmt) for row in rows}
+            for seq, rtype, rid in chunk:
+                if event_checks_out(*whole[seq]) and rtype not in with_events:
+                    last = last_values[(rtype, rid)]
+                    if last[0] == seq:
+                        last_values[(rtype, rid)] = (seq, last[1], True)
+    except _NoTextFromSQLite:
+        # Elsewhere, or where SQLite cannot write the text (no JSON functions, or a
+        # blob stored in an event): every event the Python way, from the start.
+        problems = before
+        last_values, with_events = {}, {}
+        count = prev_seq = wrong_scheme = 0
+        prev_hash = None
+        for rows in _batches(conn, _events_stmt(on_sqlite)):
+            count += len(rows)
+            for row in rows:
+                seq, rtype, rid, values, stored_prev, stored = (
+                    row[0], row[4], row[5], row[6], row[9], row[10])
+                if seq != prev_seq + 1 or stored_prev != prev_hash:
+                    not_linked(seq, stored_prev, prev_seq, prev_hash)
+                verified = event_checks_out(*row)
+                last_values[(rtype, rid)] = (seq, digest_of(values), verified)
+                prev_seq = seq
+                prev_hash = stored
 
     if wrong_scheme:
         if scheme == PLAIN:
@@ -550,7 +666,7 @@ def verify(session: Session) -> VerifyReport:
         elif head_hash != prev_hash:
             problems.add("head", f"the audit head hash does not match event #{prev_seq}")
 
-    _check_rows(conn, last_values, problems, in_sql)
+    _check_rows(conn, last_values, problems, with_events)
     listed = problems.as_tuple()
     return VerifyReport(ok=not listed, events=count, head_hash=prev_hash, problems=listed)
 
@@ -622,7 +738,8 @@ def _row_reader(
     table: Any, on_sqlite: bool
 ) -> tuple[Any, RowReader, Callable[[Sequence[Any]], str], Any]:
     """The SELECT of every row of ``table``, two ways of reading its snapshot, and on
-    SQLite a SELECT of (snapshot text, id) written by SQLite itself.
+    SQLite a SELECT of the ids of the rows that differ from their last event, the
+    rows' text written by SQLite itself.
 
     ``careful`` gives the dict ``record()`` would snapshot, keyed in
     ``snapshot_columns`` order (sorted by name) so it dumps to the canonical JSON the
@@ -690,8 +807,8 @@ def _row_reader(
 
     text_stmt = None
     if on_sqlite:
-        # Each row's id, the seq of its record's last event, and whether SQLite's text
-        # of the row is exactly that event's stored text (1), or not (0 or NULL).
+        # The ids of the rows whose text, as SQLite writes it, is not exactly the
+        # stored text of their record's last event (or that have no event).
         pairs = [part for name, expr in rendered for part in (literal(name), expr)]
         last_seq = (select(func.max(_events.c.seq))
                     .where(_events.c.record_type == literal(table.name),
@@ -699,9 +816,9 @@ def _row_reader(
                     .scalar_subquery())
         event = _events.alias("last_event")
         text_stmt = (
-            select(table.c.id, event.c.seq,
-                   func.json_object(*pairs) == event.c["values"])
+            select(table.c.id)
             .select_from(table.outerjoin(event, event.c.seq == last_seq))
+            .where(func.json_object(*pairs).is_not(event.c["values"]))
             .order_by(table.c.id)
         )
 
@@ -746,9 +863,25 @@ def _sql_text_ok(conn: Any, table: Any) -> bool:
     return blob is None
 
 
+def _last_events(conn: Any, name: str, ids: Sequence[Any]) -> dict[tuple[str, Any],
+                                                                     tuple[int, Any]]:
+    """The seq and stored snapshot of the last event of each of these records."""
+    from sqlalchemy import func
+
+    seqs: dict[Any, int] = {}
+    for start in range(0, len(ids), 500):
+        stmt = (select(_events.c.record_id, func.max(_events.c.seq))
+                .where(_events.c.record_type == name,
+                       _events.c.record_id.in_(list(ids[start:start + 500])))
+                .group_by(_events.c.record_id))
+        seqs.update((rid, seq) for rid, seq in conn.execute(stmt))
+    stored = _snapshots_of(conn, list(seqs.values()))
+    return {(name, rid): (seq, stored.get(seq)) for rid, seq in seqs.items()}
+
+
 def _check_rows(
     conn: Any, last_values: dict[tuple[str, Any], tuple[int, bytes | None, bool]],
-    problems: _Problems, in_sql: frozenset[str] = frozenset(),
+    problems: _Problems, with_events: dict[str, set[Any]] | None = None,
 ) -> None:
     """Every audited row must equal the snapshot in its last event, and vice versa.
 
@@ -759,13 +892,21 @@ def _check_rows(
     but an int, or a time in any other shape would have spelled it differently. Every
     other row is made with every canonicaliser.
 
+    The tables in ``with_events`` (which records have events, from the chain pass)
+    are compared by SQLite itself (``_row_reader``): only the rows it finds different
+    are read, whole, and go the careful way, with their last events read back. A row
+    whose last event does not match its hash needs nothing more: the chain pass has
+    named that event, and the careful way would compare the row with the same text.
+
     The rows that still differ are looked at again with their events read back: an
     event written before a column was digested holds that column's full text and is
     accepted when, that text replaced by its fingerprint, it is the row's text
     (``_in_todays_form``); anything else is named with the columns that differ.
     """
     on_sqlite = conn.dialect.name == "sqlite"
+    with_events = with_events or {}
     seen: set[tuple[str, Any]] = set()
+    gone: list[tuple[int, str, Any]] = []  # (last event's seq, table, id) of deleted rows
     for name, table in AUDITED_TABLES.items():
         stmt, careful, quick, text_stmt = _row_reader(table, on_sqlite)
         names = [n for n, _ in snapshot_columns(table)]
@@ -775,7 +916,8 @@ def _check_rows(
 
         def the_careful_way(row: Sequence[Any], name: str = name, careful: RowReader = careful,
                             rid_at: int = rid_at,
-                            recheck: list[tuple[dict[str, Any], str, int]] = recheck) -> None:
+                            recheck: list[tuple[dict[str, Any], str, int]] = recheck,
+                            lasts: dict[tuple[str, Any], Any] = last_values) -> None:
             """A row that is not its event's text as read: every value canonicalised."""
             try:
                 current = careful(row)
@@ -787,7 +929,7 @@ def _check_rows(
                 return
             key = (name, current["id"])
             seen.add(key)
-            last = last_values.get(key)
+            last = lasts.get(key)
             if last is None:
                 problems.add(
                     "added",
@@ -803,24 +945,22 @@ def _check_rows(
             recheck.append((current, text, last[0]))
 
         try:
-            if text_stmt is not None and name in in_sql:
+            if text_stmt is not None and name in with_events:
                 # SQLite writes each row's text and compares it with the stored text of
-                # the record's last event (whose hash the chain check has just
-                # recomputed); only the rows that differ, or whose last event did not
-                # match its hash, are read again, whole, and go the careful way.
-                later: list[int] = []
-                for rows in _batches(conn, text_stmt):
-                    for rid, seq, same in rows:
-                        last = last_values.get((name, rid))
-                        if same == 1 and last is not None and last[2] and last[0] == seq:
-                            seen.add((name, rid))
-                        else:
-                            later.append(rid)
+                # the record's last event; only the rows that differ are read again.
+                later = [row[0] for rows in _batches(conn, text_stmt) for row in rows]
                 for at in range(0, len(later), 500):
-                    chunk = stmt.where(table.c.id.in_(later[at:at + 500]))
-                    for rows in _batches(conn, chunk):
+                    ids = later[at:at + 500]
+                    lasts = {key: (seq, _digest(values), True) for key, (seq, values)
+                             in _last_events(conn, name, ids).items()}
+                    for rows in _batches(conn, stmt.where(table.c.id.in_(ids))):
                         for row in rows:
-                            the_careful_way(row)
+                            the_careful_way(row, lasts=lasts)
+                present = {row[0] for rows in _batches(conn, select(table.c.id))
+                           for row in rows}
+                missing = sorted(with_events[name] - present)
+                gone.extend((seq, name, rid) for (_, rid), (seq, _) in
+                            _last_events(conn, name, missing).items())
             else:
                 for rows in _batches(conn, stmt):
                     for row in rows:
@@ -847,7 +987,11 @@ def _check_rows(
         if name not in AUDITED_TABLES:
             problems.add("unknown", f"audit events name an unknown table {name!r} (#{rid})")
             continue
-        audited = _audited_snapshot(_snapshots_of(conn, [seq]).get(seq))
+        gone.append((seq, name, rid))
+    gone.sort(key=lambda item: item[0])  # in the order of their last events
+    stored = _snapshots_of(conn, [seq for seq, _, _ in gone])
+    for seq, name, rid in gone:
+        audited = _audited_snapshot(stored.get(seq))
         problems.add(
             "deleted",
             f"{_label(name, rid, audited or None)}"

@@ -504,3 +504,70 @@ def test_sqlite_writes_the_snapshot_text_only_for_tables_it_spells_like_python(
         chosen = {name: _sql_text_ok(s.connection(), t) for name, t in AUDITED_TABLES.items()}
     assert chosen["uses"] and chosen["replicates"] and chosen["reviews"]
     assert not chosen["runs"] and not chosen["batches"] and not chosen["specs"]
+
+
+# --- SQLite writes the hashed text ---------------------------------------------------------
+
+TRICKY = 'tab\there\nnew line "quoted" back\\slash \x01\x1f\x7f é 漢字 😀 \u2028 end'
+
+
+def _count_python_way(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+    """Calls of the Python way's payload (an event whose SQLite text missed its hash)."""
+    calls: list[int] = []
+    payload = audit._payload
+
+    def counted(*fields: object) -> bytes:
+        calls.append(fields[0])  # type: ignore[arg-type]
+        return payload(*fields)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(audit, "_payload", counted)
+    return calls
+
+
+def test_sqlite_writes_the_same_text_as_python_for_awkward_text(
+        db: Database, monkeypatch: pytest.MonkeyPatch) -> None:
+    # Control characters, quotes, backslashes, non-ASCII letters, an emoji and a line
+    # separator, in a reason and in a row's text: each event's text from SQLite must
+    # give its hash, with no event going the Python way.
+    if not db.is_sqlite:
+        pytest.skip("SQLite's JSON functions only")
+    _write_lab(db)
+    with db.session() as session:
+        batch = session.scalars(select(Batch).where(Batch.code == "B-3")).one()
+        batch.retired_at = now()
+        batch.retired_by = "ana"
+        batch.retired_reason = TRICKY
+        audit.record(session, actor="ana", action="batch retire", row=batch, reason=TRICKY)
+    calls = _count_python_way(monkeypatch)
+    report = _verify(db)
+    assert report.ok and report.events == 6, report.problems
+    assert calls == []
+
+
+def test_an_event_sqlite_cannot_spell_is_checked_the_python_way(
+        db: Database, db_file: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # The same time written the ISO way ('T') instead of SQLAlchemy's stored shape
+    # (' '): still the same time, so still verified, but by the Python way.
+    _write_lab(db)
+    _raw(db_file, "UPDATE audit_events SET at = replace(at, ' ', 'T') WHERE seq = 3",
+         "UPDATE audit_events SET performed_at = '2026-01-02 03:04:05' WHERE seq = 4")
+    calls = _count_python_way(monkeypatch)
+    report = _verify(db)
+    # Event 4 now names another time than the one hashed: found, by the Python way.
+    assert report.problems == (
+        "audit event #4 (batches #3) does not match its hash: edited outside prepbook",)
+    assert calls == [4]
+
+
+def test_a_blob_in_an_event_is_found_the_python_way(
+        db: Database, db_file: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    _write_lab(db)
+    _raw(db_file, "UPDATE audit_events SET actor = CAST('ana' AS BLOB) WHERE seq = 2")
+    calls = _count_python_way(monkeypatch)
+    report = _verify(db)
+    assert report.events == 5
+    assert report.problems == (
+        "audit event #2 (batches #1) cannot be read (Object of type bytes is not JSON "
+        "serializable): edited outside prepbook",)
+    assert calls == [1, 2, 3, 4, 5]  # SQLite refused the blob: every event the Python way
+
