@@ -11,6 +11,7 @@ cannot drift from them.
 
 from __future__ import annotations
 
+import copy
 import importlib
 import sys
 from collections.abc import Iterator, Mapping
@@ -85,13 +86,24 @@ COMMANDS: tuple[Entry, ...] = (
 )
 
 
-def load(entry: Entry) -> Any:
+def load(entry: Entry, only: str | None = None) -> Any:
     """The Click command for ``entry``, converted by Typer exactly as ``app.command(name)``
-    or ``app.add_typer(..., name=name)`` on the root would convert it."""
+    or ``app.add_typer(..., name=name)`` on the root would convert it.
+
+    ``only`` names one command of a group: the group is then converted holding that
+    command alone (Typer converts every command of a group at once, most of the cost
+    of a short command such as ``calc normality``). A name the group does not have
+    converts the whole group, so help and "No such command" stay as they are.
+    """
     target = getattr(importlib.import_module(f"prepbook.cli.{entry.module}"), entry.attribute)
     holder = typer.Typer(rich_markup_mode=app.rich_markup_mode, add_completion=False,
                          pretty_exceptions_short=app.pretty_exceptions_short)
     if entry.group:
+        if only is not None and not target.registered_groups:
+            chosen = [c for c in target.registered_commands if c.name == only]
+            if chosen:
+                target = copy.copy(target)
+                target.registered_commands = chosen
         holder.add_typer(target, name=entry.name)
         return typer.main.get_command(holder).commands[entry.name]  # type: ignore[attr-defined]
     holder.command(entry.name)(target)
@@ -101,16 +113,23 @@ def load(entry: Entry) -> Any:
 class _LazyCommands(Mapping[str, Any]):
     """The root's name -> command mapping: names from ``COMMANDS``, each command loaded
     on first access. Membership, order and ``len`` need no import. Read-only: a new
-    command goes into ``COMMANDS``."""
+    command goes into ``COMMANDS``. ``expect`` names the one command of a group about
+    to run, so only that one is converted (``load``)."""
 
     def __init__(self, entries: tuple[Entry, ...]) -> None:
         self._entries = {e.name: e for e in entries}
-        self._loaded: dict[str, Any] = {}
+        self._loaded: dict[tuple[str, str | None], Any] = {}
+        self._expected: dict[str, str] = {}
+
+    def expect(self, group: str, command: str) -> None:
+        if group in self._entries and self._entries[group].group:
+            self._expected[group] = command
 
     def __getitem__(self, name: str) -> Any:
-        if name not in self._loaded:
-            self._loaded[name] = load(self._entries[name])  # KeyError: no such command
-        return self._loaded[name]
+        key = (name, self._expected.pop(name, None))
+        if key not in self._loaded:
+            self._loaded[key] = load(self._entries[name], only=key[1])  # KeyError: no such
+        return self._loaded[key]
 
     def __iter__(self) -> Iterator[str]:
         return iter(self._entries)
@@ -129,6 +148,13 @@ class _Root(TyperGroup):
     def __init__(self, **attrs: Any) -> None:
         super().__init__(**attrs)
         self.commands = _LazyCommands(COMMANDS)
+
+    def resolve_command(self, ctx: Any, args: list[str]) -> Any:
+        # "calc normality ...": the word after a group's name, when it is not an
+        # option, is the command about to run; the group converts that one alone.
+        if len(args) > 1 and not args[1].startswith("-"):
+            self.commands.expect(args[0], args[1])
+        return super().resolve_command(ctx, args)
 
     def list_commands(self, ctx: Any) -> list[str]:
         return list(self.commands)  # the names alone: TyperGroup's would load every command
