@@ -31,6 +31,8 @@ except SystemExit:
     pass
 finally:
     sys.stdout.flush()
+    import gc
+    print("\n@@FROZEN@@" + str(gc.get_freeze_count()), file=sys.stderr)
     print("\n@@MODULES@@" + json.dumps(sorted(sys.modules)), file=sys.stderr)
 """
 
@@ -85,3 +87,21 @@ def test_the_check_sees_a_command_module() -> None:
     # Running a group's command loads that group's module (or the checks above prove nothing).
     loaded, _ = _run(["--db", "/nonexistent/prepbook-test.db", "lot", "list"])
     assert "prepbook.cli.lots" in loaded
+
+
+def _frozen_at_exit(args: list[str]) -> int:
+    result = subprocess.run([sys.executable, "-c", _WRAPPER, json.dumps(args)],
+                            capture_output=True, text=True, check=True,
+                            env={"PATH": "", "COLUMNS": "100", "PREPBOOK_USER": "ada"})
+    return int(result.stderr.split("@@FROZEN@@", 1)[1].split()[0])
+
+
+def test_a_command_without_a_database_skips_the_last_collection() -> None:
+    assert _frozen_at_exit(["calc", "normality", "--standard", "KHP",
+                            "--rep", "0.8123:39.80", "--json"]) > 0
+    assert _frozen_at_exit(["--help"]) > 0
+
+
+def test_a_command_that_opened_a_database_is_collected_at_exit(tmp_path) -> None:
+    # Its connections must close properly (SQLite folds its log into the file then).
+    assert _frozen_at_exit(["--db", str(tmp_path / "none.db"), "status"]) == 0
