@@ -20,7 +20,7 @@ from typing import Any, NamedTuple
 import typer
 from typer.core import TyperCommand, TyperGroup
 
-from prepbook.cli.context import DEFAULT_DB, Invocation, current_user
+from prepbook.cli.context import DEFAULT_DB, Invocation
 from prepbook.errors import PrepbookError
 
 
@@ -212,4 +212,4 @@ def _root(
         show_default=False,
     ),
 ) -> None:
-    ctx.obj = Invocation(db=db or DEFAULT_DB, user=user or current_user())
+    ctx.obj = Invocation(db=db or DEFAULT_DB, user_given=user or None)

@@ -2,22 +2,30 @@
 
 from __future__ import annotations
 
-import getpass
 import os
-from dataclasses import dataclass
+from typing import NamedTuple
 
 import typer
 
 DEFAULT_DB = "prepbook.db"
 
 
-@dataclass(frozen=True)
-class Invocation:
+class Invocation(NamedTuple):
+    """The root options of one run. ``user_given`` is as given (``--user`` or PREPBOOK_USER);
+    ``user`` falls back to the login name, looked up only when a command needs
+    it (a NamedTuple rather than a dataclass: every command builds one at start-up)."""
+
     db: str
-    user: str
+    user_given: str | None = None
+
+    @property
+    def user(self) -> str:
+        return self.user_given or current_user()
 
 
 def current_user() -> str:
+    import getpass  # only when no user was named
+
     try:
         return getpass.getuser()
     except (KeyError, OSError):  # no login name (some containers, Windows services)
@@ -31,4 +39,4 @@ def invocation(ctx: typer.Context) -> Invocation:
     if isinstance(obj, Invocation):
         return obj
     return Invocation(db=os.environ.get("PREPBOOK_DB") or DEFAULT_DB,
-                      user=os.environ.get("PREPBOOK_USER") or current_user())
+                      user_given=os.environ.get("PREPBOOK_USER") or None)
