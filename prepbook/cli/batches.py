@@ -71,7 +71,8 @@ def _render_show(out: Any, b: dict[str, Any]) -> None:
     out.print(f"[bold]{b['batch']}[/bold]  {b['spec_name']} ({b['spec']}), "
               f"nominal {b['nominal']:g} {b['unit']}")
     state = b["state"]
-    out.print(f"state: [bold]{state}[/bold]   normality: {output.sig(b['normality'], 5)} eq/L   "
+    out.print(f"state: [bold]{state}[/bold]   normality: {output.sig(b['normality'], 5)} eq/L "
+              "at 20 C   "
               f"factor: {output.fixed(b['factor'], 4)}   restandardize by: "
               f"{b['restandardize_by'] or '-'}   expires: {b['expires']}")
     how = {

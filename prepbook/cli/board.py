@@ -30,7 +30,7 @@ def render_board(out: Any, items: list[dict[str, Any]]) -> None:
              str(len(it["warnings"])) if it["warnings"] else "")
             for it in items]
     out.print(output.table(f"Board: {len(items)} batches in use",
-                           ["batch", "state", "N (eq/L)", "factor", "restd. by", "expires", "!"],
+                           ["batch", "state", "N 20 C", "factor", "restd. by", "expires", "!"],
                            rows, right=(2, 3, 6), no_wrap=range(7)))
     flagged = [it for it in items if it["warnings"]]
     if flagged:

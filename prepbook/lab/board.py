@@ -32,7 +32,7 @@ class _RunFacts:
     batch_id: int
     performed_on: date
     status: str
-    normality: float | None
+    normality_20c: float | None  # at 20 C: what the factor, the label and the trend use
     factor: float | None
     lot_code: str | None
     lot_expires: date | None
@@ -80,7 +80,9 @@ def _life(
         restandardize_by=restd,
         instruments=instruments,
         lots=lots,
-        accepted_normalities=[r.normality for r in accepted if r.normality is not None],
+        # At 20 C, as the trend compares them: two runs at different temperatures
+        # differ by the solution's expansion alone, which is no drift.
+        accepted_normalities=[r.normality_20c for r in accepted if r.normality_20c is not None],
         drift_limit_percent=view.drift_limit_percent,
         latest_status=latest.status if latest else None,
     )
@@ -88,7 +90,7 @@ def _life(
         "batch": batch.code,
         "spec": spec.code,
         "state": state,
-        "normality": last.normality if last else None,
+        "normality": last.normality_20c if last else None,  # eq/L at 20 C
         "factor": last.factor if last else None,
         "standardized_on": iso(last.performed_on) if last else None,
         "restandardize_by": iso(restd),
@@ -106,7 +108,7 @@ _FLASK = aliased(Instrument, name="flask")
 @functools.cache
 def _run_facts_query() -> Any:
     return (
-        select(Run.batch_id, Run.performed_at, Run.status, Run.normality, Run.factor,
+        select(Run.batch_id, Run.performed_at, Run.status, Run.normality_20c, Run.factor,
                Lot.code, Lot.expires, _BALANCE.code, _BALANCE.due, _BURETTE.code, _BURETTE.due)
         .outerjoin(Lot, Run.lot_id == Lot.id)
         .outerjoin(_BALANCE, Run.balance_id == _BALANCE.id)

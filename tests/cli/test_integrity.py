@@ -317,3 +317,32 @@ def test_drift_beyond_the_limit_flags_the_uses_since_the_previous_standardizatio
     assert len(t["downward"]["uses"]) == 3
     row = next(b for b in bench.json("status") if b["batch"] == batch)
     assert any("drift" in w.lower() for w in row["warnings"])
+
+
+def test_the_board_compares_and_shows_normalities_at_20_c(bench: Cli) -> None:  # noqa: F811
+    # The same readings at 10 C and at 35 C give the same normality at those
+    # temperatures, but water expands by about 0.57 % between them (0.99970 and
+    # 0.99403 g/mL, CIPM formula; see tests/chem/test_corrections.py): at 20 C the
+    # second result is about 0.57 % stronger, beyond the 0.5 % drift limit of
+    # NaOH-0.1N. The trend and the board must both see that drift, and the board's
+    # normality must be the one its factor and the label use.
+    batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
+                       "--at", _at(-6), user="ben")["batch"]
+    reps = sum((["--rep", r] for r in REPS), [])
+    cold = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(-5), "--temp", "10",
+                      *reps, user="ben")
+    _accept(bench, cold["run"])
+    warm = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(-2), "--temp", "35",
+                      *reps, user="ben")
+    _accept(bench, warm["run"])
+    assert warm["normality"] == pytest.approx(cold["normality"], rel=1e-12)
+    shown = bench.json("batch", "show", batch)
+    runs = {r["run"]: r for r in shown["runs"]}
+    n20 = runs[warm["run"]]["normality_20c"]
+    assert n20 / runs[cold["run"]]["normality_20c"] - 1 == pytest.approx(0.0057, abs=0.0003)
+    row = next(b for b in bench.json("status") if b["batch"] == batch)
+    assert row["normality"] == n20 == shown["normality"]
+    assert row["factor"] == pytest.approx(n20 / 0.1, rel=1e-12)
+    assert any("drift" in w.lower() for w in row["warnings"]), row["warnings"]
+    trend = bench.json("trend", batch)
+    assert abs(trend["history"][-1]["change_percent"]) > 0.5

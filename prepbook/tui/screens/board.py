@@ -50,7 +50,7 @@ class BoardScreen(Screen[None]):
         table = self.query_one("#board", DataTable)
         table.add_column("batch", key="batch")
         table.add_column("state", key="state")
-        table.add_column(Text("N (eq/L)", justify="right"), key="n")
+        table.add_column(Text("N at 20 °C (eq/L)", justify="right"), key="n")
         table.add_column(Text("factor", justify="right"), key="factor")
         table.add_column("restd. by", key="restd")
         table.add_column("expires", key="expires")
