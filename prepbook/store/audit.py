@@ -504,10 +504,10 @@ def verify(session: Session) -> VerifyReport:
 
     # The last event of each record of a table checked the Python way: its seq, a
     # digest of its snapshot (not the snapshot itself, which for a long history would
-    # hold hundreds of MB) and whether the event matched its hash. For the tables
-    # SQLite compares itself (``_check_rows``), only which records have events.
+    # hold hundreds of MB) and whether the event matched its hash. The tables SQLite
+    # compares itself (``sql_tables``, see ``_check_rows``) need nothing from here.
     last_values: dict[tuple[str, Any], tuple[int, bytes | None, bool]] = {}
-    with_events: dict[str, set[Any]] = {}
+    sql_tables: frozenset[str] = frozenset()
     count = prev_seq = wrong_scheme = 0
     prev_hash: str | None = None
     prefix = scheme + ":"
@@ -580,7 +580,7 @@ def verify(session: Session) -> VerifyReport:
         # whose text does not give its hash is read again whole after the pass and
         # checked the Python way, which is the reference: the two agree on every
         # event prepbook writes, and differ only by costing time.
-        with_events = {name: set() for name in in_sql}
+        sql_tables = in_sql
         later: list[tuple[int, Any, Any]] = []
         for rows in chain:
             count += len(rows)
@@ -592,10 +592,7 @@ def verify(session: Session) -> VerifyReport:
                     if not later:
                         problems.reserve("edited")  # this kind's place in the order
                     later.append((seq, rtype, rid))
-                ids = with_events.get(rtype)
-                if ids is not None:
-                    ids.add(rid)
-                else:
+                if rtype not in sql_tables:
                     last_values[(rtype, rid)] = (seq, digest_of(values), verified)
                 prev_seq = seq
                 prev_hash = stored
@@ -604,7 +601,7 @@ def verify(session: Session) -> VerifyReport:
             stmt = _events_stmt(True).where(_events.c.seq.in_([seq for seq, _, _ in chunk]))
             whole = {row[0]: row for rows in _batches(conn, stmt) for row in rows}
             for seq, rtype, rid in chunk:
-                if event_checks_out(*whole[seq]) and rtype not in with_events:
+                if event_checks_out(*whole[seq]) and rtype not in sql_tables:
                     last = last_values[(rtype, rid)]
                     if last[0] == seq:
                         last_values[(rtype, rid)] = (seq, last[1], True)
@@ -612,7 +609,7 @@ def verify(session: Session) -> VerifyReport:
         # Elsewhere, or where SQLite cannot write the text (no JSON functions, or a
         # blob stored in an event): every event the Python way, from the start.
         problems = before
-        last_values, with_events = {}, {}
+        last_values, sql_tables = {}, frozenset()
         count = prev_seq = wrong_scheme = 0
         prev_hash = None
         for rows in _batches(conn, _events_stmt(on_sqlite)):
@@ -666,7 +663,7 @@ def verify(session: Session) -> VerifyReport:
         elif head_hash != prev_hash:
             problems.add("head", f"the audit head hash does not match event #{prev_seq}")
 
-    _check_rows(conn, last_values, problems, with_events)
+    _check_rows(conn, last_values, problems, sql_tables)
     listed = problems.as_tuple()
     return VerifyReport(ok=not listed, events=count, head_hash=prev_hash, problems=listed)
 
@@ -738,8 +735,8 @@ def _row_reader(
     table: Any, on_sqlite: bool
 ) -> tuple[Any, RowReader, Callable[[Sequence[Any]], str], Any]:
     """The SELECT of every row of ``table``, two ways of reading its snapshot, and on
-    SQLite a SELECT of the ids of the rows that differ from their last event, the
-    rows' text written by SQLite itself.
+    SQLite two SELECTs: the ids of the rows that differ from their last event (the
+    rows' text written by SQLite itself), and the ids that have events but no row.
 
     ``careful`` gives the dict ``record()`` would snapshot, keyed in
     ``snapshot_columns`` order (sorted by name) so it dumps to the canonical JSON the
@@ -815,12 +812,20 @@ def _row_reader(
                            _events.c.record_id == table.c.id)
                     .scalar_subquery())
         event = _events.alias("last_event")
-        text_stmt = (
+        differing = (
             select(table.c.id)
             .select_from(table.outerjoin(event, event.c.seq == last_seq))
             .where(func.json_object(*pairs).is_not(event.c["values"]))
             .order_by(table.c.id)
         )
+        # And the records that have events but no row.
+        gone = (
+            select(_events.c.record_id).distinct()
+            .where(_events.c.record_type == literal(table.name),
+                   ~select(table.c.id).where(table.c.id == _events.c.record_id).exists())
+            .order_by(_events.c.record_id)
+        )
+        text_stmt = (differing, gone)
 
     def quick(row: Sequence[Any]) -> str:
         current = dict(zip(names, row, strict=True))
@@ -881,7 +886,7 @@ def _last_events(conn: Any, name: str, ids: Sequence[Any]) -> dict[tuple[str, An
 
 def _check_rows(
     conn: Any, last_values: dict[tuple[str, Any], tuple[int, bytes | None, bool]],
-    problems: _Problems, with_events: dict[str, set[Any]] | None = None,
+    problems: _Problems, sql_tables: frozenset[str] = frozenset(),
 ) -> None:
     """Every audited row must equal the snapshot in its last event, and vice versa.
 
@@ -892,9 +897,10 @@ def _check_rows(
     but an int, or a time in any other shape would have spelled it differently. Every
     other row is made with every canonicaliser.
 
-    The tables in ``with_events`` (which records have events, from the chain pass)
-    are compared by SQLite itself (``_row_reader``): only the rows it finds different
-    are read, whole, and go the careful way, with their last events read back. A row
+    The tables in ``sql_tables`` are compared by SQLite itself (``_row_reader``): it
+    returns only the rows it finds different, which are read, whole, and go the
+    careful way with their last events read back, and the records that have events
+    but no row (deleted). A row
     whose last event does not match its hash needs nothing more: the chain pass has
     named that event, and the careful way would compare the row with the same text.
 
@@ -904,7 +910,6 @@ def _check_rows(
     (``_in_todays_form``); anything else is named with the columns that differ.
     """
     on_sqlite = conn.dialect.name == "sqlite"
-    with_events = with_events or {}
     seen: set[tuple[str, Any]] = set()
     gone: list[tuple[int, str, Any]] = []  # (last event's seq, table, id) of deleted rows
     for name, table in AUDITED_TABLES.items():
@@ -945,10 +950,12 @@ def _check_rows(
             recheck.append((current, text, last[0]))
 
         try:
-            if text_stmt is not None and name in with_events:
+            if text_stmt is not None and name in sql_tables:
                 # SQLite writes each row's text and compares it with the stored text of
                 # the record's last event; only the rows that differ are read again.
-                later = [row[0] for rows in _batches(conn, text_stmt) for row in rows]
+                differing, deleted = text_stmt
+                later = [row[0] for rows in _batches(conn, differing) for row in rows]
+                missing = [row[0] for rows in _batches(conn, deleted) for row in rows]
                 for at in range(0, len(later), 500):
                     ids = later[at:at + 500]
                     lasts = {key: (seq, _digest(values), True) for key, (seq, values)
@@ -956,9 +963,6 @@ def _check_rows(
                     for rows in _batches(conn, stmt.where(table.c.id.in_(ids))):
                         for row in rows:
                             the_careful_way(row, lasts=lasts)
-                present = {row[0] for rows in _batches(conn, select(table.c.id))
-                           for row in rows}
-                missing = sorted(with_events[name] - present)
                 gone.extend((seq, name, rid) for (_, rid), (seq, _) in
                             _last_events(conn, name, missing).items())
             else:

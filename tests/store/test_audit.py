@@ -571,3 +571,26 @@ def test_a_blob_in_an_event_is_found_the_python_way(
         "serializable): edited outside prepbook",)
     assert calls == [1, 2, 3, 4, 5]  # SQLite refused the blob: every event the Python way
 
+
+
+
+def test_rows_edited_and_deleted_in_a_table_sqlite_compares_are_named(
+        db: Database, db_file: Path) -> None:
+    from prepbook.store.models import Use  # noqa: PLC0415
+
+    _write_lab(db)
+    with db.session() as session:
+        batch = session.scalars(select(Batch).where(Batch.code == "B-1")).one()
+        for n in range(3):
+            use = Use(batch_id=batch.id, used_at=now(), used_by="ben", volume_ml_text="20",
+                      purpose=f"sample {n}")
+            session.add(use)
+            session.flush()
+            audit.record(session, actor="ben", action="batch use", row=use)
+    assert _verify(db).ok
+    _raw(db_file, "UPDATE uses SET purpose = 'sample 9' WHERE id = 2",
+         "DELETE FROM uses WHERE id = 3")
+    assert _verify(db).problems == (
+        "uses #2 differs from its last audited state in: purpose",
+        "uses #3 is gone but its audit events remain: deleted outside prepbook",
+    )
