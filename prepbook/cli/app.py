@@ -12,6 +12,7 @@ cannot drift from them.
 from __future__ import annotations
 
 import copy
+import gc
 import importlib
 import sys
 from collections.abc import Iterator, Mapping
@@ -110,6 +111,10 @@ def load(entry: Entry, only: str | None = None) -> Any:
     return typer.main.get_command(holder)
 
 
+#: Root commands that open no database and run in moments (see ``_Root.resolve_command``).
+_COLLECTOR_PAUSED = frozenset({"calc"})
+
+
 class _LazyCommands(Mapping[str, Any]):
     """The root's name -> command mapping: names from ``COMMANDS``, each command loaded
     on first access. Membership, order and ``len`` need no import. Read-only: a new
@@ -154,6 +159,12 @@ class _Root(TyperGroup):
         # option, is the command about to run; the group converts that one alone.
         if len(args) > 1 and not args[1].startswith("-"):
             self.commands.expect(args[0], args[1])
+        if args and args[0] in _COLLECTOR_PAUSED and gc.isenabled():
+            # These compute a few numbers from what was typed: the cyclic garbage
+            # collector would only spend a few ms on the objects their imports create.
+            # It is back on when the command ends (tests run many in one process).
+            gc.disable()
+            ctx.call_on_close(gc.enable)
         return super().resolve_command(ctx, args)
 
     def list_commands(self, ctx: Any) -> list[str]:

@@ -125,3 +125,27 @@ def test_two_commands_of_one_group_run_one_after_the_other_in_one_process() -> N
     assert second.exit_code == 0, second.output
     typo = runner.invoke(app, ["calc", "dilut"])
     assert typo.exit_code == 2 and "'dilute'" in typo.stderr
+
+
+def test_calc_runs_with_the_collector_paused_and_turns_it_back_on(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    import gc
+
+    seen: list[bool] = []
+    runner = CliRunner()
+    original = gc.disable
+
+    def disable() -> None:
+        seen.append(True)
+        original()
+
+    monkeypatch.setattr(gc, "disable", disable)
+    assert gc.isenabled()
+    result = runner.invoke(app, ["calc", "temperature", "--normality", "0.1", "--from", "25",
+                                 "--to", "20", "--json"])
+    assert result.exit_code == 0, result.output
+    assert seen == [True]
+    assert gc.isenabled()  # back on for whatever runs next in this process
+    seen.clear()
+    runner.invoke(app, ["--help"])
+    assert seen == []
