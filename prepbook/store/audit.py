@@ -746,8 +746,9 @@ def _row_reader(
     ``_check_rows`` for when it may be trusted. The third SELECT (for a table of
     text, whole numbers, flags and times only; see ``_sql_text_ok``) has SQLite
     write that text with ``json_object``: a flag as true/false only when it is 1/0,
-    a time rewritten only in the shape SQLAlchemy stores; anything else is spelled
-    as stored, so it cannot equal the event's text by accident.
+    a time with its space made a "T" (which gives the ISO text only from the shape
+    SQLAlchemy stores or from the ISO text itself); anything else is spelled as
+    stored, so it cannot equal the event's text by accident.
     """
     from sqlalchemy import Boolean, Date, DateTime, Integer, and_, case, func, literal
 
@@ -777,7 +778,11 @@ def _row_reader(
                 expr = text
                 convert = _raw_date_text
             selected.append(expr.label(name))
-            rendered.append((name, expr))
+            # In SQLite's own text, a time's space becomes a "T": that turns only the
+            # stored shape, or the ISO text itself, into the ISO text, and the careful
+            # way reads both as that same time, so a match here is one there too.
+            rendered.append((name, func.replace(text, " ", "T")
+                             if isinstance(column.type, DateTime) else expr))
             as_read.add(name)
         else:
             selected.append(column)

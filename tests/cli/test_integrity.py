@@ -346,3 +346,17 @@ def test_the_board_compares_and_shows_normalities_at_20_c(bench: Cli) -> None:  
     assert any("drift" in w.lower() for w in row["warnings"]), row["warnings"]
     trend = bench.json("trend", batch)
     assert abs(trend["history"][-1]["change_percent"]) > 0.5
+
+
+def test_a_time_stored_the_iso_way_is_the_same_time(recorded: tuple[Cli, str, str]) -> None:
+    # 'T' for SQLAlchemy's space in a table SQLite compares itself (replicates) and in
+    # one the Python way compares (batches): the same times, so nothing to report.
+    cli, _, _ = recorded
+    if on_postgres():
+        pytest.skip("the server stores times as times")
+    raw_sql(cli.db, "UPDATE replicates SET created_at = replace(created_at, ' ', 'T')")
+    raw_sql(cli.db, "UPDATE batches SET made_at = replace(made_at, ' ', 'T')")
+    assert cli.json("audit", "verify")["ok"] is True
+    raw_sql(cli.db, "UPDATE replicates SET created_at = replace(created_at, 'T', ' ') || 'Z' "
+                 "WHERE id = 1")
+    assert "replicates #1" in _verify_fails(cli)

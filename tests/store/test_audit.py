@@ -594,3 +594,11 @@ def test_rows_edited_and_deleted_in_a_table_sqlite_compares_are_named(
         "uses #2 differs from its last audited state in: purpose",
         "uses #3 is gone but its audit events remain: deleted outside prepbook",
     )
+
+
+def test_a_row_time_stored_the_iso_way_is_the_same_time(db: Database, db_file: Path) -> None:
+    # 'T' instead of SQLAlchemy's space: the same time, read the same both ways.
+    _write_lab(db)
+    _raw(db_file, "UPDATE batches SET made_at = replace(made_at, ' ', 'T') WHERE id = 1",
+         "UPDATE audit_events SET at = replace(at, ' ', 'T') WHERE seq = 1")
+    assert _verify(db).ok
