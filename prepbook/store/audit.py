@@ -905,9 +905,9 @@ def _check_rows(
     The tables in ``sql_tables`` are compared by SQLite itself (``_row_reader``): it
     returns only the rows it finds different, which are read, whole, and go the
     careful way with their last events read back, and the records that have events
-    but no row (deleted). A row
-    whose last event does not match its hash needs nothing more: the chain pass has
-    named that event, and the careful way would compare the row with the same text.
+    but no row (deleted). A row whose last event does not match its hash needs
+    nothing more: the chain pass has named that event, and the careful way would
+    compare the row with the same text.
 
     The rows that still differ are looked at again with their events read back: an
     event written before a column was digested holds that column's full text and is
