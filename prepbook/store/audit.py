@@ -520,19 +520,8 @@ def verify(session: Session) -> VerifyReport:
         """Whether one event, read whole, matches its hash (a problem named if not)."""
         nonlocal wrong_scheme
         try:
-            # SQLite's text 'YYYY-MM-DD HH:MM:SS.ffffff' is rewritten in place (the
-            # usual shape); anything else goes through _stored_time_iso, which parses.
-            at_iso: str | None
-            if type(at) is str and len(at) == 26 and at[10] == " " and at[19] == ".":
-                at_iso = f"{at[:10]}T{at[11:]}"
-            else:
-                at_iso = _stored_time_iso(at)
-            if pat is None:
-                pat_iso = None
-            elif type(pat) is str and len(pat) == 26 and pat[10] == " " and pat[19] == ".":
-                pat_iso = f"{pat[:10]}T{pat[11:]}"
-            else:
-                pat_iso = _stored_time_iso(pat)
+            at_iso = _stored_time_iso(at)
+            pat_iso = _stored_time_iso(pat)
         except ValueError:
             problems.add(
                 "edited", f"audit event #{seq} has an unreadable time: edited outside prepbook"
