@@ -13,7 +13,7 @@ from prepbook.errors import InvalidInput
 
 def database(ctx: typer.Context) -> Any:
     """The database of this run, which must exist and be current."""
-    from prepbook.store.engine import open_database
+    from prepbook.lab.database import open_database
 
     return open_database(invocation(ctx).db)
 

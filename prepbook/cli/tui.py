@@ -13,7 +13,7 @@ def tui(
 ) -> None:
     """Open the full-screen app: board, batches, recording, review desk and audit trail."""
     from prepbook.cli.context import invocation
-    from prepbook.store.engine import open_database
+    from prepbook.lab.database import open_database
 
     inv = invocation(ctx)
     # Only a --user (or PREPBOOK_USER) actually given is taken; otherwise the app asks.

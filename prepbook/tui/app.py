@@ -9,7 +9,7 @@ from textual.binding import Binding
 from textual.theme import Theme
 
 from prepbook.errors import PrepbookError
-from prepbook.store.engine import Database
+from prepbook.lab.database import Database
 
 # Our own palette: slate and teal with amber, one dark and one light.
 THEMES = (
