@@ -7,7 +7,7 @@ read-then-write upgrade. On PostgreSQL every write transaction first takes one
 transaction-scoped advisory lock, to the same effect.
 
 This module does not import Alembic: the schema revision is read with a plain
-query and compared with ``prepbook.store.migrate.HEAD_REVISION``.
+query and compared with ``prepbook.store.revision.HEAD_REVISION``.
 """
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import ORMExecuteState, Session, sessionmaker
 
 from prepbook.errors import DatabaseError, IntegrityError
-from prepbook.store.migrate import HEAD_REVISION
+from prepbook.store.revision import HEAD_REVISION
 
 BUSY_TIMEOUT_S = 30.0
 _READ_ONLY = "prepbook_read_only"
