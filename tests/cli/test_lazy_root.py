@@ -85,36 +85,6 @@ def test_the_root_knows_every_name_without_loading() -> None:
     assert root.get_command(None, "no-such") is None
 
 
-GROUPS = [e for e in COMMANDS if e.group]
-
-
-def _described(command: object) -> list[tuple]:
-    """What a user sees of a command: its help, and each parameter's names, kind and text."""
-    return [(command.help, command.epilog)] + [  # type: ignore[attr-defined]
-        (p.name, tuple(p.opts), tuple(p.secondary_opts), type(p.type).__name__,
-         p.required, repr(p.default), getattr(p, "help", None), p.metavar, p.nargs,
-         p.multiple, getattr(p, "is_flag", None), p.envvar)
-        for p in command.params  # type: ignore[attr-defined]
-    ]
-
-
-@pytest.mark.parametrize("entry", GROUPS, ids=[e.name for e in GROUPS])
-def test_a_group_converted_for_one_command_gives_that_command_unchanged(entry: Entry) -> None:
-    whole = load(entry)
-    for name, command in whole.commands.items():
-        alone = load(entry, only=name)
-        assert list(alone.commands) == [name]
-        assert _described(alone.commands[name]) == _described(command)
-        # The group itself (its options, help and callback) is the same.
-        assert _described(alone) == _described(whole)
-        assert (alone.callback is None) == (whole.callback is None)
-
-
-@pytest.mark.parametrize("entry", GROUPS, ids=[e.name for e in GROUPS])
-def test_a_name_the_group_lacks_converts_the_whole_group(entry: Entry) -> None:
-    assert list(load(entry, only="no-such").commands) == list(load(entry).commands)
-
-
 def test_two_commands_of_one_group_run_one_after_the_other_in_one_process() -> None:
     runner = CliRunner()
     first = runner.invoke(app, ["calc", "dilute", "--stock", "1", "--normality", "0.1",
@@ -125,27 +95,3 @@ def test_two_commands_of_one_group_run_one_after_the_other_in_one_process() -> N
     assert second.exit_code == 0, second.output
     typo = runner.invoke(app, ["calc", "dilut"])
     assert typo.exit_code == 2 and "'dilute'" in typo.stderr
-
-
-def test_calc_runs_with_the_collector_paused_and_turns_it_back_on(
-        monkeypatch: pytest.MonkeyPatch) -> None:
-    import gc
-
-    seen: list[bool] = []
-    runner = CliRunner()
-    original = gc.disable
-
-    def disable() -> None:
-        seen.append(True)
-        original()
-
-    monkeypatch.setattr(gc, "disable", disable)
-    assert gc.isenabled()
-    result = runner.invoke(app, ["calc", "temperature", "--normality", "0.1", "--from", "25",
-                                 "--to", "20", "--json"])
-    assert result.exit_code == 0, result.output
-    assert seen == [True]
-    assert gc.isenabled()  # back on for whatever runs next in this process
-    seen.clear()
-    runner.invoke(app, ["--help"])
-    assert seen == []
