@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import importlib
 import pkgutil
+from collections.abc import Callable
+from typing import Any
 
 import pytest
 import typer
@@ -13,6 +15,12 @@ from typer.testing import CliRunner
 
 import prepbook.cli
 from prepbook.cli.app import COMMANDS, Entry, app, load
+
+
+def _root() -> TyperGroup:
+    root = typer.main.get_command(app)
+    assert isinstance(root, TyperGroup)
+    return root
 
 
 @pytest.mark.parametrize("entry", COMMANDS, ids=[e.name for e in COMMANDS])
@@ -48,9 +56,9 @@ def test_root_help_lists_what_the_loaded_commands_would(width: int) -> None:
     """The listing drawn from the table equals Click's own listing drawn from the real
     commands (TyperGroup.format_commands asks each loaded command for its short help),
     at every width, so shortening to the width matches too."""
-    root = typer.main.get_command(app)
+    root = _root()
 
-    def listing(draw) -> str:
+    def listing(draw: Callable[[Any, Any], None]) -> str:
         ctx = root.make_context("prepbook", [], resilient_parsing=True,
                                 terminal_width=width, max_content_width=width)
         formatter = ctx.make_formatter()
@@ -79,10 +87,11 @@ def test_unknown_command_is_a_usage_error_with_a_suggestion() -> None:
 
 
 def test_the_root_knows_every_name_without_loading() -> None:
-    root = typer.main.get_command(app)
+    root = _root()
     assert list(root.commands) == [e.name for e in COMMANDS]
     assert "calc" in root.commands and "no-such" not in root.commands
-    assert root.get_command(None, "no-such") is None
+    assert root.get_command(root.make_context("prepbook", [], resilient_parsing=True),
+                            "no-such") is None
 
 
 def test_two_commands_of_one_group_run_one_after_the_other_in_one_process() -> None:
