@@ -50,6 +50,8 @@ def measure(repeat: int = 20) -> dict[str, float]:
     the first (``help_x``, ``calc_x``; ``help_cpu_x``, ``calc_cpu_x``)."""
     env = {**os.environ, "COLUMNS": "100", "PREPBOOK_USER": "ada"}
     env.pop("PREPBOOK_DB", None)
+    # As installed for a user: the untimed first run may write the modules' bytecode.
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
     pb = prepbook_command()
     commands = {"typer": [sys.executable, "-c", "import typer"],
                 "help": [*pb, "--help"],
