@@ -44,13 +44,16 @@ class _Ghs:
         return Hazard(h["signal_word"], tuple(texts), tuple(pics), h["source"])
 
 
-def _material(m: dict[str, Any], where: str, ghs: _Ghs,
-                     problems: list[str]) -> dict[str, Any]:
+def _material(m: Mapping[str, Any], where: str, ghs: _Ghs, problems: list[str]) -> Material:
     fields = {k: v for k, v in m.items() if k != "reaction"}
     fields["reactions"] = tuple(Reaction(**r) for r in m["reaction"])
     fields["hazard"] = ghs.hazard(m["hazard"], f"{where}.hazard", problems)
     fields["sources"] = tuple(sorted(m["sources"].items()))
-    return fields
+    return Material(**fields)
+
+
+def _reagent(g: Mapping[str, Any], where: str, ghs: _Ghs, problems: list[str]) -> Reagent:
+    return Reagent(**{**g, "hazard": ghs.hazard(g["hazard"], f"{where}.hazard", problems)})
 
 
 def _spec(own: Mapping[str, Any], defaults: Mapping[str, Any], where: str, ghs: _Ghs,
@@ -82,13 +85,10 @@ def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:
     problems: list[str] = []
     read = {name: table.read(data.get(name, {}), name, problems) for name, table in FILES.items()}
     ghs = _Ghs(read["ghs.toml"]["statements"], read["ghs.toml"]["pictograms"])
-    where = "materials.toml.material"
-    materials = tuple(Material(**_material(m, f"{where}[{i}]", ghs, problems))
+    materials = tuple(_material(m, f"materials.toml.material[{i}]", ghs, problems)
                       for i, m in enumerate(read["materials.toml"]["material"]))
-    where = "reagents.toml.reagent"
-    reagents = tuple(
-        Reagent(**{**g, "hazard": ghs.hazard(g["hazard"], f"{where}[{i}].hazard", problems)})
-        for i, g in enumerate(read["reagents.toml"]["reagent"]))
+    reagents = tuple(_reagent(g, f"reagents.toml.reagent[{i}]", ghs, problems)
+                     for i, g in enumerate(read["reagents.toml"]["reagent"]))
     indicators = tuple(Indicator(**i) for i in read["indicators.toml"]["indicator"])
     specs_file = read["specs.toml"]
     specs = tuple(_spec(own, specs_file["defaults"], f"specs.toml.spec[{i}]", ghs, problems)
