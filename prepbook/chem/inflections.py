@@ -17,8 +17,8 @@ How, in two passes:
    filter's own ripple (``MIN_RELATIVE_PROMINENCE`` of the steepest peak), and lies at
    least half a span from either end of the curve.
 2. **Refinement** on the recorded points, not the grid: a cubic is fitted by least
-   squares (``numpy.polyfit``) to the points within a half-width of the peak (its
-   half-height half-width, at least three points each side); the inflection is where
+   squares (``numpy.polyfit``) to the points within the peak's full width at half
+   height on either side of it (at least the seven nearest points); the inflection is where
    its second derivative is zero, -c2 / (3 c3). The window is re-centred on the result
    and the fit repeated (``REFINE_PASSES`` times). Its standard uncertainty combines
    the fit's (the covariance of c2 and c3 carried through -c2/(3 c3) to first order)
