@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import pytest
 
-from tests.chem.model_curves import ACETIC, CARBONATE, STRONG, STEP_PATTERNS, curve
+from tests.chem.model_curves import ACETIC, CARBONATE, STEP_PATTERNS, STRONG, curve
 
 KW = 1e-14
 
