@@ -124,7 +124,7 @@ def test_secondary_budget_refusals(kwargs: dict[str, float], message: str) -> No
 @settings(max_examples=200, deadline=None)
 @given(
     n_ref=hst.floats(min_value=0.001, max_value=5.0),
-    rel_ref=hst.floats(min_value=0.0, max_value=0.05),
+    rel_ref=hst.one_of(hst.just(0.0), hst.floats(min_value=1e-9, max_value=0.05)),
     aliquot=hst.floats(min_value=1.0, max_value=100.0),
     volume=hst.floats(min_value=1.0, max_value=100.0),
     pipette=hst.floats(min_value=0.0, max_value=0.1),
