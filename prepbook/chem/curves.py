@@ -158,6 +158,10 @@ def endpoint(
 ) -> Endpoint:
     """The equivalence volume of a titration curve, by the derivative method.
 
+    One inflection, from differences of successive readings: for noisy curves, uneven
+    steps or several endpoints, ``prepbook.chem.inflections.find_endpoints`` is the
+    robust finder (every inflection, each with its uncertainty).
+
     ``readings`` are pH or mV (``kind``) at each titrant volume; volumes strictly
     increase from zero or more. The steepest step is sought over the whole curve, or
     only between the volumes of ``search_ml`` (to pick the first endpoint of a
