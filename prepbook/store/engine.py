@@ -160,6 +160,7 @@ class Database:
             event.listen(factory, "before_flush", _refuse_deletes_and_silent_updates)
             event.listen(factory, "do_orm_execute", _refuse_bulk_writes)
         self._shared: Session | None = None
+        self._failed: BaseException | None = None
 
     @property
     def is_sqlite(self) -> bool:
@@ -172,11 +173,14 @@ class Database:
 
         ``write=False`` starts a deferred transaction on SQLite, for reads that must
         not queue behind a writer; it is still rolled back on error. Inside
-        ``one_transaction`` it is a savepoint of that block's transaction instead.
+        ``one_transaction`` it is that block's transaction instead.
         """
         if self._shared is not None:
-            with self._shared.begin_nested():
+            try:
                 yield self._shared
+            except BaseException as exc:
+                self._failed = exc
+                raise
             return
         factory = self._write if write else self._read
         with factory() as session, session.begin():
@@ -187,21 +191,25 @@ class Database:
     @contextmanager
     def one_transaction(self) -> Iterator[None]:
         """Commit several service calls at once: every ``session()`` inside the block
-        is a savepoint of one write transaction.
+        joins one write transaction.
 
-        Each call is checked, refused and audited exactly as on its own; a call that
-        raises is rolled back alone (its savepoint), as it would be on its own; the
-        rest is committed when the block ends, or rolled back with it if the block
-        raises. It saves a commit (and a disk sync) per call, for a program writing
-        many calls in a row, such as a benchmark's synthetic history. One thread
-        only; blocks do not nest.
+        Each call is checked, refused and audited exactly as on its own, and sees
+        the writes of the calls before it. It saves a commit (and a disk sync) per
+        call, for a program writing many calls in a row, such as a benchmark's
+        synthetic history. A call that fails inside the block fails the whole block:
+        nothing of it is written, even if the caller went on after the error. One
+        thread only; blocks do not nest.
         """
         if self._shared is not None:
             raise DatabaseError("one_transaction blocks do not nest")
         with self.session() as session:
-            self._shared = session
+            self._shared, self._failed = session, None
             try:
                 yield
+                if self._failed is not None:
+                    raise DatabaseError(
+                        f"a call failed inside one transaction ({self._failed}); "
+                        "nothing of the block was written") from self._failed
             finally:
                 self._shared = None
 
