@@ -1,5 +1,5 @@
 """``Database.one_transaction``: several service calls, one commit, each call still
-checked, refused and audited as it is on its own."""
+checked and audited as it is on its own; a failed call fails the block."""
 
 from __future__ import annotations
 
@@ -45,21 +45,28 @@ def test_calls_in_one_transaction_are_committed_together(
     assert auditing.verify(db)["ok"] is True
 
 
-def test_a_refused_call_is_rolled_back_alone(db: Database, db_target: Path | str) -> None:
+def test_a_refused_call_fails_the_whole_block(db: Database, db_target: Path | str) -> None:
     before = row_counts(db_target)
-    with db.one_transaction():
+    with pytest.raises(DatabaseError, match="already exists.*nothing of the block"), \
+            db.one_transaction():
         _balance(db, "BAL-1")
-        with pytest.raises(Refused):
+        with pytest.raises(Refused, match="already exists"):
             _balance(db, "BAL-1")  # the same code twice
+        _balance(db, "BAL-2")  # the caller went on: the block fails all the same
+    assert row_counts(db_target) == before
+    assert auditing.verify(db)["ok"] is True
+
+
+def test_a_call_that_is_not_found_fails_the_whole_block(
+        db: Database, db_target: Path | str) -> None:
+    before = row_counts(db_target)
+    with pytest.raises(DatabaseError, match="nothing of the block"), db.one_transaction():
+        _balance(db, "BAL-1")
         with pytest.raises(NotFound):
             instruments.add_instrument(db, actor="nobody", code="BAL-9", kind="balance",
                                        due="2099-01-01", capacity="220",
                                        tolerance="0.0002", readability="0.0001")
-        _balance(db, "BAL-2")
-    after = row_counts(db_target)
-    assert after["instruments"] == before["instruments"] + 2
-    assert after["audit_events"] == before["audit_events"] + 2
-    assert auditing.verify(db)["ok"] is True
+    assert row_counts(db_target) == before
 
 
 def test_an_error_leaving_the_block_rolls_everything_back(
