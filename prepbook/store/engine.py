@@ -77,6 +77,11 @@ def _install_sqlite_pragmas(engine: Engine, *, foreign_keys: bool) -> None:
             cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
             cursor.execute("PRAGMA journal_mode = WAL")
             cursor.execute(f"PRAGMA foreign_keys = {'ON' if foreign_keys else 'OFF'}")
+            # LIKE as PostgreSQL has it, case-sensitive (codes are): then SQLite finds
+            # ``code LIKE 'prefix-%'`` (the next free code) through the index on code
+            # instead of reading every code, which on ten years of runs costs a scan
+            # of 25,000 codes per standardization.
+            cursor.execute("PRAGMA case_sensitive_like = ON")
         finally:
             cursor.close()
 
@@ -124,7 +129,7 @@ def _refuse_deletes_and_silent_updates(session: Session, _context: Any, _instanc
             if not local <= allowed and state.attrs[rel.key].history.has_changes():
                 changed.append(rel.key)
         if changed:
-            table = state.mapper.local_table.name
+            table = obj.__tablename__
             raise IntegrityError(
                 f"{table} #{state.identity[0] if state.identity else '?'}: "
                 f"{', '.join(sorted(changed))} cannot be changed once recorded; "

@@ -24,6 +24,7 @@ in pyproject.toml).
 from __future__ import annotations
 
 import argparse
+import importlib
 import json
 import os
 import shutil
@@ -181,8 +182,8 @@ def main() -> None:
                   f"{verdict(s10 / s1 <= TARGET_SCALE)})  [{big_code}]", flush=True)
 
     # -- audit verify -------------------------------------------------------------------
-    try:
-        from tests.benchmarks import verify_bench
+    try:  # written beside this file by the audit work; absent before it lands
+        verify_bench = importlib.import_module("tests.benchmarks.verify_bench")
     except ImportError:
         print("verify     skipped (tests/benchmarks/verify_bench.py is not there)")
     else:
