@@ -4,9 +4,10 @@
 
 The bare loop reads every event with the sqlite3 module, writes the hashed text of
 its fields with json (an encoder built once) and hashes it with ``hashlib``: the least
-any check of the chain can cost (the same loop as ``bench.py``). prepbook's ``verify`` does that and also checks the links, the
-head and every audited row against its last event. Not a timed test: it prints the
-figures (the target is verify at most 1.5x the bare loop).
+any check of the chain can cost (the same loop as ``bench.py``). prepbook's ``verify``
+does that and also checks the links, the head and every audited row against its last
+event. Not a timed test: it prints the figures (the target is verify at most 1.5x the
+bare loop).
 """
 
 from __future__ import annotations

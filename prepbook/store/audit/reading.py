@@ -54,7 +54,7 @@ def log(
     else:
         stmt = stmt.order_by(c.seq)
     session.flush()
-    rows = session.connection().execute(stmt).all()
+    rows = list(session.connection().execute(stmt))
     if limit is not None:
         rows.reverse()
     return [

@@ -121,7 +121,7 @@ def verify(session: Session) -> VerifyReport:
                         problems=listed)
 
 
-def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[list[Any]]:
+def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Sequence[Any]]:
     """Every row of ``table`` (these columns, ``id``/``seq`` among them), a page at a time.
 
     Read through the driver's own cursor: plain tuples of the values as stored (SQLite
@@ -148,6 +148,7 @@ def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[lis
         cursor.close()
 
 
+_EVENT_TABLE: Table = AuditEvent.__table__  # type: ignore[assignment]
 _EVENT_COLUMNS = ("seq", "at", "actor", "action", "record_type", "record_id", "values",
                   "reason", "performed_at", "prev_hash", "hash")
 
@@ -160,7 +161,7 @@ def _check_chain(conn: Connection, key: bytes | None, problems: _Problems) -> _C
     last_events: LastEvents = {}
     count = prev_seq = other_scheme = 0
     prev_hash: str | None = None
-    for rows in _pages(conn, AuditEvent.__table__, _EVENT_COLUMNS):
+    for rows in _pages(conn, _EVENT_TABLE, _EVENT_COLUMNS):
         count += len(rows)
         for seq, at, actor, action, rtype, rid, values, reason, pat, linked, stored in rows:
             if seq != prev_seq + 1 or linked != prev_hash:

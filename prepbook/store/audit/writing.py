@@ -9,10 +9,10 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 
-from sqlalchemy import select
+from sqlalchemy import Table, select
 from sqlalchemy.orm import Session
 
-from prepbook.errors import InvalidInput, IntegrityError
+from prepbook.errors import IntegrityError, InvalidInput
 from prepbook.store.audit.chain import canonical_json, hasher, iso, payload, read_key, utc_naive
 from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead, Base, snapshot
 
@@ -67,7 +67,7 @@ def record(
         raise InvalidInput("an audit event needs an actor")
     if not action or not action.strip():
         raise InvalidInput("an audit event needs an action")
-    table = row.__table__  # type: ignore[attr-defined]
+    table: Table = row.__table__  # type: ignore[attr-defined,assignment]
     if table.name not in AUDITED_TABLES:
         raise InvalidInput(f"{table.name} rows are not audited")
     scheme, digest = hasher(read_key())
