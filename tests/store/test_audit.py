@@ -15,8 +15,16 @@ from sqlalchemy import select
 
 from prepbook.errors import InvalidInput
 from prepbook.store import audit
+from prepbook.store.audit import chain
 from prepbook.store.engine import Database, open_database
-from prepbook.store.models import AuditEvent, Batch, Setting, snapshot, snapshot_mapping
+from prepbook.store.models import (
+    AuditEvent,
+    AuditHead,
+    Batch,
+    Setting,
+    snapshot,
+    snapshot_mapping,
+)
 
 from .conftest import add_batch, now
 
@@ -417,7 +425,7 @@ def _bulk_chain(db: Database, n: int) -> None:
 
     Writing them through record() one transaction at a time would take minutes.
     """
-    scheme, digest = audit._hasher(None)
+    scheme, digest = chain.hasher(None)
     at = now()
     events, settings, prev = [], [], None
     for seq in range(1, n + 1):
@@ -427,8 +435,8 @@ def _bulk_chain(db: Database, n: int) -> None:
         values = audit.canonical_json(snapshot_mapping(Setting.__table__, row))
         if seq % 2 == 0:
             settings.append(row)
-        payload = audit._payload(
-            seq, audit._iso(at), "ana", "set", "settings", rid, values, None, None, prev
+        payload = chain.payload(
+            seq, chain.iso(at), "ana", "set", "settings", rid, values, None, None, prev
         )
         h = f"{scheme}:{digest(payload)}"
         events.append(
@@ -450,7 +458,8 @@ def _bulk_chain(db: Database, n: int) -> None:
     with db.engine.begin() as conn:
         conn.execute(Setting.__table__.insert(), settings)
         conn.execute(AuditEvent.__table__.insert(), events)
-        conn.execute(audit._head.update().where(audit._head.c.id == 1).values(seq=n, hash=prev))
+        head = AuditHead.__table__
+        conn.execute(head.update().where(head.c.id == 1).values(seq=n, hash=prev))
 
 
 @pytest.mark.slow
@@ -469,7 +478,7 @@ def test_verify_streams_a_large_trail_quickly(db: Database) -> None:
 
 
 def test_payload_is_the_json_the_docstring_names() -> None:
-    # The hand-written fast path must give exactly json.dumps' bytes, odd values included.
+    # The hashed text must be exactly json.dumps' bytes, odd values included.
     cases = [
         (
             1,
@@ -488,49 +497,17 @@ def test_payload_is_the_json_the_docstring_names() -> None:
     ]
     for fields in cases:
         expected = json.dumps(list(fields), separators=(",", ":"), ensure_ascii=False).encode()
-        assert audit._payload(*fields) == expected
+        assert chain.payload(*fields) == expected
 
 
-def test_sqlite_writes_the_snapshot_text_only_for_tables_it_spells_like_python(
-        db: Database) -> None:
-    # Floats keep Python's own spelling and digested columns their fingerprint, so
-    # those tables are read the Python way; the others have SQLite write the text.
-    from prepbook.store.audit import _sql_text_ok
-    from prepbook.store.models import AUDITED_TABLES
-
-    if not db.is_sqlite:
-        pytest.skip("SQLite's JSON functions only")
-    with db.session(write=False) as s:
-        chosen = {name: _sql_text_ok(s.connection(), t) for name, t in AUDITED_TABLES.items()}
-    assert chosen["uses"] and chosen["replicates"] and chosen["reviews"]
-    assert not chosen["runs"] and not chosen["batches"] and not chosen["specs"]
-
-
-# --- SQLite writes the hashed text ---------------------------------------------------------
+# --- awkward text, odd spellings, blobs ----------------------------------------------------
 
 TRICKY = 'tab\there\nnew line "quoted" back\\slash \x01\x1f\x7f é 漢字 😀 \u2028 end'
 
 
-def _count_python_way(monkeypatch: pytest.MonkeyPatch) -> list[int]:
-    """Calls of the Python way's payload (an event whose SQLite text missed its hash)."""
-    calls: list[int] = []
-    payload = audit._payload
-
-    def counted(*fields: object) -> bytes:
-        calls.append(fields[0])  # type: ignore[arg-type]
-        return payload(*fields)  # type: ignore[arg-type]
-
-    monkeypatch.setattr(audit, "_payload", counted)
-    return calls
-
-
-def test_sqlite_writes_the_same_text_as_python_for_awkward_text(
-        db: Database, monkeypatch: pytest.MonkeyPatch) -> None:
+def test_awkward_text_verifies(db: Database) -> None:
     # Control characters, quotes, backslashes, non-ASCII letters, an emoji and a line
-    # separator, in a reason and in a row's text: each event's text from SQLite must
-    # give its hash, with no event going the Python way.
-    if not db.is_sqlite:
-        pytest.skip("SQLite's JSON functions only")
+    # separator, in a reason and in a row's text: hashed and compared exactly.
     _write_lab(db)
     with db.session() as session:
         batch = session.scalars(select(Batch).where(Batch.code == "B-3")).one()
@@ -538,43 +515,32 @@ def test_sqlite_writes_the_same_text_as_python_for_awkward_text(
         batch.retired_by = "ana"
         batch.retired_reason = TRICKY
         audit.record(session, actor="ana", action="batch retire", row=batch, reason=TRICKY)
-    calls = _count_python_way(monkeypatch)
     report = _verify(db)
     assert report.ok and report.events == 6, report.problems
-    assert calls == []
 
 
-def test_an_event_sqlite_cannot_spell_is_checked_the_python_way(
-        db: Database, db_file: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+def test_an_event_time_spelled_the_iso_way_is_the_same_time(db: Database, db_file: Path) -> None:
     # The same time written the ISO way ('T') instead of SQLAlchemy's stored shape
-    # (' '): still the same time, so still verified, but by the Python way.
+    # (' '): still the same time, so still verified; another time is found.
     _write_lab(db)
     _raw(db_file, "UPDATE audit_events SET at = replace(at, ' ', 'T') WHERE seq = 3",
          "UPDATE audit_events SET performed_at = '2026-01-02 03:04:05' WHERE seq = 4")
-    calls = _count_python_way(monkeypatch)
     report = _verify(db)
-    # Event 4 now names another time than the one hashed: found, by the Python way.
     assert report.problems == (
         "audit event #4 (batches #3) does not match its hash: edited outside prepbook",)
-    assert calls == [4]
 
 
-def test_a_blob_in_an_event_is_found_the_python_way(
-        db: Database, db_file: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+def test_a_blob_in_an_event_is_named(db: Database, db_file: Path) -> None:
     _write_lab(db)
     _raw(db_file, "UPDATE audit_events SET actor = CAST('ana' AS BLOB) WHERE seq = 2")
-    calls = _count_python_way(monkeypatch)
     report = _verify(db)
     assert report.events == 5
     assert report.problems == (
         "audit event #2 (batches #1) cannot be read (Object of type bytes is not JSON "
         "serializable): edited outside prepbook",)
-    assert calls == [1, 2, 3, 4, 5]  # SQLite refused the blob: every event the Python way
 
 
-
-
-def test_rows_edited_and_deleted_in_a_table_sqlite_compares_are_named(
+def test_rows_edited_and_deleted_in_a_table_of_text_and_times_are_named(
         db: Database, db_file: Path) -> None:
     from prepbook.store.models import Use  # noqa: PLC0415
 

@@ -1,0 +1,118 @@
+"""The hash chain's pieces shared by writing and verifying: the key, the hashed text.
+
+An event's hash covers the JSON array (seq, at, actor, action, record_type, record_id,
+values, reason, performed_at, prev_hash), written with ``json.dumps(fields,
+separators=(",", ":"), ensure_ascii=False)``; times are ISO text with microseconds.
+It is stored with its scheme: ``sha256:<hex>``, or ``hmac-sha256:<hex>`` when
+``PREPBOOK_AUDIT_KEY_FILE`` names a file holding a lab secret kept outside the
+database (a chain rewritten without the secret then no longer verifies).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import hmac
+import json
+import os
+from collections.abc import Callable
+from datetime import UTC, date, datetime
+from pathlib import Path
+from typing import Any
+
+from prepbook.errors import InvalidInput
+
+KEY_ENV = "PREPBOOK_AUDIT_KEY_FILE"
+PLAIN = "sha256"
+KEYED = "hmac-sha256"
+
+# Built once with the public JSONEncoder: json.dumps with options builds one per call.
+_canonical = json.JSONEncoder(
+    sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
+).encode
+_fields = json.JSONEncoder(separators=(",", ":"), ensure_ascii=False, allow_nan=False).encode
+
+Hasher = Callable[[bytes], str]
+
+
+def canonical_json(value: Any) -> str:
+    """The one JSON spelling of a value: sorted keys, no spaces, UTF-8, no NaN."""
+    return _canonical(value)
+
+
+def payload(seq: Any, at: Any, actor: Any, action: Any, record_type: Any, record_id: Any,
+            values: Any, reason: Any, performed_at: Any, prev_hash: Any) -> bytes:
+    """The bytes an event's hash is taken over (times already as ISO text).
+
+    Raises ``TypeError`` or ``ValueError`` for a value JSON cannot hold (a blob, NaN).
+    """
+    return _fields([seq, at, actor, action, record_type, record_id, values, reason,
+                    performed_at, prev_hash]).encode()
+
+
+def read_key() -> bytes | None:
+    """The lab's audit secret from the file named by PREPBOOK_AUDIT_KEY_FILE, if set."""
+    name = os.environ.get(KEY_ENV)
+    if not name:
+        return None
+    try:
+        key = Path(name).expanduser().read_bytes().strip()
+    except OSError as exc:
+        raise InvalidInput(f"cannot read the audit key file named by {KEY_ENV}: {exc}") from exc
+    if not key:
+        raise InvalidInput(f"the audit key file named by {KEY_ENV} ({name}) is empty")
+    return key
+
+
+def hasher(key: bytes | None) -> tuple[str, Hasher]:
+    """The scheme and the hex digest function for this key (None: plain SHA-256)."""
+    if key is None:
+        return PLAIN, lambda data: hashlib.sha256(data).hexdigest()
+    return KEYED, lambda data: hmac.new(key, data, hashlib.sha256).hexdigest()
+
+
+def utc_naive(moment: datetime) -> datetime:
+    """A datetime as naive UTC (aware ones converted; naive ones taken as UTC already)."""
+    if moment.tzinfo is not None:
+        return moment.astimezone(UTC).replace(tzinfo=None)
+    return moment
+
+
+def iso(moment: datetime | None) -> str | None:
+    """A stored time as the ISO text the chain hashes (microseconds always written)."""
+    return None if moment is None else moment.isoformat(timespec="microseconds")
+
+
+def time_text(raw: Any) -> str:
+    """The ISO text of a time as the driver hands it back (not None).
+
+    PostgreSQL gives a datetime. SQLite gives the text SQLAlchemy stored,
+    ``YYYY-MM-DD HH:MM:SS.ffffff``: that exact shape only needs its space made a "T"
+    (the hot path of ``audit verify``); any other text is parsed, so a changed text
+    gives another result, and text that is no time raises ``ValueError``.
+    """
+    if isinstance(raw, datetime):
+        return raw.isoformat(timespec="microseconds")
+    if type(raw) is str and len(raw) == 26 and raw[10] == " " and raw[19] == ".":
+        return f"{raw[:10]}T{raw[11:]}"
+    return datetime.fromisoformat(str(raw)).isoformat(timespec="microseconds")
+
+
+def date_text(raw: Any) -> str:
+    """The ISO text of a date as the driver hands it back (not None); see ``time_text``."""
+    if isinstance(raw, datetime):
+        return raw.date().isoformat()
+    if isinstance(raw, date):
+        return raw.isoformat()
+    if type(raw) is str and len(raw) == 10 and raw[4] == "-" and raw[7] == "-":
+        return raw
+    return date.fromisoformat(str(raw)).isoformat()
+
+
+def label(record_type: Any, record_id: Any, values: dict[str, Any] | None = None) -> str:
+    """'batches #3 (code B-1)': the table, the id and the human key where there is one."""
+    text = f"{record_type} #{record_id}"
+    if values:
+        for key in ("code", "name", "key"):
+            if values.get(key) is not None:
+                return f"{text} ({key} {values[key]})"
+    return text

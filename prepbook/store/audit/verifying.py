@@ -1,0 +1,313 @@
+"""Verifying the trail: one pass over the events, then every audited row against them.
+
+``verify`` reads top to bottom:
+
+1. ``_check_chain`` reads every event once, in seq order, as plain driver values
+   (no ORM object, no type processing: SQLite's times arrive as the text stored), and
+   recomputes its hash from the JSON text of its fields (``chain.payload``) with
+   ``hashlib``/``hmac``. Each event must link to the one before it. It keeps, for
+   every record, the seq and snapshot text of its last event.
+2. ``_check_head`` compares the head row with the last event.
+3. ``_check_rows`` reads every row of every audited table the same plain way, writes
+   its canonical JSON (every value through its column's canonicaliser, which refuses a
+   fraction in a whole-number column or a flag other than 0/1 instead of coercing it)
+   and compares that text with its record's last event. A row that differs is looked
+   at again: an event written before a column was digested holds that column's full
+   text and passes when, put in today's form, it is the row's text; anything else is
+   named with the columns that differ. Records with events but no row were deleted.
+
+Problems are grouped by kind, each kind listed up to ``_MAX_LISTED`` times and then
+counted, so a wholesale rewrite gives a readable report.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from sqlalchemy import Connection, Date, DateTime, Table, select
+from sqlalchemy.orm import Session
+
+from prepbook.errors import InvalidInput
+from prepbook.store.audit.chain import (
+    KEY_ENV,
+    KEYED,
+    PLAIN,
+    canonical_json,
+    date_text,
+    hasher,
+    label,
+    payload,
+    read_key,
+    time_text,
+)
+from prepbook.store.models import (
+    AUDITED_TABLES,
+    AuditEvent,
+    AuditHead,
+    audited_in_digest,
+    legacy_to_digest,
+    snapshot_columns,
+)
+
+_MAX_LISTED = 10  # problems of one kind listed one by one before they are counted
+_PAGE = 10_000  # rows read at a time
+
+# (table name, record id) -> (seq, snapshot text) of the record's last event.
+LastEvents = dict[tuple[Any, Any], tuple[Any, Any]]
+Converter = Callable[[Any], Any]
+
+
+@dataclass(frozen=True)
+class VerifyReport:
+    """Outcome of ``verify``: ok only when the chain and every audited row check out."""
+
+    ok: bool
+    events: int
+    head_hash: str | None
+    problems: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class _Chain:
+    """What the pass over the events found: their number, where the chain ends."""
+
+    events: int
+    last_seq: int
+    last_hash: str | None
+    last_events: LastEvents
+
+
+class _Problems:
+    """Problems grouped by kind, in the order each kind was first met."""
+
+    def __init__(self) -> None:
+        self._listed: dict[str, list[str]] = {}
+        self._more: dict[str, int] = {}
+
+    def add(self, kind: str, message: str) -> None:
+        listed = self._listed.setdefault(kind, [])
+        if len(listed) < _MAX_LISTED:
+            listed.append(message)
+        else:
+            self._more[kind] = self._more.get(kind, 0) + 1
+
+    def as_tuple(self) -> tuple[str, ...]:
+        out: list[str] = []
+        for kind, listed in self._listed.items():
+            out.extend(listed)
+            if kind in self._more:
+                out.append(f"... and {self._more[kind]} more like the above ({kind})")
+        return tuple(out)
+
+
+def verify(session: Session) -> VerifyReport:
+    """Recompute the whole chain and check every audited row against its last event."""
+    problems = _Problems()
+    try:
+        key = read_key()
+    except InvalidInput as exc:
+        problems.add("key", f"{exc}; keyed events cannot be checked")
+        key = None
+    session.flush()  # events still pending in this session are part of the trail
+    conn = session.connection()
+    chain = _check_chain(conn, key, problems)
+    _check_head(conn, chain, problems)
+    _check_rows(conn, chain.last_events, problems)
+    listed = problems.as_tuple()
+    return VerifyReport(ok=not listed, events=chain.events, head_hash=chain.last_hash,
+                        problems=listed)
+
+
+def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Sequence[Any]]:
+    """Every row of ``table`` (these columns), in key order, a page at a time.
+
+    Read through the driver's own cursor: plain tuples of the values as stored (SQLite
+    keeps times as text), with no result object per row, which would cost about half
+    as much again as the check itself. On PostgreSQL the cursor is a named (server-side)
+    one, so memory stays bounded there too; SQLite steps through its rows as read.
+    """
+    stmt = select(*(table.c[name] for name in names)).order_by(*table.primary_key.columns)
+    driver = conn.connection
+    named = conn.dialect.name == "postgresql"
+    cursor = driver.cursor(name="prepbook_audit_verify") if named else driver.cursor()
+    try:
+        cursor.execute(str(stmt.compile(dialect=conn.dialect)))
+        while rows := cursor.fetchmany(_PAGE):
+            yield rows
+    finally:
+        cursor.close()
+
+
+_EVENT_TABLE: Table = AuditEvent.__table__  # type: ignore[assignment]
+_EVENT_COLUMNS = ("seq", "at", "actor", "action", "record_type", "record_id", "values",
+                  "reason", "performed_at", "prev_hash", "hash")
+
+
+def _check_chain(conn: Connection, key: bytes | None, problems: _Problems) -> _Chain:
+    """One pass over the events: each hash recomputed, each link to the one before."""
+    scheme, digest = hasher(key)
+    prefix = f"{scheme}:"
+    other_prefix = f"{KEYED if scheme == PLAIN else PLAIN}:"
+    last_events: LastEvents = {}
+    count = prev_seq = other_scheme = 0
+    prev_hash: str | None = None
+    for rows in _pages(conn, _EVENT_TABLE, _EVENT_COLUMNS):
+        count += len(rows)
+        for seq, at, actor, action, rtype, rid, values, reason, pat, linked, stored in rows:
+            if seq != prev_seq + 1 or linked != prev_hash:
+                _not_linked(problems, seq, prev_seq)
+            last_events[(rtype, rid)] = (seq, values)
+            prev_seq, prev_hash = seq, stored
+            try:
+                at_text = time_text(at)
+                pat_text = None if pat is None else time_text(pat)
+            except (ValueError, TypeError):
+                problems.add("edited", f"audit event #{seq} has an unreadable time: "
+                             "edited outside prepbook")
+                continue
+            try:
+                hashed = payload(seq, at_text, actor, action, rtype, rid, values, reason,
+                                 pat_text, linked)
+            except (ValueError, TypeError) as exc:  # a blob, say, where text belongs
+                problems.add("edited", f"audit event #{seq} ({label(rtype, rid)}) cannot be "
+                             f"read ({exc}): edited outside prepbook")
+                continue
+            if stored == prefix + digest(hashed):
+                continue
+            if isinstance(stored, str) and stored.startswith(other_prefix):
+                other_scheme += 1
+            else:
+                problems.add("edited", f"audit event #{seq} ({label(rtype, rid)}) does not "
+                             "match its hash: edited outside prepbook")
+    if other_scheme:
+        problems.add("key", _other_scheme(scheme, other_scheme))
+    return _Chain(count, prev_seq, prev_hash, last_events)
+
+
+def _not_linked(problems: _Problems, seq: Any, prev_seq: int) -> None:
+    if seq != prev_seq + 1:
+        missing = f"#{prev_seq + 1}" if seq == prev_seq + 2 else f"#{prev_seq + 1}-#{seq - 1}"
+        problems.add("gap", f"audit event {missing} missing before #{seq}: "
+                     "removed outside prepbook")
+    else:
+        problems.add("link", f"audit event #{seq} does not link to event #{prev_seq} "
+                     "(prev_hash differs): the trail was rewritten")
+
+
+def _other_scheme(scheme: str, count: int) -> str:
+    if scheme == PLAIN:
+        return (f"{count} audit event(s) are keyed (hmac-sha256) and cannot be checked "
+                f"without the key: set {KEY_ENV}")
+    return (f"{count} audit event(s) are not keyed although an audit key is set: the chain "
+            "was written or rewritten without it")
+
+
+def _check_head(conn: Connection, chain: _Chain, problems: _Problems) -> None:
+    """The single head row must name the chain's last event and its hash."""
+    head = AuditHead.__table__
+    rows = conn.execute(select(head.c.id, head.c.seq, head.c.hash)).all()
+    if len(rows) > 1:
+        problems.add("head", "the audit head table has more than one row")
+    named = [(seq, hash_) for id_, seq, hash_ in rows if id_ == 1]
+    if not named:
+        if chain.events:
+            problems.add("head", "the audit head row is missing")
+        return
+    seq, hash_ = named[0]
+    if seq > chain.last_seq:
+        problems.add("head", f"the audit head names event #{seq} but the trail ends at "
+                     f"#{chain.last_seq}: events removed from the end")
+    elif seq < chain.last_seq:
+        problems.add("head", f"the audit head names event #{seq} but the trail goes on to "
+                     f"#{chain.last_seq}: events added outside prepbook")
+    elif hash_ != chain.last_hash:
+        problems.add("head", f"the audit head hash does not match event #{chain.last_seq}")
+
+
+def _converters(table: Table) -> tuple[tuple[str, Converter], ...]:
+    """(name, canonicaliser) of each column, sorted, for values as the driver reads them.
+
+    As ``snapshot_columns``, except that a time or date is read as stored (SQLite
+    keeps text) and made the ISO text the snapshot holds.
+    """
+    out: list[tuple[str, Converter]] = []
+    for name, convert in snapshot_columns(table):
+        column = table.c[name]
+        if not audited_in_digest(column):
+            if isinstance(column.type, DateTime):
+                convert = time_text
+            elif isinstance(column.type, Date):
+                convert = date_text
+        out.append((name, convert))
+    return tuple(out)
+
+
+def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems) -> None:
+    """Every audited row must equal the snapshot of its last event, and vice versa."""
+    for name, table in AUDITED_TABLES.items():
+        converters = _converters(table)
+        id_at = [n for n, _ in converters].index("id")
+        for rows in _pages(conn, table, [n for n, _ in converters]):
+            for row in rows:
+                last = last_events.pop((name, row[id_at]), None)
+                try:
+                    current = {n: None if v is None else convert(v)
+                               for (n, convert), v in zip(converters, row, strict=True)}
+                except (ValueError, TypeError) as exc:
+                    problems.add("unreadable", f"{name} #{row[id_at]} cannot be read "
+                                 f"({exc}): edited outside prepbook")
+                    continue
+                if last is None:
+                    problems.add("added", f"{label(name, current['id'], current)} has no "
+                                 "audit event: added outside prepbook")
+                    continue
+                text = canonical_json(current)
+                if text != last[1]:
+                    _compare_again(table, current, text, last[1], problems)
+    _report_deleted(last_events, problems)
+
+
+def _decoded(values: Any) -> dict[str, Any]:
+    """An event's snapshot as a dict ({} when it is not a JSON object)."""
+    try:
+        decoded = json.loads(values)
+    except (ValueError, TypeError):
+        return {}
+    return decoded if isinstance(decoded, dict) else {}
+
+
+def _compare_again(table: Table, current: dict[str, Any], text: str, event_values: Any,
+                   problems: _Problems) -> None:
+    """A row whose text is not its last event's: the pre-digest form passes, else named.
+
+    An event written before a column was digested holds that column's full text; in
+    today's form (``legacy_to_digest``) its canonical text is exactly the row's when
+    nothing else changed.
+    """
+    audited = legacy_to_digest(table, _decoded(event_values))
+    if audited and canonical_json(audited) == text:
+        return
+    differ = sorted(
+        column for column in current.keys() | audited.keys()
+        if column not in current or column not in audited
+        or canonical_json(current[column]) != canonical_json(audited[column])
+    )
+    problems.add("differs", f"{label(table.name, current['id'], current)} differs from its "
+                 f"last audited state in: {', '.join(differ)}")
+
+
+def _report_deleted(last_events: LastEvents, problems: _Problems) -> None:
+    """Records with events but no row, in the order of their last events."""
+    gone = []
+    for (name, rid), (seq, values) in last_events.items():
+        if name in AUDITED_TABLES:
+            gone.append((seq, name, rid, values))
+        else:
+            problems.add("unknown", f"audit events name an unknown table {name!r} (#{rid})")
+    gone.sort(key=lambda item: item[0])
+    for _, name, rid, values in gone:
+        problems.add("deleted", f"{label(name, rid, _decoded(values))} is gone but its audit "
+                     "events remain: deleted outside prepbook")

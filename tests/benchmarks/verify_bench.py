@@ -1,0 +1,82 @@
+"""`audit verify` against a bare loop of sqlite3 + json.dumps + hashlib on the same file.
+
+    python tests/benchmarks/verify_bench.py PATH/TO/lab.db
+
+The bare loop reads every event with the sqlite3 module, writes the hashed text of
+its fields with json (an encoder built once) and hashes it with ``hashlib``: the least
+any check of the chain can cost (the same loop as ``bench.py``). prepbook's ``verify``
+does that and also checks the links, the head and every audited row against its last
+event. Not a timed test: it prints the figures (the target is verify at most 1.5x the
+bare loop).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import sqlite3
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+
+def bare_loop(db_path: Path) -> int:
+    """Hash every event of the file the plainest fast way; the number that match."""
+    dumps = json.JSONEncoder(separators=(",", ":"), ensure_ascii=False).encode
+    con = sqlite3.connect(f"file:{db_path}?mode=ro", uri=True)
+    try:
+        cursor = con.execute(
+            'SELECT seq, at, actor, action, record_type, record_id, "values", reason,'
+            " performed_at, prev_hash, hash FROM audit_events ORDER BY seq")
+        matched = 0
+        for seq, at, actor, action, rtype, rid, values, reason, pat, prev, stored in cursor:
+            at = at.replace(" ", "T")
+            pat = pat.replace(" ", "T") if pat else None
+            text = dumps([seq, at, actor, action, rtype, rid, values, reason, pat, prev])
+            matched += stored == "sha256:" + hashlib.sha256(text.encode()).hexdigest()
+        return matched
+    finally:
+        con.close()
+
+
+def prepbook_verify(db_path: Path) -> Any:
+    """prepbook's own ``audit verify`` through the service the command calls."""
+    from prepbook.lab import auditing
+    from prepbook.lab.database import open_database
+
+    db = open_database(str(db_path))
+    try:
+        return auditing.verify(db)
+    finally:
+        db.dispose()
+
+
+def _best_of(runs: int, work: Any) -> tuple[float, Any]:
+    best, result = float("inf"), None
+    for _ in range(runs):
+        started = time.perf_counter()
+        result = work()
+        best = min(best, time.perf_counter() - started)
+    return best, result
+
+
+def measure(db_path: str | Path, runs: int = 3) -> dict[str, Any]:
+    """Best-of-``runs`` seconds of the bare loop and of verify on the same file."""
+    path = Path(db_path)
+    bare_s, matched = _best_of(runs, lambda: bare_loop(path))
+    verify_s, report = _best_of(runs, lambda: prepbook_verify(path))
+    return {
+        "events": report["events"],
+        "events_matched_by_bare_loop": matched,
+        "bare_loop_s": round(bare_s, 3),
+        "verify_s": round(verify_s, 3),
+        "ratio": round(verify_s / bare_s, 2),
+        "verify_ok": report["ok"],
+    }
+
+
+if __name__ == "__main__":
+    if len(sys.argv) != 2:
+        sys.exit("usage: python tests/benchmarks/verify_bench.py PATH/TO/lab.db")
+    print(json.dumps(measure(sys.argv[1]), indent=2))
