@@ -93,7 +93,7 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
             rv = r.get("review")
             if rv:
                 signed = min(when + timedelta(hours=5), now)
-                runs.review(db, actor=rv["by"], run=out["run"],
+                runs.review(db, actor=rv["by"], run=out.run,
                             accept=rv["decision"] == "accept", reason=rv.get("reason"),
                             passphrase=users[rv["by"]]["passphrase"],
                             at=signed.isoformat(timespec="minutes"))
@@ -327,7 +327,7 @@ class _History:
             args["stock_volume"] = f"{ml * (1 + self.rng.gauss(0, 0.004)):.1f}"
         else:
             mass = calcs.solid(spec.solute, normality_text=str(spec.nominal),
-                               volume_text="1000")["mass_g"]
+                               volume_text="1000").mass_g
             args.update(solute_mass=f"{mass * (1 + self.rng.gauss(0.01, 0.004)):.4f}",
                         balance=balance)
         res = batches.make_batch(self.db, actor=analyst, spec=kind.spec, volume="1000",
@@ -385,11 +385,11 @@ class _History:
             self.counts["runs"] += 1
             bottle.left_ml -= 3 * 40
             reviewer = self.rng.choice(_REVIEWERS)
-            accept = out["verdict"] == "pass"
+            accept = out.verdict == "pass"
             reason = None if accept else "; ".join(
-                c["message"] for c in out["checks"] if not c["passed"]
-                and c["severity"] == "fail")[:900] or "failed its checks"
-            runs.review(self.db, actor=reviewer, run=out["run"], accept=accept,
+                c.message for c in out.checks if not c.passed
+                and c.severity == "fail")[:900] or "failed its checks"
+            runs.review(self.db, actor=reviewer, run=out.run, accept=accept,
                         reason=reason, passphrase=_passphrase(reviewer),
                         at=(at + timedelta(minutes=30)).isoformat(timespec="minutes"))
             if accept:

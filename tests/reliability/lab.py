@@ -59,7 +59,7 @@ def build_lab(target: str) -> str:
         run = runs.standardize(db, actor="ben", batch=made["batch"], replicates=REPS,
                                lot="KHP-0001", balance="BAL-1", burette="BUR-1",
                                temperature="21.0")
-        runs.review(db, actor="cleo", run=run["run"], accept=True, reason=None,
+        runs.review(db, actor="cleo", run=run.run, accept=True, reason=None,
                     passphrase=PASSPHRASE.format("cleo"))
         return made["batch"]
     finally:

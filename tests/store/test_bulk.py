@@ -50,9 +50,9 @@ def _lab(db: Database) -> dict[str, Any]:
         out = runs.standardize(db, actor=TECH, batch=code, lot="KHP-GT-1", balance="BAL-7",
                                burette="BUR-7", temperature="21.0", replicates=replicates,
                                at=at)
-        runs.review(db, actor=REVIEWER, run=out["run"], accept=True, reason=None,
+        runs.review(db, actor=REVIEWER, run=out.run, accept=True, reason=None,
                     passphrase=PASS[REVIEWER], at=reviewed_at)
-        return str(out["run"])
+        return str(out.run)
 
     first = standardized(["0.8123:39.80", "0.8201:40.17", "0.8150:39.93"],
                          "2026-06-01T09:00", "2026-06-01T10:00")
