@@ -402,13 +402,13 @@ def endpoint(
     as_json: bool = JSON,
 ) -> None:
     """Equivalence volume from a recorded titration curve (derivative and Gran)."""
-    from prepbook.lab import calcs
+    from prepbook.lab import curves
 
     try:
         text = file.read_text(encoding="utf-8-sig")
     except (OSError, UnicodeDecodeError) as exc:
         raise InvalidInput(f"cannot read {file}: {exc.__class__.__name__}") from None
-    result = calcs.endpoint(text, sample_ml_text=sample_ml, between_text=search)
+    result = curves.endpoint(text, sample_ml_text=sample_ml, between_text=search)
     if as_json:
         output.emit_json(result)
         return
@@ -436,9 +436,9 @@ def eqpoint(
     as_json: bool = JSON,
 ) -> None:
     """pH at the equivalence point, and the indicators whose range covers it."""
-    from prepbook.lab import calcs
+    from prepbook.lab import curves
 
-    result = calcs.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration)
+    result = curves.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration)
     if as_json:
         output.emit_json(result)
         return

@@ -18,24 +18,12 @@ from prepbook.inputs import ReplicateEntry, parse_number, parse_percent, parse_r
 if TYPE_CHECKING:
     from prepbook.chem.stats import OutlierFlag
     from prepbook.chem.uncertainty import BudgetLine
-    from prepbook.rules.evaluation import Reading
+    from prepbook.rules.evaluation import Reading, StandardFacts
 
 # Ph. Eur. 4.2.2: a volumetric solution's repeatability (RSD) not over 0.2 %.
 RSD_LIMIT_PERCENT = 0.2
 MIN_REPLICATES = 3  # common practice, no source
 BURETTE_FRACTION = 0.30  # USP <31>
-
-
-@dataclass(frozen=True)
-class StandardInfo:
-    code: str
-    name: str
-    formula: str
-    molar_mass_g_per_mol: float
-    u_molar_mass_g_per_mol: float
-    n_eq_per_mol: float
-    equivalent_weight_g_per_eq: float
-    purity_percent: float
 
 
 @dataclass(frozen=True)
@@ -64,7 +52,7 @@ class PipettedReplicate:
 class NormalityResult:
     """``calc normality``: its fields are the keys of the command's JSON."""
 
-    standard: StandardInfo
+    standard: StandardFacts
     titrant: str | None
     reaction: str
     titrant_n_eq_per_mol: float | None
@@ -173,30 +161,6 @@ class TiterResult:
     mg_per_ml: float
 
 
-@dataclass(frozen=True)
-class EndpointResult:
-    equivalence_ml: float
-    method: str
-    kind: str
-    reading_at_endpoint: float | None
-    gran_ml: float | None
-    gran_points: int
-    points: int
-    notes: tuple[str, ...]
-
-
-@dataclass(frozen=True)
-class EqpointResult:
-    standard: str
-    titrant: str
-    reaction: str
-    n_eq_per_mol: float
-    concentration_mol_per_l: float
-    ph: float
-    suitable: tuple[str, ...]
-    unsuitable: tuple[str, ...]
-
-
 def _stat_warnings(n: int, rsd_percent: float | None, outlier: OutlierFlag | None) -> list[str]:
     warnings: list[str] = []
     if outlier is not None:
@@ -263,8 +227,8 @@ def normality(
         burette_tolerance_ml=tol,
         burette_capacity_ml=capacity,
     ))
-    std = e.standard
-    assert std is not None
+    std, reaction = e.standard, e.reaction
+    assert std is not None and reaction is not None, "a weighed standard has a reaction"
     warnings = _stat_warnings(e.n, e.rsd_percent, e.outlier)
     if capacity is not None:
         warnings += [
@@ -274,18 +238,9 @@ def normality(
         ]
     n_titrant = e.titrant_n_eq_per_mol
     return NormalityResult(
-        standard=StandardInfo(
-            code=std.code,
-            name=std.name,
-            formula=std.formula,
-            molar_mass_g_per_mol=std.molar_mass_g_per_mol,
-            u_molar_mass_g_per_mol=std.u_molar_mass_g_per_mol,
-            n_eq_per_mol=std.n_eq_per_mol,
-            equivalent_weight_g_per_eq=std.molar_mass_g_per_mol / std.n_eq_per_mol,
-            purity_percent=std.purity_fraction * 100,
-        ),
+        standard=std,
         titrant=e.titrant,
-        reaction=std.reaction,
+        reaction=reaction,
         titrant_n_eq_per_mol=n_titrant,
         blank_ml=blank.value,
         buoyancy=buoyancy,
@@ -488,46 +443,3 @@ def titer(*, titrant: str, normality_text: str, analyte: str) -> TiterResult:
     return TiterResult(titrant=tit.code, normality=n, analyte=ana.name,
                        analyte_formula=ana.formula, analyte_n_eq_per_mol=ana_rx.n,
                        reaction=ana_rx.name, mg_per_ml=mg)
-
-
-def endpoint(csv_text: str, *, sample_ml_text: str | None = None,
-             between_text: str | None = None) -> EndpointResult:
-    from prepbook.chem import curves
-
-    sample = (parse_number(sample_ml_text, "sample volume (mL)", positive=True).value
-              if sample_ml_text is not None else None)
-    window = None
-    if between_text is not None:
-        lo_text, sep, hi_text = between_text.partition(":")
-        if not sep:
-            raise InvalidInput("--between should be LOW:HIGH in mL, e.g. 5:15")
-        lo = parse_number(lo_text, "--between low (mL)", non_negative=True).value
-        hi = parse_number(hi_text, "--between high (mL)", positive=True).value
-        if lo >= hi:
-            raise InvalidInput("--between: the low volume must be below the high one")
-        window = (lo, hi)
-    volumes, readings, kind = curves.read_curve_csv(csv_text)
-    ep = curves.endpoint(volumes, readings, kind=kind, sample_ml=sample, search_ml=window)
-    return EndpointResult(equivalence_ml=ep.equivalence_ml, method=ep.method, kind=kind,
-                          reading_at_endpoint=ep.reading_at_endpoint, gran_ml=ep.gran_ml,
-                          gran_points=ep.gran_points, points=ep.points, notes=tuple(ep.notes))
-
-
-def eqpoint(*, standard: str, titrant: str, concentration_text: str) -> EqpointResult:
-    from prepbook.catalog import loader
-    from prepbook.chem import equilibria
-
-    std = loader.find_material(standard)
-    tit = loader.find_material(titrant)
-    std_rx, _ = loader.reaction_for_pair(std, tit)
-    if std_rx.kind != "acid-base" or not std.pka:
-        raise InvalidInput(f"{std.name} with {tit.name} is not an acid-base titration with "
-                           "known pKa values; no equivalence pH to compute")
-    conc = parse_number(concentration_text, "concentration (mol/L)", positive=True).value
-    ph = equilibria.equivalence_ph_for(std, std_rx, conc)
-    table = [(i.name, i.low_ph, i.high_ph) for i in loader.indicators()
-             if i.low_ph is not None and i.high_ph is not None]
-    suitable, unsuitable = equilibria.indicator_fit(ph, table)
-    return EqpointResult(standard=std.code, titrant=tit.code, reaction=std_rx.name,
-                         n_eq_per_mol=std_rx.n, concentration_mol_per_l=conc, ph=ph,
-                         suitable=tuple(suitable), unsuitable=tuple(unsuitable))

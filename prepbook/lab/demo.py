@@ -91,7 +91,7 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
                 at=when.isoformat(timespec="minutes"))
             run_count += 1
             rv = r.get("review")
-            if rv:
+            if rv and out.run is not None:
                 signed = min(when + timedelta(hours=5), now)
                 runs.review(db, actor=rv["by"], run=out.run,
                             accept=rv["decision"] == "accept", reason=rv.get("reason"),
@@ -389,7 +389,7 @@ class _History:
             reason = None if accept else "; ".join(
                 c.message for c in out.checks if not c.passed
                 and c.severity == "fail")[:900] or "failed its checks"
-            runs.review(self.db, actor=reviewer, run=out.run, accept=accept,
+            runs.review(self.db, actor=reviewer, run=str(out.run), accept=accept,
                         reason=reason, passphrase=_passphrase(reviewer),
                         at=(at + timedelta(minutes=30)).isoformat(timespec="minutes"))
             if accept:

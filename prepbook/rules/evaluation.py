@@ -111,7 +111,8 @@ class Standardization:
 
 @dataclass(frozen=True)
 class StandardFacts:
-    """The primary standard as the catalog and the chemistry core give it."""
+    """The primary standard as the catalog and the chemistry core give it (its reaction
+    with the titrant is ``Evaluation.reaction``)."""
 
     code: str
     name: str
@@ -119,8 +120,8 @@ class StandardFacts:
     molar_mass_g_per_mol: float
     u_molar_mass_g_per_mol: float
     n_eq_per_mol: float
-    reaction: str
-    purity_fraction: float
+    equivalent_weight_g_per_eq: float
+    purity_percent: float
 
 
 @dataclass(frozen=True)
@@ -155,6 +156,7 @@ class Evaluation:
     titrant: str | None  # the titrant's catalog code
     titrant_n_eq_per_mol: float | None
     standard: StandardFacts | None  # direct standardizations only
+    reaction: str | None  # the standard's reaction with the titrant (direct only)
 
 
 def _check_readings(s: Standardization) -> None:
@@ -190,6 +192,7 @@ def evaluate(s: Standardization) -> Evaluation:
     pairs = [(r.amount, r.volume_ml) for r in s.readings]
     solute = loader.find_material(s.titrant) if s.titrant else None
     facts: StandardFacts | None = None
+    std_rx: Reaction | None = None
     eq_ph: float | None = None
     indicator = s.judgement.indicator if s.judgement else None
     if s.standard is not None:
@@ -276,6 +279,7 @@ def evaluate(s: Standardization) -> Evaluation:
         titrant=solute.code if solute else None,
         titrant_n_eq_per_mol=titrant_rx.n if titrant_rx else None,
         standard=facts,
+        reaction=std_rx.name if std_rx else None,
     )
 
 
@@ -294,7 +298,8 @@ def _primary(material: Material, reaction: Reaction, w: Weighed,
     facts = StandardFacts(
         code=material.code, name=material.name, formula=material.formula,
         molar_mass_g_per_mol=mm.value_g_per_mol, u_molar_mass_g_per_mol=mm.u_g_per_mol,
-        n_eq_per_mol=reaction.n, reaction=reaction.name, purity_fraction=w.purity_fraction)
+        n_eq_per_mol=reaction.n, equivalent_weight_g_per_eq=mm.value_g_per_mol / reaction.n,
+        purity_percent=w.purity_fraction * 100)
     return standard, facts
 
 

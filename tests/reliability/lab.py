@@ -78,7 +78,7 @@ def bench_cycle(db: Any, actor: str, in_service: str, token: str) -> None:
     acknowledge(f"batch {made['batch']}")
     run = retry.call(runs.standardize, db, actor=actor, batch=made["batch"], replicates=REPS,
                      lot="KHP-0001", balance="BAL-1", burette="BUR-1", temperature="21.0")
-    acknowledge(f"run {run['run']}")
+    acknowledge(f"run {run.run}")
     retry.call(batches.use_batch, db, actor=actor, code=in_service, volume="25",
                purpose=token)
     acknowledge(f"use {token}")
