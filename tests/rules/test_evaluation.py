@@ -53,7 +53,8 @@ def test_cg4_a2_normality_and_its_defaults() -> None:
     assert e.normality_20c == e.normality  # titrated at 20 C
     assert e.titrant == "NaOH" and e.titrant_n_eq_per_mol == 1
     assert e.standard is not None and e.standard.code == "KHP"
-    assert e.standard.n_eq_per_mol == 1 and e.standard.reaction == "acid-base"
+    assert e.standard.n_eq_per_mol == 1 and e.reaction == "acid-base"
+    assert e.standard.equivalent_weight_g_per_eq == e.standard.molar_mass_g_per_mol
     # every default the run does not record is stated, in this order
     assert e.notes == (
         "no burette tolerance on record: +/-0.05 mL (Class A 50 mL) assumed",
