@@ -1,13 +1,17 @@
-"""Regenerate the catalog's two derived files.
+"""Regenerate the catalog's derived files.
 
     python -m prepbook.catalog.refresh          # rewrite them
-    python -m prepbook.catalog.refresh --check  # exit 1 if either is out of date
+    python -m prepbook.catalog.refresh --check  # exit 1 if any is out of date
 
 ``prepbook/catalog/data/parsed.json`` is the data files as tomllib parses them, with
 the digest of their bytes: the loader reads it instead of parsing TOML while the
-digest matches (``loader._parsed_copy``), and ignores it otherwise, so a stale copy
-costs time, never a wrong value. ``tests/catalog/test_parsed_copy.py`` fails while it
-is stale.
+digest matches (``parsed_copy.read_parsed_copy``), and ignores it otherwise, so a stale
+copy costs time, never a wrong value. ``tests/catalog/test_parsed_copy.py`` fails while
+it is stale.
+
+``prepbook/catalog/schema/*.schema.json`` are the JSON Schemas of the data files for
+editors, written from their declaration in ``shape``; ``tests/catalog/test_schema.py``
+fails while one differs.
 
 ``prepbook/chem/molar_masses.json`` holds the molar masses of the catalog's formulas.
 
@@ -26,16 +30,18 @@ import json
 import sys
 from pathlib import Path
 
-from prepbook.catalog.loader import (
+from prepbook.catalog.build import build_catalog
+from prepbook.catalog.models import CatalogDataError
+from prepbook.catalog.parsed_copy import (
+    FILES,
     PARSED_COPY,
-    CatalogDataError,
-    _read_files,
-    _read_raw,
-    build_catalog,
     data_directory,
     files_digest,
     parse_files,
+    read_files,
+    read_raw,
 )
+from prepbook.catalog.shape import json_schema
 from prepbook.chem.formula import PRECOMPUTED, molar_mass_live
 
 ABOUT = [
@@ -50,7 +56,7 @@ ABOUT = [
 
 def catalog_formulas() -> tuple[str, ...]:
     """Every formula of the packaged materials and reagents, in file order, once each."""
-    cat, problems = build_catalog(_read_files(None))  # not validated: validation reads the table
+    cat, problems = build_catalog(read_files())  # not validated: validation reads the table
     if problems:
         raise CatalogDataError("the catalog data has problems:\n  " + "\n  ".join(problems))
     return tuple(dict.fromkeys([*(m.formula for m in cat.materials),
@@ -72,9 +78,23 @@ def render() -> str:
 
 def render_parsed(directory: Path | None = None) -> str:
     """The parsed copy's text for the data files as they are now."""
-    raw = _read_raw(data_directory(directory))
+    raw = read_raw(data_directory(directory))
     copy = {"digest": files_digest(raw), "files": parse_files(raw)}
     return json.dumps(copy, ensure_ascii=False, indent=1) + "\n"
+
+
+#: Where the JSON Schemas of the data files are written, one per file.
+SCHEMA_DIRECTORY = Path(__file__).with_name("schema")
+
+
+def schema_path(name: str) -> Path:
+    """The JSON Schema file of the data file ``name`` (materials.toml: materials.schema.json)."""
+    return SCHEMA_DIRECTORY / name.replace(".toml", ".schema.json")
+
+
+def render_schema(name: str) -> str:
+    """The JSON Schema text of the data file ``name``, from its declaration in ``shape``."""
+    return json.dumps(json_schema(name), ensure_ascii=False, indent=2) + "\n"
 
 
 def _refresh(path: Path, text: str, what: str, check: bool) -> int:
@@ -85,6 +105,7 @@ def _refresh(path: Path, text: str, what: str, check: bool) -> int:
     if check:
         print(f"{path} is out of date ({what}): run python -m prepbook.catalog.refresh")
         return 1
+    path.parent.mkdir(exist_ok=True)
     path.write_text(text, encoding="utf-8", newline="\n")
     print(f"wrote {path}")
     return 0
@@ -96,7 +117,9 @@ def main(argv: list[str]) -> int:
     parsed = _refresh(data_directory() / PARSED_COPY, render_parsed(),
                       "it differs from the TOML files", check)
     masses = _refresh(PRECOMPUTED, render(), "it differs from periodictable", check)
-    return max(parsed, masses)
+    schemas = [_refresh(schema_path(name), render_schema(name), "it differs from shape.py",
+                        check) for name in FILES]
+    return max(parsed, masses, *schemas)
 
 
 if __name__ == "__main__":

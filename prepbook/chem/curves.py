@@ -23,13 +23,12 @@ Pure computation: numpy is imported inside the functions that need it.
 
 from __future__ import annotations
 
-import csv
 import math
-import re
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
+from prepbook.chem.curve_files import PH_READING_RANGE, read_curve
 from prepbook.errors import InvalidInput
 
 MIN_POINTS = 5
@@ -43,10 +42,6 @@ MIN_GRAN_POINTS = 4
 GRAN_MIN_R_SQUARED = 0.99
 """Below this the Gran function is taken as not linear and no Gran estimate is given
 (a choice of this program; common practice, no source)."""
-
-PH_READING_RANGE = (-2.0, 16.0)
-"""pH readings outside this range are refused as probably mV (the span a pH meter
-displays; common practice, no source)."""
 
 # Share of the derivative estimate used by each Gran function (choices of this program,
 # no source): before the endpoint, the buffer region where the weak-acid approximation
@@ -120,10 +115,12 @@ def _check_kind(kind: str) -> str:
     return kind
 
 
-def _validated_curve(
+def validated_curve(
     volumes_ml: Sequence[float], readings: Sequence[float], kind: str, minimum: int
 ) -> tuple[list[float], list[float]]:
-    """Both series as floats, or InvalidInput naming the first bad point (1-based)."""
+    """Both series as floats, or InvalidInput naming the first bad point (1-based).
+
+    ``kind`` is "pH" or "mV"; ``minimum`` the fewest points accepted."""
     _check_kind(kind)
     volumes = _as_floats(volumes_ml, "volume")
     values = _as_floats(readings, kind)
@@ -161,6 +158,10 @@ def endpoint(
 ) -> Endpoint:
     """The equivalence volume of a titration curve, by the derivative method.
 
+    One inflection, from differences of successive readings: for noisy curves, uneven
+    steps or several endpoints, ``prepbook.chem.inflections.find_endpoints`` is the
+    robust finder (every inflection, each with its uncertainty).
+
     ``readings`` are pH or mV (``kind``) at each titrant volume; volumes strictly
     increase from zero or more. The steepest step is sought over the whole curve, or
     only between the volumes of ``search_ml`` (to pick the first endpoint of a
@@ -177,7 +178,7 @@ def endpoint(
     """
     import numpy as np
 
-    volumes, values = _validated_curve(volumes_ml, readings, kind, MIN_POINTS)
+    volumes, values = validated_curve(volumes_ml, readings, kind, MIN_POINTS)
     v = np.asarray(volumes)
     e = np.asarray(values)
     mid = (v[:-1] + v[1:]) / 2
@@ -333,7 +334,7 @@ def gran(
         raise InvalidInput(f"Gran region must be one of {', '.join(GRAN_REGIONS)}; "
                            f"got {region!r}")
     function = functions[region]
-    volumes, values = _validated_curve(volumes_ml, ph, "pH", 2)
+    volumes, values = validated_curve(volumes_ml, ph, "pH", 2)
     estimate = float(equivalence_ml_estimate)
     if not math.isfinite(estimate) or estimate <= 0:
         raise InvalidInput(f"equivalence volume estimate must be positive, got "
@@ -406,68 +407,12 @@ def gran(
 # ----------------------------------------------------------------------------- CSV
 
 
-_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
-
-
-def _parse_number(text: str, line: int, what: str, decimal_comma: bool) -> float:
-    cleaned = text.strip()
-    if decimal_comma:
-        cleaned = cleaned.replace(",", ".")
-    if not _NUMBER.fullmatch(cleaned):
-        raise InvalidInput(f"line {line}: {what} {text.strip()!r} is not a number")
-    return float(cleaned)
-
-
 def read_curve_csv(text: str) -> tuple[list[float], list[float], str]:
     """Volumes (mL), readings and their kind from CSV text exported by a meter.
 
-    The first non-blank line is a header; column 1 is the titrant volume in mL and
-    column 2 the reading, whose kind comes from the header of column 2: "mV" in it
-    means mV, otherwise pH. Further columns (time, temperature) are not read. The
-    separator is a tab or ";" when the header holds one (then a decimal comma is also
-    accepted), otherwise ",". Lines beginning with "#" and blank lines are skipped.
-    Errors name the line (1-based).
+    ``prepbook.chem.curve_files.read_curve`` does the reading (a preamble before the
+    header, either column order named by the headers, tab / ";" / "," separators,
+    decimal commas); this keeps the older tuple shape. Errors name the line (1-based).
     """
-    lines = text.lstrip("\ufeff").splitlines()
-    rows = [(n, line) for n, line in enumerate(lines, start=1)
-            if line.strip() and not line.lstrip().startswith("#")]
-    if not rows:
-        raise InvalidInput("the curve file is empty: expected a header row, then volume (mL) "
-                           "and pH or mV")
-    header_line, header_text = rows[0]
-    delimiter = "\t" if "\t" in header_text else ";" if ";" in header_text else ","
-    decimal_comma = delimiter != ","
-    parsed = list(csv.reader([line for _, line in rows], delimiter=delimiter))
-    header = [cell.strip() for cell in parsed[0]]
-    if len(header) < 2:
-        raise InvalidInput(f"line {header_line}: the header needs two columns, volume (mL) "
-                           "and pH or mV")
-    if all(_NUMBER.fullmatch(cell.replace(",", ".") if decimal_comma else cell)
-           for cell in header[:2]):
-        raise InvalidInput(f"line {header_line}: the first row must be a header such as "
-                           "'volume_ml,pH', found numbers")
-    name = header[1].lower()
-    kind = "mV" if "mv" in name else "pH"
-
-    volumes: list[float] = []
-    readings: list[float] = []
-    for (line, _), cells in zip(rows[1:], parsed[1:], strict=True):
-        if len(cells) < 2:
-            raise InvalidInput(f"line {line}: expected volume and {kind}, found "
-                               f"{len(cells)} value")
-        volume = _parse_number(cells[0], line, "volume", decimal_comma)
-        reading = _parse_number(cells[1], line, kind, decimal_comma)
-        if volume < 0:
-            raise InvalidInput(f"line {line}: volume {volume:g} mL is negative")
-        if volumes and volume <= volumes[-1]:
-            raise InvalidInput(f"line {line}: volume {volume:g} mL does not exceed the "
-                               f"previous {volumes[-1]:g} mL; volumes must strictly increase")
-        if kind == "pH" and not PH_READING_RANGE[0] <= reading <= PH_READING_RANGE[1]:
-            raise InvalidInput(f"line {line}: pH {reading:g} is outside "
-                               f"{PH_READING_RANGE[0]:g}..{PH_READING_RANGE[1]:g}; "
-                               "if these are mV, name the column 'mV'")
-        volumes.append(volume)
-        readings.append(reading)
-    if not volumes:
-        raise InvalidInput(f"line {header_line}: a header but no data rows")
-    return volumes, readings, kind
+    curve = read_curve(text)
+    return list(curve.volumes_ml), list(curve.readings), curve.kind

@@ -49,7 +49,7 @@ _LOG_H_HIGH = 4.0
 # ----------------------------------------------------------------------------- validation
 
 
-def _check_pkas(pkas: Sequence[float]) -> tuple[float, ...]:
+def check_pkas(pkas: Sequence[float]) -> tuple[float, ...]:
     """Finite, ascending pKa values (pKa1 first); ascending is what the stepwise model assumes."""
     values = tuple(float(p) for p in pkas)
     if not values:
@@ -61,7 +61,8 @@ def _check_pkas(pkas: Sequence[float]) -> tuple[float, ...]:
     return values
 
 
-def _check_positive(value: float, what: str) -> float:
+def check_positive(value: float, what: str) -> float:
+    """``value`` as a finite float > 0, or InvalidInput naming ``what``."""
     number = float(value)
     if not math.isfinite(number) or number <= 0:
         raise InvalidInput(f"{what} must be a positive number, got {value!r}")
@@ -75,7 +76,8 @@ def _check_non_negative(value: float, what: str) -> float:
     return number
 
 
-def _check_count(value: int, what: str, *, minimum: int) -> int:
+def check_count(value: int, what: str, *, minimum: int) -> int:
+    """``value`` as a whole number >= ``minimum`` (a bool is refused), or InvalidInput."""
     # bool is an int in Python; True protons would be a silent mistake.
     if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
         raise InvalidInput(f"{what} must be a whole number >= {minimum}, got {value!r}")
@@ -93,7 +95,7 @@ def mean_bound_protons(pkas: Sequence[float], ph: float) -> float:
     form takes its first proton with the highest pKa. Worked in log space so no
     power of ten overflows at the ends of the pH scale.
     """
-    values = _check_pkas(pkas)
+    values = check_pkas(pkas)
     return _nbar(values, -float(ph))
 
 
@@ -133,10 +135,10 @@ def solution_ph(
     ``strong_base_mol_per_l`` / ``strong_acid_mol_per_l``: NaOH / HCl added, mol per
     litre of the mixture.
     """
-    values = _check_pkas(pkas)
-    c = _check_positive(concentration_mol_per_l, "concentration (mol/L)")
-    units = _check_count(units_per_formula, "units per formula", minimum=1)
-    p0 = _check_count(initial_protons, "initial protons", minimum=0)
+    values = check_pkas(pkas)
+    c = check_positive(concentration_mol_per_l, "concentration (mol/L)")
+    units = check_count(units_per_formula, "units per formula", minimum=1)
+    p0 = check_count(initial_protons, "initial protons", minimum=0)
     if p0 > len(values) * units:
         raise InvalidInput(
             f"initial protons {p0} exceed the {len(values) * units} acid/base sites "
@@ -198,11 +200,11 @@ def equivalence_ph(
     counted as 2 equivalents per mole but titrated to phenolphthalein stops at the
     first equivalence point (bicarbonate) and gives half the equivalents.
     """
-    values = _check_pkas(pkas)
-    k = _check_count(protons_transferred, "protons transferred", minimum=1)
-    p0 = _check_count(initial_protons, "initial protons", minimum=0)
-    units = _check_count(units_per_formula, "units per formula", minimum=1)
-    c = _check_positive(concentration_mol_per_l, "concentration at equivalence (mol/L)")
+    values = check_pkas(pkas)
+    k = check_count(protons_transferred, "protons transferred", minimum=1)
+    p0 = check_count(initial_protons, "initial protons", minimum=0)
+    units = check_count(units_per_formula, "units per formula", minimum=1)
+    c = check_positive(concentration_mol_per_l, "concentration at equivalence (mol/L)")
     sites = len(values) * units
     if standard_is_acid and k > p0:
         raise InvalidInput(
@@ -275,13 +277,13 @@ def simulate_titration(
     model is ``solution_ph``'s. Used to build test curves whose equivalence volume is
     known from stoichiometry alone, and demonstration curves.
     """
-    values = _check_pkas(pkas)
-    c_sample = _check_positive(sample_concentration_mol_per_l, "sample concentration (mol/L)")
-    v0 = _check_positive(sample_ml, "sample volume (mL)")
-    c_titrant = _check_positive(titrant_concentration_mol_per_l,
+    values = check_pkas(pkas)
+    c_sample = check_positive(sample_concentration_mol_per_l, "sample concentration (mol/L)")
+    v0 = check_positive(sample_ml, "sample volume (mL)")
+    c_titrant = check_positive(titrant_concentration_mol_per_l,
                                 "titrant concentration (mol/L)")
-    units = _check_count(units_per_formula, "units per formula", minimum=1)
-    p0 = _check_count(initial_protons, "initial protons", minimum=0)
+    units = check_count(units_per_formula, "units per formula", minimum=1)
+    p0 = check_count(initial_protons, "initial protons", minimum=0)
     if p0 > len(values) * units:
         raise InvalidInput(f"initial protons {p0} exceed the {len(values) * units} sites")
     result = []
@@ -333,6 +335,8 @@ def indicator_fit(
 
     An indicator whose range misses the equivalence pH changes colour before or after
     the equivalence point, so the endpoint read is not the one the calculation assumes.
+    This is the strict rule; ``prepbook.chem.indicators.indicator_advice`` judges each
+    indicator by the titration error it would cause instead.
     """
     value = float(ph)
     if not math.isfinite(value):
@@ -356,7 +360,7 @@ def nearest_indicators(
     value = float(ph)
     if not math.isfinite(value):
         raise InvalidInput(f"pH must be a finite number, got {ph!r}")
-    how_many = _check_count(count, "count", minimum=1)
+    how_many = check_count(count, "count", minimum=1)
     ranked = []
     for name, low, high in _check_indicators(indicators):
         distance = max(low - value, 0.0, value - high)

@@ -27,8 +27,8 @@ volume of the included replicates, with a repeatability factor f_rep = 1:
   temperature effects, which do not average out); they are not divided by sqrt(n).
 - u(f_rep) is the given relative repeatability, or else s/(mean sqrt(n)) of the
   included replicate normalities (the standard uncertainty of their mean). With one
-  replicate and none given, repeatability cannot be estimated: the line is left out
-  and a note says so.
+  replicate and none given, repeatability cannot be estimated: the budget carries it
+  as a missing line (``BudgetLine.missing``) and a note says so.
 - The relative combined uncertainty found at that point is applied to the reported
   mean normality (the two values differ only to second order when the replicate
   masses differ); each contribution is scaled the same way.
@@ -51,6 +51,7 @@ from prepbook.chem.uncertainty import (
     UncertaintyResult,
     mass_u_from_balance,
     propagate,
+    repeatability_term,
     volume_u_from_burette,
 )
 from prepbook.errors import InvalidInput
@@ -224,23 +225,6 @@ def secondary_normality(
 # --- uncertainty helpers -------------------------------------------------------------
 
 
-def _repeatability(
-    given: float | None, values: Sequence[float]
-) -> tuple[InputQuantity | None, tuple[str, ...]]:
-    if given is not None:
-        u = _non_negative(given, "relative repeatability")
-        return InputQuantity("repeatability", "f_rep", 1.0, "1", u), ()
-    if len(values) < 2:
-        return None, (
-            "repeatability not estimated from a single replicate and none given; "
-            "the budget leaves it out",
-        )
-    u = statistics.stdev(values) / (statistics.fmean(values) * math.sqrt(len(values)))
-    return InputQuantity("repeatability", "f_rep", 1.0, "1", u), (
-        f"repeatability from the {len(values)} included replicates: s/(mean sqrt(n))",
-    )
-
-
 def _blank_line(blank_ml: float, u_blank_ml: float) -> InputQuantity | None:
     if blank_ml == 0 and u_blank_ml == 0:
         return None
@@ -317,7 +301,8 @@ def direct(
         kept = [i - 1 for i in range(1, len(pairs) + 1) if i not in skip]
         mean_mass = statistics.fmean(masses[i] for i in kept)
         mean_volume = statistics.fmean(pairs[i][1] for i in kept)
-        rep_line, notes = _repeatability(uncertainty.u_rel_repeatability, stats.values)
+        rep = repeatability_term(uncertainty.u_rel_repeatability, stats.values)
+        rep_line, notes = rep.line, rep.notes
         inputs = [
             InputQuantity("mass of primary standard", "m", mean_mass, "g",
                           _non_negative(uncertainty.u_mass_g, "mass uncertainty (g)")),
@@ -343,7 +328,8 @@ def direct(
         if len(kept) > 1:
             notes = ("evaluated at the mean mass and mean titrant volume of the "
                      f"{len(kept)} included replicates",) + notes
-        budget = propagate(model, inputs, report_value=stats.mean, notes=notes)
+        budget = propagate(model, inputs, report_value=stats.mean, notes=notes,
+                           missing=rep.missing)
     return StandardizationResult(normality=stats.mean, replicates=reps, stats=stats,
                                  uncertainty=budget)
 
@@ -372,7 +358,8 @@ def secondary(
         kept = [i - 1 for i in range(1, len(pairs) + 1) if i not in skip]
         mean_aliquot = statistics.fmean(pairs[i][0] for i in kept)
         mean_volume = statistics.fmean(pairs[i][1] for i in kept)
-        rep_line, notes = _repeatability(uncertainty.u_rel_repeatability, stats.values)
+        rep = repeatability_term(uncertainty.u_rel_repeatability, stats.values)
+        rep_line, notes = rep.line, rep.notes
         inputs = [
             InputQuantity("reference normality", "N_ref", n_ref, "eq/L", u_ref),
             InputQuantity("aliquot", "V_aliquot", mean_aliquot, "mL",
@@ -397,6 +384,7 @@ def secondary(
         if len(kept) > 1:
             notes = ("evaluated at the mean aliquot and mean titrant volume of the "
                      f"{len(kept)} included replicates",) + notes
-        budget = propagate(model, inputs, report_value=stats.mean, notes=notes)
+        budget = propagate(model, inputs, report_value=stats.mean, notes=notes,
+                           missing=rep.missing)
     return StandardizationResult(normality=stats.mean, replicates=reps, stats=stats,
                                  uncertainty=budget)

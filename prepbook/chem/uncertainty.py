@@ -29,6 +29,7 @@ combining, prints 0.13 mg), 0.012 mL for calibration and 0.0069 mL for temperatu
 from __future__ import annotations
 
 import math
+import statistics
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -62,6 +63,26 @@ class BudgetLine:
     u_relative: float | None  # u/|value|; None when the value is zero (e.g. a zero blank)
     contribution: float  # |dN/dx| * u, in the unit of the result (eq/L)
     share_percent: float  # share of the combined variance
+    missing: str | None = None  # why a term that belongs here was not evaluated
+
+
+@dataclass(frozen=True)
+class MissingTerm:
+    """A term the budget should hold but could not evaluate, and why. It is kept as a
+    budget line (zero contribution, ``missing`` set) so a table or an export of the
+    budget shows the gap instead of a smaller uncertainty that looks complete."""
+
+    quantity: str
+    symbol: str
+    value: float  # its value in the model (1 for a factor such as f_rep)
+    unit: str
+    reason: str
+
+
+REPEATABILITY_MISSING = MissingTerm(
+    "repeatability", "f_rep", 1.0, "1",
+    "one replicate and no validated repeatability given: the combined uncertainty "
+    "lacks this term")
 
 
 @dataclass(frozen=True)
@@ -75,6 +96,16 @@ class UncertaintyResult:
     u_relative: float
     budget: tuple[BudgetLine, ...]
     notes: tuple[str, ...] = ()  # what the budget assumed or left out, in words
+
+    @property
+    def missing(self) -> tuple[str, ...]:
+        """Symbols of the terms the budget lacks (lines with ``missing`` set)."""
+        return tuple(line.symbol for line in self.budget if line.missing is not None)
+
+    @property
+    def complete(self) -> bool:
+        """True when no term is missing."""
+        return not self.missing
 
 
 def _check_u(name: str, u: float) -> float:
@@ -155,12 +186,14 @@ def propagate(
     k: float = COVERAGE_FACTOR,
     report_value: float | None = None,
     notes: Sequence[str] = (),
+    missing: Sequence[MissingTerm] = (),
 ) -> UncertaintyResult:
     """Evaluate ``model(*values)`` with first-order GUM propagation.
 
     ``report_value`` lets the caller report a value computed otherwise (the mean of
     replicate results) with the *relative* uncertainty found at the model's point;
-    contributions are scaled the same way.
+    contributions are scaled the same way. ``missing`` terms are appended to the budget
+    as lines with ``missing`` set and nothing contributed, and named in the notes.
     """
     ufloat = _ufloat()
 
@@ -199,7 +232,14 @@ def propagate(
             share_percent=(100.0 * c * c / (u_c * u_c)) if u_c > 0 else 0.0,
         )
         for q, c in zip(inputs, contributions, strict=True)
+    ) + tuple(
+        BudgetLine(quantity=term.quantity, symbol=term.symbol, value=term.value,
+                   unit=term.unit, u=0.0, u_relative=None, contribution=0.0,
+                   share_percent=0.0, missing=term.reason)
+        for term in missing
     )
+    notes = tuple(notes) + tuple(f"{term.quantity} missing from the budget: {term.reason}"
+                                 for term in missing)
     return UncertaintyResult(
         value=value,
         u=u_c,
@@ -209,3 +249,103 @@ def propagate(
         budget=budget,
         notes=tuple(notes),
     )
+
+
+# ----------------------------------------------------------------------------- repeatability
+
+
+@dataclass(frozen=True)
+class RepeatabilityTerm:
+    """The repeatability line of a budget: the input (None when it cannot be
+    evaluated), the note saying where it came from, and the missing term otherwise."""
+
+    line: InputQuantity | None
+    notes: tuple[str, ...]
+    missing: tuple[MissingTerm, ...]
+
+
+def repeatability_term(u_rel_validated: float | None,
+                       replicate_results: Sequence[float]) -> RepeatabilityTerm:
+    """The repeatability factor f_rep = 1 of a budget, with its relative standard
+    uncertainty.
+
+    A validated repeatability (relative SD of one result, from a method validation or
+    the spec) is used when given, whatever the number of replicates: CG4 Example A2
+    takes 0.0005 from its validation. Otherwise the included replicate results give
+    s / (mean sqrt(n)), the standard uncertainty of their mean; from one result that
+    cannot be estimated and the term is reported missing (``REPEATABILITY_MISSING``).
+    """
+    if u_rel_validated is not None:
+        u = _check_u("relative repeatability", u_rel_validated)
+        return RepeatabilityTerm(InputQuantity("repeatability", "f_rep", 1.0, "1", u),
+                                 (f"repeatability: the validated relative SD {u:g}",), ())
+    values = [float(v) for v in replicate_results]
+    if len(values) < 2:
+        return RepeatabilityTerm(None, (), (REPEATABILITY_MISSING,))
+    u = statistics.stdev(values) / (statistics.fmean(values) * math.sqrt(len(values)))
+    return RepeatabilityTerm(
+        InputQuantity("repeatability", "f_rep", 1.0, "1", u),
+        (f"repeatability from the {len(values)} included replicates: s/(mean sqrt(n))",), ())
+
+
+# ----------------------------------------------------------------------------- secondary
+
+
+def secondary_budget(
+    reference_normality: float,
+    u_reference_normality: float,
+    aliquot_ml: float,
+    volume_ml: float,
+    *,
+    pipette_tolerance_ml: float,
+    burette_tolerance_ml: float,
+    temperature_range_c: float = 3.0,
+    u_rel_repeatability: float | None = None,
+    replicate_normalities: Sequence[float] = (),
+    blank_ml: float = 0.0,
+    u_blank_ml: float = 0.0,
+    k: float = COVERAGE_FACTOR,
+) -> UncertaintyResult:
+    """Budget of a secondary standardization, N = N_ref V_aliquot f_rep / (V - V_blank).
+
+    The reference solution's normality carries its own standard uncertainty
+    ``u_reference_normality`` (from its record) into the result; the pipette that
+    delivers the aliquot and the burette that measures the titrant each count their
+    tolerance (triangular) and the temperature range (rectangular, dilute aqueous
+    expansion), as ``volume_u_from_burette`` does after CG4 Example A2; repeatability
+    is ``repeatability_term``'s (missing with one replicate and no validated value).
+    ``aliquot_ml`` and ``volume_ml`` are the (mean) aliquot and titrant volumes.
+
+    Because the model is a product, the reference's relative uncertainty enters the
+    result's in quadrature with sensitivity one: the inherited relative uncertainty is
+    never below the reference's.
+    """
+    for name, number in (("reference normality", reference_normality),
+                         ("aliquot (mL)", aliquot_ml), ("titrant volume (mL)", volume_ml)):
+        if isinstance(number, bool) or not isinstance(number, (int, float)) or not (
+                math.isfinite(number) and number > 0):
+            raise InvalidInput(f"{name} {number!r} must be a positive number")
+    blank = _check_u("blank (mL)", blank_ml)
+    if volume_ml <= blank:
+        raise InvalidInput(f"titrant volume {volume_ml:g} mL is not greater than the blank "
+                           f"{blank:g} mL")
+    inputs = [
+        InputQuantity("reference normality", "N_ref", float(reference_normality), "eq/L",
+                      _check_u("reference normality", u_reference_normality)),
+        InputQuantity("aliquot (pipette)", "V_aliquot", float(aliquot_ml), "mL",
+                      volume_u_from_burette(pipette_tolerance_ml, aliquot_ml,
+                                            temperature_range_c)),
+        InputQuantity("titrant volume (burette)", "V", float(volume_ml), "mL",
+                      volume_u_from_burette(burette_tolerance_ml, volume_ml,
+                                            temperature_range_c)),
+        InputQuantity("blank", "V_blank", blank, "mL", _check_u("blank", u_blank_ml)),
+    ]
+    term = repeatability_term(u_rel_repeatability, replicate_normalities)
+    if term.line is not None:
+        inputs.append(term.line)
+
+    def model(n_ref: Any, v_aliquot: Any, v: Any, v_blank: Any, *rest: Any) -> Any:
+        factor = rest[0] if rest else 1.0
+        return n_ref * v_aliquot * factor / (v - v_blank)
+
+    return propagate(model, inputs, k=k, notes=term.notes, missing=term.missing)

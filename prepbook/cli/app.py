@@ -11,12 +11,10 @@ cannot drift from them.
 
 from __future__ import annotations
 
-import copy
-import gc
 import importlib
 import sys
-from collections.abc import Iterator, Mapping
-from typing import Any, NamedTuple
+from collections.abc import Iterator, Mapping, MutableMapping
+from typing import Any, NamedTuple, cast
 
 import typer
 from typer.core import TyperCommand, TyperGroup
@@ -87,54 +85,37 @@ COMMANDS: tuple[Entry, ...] = (
 )
 
 
-def load(entry: Entry, only: str | None = None) -> Any:
-    """The Click command for ``entry``, converted by Typer exactly as ``app.command(name)``
-    or ``app.add_typer(..., name=name)`` on the root would convert it.
-
-    ``only`` names one command of a group: the group is then converted holding that
-    command alone (Typer converts every command of a group at once, most of the cost
-    of a short command such as ``calc normality``). A name the group does not have
-    converts the whole group, so help and "No such command" stay as they are.
-    """
+def load(entry: Entry) -> TyperCommand | TyperGroup:
+    """The command for ``entry``, converted by Typer exactly as ``app.command(name)`` or
+    ``app.add_typer(..., name=name)`` on the root would convert it."""
     target = getattr(importlib.import_module(f"prepbook.cli.{entry.module}"), entry.attribute)
     holder = typer.Typer(rich_markup_mode=app.rich_markup_mode, add_completion=False,
                          pretty_exceptions_short=app.pretty_exceptions_short)
     if entry.group:
-        if only is not None and not target.registered_groups:
-            chosen = [c for c in target.registered_commands if c.name == only]
-            if chosen:
-                target = copy.copy(target)
-                target.registered_commands = chosen
         holder.add_typer(target, name=entry.name)
-        return typer.main.get_command(holder).commands[entry.name]  # type: ignore[attr-defined]
-    holder.command(entry.name)(target)
-    return typer.main.get_command(holder)
+    else:
+        holder.command(entry.name)(target)
+    converted = typer.main.get_command(holder)
+    if entry.group:  # a group is converted inside a root holding it alone
+        assert isinstance(converted, TyperGroup)
+        converted = converted.commands[entry.name]
+    assert isinstance(converted, TyperCommand | TyperGroup)
+    return converted
 
 
-#: Root commands that open no database and run in moments (see ``_Root.resolve_command``).
-_COLLECTOR_PAUSED = frozenset({"calc"})
-
-
-class _LazyCommands(Mapping[str, Any]):
+class _LazyCommands(Mapping[str, TyperCommand | TyperGroup]):
     """The root's name -> command mapping: names from ``COMMANDS``, each command loaded
     on first access. Membership, order and ``len`` need no import. Read-only: a new
-    command goes into ``COMMANDS``. ``expect`` names the one command of a group about
-    to run, so only that one is converted (``load``)."""
+    command goes into ``COMMANDS``."""
 
     def __init__(self, entries: tuple[Entry, ...]) -> None:
         self._entries = {e.name: e for e in entries}
-        self._loaded: dict[tuple[str, str | None], Any] = {}
-        self._expected: dict[str, str] = {}
+        self._loaded: dict[str, TyperCommand | TyperGroup] = {}
 
-    def expect(self, group: str, command: str) -> None:
-        if group in self._entries and self._entries[group].group:
-            self._expected[group] = command
-
-    def __getitem__(self, name: str) -> Any:
-        key = (name, self._expected.pop(name, None))
-        if key not in self._loaded:
-            self._loaded[key] = load(self._entries[name], only=key[1])  # KeyError: no such
-        return self._loaded[key]
+    def __getitem__(self, name: str) -> TyperCommand | TyperGroup:
+        if name not in self._loaded:
+            self._loaded[name] = load(self._entries[name])  # KeyError: no such command
+        return self._loaded[name]
 
     def __iter__(self) -> Iterator[str]:
         return iter(self._entries)
@@ -152,20 +133,9 @@ class _Root(TyperGroup):
 
     def __init__(self, **attrs: Any) -> None:
         super().__init__(**attrs)
-        self.commands = _LazyCommands(COMMANDS)
-
-    def resolve_command(self, ctx: Any, args: list[str]) -> Any:
-        # "calc normality ...": the word after a group's name, when it is not an
-        # option, is the command about to run; the group converts that one alone.
-        if len(args) > 1 and not args[1].startswith("-"):
-            self.commands.expect(args[0], args[1])
-        if args and args[0] in _COLLECTOR_PAUSED and gc.isenabled():
-            # These compute a few numbers from what was typed: the cyclic garbage
-            # collector would only spend a few ms on the objects their imports create.
-            # It is back on when the command ends (tests run many in one process).
-            gc.disable()
-            ctx.call_on_close(gc.enable)
-        return super().resolve_command(ctx, args)
+        # Typer declares ``commands`` mutable, but reads the root's only: nothing adds a
+        # command to it after this (a new one goes into COMMANDS).
+        self.commands = cast("MutableMapping[str, Any]", _LazyCommands(COMMANDS))
 
     def list_commands(self, ctx: Any) -> list[str]:
         return list(self.commands)  # the names alone: TyperGroup's would load every command

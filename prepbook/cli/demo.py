@@ -42,29 +42,20 @@ def demo(
         False, "--replace", help="Move an existing file at --db aside first (kept as .old-*)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the board as JSON."),
-    years: int | None = typer.Option(
-        None, "--years", metavar="YEARS", min=1, max=50,
-        help="Instead of the small demo, generate YEARS of a busy lab's synthetic history "
-             "(thousands of batches, runs and uses, all invented) through the same services.",
-    ),
 ) -> None:
     """Build the demo lab (an invented scenario) in a fresh database and print its board."""
     from prepbook.cli.board import render_board
     from prepbook.lab import demo as demo_lab
 
     target = Path(_target(ctx, db))
-    if years is not None:
-        res = demo_lab.build_history(target, years=years, replace=replace)
-    else:
-        res = demo_lab.build(target, replace=replace)
+    res = demo_lab.build(target, replace=replace)
     if as_json:
         output.emit_json(res["board"])
         return
     out = output.console()
     out.print(f"[bold]{res['lab']}[/bold]: demo lab built in {res['database']} "
               f"({res['batches']} batches, {res['runs']} standardizations, "
-              f"{res['events']} audit events"
-              + (f", {res['uses']} uses" if "uses" in res else "") + ")")
+              f"{res['events']} audit events)")
     for line in res["story"]:
         out.print(f"  {line}")
     render_board(out, res["board"])

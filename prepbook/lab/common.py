@@ -20,7 +20,6 @@ from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import utc_now
 from prepbook.lab.security import passphrase_matches
 from prepbook.store import audit
-from prepbook.store.bulk import IDS_KEY
 from prepbook.store.models import Base, Batch, Instrument, Lot, Run, Setting, Spec, User
 
 T = TypeVar("T", bound=Base)
@@ -41,9 +40,9 @@ def _memo(session: Session) -> dict[Any, Any]:
     Codes and user names never change once recorded, and the row found is the
     session's own identity-mapped object (so it shows this transaction's writes):
     a second lookup of the same code in the same transaction needs no query. This
-    is what keeps many service calls grouped in one transaction (the synthetic
-    history of ``prepbook demo --years``) quick; a single command does one lookup
-    of each anyway. The memo is dropped when the transaction ends.
+    is what keeps many service calls grouped in one transaction
+    (``Database.one_transaction``, the benchmarks' synthetic history) quick; a single
+    command does one lookup of each anyway. The memo is dropped when the transaction ends.
     """
     transaction = session.get_transaction()
     held = session.info.get(_MEMO)
@@ -231,23 +230,13 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
             for facts in (own, runs, done):
                 if facts:
                     facts.clear()
-    writer = session.info.get(IDS_KEY)
     code = getattr(row, "code", None)
     if code is not None and inspect(row).transient:
         # A new coded row is found by code for the rest of the transaction without a
         # query (codes never change once recorded).
         _memo(session)[(type(row), code)] = row
-    if writer is not None:
-        # Grouped bulk writing (store.bulk): a new row gets its id here and waits in
-        # the group's buffer for the next statement; a changed row is an UPDATE of
-        # the unit of work as usual.
-        if inspect(row).transient:
-            writer.add(row)
-        else:
-            writer.change(row)
-    else:
-        session.add(row)
-        session.flush()
+    session.add(row)
+    session.flush()
     audit.record(session, actor=actor, action=action, row=row, reason=reason,
                  performed_at=performed_at)
 

@@ -9,7 +9,7 @@ from sqlalchemy import func, select
 
 from prepbook.errors import InvalidInput, Refused
 from prepbook.lab.common import acting, iso, lockout_after, signed, user_named, write
-from prepbook.lab.security import check_new_passphrase, hash_passphrase
+from prepbook.lab.security import HashCost, check_new_passphrase, hash_passphrase
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import ROLES, User
@@ -31,8 +31,10 @@ def user_count(db: Database) -> int:
 
 @retry.on_conflict
 def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
-             actor_passphrase: str | None) -> dict[str, Any]:
-    """Add a user. The first user must be an admin; after that only an admin adds users."""
+             actor_passphrase: str | None, hash_cost: HashCost | None = None) -> dict[str, Any]:
+    """Add a user. The first user must be an admin; after that only an admin adds users.
+
+    ``hash_cost``: Argon2 parameters for an invented fixture user (see ``HashCost``)."""
     if not _NAME.match(name):
         raise InvalidInput(f"user name {name!r} must be 1-40 letters, digits or . _ -, "
                            "starting with a letter")
@@ -54,7 +56,7 @@ def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
             raise Refused(f"user {name!r} already exists")
         from prepbook.inputs import utc_now
 
-        user = User(name=name, role=role, passphrase_hash=hash_passphrase(passphrase),
+        user = User(name=name, role=role, passphrase_hash=hash_passphrase(passphrase, hash_cost),
                     active=True, failed_attempts=0, created_at=utc_now(), created_by=created_by)
         write(s, created_by, "user.add", user)
         return _user_dict(user)

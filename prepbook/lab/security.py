@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from contextlib import contextmanager
-from contextvars import ContextVar
+from dataclasses import dataclass
 
 from prepbook.errors import InvalidInput
 
@@ -20,35 +18,28 @@ def check_new_passphrase(passphrase: str) -> None:
         raise InvalidInput("a passphrase must not contain control characters")
 
 
-# Set only while ``prepbook demo --years`` creates its synthetic users (see
-# ``synthetic_demo_hashing``); every real user gets argon2-cffi's default parameters.
-_SYNTHETIC_DEMO = ContextVar("prepbook_synthetic_demo_hashing", default=False)
+@dataclass(frozen=True)
+class HashCost:
+    """Argon2id parameters for a new passphrase hash.
 
-
-@contextmanager
-def synthetic_demo_hashing() -> Iterator[None]:
-    """Hash passphrases with very cheap Argon2 parameters inside this block.
-
-    Only for the invented users of a synthetic demo history, whose passphrases are
-    printed for anyone to read: there is nothing to protect, and the history signs
-    tens of thousands of reviews, each of which verifies a passphrase. Argon2 keeps
-    its parameters in the hash itself, so verifying one of these hashes takes
-    microseconds instead of a good fraction of a second, and every other hash is
-    untouched. Never use this for a real user.
+    Every real user gets argon2-cffi's defaults (``hash_passphrase`` without a cost).
+    A cheaper cost is only for invented users of a test or benchmark fixture, whose
+    passphrases are public and whose history signs tens of thousands of reviews.
+    Argon2 keeps the parameters in the hash, so verifying reads them from there.
     """
-    token = _SYNTHETIC_DEMO.set(True)
-    try:
-        yield
-    finally:
-        _SYNTHETIC_DEMO.reset(token)
+
+    time_cost: int
+    memory_kib: int
+    parallelism: int
 
 
-def hash_passphrase(passphrase: str) -> str:
+def hash_passphrase(passphrase: str, cost: HashCost | None = None) -> str:
     from argon2 import PasswordHasher
 
-    if _SYNTHETIC_DEMO.get():
-        return PasswordHasher(time_cost=1, memory_cost=8, parallelism=1).hash(passphrase)
-    return PasswordHasher().hash(passphrase)
+    if cost is None:
+        return PasswordHasher().hash(passphrase)
+    return PasswordHasher(time_cost=cost.time_cost, memory_cost=cost.memory_kib,
+                          parallelism=cost.parallelism).hash(passphrase)
 
 
 def passphrase_matches(stored_hash: str | None, passphrase: str) -> bool:

@@ -35,7 +35,6 @@ from sqlalchemy import String, select, type_coerce
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput
-from prepbook.store.bulk import writer_of
 from prepbook.store.models import (
     AUDITED_TABLES,
     AuditEvent,
@@ -252,24 +251,6 @@ def record(
         session.flush()  # a new row gets its id
     values = canonical_json(snapshot(row))
     record_id = int(row.id)  # type: ignore[attr-defined]
-
-    writer = writer_of(session)
-    if writer is not None:
-        # A group's event (store.bulk): the same payload and hash, buffered with the
-        # group's rows; the head moves in memory and is written with them.
-        seq, prev = writer.head()
-        seq += 1
-        at = datetime.now(UTC).replace(tzinfo=None)
-        when = utc_naive(performed_at) if performed_at is not None else None
-        payload = _payload(seq, _iso(at), actor, action, table.name, record_id, values,
-                           reason, _iso(when), prev)
-        writer.add_event({
-            "seq": seq, "at": at, "actor": actor, "action": action,
-            "record_type": table.name, "record_id": record_id, "values": values,
-            "reason": reason, "performed_at": when, "prev_hash": prev,
-            "hash": f"{scheme}:{digest(payload)}",
-        })
-        return seq
 
     head = _locked_head(session)
     if head is None:
@@ -493,9 +474,6 @@ def verify(session: Session) -> VerifyReport:
     other = KEYED if scheme == PLAIN else PLAIN
     session.flush()  # events still pending in this session are part of the trail
     conn = session.connection()
-    writer = writer_of(session)
-    if writer is not None:
-        writer.flush(conn)  # and so are a group's buffered rows and events (store.bulk)
     on_sqlite = conn.dialect.name == "sqlite"
     # Tables whose rows SQLite itself compares with their last event's text (see
     # ``_check_rows``): their events need no fingerprint here.

@@ -1,9 +1,8 @@
 """Create or upgrade a prepbook database with the Alembic revisions shipped in the package.
 
 Alembic is imported only inside these functions: commands that merely open a
-database compare its revision with ``HEAD_REVISION`` and never load Alembic.
-A test keeps ``HEAD_REVISION`` equal to the newest revision in
-``prepbook.migrations.versions``.
+database compare its revision with ``prepbook.store.revision.HEAD_REVISION`` and
+never load Alembic.
 """
 
 from __future__ import annotations
@@ -14,13 +13,12 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, TextIO
 
+from prepbook.store.revision import HEAD_REVISION
+
 if TYPE_CHECKING:
     from alembic.config import Config
 
     from prepbook.store.engine import Database
-
-# The newest revision in migrations/versions (checked by tests/store/test_migrations.py).
-HEAD_REVISION = "8d2f4b6a1c37"
 
 
 @dataclass(frozen=True)

@@ -422,10 +422,17 @@ AUDITED_MODELS: tuple[type[Base], ...] = (
     Setting,
     LabelPrint,
 )
-AUDITED_TABLES: dict[str, Table] = {
-    m.__table__.name: m.__table__  # type: ignore[misc]
-    for m in AUDITED_MODELS
-}
+
+
+def table_of(model: type[Base]) -> Table:
+    """A model's table (SQLAlchemy types ``__table__`` as any FROM clause; a declarative
+    model's is always a ``Table``)."""
+    table = model.__table__
+    assert isinstance(table, Table)
+    return table
+
+
+AUDITED_TABLES: dict[str, Table] = {table_of(m).name: table_of(m) for m in AUDITED_MODELS}
 
 
 def _datetime(value: Any) -> str:
@@ -586,6 +593,7 @@ def snapshot(row: Base) -> dict[str, Any]:
     """
     mapper = inspect(row).mapper
     table = mapper.local_table
+    assert isinstance(table, Table)  # declarative models map one table each
     by_name: dict[str, Any] = {}
     for prop in mapper.column_attrs:
         for column in prop.columns:

@@ -122,15 +122,15 @@ HINT_BAND = (0.98, 1.20)
 
 
 def _equivalents_per_litre(spec) -> float:
-    n = spec.solute_reaction().n
+    n = find_material(spec.solute).reaction(name=spec.reaction_name).n
     return spec.nominal if spec.unit == "N" else spec.nominal * n
 
 
 @pytest.mark.parametrize("code", [s.code for s in specs() if s.preparation_solid_g_per_l])
 def test_solid_preparation_hint_fits_the_formula_mass_and_n(code: str) -> None:
     spec = find_spec(code)
-    n = spec.solute_reaction().n
-    mass = periodictable.formula(spec.solute_material().formula).mass
+    n = find_material(spec.solute).reaction(name=spec.reaction_name).n
+    mass = periodictable.formula(find_material(spec.solute).formula).mass
     stoichiometric = _equivalents_per_litre(spec) / n * mass
     ratio = spec.preparation_solid_g_per_l / stoichiometric
     assert HINT_BAND[0] <= ratio <= HINT_BAND[1], (code, stoichiometric)
@@ -139,7 +139,7 @@ def test_solid_preparation_hint_fits_the_formula_mass_and_n(code: str) -> None:
 @pytest.mark.parametrize("code", [s.code for s in specs() if s.preparation_reagent])
 def test_concentrate_preparation_hint_fits_the_reagent_strength(code: str) -> None:
     spec = find_spec(code)
-    n = spec.solute_reaction().n
+    n = find_material(spec.solute).reaction(name=spec.reaction_name).n
     g = find_reagent(spec.preparation_reagent)
     # Molarity of the concentrate from its own mass fraction and density (HClO4 has no
     # published molarity in the table).

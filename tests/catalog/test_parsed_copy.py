@@ -11,8 +11,7 @@ from pathlib import Path
 
 import pytest
 
-import prepbook.catalog.loader as loader
-from prepbook.catalog import refresh
+from prepbook.catalog import loader, parsed_copy, refresh
 
 DATA = loader.data_directory()
 
@@ -28,7 +27,7 @@ def _no_toml_parsing(monkeypatch: pytest.MonkeyPatch) -> None:
     def refuse(raw: object) -> dict:
         raise AssertionError("the TOML files were parsed")
 
-    monkeypatch.setattr(loader, "parse_files", refuse)
+    monkeypatch.setattr(parsed_copy, "parse_files", refuse)
 
 
 def test_the_shipped_copy_is_current() -> None:
@@ -37,10 +36,10 @@ def test_the_shipped_copy_is_current() -> None:
 
 
 def test_the_copy_equals_tomllib_in_value_and_order() -> None:
-    raw = loader._read_raw(DATA)
+    raw = parsed_copy.read_raw(DATA)
     copy = json.loads((DATA / loader.PARSED_COPY).read_bytes())
     # json.dumps keeps insertion order, so this compares the tables' key order too.
-    assert json.dumps(copy["files"]) == json.dumps(loader.parse_files(raw))
+    assert json.dumps(copy["files"]) == json.dumps(parsed_copy.parse_files(raw))
 
 
 def test_the_packaged_catalog_is_read_from_the_copy(monkeypatch: pytest.MonkeyPatch) -> None:

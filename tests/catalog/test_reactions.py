@@ -273,7 +273,7 @@ def test_edta_convention_is_one_to_one_in_molarity() -> None:
 
     spec = find_spec("EDTA-0.05M")
     assert spec.unit == "M"
-    assert spec.solute_reaction().n == 1.0
+    assert find_material(spec.solute).reaction(name=spec.reaction_name).n == 1.0
     for metal in ("Zn", "CaCO3"):
         std_rx, _ = reaction_for_pair(find_material(metal), find_material("EDTA"))
         assert std_rx.n == 1.0

@@ -142,3 +142,16 @@ def test_all_problems_are_reported_at_once(data_dir: Path) -> None:
     with pytest.raises(CatalogDataError) as err:
         load_catalog(data_dir)
     assert "does not parse" in str(err.value) and "factor window" in str(err.value)
+
+
+def test_a_bad_default_is_named_once_where_it_is(data_dir: Path) -> None:
+    """A mistyped or unknown key in [defaults] is one problem at [defaults], not one per
+    spec that inherits it (fifteen copies of a message hide the others)."""
+    _edit(data_dir, "specs.toml", "factor_low = 0.90", 'factor_low = "0.90"\nfactr = 1')
+    with pytest.raises(CatalogDataError) as err:
+        load_catalog(data_dir)
+    lines = str(err.value).splitlines()[1:]
+    assert [line.strip() for line in lines] == [
+        "specs.toml.defaults: 'factor_low' must be a number, not '0.90'",
+        "specs.toml.defaults: unknown key(s) factr",
+    ]

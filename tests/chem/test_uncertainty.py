@@ -103,11 +103,15 @@ def test_repeatability_from_replicates_is_sd_of_the_mean() -> None:
 
 
 def test_single_replicate_without_repeatability_says_so() -> None:
-    """Owner's rule: nothing silently dropped; a missing component is named in a note."""
+    """Owner's rule: nothing silently dropped; a missing component is named in the budget
+    itself (a line marked missing, contributing nothing) and in a note."""
     khp = st.PrimaryStandard("KHP", A2_MOLAR, A2_U_MOLAR, 1.0, A2_P, A2_U_P)
     result = st.direct(khp, [(A2_M_G, A2_V_ML)],
                        uncertainty=st.UncertaintyInputs(A2_U_M_G, A2_U_V_ML))
-    assert "f_rep" not in {line.symbol for line in result.uncertainty.budget}
+    lines = {line.symbol: line for line in result.uncertainty.budget}
+    assert lines["f_rep"].missing is not None and lines["f_rep"].contribution == 0.0
+    assert result.uncertainty.missing == ("f_rep",)
+    assert result.uncertainty.complete is False
     assert any("repeatability" in note for note in result.uncertainty.notes)
 
 

@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import importlib
 import pkgutil
+from collections.abc import Callable
+from typing import Any
 
 import pytest
 import typer
@@ -13,6 +15,12 @@ from typer.testing import CliRunner
 
 import prepbook.cli
 from prepbook.cli.app import COMMANDS, Entry, app, load
+
+
+def _root() -> TyperGroup:
+    root = typer.main.get_command(app)
+    assert isinstance(root, TyperGroup)
+    return root
 
 
 @pytest.mark.parametrize("entry", COMMANDS, ids=[e.name for e in COMMANDS])
@@ -48,9 +56,9 @@ def test_root_help_lists_what_the_loaded_commands_would(width: int) -> None:
     """The listing drawn from the table equals Click's own listing drawn from the real
     commands (TyperGroup.format_commands asks each loaded command for its short help),
     at every width, so shortening to the width matches too."""
-    root = typer.main.get_command(app)
+    root = _root()
 
-    def listing(draw) -> str:
+    def listing(draw: Callable[[Any, Any], None]) -> str:
         ctx = root.make_context("prepbook", [], resilient_parsing=True,
                                 terminal_width=width, max_content_width=width)
         formatter = ctx.make_formatter()
@@ -79,40 +87,11 @@ def test_unknown_command_is_a_usage_error_with_a_suggestion() -> None:
 
 
 def test_the_root_knows_every_name_without_loading() -> None:
-    root = typer.main.get_command(app)
+    root = _root()
     assert list(root.commands) == [e.name for e in COMMANDS]
     assert "calc" in root.commands and "no-such" not in root.commands
-    assert root.get_command(None, "no-such") is None
-
-
-GROUPS = [e for e in COMMANDS if e.group]
-
-
-def _described(command: object) -> list[tuple]:
-    """What a user sees of a command: its help, and each parameter's names, kind and text."""
-    return [(command.help, command.epilog)] + [  # type: ignore[attr-defined]
-        (p.name, tuple(p.opts), tuple(p.secondary_opts), type(p.type).__name__,
-         p.required, repr(p.default), getattr(p, "help", None), p.metavar, p.nargs,
-         p.multiple, getattr(p, "is_flag", None), p.envvar)
-        for p in command.params  # type: ignore[attr-defined]
-    ]
-
-
-@pytest.mark.parametrize("entry", GROUPS, ids=[e.name for e in GROUPS])
-def test_a_group_converted_for_one_command_gives_that_command_unchanged(entry: Entry) -> None:
-    whole = load(entry)
-    for name, command in whole.commands.items():
-        alone = load(entry, only=name)
-        assert list(alone.commands) == [name]
-        assert _described(alone.commands[name]) == _described(command)
-        # The group itself (its options, help and callback) is the same.
-        assert _described(alone) == _described(whole)
-        assert (alone.callback is None) == (whole.callback is None)
-
-
-@pytest.mark.parametrize("entry", GROUPS, ids=[e.name for e in GROUPS])
-def test_a_name_the_group_lacks_converts_the_whole_group(entry: Entry) -> None:
-    assert list(load(entry, only="no-such").commands) == list(load(entry).commands)
+    assert root.get_command(root.make_context("prepbook", [], resilient_parsing=True),
+                            "no-such") is None
 
 
 def test_two_commands_of_one_group_run_one_after_the_other_in_one_process() -> None:
@@ -125,27 +104,3 @@ def test_two_commands_of_one_group_run_one_after_the_other_in_one_process() -> N
     assert second.exit_code == 0, second.output
     typo = runner.invoke(app, ["calc", "dilut"])
     assert typo.exit_code == 2 and "'dilute'" in typo.stderr
-
-
-def test_calc_runs_with_the_collector_paused_and_turns_it_back_on(
-        monkeypatch: pytest.MonkeyPatch) -> None:
-    import gc
-
-    seen: list[bool] = []
-    runner = CliRunner()
-    original = gc.disable
-
-    def disable() -> None:
-        seen.append(True)
-        original()
-
-    monkeypatch.setattr(gc, "disable", disable)
-    assert gc.isenabled()
-    result = runner.invoke(app, ["calc", "temperature", "--normality", "0.1", "--from", "25",
-                                 "--to", "20", "--json"])
-    assert result.exit_code == 0, result.output
-    assert seen == [True]
-    assert gc.isenabled()  # back on for whatever runs next in this process
-    seen.clear()
-    runner.invoke(app, ["--help"])
-    assert seen == []

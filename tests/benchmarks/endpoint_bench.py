@@ -1,0 +1,93 @@
+"""Endpoint error on modelled titration curves: the old derivative method against the
+new finder, at three noise levels and two step patterns.
+
+Run: python tests/benchmarks/endpoint_bench.py [--seeds N]
+
+The curves are computed from the equilibrium model with known equivalence volumes
+(tests/chem/model_curves.py): sodium carbonate titrated with HCl (two endpoints),
+acetic acid and a strong acid titrated with NaOH. For each condition the absolute
+error |found - Ve| in mL over N seeded curves (and every endpoint) is summarised by its
+median and its worst. "old" is ``prepbook.chem.curves.endpoint`` (one inflection per
+call: for carbonate's first endpoint it is given the search window 0 mL .. midway
+between the two endpoints, the help a user would have to give it); "new" is
+``prepbook.chem.inflections.find_endpoints`` over the whole curve, which must find
+every endpoint by itself (a curve where it finds another count is counted as "missed").
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+
+from prepbook.chem.curves import endpoint  # noqa: E402
+from prepbook.chem.inflections import find_endpoints  # noqa: E402
+from prepbook.errors import InvalidInput  # noqa: E402
+from tests.chem.model_curves import CASES, NOISE_LEVELS, STEP_PATTERNS, Case, curve  # noqa: E402
+
+
+def _old(case: Case, v: list[float], ph: list[float]) -> list[float | None]:
+    found: list[float | None] = []
+    for i, _ in enumerate(case.equivalence_ml):
+        window = None
+        if len(case.equivalence_ml) > 1:
+            edges = [0.0] + [(a + b) / 2 for a, b in zip(case.equivalence_ml,
+                                                          case.equivalence_ml[1:], strict=False)]
+            edges.append(case.end_ml)
+            window = (edges[i], edges[i + 1])
+        try:
+            found.append(endpoint(v, ph, search_ml=window).equivalence_ml)
+        except InvalidInput:
+            found.append(None)
+    return found
+
+
+def _new(case: Case, v: list[float], ph: list[float]) -> list[float | None]:
+    try:
+        report = find_endpoints(v, ph, sample_ml=case.sample_ml)
+    except InvalidInput:
+        return [None] * len(case.equivalence_ml)
+    if len(report.inflections) != len(case.equivalence_ml):
+        return [None] * len(case.equivalence_ml)
+    return [item.volume_ml for item in report.inflections]
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--seeds", type=int, default=30)
+    seeds = parser.parse_args().seeds
+    print(f"endpoint error, mL (|found - Ve|), {seeds} seeded curves per row")
+    header = (f"{'curve':<20} {'steps':<19} {'noise pH':>8} | {'old median':>10} "
+              f"{'old worst':>9} {'missed':>6} | {'new median':>10} {'new worst':>9} "
+              f"{'missed':>6}")
+    print(header)
+    print("-" * len(header))
+    started = time.perf_counter()
+    for case in CASES:
+        for pattern in STEP_PATTERNS:
+            for noise in NOISE_LEVELS:
+                cells = []
+                for method in (_old, _new):
+                    errors: list[float] = []
+                    missed = 0
+                    for seed in range(seeds):
+                        v, ph = curve(case, pattern, noise, seed)
+                        for found, true in zip(method(case, v, ph), case.equivalence_ml,
+                                               strict=True):
+                            if found is None:
+                                missed += 1
+                            else:
+                                errors.append(abs(found - true))
+                    median = f"{statistics.median(errors):.4f}" if errors else "-"
+                    worst = f"{max(errors):.4f}" if errors else "-"
+                    cells.append(f"{median:>10} {worst:>9} {missed:>6}")
+                print(f"{case.name:<20} {pattern:<19} {noise:>8.3f} | {cells[0]} | {cells[1]}")
+    print(f"({time.perf_counter() - started:.1f} s)")
+
+
+if __name__ == "__main__":
+    main()
