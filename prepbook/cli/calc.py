@@ -7,12 +7,17 @@ JSON or as a table.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import typer
 
 from prepbook.cli import output
 from prepbook.errors import InvalidInput
+
+if TYPE_CHECKING:
+    from prepbook.chem.uncertainty import BudgetLine
 
 app = typer.Typer(
     rich_markup_mode=None,
@@ -23,15 +28,15 @@ app = typer.Typer(
 JSON = typer.Option(False, "--json", help="Print one JSON document instead of a table.")
 
 
-def _budget_table(budget: list[dict]) -> object:
+def _budget_table(budget: Sequence[BudgetLine]) -> object:
     rows = [
         (
-            line["quantity"],
-            f"{output.sig(line['value'], 6)} {'' if line['unit'] == '1' else line['unit']}".strip(),
-            output.sig(line["u"], 2),
-            "-" if line["u_relative"] is None else f"{line['u_relative'] * 100:.3f} %",
-            output.sig(line["contribution"], 2),
-            f"{line['share_percent']:.1f} %",
+            line.quantity,
+            f"{output.sig(line.value, 6)} {'' if line.unit == '1' else line.unit}".strip(),
+            output.sig(line.u, 2),
+            "-" if line.u_relative is None else f"{line.u_relative * 100:.3f} %",
+            output.sig(line.contribution, 2),
+            f"{line.share_percent:.1f} %",
         )
         for line in budget
     ]
@@ -106,40 +111,40 @@ def normality(
         return
     out = output.console()
     out.print(
-        f"[bold]{result['standard']['name']}[/bold] ({result['standard']['formula']}), "
-        f"M = {result['standard']['molar_mass_g_per_mol']:.4f} g/mol, "
-        f"n = {result['standard']['n_eq_per_mol']:g} eq/mol ({result['reaction']}), "
-        f"purity {result['standard']['purity_percent']:g} %"
+        f"[bold]{result.standard.name}[/bold] ({result.standard.formula}), "
+        f"M = {result.standard.molar_mass_g_per_mol:.4f} g/mol, "
+        f"n = {result.standard.n_eq_per_mol:g} eq/mol ({result.reaction}), "
+        f"purity {result.standard.purity_percent:g} %"
     )
-    buoyant = result["buoyancy"]
+    buoyant = result.buoyancy
     rows = [
         (
-            r["index"],
-            r["mass_g"],
-            *([output.fixed(r["true_mass_g"], 5)] if buoyant else []),
-            r["volume_ml"],
-            output.sig(r["normality"], 5),
-            "outlier" if r["outlier"] else "",
+            r.index,
+            r.mass_g,
+            *([output.fixed(r.true_mass_g, 5)] if buoyant else []),
+            r.volume_ml,
+            output.sig(r.normality, 5),
+            "outlier" if r.outlier else "",
         )
-        for r in result["replicates"]
+        for r in result.replicates
     ]
     heads = ["#", "mass (g)", *(["true mass (g)"] if buoyant else []), "titrant (mL)",
              "normality (eq/L)", "flag"]
     out.print(output.table("Replicates", heads, rows, right=range(len(heads) - 1)))
     line = (
-        f"[bold]N = {output.sig(result['normality'], 5)} eq/L[/bold]  "
-        f"(n = {len(result['replicates'])}, SD = {output.sig(result['sd'], 2)}, "
-        f"RSD = {output.fixed(result['rsd_percent'], 3)} %)"
+        f"[bold]N = {output.sig(result.normality, 5)} eq/L[/bold]  "
+        f"(n = {len(result.replicates)}, SD = {output.sig(result.sd, 2)}, "
+        f"RSD = {output.fixed(result.rsd_percent, 3)} %)"
     )
     out.print(line)
-    if result["molarity"] is not None:
-        out.print(f"molarity of the titrant: {output.sig(result['molarity'], 5)} mol/L")
+    if result.molarity is not None:
+        out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
     out.print(
-        f"u = {output.sig(result['u'], 2)} eq/L, U = {output.sig(result['U'], 2)} eq/L "
-        f"(k = {result['k']:g})"
+        f"u = {output.sig(result.u, 2)} eq/L, U = {output.sig(result.U, 2)} eq/L "
+        f"(k = {result.k:g})"
     )
-    out.print(_budget_table(result["budget"]))
-    output.warn_lines(out, result["warnings"])
+    out.print(_budget_table(result.budget))
+    output.warn_lines(out, result.warnings)
 
 
 @app.command("secondary")
@@ -169,17 +174,17 @@ def secondary(
         return
     out = output.console()
     rows = [
-        (r["index"], r["aliquot_ml"], r["volume_ml"], output.sig(r["normality"], 5),
-         "outlier" if r["outlier"] else "")
-        for r in result["replicates"]
+        (r.index, r.aliquot_ml, r.volume_ml, output.sig(r.normality, 5),
+         "outlier" if r.outlier else "")
+        for r in result.replicates
     ]
     out.print(output.table("Replicates", ["#", "aliquot (mL)", "titrant (mL)", "normality (eq/L)",
                                           "flag"], rows, right=(0, 1, 2, 3)))
     out.print(
-        f"[bold]N = {output.sig(result['normality'], 5)} eq/L[/bold]  "
-        f"(SD = {output.sig(result['sd'], 2)}, RSD = {output.fixed(result['rsd_percent'], 3)} %)"
+        f"[bold]N = {output.sig(result.normality, 5)} eq/L[/bold]  "
+        f"(SD = {output.sig(result.sd, 2)}, RSD = {output.fixed(result.rsd_percent, 3)} %)"
     )
-    output.warn_lines(out, result["warnings"])
+    output.warn_lines(out, result.warnings)
 
 
 @app.command("solid")
@@ -203,11 +208,11 @@ def solid(
         return
     out = output.console()
     out.print(
-        f"Weigh [bold]{output.fixed(result['mass_g'], 4)} g[/bold] of {result['name']} "
-        f"({result['formula']}, M = {result['molar_mass_g_per_mol']:.4f} g/mol, "
-        f"n = {result['n_eq_per_mol']:g}) and make up to {result['volume_ml']:g} mL."
+        f"Weigh [bold]{output.fixed(result.mass_g, 4)} g[/bold] of {result.name} "
+        f"({result.formula}, M = {result.molar_mass_g_per_mol:.4f} g/mol, "
+        f"n = {result.n_eq_per_mol:g}) and make up to {result.volume_ml:g} mL."
     )
-    output.caution_lines(out, result["cautions"])
+    output.caution_lines(out, result.cautions)
 
 
 @app.command("liquid")
@@ -241,12 +246,12 @@ def liquid(
         return
     out = output.console()
     out.print(
-        f"Measure [bold]{output.fixed(result['volume_ml'], 2)} mL[/bold] of {result['name']} "
-        f"({result['mass_fraction_percent']:g} %, {result['density_g_per_ml']:g} g/mL, "
-        f"{output.sig(result['molarity_mol_per_l'], 3)} mol/L) and make up to "
-        f"{result['final_volume_ml']:g} mL."
+        f"Measure [bold]{output.fixed(result.volume_ml, 2)} mL[/bold] of {result.name} "
+        f"({result.mass_fraction_percent:g} %, {result.density_g_per_ml:g} g/mL, "
+        f"{output.sig(result.molarity_mol_per_l, 3)} mol/L) and make up to "
+        f"{result.final_volume_ml:g} mL."
     )
-    output.caution_lines(out, result["cautions"])
+    output.caution_lines(out, result.cautions)
 
 
 @app.command("dilute")
@@ -269,8 +274,8 @@ def dilute(
         return
     out = output.console()
     out.print(
-        f"Take [bold]{output.fixed(result['stock_ml'], 2)} mL[/bold] of stock and make up to "
-        f"{result['volume_ml']:g} mL (about {output.fixed(result['water_ml'], 2)} mL of water)."
+        f"Take [bold]{output.fixed(result.stock_ml, 2)} mL[/bold] of stock and make up to "
+        f"{result.volume_ml:g} mL (about {output.fixed(result.water_ml, 2)} mL of water)."
     )
 
 
@@ -298,8 +303,8 @@ def adjust(
         output.emit_json(result)
         return
     out = output.console()
-    what = "water" if result["add"] == "water" else "stock"
-    out.print(f"Add [bold]{output.fixed(result['volume_ml'], 2)} mL of {what}[/bold], mix, "
+    what = "water" if result.add == "water" else "stock"
+    out.print(f"Add [bold]{output.fixed(result.volume_ml, 2)} mL of {what}[/bold], mix, "
               "and standardize again.")
 
 
@@ -326,8 +331,8 @@ def buoyancy(
         output.emit_json(result)
         return
     output.console().print(
-        f"true mass [bold]{output.fixed(result['mass_g'], 5)} g[/bold] "
-        f"(correction {result['correction_g'] * 1000:+.3f} mg)"
+        f"true mass [bold]{output.fixed(result.mass_g, 5)} g[/bold] "
+        f"(correction {result.correction_g * 1000:+.3f} mg)"
     )
 
 
@@ -350,8 +355,8 @@ def temperature(
         output.emit_json(result)
         return
     output.console().print(
-        f"N = [bold]{output.sig(result['normality'], 6)} eq/L[/bold] at {result['to_c']:g} C "
-        f"(factor {result['ratio']:.6f} from {result['from_c']:g} C)"
+        f"N = [bold]{output.sig(result.normality, 6)} eq/L[/bold] at {result.to_c:g} C "
+        f"(factor {result.ratio:.6f} from {result.from_c:g} C)"
     )
 
 
@@ -374,9 +379,9 @@ def titer(
         output.emit_json(result)
         return
     output.console().print(
-        f"1 mL of {output.sig(result['normality'], 4)} N {result['titrant']} is equivalent to "
-        f"[bold]{output.sig(result['mg_per_ml'], 5)} mg[/bold] of {result['analyte']} "
-        f"({result['reaction']})"
+        f"1 mL of {output.sig(result.normality, 4)} N {result.titrant} is equivalent to "
+        f"[bold]{output.sig(result.mg_per_ml, 5)} mg[/bold] of {result.analyte} "
+        f"({result.reaction})"
     )
 
 
@@ -397,22 +402,22 @@ def endpoint(
     as_json: bool = JSON,
 ) -> None:
     """Equivalence volume from a recorded titration curve (derivative and Gran)."""
-    from prepbook.lab import calcs
+    from prepbook.lab import curves
 
     try:
         text = file.read_text(encoding="utf-8-sig")
     except (OSError, UnicodeDecodeError) as exc:
         raise InvalidInput(f"cannot read {file}: {exc.__class__.__name__}") from None
-    result = calcs.endpoint(text, sample_ml_text=sample_ml, between_text=search)
+    result = curves.endpoint(text, sample_ml_text=sample_ml, between_text=search)
     if as_json:
         output.emit_json(result)
         return
     out = output.console()
-    out.print(f"equivalence volume [bold]{output.fixed(result['equivalence_ml'], 3)} mL[/bold] "
-              f"({result['method']}, {result['points']} points)")
-    if result["gran_ml"] is not None:
-        out.print(f"Gran estimate {output.fixed(result['gran_ml'], 3)} mL")
-    for note in result["notes"]:
+    out.print(f"equivalence volume [bold]{output.fixed(result.equivalence_ml, 3)} mL[/bold] "
+              f"({result.method}, {result.points} points)")
+    if result.gran_ml is not None:
+        out.print(f"Gran estimate {output.fixed(result.gran_ml, 3)} mL")
+    for note in result.notes:
         out.print(f"note: {note}")
 
 
@@ -431,13 +436,13 @@ def eqpoint(
     as_json: bool = JSON,
 ) -> None:
     """pH at the equivalence point, and the indicators whose range covers it."""
-    from prepbook.lab import calcs
+    from prepbook.lab import curves
 
-    result = calcs.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration)
+    result = curves.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration)
     if as_json:
         output.emit_json(result)
         return
     out = output.console()
-    out.print(f"pH at equivalence [bold]{result['ph']:.2f}[/bold] ({result['reaction']})")
-    out.print("suitable: " + (", ".join(result["suitable"]) or "none of the catalog's indicators"))
-    out.print("unsuitable: " + ", ".join(result["unsuitable"]))
+    out.print(f"pH at equivalence [bold]{result.ph:.2f}[/bold] ({result.reaction})")
+    out.print("suitable: " + (", ".join(result.suitable) or "none of the catalog's indicators"))
+    out.print("unsuitable: " + ", ".join(result.unsuitable))

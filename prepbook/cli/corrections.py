@@ -2,11 +2,16 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import typer
 
 from prepbook.cli import output
 from prepbook.cli.session import Passphrases, actor, database
 from prepbook.cli.standardize import render_result
+
+if TYPE_CHECKING:
+    from prepbook.lab.runs import RunResult
 
 
 def correct(
@@ -64,11 +69,11 @@ def exclude(
     _show(res, as_json, f"replicate {replicate} excluded")
 
 
-def _show(res: dict, as_json: bool, what: str) -> None:
+def _show(res: RunResult, as_json: bool, what: str) -> None:
     if as_json:
-        output.emit_json(res)
+        output.emit_json(res.to_json())
         return
     out = output.console()
-    out.print(f"run [bold]{res['run']}[/bold]: {what}; it was {res['previous_status']} and "
+    out.print(f"run [bold]{res.run}[/bold]: {what}; it was {res.previous_status} and "
               f"now awaits review again")
     render_result(out, res)

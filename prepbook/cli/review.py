@@ -27,17 +27,17 @@ def review(
     as_json: bool = typer.Option(False, "--json", help="Print the reviewed run as JSON."),
 ) -> None:
     """Accept or reject a run awaiting review, signed with your passphrase."""
-    from prepbook.lab import runs
+    from prepbook.lab import reviews
 
     if accept == reject:
         raise InvalidInput("say --accept or --reject")
     if reject and not (reason and reason.strip()):
         raise InvalidInput("a rejection needs a --reason")
     secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
-    res = runs.review(database(ctx), actor=actor(ctx), run=run, accept=accept, reason=reason,
-                      passphrase=secret, at=at)
+    res = reviews.review(database(ctx), actor=actor(ctx), run=run, accept=accept, reason=reason,
+                         passphrase=secret, at=at)
     if as_json:
         output.emit_json(res)
     else:
-        output.console().print(f"run [bold]{res['run']}[/bold] of batch {res['batch']} "
-                               f"{res['status']} by {actor(ctx)}")
+        output.console().print(f"run [bold]{res.run}[/bold] of batch {res.batch} "
+                               f"{res.status} by {actor(ctx)}")

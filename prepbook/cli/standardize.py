@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import typer
 
@@ -10,24 +10,26 @@ from prepbook.cli import output
 from prepbook.cli.session import actor, database
 from prepbook.errors import InvalidInput
 
+if TYPE_CHECKING:
+    from prepbook.lab.runs import RunResult
 
-def render_result(out: Any, res: dict[str, Any]) -> None:
-    rows = [(r["index"], output.sig(r["normality"], 5),
-             " ".join(w for w, on in (("excluded", r.get("excluded")), ("outlier", r["outlier"]))
-                      if on))
-            for r in res["replicates"]]
+
+def render_result(out: Any, res: RunResult) -> None:
+    rows = [(r.index, output.sig(r.normality, 5),
+             " ".join(w for w, on in (("excluded", r.excluded), ("outlier", r.outlier)) if on))
+            for r in res.replicates]
     out.print(output.table(None, ["#", "normality (eq/L)", "flag"], rows, right=(0, 1)))
     out.print(
-        f"[bold]N = {output.sig(res['normality'], 5)} eq/L[/bold] at {res['temperature_c']:g} C "
-        f"({output.sig(res['normality_20c'], 5)} at 20 C), factor "
-        f"[bold]{res['factor']:.4f}[/bold], RSD {output.fixed(res['rsd_percent'], 3)} %, "
-        f"U = {output.sig(res['U'], 2)} eq/L (k = {res['k']:g})"
-        if res["U"] is not None else
-        f"[bold]N = {output.sig(res['normality'], 5)} eq/L[/bold], factor {res['factor']:.4f}"
+        f"[bold]N = {output.sig(res.normality, 5)} eq/L[/bold] at {res.temperature_c:g} C "
+        f"({output.sig(res.normality_20c, 5)} at 20 C), factor "
+        f"[bold]{res.factor:.4f}[/bold], RSD {output.fixed(res.rsd_percent, 3)} %, "
+        f"U = {output.sig(res.U, 2)} eq/L (k = {res.k:g})"
+        if res.U is not None else
+        f"[bold]N = {output.sig(res.normality, 5)} eq/L[/bold], factor {res.factor:.4f}"
     )
-    for c in res["checks"]:
-        mark = "ok  " if c["passed"] else ("FAIL" if c["severity"] == "fail" else "warn")
-        out.print(f"  {mark} {c['name']}: {c['message']}")
+    for c in res.checks:
+        mark = "ok  " if c.passed else ("FAIL" if c.severity == "fail" else "warn")
+        out.print(f"  {mark} {c.name}: {c.message}")
 
 
 def standardize(
@@ -70,11 +72,11 @@ def standardize(
         replicates = _ask(db, args, runs, secondary=against is not None, quiet=as_json)
     res = runs.standardize(db, replicates=replicates, **args)
     if as_json:
-        output.emit_json(res)
+        output.emit_json(res.to_json())
         return
     out = output.console()
-    out.print(f"run [bold]{res['run']}[/bold] of batch {res['batch']}: {res['status']} "
-              f"(checks: {res['verdict']})")
+    out.print(f"run [bold]{res.run}[/bold] of batch {res.batch}: {res.status} "
+              f"(checks: {res.verdict})")
     render_result(out, res)
 
 
@@ -101,6 +103,6 @@ def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bo
             out.print(f"[bold]not taken:[/bold] {exc}")
             continue
         reps = trial
-        out.print(f"  running: N = {output.sig(res['normality'], 5)} eq/L, factor "
-                  f"{res['factor']:.4f}, RSD {output.fixed(res['rsd_percent'], 3)} % "
+        out.print(f"  running: N = {output.sig(res.normality, 5)} eq/L, factor "
+                  f"{res.factor:.4f}, RSD {output.fixed(res.rsd_percent, 3)} % "
                   f"(n = {len(reps)})")

@@ -90,9 +90,9 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
                 at=when.isoformat(timespec="minutes"))
             run_count += 1
             rv = r.get("review")
-            if rv:
+            if rv and out.run is not None:
                 signed = min(when + timedelta(hours=5), now)
-                runs.review(db, actor=rv["by"], run=out["run"],
+                runs.review(db, actor=rv["by"], run=out.run,
                             accept=rv["decision"] == "accept", reason=rv.get("reason"),
                             passphrase=users[rv["by"]]["passphrase"],
                             at=signed.isoformat(timespec="minutes"))

@@ -89,7 +89,7 @@ def one_batch_database(path: Path) -> str:
     run = runs.standardize(db, actor="ada", batch=code, lot="KHP-1", balance="BAL-1",
                            burette="BUR-1", replicates=["0.8123:39.80", "0.8201:40.15",
                                                         "0.8150:39.90"])
-    runs.review(db, actor="ben", run=run["run"], accept=True, reason=None,
+    runs.review(db, actor="ben", run=run.run, accept=True, reason=None,
                 passphrase="bench-ben-1")
     batches.use_batch(db, actor="ada", code=code, volume="20", purpose="bench")
     db.dispose()

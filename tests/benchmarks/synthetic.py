@@ -221,7 +221,7 @@ class _History:
             args["stock_volume"] = f"{ml * (1 + self.rng.gauss(0, 0.004)):.1f}"
         else:
             mass = calcs.solid(spec.solute, normality_text=str(spec.nominal),
-                               volume_text="1000")["mass_g"]
+                               volume_text="1000").mass_g
             args.update(solute_mass=f"{mass * (1 + self.rng.gauss(0.01, 0.004)):.4f}",
                         balance=balance)
         res = batches.make_batch(self.db, actor=analyst, spec=kind.spec, volume="1000",
@@ -277,11 +277,11 @@ class _History:
             self.counts["runs"] += 1
             bottle.left_ml -= 3 * 40
             reviewer = self.rng.choice(_REVIEWERS)
-            accept = out["verdict"] == "pass"
+            accept = out.verdict == "pass"
             reason = None if accept else "; ".join(
-                c["message"] for c in out["checks"] if not c["passed"]
-                and c["severity"] == "fail")[:900] or "failed its checks"
-            runs.review(self.db, actor=reviewer, run=out["run"], accept=accept,
+                c.message for c in out.checks if not c.passed
+                and c.severity == "fail")[:900] or "failed its checks"
+            runs.review(self.db, actor=reviewer, run=str(out.run), accept=accept,
                         reason=reason, passphrase=_passphrase(reviewer),
                         at=(at + timedelta(minutes=30)).isoformat(timespec="minutes"))
             if accept:

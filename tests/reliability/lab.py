@@ -59,7 +59,7 @@ def build_lab(target: str) -> str:
         run = runs.standardize(db, actor="ben", batch=made["batch"], replicates=REPS,
                                lot="KHP-0001", balance="BAL-1", burette="BUR-1",
                                temperature="21.0")
-        runs.review(db, actor="cleo", run=run["run"], accept=True, reason=None,
+        runs.review(db, actor="cleo", run=run.run, accept=True, reason=None,
                     passphrase=PASSPHRASE.format("cleo"))
         return made["batch"]
     finally:
@@ -78,7 +78,7 @@ def bench_cycle(db: Any, actor: str, in_service: str, token: str) -> None:
     acknowledge(f"batch {made['batch']}")
     run = retry.call(runs.standardize, db, actor=actor, batch=made["batch"], replicates=REPS,
                      lot="KHP-0001", balance="BAL-1", burette="BUR-1", temperature="21.0")
-    acknowledge(f"run {run['run']}")
+    acknowledge(f"run {run.run}")
     retry.call(batches.use_batch, db, actor=actor, code=in_service, volume="25",
                purpose=token)
     acknowledge(f"use {token}")

@@ -68,7 +68,7 @@ def lab_target(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, 
                                    lot="KHP-0001", balance="BAL-1", burette="BUR-1")
         finally:
             db.dispose()
-        return target, in_service, run["run"]
+        return target, in_service, run.run
 
     if on_postgres():
         with scratch_pg_database() as url:

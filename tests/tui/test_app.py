@@ -129,7 +129,7 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
             await type_into(pilot, f"v{i}", volume)
         await pilot.pause(0.5)  # the live preview (same service, record=False)
         form = app.screen
-        assert form.last is not None and len(form.last["replicates"]) == 3
+        assert form.last is not None and len(form.last.replicates) == 3
         await pilot.press("ctrl+s")
         await pilot.pause()
         code = form.recorded
@@ -138,8 +138,8 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
         await pilot.pause()
         assert "to review" in board_states(app)[due_naoh]
 
-    queued = {r["run"]: r for r in runs.runs_awaiting_review(open_database(str(lab)))}
-    assert queued[code]["analyst"] == "ines" and queued[code]["batch"] == due_naoh
+    queued = {r.run: r for r in runs.runs_awaiting_review(open_database(str(lab)))}
+    assert queued[code].analyst == "ines" and queued[code].batch == due_naoh
 
     app = make_app(lab, "priya")
     async with app.run_test(size=SIZE) as pilot:
@@ -159,7 +159,7 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
         assert "wrong passphrase" in shown(app.screen.query_one("#message"))
         after = row_counts(lab)
         assert after["reviews"] == before["reviews"]
-        assert code in {r["run"] for r in runs.runs_awaiting_review(open_database(str(lab)))}
+        assert code in {r.run for r in runs.runs_awaiting_review(open_database(str(lab)))}
         # the right one, typed into a field that never shows it
         await pilot.press("a", "enter")
         await pilot.pause()

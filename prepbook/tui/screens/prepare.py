@@ -155,36 +155,41 @@ class PrepareScreen(Screen[None]):
         elif not (target and volume):
             out.append("  type the target normality and the final volume\n")
         else:
+            found: tuple[str, ...] = ()  # the calculator's cautions for what it names
             try:
                 if method == "solid":
-                    r = calcs.solid(spec["solute"], normality_text=target, volume_text=volume,
-                                    purity_text=self.value("purity") or "100")
-                    out.append(f"  weigh {words.sig(r['mass_g'], 5)} g of {r['name']} "
-                               f"({r['formula']}, M = {words.sig(r['molar_mass_g_per_mol'], 6)}"
-                               f" g/mol, n = {r['n_eq_per_mol']:g} eq/mol, purity "
-                               f"{r['purity_percent']:g} %) for {target} N in {volume} mL\n")
+                    solid = calcs.solid(spec["solute"], normality_text=target,
+                                        volume_text=volume,
+                                        purity_text=self.value("purity") or "100")
+                    out.append(f"  weigh {words.sig(solid.mass_g, 5)} g of {solid.name} "
+                               f"({solid.formula}, M = "
+                               f"{words.sig(solid.molar_mass_g_per_mol, 6)} g/mol, n = "
+                               f"{solid.n_eq_per_mol:g} eq/mol, purity "
+                               f"{solid.purity_percent:g} %) for {target} N in {volume} mL\n")
+                    found = solid.cautions
                 elif method == "concentrate":
-                    r = calcs.liquid(spec["solute"], normality_text=target, volume_text=volume)
-                    out.append(f"  measure {words.sig(r['volume_ml'], 4)} mL of {r['name']} "
-                               f"({r['mass_fraction_percent']:g} % m/m, "
-                               f"{r['density_g_per_ml']:g} g/mL, about "
-                               f"{words.sig(r['molarity_mol_per_l'], 3)} mol/L) and make up to "
-                               f"{volume} mL\n")
-                    out.append(f"  reagent data: {r['source']}\n", style="dim")
+                    liquid = calcs.liquid(spec["solute"], normality_text=target,
+                                          volume_text=volume)
+                    out.append(f"  measure {words.sig(liquid.volume_ml, 4)} mL of {liquid.name} "
+                               f"({liquid.mass_fraction_percent:g} % m/m, "
+                               f"{liquid.density_g_per_ml:g} g/mL, about "
+                               f"{words.sig(liquid.molarity_mol_per_l, 3)} mol/L) and make up "
+                               f"to {volume} mL\n")
+                    out.append(f"  reagent data: {liquid.source}\n", style="dim")
+                    found = liquid.cautions
                 else:
                     parent = self.value("parent")
                     stock = next((it for it in self.board if it["batch"] == parent), None)
                     if stock is None or stock["normality"] is None:
                         out.append("  choose a standardized stock batch\n")
-                        r = {}
                     else:
-                        r = calcs.dilute(stock_text=repr(stock["normality"]),
+                        d = calcs.dilute(stock_text=repr(stock["normality"]),
                                          normality_text=target, volume_text=volume)
-                        out.append(f"  take {words.sig(r['stock_ml'], 4)} mL of {parent} "
+                        out.append(f"  take {words.sig(d.stock_ml, 4)} mL of {parent} "
                                    f"(N {words.sig(stock['normality'])}) and make up to "
-                                   f"{volume} mL (about {words.sig(r['water_ml'], 4)} mL of "
+                                   f"{volume} mL (about {words.sig(d.water_ml, 4)} mL of "
                                    "water)\n")
-                cautions += [c for c in r.get("cautions", []) if c not in cautions]
+                cautions += [c for c in found if c not in cautions]
             except PrepbookError as exc:
                 out.append(f"  ✖ {exc}\n", style=err)
         out.append("  The calculator only advises: record what was actually weighed or "

@@ -8,7 +8,8 @@ through the same call with ``record=True``.
 
 from __future__ import annotations
 
-from typing import Any
+from dataclasses import asdict
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
 from rich.text import Text
@@ -24,6 +25,9 @@ from prepbook.inputs import parse_number
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, small_table
 from prepbook.tui.widgets import check_cell, colour, state_cell
+
+if TYPE_CHECKING:
+    from prepbook.lab.runs import RunResult
 
 START_ROWS = 3
 
@@ -41,9 +45,9 @@ class RecordScreen(Screen[None]):
         self.code = code
         self.rows = 0
         self.recorded: str | None = None
-        self.last: dict[str, Any] | None = None
+        self.last: RunResult | None = None
         self._timer: Timer | None = None
-        self.batch: dict[str, Any] = {}
+        self.chain: dict[str, Any] = {}
 
     # -- layout ---------------------------------------------------------------------------------
     def compose(self) -> ComposeResult:
@@ -90,11 +94,11 @@ class RecordScreen(Screen[None]):
 
         db = self.app.db  # type: ignore[attr-defined]
         try:
-            self.batch = batches.show_batch(db, self.code)
+            self.chain = batches.show_batch(db, self.code)
         except PrepbookError as exc:
             self.query_one("#live", Static).update(Text(str(exc)))
             return
-        spec = next((s for s in specs.list_specs(db) if s["code"] == self.batch["spec"]), {})
+        spec = next((s for s in specs.list_specs(db) if s["code"] == self.chain["spec"]), {})
         standard = spec.get("standard")
         lot_rows = sorted(lots.list_lots(db), key=lambda lt: (lt["material"] != standard,
                                                               lt["expired"], lt["code"]))
@@ -127,7 +131,7 @@ class RecordScreen(Screen[None]):
             self.query_one("#indicator", Input).value = spec["indicator"]
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "standardize  ", (self.code, "bold"),
-            f"  {self.batch['spec_name']}  ", state_cell(self.app, self.batch["state"]),
+            f"  {self.chain['spec_name']}  ", state_cell(self.app, self.chain["state"]),
             f"  ·  standard {standard or '-'}  ·  acting as {self.app.who()}"))  # type: ignore[attr-defined]
         self.query_one("#m1", Input).focus()
         self.preview()
@@ -268,7 +272,7 @@ class RecordScreen(Screen[None]):
     def preview(self) -> None:
         from prepbook.lab import runs
 
-        if self.recorded or not self.batch:
+        if self.recorded or not self.chain:
             return
         reps, problems, waiting = self.entries()
         live = self.query_one("#live", Static)
@@ -289,9 +293,8 @@ class RecordScreen(Screen[None]):
         self.last = res
         # The result's replicates are the complete, readable rows, in grid order.
         complete = [i for i in range(1, self.rows + 1) if self._complete(i)]
-        for r, i in zip(res["replicates"], complete, strict=False):
-            note = f"N {words.sig(r['normality'])}" + ("  outlier (Grubbs)" if r["outlier"]
-                                                       else "")
+        for r, i in zip(res.replicates, complete, strict=False):
+            note = f"N {words.sig(r.normality)}" + ("  outlier (Grubbs)" if r.outlier else "")
             self.query_one(f"#note{i}", Static).update(note)
         title = "running result (not recorded yet)"
         if problems or waiting:
@@ -311,26 +314,26 @@ class RecordScreen(Screen[None]):
             out.append(f"  ✖ {p}\n", style=colour(self.app, "error"))
         return out
 
-    def _result(self, res: dict[str, Any], title: str) -> Group:
-        verdict = res["verdict"]
+    def _result(self, res: RunResult, title: str) -> Group:
+        verdict = res.verdict
         v_style = colour(self.app, {"pass": "success", "fail": "error"}.get(verdict, "warning"))
         head = Text.assemble(
             (f"{title}\n", "bold"),
-            f"  N = {words.sig(res['normality'])} eq/L at {res['temperature_c']:g} °C"
-            + ("" if res["temperature_c"] == 20 else
-               f";  {words.sig(res['normality_20c'])} eq/L at 20 °C") + "\n",
-            f"  factor {words.fixed(res['factor'])}   SD {words.sig(res['sd'], 2)}   "
-            f"RSD {words.sig(res['rsd_percent'], 3)} %   n = {len(res['replicates'])}\n",
-            f"  u = {words.sig(res['u'], 2)}   U = {words.sig(res['U'], 2)} eq/L "
-            f"(k = {words.sig(res['k'], 2)})\n",
+            f"  N = {words.sig(res.normality)} eq/L at {res.temperature_c:g} °C"
+            + ("" if res.temperature_c == 20 else
+               f";  {words.sig(res.normality_20c)} eq/L at 20 °C") + "\n",
+            f"  factor {words.fixed(res.factor)}   SD {words.sig(res.sd, 2)}   "
+            f"RSD {words.sig(res.rsd_percent, 3)} %   n = {len(res.replicates)}\n",
+            f"  u = {words.sig(res.u, 2)}   U = {words.sig(res.U, 2)} eq/L "
+            f"(k = {words.sig(res.k, 2)})\n",
             ("  verdict: ", "bold"), (verdict.upper(), f"bold {v_style}".strip()))
         checks = small_table("check", "outcome", "why")
-        for c in res["checks"]:
-            checks.add_row(c["name"], check_cell(self.app, c), c["message"])
-        extra = [n for n in res["warnings"] if n not in {c["message"] for c in res["checks"]}]
+        for c in res.checks:
+            checks.add_row(c.name, check_cell(self.app, asdict(c)), c.message)
+        extra = [n for n in res.warnings if n not in {c.message for c in res.checks}]
         notes = Text("".join(f"  note: {n}\n" for n in extra))
         return Group(head, Text(""), checks, notes, Text("uncertainty budget", style="bold"),
-                     budget_table(res["budget"]))
+                     budget_table([asdict(line) for line in res.budget]))
 
     # -- recording ----------------------------------------------------------------------------
     def say(self, text: str) -> None:
@@ -358,14 +361,14 @@ class RecordScreen(Screen[None]):
         except PrepbookError as exc:
             live.update(self._problem("not recorded: nothing was written", [str(exc)]))
             return
-        self.recorded = res["run"]
-        for w in self.query(Input):
-            w.disabled = True
-        for w in self.query(Select):
-            w.disabled = True
-        live.update(self._result(res, f"recorded as run {res['run']}: awaiting review by a "
+        self.recorded = res.run
+        for field in self.query(Input):
+            field.disabled = True
+        for choice in self.query(Select):
+            choice.disabled = True
+        live.update(self._result(res, f"recorded as run {res.run}: awaiting review by a "
                                       "second person"))
-        self.app.notify(f"run {res['run']} recorded; it awaits review", title="recorded")
+        self.app.notify(f"run {res.run} recorded; it awaits review", title="recorded")
         self.app.wrote()  # type: ignore[attr-defined]
 
     def unsaved(self) -> bool:

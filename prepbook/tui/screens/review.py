@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import VerticalScroll
+from textual.coordinate import Coordinate
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
@@ -16,6 +17,9 @@ from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, run_block
 from prepbook.tui.widgets import colour
+
+if TYPE_CHECKING:
+    from prepbook.lab.reviews import RunRecord
 
 REVIEWER_ROLES = ("reviewer", "admin")
 
@@ -30,7 +34,7 @@ class ReviewScreen(Screen[None]):
 
     def __init__(self) -> None:
         super().__init__()
-        self.queue: list[dict[str, Any]] = []
+        self.queue: tuple[RunRecord, ...] = ()
         self._details: dict[str, dict[str, Any]] = {}
 
     def compose(self) -> ComposeResult:
@@ -50,22 +54,22 @@ class ReviewScreen(Screen[None]):
         table.focus()
 
     def reload(self) -> None:
-        from prepbook.lab import runs
+        from prepbook.lab import reviews
 
-        self.queue = runs.runs_awaiting_review(self.app.db)  # type: ignore[attr-defined]
+        self.queue = reviews.runs_awaiting_review(self.app.db)  # type: ignore[attr-defined]
         self._details.clear()
         table = self.query_one("#queue", DataTable)
         keep = self.selected()
         table.clear()
         for r in self.queue:
             v_style = colour(self.app, {"pass": "success", "fail": "error"}.get(
-                r["verdict"] or "", "warning"))
-            table.add_row(r["run"], r["batch"], r["analyst"], words.when(r["performed_at"]),
-                          Text(words.sig(r["normality"]), justify="right"),
-                          Text(words.fixed(r["factor"]), justify="right"),
-                          Text(words.sig(r["rsd_percent"], 3), justify="right"),
-                          Text((r["verdict"] or "-").upper(), style=v_style), key=r["run"])
-        if keep in {r["run"] for r in self.queue}:
+                r.verdict or "", "warning"))
+            table.add_row(r.run, r.batch, r.analyst, words.when(r.performed_at),
+                          Text(words.sig(r.normality), justify="right"),
+                          Text(words.fixed(r.factor), justify="right"),
+                          Text(words.sig(r.rsd_percent, 3), justify="right"),
+                          Text((r.verdict or "-").upper(), style=v_style), key=r.run)
+        if keep in {r.run for r in self.queue}:
             table.move_cursor(row=table.get_row_index(keep))
         role = self.app.role  # type: ignore[attr-defined]
         note = "" if role in REVIEWER_ROLES else \
@@ -81,7 +85,7 @@ class ReviewScreen(Screen[None]):
         if not self.queue or table.row_count == 0:
             return None
         try:
-            return str(table.coordinate_to_cell_key((table.cursor_row, 0)).row_key.value)
+            return str(table.coordinate_to_cell_key(Coordinate(table.cursor_row, 0)).row_key.value)
         except Exception:
             return None
 
@@ -90,13 +94,18 @@ class ReviewScreen(Screen[None]):
         from prepbook.lab import batches
 
         if code not in self._details:
-            r = next((q for q in self.queue if q["run"] == code), None)
+            r = self._queued(code)
             if r is None:
                 return None
-            chain = batches.show_batch(self.app.db, r["batch"])  # type: ignore[attr-defined]
-            full = next((x for x in chain["runs"] if x["run"] == code), r)
+            chain = batches.show_batch(self.app.db, r.batch)  # type: ignore[attr-defined]
+            full = next((x for x in chain["runs"] if x["run"] == code), None)
+            if full is None:
+                return None
             self._details[code] = {"run": full, "batch": chain}
         return self._details[code]
+
+    def _queued(self, code: str | None) -> RunRecord | None:
+        return next((q for q in self.queue if q.run == code), None)
 
     def show(self) -> None:
         body = self.query_one("#review-body", Static)
@@ -127,16 +136,14 @@ class ReviewScreen(Screen[None]):
     def action_open_batch(self) -> None:
         from prepbook.tui.screens.batch import BatchScreen
 
-        code = self.selected()
-        r = next((q for q in self.queue if q["run"] == code), None)
+        r = self._queued(self.selected())
         if r:
-            self.app.push_screen(BatchScreen(r["batch"]))
+            self.app.push_screen(BatchScreen(r.batch))
 
     def action_decide(self, accept: bool) -> None:
         from prepbook.tui.screens.dialogs import FieldsScreen, PassphraseScreen
 
-        code = self.selected()
-        r = next((q for q in self.queue if q["run"] == code), None)
+        r = self._queued(self.selected())
         app: Any = self.app
         if r is None:
             self.say("nothing selected to review", bad=True)
@@ -144,28 +151,32 @@ class ReviewScreen(Screen[None]):
         if app.role not in REVIEWER_ROLES:
             self.say(f"{app.who()} may not review: only a reviewer or an admin signs", bad=True)
             return
-        if r["analyst"] == app.actor:
-            self.say(f"{app.actor} recorded run {r['run']} and cannot review it; a second "
+        if r.analyst == app.actor:
+            self.say(f"{app.actor} recorded run {r.run} and cannot review it; a second "
                      "person must", bad=True)
             return
+        queued = r
         verb = "accept" if accept else "reject"
 
         def sign(reason: str | None) -> None:
-            doing = f"{verb} run {r['run']} of batch {r['batch']}" + (
+            doing = f"{verb} run {queued.run} of batch {queued.batch}" + (
                 f"\nreason: {reason}" if reason else "")
-            app.push_screen(PassphraseScreen(app.actor, doing),
-                            lambda secret: secret is not None and finish(reason, secret))
+            def signed(secret: str | None) -> None:
+                if secret is not None:
+                    finish(reason, secret)
+
+            app.push_screen(PassphraseScreen(app.actor, doing), signed)
 
         def finish(reason: str | None, secret: str) -> None:
-            from prepbook.lab import runs
+            from prepbook.lab import reviews
 
             try:
-                res = runs.review(app.db, actor=app.actor, run=r["run"], accept=accept,
-                                  reason=reason, passphrase=secret)
+                res = reviews.review(app.db, actor=app.actor, run=queued.run, accept=accept,
+                                     reason=reason, passphrase=secret)
             except PrepbookError as exc:
                 self.say(f"not signed: {exc}", bad=True)
                 return
-            self.say(f"run {res['run']} of batch {res['batch']} {res['status']} by {app.actor}")
+            self.say(f"run {res.run} of batch {res.batch} {res.status} by {app.actor}")
             app.wrote()
 
         def with_reason(values: dict[str, str] | None) -> None:
@@ -173,6 +184,6 @@ class ReviewScreen(Screen[None]):
                 sign(values["reason"].strip() or None)
 
         self.app.push_screen(FieldsScreen(
-            f"{verb.capitalize()} run {r['run']}",
+            f"{verb.capitalize()} run {r.run}",
             [("reason", "reason" + (" (required)" if not accept else " (optional)"),
               "why")], required=() if accept else ("reason",)), with_reason)
