@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import functools
 import json
-from dataclasses import dataclass, fields
+from dataclasses import asdict, dataclass
 from datetime import date
 from typing import Any, TypedDict, cast
 
@@ -117,8 +117,8 @@ class RunRecord:
     replicates: tuple[ReplicateRow, ...] | None
 
     def to_json(self) -> dict[str, Any]:
-        """The run's JSON object; without replicates when they were not read."""
-        out = {f.name: getattr(self, f.name) for f in fields(self)}
+        """The run as plain data for JSON; without replicates when they were not read."""
+        out = asdict(self)
         if self.replicates is None:
             del out["replicates"]
         return out

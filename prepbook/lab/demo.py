@@ -80,11 +80,11 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
             from_batch=codes[b["from_batch"]] if "from_batch" in b else None,
             aliquot=b.get("aliquot"), flask=b.get("flask"), balance=b.get("balance"),
             notes=b.get("notes"), at=made.isoformat(timespec="minutes"))
-        codes[b["key"]] = res["batch"]
+        codes[b["key"]] = res.batch
         for r in b.get("run", []):
             when = _moment(today, r["day"], r.get("time", "10:00"))
             out = runs.standardize(
-                db, actor=r["by"], batch=res["batch"], replicates=list(r["reps"]),
+                db, actor=r["by"], batch=res.batch, replicates=list(r["reps"]),
                 lot=r.get("lot"), against=codes[r["against"]] if "against" in r else None,
                 balance=r.get("balance"), burette=r.get("burette"), temperature=r.get("temp"),
                 blank=r.get("blank"), indicator=r.get("indicator"),
@@ -334,10 +334,10 @@ class _History:
                                  at=made.isoformat(timespec="minutes"), **args)
         # What was really made: the theoretical strength, off by a little (a hygroscopic
         # solid, a concentrate of uncertain strength, a flask slightly off).
-        n0 = res["theoretical_normality"] * (1 + self.rng.gauss(-0.006 if kind.spec.startswith(
+        n0 = res.theoretical_normality * (1 + self.rng.gauss(-0.006 if kind.spec.startswith(
             ("NaOH", "KOH")) else 0.0, 0.003))
-        bottle = _Bottle(code=res["batch"], kind=kind, made=made,
-                         expires=date.fromisoformat(res["expires"]), true_n0=n0,
+        bottle = _Bottle(code=res.batch, kind=kind, made=made,
+                         expires=date.fromisoformat(res.expires), true_n0=n0,
                          left_ml=1000.0)
         self.counts["batches"] += 1
         self.standardize(bottle, made + timedelta(minutes=40))
@@ -523,5 +523,5 @@ def build_history(path: Path, *, years: float, replace: bool = False, scale: flo
             f"{c['uses']} uses, {c['retired']} batches retired",
         ],
         "board": items,
-        "example_batch": items[0]["batch"] if items else None,
+        "example_batch": items[0].batch if items else None,
     }

@@ -76,7 +76,7 @@ def _check_dicts(checks: Any) -> list[dict[str, Any]]:
 def _batch_state(session: Session, batch: Batch, when: datetime) -> str:
     from prepbook.lab.board import batch_life
 
-    return str(batch_life(session, batch, when.date())["state"])
+    return batch_life(session, batch, when.date()).state
 
 
 @dataclass(frozen=True)
@@ -544,11 +544,11 @@ def review(
                      signed_at=signed_at), reason=reason, performed_at=signed_at)
         r.status = "accepted" if accept else "rejected"
         write(s, actor, "run.status", r, reason=reason, performed_at=signed_at)
-        return run_dict(s, r, with_replicates=False) | {"batch": r.batch.code}
+        return run_dict(s, r, with_replicates=False).to_json() | {"batch": r.batch.code}
 
 
 def runs_awaiting_review(db: Database) -> list[dict[str, Any]]:
     with db.session(write=False) as s:
         rows = s.scalars(select(Run).where(Run.status == "awaiting-review")
                          .order_by(Run.performed_at)).all()
-        return [run_dict(s, r) | {"batch": r.batch.code} for r in rows]
+        return [run_dict(s, r).to_json() | {"batch": r.batch.code} for r in rows]

@@ -44,7 +44,7 @@ def _lab(db: Database) -> dict[str, Any]:
                  dried="2026-05-30")
     made = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
                               solute_mass="4.0400", balance="BAL-7", at="2026-06-01T08:00")
-    code = made["batch"]
+    code = made.batch
 
     def standardized(replicates: list[str], at: str, reviewed_at: str) -> str:
         out = runs.standardize(db, actor=TECH, batch=code, lot="KHP-GT-1", balance="BAL-7",
@@ -66,9 +66,9 @@ def _lab(db: Database) -> dict[str, Any]:
                               purpose="alkalinity, sample GT-2", at="2026-06-02T16:00")
     history.retire(db, actor=TECH, code=code, reason="used up", passphrase=PASS[TECH],
                    at="2026-06-03T08:00")
-    assert later["factor"] < used["factor"]
+    assert later.factor < used.factor
     return {"batch": code, "runs": [first, again],
-            "factors": [used["factor"], later["factor"]]}
+            "factors": [used.factor, later.factor]}
 
 
 def _tables(path: Path) -> dict[str, list[dict[str, Any]]]:
@@ -154,9 +154,9 @@ def test_a_group_reads_its_own_buffered_writes(grouped: Grouped) -> None:
         again = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
                                    solute_mass="4.0400", at="2026-06-01T08:30")
         # Read back inside the same group, before anything was committed.
-        shown = batches.show_batch(db, made["batch"])
-        assert shown["batch"] == made["batch"]
-        assert again["batch"] != made["batch"]  # the next code saw the first one
+        shown = batches.show_batch(db, made.batch)
+        assert shown.batch == made.batch
+        assert again.batch != made.batch  # the next code saw the first one
     con = sqlite3.connect(path)
     try:
         codes = [r[0] for r in con.execute("SELECT code FROM batches ORDER BY id")]
@@ -164,7 +164,7 @@ def test_a_group_reads_its_own_buffered_writes(grouped: Grouped) -> None:
         last = con.execute("SELECT max(seq) FROM audit_events").fetchone()[0]
     finally:
         con.close()
-    assert codes == [made["batch"], again["batch"]]
+    assert codes == [made.batch, again.batch]
     assert head == last
 
 
@@ -176,7 +176,7 @@ def test_a_refusal_inside_a_group_rolls_the_whole_group_back(grouped: Grouped) -
         made = batches.make_batch(db, actor=TECH, spec="NaOH-0.1N", volume="1000",
                                   solute_mass="4.0400", at="2026-06-01T08:00")
         with pytest.raises(Refused, match="may not be used"):  # never standardized
-            batches.use_batch(db, actor=TECH, code=made["batch"], volume="5",
+            batches.use_batch(db, actor=TECH, code=made.batch, volume="5",
                               purpose="a draw too early", at="2026-06-01T09:00")
     assert _tables(path) == before
 

@@ -8,7 +8,7 @@ through the same call with ``record=True``.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
 from rich.text import Text
@@ -24,6 +24,9 @@ from prepbook.inputs import parse_number
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, small_table
 from prepbook.tui.widgets import check_cell, colour, state_cell
+
+if TYPE_CHECKING:
+    from prepbook.lab.batches import BatchRecord
 
 START_ROWS = 3
 
@@ -43,7 +46,7 @@ class RecordScreen(Screen[None]):
         self.recorded: str | None = None
         self.last: dict[str, Any] | None = None
         self._timer: Timer | None = None
-        self.batch: dict[str, Any] = {}
+        self.chain: BatchRecord | None = None
 
     # -- layout ---------------------------------------------------------------------------------
     def compose(self) -> ComposeResult:
@@ -90,11 +93,11 @@ class RecordScreen(Screen[None]):
 
         db = self.app.db  # type: ignore[attr-defined]
         try:
-            self.batch = batches.show_batch(db, self.code)
+            self.chain = chain = batches.show_batch(db, self.code)
         except PrepbookError as exc:
             self.query_one("#live", Static).update(Text(str(exc)))
             return
-        spec = next((s for s in specs.list_specs(db) if s["code"] == self.batch["spec"]), {})
+        spec = next((s for s in specs.list_specs(db) if s["code"] == chain.spec), {})
         standard = spec.get("standard")
         lot_rows = sorted(lots.list_lots(db), key=lambda lt: (lt["material"] != standard,
                                                               lt["expired"], lt["code"]))
@@ -104,9 +107,9 @@ class RecordScreen(Screen[None]):
              f"lot:{lt['code']}") for lt in lot_rows]
         from prepbook.lab import board
 
-        options += [(f"against batch {it['batch']} · N {words.sig(it['normality'])}",
-                     f"batch:{it['batch']}") for it in board.board(db)
-                    if it["state"] in ("in-service", "due") and it["batch"] != self.code]
+        options += [(f"against batch {it.batch} · N {words.sig(it.normality)}",
+                     f"batch:{it.batch}") for it in board.board(db)
+                    if it.state in ("in-service", "due") and it.batch != self.code]
         src = self.query_one("#source", Select)
         src.set_options(options)
         first = next((v for _, v in options if v.startswith("lot:") and standard
@@ -127,7 +130,7 @@ class RecordScreen(Screen[None]):
             self.query_one("#indicator", Input).value = spec["indicator"]
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "standardize  ", (self.code, "bold"),
-            f"  {self.batch['spec_name']}  ", state_cell(self.app, self.batch["state"]),
+            f"  {chain.spec_name}  ", state_cell(self.app, chain.state),
             f"  ·  standard {standard or '-'}  ·  acting as {self.app.who()}"))  # type: ignore[attr-defined]
         self.query_one("#m1", Input).focus()
         self.preview()
@@ -268,7 +271,7 @@ class RecordScreen(Screen[None]):
     def preview(self) -> None:
         from prepbook.lab import runs
 
-        if self.recorded or not self.batch:
+        if self.recorded or self.chain is None:
             return
         reps, problems, waiting = self.entries()
         live = self.query_one("#live", Static)
