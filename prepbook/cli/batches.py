@@ -10,7 +10,7 @@ from prepbook.cli import output
 from prepbook.cli.session import actor, database
 
 if TYPE_CHECKING:
-    from prepbook.lab.batches import BatchRecord
+    from prepbook.lab.batch_records import BatchRecord
 
 app = typer.Typer(
     help="Make batches and show their history.",

@@ -16,7 +16,7 @@ from sqlalchemy import and_, or_, select
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
-from prepbook.lab.batches import BatchRecord
+from prepbook.lab.batch_records import BatchRecord
 from prepbook.lab.common import by_code
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, Batch, LabelPrint, Replicate, Review, Run, Use

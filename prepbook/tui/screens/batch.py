@@ -19,7 +19,7 @@ from prepbook.tui.screens.common import run_block, safety, small_table
 from prepbook.tui.widgets import TrendChart, colour, state_cell
 
 if TYPE_CHECKING:
-    from prepbook.lab.batches import BatchRecord
+    from prepbook.lab.batch_records import BatchRecord
 
 
 class BatchScreen(Screen[None]):

@@ -14,7 +14,7 @@ from prepbook.tui import words
 from prepbook.tui.widgets import check_cell, colour, status_cell
 
 if TYPE_CHECKING:
-    from prepbook.lab.batches import BudgetRow, RunRecord
+    from prepbook.lab.batch_records import BudgetRow, RunRecord
 
 DEFER = ("Follow the substance's safety data sheet, local regulations and the "
          "laboratory's own procedures.")

@@ -26,7 +26,7 @@ from prepbook.tui.screens.common import budget_table, small_table
 from prepbook.tui.widgets import check_cell, colour, state_cell
 
 if TYPE_CHECKING:
-    from prepbook.lab.batches import BatchRecord
+    from prepbook.lab.batch_records import BatchRecord
 
 START_ROWS = 3
 
