@@ -14,10 +14,9 @@ from typing import Any
 
 from sqlalchemy import select
 
-from prepbook.lab import auditing
+from prepbook.lab import auditing, history
 from prepbook.lab.batch_facts import when
 from prepbook.lab.common import by_code
-from prepbook.lab.history import Trend
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditHead, Batch, Replicate, Review, Run, Use
 
@@ -42,7 +41,7 @@ class BatchTrend:
     batch: str
     window: tuple[float, float]
     points: tuple[FactorPoint, ...]
-    trend: Trend
+    trend: history.Trend
 
 
 def head_seq(db: Database) -> int:
@@ -82,8 +81,6 @@ def batch_trend(db: Database, code: str) -> BatchTrend:
     """The factor of every run of a batch over time (for a chart: accepted, awaiting and
     rejected alike), the spec's acceptance window, and ``history.trend`` of the
     accepted runs (change between them, least-squares slope and forecast)."""
-    from prepbook.lab import history
-
     with db.session(write=False) as s:
         b = by_code(s, Batch, code, "batch")
         rows = s.execute(select(Run.code, Run.performed_at, Run.status, Run.factor)
