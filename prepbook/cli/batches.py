@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import typer
 
 from prepbook.cli import output
 from prepbook.cli.session import actor, database
+
+if TYPE_CHECKING:
+    from prepbook.lab.batch_records import BatchRecord
 
 app = typer.Typer(
     help="Make batches and show their history.",
@@ -58,72 +61,71 @@ def make(
         output.emit_json(res)
         return
     out = output.console()
-    out.print(f"batch [bold]{res['batch']}[/bold] ({res['spec']}, {res['method']})")
-    out.print(f"theoretical normality {output.sig(res['theoretical_normality'], 5)} eq/L, "
-              f"factor {res['theoretical_factor']:.4f}; expires {res['expires']}")
-    out.print("standardize it before use: prepbook standardize " + res["batch"] + " --lot ...")
-    output.warn_lines(out, res["warnings"])
-    output.caution_lines(out, res["cautions"])
+    out.print(f"batch [bold]{res.batch}[/bold] ({res.spec}, {res.method})")
+    out.print(f"theoretical normality {output.sig(res.theoretical_normality, 5)} eq/L, "
+              f"factor {res.theoretical_factor:.4f}; expires {res.expires}")
+    out.print("standardize it before use: prepbook standardize " + res.batch + " --lot ...")
+    output.warn_lines(out, res.warnings)
+    output.caution_lines(out, res.cautions)
 
 
-def _render_show(out: Any, b: dict[str, Any]) -> None:
-    p = b["preparation"]
-    out.print(f"[bold]{b['batch']}[/bold]  {b['spec_name']} ({b['spec']}), "
-              f"nominal {b['nominal']:g} {b['unit']}")
-    state = b["state"]
-    out.print(f"state: [bold]{state}[/bold]   normality: {output.sig(b['normality'], 5)} eq/L "
+def _render_show(out: Any, b: BatchRecord) -> None:
+    p = b.preparation
+    out.print(f"[bold]{b.batch}[/bold]  {b.spec_name} ({b.spec}), "
+              f"nominal {b.nominal:g} {b.unit}")
+    state = b.state
+    out.print(f"state: [bold]{state}[/bold]   normality: {output.sig(b.normality, 5)} eq/L "
               "at 20 C   "
-              f"factor: {output.fixed(b['factor'], 4)}   restandardize by: "
-              f"{b['restandardize_by'] or '-'}   expires: {b['expires']}")
+              f"factor: {output.fixed(b.factor, 4)}   restandardize by: "
+              f"{b.restandardize_by or '-'}   expires: {b.expires}")
     how = {
-        "solid": f"{p['solute_mass_g']} g of solute" + (f" from lot {p['solute_lot']}"
-                                                       if p["solute_lot"] else ""),
-        "concentrate": f"{p['concentrate_volume_ml']} mL of concentrate",
-        "dilution": f"{p['aliquot_ml']} mL of batch {p['from_batch']}",
-    }[p["method"]]
-    out.print(f"made {p['made_at']} by {p['made_by']}: {how} made up to {p['volume_ml']} mL"
-              + (f" in flask {p['flask']}" if p["flask"] else "")
-              + (f", balance {p['balance']}" if p["balance"] else "")
-              + f"; theoretical {output.sig(p['theoretical_normality'], 5)} eq/L")
-    if p["notes"]:
-        out.print(f"notes: {p['notes']}")
-    if b["retired"]:
-        r = b["retired"]
-        out.print(f"retired {r['at']} by {r['by']}: {r['reason']}")
-    for run in b["runs"]:
-        src = f"lot {run['lot']}" if run["lot"] else f"against {run['reference_batch']}"
-        head = (f"\n[bold]{run['run']}[/bold] {run['status']}  {run['performed_at']} by "
-                f"{run['analyst']}, {src}")
-        inst = ", ".join(x for x in (run["balance"] and f"balance {run['balance']}",
-                                     run["burette"] and f"burette {run['burette']}") if x)
+        "solid": f"{p.solute_mass_g} g of solute" + (f" from lot {p.solute_lot}"
+                                                    if p.solute_lot else ""),
+        "concentrate": f"{p.concentrate_volume_ml} mL of concentrate",
+        "dilution": f"{p.aliquot_ml} mL of batch {p.from_batch}",
+    }[p.method]
+    out.print(f"made {p.made_at} by {p.made_by}: {how} made up to {p.volume_ml} mL"
+              + (f" in flask {p.flask}" if p.flask else "")
+              + (f", balance {p.balance}" if p.balance else "")
+              + f"; theoretical {output.sig(p.theoretical_normality, 5)} eq/L")
+    if p.notes:
+        out.print(f"notes: {p.notes}")
+    if b.retired:
+        out.print(f"retired {b.retired.at} by {b.retired.by}: {b.retired.reason}")
+    for run in b.runs:
+        src = f"lot {run.lot}" if run.lot else f"against {run.reference_batch}"
+        head = (f"\n[bold]{run.run}[/bold] {run.status}  {run.performed_at} by "
+                f"{run.analyst}, {src}")
+        inst = ", ".join(x for x in (run.balance and f"balance {run.balance}",
+                                     run.burette and f"burette {run.burette}") if x)
         out.print(head + (f" ({inst})" if inst else ""))
-        out.print(f"  N = {output.sig(run['normality'], 5)} eq/L at {run['temperature_c']} C "
-                  f"({output.sig(run['normality_20c'], 5)} at 20 C), factor "
-                  f"{output.fixed(run['factor'], 4)}, RSD {output.fixed(run['rsd_percent'], 3)} %,"
-                  f" U = {output.sig(run['U'], 2)} (k = {run['k'] or '-'}), verdict "
-                  f"{run['verdict']}")
-        rows = [(r["position"], r["version"], r["amount"], r["volume_ml"],
-                 output.sig(r["normality"], 5) if r["normality"] is not None else "",
-                 ("superseded" if not r["current"] else "")
-                 + (" excluded" if r["excluded"] else "") + (" outlier" if r["outlier"] else ""))
-                for r in run["replicates"]]
-        amount = "aliquot (mL)" if run["method"] == "secondary" else "mass (g)"
+        out.print(f"  N = {output.sig(run.normality, 5)} eq/L at {run.temperature_c} C "
+                  f"({output.sig(run.normality_20c, 5)} at 20 C), factor "
+                  f"{output.fixed(run.factor, 4)}, RSD {output.fixed(run.rsd_percent, 3)} %,"
+                  f" U = {output.sig(run.U, 2)} (k = {run.k or '-'}), verdict "
+                  f"{run.verdict}")
+        rows = [(r.position, r.version, r.amount, r.volume_ml,
+                 output.sig(r.normality, 5) if r.normality is not None else "",
+                 ("superseded" if not r.current else "")
+                 + (" excluded" if r.excluded else "") + (" outlier" if r.outlier else ""))
+                for r in run.replicates or ()]
+        amount = "aliquot (mL)" if run.method == "secondary" else "mass (g)"
         out.print(output.table(None, ["#", "v", amount, "titrant (mL)", "N (eq/L)", ""], rows,
                                right=(0, 1, 2, 3, 4)))
-        for c in run["checks"]:
+        for c in run.checks:
             if not c["passed"]:
                 out.print(f"  {c['severity']}: {c['message']}")
-        for rv in run["reviews"]:
-            out.print(f"  {rv['decision']}ed by {rv['reviewer']} {rv['signed_at']}"
-                      + (f": {rv['reason']}" if rv["reason"] else ""))
-    if b["uses"]:
-        out.print(f"\nuses: {len(b['uses'])}")
-    if b["diluted_into"]:
-        out.print("diluted into: " + ", ".join(b["diluted_into"]))
-    if b["uses_needing_review"]:
-        out.print(f"[bold]{len(b['uses_needing_review'])} use(s) need review[/bold] "
-                  f"(see `prepbook trace {b['batch']}`)")
-    output.warn_lines(out, b["warnings"])
+        for rv in run.reviews:
+            out.print(f"  {rv.decision}ed by {rv.reviewer} {rv.signed_at}"
+                      + (f": {rv.reason}" if rv.reason else ""))
+    if b.uses:
+        out.print(f"\nuses: {len(b.uses)}")
+    if b.diluted_into:
+        out.print("diluted into: " + ", ".join(b.diluted_into))
+    if b.uses_needing_review:
+        out.print(f"[bold]{len(b.uses_needing_review)} use(s) need review[/bold] "
+                  f"(see `prepbook trace {b.batch}`)")
+    output.warn_lines(out, b.warnings)
 
 
 @app.command("show")
@@ -163,8 +165,8 @@ def use(
     if as_json:
         output.emit_json(res)
     else:
-        output.console().print(f"use of {res['batch']} recorded: factor "
-                               f"{output.fixed(res['factor'], 4)}")
+        output.console().print(f"use of {res.batch} recorded: factor "
+                               f"{output.fixed(res.factor, 4)}")
 
 
 @app.command("retire")
@@ -193,4 +195,4 @@ def retire(
     if as_json:
         output.emit_json(res)
     else:
-        output.console().print(f"batch [bold]{res['batch']}[/bold] retired: {res['reason']}")
+        output.console().print(f"batch [bold]{res.batch}[/bold] retired: {res.reason}")

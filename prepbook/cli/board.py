@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import typer
 
 from prepbook.cli import output
 from prepbook.cli.session import database
+
+if TYPE_CHECKING:
+    from prepbook.lab.board import BatchLife
 
 # States told in words (never colour alone), in capitals where action is needed.
 STATE_WORDS = {
@@ -20,24 +23,24 @@ STATE_WORDS = {
 }
 
 
-def render_board(out: Any, items: list[dict[str, Any]]) -> None:
+def render_board(out: Any, items: list[BatchLife]) -> None:
     if not items:
         out.print("no batches yet: make one with `prepbook batch make SPEC ...`")
         return
-    rows = [(it["batch"], STATE_WORDS.get(it["state"], it["state"]),
-             output.sig(it["normality"], 5), output.fixed(it["factor"], 4),
-             it["restandardize_by"] or "-", it["expires"],
-             str(len(it["warnings"])) if it["warnings"] else "")
+    rows = [(it.batch, STATE_WORDS.get(it.state, it.state),
+             output.sig(it.normality, 5), output.fixed(it.factor, 4),
+             it.restandardize_by or "-", it.expires,
+             str(len(it.warnings)) if it.warnings else "")
             for it in items]
     out.print(output.table(f"Board: {len(items)} batches in use",
                            ["batch", "state", "N 20 C", "factor", "restd. by", "expires", "!"],
                            rows, right=(2, 3, 6), no_wrap=range(7)))
-    flagged = [it for it in items if it["warnings"]]
+    flagged = [it for it in items if it.warnings]
     if flagged:
         out.print("[bold]Warnings[/bold]")
         for it in flagged:
-            for w in it["warnings"]:
-                out.print(f"  {it['batch']}: {output.escape(w)}")
+            for w in it.warnings:
+                out.print(f"  {it.batch}: {output.escape(w)}")
 
 
 def status(

@@ -8,17 +8,20 @@ acceptance window "=" (or named above/below the chart when it lies far outside).
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from prepbook.lab.history import Trend
 
 
-def trend_chart(trend: dict[str, Any], *, width: int = 60, height: int = 12) -> list[str]:
-    hist = [h for h in trend["history"] if h["factor"] is not None]
+def trend_chart(trend: Trend, *, width: int = 60, height: int = 12) -> list[str]:
+    hist = [h for h in trend.history if h.factor is not None]
     if not hist:
         return ["(no accepted standardization to chart)"]
-    nominal = trend["nominal"]
-    times = [datetime.fromisoformat(h["performed_at"]) for h in hist]
-    values = [h["factor"] * nominal for h in hist]
-    lo_w, hi_w = (f * nominal for f in trend["window"])
+    nominal = trend.nominal
+    times = [datetime.fromisoformat(h.performed_at) for h in hist]
+    values = [h.factor * nominal for h in hist if h.factor is not None]
+    lo_w, hi_w = (f * nominal for f in trend.window)
     t0, t1 = min(times), max(times)
     span_t = max((t1 - t0).total_seconds(), 1.0)
     v_lo, v_hi = min(values), max(values)
@@ -41,7 +44,7 @@ def trend_chart(trend: dict[str, Any], *, width: int = 60, height: int = 12) -> 
     for edge in (lo_w, hi_w):
         if y_lo <= edge <= y_hi:
             grid[row_of(edge)] = ["="] * width
-    slope = trend.get("slope_percent_per_30d")
+    slope = trend.slope_percent_per_30d
     if slope is not None and len(hist) >= 3:
         # Refit in display units so the drawn line is the one the slope describes.
         xs = [(t - t0).total_seconds() for t in times]
@@ -54,7 +57,7 @@ def trend_chart(trend: dict[str, Any], *, width: int = 60, height: int = 12) -> 
                 grid[row_of(y)][c] = "."
     for t, v in zip(times, values, strict=True):
         grid[row_of(v)][col_of(t)] = "o"
-    unit = trend["unit"]
+    unit = trend.unit
     label_w = 9
     lines = []
     if hi_w > y_hi:

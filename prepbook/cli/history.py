@@ -22,25 +22,25 @@ def trend(
         output.emit_json(t)
         return
     out = output.console()
-    out.print(f"[bold]{t['batch']}[/bold] ({t['spec']}): factor window "
-              f"{t['window'][0]:.3f}-{t['window'][1]:.3f}, drift limit "
-              f"{t['drift_limit_percent']:g} % between standardizations")
-    rows = [(h["run"], h["performed_at"], output.sig(h["normality_20c"], 5),
-             output.fixed(h["factor"], 4),
-             "" if h["change_percent"] is None else f"{h['change_percent']:+.3f} %"
-             + (" BEYOND LIMIT" if h["beyond_drift_limit"] else ""))
-            for h in t["history"]]
+    out.print(f"[bold]{t.batch}[/bold] ({t.spec}): factor window "
+              f"{t.window[0]:.3f}-{t.window[1]:.3f}, drift limit "
+              f"{t.drift_limit_percent:g} % between standardizations")
+    rows = [(h.run, h.performed_at, output.sig(h.normality_20c, 5),
+             output.fixed(h.factor, 4),
+             "" if h.change_percent is None else f"{h.change_percent:+.3f} %"
+             + (" BEYOND LIMIT" if h.beyond_drift_limit else ""))
+            for h in t.history]
     out.print(output.table("Accepted standardizations", ["run", "when", "N 20 C", "factor",
                                                          "change"], rows, right=(2, 3, 4)))
-    if t["slope_percent_per_30d"] is not None:
-        lo, hi = t["slope_ci_percent_per_30d"]
-        out.print(f"slope {t['slope_percent_per_30d']:+.3f} % per 30 days "
+    if t.slope_percent_per_30d is not None and t.slope_ci_percent_per_30d is not None:
+        lo, hi = t.slope_ci_percent_per_30d
+        out.print(f"slope {t.slope_percent_per_30d:+.3f} % per 30 days "
                   f"(95 % CI {lo:+.3f} to {hi:+.3f})")
-        if t["forecast_leaves_window"]:
+        if t.forecast_leaves_window:
             out.print(f"at this slope the factor leaves its window on "
-                      f"[bold]{t['forecast_leaves_window']}[/bold]")
-    if t["note"]:
-        out.print(t["note"])
+                      f"[bold]{t.forecast_leaves_window}[/bold]")
+    if t.note:
+        out.print(t.note)
     for line in trend_chart(t):
         out.print(output.escape(line), highlight=False)
 
@@ -58,38 +58,37 @@ def trace(
         output.emit_json(t)
         return
     out = output.console()
-    up, down = t["upward"], t["downward"]
-    p = up["preparation"]
-    out.print(f"[bold]{t['batch']}[/bold] ({t['spec']}) made {p['made_at']} by {p['made_by']} "
-              f"({p['method']})")
-    if p["solute_lot"]:
-        out.print(f"  solute lot {p['solute_lot']['code']} ({p['solute_lot']['certificate']})")
-    for key in ("flask", "balance"):
-        if p[key]:
-            ins = p[key]
-            out.print(f"  {key} {ins['code']}, calibration due {ins['due']}"
-                      + (" (OVERDUE now)" if ins["overdue_now"] else ""))
-    for a in up["stock_chain"]:
-        out.print(f"  from stock {a['batch']} ({a['spec']}), standardized by "
-                  f"{a['standardized_by'] or '-'}"
-                  + (f", lot {a['lot']['code']}" if a["lot"] else ""))
+    up, down = t.upward, t.downward
+    p = up.preparation
+    out.print(f"[bold]{t.batch}[/bold] ({t.spec}) made {p.made_at} by {p.made_by} "
+              f"({p.method})")
+    if p.solute_lot:
+        out.print(f"  solute lot {p.solute_lot.code} ({p.solute_lot.certificate})")
+    for key, ins in (("flask", p.flask), ("balance", p.balance)):
+        if ins:
+            out.print(f"  {key} {ins.code}, calibration due {ins.due}"
+                      + (" (OVERDUE now)" if ins.overdue_now else ""))
+    for a in up.stock_chain:
+        out.print(f"  from stock {a.batch} ({a.spec}), standardized by "
+                  f"{a.standardized_by or '-'}"
+                  + (f", lot {a.lot.code}" if a.lot else ""))
     out.print("[bold]Standardizations[/bold]")
-    for r in up["standardizations"]:
-        src = (f"lot {r['lot']['code']} (purity {r['lot']['purity_percent']} %, certificate "
-               f"{r['lot']['certificate'] or '-'}, expires {r['lot']['expires']})" if r["lot"]
-               else f"against {r['reference_batch']}")
-        inst = ", ".join(f"{i['kind']} {i['code']} due {i['due']}"
-                         for i in (r["balance"], r["burette"]) if i)
-        out.print(f"  {r['run']} {r['status']} {r['performed_at']} by {r['analyst']}: {src}"
+    for r in up.standardizations:
+        src = (f"lot {r.lot.code} (purity {r.lot.purity_percent} %, certificate "
+               f"{r.lot.certificate or '-'}, expires {r.lot.expires})" if r.lot
+               else f"against {r.reference_batch}")
+        inst = ", ".join(f"{i.kind} {i.code} due {i.due}"
+                         for i in (r.balance, r.burette) if i)
+        out.print(f"  {r.run} {r.status} {r.performed_at} by {r.analyst}: {src}"
                   + (f"; {inst}" if inst else "")
-                  + (f"; {', '.join(r['reviewers'])}" if r["reviewers"] else ""))
+                  + (f"; {', '.join(r.reviewers)}" if r.reviewers else ""))
     out.print("[bold]Downward[/bold]")
-    for c in down["diluted_into"]:
-        out.print(f"  diluted into {c['batch']} ({c['spec']}) {c['made_at']}")
-    for r in down["reference_for"]:
-        out.print(f"  reference for run {r['run']} of {r['batch']} ({r['status']})")
-    out.print(f"  {len(down['uses'])} use(s)")
-    if t["uses_needing_review"]:
-        out.print(f"[bold]{len(t['uses_needing_review'])} use(s) need review:[/bold]")
-        for u in t["uses_needing_review"]:
-            out.print(f"  {u['used_at']} by {u['used_by']} ({u['purpose'] or '-'}): {u['why']}")
+    for c in down.diluted_into:
+        out.print(f"  diluted into {c.batch} ({c.spec}) {c.made_at}")
+    for ref in down.reference_for:
+        out.print(f"  reference for run {ref.run} of {ref.batch} ({ref.status})")
+    out.print(f"  {len(down.uses)} use(s)")
+    if t.uses_needing_review:
+        out.print(f"[bold]{len(t.uses_needing_review)} use(s) need review:[/bold]")
+        for u in t.uses_needing_review:
+            out.print(f"  {u.used_at} by {u.used_by} ({u.purpose or '-'}): {u.why}")

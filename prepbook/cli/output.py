@@ -11,7 +11,7 @@ import math
 import os
 import sys
 from collections.abc import Iterable, Sequence
-from dataclasses import asdict, is_dataclass
+from dataclasses import asdict, fields, is_dataclass
 from datetime import date, datetime
 from typing import Any
 
@@ -29,7 +29,11 @@ def _default(value: Any) -> Any:
 
 
 def _finite(value: Any) -> Any:
-    """JSON has no NaN or infinity: write them as null rather than invalid JSON."""
+    """JSON has no NaN or infinity: write them as null rather than invalid JSON. A
+    dataclass is written as its ``to_json()`` when it has one, else field by field."""
+    if is_dataclass(value) and not isinstance(value, type):
+        to_json = getattr(value, "to_json", None)
+        value = to_json() if to_json else {f.name: getattr(value, f.name) for f in fields(value)}
     if isinstance(value, float) and not math.isfinite(value):
         return None
     if isinstance(value, dict):

@@ -19,16 +19,19 @@ def report(
     """Write a batch's traceability report: preparation, every standardization, chart,
     reviews, corrections, uses, labels and the audit chain's head hash."""
     from prepbook.lab import reports
+    from prepbook.render import report as drawn
 
-    res = reports.write_report(database(ctx), code=code, output=out_file, replace=replace,
-                               paper=paper.lower())
+    paper = paper.lower()
+    target = drawn.checked_target(out_file, paper=paper, replace=replace)
+    res = drawn.write_report(reports.gather(database(ctx), code), target, paper=paper,
+                             replace=replace)
     if as_json:
         output.emit_json(res)
         return
     out = output.console()
-    out.print(f"report for [bold]{res['batch']}[/bold] ({res['pages']} page"
-              f"{'s' if res['pages'] != 1 else ''}, {res['runs']} standardization"
-              f"{'s' if res['runs'] != 1 else ''}) written to {output.escape(res['file'])}")
-    if not res["audit_ok"]:
+    out.print(f"report for [bold]{res.batch}[/bold] ({res.pages} page"
+              f"{'s' if res.pages != 1 else ''}, {res.runs} standardization"
+              f"{'s' if res.runs != 1 else ''}) written to {output.escape(res.file)}")
+    if not res.audit_ok:
         out.print("[bold]warning:[/bold] the audit trail did not verify; the report says so "
                   "(run `prepbook audit verify`)")

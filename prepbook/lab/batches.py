@@ -5,7 +5,7 @@ from __future__ import annotations
 import functools
 import json
 from datetime import date
-from typing import Any
+from typing import Any, cast
 
 from sqlalchemy import bindparam, func, select
 from sqlalchemy.orm import Session, joinedload
@@ -13,7 +13,21 @@ from sqlalchemy.orm import Session, joinedload
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_code, parse_datetime, parse_number, parse_text, utc_now
 from prepbook.lab import specs as spec_view
-from prepbook.lab.common import acting, by_code, iso, not_future, write
+from prepbook.lab.batch_facts import current_normality, impact, when
+from prepbook.lab.batch_records import (
+    BatchRecord,
+    BudgetRow,
+    Check,
+    MadeBatch,
+    Preparation,
+    ReplicateRow,
+    Retired,
+    ReviewRow,
+    RunRecord,
+    UseRecorded,
+    UseRow,
+)
+from prepbook.lab.common import acting, by_code, not_future, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Replicate, Review, Run, Spec, Use
@@ -47,17 +61,6 @@ def instrument_of(session: Session, code: str | None, kind: str) -> Instrument |
     return ins
 
 
-def current_normality(session: Session, batch: Batch) -> tuple[float | None, Run | None]:
-    """The normality at 20 C of the batch's latest accepted run (None if none)."""
-    run = session.scalars(
-        select(Run)
-        .where(Run.batch_id == batch.id, Run.status == "accepted")
-        .order_by(Run.performed_at.desc(), Run.id.desc())
-        .limit(1)
-    ).first()
-    return (run.normality_20c if run else None), run
-
-
 @retry.on_conflict
 def make_batch(
     db: Database,
@@ -75,7 +78,7 @@ def make_batch(
     notes: str | None = None,
     at: str | None = None,
     code: str | None = None,
-) -> dict[str, Any]:
+) -> MadeBatch:
     """Record a new batch and compute its theoretical normality from how it was made.
 
     ``code`` is the lab's own bottle code; without it one is made from the spec code,
@@ -194,22 +197,15 @@ def make_batch(
         )
         write(s, user.name, "batch.make", batch, performed_at=made_at)
         nominal_value = view.to_spec_unit(theoretical, rx.n)
-        return {
-            "batch": code,
-            "spec": sp.code,
-            "method": method,
-            "theoretical_normality": theoretical,
-            "theoretical_factor": nominal_value / view.nominal,
-            "unit": view.unit,
-            "made_at": iso(made_at),
-            "expires": iso(expires),
-            "cautions": view.cautions,
-            "warnings": warnings,
-        }
+        return MadeBatch(
+            batch=code, spec=sp.code, method=method, theoretical_normality=theoretical,
+            theoretical_factor=nominal_value / view.nominal, unit=view.unit,
+            made_at=when(made_at), expires=when(expires), cautions=tuple(view.cautions),
+            warnings=tuple(warnings))
 
 
 def _replicate_rows(session: Session, run: Run,
-                    reps: list[Replicate] | None = None) -> list[dict[str, Any]]:
+                    reps: list[Replicate] | None = None) -> tuple[ReplicateRow, ...]:
     if reps is None:
         reps = list(session.scalars(
             select(Replicate).where(Replicate.run_id == run.id)
@@ -223,65 +219,44 @@ def _replicate_rows(session: Session, run: Run,
     rows = []
     for r in reps:
         current = latest[r.position] == r.version
-        rows.append({
-            "position": r.position,
-            "version": r.version,
-            "current": current,
-            "amount": r.amount_text,
-            "volume_ml": r.volume_ml_text,
-            "excluded": r.excluded,
-            "reason": r.reason,
-            "normality": per_rep.get(r.position, {}).get("normality") if current else None,
-            "outlier": per_rep.get(r.position, {}).get("outlier", False) if current else False,
-            "recorded_by": r.created_by,
-            "recorded_at": iso(r.created_at),
-        })
-    return rows
+        rows.append(ReplicateRow(
+            position=r.position, version=r.version, current=current, amount=r.amount_text,
+            volume_ml=r.volume_ml_text, excluded=r.excluded, reason=r.reason,
+            normality=per_rep.get(r.position, {}).get("normality") if current else None,
+            outlier=per_rep.get(r.position, {}).get("outlier", False) if current else False,
+            recorded_by=r.created_by, recorded_at=when(r.created_at)))
+    return tuple(rows)
 
 
 def run_dict(session: Session, run: Run, *, with_replicates: bool = True,
              reviews: list[Review] | None = None,
-             replicates: list[Replicate] | None = None) -> dict[str, Any]:
+             replicates: list[Replicate] | None = None) -> RunRecord:
     """A run as plain data; ``reviews``/``replicates`` when the caller has read them
     already for many runs at once (``show_batch``), in id / (position, version) order."""
     result = json.loads(run.result_json) if run.result_json else {}
     if reviews is None:
         reviews = list(session.scalars(_reviews_of_run(), {"run_id": run.id}))
-    out: dict[str, Any] = {
-        "run": run.code,
-        "method": run.method,
-        "status": run.status,
-        "performed_at": iso(run.performed_at),
-        "recorded_at": iso(run.recorded_at),
-        "analyst": run.analyst,
-        "lot": run.lot.code if run.lot else None,
-        "lot_certificate": run.lot.certificate if run.lot else None,
-        "reference_batch": run.reference_batch.code if run.reference_batch else None,
-        "balance": run.balance.code if run.balance else None,
-        "burette": run.burette.code if run.burette else None,
-        "temperature_c": run.temperature_c_text,
-        "blank_ml": run.blank_ml_text,
-        "indicator": run.indicator,
-        "normality": run.normality,
-        "normality_20c": run.normality_20c,
-        "factor": run.factor,
-        "sd": run.sd,
-        "rsd_percent": run.rsd_percent,
-        "u": run.u,
-        "U": run.U,
-        "k": run.k,
-        "verdict": result.get("verdict"),
-        "checks": result.get("checks", []),
-        "budget": result.get("budget", []),
-        "reviews": [{"reviewer": r.reviewer, "decision": r.decision, "reason": r.reason,
-                     "signed_at": iso(r.signed_at)} for r in reviews],
-    }
-    if with_replicates:
-        out["replicates"] = _replicate_rows(session, run, replicates)
-    return out
+    return RunRecord(
+        run=run.code, method=run.method, status=run.status,
+        performed_at=when(run.performed_at), recorded_at=when(run.recorded_at),
+        analyst=run.analyst,
+        lot=run.lot.code if run.lot else None,
+        lot_certificate=run.lot.certificate if run.lot else None,
+        reference_batch=run.reference_batch.code if run.reference_batch else None,
+        balance=run.balance.code if run.balance else None,
+        burette=run.burette.code if run.burette else None,
+        temperature_c=run.temperature_c_text, blank_ml=run.blank_ml_text,
+        indicator=run.indicator, normality=run.normality, normality_20c=run.normality_20c,
+        factor=run.factor, sd=run.sd, rsd_percent=run.rsd_percent, u=run.u, U=run.U, k=run.k,
+        verdict=result.get("verdict"),
+        checks=tuple(cast(list[Check], result.get("checks", []))),
+        budget=tuple(cast(list[BudgetRow], result.get("budget", []))),
+        reviews=tuple(ReviewRow(reviewer=r.reviewer, decision=r.decision, reason=r.reason,
+                                signed_at=when(r.signed_at)) for r in reviews),
+        replicates=_replicate_rows(session, run, replicates) if with_replicates else None)
 
 
-def _run_dicts(session: Session, runs: list[Run]) -> list[dict[str, Any]]:
+def _run_dicts(session: Session, runs: list[Run]) -> tuple[RunRecord, ...]:
     """``run_dict`` of many runs with a fixed number of queries (not two per run)."""
     ids = [r.id for r in runs]
     reviews: dict[int, list[Review]] = {i: [] for i in ids}
@@ -293,11 +268,11 @@ def _run_dicts(session: Session, runs: list[Run]) -> list[dict[str, Any]]:
         for rep in session.scalars(select(Replicate).where(Replicate.run_id.in_(ids))
                                    .order_by(Replicate.position, Replicate.version)):
             replicates[rep.run_id].append(rep)
-    return [run_dict(session, r, reviews=reviews[r.id], replicates=replicates[r.id])
-            for r in runs]
+    return tuple(run_dict(session, r, reviews=reviews[r.id], replicates=replicates[r.id])
+                 for r in runs)
 
 
-def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, Any]:
+def show_batch(db: Database, code: str, today: date | None = None) -> BatchRecord:
     """Everything about one batch, from its preparation to its latest standardization."""
     from prepbook.lab import board
 
@@ -316,50 +291,28 @@ def show_batch(db: Database, code: str, today: date | None = None) -> dict[str, 
         children = s.scalars(select(Batch.code).where(Batch.parent_batch_id == b.id)).all()
         life_row = board.batch_life(s, b, today)
         lot = b.solute_lot
-        return {
-            "batch": b.code,
-            "spec": b.spec.code,
-            "spec_name": b.spec.name,
-            "nominal": view.nominal,
-            "unit": view.unit,
-            "state": life_row["state"],
-            "normality": life_row["normality"],
-            "factor": life_row["factor"],
-            "restandardize_by": life_row["restandardize_by"],
-            "expires": life_row["expires"],
-            "warnings": life_row["warnings"],
-            "preparation": {
-                "method": b.method,
-                "volume_ml": b.volume_ml_text,
-                "solute_mass_g": b.solute_mass_g_text,
-                "solute_lot": lot.code if lot else None,
-                "concentrate_volume_ml": b.stock_volume_ml_text,
-                "from_batch": b.parent_batch.code if b.parent_batch else None,
-                "aliquot_ml": b.aliquot_ml_text,
-                "flask": b.flask.code if b.flask else None,
-                "balance": b.balance.code if b.balance else None,
-                "theoretical_normality": b.theoretical_normality,
-                "made_at": iso(b.made_at),
-                "recorded_at": iso(b.recorded_at),
-                "made_by": b.made_by,
-                "notes": b.notes,
-            },
-            "retired": ({"at": iso(b.retired_at), "by": b.retired_by,
-                         "reason": b.retired_reason} if b.retired_at else None),
-            "runs": _run_dicts(s, runs),
-            "uses": [{"at": iso(u.used_at), "by": u.used_by, "volume_ml": u.volume_ml_text,
-                      "purpose": u.purpose} for u in uses],
-            "diluted_into": list(children),
-            "uses_needing_review": _impact(s, b, view.drift_limit_percent),
-            "storage": view.storage,
-            "hazard": view.hazard,
-        }
-
-
-def _impact(session: Session, batch: Batch, drift_limit: float) -> list[dict[str, Any]]:
-    from prepbook.lab.history import impact
-
-    return impact(session, batch, drift_limit)
+        return BatchRecord(
+            batch=b.code, spec=b.spec.code, spec_name=b.spec.name, nominal=view.nominal,
+            unit=view.unit, state=life_row.state, normality=life_row.normality,
+            factor=life_row.factor, restandardize_by=life_row.restandardize_by,
+            expires=life_row.expires, warnings=life_row.warnings,
+            preparation=Preparation(
+                method=b.method, volume_ml=b.volume_ml_text, solute_mass_g=b.solute_mass_g_text,
+                solute_lot=lot.code if lot else None,
+                concentrate_volume_ml=b.stock_volume_ml_text,
+                from_batch=b.parent_batch.code if b.parent_batch else None,
+                aliquot_ml=b.aliquot_ml_text, flask=b.flask.code if b.flask else None,
+                balance=b.balance.code if b.balance else None,
+                theoretical_normality=b.theoretical_normality, made_at=when(b.made_at),
+                recorded_at=when(b.recorded_at), made_by=b.made_by, notes=b.notes),
+            retired=(Retired(at=when(b.retired_at), by=b.retired_by, reason=b.retired_reason)
+                     if b.retired_at else None),
+            runs=_run_dicts(s, runs),
+            uses=tuple(UseRow(at=when(u.used_at), by=u.used_by, volume_ml=u.volume_ml_text,
+                              purpose=u.purpose) for u in uses),
+            diluted_into=tuple(children),
+            uses_needing_review=impact(s, b, view.drift_limit_percent),
+            storage=view.storage, hazard=view.hazard)
 
 
 def batch_count(db: Database) -> int:
@@ -370,7 +323,7 @@ def batch_count(db: Database) -> int:
 
 @retry.on_conflict
 def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
-              purpose: str | None = None, at: str | None = None) -> dict[str, Any]:
+              purpose: str | None = None, at: str | None = None) -> UseRecorded:
     """Record a draw from a batch (kept for impact analysis); only a batch in service."""
     from prepbook.lab import board
 
@@ -381,13 +334,13 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
         user = acting(s, actor, doing="use batches")
         b = by_code(s, Batch, code, "batch")
         life_row = board.batch_life(s, b, used_at.date())
-        if life_row["state"] != "in-service":
-            raise Refused(f"batch {b.code} is {life_row['state']} and may not be used")
+        if life_row.state != "in-service":
+            raise Refused(f"batch {b.code} is {life_row.state} and may not be used")
         if used_at < b.made_at:
             raise InvalidInput("the use cannot be before the batch was made")
         use = Use(batch_id=b.id, used_at=used_at, used_by=user.name,
                   volume_ml_text=vol.text if vol else None, purpose=purpose)
         write(s, user.name, "batch.use", use, performed_at=used_at)
-        return {"batch": b.code, "used_at": iso(used_at), "used_by": user.name,
-                "volume_ml": vol.text if vol else None, "purpose": purpose,
-                "normality": life_row["normality"], "factor": life_row["factor"]}
+        return UseRecorded(batch=b.code, used_at=when(used_at), used_by=user.name,
+                           volume_ml=vol.text if vol else None, purpose=purpose,
+                           normality=life_row.normality, factor=life_row.factor)

@@ -10,16 +10,20 @@ import functools
 from collections import defaultdict
 from dataclasses import dataclass
 from datetime import date
-from typing import Any
+from typing import TYPE_CHECKING, Any, cast
 
 from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session, aliased
 
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
+from prepbook.lab.batch_facts import when
 from prepbook.lab.common import iso, life_facts, life_result, setting
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Spec
+
+if TYPE_CHECKING:
+    from prepbook.rules.life import RunStatus
 
 DEFAULT_LEAD_DAYS = 7  # warn this many days ahead: common practice, no source
 
@@ -28,10 +32,25 @@ _ORDER = {"expired": 0, "due": 1, "awaiting-review": 2, "new": 3, "in-service": 
 
 
 @dataclass(frozen=True)
+class BatchLife:
+    """One batch on the board: its state, strength at 20 C, dates and warnings."""
+
+    batch: str
+    spec: str
+    state: str
+    normality: float | None  # eq/L at 20 C, of the latest accepted run
+    factor: float | None
+    standardized_on: str | None
+    restandardize_by: str | None
+    expires: str
+    warnings: tuple[str, ...]
+
+
+@dataclass(frozen=True)
 class _RunFacts:
     batch_id: int
     performed_on: date
-    status: str
+    status: RunStatus
     normality_20c: float | None  # at 20 C: what the factor, the label and the trend use
     factor: float | None
     lot_code: str | None
@@ -48,7 +67,7 @@ def _life(
     solute_lot: tuple[str, date] | None,
     today: date,
     lead_days: int,
-) -> dict[str, Any]:
+) -> BatchLife:
     from prepbook.rules import life
 
     view = spec_view.view(spec)
@@ -86,17 +105,17 @@ def _life(
         drift_limit_percent=view.drift_limit_percent,
         latest_status=latest.status if latest else None,
     )
-    return {
-        "batch": batch.code,
-        "spec": spec.code,
-        "state": state,
-        "normality": last.normality_20c if last else None,  # eq/L at 20 C
-        "factor": last.factor if last else None,
-        "standardized_on": iso(last.performed_on) if last else None,
-        "restandardize_by": iso(restd),
-        "expires": iso(batch.expires),
-        "warnings": list(warnings),
-    }
+    return BatchLife(
+        batch=batch.code,
+        spec=spec.code,
+        state=state,
+        normality=last.normality_20c if last else None,
+        factor=last.factor if last else None,
+        standardized_on=iso(last.performed_on) if last else None,
+        restandardize_by=iso(restd),
+        expires=when(batch.expires),
+        warnings=tuple(warnings),
+    )
 
 
 # Aliases and statements are built once: building them is most of a small query's cost.
@@ -150,7 +169,8 @@ def _run_facts(session: Session, batch_ids: Any, *,
          bur_due) in result:
         dues = tuple((c, k, d) for c, k, d in ((bal_code, "balance", bal_due),
                                                (bur_code, "burette", bur_due)) if c)
-        out[bid].append(_RunFacts(bid, at.date(), status, n, f, lot_code, lot_exp, dues))
+        out[bid].append(_RunFacts(bid, at.date(), cast("RunStatus", status), n, f, lot_code,
+                                  lot_exp, dues))
     return out
 
 
@@ -174,7 +194,7 @@ def _lead_days(session: Session) -> int:
         return DEFAULT_LEAD_DAYS
 
 
-def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
+def batch_life(session: Session, batch: Batch, today: date) -> BatchLife:
     """State, strength, dates and warnings of one batch.
 
     What it is computed from (the batch, its runs, instruments and lots) is read once
@@ -190,13 +210,12 @@ def batch_life(session: Session, batch: Batch, today: date) -> dict[str, Any]:
 
     (b, spec, instruments, lot), runs = life_facts(session, batch.id, read_batch, read_runs)
     lead = _lead_days(session)
-    life = life_result(session, batch.id, (today, lead), lambda: _life(
+    return life_result(session, batch.id, (today, lead), lambda: _life(
         batch=b, spec=spec, runs=runs, batch_instruments=instruments, solute_lot=lot,
         today=today, lead_days=lead))
-    return {**life, "warnings": list(life["warnings"])}  # the caller's own copy
 
 
-def board(db: Database, today: date | None = None) -> list[dict[str, Any]]:
+def board(db: Database, today: date | None = None) -> list[BatchLife]:
     """Every batch not retired, those needing action first."""
     today = today or utc_now().date()
     with db.session(write=False) as s:
@@ -210,6 +229,6 @@ def board(db: Database, today: date | None = None) -> list[dict[str, Any]]:
                   solute_lot=lot, today=today, lead_days=lead)
             for b, spec, ins, lot in rows
         ]
-    items.sort(key=lambda it: (_ORDER.get(it["state"], 9), it["restandardize_by"] or "9999",
-                               it["expires"], it["batch"]))
+    items.sort(key=lambda it: (_ORDER.get(it.state, 9), it.restandardize_by or "9999",
+                               it.expires, it.batch))
     return items

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass, replace
 from datetime import date
 from typing import Any
 
@@ -11,10 +12,161 @@ from sqlalchemy.orm import Session
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_datetime, parse_text, utc_now
 from prepbook.lab import specs as spec_view
+from prepbook.lab.batch_facts import UseNeedingReview, current_normality, impact, when
 from prepbook.lab.common import RECORDERS, acting, by_code, iso, not_future, signed, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Use
+
+
+@dataclass(frozen=True)
+class TrendPoint:
+    """One accepted standardization and its change from the one before."""
+
+    run: str
+    performed_at: str
+    normality: float | None
+    normality_20c: float | None
+    factor: float | None
+    change_percent: float | None
+    beyond_drift_limit: bool
+
+
+@dataclass(frozen=True)
+class Trend:
+    """A batch's accepted history, the least-squares slope of its factor and forecast."""
+
+    batch: str
+    spec: str
+    nominal: float
+    unit: str
+    window: tuple[float, float]
+    drift_limit_percent: float
+    history: tuple[TrendPoint, ...]
+    slope_percent_per_30d: float | None
+    slope_ci_percent_per_30d: tuple[float, float] | None
+    forecast_leaves_window: str | None
+    note: str | None
+
+
+@dataclass(frozen=True)
+class InstrumentFacts:
+    code: str
+    kind: str
+    due: str
+    overdue_now: bool
+    capacity: str | None
+    tolerance: str | None
+
+
+@dataclass(frozen=True)
+class LotFacts:
+    code: str
+    material: str
+    purity_percent: str
+    purity_u_percent: str | None
+    certificate: str | None
+    expires: str
+    dried_on: str | None
+
+
+@dataclass(frozen=True)
+class TracedPreparation:
+    method: str
+    made_at: str
+    made_by: str
+    solute_lot: LotFacts | None
+    flask: InstrumentFacts | None
+    balance: InstrumentFacts | None
+
+
+@dataclass(frozen=True)
+class StockBatch:
+    """A batch up the dilution chain and the run that gave its strength."""
+
+    batch: str
+    spec: str
+    made_at: str
+    expires: str
+    standardized_by: str | None
+    lot: LotFacts | None
+
+
+@dataclass(frozen=True)
+class TracedRun:
+    run: str
+    status: str
+    performed_at: str
+    analyst: str
+    lot: LotFacts | None
+    reference_batch: str | None
+    balance: InstrumentFacts | None
+    burette: InstrumentFacts | None
+    reviewers: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Upward:
+    preparation: TracedPreparation
+    stock_chain: tuple[StockBatch, ...]
+    standardizations: tuple[TracedRun, ...]
+
+
+@dataclass(frozen=True)
+class Dilution:
+    """A batch made from this one (``source`` is the batch it was diluted from)."""
+
+    batch: str
+    spec: str
+    source: str | None
+    made_at: str
+
+    def to_json(self) -> dict[str, Any]:
+        return {"batch": self.batch, "spec": self.spec, "from": self.source,
+                "made_at": self.made_at}
+
+
+@dataclass(frozen=True)
+class ReferenceUse:
+    """A run of another batch standardized against this one."""
+
+    batch: str
+    run: str
+    status: str
+
+
+@dataclass(frozen=True)
+class TracedUse:
+    used_at: str
+    used_by: str
+    volume_ml: str | None
+    purpose: str | None
+
+
+@dataclass(frozen=True)
+class Downward:
+    diluted_into: tuple[Dilution, ...]
+    reference_for: tuple[ReferenceUse, ...]
+    uses: tuple[TracedUse, ...]
+
+
+@dataclass(frozen=True)
+class Trace:
+    """The chain upward (standards, certificates, stock, instruments) and downward."""
+
+    batch: str
+    spec: str
+    upward: Upward
+    downward: Downward
+    uses_needing_review: tuple[UseNeedingReview, ...]
+
+
+@dataclass(frozen=True)
+class Retirement:
+    batch: str
+    retired_at: str
+    retired_by: str
+    reason: str
 
 
 def _accepted(s: Session, batch: Batch) -> list[Run]:
@@ -22,7 +174,7 @@ def _accepted(s: Session, batch: Batch) -> list[Run]:
                           .order_by(Run.performed_at, Run.id)))
 
 
-def trend(db: Database, code: str) -> dict[str, Any]:
+def trend(db: Database, code: str) -> Trend:
     """Accepted history, change between standardizations, slope and forecast."""
     from prepbook.chem import trend as chem_trend
 
@@ -35,63 +187,47 @@ def trend(db: Database, code: str) -> dict[str, Any]:
         for r in runs:
             change = (chem_trend.drift_percent(prev.normality_20c, r.normality_20c)
                       if prev is not None and prev.normality_20c and r.normality_20c else None)
-            history.append({"run": r.code, "performed_at": iso(r.performed_at),
-                            "normality": r.normality, "normality_20c": r.normality_20c,
-                            "factor": r.factor, "change_percent": change,
-                            "beyond_drift_limit": change is not None
-                            and abs(change) > view.drift_limit_percent})
+            history.append(TrendPoint(
+                run=r.code, performed_at=when(r.performed_at), normality=r.normality,
+                normality_20c=r.normality_20c, factor=r.factor, change_percent=change,
+                beyond_drift_limit=change is not None
+                and abs(change) > view.drift_limit_percent))
             prev = r
-        result: dict[str, Any] = {
-            "batch": b.code, "spec": b.spec.code, "nominal": view.nominal, "unit": view.unit,
-            "window": [view.factor_low, view.factor_high],
-            "drift_limit_percent": view.drift_limit_percent, "history": history,
-            "slope_percent_per_30d": None, "slope_ci_percent_per_30d": None,
-            "forecast_leaves_window": None, "note": None,
-        }
+        base = Trend(batch=b.code, spec=b.spec.code, nominal=view.nominal, unit=view.unit,
+                     window=(view.factor_low, view.factor_high),
+                     drift_limit_percent=view.drift_limit_percent, history=tuple(history),
+                     slope_percent_per_30d=None, slope_ci_percent_per_30d=None,
+                     forecast_leaves_window=None, note=None)
         points = [(r.performed_at, r.factor) for r in runs if r.factor is not None]
         if len(points) < 3:
-            result["note"] = (f"{len(points)} accepted standardization(s): a trend needs at "
-                              "least 3")
-            return result
+            return replace(base, note=f"{len(points)} accepted standardization(s): a trend "
+                                      "needs at least 3")
         t = chem_trend.trend(points, (view.factor_low, view.factor_high))
-        result["slope_percent_per_30d"] = t.slope_percent_per_30d
-        result["slope_ci_percent_per_30d"] = [t.ci_low, t.ci_high]
-        result["forecast_leaves_window"] = iso(t.forecast_leaves_window)
-        if t.forecast_leaves_window is None:
-            result["note"] = "at this slope the factor does not leave its window"
-        return result
+        return replace(
+            base, slope_percent_per_30d=t.slope_percent_per_30d,
+            slope_ci_percent_per_30d=(t.ci_low, t.ci_high),
+            forecast_leaves_window=iso(t.forecast_leaves_window),
+            note=("at this slope the factor does not leave its window"
+                  if t.forecast_leaves_window is None else None))
 
 
-def _instrument(ins: Instrument | None, on: date) -> dict[str, Any] | None:
+def _instrument(ins: Instrument | None, on: date) -> InstrumentFacts | None:
     if ins is None:
         return None
-    return {"code": ins.code, "kind": ins.kind, "due": iso(ins.due),
-            "overdue_now": ins.due < on, "capacity": ins.capacity_text,
-            "tolerance": ins.tolerance_text}
+    return InstrumentFacts(code=ins.code, kind=ins.kind, due=when(ins.due),
+                           overdue_now=ins.due < on, capacity=ins.capacity_text,
+                           tolerance=ins.tolerance_text)
 
 
-def _lot(lot: Lot | None) -> dict[str, Any] | None:
+def _lot(lot: Lot | None) -> LotFacts | None:
     if lot is None:
         return None
-    return {"code": lot.code, "material": lot.material_code, "purity_percent": lot.purity_text,
-            "purity_u_percent": lot.purity_u_text, "certificate": lot.certificate,
-            "expires": iso(lot.expires), "dried_on": iso(lot.dried_on)}
+    return LotFacts(code=lot.code, material=lot.material_code, purity_percent=lot.purity_text,
+                    purity_u_percent=lot.purity_u_text, certificate=lot.certificate,
+                    expires=when(lot.expires), dried_on=iso(lot.dried_on))
 
 
-def impact(s: Session, b: Batch, drift_limit: float) -> list[dict[str, Any]]:
-    from prepbook.rules.impact import RunPoint, UsePoint, uses_needing_review
-
-    runs = [RunPoint(r.code, r.performed_at, r.status, r.normality_20c)
-            for r in s.scalars(select(Run).where(Run.batch_id == b.id))]
-    uses = list(s.scalars(select(Use).where(Use.batch_id == b.id).order_by(Use.used_at)))
-    flags = uses_needing_review(runs, [UsePoint(u.id, u.used_at) for u in uses], drift_limit)
-    by_id = {u.id: u for u in uses}
-    return [{"used_at": iso(by_id[f.use].used_at), "used_by": by_id[f.use].used_by,
-             "volume_ml": by_id[f.use].volume_ml_text, "purpose": by_id[f.use].purpose,
-             "why": f.reason} for f in flags]
-
-
-def trace(db: Database, code: str) -> dict[str, Any]:
+def trace(db: Database, code: str) -> Trace:
     """The chain upward (standards, certificates, stock, instruments) and downward (uses)."""
     today = utc_now().date()
     with db.session(write=False) as s:
@@ -102,57 +238,52 @@ def trace(db: Database, code: str) -> dict[str, Any]:
         ancestors = []
         parent = b.parent_batch
         while parent is not None:
-            _, last = _last_accepted(s, parent)
-            ancestors.append({"batch": parent.code, "spec": parent.spec.code,
-                              "made_at": iso(parent.made_at), "expires": iso(parent.expires),
-                              "standardized_by": last.code if last else None,
-                              "lot": _lot(last.lot) if last else None})
+            _, last = current_normality(s, parent)
+            ancestors.append(StockBatch(batch=parent.code, spec=parent.spec.code,
+                                        made_at=when(parent.made_at),
+                                        expires=when(parent.expires),
+                                        standardized_by=last.code if last else None,
+                                        lot=_lot(last.lot) if last else None))
             parent = parent.parent_batch
-        up = {
-            "preparation": {"method": b.method, "made_at": iso(b.made_at), "made_by": b.made_by,
-                            "solute_lot": _lot(b.solute_lot), "flask": _instrument(b.flask, today),
-                            "balance": _instrument(b.balance, today)},
-            "stock_chain": ancestors,
-            "standardizations": [
-                {"run": r.code, "status": r.status, "performed_at": iso(r.performed_at),
-                 "analyst": r.analyst, "lot": _lot(r.lot),
-                 "reference_batch": r.reference_batch.code if r.reference_batch else None,
-                 "balance": _instrument(r.balance, today),
-                 "burette": _instrument(r.burette, today),
-                 "reviewers": [rv.reviewer + ": " + rv.decision for rv in r.reviews]}
-                for r in runs],
-        }
+        up = Upward(
+            preparation=TracedPreparation(
+                method=b.method, made_at=when(b.made_at), made_by=b.made_by,
+                solute_lot=_lot(b.solute_lot), flask=_instrument(b.flask, today),
+                balance=_instrument(b.balance, today)),
+            stock_chain=tuple(ancestors),
+            standardizations=tuple(
+                TracedRun(run=r.code, status=r.status, performed_at=when(r.performed_at),
+                          analyst=r.analyst, lot=_lot(r.lot),
+                          reference_batch=r.reference_batch.code if r.reference_batch else None,
+                          balance=_instrument(r.balance, today),
+                          burette=_instrument(r.burette, today),
+                          reviewers=tuple(rv.reviewer + ": " + rv.decision for rv in r.reviews))
+                for r in runs),
+        )
         children = []
         stack = list(s.scalars(select(Batch).where(Batch.parent_batch_id == b.id)))
         while stack:
             child = stack.pop(0)
-            children.append({"batch": child.code, "spec": child.spec.code,
-                             "from": child.parent_batch.code if child.parent_batch else None,
-                             "made_at": iso(child.made_at)})
+            children.append(Dilution(batch=child.code, spec=child.spec.code,
+                                     source=child.parent_batch.code if child.parent_batch
+                                     else None, made_at=when(child.made_at)))
             stack.extend(s.scalars(select(Batch).where(Batch.parent_batch_id == child.id)))
-        standardized_against = [
-            {"batch": r.batch.code, "run": r.code, "status": r.status}
-            for r in s.scalars(select(Run).where(Run.reference_batch_id == b.id))]
-        uses = [{"used_at": iso(u.used_at), "used_by": u.used_by, "volume_ml": u.volume_ml_text,
-                 "purpose": u.purpose}
-                for u in s.scalars(select(Use).where(Use.batch_id == b.id).order_by(Use.used_at))]
-        return {
-            "batch": b.code, "spec": b.spec.code, "upward": up,
-            "downward": {"diluted_into": children, "reference_for": standardized_against,
-                         "uses": uses},
-            "uses_needing_review": impact(s, b, view.drift_limit_percent),
-        }
-
-
-def _last_accepted(s: Session, b: Batch) -> tuple[float | None, Run | None]:
-    from prepbook.lab.batches import current_normality
-
-    return current_normality(s, b)
+        standardized_against = tuple(
+            ReferenceUse(batch=r.batch.code, run=r.code, status=r.status)
+            for r in s.scalars(select(Run).where(Run.reference_batch_id == b.id)))
+        uses = tuple(TracedUse(used_at=when(u.used_at), used_by=u.used_by,
+                               volume_ml=u.volume_ml_text, purpose=u.purpose)
+                     for u in s.scalars(select(Use).where(Use.batch_id == b.id)
+                                        .order_by(Use.used_at)))
+        return Trace(batch=b.code, spec=b.spec.code, upward=up,
+                     downward=Downward(diluted_into=tuple(children),
+                                       reference_for=standardized_against, uses=uses),
+                     uses_needing_review=impact(s, b, view.drift_limit_percent))
 
 
 @retry.on_conflict
 def retire(db: Database, *, actor: str, code: str, reason: str | None,
-           passphrase: str | None, at: str | None = None) -> dict[str, Any]:
+           passphrase: str | None, at: str | None = None) -> Retirement:
     """Retire a batch (discarded, used up, spoiled): signed, with a reason. It can then be
     neither standardized nor used; its record stays.
 
@@ -181,5 +312,5 @@ def retire(db: Database, *, actor: str, code: str, reason: str | None,
                                    "after that retirement time")
         b.retired_at, b.retired_by, b.retired_reason = retired_at, user.name, reason
         write(s, user.name, "batch.retire", b, reason=reason, performed_at=retired_at)
-        return {"batch": b.code, "retired_at": iso(b.retired_at), "retired_by": user.name,
-                "reason": reason}
+        return Retirement(batch=b.code, retired_at=when(retired_at), retired_by=user.name,
+                          reason=reason)

@@ -41,15 +41,15 @@ def _current(session: Session, batch: Batch, today: date) -> dict[str, Any]:
     view = spec_view.view(batch.spec)
     concentration = view.nominal * run.factor if run is not None and run.factor else None
     return {
-        "state": life["state"],
+        "state": life.state,
         "run": run.code if run is not None else None,
         "run_id": run.id if run is not None else None,
         "normality": n20,
         "factor": run.factor if run is not None else None,
         "concentration": concentration,
         "standardized_on": iso(run.performed_at.date()) if run is not None else None,
-        "restandardize_by": life["restandardize_by"],
-        "expires": life["expires"],
+        "restandardize_by": life.restandardize_by,
+        "expires": life.expires,
     }
 
 

@@ -9,14 +9,39 @@ the records that make up its history (for its audit events) and its factor trend
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from typing import Any
 
 from sqlalchemy import select
 
-from prepbook.lab import auditing
-from prepbook.lab.common import by_code, iso
+from prepbook.lab import auditing, history
+from prepbook.lab.batch_facts import when
+from prepbook.lab.common import by_code
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditHead, Batch, Replicate, Review, Run, Use
+
+
+@dataclass(frozen=True)
+class FactorPoint:
+    """The factor of one run of a batch (any status) and its change from the accepted
+    run before (accepted runs only)."""
+
+    run: str
+    at: str
+    status: str
+    factor: float
+    change_percent: float | None
+    beyond_drift_limit: bool
+
+
+@dataclass(frozen=True)
+class BatchTrend:
+    """Every run's factor for a chart, the spec's window and the accepted runs' trend."""
+
+    batch: str
+    window: tuple[float, float]
+    points: tuple[FactorPoint, ...]
+    trend: history.Trend
 
 
 def head_seq(db: Database) -> int:
@@ -52,21 +77,21 @@ def batch_events(db: Database, code: str) -> list[dict[str, Any]]:
     return [events[k] for k in sorted(events)]
 
 
-def batch_trend(db: Database, code: str) -> dict[str, Any]:
+def batch_trend(db: Database, code: str) -> BatchTrend:
     """The factor of every run of a batch over time (for a chart: accepted, awaiting and
     rejected alike), the spec's acceptance window, and ``history.trend`` of the
     accepted runs (change between them, least-squares slope and forecast)."""
-    from prepbook.lab import history
-
     with db.session(write=False) as s:
         b = by_code(s, Batch, code, "batch")
         rows = s.execute(select(Run.code, Run.performed_at, Run.status, Run.factor)
                          .where(Run.batch_id == b.id)
                          .order_by(Run.performed_at, Run.id)).all()
     fitted = history.trend(db, code)
-    changes = {h["run"]: h for h in fitted["history"]}
-    points = [{"run": c, "at": iso(at), "status": st, "factor": f,
-               "change_percent": changes.get(c, {}).get("change_percent"),
-               "beyond_drift_limit": changes.get(c, {}).get("beyond_drift_limit", False)}
-              for c, at, st, f in rows if f is not None]
-    return {"batch": code, "window": fitted["window"], "points": points, "trend": fitted}
+    changes = {h.run: h for h in fitted.history}
+    points = tuple(FactorPoint(run=c, at=when(at), status=st, factor=f,
+                               change_percent=changes[c].change_percent if c in changes
+                               else None,
+                               beyond_drift_limit=c in changes
+                               and changes[c].beyond_drift_limit)
+                   for c, at, st, f in rows if f is not None)
+    return BatchTrend(batch=code, window=fitted.window, points=points, trend=fitted)

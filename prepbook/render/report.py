@@ -1,6 +1,6 @@
 """The batch traceability report as PDF (reportlab platypus, charts from reportlab.graphics).
 
-Pure: it draws the dict that ``prepbook.lab.reports.gather`` returns. Values are
+Pure: it draws the ``ReportData`` that ``prepbook.lab.reports.gather`` returns. Values are
 shown rounded for reading, and the report says so: the record keeps them whole
 (``prepbook export runs``). Black on white with rules and type weight, so a
 photocopy reads the same as the original.
@@ -9,16 +9,59 @@ photocopy reads the same as the original.
 from __future__ import annotations
 
 import io
-from datetime import date, datetime
-from typing import Any
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
 from xml.sax.saxutils import escape
 
+from prepbook.errors import InvalidInput
+from prepbook.render import files
 from prepbook.render.labels import significant
+from prepbook.render.report_chart import control_chart
+
+if TYPE_CHECKING:
+    from prepbook.lab.batch_records import RunRecord
+    from prepbook.lab.reports import ReportData
 
 PAPERS = ("a4", "letter")
 
 STATUS_WORDS = {"accepted": "accepted", "rejected": "REJECTED",
                 "awaiting-review": "awaiting review"}
+
+
+@dataclass(frozen=True)
+class WrittenReport:
+    """Where a report was written and what it shows (``prepbook report --json``)."""
+
+    batch: str
+    file: str
+    pages: int
+    runs: int
+    head_hash: str | None
+    audit_ok: bool
+    printed_at: str
+
+
+def checked_target(output: str, *, paper: str, replace: bool) -> Path:
+    """The PDF file to write, checked before anything is gathered: its name, the paper
+    size and that it may be written (an existing file only with ``replace``)."""
+    target = Path(output)
+    if target.suffix.lower() != ".pdf":
+        raise InvalidInput(f"{target} should end in .pdf")
+    if paper not in PAPERS:
+        raise InvalidInput(f"unknown paper {paper!r}; one of {', '.join(PAPERS)}")
+    files.check_target(target, replace=replace)
+    return target
+
+
+def write_report(data: ReportData, target: Path, *, paper: str = "a4",
+                 replace: bool = False) -> WrittenReport:
+    """Draw the report of ``data`` and write it to ``target`` (see ``checked_target``)."""
+    pdf, pages = report_pdf(data, paper=paper)
+    path = files.write_bytes(target, pdf, replace=replace)
+    return WrittenReport(batch=data.batch.batch, file=str(path), pages=pages,
+                         runs=len(data.batch.runs), head_hash=data.audit.head_hash,
+                         audit_ok=data.audit.ok, printed_at=data.printed_at)
 
 
 def _num(value: float | None, digits: int = 5) -> str:
@@ -106,189 +149,69 @@ def _pairs(rows: list[list[Any]], width: float, st: _Styles) -> Any:
     return table
 
 
-def _chart(data: dict[str, Any], width: float, *, detail: bool = False) -> Any:
-    """Concentration at 20 C of every run over time, with U bars and the acceptance window.
-
-    ``detail`` scales the axis to the results and their U bars (the window lines are
-    drawn only where they fall inside), so drift and overlap can be seen."""
-    from reportlab.graphics.charts.lineplots import LinePlot
-    from reportlab.graphics.shapes import Drawing, String
-    from reportlab.graphics.widgets.markers import makeMarker
-    from reportlab.lib import colors
-
-    win = data["window"]
-    unit = "mol/L" if win["unit"] == "M" else "eq/L"
-    low = win["nominal"] * win["factor_low"]
-    high = win["nominal"] * win["factor_high"]
-    points = data["chart"]
-    values = [p["concentration"] + k * (p["U"] or 0) for p in points for k in (-1, 1)]
-    if detail:
-        span_low, span_high = min(values), max(values)
-        if span_high - span_low < 1e-12:
-            span_low, span_high = span_low * 0.999, span_high * 1.001
-    else:
-        span_low, span_high = min([low, *values]), max([high, *values])
-    pad = (span_high - span_low) * 0.08
-    y_min, y_max = span_low - pad, span_high + pad
-
-    def shown(v: float) -> bool:
-        return y_min <= v <= y_max
-
-    height = 110.0 if detail else 150.0
-    drawing = Drawing(width, height + 30)
-    plot = LinePlot()
-    plot.x, plot.y = 52, 28
-    plot.width, plot.height = width - 150, height - 10
-
-    def day(at: str) -> float:
-        moment = datetime.fromisoformat(at)
-        return moment.toordinal() + (moment.hour * 60 + moment.minute) / 1440
-
-    made = day(data["batch"]["preparation"]["made_at"])
-    xs = [day(p["at"]) for p in points] or [made]
-    x0 = min([made, *xs]) - 2
-    x1 = max([*xs, made]) + 2
-    expires = data["batch"].get("expires")
-    if expires:
-        x1 = max(x1, date.fromisoformat(expires).toordinal() + 1)
-    series: list[list[tuple[float, float]]] = []
-    styles: list[dict[str, Any]] = []
-
-    def add(line: list[tuple[float, float]], **style: Any) -> None:
-        series.append(line)
-        styles.append(style)
-
-    for level, style in ((low, {"width": 0.8, "dash": (4, 2)}),
-                         (high, {"width": 0.8, "dash": (4, 2)}),
-                         (win["nominal"], {"width": 0.4, "dash": (1, 2)})):
-        if shown(level):
-            add([(x0, level), (x1, level)], **style)
-    for p, x in zip(points, xs, strict=True):
-        if p["U"] is not None:
-            add([(x, p["concentration"] - p["U"]), (x, p["concentration"] + p["U"])], width=0.8)
-    by_status = {"accepted": "FilledCircle", "rejected": "Cross", "awaiting-review": "Square"}
-    for status, marker in by_status.items():
-        pts = [(x, p["concentration"]) for p, x in zip(points, xs, strict=True)
-               if p["status"] == status]
-        if pts:
-            add(pts, width=0, marker=marker, accepted=status == "accepted")
-    accepted = [(x, p["concentration"]) for p, x in zip(points, xs, strict=True)
-                if p["status"] == "accepted"]
-    if len(accepted) > 1:
-        add(accepted, width=0.6)
-    plot.data = series
-    plot.joinedLines = 1
-    for i, style in enumerate(styles):
-        line = plot.lines[i]
-        line.strokeColor = colors.black
-        line.strokeWidth = style.get("width", 0.6)
-        if style.get("dash"):
-            line.strokeDashArray = style["dash"]
-        if style.get("marker"):
-            marker = makeMarker(style["marker"])
-            marker.size = 5
-            marker.fillColor = colors.black if style.get("accepted") else colors.white
-            marker.strokeColor = colors.black
-            line.symbol = marker
-            line.strokeWidth = 0
-            line.strokeColor = None
-    plot.yValueAxis.valueMin = y_min
-    plot.yValueAxis.valueMax = y_max
-    plot.yValueAxis.labelTextFormat = lambda v: significant(v, 5 if detail else 4)
-    plot.yValueAxis.labels.fontName = "Helvetica"
-    plot.yValueAxis.labels.fontSize = 7
-    plot.xValueAxis.valueMin = x0
-    plot.xValueAxis.valueMax = x1
-    plot.xValueAxis.labelTextFormat = lambda v: date.fromordinal(int(v)).isoformat()
-    plot.xValueAxis.labels.fontName = "Helvetica"
-    plot.xValueAxis.labels.fontSize = 7
-    plot.xValueAxis.labels.angle = 0
-    plot.xValueAxis.maximumTicks = 5
-    plot.xValueAxis.visibleGrid = 0
-    drawing.add(plot)
-    right = plot.x + plot.width + 6
-
-    def y_of(v: float) -> float:
-        lo, hi = plot.yValueAxis.valueMin, plot.yValueAxis.valueMax
-        return plot.y + (v - lo) / (hi - lo) * plot.height
-
-    for v, text in ((high, f"upper {significant(high, 4)} (factor {win['factor_high']:g})"),
-                    (win["nominal"], f"nominal {win['nominal']:g}"),
-                    (low, f"lower {significant(low, 4)} (factor {win['factor_low']:g})")):
-        if shown(v):
-            drawing.add(String(right, y_of(v) - 2.5, text, fontName="Helvetica", fontSize=6.5))
-    caption = (f"detail: the axis spans the results only; concentration at 20 °C ({unit})"
-               if detail else
-               f"concentration at 20 °C ({unit}); dashed: acceptance window; bars: U; "
-               "filled: accepted, square: to review, cross: rejected")
-    drawing.add(String(plot.x, plot.y + plot.height + 8, caption, fontName="Helvetica",
-                       fontSize=7))
-    return drawing
-
-
-def _run_section(run: dict[str, Any], unit_word: str, st: _Styles, width: float) -> list[Any]:
+def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float) -> list[Any]:
     from reportlab.platypus import KeepTogether, Spacer
 
     out: list[Any] = []
-    status = STATUS_WORDS.get(run["status"], run["status"])
-    out.append(_p(f"Standardization {run['run']}: {status}", st.h2))
-    against = (f"lot {run['lot']} ({run['lot_certificate'] or 'no certificate recorded'})"
-               if run["lot"] else f"batch {run['reference_batch']}")
+    status = STATUS_WORDS.get(run.status, run.status)
+    out.append(_p(f"Standardization {run.run}: {status}", st.h2))
+    against = (f"lot {run.lot} ({run.lot_certificate or 'no certificate recorded'})"
+               if run.lot else f"batch {run.reference_batch}")
     conditions = [
-        ["Method", f"{run['method']} against {against}"],
-        ["Performed", f"{run['performed_at']} UTC by {run['analyst']} "
-                      f"(recorded {run['recorded_at']})"],
-        ["Instruments", f"balance {_text(run['balance'])}, burette {_text(run['burette'])}"],
-        ["Conditions", f"temperature {_text(run['temperature_c'])} °C, blank "
-                       f"{_text(run['blank_ml'])} mL, indicator {_text(run['indicator'])}"],
+        ["Method", f"{run.method} against {against}"],
+        ["Performed", f"{run.performed_at} UTC by {run.analyst} "
+                      f"(recorded {run.recorded_at})"],
+        ["Instruments", f"balance {_text(run.balance)}, burette {_text(run.burette)}"],
+        ["Conditions", f"temperature {_text(run.temperature_c)} °C, blank "
+                       f"{_text(run.blank_ml)} mL, indicator {_text(run.indicator)}"],
     ]
     out.append(_pairs(conditions, width, st))
     out.append(Spacer(1, 4))
-    amount = "mass of standard (g)" if run["method"] == "direct" else "aliquot (mL)"
+    amount = "mass of standard (g)" if run.method == "direct" else "aliquot (mL)"
     reps = []
-    for r in run.get("replicates", []):
+    for r in run.replicates or ():
         flags = []
-        if not r["current"]:
+        if not r.current:
             flags.append("superseded")
-        if r["excluded"]:
+        if r.excluded:
             flags.append("excluded")
-        if r["outlier"]:
+        if r.outlier:
             flags.append("outlier (Grubbs)")
-        reps.append([f"{r['position']}.{r['version']}", r["amount"], r["volume_ml"],
-                     _num(r["normality"], 6), ", ".join(flags) or "-", _text(r["reason"]),
-                     f"{r['recorded_by']}, {r['recorded_at']}"])
+        reps.append([f"{r.position}.{r.version}", r.amount, r.volume_ml,
+                     _num(r.normality, 6), ", ".join(flags) or "-", _text(r.reason),
+                     f"{r.recorded_by}, {r.recorded_at}"])
     out.append(_table(["#.v", amount, "titrant (mL)", "N (eq/L)", "flags", "reason",
                        "recorded by, at (UTC)"], reps,
                       [w * width for w in (0.06, 0.15, 0.1, 0.11, 0.14, 0.2, 0.24)], st))
     out.append(Spacer(1, 4))
-    stats = (f"mean N {_num(run['normality'], 6)} eq/L at {_text(run['temperature_c'])} °C; "
-             f"{_num(run['normality_20c'], 6)} eq/L at 20 °C; factor "
-             f"{_fixed(run['factor'], 5)}; s {_num(run['sd'], 3)} eq/L; RSD "
-             f"{_num(run['rsd_percent'], 3)} %; u {_num(run['u'], 3)} eq/L; U "
-             f"{_num(run['U'], 3)} eq/L (k = {_text(run['k'])}); verdict "
-             f"{_text(run['verdict'])}")
+    stats = (f"mean N {_num(run.normality, 6)} eq/L at {_text(run.temperature_c)} °C; "
+             f"{_num(run.normality_20c, 6)} eq/L at 20 °C; factor "
+             f"{_fixed(run.factor, 5)}; s {_num(run.sd, 3)} eq/L; RSD "
+             f"{_num(run.rsd_percent, 3)} %; u {_num(run.u, 3)} eq/L; U "
+             f"{_num(run.U, 3)} eq/L (k = {_text(run.k)}); verdict "
+             f"{_text(run.verdict)}")
     out.append(_p("Statistics: " + stats, st.body))
-    if run.get("checks"):
+    if run.checks:
         out.append(Spacer(1, 3))
         out.append(_table(
             ["check", "result", "detail (source)"],
             [[c["name"], ("pass" if c["passed"] else ("FAIL" if c["severity"] == "fail"
                                                       else "warning")), c["message"]]
-             for c in run["checks"]],
+             for c in run.checks],
             [0.16 * width, 0.09 * width, 0.75 * width], st))
-    if run.get("budget"):
+    if run.budget:
         out.append(Spacer(1, 3))
         budget = [[f"{b['quantity']} ({b['symbol']})", _num(b["value"], 6), b["unit"],
                    _num(b["u"], 3), _num(b["u_relative"], 3), _num(b["contribution"], 3),
-                   _fixed(b["share_percent"], 1)] for b in run["budget"]]
+                   _fixed(b["share_percent"], 1)] for b in run.budget]
         out.append(KeepTogether([
             _p("Uncertainty budget (GUM first-order propagation, EURACHEM/CITAC CG4)",
                st.small),
             _table(["quantity", "value", "unit", "u", "u relative", "contribution (eq/L)",
                     "share %"], budget,
                    [w * width for w in (0.3, 0.13, 0.08, 0.12, 0.12, 0.15, 0.1)], st)]))
-    reviews = [[r["decision"], r["reviewer"], f"{r['signed_at']} UTC", _text(r["reason"])]
-               for r in run.get("reviews", [])]
+    reviews = [[rv.decision, rv.reviewer, f"{rv.signed_at} UTC", _text(rv.reason)]
+               for rv in run.reviews]
     out.append(Spacer(1, 3))
     if reviews:
         out.append(_table(["review", "signed by", "signed at", "reason"], reviews,
@@ -298,7 +221,7 @@ def _run_section(run: dict[str, Any], unit_word: str, st: _Styles, width: float)
     return out
 
 
-def report_pdf(data: dict[str, Any], *, paper: str = "a4") -> tuple[bytes, int]:
+def report_pdf(data: ReportData, *, paper: str = "a4") -> tuple[bytes, int]:
     """The report's PDF bytes and its page count."""
     from reportlab.lib.pagesizes import A4, LETTER
     from reportlab.lib.units import mm
@@ -307,8 +230,8 @@ def report_pdf(data: dict[str, Any], *, paper: str = "a4") -> tuple[bytes, int]:
     pagesize = A4 if paper == "a4" else LETTER
     margin = 16 * mm
     width = pagesize[0] - 2 * margin
-    win = data["window"]
-    unit_word = "mol/L" if win["unit"] == "M" else "N"
+    win = data.window
+    unit_word = "mol/L" if win.unit == "M" else "N"
 
     def make_story() -> list[Any]:
         return _story(data, st, width, unit_word)
@@ -316,103 +239,103 @@ def report_pdf(data: dict[str, Any], *, paper: str = "a4") -> tuple[bytes, int]:
     return _build(data, make_story, pagesize, margin)
 
 
-def _story(data: dict[str, Any], st: _Styles, width: float, unit_word: str) -> list[Any]:
+def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[Any]:
     from reportlab.platypus import Spacer
 
-    b = data["batch"]
-    win = data["window"]
-    audit = data["audit"]
+    b = data.batch
+    win = data.window
+    audit = data.audit
     story: list[Any] = []
-    story.append(_p(f"Batch record: {b['batch']}", st.title))
-    story.append(_p(f"{b['spec_name']} (spec {b['spec']})", st.subtitle))
-    hz = b.get("hazard") or {}
-    current = (f"{_num(b['factor'] and win['nominal'] * b['factor'])} {unit_word} at 20 °C, "
-               f"factor {_fixed(b['factor'], 4)}" if b["factor"] else "no accepted result")
+    story.append(_p(f"Batch record: {b.batch}", st.title))
+    story.append(_p(f"{b.spec_name} (spec {b.spec})", st.subtitle))
+    hz = b.hazard or {}
+    current = (f"{_num(b.factor and win.nominal * b.factor)} {unit_word} at 20 °C, "
+               f"factor {_fixed(b.factor, 4)}" if b.factor else "no accepted result")
     summary = [
-        ["State", b["state"]],
-        ["Nominal", f"{win['nominal']:g} {unit_word}; acceptance window factor "
-                    f"{win['factor_low']:g} to {win['factor_high']:g}, RSD at most "
-                    f"{win['max_rsd_percent']:g} %"],
+        ["State", b.state],
+        ["Nominal", f"{win.nominal:g} {unit_word}; acceptance window factor "
+                    f"{win.factor_low:g} to {win.factor_high:g}, RSD at most "
+                    f"{win.max_rsd_percent:g} %"],
         ["Current", current],
-        ["Restandardize by", _text(b["restandardize_by"])],
-        ["Expires", _text(b["expires"])],
-        ["Storage", _text(b.get("storage"))],
+        ["Restandardize by", _text(b.restandardize_by)],
+        ["Expires", _text(b.expires)],
+        ["Storage", _text(b.storage)],
         ["Hazard", (f"{hz.get('signal_word') or 'no signal word'}; "
                     f"{', '.join(hz.get('pictograms') or []) or 'no pictogram'}; "
                     f"{' '.join(hz.get('statements') or []) or 'no hazard statement'}")],
-        ["Warnings", "; ".join(b["warnings"]) or "none"],
+        ["Warnings", "; ".join(b.warnings) or "none"],
     ]
-    if b.get("retired"):
-        r = b["retired"]
-        summary.append(["Retired", f"{r['at']} UTC by {r['by']}: {_text(r['reason'])}"])
+    if b.retired:
+        r = b.retired
+        summary.append(["Retired", f"{r.at} UTC by {r.by}: {_text(r.reason)}"])
     story.append(_pairs(summary, width, st))
 
     story.append(_p("Preparation", st.h1))
-    p = b["preparation"]
-    how = {"solid": f"{_text(p['solute_mass_g'])} g of solute"
-                    + (f" from lot {p['solute_lot']}" if p["solute_lot"] else ""),
-           "concentrate": f"{_text(p['concentrate_volume_ml'])} mL of concentrated reagent",
-           "dilution": f"{_text(p['aliquot_ml'])} mL of batch {_text(p['from_batch'])}"}
+    p = b.preparation
+    how = {"solid": f"{_text(p.solute_mass_g)} g of solute"
+                    + (f" from lot {p.solute_lot}" if p.solute_lot else ""),
+           "concentrate": f"{_text(p.concentrate_volume_ml)} mL of concentrated reagent",
+           "dilution": f"{_text(p.aliquot_ml)} mL of batch {_text(p.from_batch)}"}
     prep = [
-        ["Made", f"{p['made_at']} UTC by {p['made_by']} (recorded {p['recorded_at']})"],
-        ["From", f"{how.get(p['method'], p['method'])}, made up to {p['volume_ml']} mL"],
-        ["Instruments", f"flask {_text(p['flask'])}, balance {_text(p['balance'])}"],
-        ["Theoretical", f"{_num(p['theoretical_normality'], 5)} eq/L from how it was made"],
-        ["Notes", _text(p["notes"])],
-        ["Diluted into", ", ".join(b.get("diluted_into") or []) or "-"],
+        ["Made", f"{p.made_at} UTC by {p.made_by} (recorded {p.recorded_at})"],
+        ["From", f"{how.get(p.method, p.method)}, made up to {p.volume_ml} mL"],
+        ["Instruments", f"flask {_text(p.flask)}, balance {_text(p.balance)}"],
+        ["Theoretical", f"{_num(p.theoretical_normality, 5)} eq/L from how it was made"],
+        ["Notes", _text(p.notes)],
+        ["Diluted into", ", ".join(b.diluted_into) or "-"],
     ]
     story.append(_pairs(prep, width, st))
 
     story.append(_p("Control chart", st.h1))
-    if data["chart"]:
-        story.append(_chart(data, width))
-        if len(data["chart"]) > 1:
-            story.append(_chart(data, width, detail=True))
+    if data.chart:
+        story.append(control_chart(data, width))
+        if len(data.chart) > 1:
+            story.append(control_chart(data, width, detail=True))
     else:
         story.append(_p("No standardization yet.", st.body))
 
-    story.append(_p(f"Standardizations ({len(b['runs'])})", st.h1))
-    if not b["runs"]:
+    story.append(_p(f"Standardizations ({len(b.runs)})", st.h1))
+    if not b.runs:
         story.append(_p("None recorded.", st.body))
-    for run in b["runs"]:
+    for run in b.runs:
         story.extend(_run_section(run, unit_word, st, width))
 
     story.append(_p("Corrections and reasons", st.h1))
-    if data["corrections"]:
+    if data.corrections:
         story.append(_table(["audit #", "at (UTC)", "by", "action", "record", "reason"],
-                            [[e["seq"], e["at"], e["actor"], e["action"], e["record"],
-                              e["reason"]] for e in data["corrections"]],
+                            [[e.seq, e.at, e.actor, e.action, e.record, e.reason]
+                             for e in data.corrections],
                             [w * width for w in (0.08, 0.17, 0.1, 0.15, 0.13, 0.37)], st))
     else:
         story.append(_p("No record of this batch was changed with a reason.", st.body))
 
     story.append(_p("Uses", st.h1))
-    if b["uses"]:
+    if b.uses:
         story.append(_table(["at (UTC)", "by", "volume (mL)", "purpose"],
-                            [[u["at"], u["by"], _text(u["volume_ml"]), _text(u["purpose"])]
-                             for u in b["uses"]],
+                            [[u.at, u.by, _text(u.volume_ml), _text(u.purpose)]
+                             for u in b.uses],
                             [w * width for w in (0.2, 0.15, 0.12, 0.53)], st))
     else:
         story.append(_p("No use recorded.", st.body))
 
     story.append(_p("Labels printed", st.h1))
-    if data["labels"]:
+    if data.labels:
         story.append(_table(["printed (UTC)", "by", "showed run", "factor", "size", "copies"],
                             [[lp["printed_at"], lp["printed_by"], _text(lp["run"]),
                               _fixed(lp["factor"], 4), lp["size"], lp["copies"]]
-                             for lp in data["labels"]],
+                             for lp in data.labels],
                             [w * width for w in (0.22, 0.14, 0.16, 0.14, 0.2, 0.14)], st))
     else:
         story.append(_p("No label printed.", st.body))
 
     story.append(_p("Audit trail", st.h1))
-    audit = data["audit"]
+    audit = data.audit
     verdict = ("verified: the hash chain is intact and every record matches its last "
-               "audited state" if audit["ok"] else
-               f"NOT VERIFIED: {len(audit['problems'])} problem(s): "
-               + "; ".join(audit["problems"][:10]))
-    story.append(_p(f"{audit['events']} events; {verdict}. Head hash "
-                    f"{audit['head_hash'] or '-'}.", st.body))
+               "audited state" if audit.ok else
+               f"NOT VERIFIED: {len(audit.problems)} problem(s): "
+               + "; ".join(audit.problems[:10]))
+    story.append(_p(f"{audit.events} events; {verdict}. Head hash "
+                    f"{audit.head_hash or '-'}.", st.body))
     story.append(Spacer(1, 8))
     story.append(_p("Figures are rounded for reading; the record keeps every value unrounded "
                     "(prepbook export). Safety: follow the substance's safety data sheet, local "
@@ -420,16 +343,16 @@ def _story(data: dict[str, Any], st: _Styles, width: float, unit_word: str) -> l
     return story
 
 
-def _build(data: dict[str, Any], make_story: Any, pagesize: tuple[float, float],
+def _build(data: ReportData, make_story: Any, pagesize: tuple[float, float],
            margin: float) -> tuple[bytes, int]:
     from reportlab.platypus import SimpleDocTemplate
 
-    b = data["batch"]
-    audit = data["audit"]
-    footer_left = (f"audit chain head {audit['head_hash'] or '-'} "
-                   f"({'verified' if audit['ok'] else 'NOT VERIFIED'})")
-    footer_right = f"printed {data['printed_at']} UTC"
-    header = f"prepbook batch record  {b['batch']}"
+    b = data.batch
+    audit = data.audit
+    footer_left = (f"audit chain head {audit.head_hash or '-'} "
+                   f"({'verified' if audit.ok else 'NOT VERIFIED'})")
+    footer_right = f"printed {data.printed_at} UTC"
+    header = f"prepbook batch record  {b.batch}"
 
     class _Doc(SimpleDocTemplate):
         pages = 0
@@ -451,7 +374,7 @@ def _build(data: dict[str, Any], make_story: Any, pagesize: tuple[float, float],
         buffer = io.BytesIO()
         doc = _Doc(buffer, pagesize=pagesize, leftMargin=margin, rightMargin=margin,
                    topMargin=margin + 4, bottomMargin=margin + 4, invariant=1,
-                   title=f"prepbook batch record {b['batch']}", author="prepbook",
+                   title=f"prepbook batch record {b.batch}", author="prepbook",
                    creator="prepbook")
         doc.total = total  # type: ignore[attr-defined]
         doc.build(make_story(), onFirstPage=decorate, onLaterPages=decorate)

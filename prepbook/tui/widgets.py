@@ -2,14 +2,18 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from datetime import datetime
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from rich.text import Text
 from textual.app import App
 from textual.widgets import Static
 
 from prepbook.tui import words
+
+if TYPE_CHECKING:
+    from prepbook.lab.watch import BatchTrend, FactorPoint
 
 MARKS = {"accepted": "●", "awaiting-review": "◇", "rejected": "×"}
 
@@ -35,19 +39,19 @@ def status_cell(app: App, status: str | None) -> Text:
     return Text(words.run_words(status), style=colour(app, name.get(status or "", "foreground")))
 
 
-def check_cell(app: App, check: dict[str, Any]) -> Text:
+def check_cell(app: App, check: Mapping[str, Any]) -> Text:
     if check.get("passed"):
         name = "success"
     else:
         name = "error" if check.get("severity") == "fail" else "warning"
-    return Text(words.check_words(check), style=f"bold {colour(app, name)}".strip())
+    return Text(words.check_words(dict(check)), style=f"bold {colour(app, name)}".strip())
 
 
 def _t(iso: str) -> datetime:
     return datetime.fromisoformat(iso)
 
 
-def draw_trend(points: list[dict[str, Any]], window: tuple[float, float], *, width: int,
+def draw_trend(points: Sequence[FactorPoint], window: tuple[float, float], *, width: int,
                height: int = 9) -> Text:
     """A scatter of factor against date with the acceptance window, axes labelled.
 
@@ -60,7 +64,7 @@ def draw_trend(points: list[dict[str, Any]], window: tuple[float, float], *, wid
         out.append("no standardization yet: nothing to chart")
         return out
     low, high = window
-    values = [p["factor"] for p in points]
+    values = [p.factor for p in points]
     vmin, vmax = min(values), max(values)
     span = vmax - vmin or max(abs(vmax) * 0.002, 1e-6)
     lo, hi = vmin - span * 0.15, vmax + span * 0.15
@@ -70,7 +74,7 @@ def draw_trend(points: list[dict[str, Any]], window: tuple[float, float], *, wid
             lo, hi = min(lo, limit - span * 0.05), max(hi, limit + span * 0.05)
     label_w = 8
     plot_w = max(width - label_w - 3, 10)
-    times = [_t(p["at"]) for p in points]
+    times = [_t(p.at) for p in points]
     t0, t1 = min(times), max(times)
     total = (t1 - t0).total_seconds() or 1.0
 
@@ -89,8 +93,8 @@ def draw_trend(points: list[dict[str, Any]], window: tuple[float, float], *, wid
             drawn_limits.append((r, f"{name} limit {limit:g}"))
     for p, t in zip(points, times, strict=True):
         c = round((t - t0).total_seconds() / total * (plot_w - 1)) if len(points) > 1 else 0
-        r = row_of(p["factor"])
-        grid[r][c] = MARKS.get(p["status"], "·")
+        r = row_of(p.factor)
+        grid[r][c] = MARKS.get(p.status, "·")
         styles.pop((r, c), None)
     out.append("factor = N / N nominal, by date of standardization (UTC)\n", style="bold")
     if high > hi:
@@ -124,11 +128,11 @@ def draw_trend(points: list[dict[str, Any]], window: tuple[float, float], *, wid
 class TrendChart(Static):
     """The factor of every run of a batch over time, redrawn at the width it is given."""
 
-    def __init__(self, data: dict[str, Any] | None = None, **kw: Any) -> None:
+    def __init__(self, data: BatchTrend | None = None, **kw: Any) -> None:
         super().__init__("", **kw)
         self.data = data
 
-    def set_data(self, data: dict[str, Any]) -> None:
+    def set_data(self, data: BatchTrend) -> None:
         self.data = data
         self._draw()
 
@@ -139,18 +143,18 @@ class TrendChart(Static):
         if self.data is None:
             return
         width = self.size.width or 72
-        chart = draw_trend(self.data["points"], tuple(self.data["window"]), width=width)
-        t = self.data.get("trend") or {}
+        chart = draw_trend(self.data.points, self.data.window, width=width)
+        t = self.data.trend
         chart.append("\n")
-        if t.get("slope_percent_per_30d") is not None:
-            low, high = t["slope_ci_percent_per_30d"]
+        if t.slope_percent_per_30d is not None and t.slope_ci_percent_per_30d is not None:
+            low, high = t.slope_ci_percent_per_30d
             chart.append(
-                f"  least-squares trend of the {len(t['history'])} accepted runs: "
-                f"{t['slope_percent_per_30d']:+.3f} % of nominal per 30 days "
+                f"  least-squares trend of the {len(t.history)} accepted runs: "
+                f"{t.slope_percent_per_30d:+.3f} % of nominal per 30 days "
                 f"(95 % CI {low:+.3f} to {high:+.3f})")
-            if t.get("forecast_leaves_window"):
+            if t.forecast_leaves_window:
                 chart.append(f"; the fitted line leaves the window on "
-                             f"{t['forecast_leaves_window']}")
-        if t.get("note"):
-            chart.append(f"\n  {t['note']}")
+                             f"{t.forecast_leaves_window}")
+        if t.note:
+            chart.append(f"\n  {t.note}")
         self.update(chart)

@@ -85,7 +85,7 @@ def one_batch_database(path: Path) -> str:
     lots.add_lot(db, actor="ada", material="KHP", code="KHP-1", purity="99.98", purity_u="0.05",
                  expires="2099-01-01", certificate="invented", dried="2020-01-01")
     code = batches.make_batch(db, actor="ada", spec="NaOH-0.1N", volume="1000",
-                              solute_mass="4.0400", balance="BAL-1")["batch"]
+                              solute_mass="4.0400", balance="BAL-1").batch
     run = runs.standardize(db, actor="ada", batch=code, lot="KHP-1", balance="BAL-1",
                            burette="BUR-1", replicates=["0.8123:39.80", "0.8201:40.15",
                                                         "0.8150:39.90"])

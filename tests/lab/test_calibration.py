@@ -35,7 +35,7 @@ def overdue_lab(bench: Cli) -> Cli:  # noqa: F811
 
 
 def _warnings(db: object) -> list[str]:
-    return [w for item in board.board(db) for w in item["warnings"]]  # type: ignore[arg-type]
+    return [w for item in board.board(db) for w in item.warnings]  # type: ignore[arg-type]
 
 
 def test_calibration_moves_the_due_date_and_clears_the_warning(overdue_lab: Cli) -> None:

@@ -11,6 +11,8 @@ from pypdf import PdfReader
 
 from prepbook.errors import InvalidInput, NotFound
 from prepbook.lab import auditing, batches, reports
+from prepbook.render import report as drawn
+from prepbook.render.report import WrittenReport
 from prepbook.store.engine import open_database
 
 
@@ -28,11 +30,17 @@ def _text(pdf: Path) -> str:
     return " ".join(" ".join((p.extract_text() or "").split()) for p in reader.pages)
 
 
+def _write(db, code: str, output: Path, paper: str = "a4") -> WrittenReport:
+    """What ``prepbook report`` does: check the file, gather the data, draw and write."""
+    target = drawn.checked_target(str(output), paper=paper, replace=False)
+    return drawn.write_report(reports.gather(db, code), target, paper=paper)
+
+
 def _busiest(db) -> str:
     from prepbook.lab import board
 
-    return max((b["batch"] for b in board.board(db)),
-               key=lambda c: len(batches.show_batch(db, c)["runs"]))
+    return max((b.batch for b in board.board(db)),
+               key=lambda c: len(batches.show_batch(db, c).runs))
 
 
 def test_the_report_shows_every_run_replicate_review_and_the_head_hash(demo: Path,
@@ -40,23 +48,23 @@ def test_the_report_shows_every_run_replicate_review_and_the_head_hash(demo: Pat
     db = open_database(str(demo))
     code = _busiest(db)
     out = tmp_path / "r.pdf"
-    res = reports.write_report(db, code=code, output=str(out))
+    res = _write(db, code, out)
     text = _text(out)
     shown = batches.show_batch(db, code)
     head = auditing.verify(db)["head_hash"]
-    assert res["head_hash"] == head and res["pages"] >= 2
+    assert res.head_hash == head and res.pages >= 2 and res.runs == len(shown.runs)
     for section in ("Preparation", "Control chart", "Standardizations", "Uncertainty budget",
                     "Corrections and reasons", "Uses", "Labels printed", "Audit trail"):
         assert section in text, section
-    assert shown["preparation"]["made_by"] in text and shown["spec_name"] in text
-    for run in shown["runs"]:
-        assert run["run"] in text
-        for rep in run["replicates"]:
-            assert rep["amount"] in text and rep["volume_ml"] in text
-        for review in run["reviews"]:
-            assert review["reviewer"] in text and review["signed_at"] in text
-    for use in shown["uses"]:
-        assert use["by"] in text
+    assert shown.preparation.made_by in text and shown.spec_name in text
+    for run in shown.runs:
+        assert run.run in text
+        for rep in run.replicates or ():
+            assert rep.amount in text and rep.volume_ml in text
+        for review in run.reviews:
+            assert review.reviewer in text and review.signed_at in text
+    for use in shown.uses:
+        assert use.by in text
     # The footer carries the head hash on every page, and the time of printing.
     reader = PdfReader(io.BytesIO(out.read_bytes()))
     for page in reader.pages:
@@ -70,16 +78,16 @@ def test_a_rejection_reason_appears_among_the_corrections(demo: Path, tmp_path: 
     from prepbook.lab import board
 
     for b in board.board(db):
-        shown = batches.show_batch(db, b["batch"])
-        rejected = [r for r in shown["runs"] if r["status"] == "rejected"]
+        shown = batches.show_batch(db, b.batch)
+        rejected = [r for r in shown.runs if r.status == "rejected"]
         if rejected:
             break
     else:  # pragma: no cover - the demo has a rejected run
         pytest.fail("no rejected run in the demo")
     out = tmp_path / "rej.pdf"
-    reports.write_report(db, code=shown["batch"], output=str(out))
+    _write(db, shown.batch, out)
     text = _text(out)
-    reason = " ".join(rejected[0]["reviews"][0]["reason"].split())
+    reason = " ".join((rejected[0].reviews[0].reason or "").split())
     assert reason[:40] in text and "REJECTED" in text
 
 
@@ -87,20 +95,23 @@ def test_the_control_chart_has_a_point_per_run_and_the_window(demo: Path) -> Non
     db = open_database(str(demo))
     code = _busiest(db)
     data = reports.gather(db, code)
-    runs = [r for r in data["batch"]["runs"] if r["factor"] is not None]
-    assert len(data["chart"]) == len(runs)
+    runs = [r for r in data.batch.runs if r.factor is not None]
+    assert len(data.chart) == len(runs)
     # The plotted concentration is the nominal times the factor (the spec's own unit).
-    for point, run in zip(data["chart"], runs, strict=True):
-        assert point["concentration"] == pytest.approx(data["window"]["nominal"] * run["factor"])
-    assert data["window"]["factor_low"] < 1 < data["window"]["factor_high"]
+    for point, run in zip(data.chart, runs, strict=True):
+        assert run.factor is not None
+        assert point.concentration == pytest.approx(data.window.nominal * run.factor)
+    assert data.window.factor_low < 1 < data.window.factor_high
 
 
 def test_report_refusals_write_nothing(demo: Path, tmp_path: Path) -> None:
     db = open_database(str(demo))
     with pytest.raises(NotFound):
-        reports.write_report(db, code="NO-SUCH", output=str(tmp_path / "a.pdf"))
+        _write(db, "NO-SUCH", tmp_path / "a.pdf")
     with pytest.raises(InvalidInput, match="does not exist"):
-        reports.write_report(db, code=_busiest(db), output=str(tmp_path / "no" / "a.pdf"))
+        _write(db, _busiest(db), tmp_path / "no" / "a.pdf")
     with pytest.raises(InvalidInput, match="paper"):
-        reports.write_report(db, code=_busiest(db), output=str(tmp_path / "a.pdf"), paper="a3")
+        _write(db, _busiest(db), tmp_path / "a.pdf", paper="a3")
+    with pytest.raises(InvalidInput, match="should end in .pdf"):
+        _write(db, _busiest(db), tmp_path / "a.txt")
     assert list(tmp_path.iterdir()) == []

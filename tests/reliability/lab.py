@@ -56,12 +56,12 @@ def build_lab(target: str) -> str:
                                    readability=None)
         made = batches.make_batch(db, actor="ben", spec="NaOH-0.1N", volume="1000",
                                   solute_mass="4.1", balance="BAL-1")
-        run = runs.standardize(db, actor="ben", batch=made["batch"], replicates=REPS,
+        run = runs.standardize(db, actor="ben", batch=made.batch, replicates=REPS,
                                lot="KHP-0001", balance="BAL-1", burette="BUR-1",
                                temperature="21.0")
         runs.review(db, actor="cleo", run=run.run, accept=True, reason=None,
                     passphrase=PASSPHRASE.format("cleo"))
-        return made["batch"]
+        return made.batch
     finally:
         db.dispose()
 
@@ -75,8 +75,8 @@ def bench_cycle(db: Any, actor: str, in_service: str, token: str) -> None:
 
     made = retry.call(batches.make_batch, db, actor=actor, spec="NaOH-0.1N", volume="1000",
                       solute_mass="4.1", balance="BAL-1", notes=token)
-    acknowledge(f"batch {made['batch']}")
-    run = retry.call(runs.standardize, db, actor=actor, batch=made["batch"], replicates=REPS,
+    acknowledge(f"batch {made.batch}")
+    run = retry.call(runs.standardize, db, actor=actor, batch=made.batch, replicates=REPS,
                      lot="KHP-0001", balance="BAL-1", burette="BUR-1", temperature="21.0")
     acknowledge(f"run {run.run}")
     retry.call(batches.use_batch, db, actor=actor, code=in_service, volume="25",

@@ -64,7 +64,7 @@ def lab_target(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, 
         try:
             made = batches.make_batch(db, actor="ben", spec="NaOH-0.1N", volume="1000",
                                       solute_mass="4.1", balance="BAL-1")
-            run = runs.standardize(db, actor="ben", batch=made["batch"], replicates=REPS,
+            run = runs.standardize(db, actor="ben", batch=made.batch, replicates=REPS,
                                    lot="KHP-0001", balance="BAL-1", burette="BUR-1")
         finally:
             db.dispose()

@@ -100,15 +100,15 @@ async def test_board_shows_every_demo_batch_and_filters_by_code(lab: Path) -> No
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         shown = board_states(app)
-        assert list(shown) == [it["batch"] for it in expected]  # same batches, same order
+        assert list(shown) == [it.batch for it in expected]  # same batches, same order
         for it in expected:  # states in words, as the service names them
             word = {"in-service": "in service", "awaiting-review": "to review",
-                    "due": "DUE", "expired": "EXPIRED", "new": "new"}[it["state"]]
-            assert word in shown[it["batch"]]
+                    "due": "DUE", "expired": "EXPIRED", "new": "new"}[it.state]
+            assert word in shown[it.batch]
         await pilot.press("slash", *"naoh")
         await pilot.pause(0.4)  # the board filters once typing pauses
-        assert sorted(board_states(app)) == sorted(it["batch"] for it in expected
-                                                   if "naoh" in it["batch"].lower())
+        assert sorted(board_states(app)) == sorted(it.batch for it in expected
+                                                   if "naoh" in it.batch.lower())
 
 
 @pytest.mark.asyncio
@@ -219,7 +219,7 @@ async def test_asks_who_is_acting_and_notices_writes_from_another_bench(lab: Pat
                                   volume="1000", solute_mass="4.10")
         assert app.check_for_changes() is True
         await pilot.pause()
-        assert "new" in board_states(app)[made["batch"]]
+        assert "new" in board_states(app)[made.batch]
 
 
 def test_command_line_start_up_does_not_import_textual() -> None:

@@ -27,14 +27,14 @@ def test_head_moves_with_every_write_and_batch_events_are_its_history(built) -> 
     made = batches.make_batch(db, actor="ines", spec="NaOH-0.1N", volume="1000",
                               solute_mass="4.10")
     assert watch.head_seq(db) == head + 1
-    events = watch.batch_events(db, made["batch"])
+    events = watch.batch_events(db, made.batch)
     assert [e["action"] for e in events] == ["batch.make"]
     naoh = watch.batch_events(db, due_naoh)
-    runs = batches.show_batch(db, due_naoh)["runs"]
+    runs = batches.show_batch(db, due_naoh).runs
     # one event per run recorded, per replicate, per review and per status change
     assert sum(e["action"] == "run.record" for e in naoh) == len(runs)
     assert sum(e["action"] == "replicate.record" for e in naoh) == sum(
-        len(r["replicates"]) for r in runs)
+        len(r.replicates or ()) for r in runs)
     assert [e["seq"] for e in naoh] == sorted(e["seq"] for e in naoh)
 
 
@@ -44,8 +44,9 @@ def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(built) ->
     db, code = built
     t = watch.batch_trend(db, code)
     shown = batches.show_batch(db, code)
-    assert [p["factor"] for p in t["points"]] == [r["factor"] for r in shown["runs"]]
-    spec = next(s for s in specs.list_specs(db) if s["code"] == shown["spec"])
-    assert t["window"] == [spec["factor_low"], spec["factor_high"]]
+    assert [p.factor for p in t.points] == [r.factor for r in shown.runs]
+    spec = next(s for s in specs.list_specs(db) if s["code"] == shown.spec)
+    assert t.window == (spec["factor_low"], spec["factor_high"])
     # the demo's NaOH loses strength to carbon dioxide: the fitted slope is negative
-    assert t["trend"]["slope_ci_percent_per_30d"][1] < 0
+    assert t.trend.slope_ci_percent_per_30d is not None
+    assert t.trend.slope_ci_percent_per_30d[1] < 0

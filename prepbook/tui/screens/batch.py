@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-import inspect
-from typing import Any
+from collections.abc import Callable
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Group, RenderableType
 from rich.text import Text
@@ -15,10 +15,11 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
-from prepbook.tui.screens.common import has_service, run_block, safety, small_table
+from prepbook.tui.screens.common import run_block, safety, small_table
 from prepbook.tui.widgets import TrendChart, colour, state_cell
 
-LABELS, REPORTS = "prepbook.lab.labels", "prepbook.lab.reports"
+if TYPE_CHECKING:
+    from prepbook.lab.batch_records import BatchRecord
 
 
 class BatchScreen(Screen[None]):
@@ -37,7 +38,7 @@ class BatchScreen(Screen[None]):
     def __init__(self, code: str) -> None:
         super().__init__()
         self.code = code
-        self.data: dict[str, Any] | None = None
+        self.data: BatchRecord | None = None
         self._events_loaded = False
 
     def compose(self) -> ComposeResult:
@@ -56,17 +57,6 @@ class BatchScreen(Screen[None]):
     def on_mount(self) -> None:
         self.reload()
 
-    # -- which actions exist here ------------------------------------------------------------
-    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
-
-        if action == "label":
-            return has_service(LABELS)
-        if action == "report":
-            return has_service(REPORTS)
-        if action == "retire":
-            return self._retire_service() is not None
-        return True
-
     # -- data -------------------------------------------------------------------------------
     def reload(self) -> None:
         from prepbook.lab import batches, watch
@@ -79,69 +69,69 @@ class BatchScreen(Screen[None]):
             return
         d = self.data
         self.query_one("#topline", Static).update(Text.assemble(
-            ("prepbook ", "bold"), "batch  ", (d["batch"], "bold"), f"  {d['spec_name']}  ",
-            state_cell(self.app, d["state"]),
+            ("prepbook ", "bold"), "batch  ", (d.batch, "bold"), f"  {d.spec_name}  ",
+            state_cell(self.app, d.state),
             f"  ·  acting as {self.app.who()}"))  # type: ignore[attr-defined]
         self.query_one("#chain-body", Static).update(self.chain(d))
         trend = watch.batch_trend(db, self.code)
         self.query_one("#chart", TrendChart).set_data(trend)
         pts = small_table("run", "date (UTC)", "status", "factor", "change %", "",
                           right=(3, 4))
-        limit = trend["trend"].get("drift_limit_percent")
-        for p in trend["points"]:
-            ch = p["change_percent"]
-            pts.add_row(p["run"], words.when(p["at"]), words.run_words(p["status"]),
-                        words.fixed(p["factor"], 5), "-" if ch is None else f"{ch:+.3f}",
-                        f"beyond the drift limit {limit:g} %" if p["beyond_drift_limit"]
+        limit = trend.trend.drift_limit_percent
+        for p in trend.points:
+            ch = p.change_percent
+            pts.add_row(p.run, words.when(p.at), words.run_words(p.status),
+                        words.fixed(p.factor, 5), "-" if ch is None else f"{ch:+.3f}",
+                        f"beyond the drift limit {limit:g} %" if p.beyond_drift_limit
                         else "")
         self.query_one("#trend-points", Static).update(
-            Group(Text(f"\nacceptance window {trend['window'][0]:g} to "
-                       f"{trend['window'][1]:g} (spec {d['spec']}); change % is between "
+            Group(Text(f"\nacceptance window {trend.window[0]:g} to "
+                       f"{trend.window[1]:g} (spec {d.spec}); change % is between "
                        "consecutive accepted runs"), pts))
         if self._events_loaded:
             self.load_events()
 
-    def chain(self, d: dict[str, Any]) -> RenderableType:
+    def chain(self, d: BatchRecord) -> RenderableType:
         parts: list[RenderableType] = []
         warn = colour(self.app, "warning")
         parts.append(Text.assemble(
-            ("now  ", "bold"), f"N = {words.sig(d['normality'])} eq/L (latest accepted run, at "
+            ("now  ", "bold"), f"N = {words.sig(d.normality)} eq/L (latest accepted run, at "
             "its temperature)  ·  factor "
-            f"{words.fixed(d['factor'])} to nominal {d['nominal']:g} {d['unit']}  ·  "
-            f"restandardize by {d['restandardize_by'] or '-'}  ·  expires {d['expires']}"))
-        for w in d["warnings"]:
+            f"{words.fixed(d.factor)} to nominal {d.nominal:g} {d.unit}  ·  "
+            f"restandardize by {d.restandardize_by or '-'}  ·  expires {d.expires}"))
+        for w in d.warnings:
             parts.append(Text(f"  ! {w}", style=warn))
-        if d.get("retired"):
-            r = d["retired"]
-            parts.append(Text(f"  retired {words.when(r['at'])} by {r['by']}: {r['reason']}"))
-        p = d["preparation"]
+        if d.retired:
+            r = d.retired
+            parts.append(Text(f"  retired {words.when(r.at)} by {r.by}: {r.reason}"))
+        p = d.preparation
         parts.append(Text("\npreparation", style="bold"))
-        how = {"solid": f"{p['solute_mass_g']} g of solute"
-                        + (f" from lot {p['solute_lot']}" if p["solute_lot"] else ""),
-               "concentrate": f"{p['concentrate_volume_ml']} mL of concentrated reagent",
-               "dilution": f"{p['aliquot_ml']} mL of batch {p['from_batch']}"}[p["method"]]
+        how = {"solid": f"{p.solute_mass_g} g of solute"
+                        + (f" from lot {p.solute_lot}" if p.solute_lot else ""),
+               "concentrate": f"{p.concentrate_volume_ml} mL of concentrated reagent",
+               "dilution": f"{p.aliquot_ml} mL of batch {p.from_batch}"}[p.method]
         parts.append(Text(
-            f"  {how}, made up to {p['volume_ml']} mL in flask {p['flask'] or '-'}"
-            f" (balance {p['balance'] or '-'})\n  made {words.when(p['made_at'])} by "
-            f"{p['made_by']}, recorded {words.when(p['recorded_at'])};  theoretical N "
-            f"{words.sig(p['theoretical_normality'])}"
-            + (f"\n  notes: {p['notes']}" if p["notes"] else "")))
-        if d.get("diluted_into"):
-            parts.append(Text(f"  diluted into: {', '.join(d['diluted_into'])}"))
+            f"  {how}, made up to {p.volume_ml} mL in flask {p.flask or '-'}"
+            f" (balance {p.balance or '-'})\n  made {words.when(p.made_at)} by "
+            f"{p.made_by}, recorded {words.when(p.recorded_at)};  theoretical N "
+            f"{words.sig(p.theoretical_normality)}"
+            + (f"\n  notes: {p.notes}" if p.notes else "")))
+        if d.diluted_into:
+            parts.append(Text(f"  diluted into: {', '.join(d.diluted_into)}"))
         parts.append(Text("\nsafety and storage", style="bold"))
-        parts.append(safety(self.app, d.get("hazard"), [], d.get("storage")))
-        parts.append(Text(f"standardizations ({len(d['runs'])})", style="bold"))
-        if not d["runs"]:
+        parts.append(safety(self.app, d.hazard, [], d.storage))
+        parts.append(Text(f"standardizations ({len(d.runs)})", style="bold"))
+        if not d.runs:
             parts.append(Text("  none yet: press s to record one"))
-        for run in reversed(d["runs"]):  # newest first
-            parts.append(run_block(self.app, run, d["unit"]))
+        for run in reversed(d.runs):  # newest first
+            parts.append(run_block(self.app, run, d.unit))
             parts.append(Text(""))
-        parts.append(Text(f"uses ({len(d['uses'])})", style="bold"))
-        if d["uses"]:
+        parts.append(Text(f"uses ({len(d.uses)})", style="bold"))
+        if d.uses:
             t = small_table("when", "by", "mL", "purpose", right=(2,))
-            for u in d["uses"]:
-                t.add_row(words.when(u["at"]), u["by"], u["volume_ml"] or "-",
-                          u["purpose"] or "")
+            for u in d.uses:
+                t.add_row(words.when(u.at), u.by, u.volume_ml or "-",
+                          u.purpose or "")
             parts.append(t)
         else:
             parts.append(Text("  none recorded"))
@@ -201,22 +191,8 @@ class BatchScreen(Screen[None]):
             [("volume", "volume taken (mL, optional)", "e.g. 50"),
              ("purpose", "purpose (optional)", "what it was used for")]), done)
 
-    def _retire_service(self) -> Any:
-        from prepbook.lab import batches
-
-        fn = getattr(batches, "retire_batch", None)
-        if fn is None and has_service("prepbook.lab.history"):
-            from prepbook.lab import history
-
-            fn = getattr(history, "retire", None)
-        return fn
-
-    def _call(self, fn: Any, **given: Any) -> Any:
-        """Call a service with the arguments it declares (it may take fewer)."""
-        params = inspect.signature(fn).parameters
-        return fn(**{k: v for k, v in given.items() if k in params})
-
-    def _to_file(self, title: str, default: str, work: Any) -> None:
+    def _to_file(self, title: str, default: str, work: Callable[[str], str]) -> None:
+        """Ask for a file name, then ``work(name)`` writes it and says where."""
         from prepbook.tui.screens.dialogs import FieldsScreen
 
         def done(values: dict[str, str] | None) -> None:
@@ -227,7 +203,7 @@ class BatchScreen(Screen[None]):
             except PrepbookError as exc:
                 self.say(f"not written: {exc}", bad=True)
                 return
-            self.say(f"written: {res.get('file')}")
+            self.say(f"written: {res}")
             self.app.wrote()  # type: ignore[attr-defined]
 
         self.app.push_screen(FieldsScreen(title, [("file", f"PDF file (blank: {default})",
@@ -239,39 +215,42 @@ class BatchScreen(Screen[None]):
 
         app: Any = self.app
         self._to_file(f"Label for {self.code}", labels.default_file_name(self.code),
-                      lambda out: labels.print_label(app.db, actor=app.actor or "",
-                                                     code=self.code, output=out))
+                      lambda out: str(labels.print_label(app.db, actor=app.actor or "",
+                                                         code=self.code, output=out)["file"]))
 
     def action_report(self) -> None:
         from prepbook.lab import reports
+        from prepbook.render import report as drawn
 
         app: Any = self.app
-        self._to_file(f"Traceability report of {self.code}", f"{self.code}-report.pdf",
-                      lambda out: reports.write_report(app.db, code=self.code, output=out))
+
+        def write(out: str) -> str:
+            target = drawn.checked_target(out, paper="a4", replace=False)
+            return drawn.write_report(reports.gather(app.db, self.code), target).file
+
+        self._to_file(f"Traceability report of {self.code}", f"{self.code}-report.pdf", write)
 
     def action_retire(self) -> None:
         from prepbook.tui.screens.dialogs import FieldsScreen, PassphraseScreen
 
-        fn = self._retire_service()
-        if fn is None:
-            return
-        params = inspect.signature(fn).parameters
-
         def with_reason(values: dict[str, str] | None) -> None:
             if values is None:
                 return
-            if "passphrase" in params:
-                self.app.push_screen(
-                    PassphraseScreen(self.app.actor or "",  # type: ignore[attr-defined]
-                                     f"retire batch {self.code}: {values['reason']}"),
-                    lambda secret: secret is not None and finish(values["reason"], secret))
-            else:
-                finish(values["reason"], None)
 
-        def finish(reason: str, secret: str | None) -> None:
+            def signed(secret: str | None) -> None:
+                if secret is not None:
+                    finish(values["reason"], secret)
+
+            self.app.push_screen(
+                PassphraseScreen(self.app.actor or "",  # type: ignore[attr-defined]
+                                 f"retire batch {self.code}: {values['reason']}"), signed)
+
+        def finish(reason: str, secret: str) -> None:
+            from prepbook.lab import history
+
             try:
-                self._call(fn, db=self.app.db, actor=self.app.actor,  # type: ignore[attr-defined]
-                           code=self.code, batch=self.code, reason=reason, passphrase=secret)
+                history.retire(self.app.db, actor=self.app.actor or "",  # type: ignore[attr-defined]
+                               code=self.code, reason=reason, passphrase=secret)
             except PrepbookError as exc:
                 self.say(f"not retired: {exc}", bad=True)
                 return

@@ -2,17 +2,21 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
+from textual.coordinate import Coordinate
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Select, Static
 
 from prepbook.tui import words
 from prepbook.tui.widgets import colour, state_cell
+
+if TYPE_CHECKING:
+    from prepbook.lab.board import BatchLife
 
 ALL = "*"
 
@@ -31,8 +35,8 @@ class BoardScreen(Screen[None]):
 
     def __init__(self) -> None:
         super().__init__()
-        self.items: list[dict[str, Any]] = []
-        self.shown: list[dict[str, Any]] = []
+        self.items: list[BatchLife] = []
+        self.shown: list[BatchLife] = []
         self._typing: Any = None
 
     def compose(self) -> ComposeResult:
@@ -64,7 +68,7 @@ class BoardScreen(Screen[None]):
 
         self.items = board.board(self.app.db)  # type: ignore[attr-defined]
         spec = self.query_one("#spec", Select)
-        specs = sorted({it["spec"] for it in self.items})
+        specs = sorted({it.spec for it in self.items})
         current = spec.value
         spec.set_options([(s, s) for s in specs])
         if isinstance(current, str) and current in specs:
@@ -76,24 +80,24 @@ class BoardScreen(Screen[None]):
         spec = self.query_one("#spec", Select).value
         state = self.query_one("#state", Select).value
         self.shown = [it for it in self.items
-                      if (not needle or needle in it["batch"].lower())
-                      and (not isinstance(spec, str) or it["spec"] == spec)
-                      and (not isinstance(state, str) or it["state"] == state)]
+                      if (not needle or needle in it.batch.lower())
+                      and (not isinstance(spec, str) or it.spec == spec)
+                      and (not isinstance(state, str) or it.state == state)]
         table = self.query_one("#board", DataTable)
         keep = self.selected()
         table.clear()
         warn = colour(self.app, "warning")
         for it in self.shown:
-            ws = it["warnings"]
+            ws = it.warnings
             note = Text(ws[0] + (f"  (+{len(ws) - 1} more)" if len(ws) > 1 else ""),
                         style=warn) if ws else Text("")
-            table.add_row(it["batch"], state_cell(self.app, it["state"]),
-                          Text(words.sig(it["normality"]), justify="right"),
-                          Text(words.fixed(it["factor"]), justify="right"),
-                          it["restandardize_by"] or "-", it["expires"], note, key=it["batch"])
-        if keep and keep in {it["batch"] for it in self.shown}:
+            table.add_row(it.batch, state_cell(self.app, it.state),
+                          Text(words.sig(it.normality), justify="right"),
+                          Text(words.fixed(it.factor), justify="right"),
+                          it.restandardize_by or "-", it.expires, note, key=it.batch)
+        if keep and keep in {it.batch for it in self.shown}:
             table.move_cursor(row=table.get_row_index(keep))
-        act = sum(1 for it in self.items if it["state"] in ("expired", "due", "awaiting-review"))
+        act = sum(1 for it in self.items if it.state in ("expired", "due", "awaiting-review"))
         filt = "" if len(self.shown) == len(self.items) else f" · {len(self.shown)} shown"
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "board  ·  ",
@@ -106,23 +110,23 @@ class BoardScreen(Screen[None]):
         if not self.shown or table.row_count == 0:
             return None
         try:
-            row = table.coordinate_to_cell_key((table.cursor_row, 0)).row_key
+            row = table.coordinate_to_cell_key(Coordinate(table.cursor_row, 0)).row_key
         except Exception:
             return None
         return str(row.value) if row is not None else None
 
     def show_detail(self) -> None:
         code = self.selected()
-        it = next((i for i in self.shown if i["batch"] == code), None)
+        it = next((i for i in self.shown if i.batch == code), None)
         detail = self.query_one("#board-detail", Static)
         if it is None:
             detail.update("no batch matches the filters" if self.items else
                           "no batches yet: press n to prepare one")
             return
-        lines = Text.assemble((it["batch"], "bold"), f"  {it['spec']}  ",
-                              state_cell(self.app, it["state"]),
-                              f"  last standardized {it['standardized_on'] or 'never'}")
-        for w in it["warnings"]:
+        lines = Text.assemble((it.batch, "bold"), f"  {it.spec}  ",
+                              state_cell(self.app, it.state),
+                              f"  last standardized {it.standardized_on or 'never'}")
+        for w in it.warnings:
             lines.append(f"\n  ! {w}")
         detail.update(lines)
 

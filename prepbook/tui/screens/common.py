@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-import importlib.util
-from typing import Any
+from collections.abc import Mapping, Sequence
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Group, RenderableType
 from rich.table import Table
@@ -13,16 +13,11 @@ from textual.app import App
 from prepbook.tui import words
 from prepbook.tui.widgets import check_cell, colour, status_cell
 
+if TYPE_CHECKING:
+    from prepbook.lab.batch_records import BudgetRow, RunRecord
+
 DEFER = ("Follow the substance's safety data sheet, local regulations and the "
          "laboratory's own procedures.")
-
-
-def has_service(module: str) -> bool:
-    """Whether an optional service module (labels, reports ...) is installed."""
-    try:
-        return importlib.util.find_spec(module) is not None
-    except (ImportError, ValueError):
-        return False
 
 
 def small_table(*columns: str, right: tuple[int, ...] = ()) -> Table:
@@ -32,7 +27,7 @@ def small_table(*columns: str, right: tuple[int, ...] = ()) -> Table:
     return t
 
 
-def safety(app: App, hazard: dict[str, Any] | None, cautions: list[str] | tuple[str, ...],
+def safety(app: App, hazard: Mapping[str, Any] | None, cautions: Sequence[str],
            storage: str | None = None) -> RenderableType:
     """Hazard statements and cautions, always ending with the deference to the SDS."""
     out = Text()
@@ -70,54 +65,54 @@ def _is_20(text: str | None) -> bool:
         return False
 
 
-def run_block(app: App, run: dict[str, Any], unit: str = "N") -> RenderableType:
+def run_block(app: App, run: RunRecord, unit: str = "N") -> RenderableType:
     """One standardization: how it was done, its replicates, checks, budget and reviews."""
     head = Text.assemble(
-        (f"run {run['run']}", "bold"), "  ", status_cell(app, run["status"]),
-        f"  {run['method']}  performed {words.when(run['performed_at'])} by {run['analyst']}"
-        f"  (recorded {words.when(run['recorded_at'])})")
-    against = (f"lot {run['lot']} ({run['lot_certificate'] or 'no certificate on record'})"
-               if run.get("lot") else f"against batch {run.get('reference_batch')}")
-    how = Text(f"  {against};  balance {run.get('balance') or '-'};  burette "
-               f"{run.get('burette') or '-'};  {run.get('temperature_c') or '-'} °C;  blank "
-               f"{run.get('blank_ml') or '0'} mL;  indicator {run.get('indicator') or '-'}")
-    at_20 = "" if _is_20(run.get("temperature_c")) else \
-        f", {words.sig(run['normality_20c'])} at 20 °C"
-    res = Text(f"  N = {words.sig(run['normality'])} eq/L at {run.get('temperature_c')} °C"
+        (f"run {run.run}", "bold"), "  ", status_cell(app, run.status),
+        f"  {run.method}  performed {words.when(run.performed_at)} by {run.analyst}"
+        f"  (recorded {words.when(run.recorded_at)})")
+    against = (f"lot {run.lot} ({run.lot_certificate or 'no certificate on record'})"
+               if run.lot else f"against batch {run.reference_batch}")
+    how = Text(f"  {against};  balance {run.balance or '-'};  burette "
+               f"{run.burette or '-'};  {run.temperature_c or '-'} °C;  blank "
+               f"{run.blank_ml or '0'} mL;  indicator {run.indicator or '-'}")
+    at_20 = "" if _is_20(run.temperature_c) else \
+        f", {words.sig(run.normality_20c)} at 20 °C"
+    res = Text(f"  N = {words.sig(run.normality)} eq/L at {run.temperature_c} °C"
                f"{at_20};  factor "
-               f"{words.fixed(run['factor'])};  RSD {words.sig(run['rsd_percent'], 3)} %;  "
-               f"U = {words.sig(run['U'], 2)} eq/L (k = {words.sig(run['k'], 2)})")
+               f"{words.fixed(run.factor)};  RSD {words.sig(run.rsd_percent, 3)} %;  "
+               f"U = {words.sig(run.U, 2)} eq/L (k = {words.sig(run.k, 2)})")
     parts: list[RenderableType] = [head, how, res]
-    reps = run.get("replicates") or []
+    reps = run.replicates or ()
     if reps:
-        amount = "aliquot mL" if run["method"] == "secondary" else "mass g"
+        amount = "aliquot mL" if run.method == "secondary" else "mass g"
         t = small_table("#", "v", amount, "titrant mL", "N (eq/L)", "note", right=(2, 3, 4))
         for r in reps:
             note = []
-            if not r["current"]:
+            if not r.current:
                 note.append("superseded")
-            if r["excluded"]:
-                note.append(f"excluded: {r['reason']}")
-            if r.get("outlier"):
+            if r.excluded:
+                note.append(f"excluded: {r.reason}")
+            if r.outlier:
                 note.append("outlier (Grubbs)")
-            t.add_row(str(r["position"]), str(r["version"]), r["amount"], r["volume_ml"],
-                      words.sig(r["normality"]), "; ".join(note),
-                      style="dim" if not r["current"] else "")
+            t.add_row(str(r.position), str(r.version), r.amount, r.volume_ml,
+                      words.sig(r.normality), "; ".join(note),
+                      style="dim" if not r.current else "")
         parts.append(t)
-    checks = run.get("checks") or []
+    checks = run.checks
     if checks:
         ct = small_table("check", "outcome", "why")
         for c in checks:
             ct.add_row(c["name"], check_cell(app, c), c["message"])
         parts.append(ct)
-    for rv in run.get("reviews") or []:
-        parts.append(Text(f"  {rv['decision']}ed by {rv['reviewer']} on "
-                          f"{words.when(rv['signed_at'])}"
-                          + (f": {rv['reason']}" if rv.get("reason") else "")))
+    for rv in run.reviews:
+        parts.append(Text(f"  {rv.decision}ed by {rv.reviewer} on "
+                          f"{words.when(rv.signed_at)}"
+                          + (f": {rv.reason}" if rv.reason else "")))
     return Group(*parts)
 
 
-def budget_table(budget: list[dict[str, Any]]) -> RenderableType:
+def budget_table(budget: Sequence[BudgetRow] | Sequence[Mapping[str, Any]]) -> RenderableType:
     if not budget:
         return Text("no uncertainty budget")
     t = small_table("quantity", "value", "unit", "u", "u rel.", "share %", right=(1, 3, 4, 5))

@@ -6,7 +6,7 @@ recording is ``lab.batches.make_batch``, the service behind ``prepbook batch mak
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
 from rich.text import Text
@@ -20,6 +20,9 @@ from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import safety
 from prepbook.tui.widgets import colour
+
+if TYPE_CHECKING:
+    from prepbook.lab.board import BatchLife
 
 METHODS = [("weighed solid", "solid"), ("concentrated reagent", "concentrate"),
            ("dilution of a stock batch", "dilution")]
@@ -35,7 +38,7 @@ class PrepareScreen(Screen[None]):
     def __init__(self) -> None:
         super().__init__()
         self.specs: dict[str, dict[str, Any]] = {}
-        self.board: list[dict[str, Any]] = []
+        self.board: list[BatchLife] = []
         self.made: str | None = None
 
     def compose(self) -> ComposeResult:
@@ -107,11 +110,11 @@ class PrepareScreen(Screen[None]):
             spec = self.specs[event.value]
             self.query_one("#target", Input).value = (
                 f"{spec['nominal']:g}" if spec["unit"] == "N" else "")
-            parents = [it for it in self.board if it["state"] in ("in-service", "due")
-                       and self.specs.get(it["spec"], {}).get("solute") == spec["solute"]
-                       and it["spec"] != spec["code"]]
+            parents = [it for it in self.board if it.state in ("in-service", "due")
+                       and self.specs.get(it.spec, {}).get("solute") == spec["solute"]
+                       and it.spec != spec["code"]]
             self.query_one("#parent", Select).set_options(
-                [(f"{it['batch']} · N {words.sig(it['normality'])}", it["batch"])
+                [(f"{it.batch} · N {words.sig(it.normality)}", it.batch)
                  for it in parents])
         if event.select.id == "method":
             self.show_method()
@@ -179,14 +182,14 @@ class PrepareScreen(Screen[None]):
                     found = liquid.cautions
                 else:
                     parent = self.value("parent")
-                    stock = next((it for it in self.board if it["batch"] == parent), None)
-                    if stock is None or stock["normality"] is None:
+                    stock = next((it for it in self.board if it.batch == parent), None)
+                    if stock is None or stock.normality is None:
                         out.append("  choose a standardized stock batch\n")
                     else:
-                        d = calcs.dilute(stock_text=repr(stock["normality"]),
+                        d = calcs.dilute(stock_text=repr(stock.normality),
                                          normality_text=target, volume_text=volume)
                         out.append(f"  take {words.sig(d.stock_ml, 4)} mL of {parent} "
-                                   f"(N {words.sig(stock['normality'])}) and make up to "
+                                   f"(N {words.sig(stock.normality)}) and make up to "
                                    f"{volume} mL (about {words.sig(d.water_ml, 4)} mL of "
                                    "water)\n")
                 cautions += [c for c in found if c not in cautions]
@@ -226,17 +229,17 @@ class PrepareScreen(Screen[None]):
         except PrepbookError as exc:
             live.update(Text(f"not recorded, nothing was written: {exc}", style=err))
             return
-        self.made = res["batch"]
-        out = Text.assemble((f"recorded batch {res['batch']}\n", "bold"))
-        out.append(f"  theoretical N {words.sig(res['theoretical_normality'])} (factor "
-                   f"{words.fixed(res['theoretical_factor'])}); expires {res['expires']}\n"
+        self.made = res.batch
+        out = Text.assemble((f"recorded batch {res.batch}\n", "bold"))
+        out.append(f"  theoretical N {words.sig(res.theoretical_normality)} (factor "
+                   f"{words.fixed(res.theoretical_factor)}); expires {res.expires}\n"
                    "  It is new until standardized: open it from the board and press s.\n")
-        for w in res["warnings"]:
+        for w in res.warnings:
             out.append(f"  ! {w}\n", style=colour(self.app, "warning"))
         spec = self.specs[code]
-        live.update(Group(out, safety(self.app, spec.get("hazard"), res["cautions"],
+        live.update(Group(out, safety(self.app, spec.get("hazard"), res.cautions,
                                       spec.get("storage"))))
         for w in self.query(Input):
             w.disabled = True
-        self.app.notify(f"batch {res['batch']} recorded", title="recorded")
+        self.app.notify(f"batch {res.batch} recorded", title="recorded")
         self.app.wrote()  # type: ignore[attr-defined]

@@ -28,6 +28,7 @@ from prepbook.tui.widgets import check_cell, colour, state_cell
 
 if TYPE_CHECKING:
     from prepbook.lab.runs import RunResult
+    from prepbook.lab.batch_records import BatchRecord
 
 START_ROWS = 3
 
@@ -47,7 +48,7 @@ class RecordScreen(Screen[None]):
         self.recorded: str | None = None
         self.last: RunResult | None = None
         self._timer: Timer | None = None
-        self.chain: dict[str, Any] = {}
+        self.chain: BatchRecord | None = None
 
     # -- layout ---------------------------------------------------------------------------------
     def compose(self) -> ComposeResult:
@@ -94,11 +95,11 @@ class RecordScreen(Screen[None]):
 
         db = self.app.db  # type: ignore[attr-defined]
         try:
-            self.chain = batches.show_batch(db, self.code)
+            self.chain = chain = batches.show_batch(db, self.code)
         except PrepbookError as exc:
             self.query_one("#live", Static).update(Text(str(exc)))
             return
-        spec = next((s for s in specs.list_specs(db) if s["code"] == self.chain["spec"]), {})
+        spec = next((s for s in specs.list_specs(db) if s["code"] == chain.spec), {})
         standard = spec.get("standard")
         lot_rows = sorted(lots.list_lots(db), key=lambda lt: (lt["material"] != standard,
                                                               lt["expired"], lt["code"]))
@@ -108,9 +109,9 @@ class RecordScreen(Screen[None]):
              f"lot:{lt['code']}") for lt in lot_rows]
         from prepbook.lab import board
 
-        options += [(f"against batch {it['batch']} · N {words.sig(it['normality'])}",
-                     f"batch:{it['batch']}") for it in board.board(db)
-                    if it["state"] in ("in-service", "due") and it["batch"] != self.code]
+        options += [(f"against batch {it.batch} · N {words.sig(it.normality)}",
+                     f"batch:{it.batch}") for it in board.board(db)
+                    if it.state in ("in-service", "due") and it.batch != self.code]
         src = self.query_one("#source", Select)
         src.set_options(options)
         first = next((v for _, v in options if v.startswith("lot:") and standard
@@ -131,7 +132,7 @@ class RecordScreen(Screen[None]):
             self.query_one("#indicator", Input).value = spec["indicator"]
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "standardize  ", (self.code, "bold"),
-            f"  {self.chain['spec_name']}  ", state_cell(self.app, self.chain["state"]),
+            f"  {chain.spec_name}  ", state_cell(self.app, chain.state),
             f"  ·  standard {standard or '-'}  ·  acting as {self.app.who()}"))  # type: ignore[attr-defined]
         self.query_one("#m1", Input).focus()
         self.preview()
@@ -272,7 +273,7 @@ class RecordScreen(Screen[None]):
     def preview(self) -> None:
         from prepbook.lab import runs
 
-        if self.recorded or not self.chain:
+        if self.recorded or self.chain is None:
             return
         reps, problems, waiting = self.entries()
         live = self.query_one("#live", Static)

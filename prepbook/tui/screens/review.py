@@ -98,7 +98,7 @@ class ReviewScreen(Screen[None]):
             if r is None:
                 return None
             chain = batches.show_batch(self.app.db, r.batch)  # type: ignore[attr-defined]
-            full = next((x for x in chain["runs"] if x["run"] == code), None)
+            full = next((x for x in chain.runs if x.run == code), None)
             if full is None:
                 return None
             self._details[code] = {"run": full, "batch": chain}
@@ -118,12 +118,12 @@ class ReviewScreen(Screen[None]):
             return
         run, chain = d["run"], d["batch"]
         head = Text.assemble(
-            ("batch ", "bold"), f"{chain['batch']}  {chain['spec_name']}  ·  nominal "
-            f"{chain['nominal']:g} {chain['unit']}  ·  latest accepted factor "
-            f"{words.fixed(chain['factor']) if chain['factor'] is not None else 'none yet'}\n")
-        body.update(Group(head, run_block(self.app, run, chain["unit"]), Text(""),
+            ("batch ", "bold"), f"{chain.batch}  {chain.spec_name}  ·  nominal "
+            f"{chain.nominal:g} {chain.unit}  ·  latest accepted factor "
+            f"{words.fixed(chain.factor) if chain.factor is not None else 'none yet'}\n")
+        body.update(Group(head, run_block(self.app, run, chain.unit), Text(""),
                           Text("uncertainty budget", style="bold"),
-                          budget_table(run.get("budget") or [])))
+                          budget_table(run.budget)))
 
     def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
         self.show()

@@ -1,0 +1,186 @@
+"""The typed records of a batch: made, shown whole (``batch show``), drawn from.
+
+``batches`` builds them; the command line, the terminal app and the report read them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+from typing import Any, TypedDict
+
+from prepbook.lab.batch_facts import UseNeedingReview
+
+
+@dataclass(frozen=True)
+class MadeBatch:
+    """A batch just recorded: its code and the strength expected from how it was made."""
+
+    batch: str
+    spec: str
+    method: str
+    theoretical_normality: float
+    theoretical_factor: float
+    unit: str
+    made_at: str
+    expires: str
+    cautions: tuple[str, ...]
+    warnings: tuple[str, ...]
+
+
+class Check(TypedDict):
+    """An acceptance check of a run, as the run's stored result keeps it."""
+
+    name: str
+    passed: bool
+    severity: str
+    message: str
+
+
+class BudgetRow(TypedDict):
+    """One row of a run's uncertainty budget, as the run's stored result keeps it."""
+
+    quantity: str
+    symbol: str
+    value: float
+    unit: str
+    u: float
+    u_relative: float
+    contribution: float
+    share_percent: float
+
+
+@dataclass(frozen=True)
+class ReplicateRow:
+    """One version of one replicate; ``normality`` and ``outlier`` of current ones only."""
+
+    position: int
+    version: int
+    current: bool
+    amount: str
+    volume_ml: str
+    excluded: bool
+    reason: str | None
+    normality: float | None
+    outlier: bool
+    recorded_by: str
+    recorded_at: str
+
+
+@dataclass(frozen=True)
+class ReviewRow:
+    reviewer: str
+    decision: str
+    reason: str | None
+    signed_at: str
+
+
+@dataclass(frozen=True)
+class RunRecord:
+    """A standardization as plain data (``replicates`` None when not asked for)."""
+
+    run: str
+    method: str
+    status: str
+    performed_at: str
+    recorded_at: str
+    analyst: str
+    lot: str | None
+    lot_certificate: str | None
+    reference_batch: str | None
+    balance: str | None
+    burette: str | None
+    temperature_c: str | None
+    blank_ml: str | None
+    indicator: str | None
+    normality: float | None
+    normality_20c: float | None
+    factor: float | None
+    sd: float | None
+    rsd_percent: float | None
+    u: float | None
+    U: float | None
+    k: float | None
+    verdict: str | None
+    checks: tuple[Check, ...]
+    budget: tuple[BudgetRow, ...]
+    reviews: tuple[ReviewRow, ...]
+    replicates: tuple[ReplicateRow, ...] | None
+
+    def to_json(self) -> dict[str, Any]:
+        """The run as plain data for JSON; without replicates when they were not read."""
+        out = asdict(self)
+        if self.replicates is None:
+            del out["replicates"]
+        return out
+
+
+@dataclass(frozen=True)
+class Preparation:
+    method: str
+    volume_ml: str
+    solute_mass_g: str | None
+    solute_lot: str | None
+    concentrate_volume_ml: str | None
+    from_batch: str | None
+    aliquot_ml: str | None
+    flask: str | None
+    balance: str | None
+    theoretical_normality: float | None
+    made_at: str
+    recorded_at: str
+    made_by: str
+    notes: str | None
+
+
+@dataclass(frozen=True)
+class Retired:
+    at: str
+    by: str | None
+    reason: str | None
+
+
+@dataclass(frozen=True)
+class UseRow:
+    at: str
+    by: str
+    volume_ml: str | None
+    purpose: str | None
+
+
+@dataclass(frozen=True)
+class BatchRecord:
+    """Everything about one batch (``batch show``): its life now, how it was made, every
+    run with its replicates and reviews, its uses and the uses in doubt."""
+
+    batch: str
+    spec: str
+    spec_name: str
+    nominal: float
+    unit: str
+    state: str
+    normality: float | None
+    factor: float | None
+    restandardize_by: str | None
+    expires: str
+    warnings: tuple[str, ...]
+    preparation: Preparation
+    retired: Retired | None
+    runs: tuple[RunRecord, ...]
+    uses: tuple[UseRow, ...]
+    diluted_into: tuple[str, ...]
+    uses_needing_review: tuple[UseNeedingReview, ...]
+    storage: str | None
+    hazard: dict[str, Any]
+
+
+@dataclass(frozen=True)
+class UseRecorded:
+    """A draw from a batch just recorded, with the strength it was used at."""
+
+    batch: str
+    used_at: str
+    used_by: str
+    volume_ml: str | None
+    purpose: str | None
+    normality: float | None
+    factor: float | None

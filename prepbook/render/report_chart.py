@@ -1,0 +1,132 @@
+"""The report's control chart: every run's concentration at 20 C over time, with its
+U bar and the spec's acceptance window (reportlab.graphics), black on white."""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+from typing import TYPE_CHECKING, Any
+
+from prepbook.render.labels import significant
+
+if TYPE_CHECKING:
+    from prepbook.lab.reports import ReportData
+
+
+def control_chart(data: ReportData, width: float, *, detail: bool = False) -> Any:
+    """Concentration at 20 C of every run over time, with U bars and the acceptance window.
+
+    ``detail`` scales the axis to the results and their U bars (the window lines are
+    drawn only where they fall inside), so drift and overlap can be seen."""
+    from reportlab.graphics.charts.lineplots import LinePlot
+    from reportlab.graphics.shapes import Drawing, String
+    from reportlab.graphics.widgets.markers import makeMarker
+    from reportlab.lib import colors
+
+    win = data.window
+    unit = "mol/L" if win.unit == "M" else "eq/L"
+    low = win.nominal * win.factor_low
+    high = win.nominal * win.factor_high
+    points = data.chart
+    values = [p.concentration + k * (p.U or 0) for p in points for k in (-1, 1)]
+    if detail:
+        span_low, span_high = min(values), max(values)
+        if span_high - span_low < 1e-12:
+            span_low, span_high = span_low * 0.999, span_high * 1.001
+    else:
+        span_low, span_high = min([low, *values]), max([high, *values])
+    pad = (span_high - span_low) * 0.08
+    y_min, y_max = span_low - pad, span_high + pad
+
+    def shown(v: float) -> bool:
+        return y_min <= v <= y_max
+
+    height = 110.0 if detail else 150.0
+    drawing = Drawing(width, height + 30)
+    plot = LinePlot()
+    plot.x, plot.y = 52, 28
+    plot.width, plot.height = width - 150, height - 10
+
+    def day(at: str) -> float:
+        moment = datetime.fromisoformat(at)
+        return moment.toordinal() + (moment.hour * 60 + moment.minute) / 1440
+
+    made = day(data.batch.preparation.made_at)
+    xs = [day(p.at) for p in points] or [made]
+    x0 = min([made, *xs]) - 2
+    x1 = max([*xs, made]) + 2
+    expires = data.batch.expires
+    if expires:
+        x1 = max(x1, date.fromisoformat(expires).toordinal() + 1)
+    series: list[list[tuple[float, float]]] = []
+    styles: list[dict[str, Any]] = []
+
+    def add(line: list[tuple[float, float]], **style: Any) -> None:
+        series.append(line)
+        styles.append(style)
+
+    for level, style in ((low, {"width": 0.8, "dash": (4, 2)}),
+                         (high, {"width": 0.8, "dash": (4, 2)}),
+                         (win.nominal, {"width": 0.4, "dash": (1, 2)})):
+        if shown(level):
+            add([(x0, level), (x1, level)], **style)
+    for p, x in zip(points, xs, strict=True):
+        if p.U is not None:
+            add([(x, p.concentration - p.U), (x, p.concentration + p.U)], width=0.8)
+    by_status = {"accepted": "FilledCircle", "rejected": "Cross", "awaiting-review": "Square"}
+    for status, marker in by_status.items():
+        pts = [(x, p.concentration) for p, x in zip(points, xs, strict=True)
+               if p.status == status]
+        if pts:
+            add(pts, width=0, marker=marker, accepted=status == "accepted")
+    accepted = [(x, p.concentration) for p, x in zip(points, xs, strict=True)
+                if p.status == "accepted"]
+    if len(accepted) > 1:
+        add(accepted, width=0.6)
+    plot.data = series
+    plot.joinedLines = 1
+    for i, style in enumerate(styles):
+        line = plot.lines[i]
+        line.strokeColor = colors.black
+        line.strokeWidth = style.get("width", 0.6)
+        if style.get("dash"):
+            line.strokeDashArray = style["dash"]
+        if style.get("marker"):
+            marker = makeMarker(style["marker"])
+            marker.size = 5
+            marker.fillColor = colors.black if style.get("accepted") else colors.white
+            marker.strokeColor = colors.black
+            line.symbol = marker
+            line.strokeWidth = 0
+            line.strokeColor = None
+    plot.yValueAxis.valueMin = y_min
+    plot.yValueAxis.valueMax = y_max
+    plot.yValueAxis.labelTextFormat = lambda v: significant(v, 5 if detail else 4)
+    plot.yValueAxis.labels.fontName = "Helvetica"
+    plot.yValueAxis.labels.fontSize = 7
+    plot.xValueAxis.valueMin = x0
+    plot.xValueAxis.valueMax = x1
+    plot.xValueAxis.labelTextFormat = lambda v: date.fromordinal(int(v)).isoformat()
+    plot.xValueAxis.labels.fontName = "Helvetica"
+    plot.xValueAxis.labels.fontSize = 7
+    plot.xValueAxis.labels.angle = 0
+    plot.xValueAxis.maximumTicks = 5
+    plot.xValueAxis.visibleGrid = 0
+    drawing.add(plot)
+    right = plot.x + plot.width + 6
+
+    def y_of(v: float) -> float:
+        lo, hi = plot.yValueAxis.valueMin, plot.yValueAxis.valueMax
+        return plot.y + (v - lo) / (hi - lo) * plot.height
+
+    for v, text in ((high, f"upper {significant(high, 4)} (factor {win.factor_high:g})"),
+                    (win.nominal, f"nominal {win.nominal:g}"),
+                    (low, f"lower {significant(low, 4)} (factor {win.factor_low:g})")):
+        if shown(v):
+            drawing.add(String(right, y_of(v) - 2.5, text, fontName="Helvetica", fontSize=6.5))
+    caption = (f"detail: the axis spans the results only; concentration at 20 °C ({unit})"
+               if detail else
+               f"concentration at 20 °C ({unit}); dashed: acceptance window; bars: U; "
+               "filled: accepted, square: to review, cross: rejected")
+    drawing.add(String(plot.x, plot.y + plot.height + 8, caption, fontName="Helvetica",
+                       fontSize=7))
+    return drawing
