@@ -402,7 +402,7 @@ class _History:
         if lot not in cache:
             from prepbook.lab import lots
 
-            cache.update({x["code"]: float(x["purity_percent"]) / 100
+            cache.update({x.code: float(x.purity_percent) / 100
                           for x in lots.list_lots(self.db)})
         return cache[lot]  # type: ignore[no-any-return]
 

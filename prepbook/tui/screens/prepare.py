@@ -78,18 +78,18 @@ class PrepareScreen(Screen[None]):
         from prepbook.lab import board, instruments, lots, specs
 
         db = self.app.db  # type: ignore[attr-defined]
-        self.specs = {s["code"]: s for s in specs.list_specs(db)}
+        self.specs = {s.code: s for s in specs.list_specs(db)}
         self.board = board.board(db)
-        self.query_one("#spec", Select).set_options([(f"{c} · {s['name']}", c)
+        self.query_one("#spec", Select).set_options([(f"{c} · {s.name}", c)
                                                      for c, s in self.specs.items()])
         self.query_one("#lot", Select).set_options(
-            [(f"{lt['code']} · {lt['material']} {lt['purity_percent']} %", lt["code"])
-             for lt in lots.list_lots(db) if not lt["expired"]])
+            [(f"{lt.code} · {lt.material} {lt.purity_percent} %", lt.code)
+             for lt in lots.list_lots(db) if not lt.expired])
         ins = instruments.list_instruments(db)
         for kind in ("flask", "balance"):
             self.query_one(f"#{kind}", Select).set_options(
-                [(i["code"] + (" · calibration OVERDUE" if i["overdue"] else ""), i["code"])
-                 for i in ins if i["kind"] == kind])
+                [(i.code + (" · calibration OVERDUE" if i.overdue else ""), i.code)
+                 for i in ins if i.kind == kind])
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "prepare a batch  ·  acting as ",
             self.app.who()))  # type: ignore[attr-defined]
@@ -106,10 +106,11 @@ class PrepareScreen(Screen[None]):
         if event.select.id == "spec" and isinstance(event.value, str):
             spec = self.specs[event.value]
             self.query_one("#target", Input).value = (
-                f"{spec['nominal']:g}" if spec["unit"] == "N" else "")
+                f"{spec.nominal:g}" if spec.unit == "N" else "")
             parents = [it for it in self.board if it["state"] in ("in-service", "due")
-                       and self.specs.get(it["spec"], {}).get("solute") == spec["solute"]
-                       and it["spec"] != spec["code"]]
+                       and it["spec"] in self.specs
+                       and self.specs[it["spec"]].solute == spec.solute
+                       and it["spec"] != spec.code]
             self.query_one("#parent", Select).set_options(
                 [(f"{it['batch']} · N {words.sig(it['normality'])}", it["batch"])
                  for it in parents])
@@ -141,30 +142,30 @@ class PrepareScreen(Screen[None]):
             return
         spec = self.specs[code]
         method = self.value("method")
-        out = Text.assemble((f"{spec['name']}\n", "bold"))
-        out.append(f"  nominal {spec['nominal']:g} {spec['unit']} · solute {spec['solute']} · "
-                   f"shelf life {spec['shelf_life_days']} days\n")
-        cautions: list[str] = list(spec.get("cautions") or [])
+        out = Text.assemble((f"{spec.name}\n", "bold"))
+        out.append(f"  nominal {spec.nominal:g} {spec.unit} · solute {spec.solute} · "
+                   f"shelf life {spec.shelf_life_days} days\n")
+        cautions: list[str] = list(spec.cautions)
         target, volume = self.value("target"), self.value("volume")
         err = colour(self.app, "error")
         out.append("\ncalculator\n", style="bold")
-        if spec["unit"] != "N" and not target:
+        if spec.unit != "N" and not target:
             out.append(f"  this spec is in mol/L: type the target normality (eq/L) for the "
-                       f"calculator, {spec['nominal']:g} M × the equivalents per mole of "
+                       f"calculator, {spec.nominal:g} M × the equivalents per mole of "
                        "the reaction\n")
         elif not (target and volume):
             out.append("  type the target normality and the final volume\n")
         else:
             try:
                 if method == "solid":
-                    r = calcs.solid(spec["solute"], normality_text=target, volume_text=volume,
+                    r = calcs.solid(spec.solute, normality_text=target, volume_text=volume,
                                     purity_text=self.value("purity") or "100")
                     out.append(f"  weigh {words.sig(r['mass_g'], 5)} g of {r['name']} "
                                f"({r['formula']}, M = {words.sig(r['molar_mass_g_per_mol'], 6)}"
                                f" g/mol, n = {r['n_eq_per_mol']:g} eq/mol, purity "
                                f"{r['purity_percent']:g} %) for {target} N in {volume} mL\n")
                 elif method == "concentrate":
-                    r = calcs.liquid(spec["solute"], normality_text=target, volume_text=volume)
+                    r = calcs.liquid(spec.solute, normality_text=target, volume_text=volume)
                     out.append(f"  measure {words.sig(r['volume_ml'], 4)} mL of {r['name']} "
                                f"({r['mass_fraction_percent']:g} % m/m, "
                                f"{r['density_g_per_ml']:g} g/mL, about "
@@ -190,8 +191,8 @@ class PrepareScreen(Screen[None]):
         out.append("  The calculator only advises: record what was actually weighed or "
                    "measured.\n", style="dim")
         out.append("\nsafety\n", style="bold")
-        live.update(Group(out, safety(self.app, spec.get("hazard"), cautions,
-                                      spec.get("storage"))))
+        live.update(Group(out, safety(self.app, spec.hazard, cautions,
+                                      spec.storage)))
 
     # -- recording ------------------------------------------------------------------------
     def action_submit(self) -> None:
@@ -229,8 +230,8 @@ class PrepareScreen(Screen[None]):
         for w in res["warnings"]:
             out.append(f"  ! {w}\n", style=colour(self.app, "warning"))
         spec = self.specs[code]
-        live.update(Group(out, safety(self.app, spec.get("hazard"), res["cautions"],
-                                      spec.get("storage"))))
+        live.update(Group(out, safety(self.app, spec.hazard, res["cautions"],
+                                      spec.storage)))
         for w in self.query(Input):
             w.disabled = True
         self.app.notify(f"batch {res['batch']} recorded", title="recorded")
