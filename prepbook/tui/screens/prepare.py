@@ -6,7 +6,7 @@ recording is ``lab.batches.make_batch``, the service behind ``prepbook batch mak
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
 from rich.text import Text
@@ -21,6 +21,9 @@ from prepbook.tui import words
 from prepbook.tui.screens.common import safety
 from prepbook.tui.widgets import colour
 
+if TYPE_CHECKING:
+    from prepbook.lab.specs import SpecInfo
+
 METHODS = [("weighed solid", "solid"), ("concentrated reagent", "concentrate"),
            ("dilution of a stock batch", "dilution")]
 # field id -> methods it belongs to
@@ -34,7 +37,7 @@ class PrepareScreen(Screen[None]):
 
     def __init__(self) -> None:
         super().__init__()
-        self.specs: dict[str, dict[str, Any]] = {}
+        self.specs: dict[str, SpecInfo] = {}
         self.board: list[dict[str, Any]] = []
         self.made: str | None = None
 

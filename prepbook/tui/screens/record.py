@@ -122,7 +122,7 @@ class RecordScreen(Screen[None]):
                                  else f" · due {i.due}"), i.code) for i in rows])
             live = [i for i in rows if not i.overdue]
             if len(live) >= 1:
-                self.query_one(f"#{kind}", Select).value = live[0]["code"]
+                self.query_one(f"#{kind}", Select).value = live[0].code
         if spec and spec.indicator:
             self.query_one("#indicator", Input).value = spec.indicator
         self.query_one("#topline", Static).update(Text.assemble(
