@@ -20,14 +20,9 @@ class Hazard(TypedDict, total=False):
 
 
 @dataclass(frozen=True)
-class BatchLabel:
-    """The label of a titrant bottle: its strength, dates and state when printed."""
+class Standing:
+    """A batch's state, accepted result and dates on a day, as its label shows them."""
 
-    code: str
-    spec: str
-    name: str
-    unit: str
-    nominal: float
     state: str
     run: str | None
     normality: float | None
@@ -36,6 +31,17 @@ class BatchLabel:
     standardized_on: str | None
     restandardize_by: str | None
     expires: str | None
+
+
+@dataclass(frozen=True)
+class BatchLabel(Standing):
+    """The label of a titrant bottle: its strength, dates and state when printed."""
+
+    code: str
+    spec: str
+    name: str
+    unit: str
+    nominal: float
     made_on: str
     made_by: str
     storage: str | None

@@ -23,7 +23,7 @@ from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.common import acting, by_code, iso, write
-from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel
+from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel, Standing
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, LabelPrint, Lot, Run
 
@@ -83,21 +83,6 @@ class LabelCurrent:
 
 
 @dataclass(frozen=True)
-class _Now:
-    """What a batch's label would show today."""
-
-    state: str
-    run: str | None
-    run_id: int | None
-    normality: float | None
-    factor: float | None
-    concentration: float | None
-    standardized_on: str | None
-    restandardize_by: str | None
-    expires: str | None
-
-
-@dataclass(frozen=True)
 class StaleLabel:
     """A bottle whose latest label no longer matches the record, and why."""
 
@@ -128,36 +113,32 @@ def default_file_name(code: str) -> str:
     return "label-" + re.sub(r"[^A-Za-z0-9._()+-]", "_", code) + ".pdf"
 
 
-def _current(session: Session, batch: Batch, today: date) -> _Now:
-    """What a label of ``batch`` shows today: its accepted result, dates and state."""
+def _current(session: Session, batch: Batch, today: date) -> tuple[Standing, int | None]:
+    """What a label of ``batch`` shows today (its accepted result, dates and state), and
+    the id of that accepted run."""
     from prepbook.lab import board
     from prepbook.lab.batches import current_normality
 
     life = board.batch_life(session, batch, today)
     n20, run = current_normality(session, batch)
-    view = spec_view.view(batch.spec)
-    concentration = view.nominal * run.factor if run is not None and run.factor else None
-    return _Now(
-        state=life["state"],
-        run=run.code if run is not None else None,
-        run_id=run.id if run is not None else None,
-        normality=n20,
-        factor=run.factor if run is not None else None,
-        concentration=concentration,
-        standardized_on=iso(run.performed_at.date()) if run is not None else None,
-        restandardize_by=life["restandardize_by"],
-        expires=life["expires"],
-    )
+    if run is None:
+        return Standing(state=life["state"], run=None, normality=n20, factor=None,
+                        concentration=None, standardized_on=None,
+                        restandardize_by=life["restandardize_by"],
+                        expires=life["expires"]), None
+    nominal = spec_view.view(batch.spec).nominal
+    return Standing(
+        state=life["state"], run=run.code, normality=n20, factor=run.factor,
+        concentration=nominal * run.factor if run.factor else None,
+        standardized_on=run.performed_at.date().isoformat(),
+        restandardize_by=life["restandardize_by"], expires=life["expires"]), run.id
 
 
-def _batch_content(batch: Batch, now: _Now, actor: str, today: date) -> BatchLabel:
+def _batch_content(batch: Batch, now: Standing, actor: str, today: date) -> BatchLabel:
     view = spec_view.view(batch.spec)
     return BatchLabel(
-        code=batch.code, spec=batch.spec.code, name=batch.spec.name, unit=view.unit,
-        nominal=view.nominal, state=now.state, run=now.run, normality=now.normality,
-        factor=now.factor, concentration=now.concentration,
-        standardized_on=now.standardized_on, restandardize_by=now.restandardize_by,
-        expires=now.expires, made_on=batch.made_at.date().isoformat(),
+        **asdict(now), code=batch.code, spec=batch.spec.code, name=batch.spec.name,
+        unit=view.unit, nominal=view.nominal, made_on=batch.made_at.date().isoformat(),
         made_by=batch.made_by, storage=view.storage,
         hazard=Hazard(signal_word=view.hazard.get("signal_word"),
                       statements=view.hazard.get("statements"),
@@ -206,10 +187,10 @@ def print_label(db: Database, *, actor: str, code: str, size: str, copies: int, 
             batch = _find_batch(s, code)
             if batch.retired_at is not None:
                 raise Refused(f"batch {batch.code} is retired; its bottle is not relabelled")
-            shows = _current(s, batch, now.date())
+            shows, run_id = _current(s, batch, now.date())
             content = _batch_content(batch, shows, user.name, now.date())
             row = LabelPrint(
-                batch_id=batch.id, run_id=shows.run_id, normality=shows.normality,
+                batch_id=batch.id, run_id=run_id, normality=shows.normality,
                 factor=shows.factor, standardized_on=_date(shows.standardized_on),
                 restandardize_by=_date(shows.restandardize_by), expires=_date(shows.expires))
         row.printed_at = now
@@ -258,12 +239,12 @@ def stale_labels(db: Database, today: date | None = None) -> list[StaleLabel]:
             batch = s.get(Batch, batch_id)
             if batch is None or batch.retired_at is not None:
                 continue
-            now = _current(s, batch, today)
+            now, run_id = _current(s, batch, today)
             shown = LabelShown(run=_run_code(s, lp.run_id), factor=lp.factor,
                                restandardize_by=iso(lp.restandardize_by),
                                expires=iso(lp.expires))
             reasons = []
-            if lp.run_id != now.run_id:
+            if lp.run_id != run_id:
                 reasons.append(f"the label shows {'run ' + shown.run if shown.run else 'no run'}"
                                f"; the current accepted run is {now.run or 'none'}")
             elif lp.factor != now.factor:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 from sqlalchemy import select
@@ -18,8 +18,8 @@ from prepbook.store.models import Spec
 
 
 @dataclass(frozen=True)
-class SpecView:
-    """What the services need of a spec, read from its stored JSON."""
+class SpecFields:
+    """A spec's identity, acceptance rules and intervals, read from its stored JSON."""
 
     code: str
     name: str
@@ -37,8 +37,14 @@ class SpecView:
     restandardize_days: int
     shelf_life_days: int
     storage: str | None
-    hazard: dict[str, Any] = field(default_factory=dict)
-    cautions: list[str] = field(default_factory=list)
+    hazard: dict[str, Any]
+    cautions: list[str]
+
+
+@dataclass(frozen=True)
+class SpecView(SpecFields):
+    """What the services need of a spec: its fields and the whole stored JSON."""
+
     data: dict[str, Any] = field(default_factory=dict)
 
     def to_spec_unit(self, normality: float, n_eq_per_mol: float) -> float:
@@ -90,40 +96,16 @@ def view(spec: Spec) -> SpecView:
 
 
 @dataclass(frozen=True)
-class SpecInfo:
+class SpecInfo(SpecFields):
     """A solution spec as the commands show it (the fields are the JSON keys)."""
 
-    code: str
-    name: str
-    solute: str
-    reaction: str | None
-    nominal: float
-    unit: str
-    standard: str | None
-    indicator: str | None
-    min_replicates: int
-    max_rsd_percent: float
-    factor_low: float
-    factor_high: float
-    drift_limit_percent: float
-    restandardize_days: int
-    shelf_life_days: int
-    storage: str | None
-    hazard: dict[str, Any]
-    cautions: list[str]
     builtin: bool
 
 
 def spec_info(spec: Spec) -> SpecInfo:
     v = view(spec)
-    return SpecInfo(
-        code=v.code, name=v.name, solute=v.solute, reaction=v.reaction, nominal=v.nominal,
-        unit=v.unit, standard=v.standard, indicator=v.indicator,
-        min_replicates=v.min_replicates, max_rsd_percent=v.max_rsd_percent,
-        factor_low=v.factor_low, factor_high=v.factor_high,
-        drift_limit_percent=v.drift_limit_percent,
-        restandardize_days=v.restandardize_days, shelf_life_days=v.shelf_life_days,
-        storage=v.storage, hazard=v.hazard, cautions=v.cautions, builtin=spec.builtin)
+    shared = {f.name: getattr(v, f.name) for f in fields(SpecFields)}
+    return SpecInfo(**shared, builtin=spec.builtin)
 
 
 def list_specs(db: Database) -> list[SpecInfo]:
