@@ -24,6 +24,7 @@ def export_table(db: Database, *, kind: str, fmt: str, output: str, since: str |
 
     fmt = fmt.lower()
     target = Path(output)
+    writing.check_format(target, fmt)
     files.check_target(target, replace=replace)  # before reading: a refusal reads nothing
     tab = exports.table(db, kind, since=since)
     neutralised = sum(1 for row in tab.rows for v in row if writing.neutralise(v) is not v)
