@@ -42,8 +42,8 @@ def add(
         output.emit_json(ins)
         return
     out = output.console()
-    out.print(f"{ins['kind']} [bold]{ins['code']}[/bold], calibration due {ins['due']}")
-    if ins["overdue"]:
+    out.print(f"{ins.kind} [bold]{ins.code}[/bold], calibration due {ins.due}")
+    if ins.overdue:
         out.print("[bold]warning:[/bold] its calibration is already overdue")
 
 
@@ -59,8 +59,8 @@ def list_(ctx: typer.Context,
         return
     output.console().print(output.table(
         "Instruments", ["code", "kind", "capacity", "tolerance", "readability", "due"],
-        [(r["code"], r["kind"], r["capacity"], r["tolerance"], r["readability"],
-          r["due"] + (" (overdue)" if r["overdue"] else "")) for r in rows]))
+        [(r.code, r.kind, r.capacity, r.tolerance, r.readability,
+          r.due + (" (overdue)" if r.overdue else "")) for r in rows]))
 
 
 @app.command("calibrate")
@@ -90,5 +90,5 @@ def calibrate(
         output.emit_json(ins)
         return
     output.console().print(
-        f"{ins['kind']} [bold]{ins['code']}[/bold] calibrated {ins['calibrated']}, "
-        f"now due {ins['due']} (was due {ins['previous_due']})")
+        f"{ins.kind} [bold]{ins.code}[/bold] calibrated {ins.calibrated}, "
+        f"now due {ins.due} (was due {ins.previous_due})")

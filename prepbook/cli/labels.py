@@ -3,11 +3,50 @@ labels that no longer match the record."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
+from pathlib import Path
+from typing import TYPE_CHECKING
+
 import typer
 
 from prepbook.cli import output
 from prepbook.cli.session import actor, database
 from prepbook.errors import InvalidInput
+
+if TYPE_CHECKING:
+    from prepbook.lab.database import Database
+    from prepbook.lab.label_content import LabelContent
+    from prepbook.lab.labels import LabelPrinted
+    from prepbook.render.labels import LabelLayout
+
+
+def print_label(db: Database, *, actor: str, code: str, output: str | None = None,
+                size: str | None = None, copies: int = 1, sheet: str | None = None,
+                lot: bool = False, replace: bool = False) -> LabelPrinted:
+    """Draw the PDF label of a batch (or, with ``lot``, of a lot), write it to ``output``
+    (default label-CODE.pdf) and record the print (the terminal app uses it too)."""
+    from prepbook.lab import labels
+    from prepbook.render import files, sizes
+    from prepbook.render import labels as drawing
+
+    label_size = sizes.find_size(size or sizes.DEFAULT_SIZE)
+    label_sheet = sizes.find_sheet(sheet) if sheet else None
+    target = Path(output) if output else Path(labels.default_file_name(code))
+    if target.suffix.lower() != ".pdf":
+        raise InvalidInput(f"{target} should end in .pdf")
+    files.check_target(target, replace=replace)
+
+    def deliver(content: LabelContent, record: Callable[[], None]) -> LabelLayout:
+        pdf, layout = drawing.label_pdf(content, label_size, copies=copies, sheet=label_sheet)
+        with files.staged(target, replace=replace) as (tmp, commit):
+            tmp.write_bytes(pdf)
+            record()
+            commit()  # the last step of the transaction: a failed move rolls the row back
+        return layout
+
+    return labels.print_label(db, actor=actor, code=code, size=label_size.name,
+                              sheet=label_sheet.name if label_sheet else None, copies=copies,
+                              file=str(files.absolute(target)), deliver=deliver, lot=lot)
 
 
 def label(
@@ -48,23 +87,22 @@ def label(
         out.print(output.table(
             f"Labels to replace: {len(rows)}",
             ["batch", "label printed", "by", "shows run", "factor", "why"],
-            [(r["batch"], r["printed_at"], r["printed_by"], r["shown"]["run"] or "-",
-              output.fixed(r["shown"]["factor"], 4), "; ".join(r["reasons"])) for r in rows],
+            [(r.batch, r.printed_at, r.printed_by, r.shown.run or "-",
+              output.fixed(r.shown.factor, 4), "; ".join(r.reasons)) for r in rows],
             no_wrap=(0, 1)))
         return
     if code is None:
         raise InvalidInput("give a batch code (or a lot code with --lot), or --stale")
-    res = labels.print_label(database(ctx), actor=actor(ctx), code=code, output=out_file,
-                             size=size, copies=copies, sheet=sheet, lot=lot, replace=replace)
+    res = print_label(database(ctx), actor=actor(ctx), code=code, output=out_file, size=size,
+                      copies=copies, sheet=sheet, lot=lot, replace=replace)
     if as_json:
         output.emit_json(res)
         return
     out = output.console()
-    shows = (f", factor {res['factor']:.4f} from run {res['run']}" if res.get("factor")
-             else "")
-    n = res["copies"]
-    out.print(f"{n} {res['kind']} label{'s' if n != 1 else ''} for [bold]{res['code']}[/bold] "
-              f"({res['size']}{', on ' + res['sheet'] + ' sheets' if res['sheet'] else ''}"
-              f"{shows}) written to {output.escape(res['file'])}")
-    for note in res["notes"]:
+    shows = f", factor {res.factor:.4f} from run {res.run}" if res.factor else ""
+    n = res.copies
+    out.print(f"{n} {res.kind} label{'s' if n != 1 else ''} for [bold]{res.code}[/bold] "
+              f"({res.size}{', on ' + res.sheet + ' sheets' if res.sheet else ''}"
+              f"{shows}) written to {output.escape(res.file)}")
+    for note in res.notes:
         out.print(f"note: {output.escape(note)}")

@@ -43,9 +43,9 @@ def add(
         output.emit_json(lot)
         return
     out = output.console()
-    out.print(f"lot [bold]{lot['code']}[/bold] of {lot['material']}, purity "
-              f"{lot['purity_percent']} %, expires {lot['expires']}")
-    if lot["expired"]:
+    out.print(f"lot [bold]{lot.code}[/bold] of {lot.material}, purity "
+              f"{lot.purity_percent} %, expires {lot.expires}")
+    if lot.expired:
         out.print("[bold]warning:[/bold] this lot is already past its expiry date")
 
 
@@ -61,6 +61,6 @@ def list_(ctx: typer.Context,
         return
     output.console().print(output.table(
         "Lots", ["code", "material", "purity %", "u %", "expires", "dried", "certificate"],
-        [(r["code"], r["material"], r["purity_percent"], r["purity_u_percent"],
-          r["expires"] + (" (expired)" if r["expired"] else ""), r["dried_on"],
-          r["certificate"]) for r in rows]))
+        [(r.code, r.material, r.purity_percent, r.purity_u_percent,
+          r.expires + (" (expired)" if r.expired else ""), r.dried_on,
+          r.certificate) for r in rows]))

@@ -22,6 +22,6 @@ def backup(
     if as_json:
         output.emit_json(report)
         return
-    typer.echo(f"copied {report['database']} to {report['backup']} "
-               f"({report['bytes']} bytes, {report['events']} audit events)")
-    typer.echo(f"check the copy with: prepbook --db {report['backup']} audit verify")
+    typer.echo(f"copied {report.database} to {report.backup} "
+               f"({report.bytes} bytes, {report.events} audit events)")
+    typer.echo(f"check the copy with: prepbook --db {report.backup} audit verify")

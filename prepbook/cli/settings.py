@@ -33,8 +33,8 @@ def show(ctx: typer.Context,
         return
     output.console().print(output.table(
         "Settings", ["key", "value", "default", "what it does", "changed"],
-        [(r["key"], r["value"], r["default"], r["help"],
-          f"{r['changed_at']} by {r['changed_by']}" if r["changed_at"] else "")
+        [(r.key, r.value, r.default, r.help,
+          f"{r.changed_at} by {r.changed_by}" if r.changed_at else "")
          for r in rows]))
 
 
@@ -56,4 +56,4 @@ def set_(
     secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
     res = settings.set_value(database(ctx), actor=actor(ctx), key=key, value=value,
                              reason=reason, passphrase=secret)
-    output.console().print(f"{res['key']} = {res['value']} (by {res['changed_by']})")
+    output.console().print(f"{res.key} = {res.value} (by {res.changed_by})")

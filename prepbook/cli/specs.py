@@ -28,9 +28,9 @@ def list_(ctx: typer.Context,
         "Solution specs",
         ["code", "name", "standard", "indicator", "RSD max %", "factor window",
          "restandardize (d)", "shelf life (d)"],
-        [(r["code"], r["name"], r["standard"] or "-", r["indicator"] or "-",
-          f"{r['max_rsd_percent']:g}", f"{r['factor_low']:.3f}-{r['factor_high']:.3f}",
-          r["restandardize_days"], r["shelf_life_days"]) for r in rows],
+        [(r.code, r.name, r.standard or "-", r.indicator or "-",
+          f"{r.max_rsd_percent:g}", f"{r.factor_low:.3f}-{r.factor_high:.3f}",
+          r.restandardize_days, r.shelf_life_days) for r in rows],
         right=(4, 6, 7)))
 
 
@@ -87,4 +87,4 @@ def add(
     if as_json:
         output.emit_json(sp)
     else:
-        output.console().print(f"added spec [bold]{sp['code']}[/bold] ({sp['name']})")
+        output.console().print(f"added spec [bold]{sp.code}[/bold] ({sp.name})")

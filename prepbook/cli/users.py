@@ -40,7 +40,7 @@ def add(
     if as_json:
         output.emit_json(user)
     else:
-        output.console().print(f"added {user['role']} [bold]{user['name']}[/bold]")
+        output.console().print(f"added {user.role} [bold]{user.name}[/bold]")
 
 
 @app.command("list")
@@ -57,7 +57,7 @@ def list_(
         return
     output.console().print(output.table(
         "Users", ["name", "role", "active", "added", "by"],
-        [(u["name"], u["role"], "yes" if u["active"] else "no", u["created_at"], u["created_by"])
+        [(u.name, u.role, "yes" if u.active else "no", u.created_at, u.created_by)
          for u in users]))
 
 
@@ -72,8 +72,8 @@ def _manage(ctx: typer.Context, name: str, reason: str, passphrase_stdin: bool, 
     if as_json:
         output.emit_json(user)
     else:
-        output.console().print(f"{verb}d {user['name']}" if verb != "unlock"
-                               else f"unlocked {user['name']}")
+        output.console().print(f"{verb}d {user.name}" if verb != "unlock"
+                               else f"unlocked {user.name}")
 
 
 _REASON = typer.Option(..., "--reason", metavar="TEXT", help="Why (kept in the audit trail).")

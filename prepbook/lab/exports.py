@@ -7,8 +7,8 @@ they were typed (text); computed values are the unrounded floats of the record.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from datetime import date, datetime, time
-from pathlib import Path
 from typing import Any
 
 from sqlalchemy import select
@@ -129,32 +129,34 @@ _QUERIES = {"batches": _batches, "runs": _runs, "replicates": _replicates, "uses
             "audit": _audit}
 
 
-def table(db: Database, kind: str, *, since: str | None = None
-          ) -> tuple[list[str], list[list[Any]]]:
+@dataclass(frozen=True)
+class Table:
+    """One export: its columns and rows, read in one transaction."""
+
+    kind: str
+    columns: list[str]
+    rows: list[list[Any]]
+    since: str | None
+
+
+@dataclass(frozen=True)
+class Exported:
+    """What `prepbook export` wrote (the fields are the JSON keys)."""
+
+    export: str
+    format: str
+    file: str
+    rows: int
+    columns: list[str]
+    neutralised_cells: int
+    since: str | None
+
+
+def table(db: Database, kind: str, *, since: str | None = None) -> Table:
     """The columns and rows of one export, read in one transaction."""
     if kind not in KINDS:
         raise InvalidInput(f"unknown export {kind!r}; one of {', '.join(KINDS)}")
     since_at = datetime.combine(parse_date(since, "--since"), time()) if since else None
     with db.session(write=False) as s:
-        return _QUERIES[kind](s, since_at)
-
-
-def export(db: Database, *, kind: str, fmt: str, output: str, since: str | None = None,
-           replace: bool = False) -> dict[str, Any]:
-    """Write one export to ``output``; returns where and how many rows."""
-    from prepbook.render import exports, files
-
-    fmt = fmt.lower()
-    if kind not in KINDS:
-        raise InvalidInput(f"unknown export {kind!r}; one of {', '.join(KINDS)}")
-    if fmt not in exports.FORMATS:
-        raise InvalidInput(f"unknown format {fmt!r}; one of {', '.join(exports.FORMATS)}")
-    target = Path(output)
-    if target.suffix.lower() != f".{fmt}":
-        raise InvalidInput(f"{target} should end in .{fmt} for --format {fmt}")
-    files.check_target(target, replace=replace)
-    cols, rows = table(db, kind, since=since)
-    neutralised = sum(1 for row in rows for v in row if exports.neutralise(v) is not v)
-    path = exports.write_table(target, fmt, kind, cols, rows, replace=replace)
-    return {"export": kind, "format": fmt, "file": str(path), "rows": len(rows),
-            "columns": cols, "neutralised_cells": neutralised, "since": since}
+        cols, rows = _QUERIES[kind](s, since_at)
+    return Table(kind=kind, columns=cols, rows=rows, since=since)

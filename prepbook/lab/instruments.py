@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
+from dataclasses import asdict, dataclass
 from datetime import date, datetime
-from typing import Any
 
 from sqlalchemy import select
 
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_code, parse_date, parse_number, parse_text, utc_now
-from prepbook.lab.common import acting, by_code, iso, write
+from prepbook.lab.common import acting, by_code, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import INSTRUMENT_KINDS, Instrument
@@ -18,24 +18,42 @@ UNITS = {"balance": "g", "burette": "mL", "flask": "mL", "pipette": "mL",
          "thermometer": "C", "meter": ""}
 
 
-def instrument_dict(ins: Instrument, today: date | None = None) -> dict[str, Any]:
+@dataclass(frozen=True)
+class InstrumentInfo:
+    """An instrument as the commands show it (the fields are the JSON keys)."""
+
+    code: str
+    kind: str
+    unit: str
+    due: str
+    overdue: bool
+    capacity: str | None
+    tolerance: str | None
+    readability: str | None
+
+
+@dataclass(frozen=True)
+class Calibration(InstrumentInfo):
+    """An instrument after a recalibration: when, on what certificate, and the due date
+    it replaced."""
+
+    calibrated: str
+    certificate: str | None
+    previous_due: str
+
+
+def instrument_info(ins: Instrument, today: date | None = None) -> InstrumentInfo:
     today = today or utc_now().date()
-    return {
-        "code": ins.code,
-        "kind": ins.kind,
-        "unit": UNITS.get(ins.kind, ""),
-        "due": iso(ins.due),
-        "overdue": ins.due < today,
-        "capacity": ins.capacity_text,
-        "tolerance": ins.tolerance_text,
-        "readability": ins.readability_text,
-    }
+    return InstrumentInfo(
+        code=ins.code, kind=ins.kind, unit=UNITS.get(ins.kind, ""), due=ins.due.isoformat(),
+        overdue=ins.due < today, capacity=ins.capacity_text, tolerance=ins.tolerance_text,
+        readability=ins.readability_text)
 
 
 @retry.on_conflict
 def add_instrument(db: Database, *, actor: str, code: str, kind: str, due: str,
                    capacity: str | None, tolerance: str | None,
-                   readability: str | None) -> dict[str, Any]:
+                   readability: str | None) -> InstrumentInfo:
     code = parse_code(code, "instrument code")
     if kind not in INSTRUMENT_KINDS:
         raise InvalidInput(f"instrument kind {kind!r} is not one of {', '.join(INSTRUMENT_KINDS)}")
@@ -62,19 +80,19 @@ def add_instrument(db: Database, *, actor: str, code: str, kind: str, due: str,
                          readability_text=rd.text if rd else None,
                          created_at=utc_now(), created_by=user.name)
         write(s, user.name, "instrument.add", ins)
-        return instrument_dict(ins)
+        return instrument_info(ins)
 
 
-def list_instruments(db: Database) -> list[dict[str, Any]]:
+def list_instruments(db: Database) -> list[InstrumentInfo]:
     today = utc_now().date()
     with db.session(write=False) as s:
-        return [instrument_dict(i, today)
+        return [instrument_info(i, today)
                 for i in s.scalars(select(Instrument).order_by(Instrument.kind, Instrument.code))]
 
 
 @retry.on_conflict
 def calibrate_instrument(db: Database, *, actor: str, code: str, calibrated: str, due: str,
-                         certificate: str | None = None) -> dict[str, Any]:
+                         certificate: str | None = None) -> Calibration:
     """Record a recalibration: the instrument's new due date, with when and on what
     certificate it was calibrated. The earlier due date stays in the audit trail."""
     on = parse_date(calibrated, "calibration date")
@@ -98,6 +116,5 @@ def calibrate_instrument(db: Database, *, actor: str, code: str, calibrated: str
         write(s, user.name, "instrument.calibrate", ins,
               reason=f"calibrated {on.isoformat()}{where}; was due {previous.isoformat()}",
               performed_at=datetime.combine(on, datetime.min.time()))
-        return instrument_dict(ins, today) | {"calibrated": on.isoformat(),
-                                              "certificate": certificate,
-                                              "previous_due": previous.isoformat()}
+        return Calibration(**asdict(instrument_info(ins, today)), calibrated=on.isoformat(),
+                           certificate=certificate, previous_due=previous.isoformat())

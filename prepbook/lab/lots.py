@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from datetime import date
-from typing import Any
 
 from sqlalchemy import select
 
@@ -15,26 +15,35 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Lot
 
 
-def lot_dict(lot: Lot, today: date | None = None) -> dict[str, Any]:
+@dataclass(frozen=True)
+class LotInfo:
+    """A lot as the commands show it (the fields are the JSON keys)."""
+
+    code: str
+    material: str
+    purity_percent: str
+    purity_u_percent: str | None
+    expires: str
+    expired: bool
+    certificate: str | None
+    dried_on: str | None
+    opened_on: str | None
+    created_by: str
+
+
+def lot_info(lot: Lot, today: date | None = None) -> LotInfo:
     today = today or utc_now().date()
-    return {
-        "code": lot.code,
-        "material": lot.material_code,
-        "purity_percent": lot.purity_text,
-        "purity_u_percent": lot.purity_u_text,
-        "expires": iso(lot.expires),
-        "expired": lot.expires < today,
-        "certificate": lot.certificate,
-        "dried_on": iso(lot.dried_on),
-        "opened_on": iso(lot.opened_on),
-        "created_by": lot.created_by,
-    }
+    return LotInfo(code=lot.code, material=lot.material_code, purity_percent=lot.purity_text,
+                   purity_u_percent=lot.purity_u_text, expires=lot.expires.isoformat(),
+                   expired=lot.expires < today, certificate=lot.certificate,
+                   dried_on=iso(lot.dried_on), opened_on=iso(lot.opened_on),
+                   created_by=lot.created_by)
 
 
 @retry.on_conflict
 def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
             purity_u: str | None, expires: str, certificate: str | None,
-            dried: str | None, opened: str | None = None) -> dict[str, Any]:
+            dried: str | None, opened: str | None = None) -> LotInfo:
     from prepbook.catalog import loader
 
     mat = loader.find_material(material)
@@ -64,10 +73,10 @@ def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
                   certificate=certificate, dried_on=dried_d, opened_on=opened_d,
                   created_at=utc_now(), created_by=user.name)
         write(s, user.name, "lot.add", lot)
-        return lot_dict(lot, today)
+        return lot_info(lot, today)
 
 
-def list_lots(db: Database) -> list[dict[str, Any]]:
+def list_lots(db: Database) -> list[LotInfo]:
     today = utc_now().date()
     with db.session(write=False) as s:
-        return [lot_dict(lot, today) for lot in s.scalars(select(Lot).order_by(Lot.code))]
+        return [lot_info(lot, today) for lot in s.scalars(select(Lot).order_by(Lot.code))]

@@ -10,8 +10,8 @@ On PostgreSQL the server's own tools make the copy; prepbook says how.
 from __future__ import annotations
 
 import sqlite3
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
 
 from prepbook.errors import DatabaseError, InvalidInput, Refused
 
@@ -43,7 +43,17 @@ def _output_path(output: str) -> Path:
     return path
 
 
-def backup(target: str, output: str) -> dict[str, Any]:
+@dataclass(frozen=True)
+class BackupReport:
+    """What `prepbook backup` copied (the fields are the JSON keys)."""
+
+    database: str
+    backup: str
+    bytes: int
+    events: int
+
+
+def backup(target: str, output: str) -> BackupReport:
     """Copy the SQLite database at ``target`` to the new file ``output``."""
     from prepbook.store.engine import open_database, resolve_url, sqlite_path
 
@@ -76,8 +86,8 @@ def backup(target: str, output: str) -> dict[str, Any]:
         if isinstance(exc, sqlite3.Error | OSError):
             raise DatabaseError(f"the backup to {dest} failed and was removed: {exc}") from exc
         raise
-    return {"database": str(source), "backup": str(dest.resolve()),
-            "bytes": dest.stat().st_size, "events": events}
+    return BackupReport(database=str(source), backup=str(dest.resolve()),
+                        bytes=dest.stat().st_size, events=events)
 
 
 def _copy(source: Path, dest: Path) -> int:

@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import re
-from typing import Any
+from dataclasses import dataclass
 
 from sqlalchemy import func, select
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.lab.common import acting, iso, lockout_after, signed, user_named, write
+from prepbook.lab.common import acting, lockout_after, signed, user_named, write
 from prepbook.lab.security import HashCost, check_new_passphrase, hash_passphrase
 from prepbook.store import retry
 from prepbook.store.engine import Database
@@ -17,11 +17,24 @@ from prepbook.store.models import ROLES, User
 _NAME = re.compile(r"^[A-Za-z][A-Za-z0-9._-]{0,39}$")
 
 
-def _user_dict(u: User, limit: int | None = None) -> dict[str, Any]:
-    return {"name": u.name, "role": u.role, "active": u.active,
-            "failed_attempts": u.failed_attempts,
-            "locked": limit is not None and u.failed_attempts >= limit,
-            "created_at": iso(u.created_at), "created_by": u.created_by}
+@dataclass(frozen=True)
+class UserInfo:
+    """A user as the commands show them (the fields are the JSON keys)."""
+
+    name: str
+    role: str
+    active: bool
+    failed_attempts: int
+    locked: bool
+    created_at: str
+    created_by: str
+
+
+def _user_info(u: User, limit: int | None = None) -> UserInfo:
+    return UserInfo(name=u.name, role=u.role, active=u.active,
+                    failed_attempts=u.failed_attempts,
+                    locked=limit is not None and u.failed_attempts >= limit,
+                    created_at=u.created_at.isoformat(timespec="minutes"), created_by=u.created_by)
 
 
 def user_count(db: Database) -> int:
@@ -31,7 +44,7 @@ def user_count(db: Database) -> int:
 
 @retry.on_conflict
 def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
-             actor_passphrase: str | None, hash_cost: HashCost | None = None) -> dict[str, Any]:
+             actor_passphrase: str | None, hash_cost: HashCost | None = None) -> UserInfo:
     """Add a user. The first user must be an admin; after that only an admin adds users.
 
     ``hash_cost``: Argon2 parameters for an invented fixture user (see ``HashCost``)."""
@@ -59,18 +72,18 @@ def add_user(db: Database, *, actor: str, name: str, role: str, passphrase: str,
         user = User(name=name, role=role, passphrase_hash=hash_passphrase(passphrase, hash_cost),
                     active=True, failed_attempts=0, created_at=utc_now(), created_by=created_by)
         write(s, created_by, "user.add", user)
-        return _user_dict(user)
+        return _user_info(user)
 
 
-def list_users(db: Database) -> list[dict[str, Any]]:
+def list_users(db: Database) -> list[UserInfo]:
     with db.session(write=False) as s:
         limit = lockout_after(s)
-        return [_user_dict(u, limit) for u in s.scalars(select(User).order_by(User.name))]
+        return [_user_info(u, limit) for u in s.scalars(select(User).order_by(User.name))]
 
 
 @retry.on_conflict
 def _manage(db: Database, *, actor: str, name: str, passphrase: str | None, reason: str | None,
-            action: str) -> dict[str, Any]:
+            action: str) -> UserInfo:
     from prepbook.inputs import parse_text
 
     reason = parse_text(reason, "reason", max_len=500)
@@ -95,24 +108,24 @@ def _manage(db: Database, *, actor: str, name: str, passphrase: str | None, reas
                 raise Refused(f"{name} is not locked out")
             user.failed_attempts = 0
         write(s, admin.name, f"user.{action}", user, reason=reason)
-        return _user_dict(user, lockout_after(s))
+        return _user_info(user, lockout_after(s))
 
 
 def disable_user(db: Database, *, actor: str, name: str, passphrase: str | None,
-                 reason: str | None) -> dict[str, Any]:
+                 reason: str | None) -> UserInfo:
     """A disabled user can do nothing (their records stay)."""
     return _manage(db, actor=actor, name=name, passphrase=passphrase, reason=reason,
                    action="disable")
 
 
 def enable_user(db: Database, *, actor: str, name: str, passphrase: str | None,
-                reason: str | None) -> dict[str, Any]:
+                reason: str | None) -> UserInfo:
     return _manage(db, actor=actor, name=name, passphrase=passphrase, reason=reason,
                    action="enable")
 
 
 def unlock_user(db: Database, *, actor: str, name: str, passphrase: str | None,
-                reason: str | None) -> dict[str, Any]:
+                reason: str | None) -> UserInfo:
     """Clear the count of wrong passphrases that locked a user out."""
     return _manage(db, actor=actor, name=name, passphrase=passphrase, reason=reason,
                    action="unlock")

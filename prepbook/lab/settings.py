@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
 
 from sqlalchemy import select
 
@@ -47,22 +46,41 @@ KNOWN: dict[str, SettingInfo] = {
 }
 
 
-def show(db: Database) -> list[dict[str, Any]]:
+@dataclass(frozen=True)
+class SettingValue:
+    """A setting as `prepbook settings` shows it (the fields are the JSON keys)."""
+
+    key: str
+    value: str
+    default: str
+    help: str
+    changed_at: str | None
+    changed_by: str | None
+
+
+@dataclass(frozen=True)
+class SettingChange:
+    key: str
+    value: str
+    changed_by: str
+
+
+def show(db: Database) -> list[SettingValue]:
     with db.session(write=False) as s:
         rows = {r.key: r for r in s.scalars(select(Setting))}
     out = []
     for key, info in KNOWN.items():
         row = rows.get(key)
-        out.append({"key": key, "value": row.value if row else info.default,
-                    "default": info.default, "help": info.help,
-                    "changed_at": iso(row.updated_at) if row else None,
-                    "changed_by": row.updated_by if row else None})
+        out.append(SettingValue(key=key, value=row.value if row else info.default,
+                                default=info.default, help=info.help,
+                                changed_at=iso(row.updated_at) if row else None,
+                                changed_by=row.updated_by if row else None))
     return out
 
 
 @retry.on_conflict
 def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | None,
-              passphrase: str | None) -> dict[str, Any]:
+              passphrase: str | None) -> SettingChange:
     info = KNOWN.get(key)
     if info is None:
         raise InvalidInput(f"unknown setting {key!r}; one of {', '.join(KNOWN)}")
@@ -86,4 +104,4 @@ def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | N
         else:
             row.value, row.updated_at, row.updated_by = value, now, admin.name
         write(s, admin.name, "setting.set", row, reason=reason)
-        return {"key": key, "value": value, "changed_by": admin.name}
+        return SettingChange(key=key, value=value, changed_by=admin.name)

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import json
-from dataclasses import asdict
+from dataclasses import asdict, dataclass
 from typing import Any
 
 from sqlalchemy import select
@@ -17,7 +17,20 @@ def _json(value: Any) -> str:
     return json.dumps(value, sort_keys=True, ensure_ascii=False)
 
 
-def initialize(target: str, *, actor: str) -> dict[str, Any]:
+@dataclass(frozen=True)
+class InitReport:
+    """What `prepbook init` did (the fields are the JSON keys)."""
+
+    database: str
+    created: bool
+    from_revision: str | None
+    to_revision: str
+    backup: str | None
+    materials_added: tuple[str, ...]
+    specs_added: tuple[str, ...]
+
+
+def initialize(target: str, *, actor: str) -> InitReport:
     """Create or upgrade the database, then add any built-in catalog entry it lacks.
 
     Running it again changes nothing: entries already present are left as they
@@ -50,12 +63,8 @@ def initialize(target: str, *, actor: str) -> dict[str, Any]:
                 unit=sp.unit, data=_json(asdict(sp)), builtin=True, created_at=now,
                 created_by=actor))
             added_specs.append(sp.code)
-    return {
-        "database": db.url_for_display if hasattr(db, "url_for_display") else str(target),
-        "created": report.created,
-        "from_revision": report.from_revision,
-        "to_revision": report.to_revision,
-        "backup": report.backup_path,
-        "materials_added": added_materials,
-        "specs_added": added_specs,
-    }
+    return InitReport(
+        database=str(target),
+        created=report.created, from_revision=report.from_revision,
+        to_revision=report.to_revision, backup=report.backup_path,
+        materials_added=tuple(added_materials), specs_added=tuple(added_specs))

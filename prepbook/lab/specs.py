@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 from sqlalchemy import select
@@ -18,8 +18,8 @@ from prepbook.store.models import Spec
 
 
 @dataclass(frozen=True)
-class SpecView:
-    """What the services need of a spec, read from its stored JSON."""
+class SpecFields:
+    """A spec's identity, acceptance rules and intervals, read from its stored JSON."""
 
     code: str
     name: str
@@ -37,8 +37,14 @@ class SpecView:
     restandardize_days: int
     shelf_life_days: int
     storage: str | None
-    hazard: dict[str, Any] = field(default_factory=dict)
-    cautions: list[str] = field(default_factory=list)
+    hazard: dict[str, Any]
+    cautions: list[str]
+
+
+@dataclass(frozen=True)
+class SpecView(SpecFields):
+    """What the services need of a spec: its fields and the whole stored JSON."""
+
     data: dict[str, Any] = field(default_factory=dict)
 
     def to_spec_unit(self, normality: float, n_eq_per_mol: float) -> float:
@@ -89,23 +95,22 @@ def view(spec: Spec) -> SpecView:
     )
 
 
-def spec_dict(spec: Spec) -> dict[str, Any]:
+@dataclass(frozen=True)
+class SpecInfo(SpecFields):
+    """A solution spec as the commands show it (the fields are the JSON keys)."""
+
+    builtin: bool
+
+
+def spec_info(spec: Spec) -> SpecInfo:
     v = view(spec)
-    return {
-        "code": v.code, "name": v.name, "solute": v.solute, "reaction": v.reaction,
-        "nominal": v.nominal, "unit": v.unit, "standard": v.standard, "indicator": v.indicator,
-        "min_replicates": v.min_replicates, "max_rsd_percent": v.max_rsd_percent,
-        "factor_low": v.factor_low, "factor_high": v.factor_high,
-        "drift_limit_percent": v.drift_limit_percent,
-        "restandardize_days": v.restandardize_days, "shelf_life_days": v.shelf_life_days,
-        "storage": v.storage, "hazard": v.hazard, "cautions": v.cautions,
-        "builtin": spec.builtin,
-    }
+    shared = {f.name: getattr(v, f.name) for f in fields(SpecFields)}
+    return SpecInfo(**shared, builtin=spec.builtin)
 
 
-def list_specs(db: Database) -> list[dict[str, Any]]:
+def list_specs(db: Database) -> list[SpecInfo]:
     with db.session(write=False) as s:
-        return [spec_dict(sp) for sp in s.scalars(select(Spec).order_by(Spec.code))]
+        return [spec_info(sp) for sp in s.scalars(select(Spec).order_by(Spec.code))]
 
 
 _SPEC_CODE = re.compile(r"^[A-Za-z0-9()]+(-[A-Za-z0-9().]+)+$")
@@ -132,7 +137,7 @@ def add_spec(
     restandardize_days: int = 30,
     shelf_life_days: int = 180,
     storage: str | None = None,
-) -> dict[str, Any]:
+) -> SpecInfo:
     """Add a lab's own solution spec (the built-in ones come from the catalog)."""
     from prepbook.catalog import loader
 
@@ -178,4 +183,4 @@ def add_spec(
                   unit=unit, data=json.dumps(data, sort_keys=True), builtin=False,
                   created_at=utc_now(), created_by=user.name)
         write(s, user.name, "spec.add", sp)
-        return spec_dict(sp)
+        return spec_info(sp)

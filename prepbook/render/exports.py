@@ -40,15 +40,20 @@ def frame(columns: Sequence[str], rows: Sequence[Sequence[Any]]) -> Any:
     return pd.DataFrame(clean, columns=list(columns))
 
 
+def check_format(path: Path, fmt: str) -> None:
+    """Refuse an unknown format, or a file name that does not end in it."""
+    if fmt not in FORMATS:
+        raise InvalidInput(f"unknown format {fmt!r}; one of {', '.join(FORMATS)}")
+    if path.suffix.lower() != f".{fmt}":
+        raise InvalidInput(f"{path} should end in .{fmt} for --format {fmt}")
+
+
 def write_table(path: Path, fmt: str, sheet: str, columns: Sequence[str],
                 rows: Sequence[Sequence[Any]], *, replace: bool = False) -> Path:
     """Write the table to ``path`` (whole or not at all); returns the absolute path."""
     from prepbook.render import files
 
-    if fmt not in FORMATS:
-        raise InvalidInput(f"unknown format {fmt!r}; one of {', '.join(FORMATS)}")
-    if path.suffix.lower() != f".{fmt}":
-        raise InvalidInput(f"{path} should end in .{fmt} for --format {fmt}")
+    check_format(path, fmt)
     df = frame(columns, rows)
     with files.staged(path, replace=replace) as (tmp, commit):
         try:

@@ -20,13 +20,17 @@ from prepbook.errors import InvalidInput
 def check_target(path: Path, *, replace: bool) -> Path:
     """The absolute target path, refused if its folder is missing or it exists unasked."""
     target = absolute(path)
-    if target.is_dir():
-        raise InvalidInput(f"{path} is a folder; give a file name")
-    if not target.parent.is_dir():
-        raise InvalidInput(f"cannot write {path}: folder {target.parent} does not exist")
-    if not os.access(target.parent, os.W_OK | os.X_OK):
-        raise InvalidInput(f"cannot write {path}: folder {target.parent} is not writable")
-    if target.exists() and not replace:
+    try:
+        if target.is_dir():
+            raise InvalidInput(f"{path} is a folder; give a file name")
+        if not target.parent.is_dir():
+            raise InvalidInput(f"cannot write {path}: folder {target.parent} does not exist")
+        if not os.access(target.parent, os.W_OK | os.X_OK):
+            raise InvalidInput(f"cannot write {path}: folder {target.parent} is not writable")
+        exists = target.exists()
+    except OSError as exc:  # a name too long for the file system, for one
+        raise InvalidInput(f"cannot write {path}: {exc.strerror or exc}") from None
+    if exists and not replace:
         raise InvalidInput(f"{path} already exists; pass --replace to overwrite it")
     return target
 

@@ -1,16 +1,15 @@
 """Bottle labels as PDF: a titrant batch or a primary-standard lot.
 
-The layout is prepbook's own: a text column on the left that carries the
-identity, strength and dates of what is in the bottle, and a narrow column on
-the right with a QR code of the bottle's code, the code in print under it, and
-the hazard signal word in white on a black bar. Everything is black on white so
-it survives a monochrome thermal or laser printer; nothing depends on colour.
+The layout is prepbook's own: a text column on the left that carries the identity,
+strength and dates of what is in the bottle, and a narrow column on the right with a QR
+code of the bottle's code, the code in print under it, and the hazard signal word in white
+on a black bar. Everything is black on white so it survives a monochrome thermal or laser
+printer; nothing depends on colour.
 
 The text never overflows its box: the layout tries font sizes from large to
-``MIN_FONT_PT`` and, if it still does not fit, packs the dates into one running
-paragraph and then prints the hazard statements by their codes (saying so on the
-label and in ``LabelLayout.notes``). A label that cannot be made to fit is
-refused, never clipped.
+``MIN_FONT_PT`` and, if it still does not fit, packs the dates into one running paragraph
+and then prints the hazard statements by their codes (saying so on the label and in
+``LabelLayout.notes``). A label that cannot be made to fit is refused, never clipped.
 
 reportlab and qrcode are imported only inside the functions that draw.
 """
@@ -24,6 +23,7 @@ from typing import Any
 from xml.sax.saxutils import escape
 
 from prepbook.errors import InvalidInput
+from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel
 from prepbook.render.sizes import MM, LabelSize, Sheet, grid
 
 MIN_FONT_PT = 4.25  # smallest body text (a line about 1.75 mm): common practice, no source
@@ -39,8 +39,7 @@ STATE_NOTES = {
     "new": "NOT YET STANDARDIZED - do not use for assays",
     "awaiting-review": "STANDARDIZATION AWAITING REVIEW",
     "due": "RESTANDARDIZATION DUE",
-    "expired": "EXPIRED - do not use",
-    "retired": "RETIRED - do not use",
+    "expired": "EXPIRED - do not use", "retired": "RETIRED - do not use",
 }
 
 
@@ -94,22 +93,22 @@ def significant(value: float, digits: int = 5) -> str:
     return f"{value:.{decimals}f}"
 
 
-def nominal_text(nominal: float, unit: str) -> str:
-    return f"{nominal:g} {'mol/L' if unit == 'M' else 'N'}"
-
-
 def _unit_word(unit: str) -> str:
     return "mol/L" if unit == "M" else "N"
 
 
-def hazard_words(hazard: dict[str, Any]) -> tuple[str | None, list[str], list[str]]:
+def nominal_text(nominal: float, unit: str) -> str:
+    return f"{nominal:g} {_unit_word(unit)}"
+
+
+def hazard_words(hazard: Hazard) -> tuple[str | None, list[str], list[str]]:
     signal = hazard.get("signal_word") or None
     statements = [str(s) for s in hazard.get("statements") or ()]
     pictograms = [str(p) for p in hazard.get("pictograms") or ()]
     return signal, statements, pictograms
 
 
-def _hazard_lines(hazard: dict[str, Any], *, by_code: bool) -> list[Line]:
+def _hazard_lines(hazard: Hazard, *, by_code: bool) -> list[Line]:
     signal, statements, pictograms = hazard_words(hazard)
     lines: list[Line] = []
     if pictograms:
@@ -127,34 +126,34 @@ def _hazard_lines(hazard: dict[str, Any], *, by_code: bool) -> list[Line]:
     return lines
 
 
-def batch_lines(data: dict[str, Any], tier: int = 0) -> list[Line]:
+def batch_lines(data: BatchLabel, tier: int = 0) -> list[Line]:
     """The text of a titrant-bottle label, in reading order."""
-    unit = data["unit"]
-    lines = [Line("title", data["name"])]
-    if data.get("factor") is not None and data.get("concentration") is not None:
-        lines.append(Line("strength", f"{significant(data['concentration'])} "
+    unit = data.unit
+    lines = [Line("title", data.name)]
+    if data.factor is not None and data.concentration is not None:
+        lines.append(Line("strength", f"{significant(data.concentration)} "
                           f"{_unit_word(unit)} at 20 °C, nominal "
-                          f"{nominal_text(data['nominal'], unit)}",
-                          lead=f"Factor {data['factor']:.4f}"))
+                          f"{nominal_text(data.nominal, unit)}",
+                          lead=f"Factor {data.factor:.4f}"))
     else:
-        lines.append(Line("strength", nominal_text(data["nominal"], unit), lead="Nominal"))
-    note = STATE_NOTES.get(data.get("state") or "")
+        lines.append(Line("strength", nominal_text(data.nominal, unit), lead="Nominal"))
+    note = STATE_NOTES.get(data.state or "")
     if note:
         lines.append(Line("status", note))
-    std = data.get("standardized_on")
+    std = data.standardized_on
     # At tier 2 the code is left to the side column, where it is printed under the QR code.
-    fields = [] if tier >= 2 else [("Batch", data["code"], False)]
+    fields = [] if tier >= 2 else [("Batch", data.code, False)]
     fields += [
-        ("Made", f"{data['made_on']} by {data['made_by']}", False),
-        ("Standardized", f"{std} ({data['run']})" if std else "not yet", False),
+        ("Made", f"{data.made_on} by {data.made_by}", False),
+        ("Standardized", f"{std} ({data.run})" if std else "not yet", False),
     ]
-    if data.get("restandardize_by"):
-        fields.append(("Restandardize by", data["restandardize_by"], True))
-    fields.append(("Expires", data["expires"], True))
+    if data.restandardize_by:
+        fields.append(("Restandardize by", data.restandardize_by, True))
+    fields.append(("Expires", data.expires or "-", True))
     lines.extend(_field_lines(fields, tier))
-    if data.get("storage"):
-        lines.append(Line("storage", data["storage"], lead="Storage:"))
-    lines.extend(_hazard_lines(data.get("hazard") or {}, by_code=tier >= 2))
+    if data.storage:
+        lines.append(Line("storage", data.storage, lead="Storage:"))
+    lines.extend(_hazard_lines(data.hazard, by_code=tier >= 2))
     lines.append(_footer(data, tier))
     return lines
 
@@ -165,40 +164,39 @@ def _field_lines(fields: list[tuple[str, str, bool]], tier: int) -> list[Line]:
     return [Line("field", v, lead=k, strong=strong) for k, v, strong in fields]
 
 
-def lot_lines(data: dict[str, Any], tier: int = 0) -> list[Line]:
+def lot_lines(data: LotLabel, tier: int = 0) -> list[Line]:
     """The text of a primary-standard lot label, in reading order."""
-    lines = [Line("kicker", "PRIMARY STANDARD"), Line("title", data["name"])]
-    purity = f"{data['purity_percent']} %"
-    if data.get("purity_u_percent"):
-        purity += f" ± {data['purity_u_percent']} %"
+    lines = [Line("kicker", "PRIMARY STANDARD"), Line("title", data.name)]
+    purity = f"{data.purity_percent} %"
+    if data.purity_u_percent:
+        purity += f" ± {data.purity_u_percent} %"
     lines.append(Line("strength", f"{purity} (certificate)", lead="Purity"))
-    if data.get("expired"):
+    if data.expired:
         lines.append(Line("status", "EXPIRED - do not use"))
-    fields = [] if tier >= 2 else [("Lot", data["code"], False)]
+    fields = [] if tier >= 2 else [("Lot", data.code, False)]
     fields += [
-        ("Material", f"{data['material']} ({data['formula']})", False),
-        ("Certificate", data.get("certificate") or "none recorded", False),
-        ("Opened", data.get("opened_on") or "not recorded", False),
-        ("Dried", data.get("dried_on") or "not recorded", True),
-        ("Expires", data["expires"], True),
+        ("Material", f"{data.material} ({data.formula})", False),
+        ("Certificate", data.certificate or "none recorded", False),
+        ("Opened", data.opened_on or "not recorded", False),
+        ("Dried", data.dried_on or "not recorded", True),
+        ("Expires", data.expires, True),
     ]
     lines.extend(_field_lines(fields, tier))
-    if data.get("drying"):
-        lines.append(Line("storage", data["drying"], lead="Drying:"))
-    lines.extend(_hazard_lines(data.get("hazard") or {}, by_code=tier >= 2))
+    if data.drying:
+        lines.append(Line("storage", data.drying, lead="Drying:"))
+    lines.extend(_hazard_lines(data.hazard, by_code=tier >= 2))
     lines.append(_footer(data, tier))
     return lines
 
 
-def _footer(data: dict[str, Any], tier: int) -> Line:
+def _footer(data: LabelContent, tier: int) -> Line:
     if tier >= 2:  # who printed it and when stays in the record (label_prints)
         return Line("footer", SDS_LINE)
-    return Line("footer", f"{SDS_LINE} Label printed {data['printed_on']} by "
-                f"{data['printed_by']}.")
+    return Line("footer", f"{SDS_LINE} Label printed {data.printed_on} by {data.printed_by}.")
 
 
-def lines_for(data: dict[str, Any], tier: int = 0) -> list[Line]:
-    return lot_lines(data, tier) if data.get("kind") == "lot" else batch_lines(data, tier)
+def lines_for(data: LabelContent, tier: int = 0) -> list[Line]:
+    return lot_lines(data, tier) if isinstance(data, LotLabel) else batch_lines(data, tier)
 
 
 # --- layout and drawing (reportlab) ---------------------------------------------------
@@ -213,8 +211,7 @@ def _styles(font: float, tier: int = 0) -> dict[str, Any]:
         return ParagraphStyle(
             name, fontName="Helvetica-Bold" if bold else "Helvetica", fontSize=size,
             leading=size * LEADING, alignment=TA_LEFT, spaceAfter=after,
-            splitLongWords=1, allowWidows=1, allowOrphans=1,
-        )
+            splitLongWords=1, allowWidows=1, allowOrphans=1)
 
     gap = font * 0.25
     # The tightest packing also narrows the step between title, strength and body text.
@@ -366,12 +363,12 @@ def _code_lines(code: str, width: float, size: float) -> tuple[float, tuple[str,
     return size * width / stringWidth(code, "Helvetica-Bold", size), (code,)
 
 
-def layout(data: dict[str, Any], size: LabelSize) -> LabelLayout:
+def layout(data: LabelContent, size: LabelSize) -> LabelLayout:
     """Choose the largest font (and the least packing) at which the text fits."""
     from reportlab.pdfgen.canvas import Canvas
 
     scratch = Canvas(io.BytesIO(), pagesize=(size.width_pt, size.height_pt))
-    signal, _, _ = hazard_words(data.get("hazard") or {})
+    signal, _, _ = hazard_words(data.hazard)
     notes: list[str] = []
     # Pack harder before shrinking the text to its smallest: each tier has a floor.
     for tier, floor in ((0, MIN_FONT_PT + 0.75), (1, MIN_FONT_PT + 0.25), (2, MIN_FONT_PT)):
@@ -379,7 +376,7 @@ def layout(data: dict[str, Any], size: LabelSize) -> LabelLayout:
         font = MAX_FONT_PT
         while font >= floor - 1e-9:
             for share in QR_SHARES:
-                geo = _geometry(size, data["code"], signal, font, tier, share)
+                geo = _geometry(size, data.code, signal, font, tier, share)
                 used = _flow(scratch, lines, geo, font, tier)
                 if used is not None:
                     break
@@ -399,7 +396,7 @@ def layout(data: dict[str, Any], size: LabelSize) -> LabelLayout:
                                    code_lines=geo.code_lines,
                                    bar_h=geo.bar_h, notes=tuple(notes))
             font = round(font - STEP_PT, 4)
-    raise InvalidInput(f"the label text for {data['code']} does not fit on {size.name} even at "
+    raise InvalidInput(f"the label text for {data.code} does not fit on {size.name} even at "
                        f"{MIN_FONT_PT} pt; choose a larger --size")
 
 
@@ -413,11 +410,11 @@ def _qr_matrix(text: str) -> list[list[bool]]:
     return [list(row) for row in code.get_matrix()]
 
 
-def _draw_side(canvas: Any, data: dict[str, Any], lay: LabelLayout) -> None:
+def _draw_side(canvas: Any, data: LabelContent, lay: LabelLayout) -> None:
     from reportlab.pdfbase.pdfmetrics import stringWidth
 
     qx, qy, qs, _ = lay.qr_box
-    matrix = _qr_matrix(data["code"])
+    matrix = _qr_matrix(data.code)
     n = len(matrix)
     module = qs / n
     canvas.setFillColorRGB(0, 0, 0)
@@ -436,7 +433,7 @@ def _draw_side(canvas: Any, data: dict[str, Any], lay: LabelLayout) -> None:
     canvas.setFont("Helvetica-Bold", lay.code_pt)
     for i, part in enumerate(lay.code_lines):
         canvas.drawCentredString(sx + sw / 2, qy - lay.code_pt * (1.2 * i + 1.05), part)
-    signal, _, _ = hazard_words(data.get("hazard") or {})
+    signal, _, _ = hazard_words(data.hazard)
     if signal and lay.bar_h:
         word = signal.upper()
         bar_y = sy
@@ -456,7 +453,7 @@ def _fit(text: str, font: str, size: float, width: float) -> float:
     return size if w <= width else size * width / w
 
 
-def _draw_label(canvas: Any, data: dict[str, Any], lay: LabelLayout, x: float, y: float,
+def _draw_label(canvas: Any, data: LabelContent, lay: LabelLayout, x: float, y: float,
                 size: LabelSize, *, outline: bool) -> None:
     canvas.saveState()
     canvas.translate(x, y)
@@ -465,14 +462,14 @@ def _draw_label(canvas: Any, data: dict[str, Any], lay: LabelLayout, x: float, y
         canvas.setDash(1, 2)
         canvas.rect(0, 0, size.width_pt, size.height_pt, stroke=1, fill=0)
         canvas.setDash()
-    signal, _, _ = hazard_words(data.get("hazard") or {})
-    geo = _geometry(size, data["code"], signal, lay.font_pt, lay.tier, lay.qr_share)
+    signal, _, _ = hazard_words(data.hazard)
+    geo = _geometry(size, data.code, signal, lay.font_pt, lay.tier, lay.qr_share)
     _flow(canvas, lines_for(data, lay.tier), geo, lay.font_pt, lay.tier)
     _draw_side(canvas, data, lay)
     canvas.restoreState()
 
 
-def label_pdf(data: dict[str, Any], size: LabelSize, *, copies: int = 1,
+def label_pdf(data: LabelContent, size: LabelSize, *, copies: int = 1,
               sheet: Sheet | None = None, outline: bool = False) -> tuple[bytes, LabelLayout]:
     """The PDF of ``copies`` labels: one per page of the label's size, or in a grid on
     ``sheet`` pages. Returns the bytes and the layout used."""
@@ -482,7 +479,6 @@ def label_pdf(data: dict[str, Any], size: LabelSize, *, copies: int = 1,
         raise InvalidInput("--copies must be at least 1")
     lay = layout(data, size)
     buffer = io.BytesIO()
-    what = "lot" if data.get("kind") == "lot" else "batch"
     if sheet is None:
         canvas = Canvas(buffer, pagesize=(size.width_pt, size.height_pt), invariant=1)
         for _ in range(copies):
@@ -497,8 +493,8 @@ def label_pdf(data: dict[str, Any], size: LabelSize, *, copies: int = 1,
                 _draw_label(canvas, data, lay, ox, oy, size, outline=True)
             left -= g.per_sheet
             canvas.showPage()
-    canvas.setTitle(f"prepbook label {data['code']}")
-    canvas.setSubject(f"{what} label")
+    canvas.setTitle(f"prepbook label {data.code}")
+    canvas.setSubject(f"{data.kind} label")
     canvas.setCreator("prepbook")
     canvas.save()
     return buffer.getvalue(), lay

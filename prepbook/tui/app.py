@@ -55,9 +55,9 @@ class PrepbookApp(App[None]):
         self._head = watch.head_seq(self.db)
         self.push_screen(BoardScreen())
         users = people.list_users(self.db)
-        known = {u["name"]: u for u in users if u.get("active", True)}
+        known = {u.name: u for u in users if u.active}
         if self.actor in known:
-            self.role = known[self.actor]["role"]
+            self.role = known[self.actor].role
         else:
             note = (f"{self.actor!r} is not an active user of this database."
                     if self.actor else "")
@@ -69,7 +69,7 @@ class PrepbookApp(App[None]):
     def _set_actor(self, name: str | None) -> None:
         from prepbook.lab import people
 
-        roles = {u["name"]: u["role"] for u in people.list_users(self.db)}
+        roles = {u.name: u.role for u in people.list_users(self.db)}
         self.actor = name
         self.role = roles.get(name or "")
         self.refresh_screens()

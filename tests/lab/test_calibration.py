@@ -45,12 +45,12 @@ def test_calibration_moves_the_due_date_and_clears_the_warning(overdue_lab: Cli)
         res = instruments.calibrate_instrument(db, actor="ben", code="BUR-9",
                                                calibrated=_day(0), due=_day(365),
                                                certificate="CAL-2026-118 (invented)")
-        assert res["due"] == _day(365)
-        assert res["previous_due"] == _day(-1)
-        assert res["overdue"] is False
+        assert res.due == _day(365)
+        assert res.previous_due == _day(-1)
+        assert res.overdue is False
         assert not any("BUR-9" in w for w in _warnings(db))
-        listed = {i["code"]: i for i in instruments.list_instruments(db)}
-        assert listed["BUR-9"]["due"] == _day(365)
+        listed = {i.code: i for i in instruments.list_instruments(db)}
+        assert listed["BUR-9"].due == _day(365)
         # The earlier due date is in the trail, and the row still matches its last event.
         events = auditing.log(db, record="instruments")
         calibrations = [e for e in events if e["action"] == "instrument.calibrate"]

@@ -11,6 +11,7 @@ import openpyxl
 import pandas as pd
 import pytest
 
+from prepbook.cli.exports import export_table
 from prepbook.errors import InvalidInput
 from prepbook.lab import batches, exports
 from prepbook.store.engine import open_database
@@ -56,13 +57,13 @@ def _s(value: object) -> str:
 def test_runs_export_has_the_database_rows_and_unrounded_values(lab: Cli, tmp_path: Path,
                                                                 fmt: str) -> None:
     out = tmp_path / f"runs.{fmt}"
-    res = exports.export(open_database(str(lab.db)), kind="runs", fmt=fmt, output=str(out))
+    res = export_table(open_database(str(lab.db)), kind="runs", fmt=fmt, output=str(out))
     # CSV as text, parsed with Python's float(); XLSX numbers as the cells hold them.
     df = _read(out, fmt) if fmt == "csv" else pd.read_excel(out, engine="openpyxl")
     rows = _db(lab.db, "SELECT r.code, b.code, r.status, r.normality, r.factor, r.rsd_percent, "
                        "r.expanded_u, r.performed_at FROM runs r JOIN batches b ON "
                        "b.id = r.batch_id ORDER BY r.id")
-    assert res["rows"] == len(df) == len(rows) == 1
+    assert res.rows == len(df) == len(rows) == 1
     for (code, batch, status, n, f, rsd, big_u, at), (_, row) in zip(rows, df.iterrows(),
                                                                       strict=True):
         assert (row["run"], row["batch"], row["status"]) == (code, batch, status)
@@ -83,7 +84,7 @@ def test_runs_export_has_the_database_rows_and_unrounded_values(lab: Cli, tmp_pa
 def test_replicates_keep_the_readings_exactly_as_typed(lab: Cli, tmp_path: Path,
                                                        fmt: str) -> None:
     out = tmp_path / f"reps.{fmt}"
-    exports.export(open_database(str(lab.db)), kind="replicates", fmt=fmt, output=str(out))
+    export_table(open_database(str(lab.db)), kind="replicates", fmt=fmt, output=str(out))
     df = _read(out, fmt)
     rows = _db(lab.db, "SELECT amount_text, volume_ml_text FROM replicates ORDER BY run_id, "
                        "position, version")
@@ -97,7 +98,7 @@ def test_every_export_has_one_row_per_record(lab: Cli, tmp_path: Path, fmt: str)
     counts = row_counts(lab.db)
     for kind in exports.KINDS:
         out = tmp_path / f"{kind}.{fmt}"
-        exports.export(open_database(str(lab.db)), kind=kind, fmt=fmt, output=str(out))
+        export_table(open_database(str(lab.db)), kind=kind, fmt=fmt, output=str(out))
         df = _read(out, fmt)
         assert len(df) == counts[tables[kind]], kind
         stamps = [c for c in df.columns if c.endswith("_utc")]
@@ -110,12 +111,12 @@ def test_a_note_written_as_a_formula_comes_back_inert(lab: Cli, tmp_path: Path,
                                                       fmt: str) -> None:
     db = open_database(str(lab.db))
     out = tmp_path / f"batches.{fmt}"
-    res = exports.export(db, kind="batches", fmt=fmt, output=str(out))
-    assert res["neutralised_cells"] >= 1
+    res = export_table(db, kind="batches", fmt=fmt, output=str(out))
+    assert res.neutralised_cells >= 1
     notes = list(_read(out, fmt)["notes"])
     assert "'" + FORMULA_NOTE in notes and FORMULA_NOTE not in notes
     uses = tmp_path / f"uses.{fmt}"
-    exports.export(db, kind="uses", fmt=fmt, output=str(uses))
+    export_table(db, kind="uses", fmt=fmt, output=str(uses))
     assert list(_read(uses, fmt)["purpose"]) == ["'@SUM(A1:A2) assay 7"]
     if fmt == "xlsx":
         # openpyxl sees a text cell, not a formula (data type "s", not "f").
@@ -132,7 +133,7 @@ def test_a_note_written_as_a_formula_comes_back_inert(lab: Cli, tmp_path: Path,
 
 def test_the_audit_export_is_the_chain(lab: Cli, tmp_path: Path) -> None:
     out = tmp_path / "audit.csv"
-    exports.export(open_database(str(lab.db)), kind="audit", fmt="csv", output=str(out))
+    export_table(open_database(str(lab.db)), kind="audit", fmt="csv", output=str(out))
     df = _read(out, "csv")
     assert list(df["hash"]) == [r[0] for r in _db(lab.db, "SELECT hash FROM audit_events "
                                                           "ORDER BY seq")]
@@ -142,7 +143,7 @@ def test_the_audit_export_is_the_chain(lab: Cli, tmp_path: Path) -> None:
 def test_since_keeps_only_later_records(lab: Cli, tmp_path: Path) -> None:
     db = open_database(str(lab.db))
     out = tmp_path / "b.csv"
-    exports.export(db, kind="batches", fmt="csv", output=str(out), since="2999-01-01")
+    export_table(db, kind="batches", fmt="csv", output=str(out), since="2999-01-01")
     assert len(_read(out, "csv")) == 0
     assert list(pd.read_csv(out).columns)[:2] == ["batch", "spec"]
 
@@ -161,5 +162,5 @@ def test_bad_export_requests_write_nothing(lab: Cli, tmp_path: Path, kwargs: dic
     args = {"kind": "runs", "fmt": "csv", "output": "x.csv", **kwargs}
     args["output"] = str(out_dir / args["output"])
     with pytest.raises(InvalidInput, match=words):
-        exports.export(open_database(str(lab.db)), **args)
+        export_table(open_database(str(lab.db)), **args)
     assert list(out_dir.iterdir()) == []

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import pytest
 
+from prepbook.cli.labels import print_label
 from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.lab import auditing, labels
 from prepbook.store.engine import open_database
@@ -34,9 +35,9 @@ def test_a_print_records_the_run_factor_and_dates_it_showed(lab: tuple[Cli, str,
                                                              tmp_path: Path) -> None:
     cli, batch, run = lab
     db = open_database(str(cli.db))
-    res = labels.print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"),
-                             size="62x29mm", copies=2)
-    assert Path(res["file"]).is_file() and res["copies"] == 2 and res["run"] == run
+    res = print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"),
+                      size="62x29mm", copies=2)
+    assert Path(res.file).is_file() and res.copies == 2 and res.run == run
     shown = cli.json("batch", "show", batch)
     con = sqlite3.connect(cli.db)
     try:
@@ -61,18 +62,18 @@ def test_a_newer_accepted_run_makes_the_label_stale(lab: tuple[Cli, str, str],
                                                     tmp_path: Path) -> None:
     cli, batch, first = lab
     db = open_database(str(cli.db))
-    labels.print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"))
+    print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"))
     assert labels.stale_labels(db) == []
     second = _standardize(cli, batch)["run"]
     # Awaiting review: the label still shows the accepted result, so it is not stale yet.
     assert labels.stale_labels(db) == []
     _accept(cli, second)
     stale = labels.stale_labels(db)
-    assert [s["batch"] for s in stale] == [batch]
-    assert stale[0]["shown"]["run"] == first and stale[0]["current"]["run"] == second
-    assert any(second in r for r in stale[0]["reasons"])
+    assert [s.batch for s in stale] == [batch]
+    assert stale[0].shown.run == first and stale[0].current.run == second
+    assert any(second in r for r in stale[0].reasons)
     # A fresh label clears it.
-    labels.print_label(db, actor="ben", code=batch, output=str(tmp_path / "l2.pdf"))
+    print_label(db, actor="ben", code=batch, output=str(tmp_path / "l2.pdf"))
     assert labels.stale_labels(db) == []
 
 
@@ -82,19 +83,19 @@ def test_a_label_printed_before_standardization_goes_stale_once_accepted(
         pytest.skip("SQLite file only")
     batch = _make_batch(bench)
     db = open_database(str(bench.db))
-    res = labels.print_label(db, actor="ben", code=batch, output=str(tmp_path / "new.pdf"))
-    assert res["run"] is None and res["state"] == "new"
+    res = print_label(db, actor="ben", code=batch, output=str(tmp_path / "new.pdf"))
+    assert res.run is None and res.state == "new"
     _accept(bench, _standardize(bench, batch)["run"])
-    assert [s["batch"] for s in labels.stale_labels(db)] == [batch]
+    assert [s.batch for s in labels.stale_labels(db)] == [batch]
 
 
 def test_a_lot_label_is_recorded_against_the_lot(lab: tuple[Cli, str, str],
                                                  tmp_path: Path) -> None:
     cli, _, _ = lab
     db = open_database(str(cli.db))
-    res = labels.print_label(db, actor="ben", code="KHP-0001", lot=True,
-                             output=str(tmp_path / "lot.pdf"))
-    assert res["kind"] == "lot"
+    res = print_label(db, actor="ben", code="KHP-0001", lot=True,
+                      output=str(tmp_path / "lot.pdf"))
+    assert res.kind == "lot"
     con = sqlite3.connect(cli.db)
     try:
         assert con.execute("SELECT l.code FROM label_prints lp JOIN lots l ON l.id = lp.lot_id"
@@ -122,7 +123,7 @@ def test_bad_input_writes_no_row_and_no_file(lab: tuple[Cli, str, str], tmp_path
         kwargs = {**kwargs, "output": str(tmp_path / "out" / kwargs["output"])}
     before = row_counts(cli.db)
     with pytest.raises(error, match=words):
-        labels.print_label(db, **{**args, **kwargs})
+        print_label(db, **{**args, **kwargs})
     assert row_counts(cli.db) == before
     assert list((tmp_path / "out").iterdir()) == []
 
@@ -135,9 +136,9 @@ def test_an_existing_file_is_replaced_only_when_asked(lab: tuple[Cli, str, str],
     target.write_bytes(b"keep me")
     before = row_counts(cli.db)
     with pytest.raises(InvalidInput, match="already exists"):
-        labels.print_label(db, actor="ben", code=batch, output=str(target))
+        print_label(db, actor="ben", code=batch, output=str(target))
     assert target.read_bytes() == b"keep me" and row_counts(cli.db) == before
-    labels.print_label(db, actor="ben", code=batch, output=str(target), replace=True)
+    print_label(db, actor="ben", code=batch, output=str(target), replace=True)
     assert target.read_bytes().startswith(b"%PDF")
     assert list(tmp_path.glob("*.part")) == []  # no temporary file left
 
@@ -158,7 +159,7 @@ def test_a_failure_while_drawing_leaves_no_file_and_no_row(lab: tuple[Cli, str, 
     monkeypatch.setattr(Path, "write_bytes", broken)
     before = row_counts(cli.db)
     with pytest.raises(OSError):
-        labels.print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"))
+        print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"))
     monkeypatch.undo()
     assert row_counts(cli.db) == before
     assert list(tmp_path.glob("*l.pdf*")) == []
@@ -170,4 +171,58 @@ def test_a_retired_batch_is_not_relabelled(lab: tuple[Cli, str, str], tmp_path: 
            input="ben-passphrase\n")
     db = open_database(str(cli.db))
     with pytest.raises(Refused, match="retired"):
-        labels.print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"))
+        print_label(db, actor="ben", code=batch, output=str(tmp_path / "l.pdf"))
+
+
+def test_the_service_records_the_content_it_delivers(lab: tuple[Cli, str, str],
+                                                     tmp_path: Path) -> None:
+    """The service hands the edge what the label shows and records exactly that."""
+    from dataclasses import asdict
+
+    from prepbook.lab.label_content import BatchLabel
+
+    cli, batch, run = lab
+    db = open_database(str(cli.db))
+    seen: list[object] = []
+
+    class Drawn:
+        font_pt = 6.5
+        notes = ("packed",)
+
+    def deliver(content: object, record: object) -> Drawn:
+        seen.append(content)
+        record()  # type: ignore[operator]
+        return Drawn()
+
+    res = labels.print_label(db, actor="ben", code=batch, size="70x37mm", copies=1,
+                             file=str(tmp_path / "x.pdf"), deliver=deliver)
+    assert len(seen) == 1 and isinstance(seen[0], BatchLabel)
+    assert (seen[0].code, seen[0].run) == (batch, run)
+    assert (res.run, res.font_pt, res.notes) == (run, 6.5, ("packed",))
+    con = sqlite3.connect(cli.db)
+    try:
+        stored = con.execute("SELECT shown_json FROM label_prints").fetchone()[0]
+    finally:
+        con.close()
+    assert json.loads(stored) == json.loads(json.dumps(asdict(seen[0])))
+
+
+@pytest.mark.parametrize("how", ["never records", "fails after recording"])
+def test_a_delivery_that_does_not_finish_records_nothing(lab: tuple[Cli, str, str],
+                                                        tmp_path: Path, how: str) -> None:
+    """No row without a delivered file: a file move that fails after the row was written
+    rolls it back, and a delivery that never records is refused."""
+    cli, batch, _ = lab
+    db = open_database(str(cli.db))
+
+    def deliver(content: object, record: object) -> object:
+        if how == "never records":
+            return None
+        record()  # type: ignore[operator]
+        raise InvalidInput("cannot write x.pdf: disk full")
+
+    before = row_counts(cli.db)
+    with pytest.raises((RuntimeError, InvalidInput)):
+        labels.print_label(db, actor="ben", code=batch, size="70x37mm", copies=1,
+                           file=str(tmp_path / "x.pdf"), deliver=deliver)
+    assert row_counts(cli.db) == before

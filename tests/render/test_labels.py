@@ -9,6 +9,7 @@ a pypdfium2 rendering; none of them share code with reportlab or qrcode.
 from __future__ import annotations
 
 import io
+from dataclasses import replace
 from typing import Any
 
 import pypdfium2 as pdfium
@@ -18,33 +19,33 @@ from pypdf import PdfReader
 
 from prepbook.catalog import loader
 from prepbook.errors import InvalidInput
+from prepbook.lab.label_content import BatchLabel, Hazard, LotLabel
 from prepbook.render import labels, sizes
 
 
-def batch_data(spec: Any, **over: Any) -> dict[str, Any]:
+def batch_data(spec: Any, **over: Any) -> BatchLabel:
     """Invented label content for a catalog spec (demo-style values)."""
     hz = spec.hazard
-    data = {
-        "kind": "batch", "code": f"{spec.code}-261125-1", "spec": spec.code, "name": spec.name,
-        "unit": spec.unit, "nominal": spec.nominal, "concentration": spec.nominal * 1.00771,
-        "factor": 1.00771, "run": "R261126-1", "state": "in-service", "made_on": "2026-11-25",
-        "made_by": "ines", "standardized_on": "2026-11-26", "restandardize_by": "2026-12-04",
-        "expires": "2027-02-23", "storage": spec.storage, "printed_on": "2026-12-01",
-        "printed_by": "ines",
-        "hazard": {"signal_word": hz.signal_word, "statements": list(hz.statements),
-                   "pictograms": list(hz.pictograms)} if hz else {},
-    }
-    data.update(over)
-    return data
+    data = BatchLabel(
+        code=f"{spec.code}-261125-1", spec=spec.code, name=spec.name, unit=spec.unit,
+        nominal=spec.nominal, concentration=spec.nominal * 1.00771, factor=1.00771,
+        normality=None, run="R261126-1", state="in-service", made_on="2026-11-25",
+        made_by="ines", standardized_on="2026-11-26", restandardize_by="2026-12-04",
+        expires="2027-02-23", storage=spec.storage, printed_on="2026-12-01",
+        printed_by="ines",
+        hazard=Hazard(signal_word=hz.signal_word, statements=list(hz.statements),
+                      pictograms=list(hz.pictograms)) if hz else Hazard(),
+    )
+    return replace(data, **over)
 
 
-LOT = {
-    "kind": "lot", "code": "KHP-LOT-7", "name": "Potassium hydrogen phthalate",
-    "material": "KHP", "formula": "KHC8H4O4", "purity_percent": "99.98",
-    "purity_u_percent": "0.05", "certificate": "CoA 77 (invented)", "opened_on": "2026-10-01",
-    "dried_on": "2026-11-20", "drying": "120 C for 2 h", "expires": "2028-05-24",
-    "expired": False, "hazard": {}, "printed_on": "2026-12-01", "printed_by": "ines",
-}
+LOT = LotLabel(
+    code="KHP-LOT-7", name="Potassium hydrogen phthalate", material="KHP",
+    formula="KHC8H4O4", purity_percent="99.98", purity_u_percent="0.05",
+    certificate="CoA 77 (invented)", opened_on="2026-10-01", dried_on="2026-11-20",
+    drying="120 C for 2 h", expires="2028-05-24", expired=False, hazard=Hazard(),
+    printed_on="2026-12-01", printed_by="ines",
+)
 
 
 def longest_spec() -> Any:
@@ -66,7 +67,7 @@ def test_every_field_of_a_batch_label_is_in_the_pdf() -> None:
     assert lay.tier == 0
     text = squash(pdf_text(pdf))
     for expected in [spec.name, "nominal 0.1 N", "1.0077",  # factor, 4 decimals
-                     "0.10077 N at 20 °C", data["code"], "2026-11-25 by ines", "2026-11-26",
+                     "0.10077 N at 20 °C", data.code, "2026-11-25 by ines", "2026-11-26",
                      "R261126-1", "2026-12-04", "2027-02-23", "WARNING", spec.storage,
                      *spec.hazard.statements, *spec.hazard.pictograms, "SDS",
                      "local regulations"]:
@@ -108,7 +109,7 @@ def test_the_qr_code_decodes_to_the_batch_code_at_every_size(size: str) -> None:
     data = batch_data(longest_spec())
     pdf, _ = labels.label_pdf(data, sizes.SIZES[size])
     # 300 dpi, a common label-printer resolution.
-    assert _decode(pdf, scale=300 / 72) == [data["code"]]
+    assert _decode(pdf, scale=300 / 72) == [data.code]
 
 
 def test_the_qr_code_of_a_lot_label_decodes_to_the_lot_code() -> None:
@@ -123,8 +124,8 @@ def test_a_sheet_carries_the_copies_and_each_qr_code_decodes() -> None:
     per_sheet = sizes.grid(sizes.SHEETS["a4"], sizes.SIZES["70x37mm"]).per_sheet
     reader = PdfReader(io.BytesIO(pdf))
     assert len(reader.pages) == -(-20 // per_sheet)
-    assert pdf_text(pdf).count(data["code"]) >= 20
-    assert _decode(pdf, page=0, scale=2.5) == [data["code"]] * per_sheet
+    assert pdf_text(pdf).count(data.code) >= 20
+    assert _decode(pdf, page=0, scale=2.5) == [data.code] * per_sheet
 
 
 def test_one_label_per_page_for_copies_without_a_sheet() -> None:

@@ -45,8 +45,8 @@ def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(built) ->
     t = watch.batch_trend(db, code)
     shown = batches.show_batch(db, code)
     assert [p.factor for p in t.points] == [r.factor for r in shown.runs]
-    spec = next(s for s in specs.list_specs(db) if s["code"] == shown.spec)
-    assert t.window == (spec["factor_low"], spec["factor_high"])
+    spec = next(s for s in specs.list_specs(db) if s.code == shown.spec)
+    assert t.window == (spec.factor_low, spec.factor_high)
     # the demo's NaOH loses strength to carbon dioxide: the fitted slope is negative
     assert t.trend.slope_ci_percent_per_30d is not None
     assert t.trend.slope_ci_percent_per_30d[1] < 0

@@ -211,12 +211,13 @@ class BatchScreen(Screen[None]):
                                           note="An existing file is never overwritten."), done)
 
     def action_label(self) -> None:
+        from prepbook.cli.labels import print_label
         from prepbook.lab import labels
 
         app: Any = self.app
         self._to_file(f"Label for {self.code}", labels.default_file_name(self.code),
-                      lambda out: str(labels.print_label(app.db, actor=app.actor or "",
-                                                         code=self.code, output=out)["file"]))
+                      lambda out: str(print_label(app.db, actor=app.actor or "",
+                                                       code=self.code, output=out).file))
 
     def action_report(self) -> None:
         from prepbook.lab import reports

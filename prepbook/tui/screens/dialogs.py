@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING
 
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -11,15 +11,18 @@ from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
+if TYPE_CHECKING:
+    from prepbook.lab.people import UserInfo
+
 
 class WhoScreen(ModalScreen[str]):
     """Asked at start when no --user was given: who is at the keyboard."""
 
     BINDINGS = [Binding("q", "app.quit", "Leave")]
 
-    def __init__(self, users: list[dict[str, Any]], note: str = "") -> None:
+    def __init__(self, users: list[UserInfo], note: str = "") -> None:
         super().__init__()
-        self.users = [u for u in users if u.get("active", True)]
+        self.users = [u for u in users if u.active]
         self.note = note
 
     def compose(self) -> ComposeResult:
@@ -32,9 +35,9 @@ class WhoScreen(ModalScreen[str]):
             if not self.users:
                 yield Static("This database has no users yet: an admin adds them with "
                              "`prepbook user add`.", classes="refusal")
-            yield OptionList(*[Option(f"{u['name']}  ({u['role']})"
-                                      + ("  · locked out" if u.get("locked") else ""),
-                                      id=u["name"])
+            yield OptionList(*[Option(f"{u.name}  ({u.role})"
+                                      + ("  · locked out" if u.locked else ""),
+                                      id=u.name)
                                for u in self.users], id="who-list")
 
     def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:

@@ -23,6 +23,7 @@ from prepbook.tui.widgets import colour
 
 if TYPE_CHECKING:
     from prepbook.lab.board import BatchLife
+    from prepbook.lab.specs import SpecInfo
 
 METHODS = [("weighed solid", "solid"), ("concentrated reagent", "concentrate"),
            ("dilution of a stock batch", "dilution")]
@@ -37,7 +38,7 @@ class PrepareScreen(Screen[None]):
 
     def __init__(self) -> None:
         super().__init__()
-        self.specs: dict[str, dict[str, Any]] = {}
+        self.specs: dict[str, SpecInfo] = {}
         self.board: list[BatchLife] = []
         self.made: str | None = None
 
@@ -81,18 +82,18 @@ class PrepareScreen(Screen[None]):
         from prepbook.lab import board, instruments, lots, specs
 
         db = self.app.db  # type: ignore[attr-defined]
-        self.specs = {s["code"]: s for s in specs.list_specs(db)}
+        self.specs = {s.code: s for s in specs.list_specs(db)}
         self.board = board.board(db)
-        self.query_one("#spec", Select).set_options([(f"{c} · {s['name']}", c)
+        self.query_one("#spec", Select).set_options([(f"{c} · {s.name}", c)
                                                      for c, s in self.specs.items()])
         self.query_one("#lot", Select).set_options(
-            [(f"{lt['code']} · {lt['material']} {lt['purity_percent']} %", lt["code"])
-             for lt in lots.list_lots(db) if not lt["expired"]])
+            [(f"{lt.code} · {lt.material} {lt.purity_percent} %", lt.code)
+             for lt in lots.list_lots(db) if not lt.expired])
         ins = instruments.list_instruments(db)
         for kind in ("flask", "balance"):
             self.query_one(f"#{kind}", Select).set_options(
-                [(i["code"] + (" · calibration OVERDUE" if i["overdue"] else ""), i["code"])
-                 for i in ins if i["kind"] == kind])
+                [(i.code + (" · calibration OVERDUE" if i.overdue else ""), i.code)
+                 for i in ins if i.kind == kind])
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "prepare a batch  ·  acting as ",
             self.app.who()))  # type: ignore[attr-defined]
@@ -109,10 +110,11 @@ class PrepareScreen(Screen[None]):
         if event.select.id == "spec" and isinstance(event.value, str):
             spec = self.specs[event.value]
             self.query_one("#target", Input).value = (
-                f"{spec['nominal']:g}" if spec["unit"] == "N" else "")
+                f"{spec.nominal:g}" if spec.unit == "N" else "")
             parents = [it for it in self.board if it.state in ("in-service", "due")
-                       and self.specs.get(it.spec, {}).get("solute") == spec["solute"]
-                       and it.spec != spec["code"]]
+                       and it.spec in self.specs
+                       and self.specs[it.spec].solute == spec.solute
+                       and it.spec != spec.code]
             self.query_one("#parent", Select).set_options(
                 [(f"{it.batch} · N {words.sig(it.normality)}", it.batch)
                  for it in parents])
@@ -144,16 +146,16 @@ class PrepareScreen(Screen[None]):
             return
         spec = self.specs[code]
         method = self.value("method")
-        out = Text.assemble((f"{spec['name']}\n", "bold"))
-        out.append(f"  nominal {spec['nominal']:g} {spec['unit']} · solute {spec['solute']} · "
-                   f"shelf life {spec['shelf_life_days']} days\n")
-        cautions: list[str] = list(spec.get("cautions") or [])
+        out = Text.assemble((f"{spec.name}\n", "bold"))
+        out.append(f"  nominal {spec.nominal:g} {spec.unit} · solute {spec.solute} · "
+                   f"shelf life {spec.shelf_life_days} days\n")
+        cautions: list[str] = list(spec.cautions)
         target, volume = self.value("target"), self.value("volume")
         err = colour(self.app, "error")
         out.append("\ncalculator\n", style="bold")
-        if spec["unit"] != "N" and not target:
+        if spec.unit != "N" and not target:
             out.append(f"  this spec is in mol/L: type the target normality (eq/L) for the "
-                       f"calculator, {spec['nominal']:g} M × the equivalents per mole of "
+                       f"calculator, {spec.nominal:g} M × the equivalents per mole of "
                        "the reaction\n")
         elif not (target and volume):
             out.append("  type the target normality and the final volume\n")
@@ -161,7 +163,7 @@ class PrepareScreen(Screen[None]):
             found: tuple[str, ...] = ()  # the calculator's cautions for what it names
             try:
                 if method == "solid":
-                    solid = calcs.solid(spec["solute"], normality_text=target,
+                    solid = calcs.solid(spec.solute, normality_text=target,
                                         volume_text=volume,
                                         purity_text=self.value("purity") or "100")
                     out.append(f"  weigh {words.sig(solid.mass_g, 5)} g of {solid.name} "
@@ -171,7 +173,7 @@ class PrepareScreen(Screen[None]):
                                f"{solid.purity_percent:g} %) for {target} N in {volume} mL\n")
                     found = solid.cautions
                 elif method == "concentrate":
-                    liquid = calcs.liquid(spec["solute"], normality_text=target,
+                    liquid = calcs.liquid(spec.solute, normality_text=target,
                                           volume_text=volume)
                     out.append(f"  measure {words.sig(liquid.volume_ml, 4)} mL of {liquid.name} "
                                f"({liquid.mass_fraction_percent:g} % m/m, "
@@ -198,8 +200,8 @@ class PrepareScreen(Screen[None]):
         out.append("  The calculator only advises: record what was actually weighed or "
                    "measured.\n", style="dim")
         out.append("\nsafety\n", style="bold")
-        live.update(Group(out, safety(self.app, spec.get("hazard"), cautions,
-                                      spec.get("storage"))))
+        live.update(Group(out, safety(self.app, spec.hazard, cautions,
+                                      spec.storage)))
 
     # -- recording ------------------------------------------------------------------------
     def action_submit(self) -> None:
@@ -237,8 +239,8 @@ class PrepareScreen(Screen[None]):
         for w in res.warnings:
             out.append(f"  ! {w}\n", style=colour(self.app, "warning"))
         spec = self.specs[code]
-        live.update(Group(out, safety(self.app, spec.get("hazard"), res.cautions,
-                                      spec.get("storage"))))
+        live.update(Group(out, safety(self.app, spec.hazard, res.cautions,
+                                      spec.storage)))
         for w in self.query(Input):
             w.disabled = True
         self.app.notify(f"batch {res.batch} recorded", title="recorded")

@@ -99,14 +99,14 @@ class RecordScreen(Screen[None]):
         except PrepbookError as exc:
             self.query_one("#live", Static).update(Text(str(exc)))
             return
-        spec = next((s for s in specs.list_specs(db) if s["code"] == chain.spec), {})
-        standard = spec.get("standard")
-        lot_rows = sorted(lots.list_lots(db), key=lambda lt: (lt["material"] != standard,
-                                                              lt["expired"], lt["code"]))
+        spec = next((s for s in specs.list_specs(db) if s.code == chain.spec), None)
+        standard = spec.standard if spec else None
+        lot_rows = sorted(lots.list_lots(db), key=lambda lt: (lt.material != standard,
+                                                              lt.expired, lt.code))
         options: list[tuple[str, str]] = [
-            (f"lot {lt['code']} · {lt['material']} {lt['purity_percent']} %"
-             + (" · EXPIRED" if lt["expired"] else f" · expires {lt['expires']}"),
-             f"lot:{lt['code']}") for lt in lot_rows]
+            (f"lot {lt.code} · {lt.material} {lt.purity_percent} %"
+             + (" · EXPIRED" if lt.expired else f" · expires {lt.expires}"),
+             f"lot:{lt.code}") for lt in lot_rows]
         from prepbook.lab import board
 
         options += [(f"against batch {it.batch} · N {words.sig(it.normality)}",
@@ -115,21 +115,21 @@ class RecordScreen(Screen[None]):
         src = self.query_one("#source", Select)
         src.set_options(options)
         first = next((v for _, v in options if v.startswith("lot:") and standard
-                      and any(lt["code"] == v[4:] and lt["material"] == standard
-                              and not lt["expired"] for lt in lot_rows)), None)
+                      and any(lt.code == v[4:] and lt.material == standard
+                              and not lt.expired for lt in lot_rows)), None)
         if first:
             src.value = first
         ins = instruments.list_instruments(db)
         for kind in ("balance", "burette"):
-            rows = [i for i in ins if i["kind"] == kind]
+            rows = [i for i in ins if i.kind == kind]
             self.query_one(f"#{kind}", Select).set_options(
-                [(f"{i['code']}" + (" · calibration OVERDUE" if i["overdue"]
-                                    else f" · due {i['due']}"), i["code"]) for i in rows])
-            live = [i for i in rows if not i["overdue"]]
+                [(f"{i.code}" + (" · calibration OVERDUE" if i.overdue
+                                 else f" · due {i.due}"), i.code) for i in rows])
+            live = [i for i in rows if not i.overdue]
             if len(live) >= 1:
-                self.query_one(f"#{kind}", Select).value = live[0]["code"]
-        if spec.get("indicator"):
-            self.query_one("#indicator", Input).value = spec["indicator"]
+                self.query_one(f"#{kind}", Select).value = live[0].code
+        if spec and spec.indicator:
+            self.query_one("#indicator", Input).value = spec.indicator
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "standardize  ", (self.code, "bold"),
             f"  {chain.spec_name}  ", state_cell(self.app, chain.state),
