@@ -37,7 +37,7 @@ def log(
         return
     output.console().print(output.table(
         "Audit trail", ["seq", "at (UTC)", "actor", "action", "record", "reason"],
-        [(e["seq"], e["at"], e["actor"], e["action"], e["record"], e["reason"] or "")
+        [(e.seq, e.at, e.actor, e.action, e.record, e.reason or "")
          for e in events], right=(0,)))
 
 
@@ -54,11 +54,11 @@ def verify(
         output.emit_json(rep)
     else:
         out = output.console()
-        if rep["ok"]:
-            out.print(f"audit trail verified: {rep['events']} events, every record matches")
+        if rep.ok:
+            out.print(f"audit trail verified: {rep.events} events, every record matches")
         else:
-            out.print(f"[bold]audit trail NOT verified[/bold] ({rep['events']} events):")
-            for p in rep["problems"]:
+            out.print(f"[bold]audit trail NOT verified[/bold] ({rep.events} events):")
+            for p in rep.problems:
                 out.print(f"  - {p}")
-    if not rep["ok"]:
+    if not rep.ok:
         raise typer.Exit(1)

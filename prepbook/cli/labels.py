@@ -3,8 +3,6 @@ labels that no longer match the record."""
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from pathlib import Path
 from typing import TYPE_CHECKING
 
 import typer
@@ -15,38 +13,22 @@ from prepbook.errors import InvalidInput
 
 if TYPE_CHECKING:
     from prepbook.lab.database import Database
-    from prepbook.lab.label_content import LabelContent
     from prepbook.lab.labels import LabelPrinted
-    from prepbook.render.labels import LabelLayout
 
 
 def print_label(db: Database, *, actor: str, code: str, output: str | None = None,
                 size: str | None = None, copies: int = 1, sheet: str | None = None,
                 lot: bool = False, replace: bool = False) -> LabelPrinted:
     """Draw the PDF label of a batch (or, with ``lot``, of a lot), write it to ``output``
-    (default label-CODE.pdf) and record the print (the terminal app uses it too)."""
+    (default label-CODE.pdf) and record the print."""
     from prepbook.lab import labels
-    from prepbook.render import files, sizes
-    from prepbook.render import labels as drawing
+    from prepbook.render.label_files import label_job
 
-    label_size = sizes.find_size(size or sizes.DEFAULT_SIZE)
-    label_sheet = sizes.find_sheet(sheet) if sheet else None
-    target = Path(output) if output else Path(labels.default_file_name(code))
-    if target.suffix.lower() != ".pdf":
-        raise InvalidInput(f"{target} should end in .pdf")
-    files.check_target(target, replace=replace)
-
-    def deliver(content: LabelContent, record: Callable[[], None]) -> LabelLayout:
-        pdf, layout = drawing.label_pdf(content, label_size, copies=copies, sheet=label_sheet)
-        with files.staged(target, replace=replace) as (tmp, commit):
-            tmp.write_bytes(pdf)
-            record()
-            commit()  # the last step of the transaction: a failed move rolls the row back
-        return layout
-
-    return labels.print_label(db, actor=actor, code=code, size=label_size.name,
-                              sheet=label_sheet.name if label_sheet else None, copies=copies,
-                              file=str(files.absolute(target)), deliver=deliver, lot=lot)
+    job = label_job(output, labels.default_file_name(code), size=size, copies=copies,
+                    sheet=sheet, replace=replace)
+    return labels.print_label(db, actor=actor, code=code, size=job.size.name,
+                              sheet=job.sheet_name, copies=copies, file=job.file,
+                              deliver=job.deliver, lot=lot)
 
 
 def label(

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-from typing import Any
-
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_date
 from prepbook.store import audit
@@ -13,7 +11,8 @@ from prepbook.store.models import AUDITED_TABLES
 
 def log(db: Database, *, record: str | None = None, actor: str | None = None,
         since: str | None = None, until: str | None = None,
-        limit: int | None = None) -> list[dict[str, Any]]:
+        limit: int | None = None) -> list[audit.LogEntry]:
+    """Audit events, filtered; ``record`` is TABLE or TABLE#ID."""
     record_type = record_id = None
     if record:
         name, _, rid = record.partition("#")
@@ -36,8 +35,7 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
                          since=since_d, until=until_d, limit=limit)
 
 
-def verify(db: Database) -> dict[str, Any]:
+def verify(db: Database) -> audit.VerifyReport:
+    """The chain recomputed and every audited row checked against its last event."""
     with db.session(write=False) as s:
-        rep = audit.verify(s)
-    return {"ok": rep.ok, "events": rep.events, "head_hash": rep.head_hash,
-            "problems": list(rep.problems)}
+        return audit.verify(s)

@@ -79,11 +79,11 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
             from_batch=codes[b["from_batch"]] if "from_batch" in b else None,
             aliquot=b.get("aliquot"), flask=b.get("flask"), balance=b.get("balance"),
             notes=b.get("notes"), at=made.isoformat(timespec="minutes"))
-        codes[b["key"]] = res["batch"]
+        codes[b["key"]] = res.batch
         for r in b.get("run", []):
             when = _moment(today, r["day"], r.get("time", "10:00"))
             out = runs.standardize(
-                db, actor=r["by"], batch=res["batch"], replicates=list(r["reps"]),
+                db, actor=r["by"], batch=res.batch, replicates=list(r["reps"]),
                 lot=r.get("lot"), against=codes[r["against"]] if "against" in r else None,
                 balance=r.get("balance"), burette=r.get("burette"), temperature=r.get("temp"),
                 blank=r.get("blank"), indicator=r.get("indicator"),
@@ -115,8 +115,8 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
         "database": target,
         "batches": len(codes),
         "runs": run_count,
-        "events": verified["events"],
-        "verified": verified["ok"],
+        "events": verified.events,
+        "verified": verified.ok,
         "story": story,
         "board": items,
         "example_batch": codes["naoh_a"],

@@ -9,7 +9,6 @@ prints of the batch. Drawing the PDF is the edge's work (``prepbook.render.repor
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
 
 from sqlalchemy import and_, or_, select
 
@@ -18,6 +17,7 @@ from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
 from prepbook.lab.batch_records import BatchRecord
 from prepbook.lab.common import by_code
+from prepbook.lab.labels import LabelPrintRow
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, Batch, LabelPrint, Replicate, Review, Run, Use
 
@@ -73,7 +73,7 @@ class ReportData:
     window: SpecWindow
     chart: tuple[ChartPoint, ...]
     corrections: tuple[ReasonedEvent, ...]
-    labels: tuple[dict[str, Any], ...]  # ``labels.label_prints``
+    labels: tuple[LabelPrintRow, ...]  # ``labels.label_prints``
     audit: AuditSummary
     printed_at: str
 
@@ -127,6 +127,6 @@ def gather(db: Database, code: str) -> ReportData:
     return ReportData(
         batch=shown, window=window, chart=tuple(points), corrections=events,
         labels=tuple(labels.label_prints(db, code)),
-        audit=AuditSummary(ok=audit["ok"], events=audit["events"],
-                           head_hash=audit["head_hash"], problems=tuple(audit["problems"])),
+        audit=AuditSummary(ok=audit.ok, events=audit.events, head_hash=audit.head_hash,
+                           problems=audit.problems),
         printed_at=when(utc_now()))

@@ -96,7 +96,7 @@ def _float(text: str | None) -> float | None:
 def _batch_state(session: Session, batch: Batch, when: datetime) -> str:
     from prepbook.lab.board import batch_life
 
-    return str(batch_life(session, batch, when.date())["state"])
+    return str(batch_life(session, batch, when.date()).state)
 
 
 @dataclass(frozen=True)

@@ -10,13 +10,13 @@ the records that make up its history (for its audit events) and its factor trend
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
 
 from sqlalchemy import select
 
 from prepbook.lab import auditing, history
 from prepbook.lab.batch_facts import when
 from prepbook.lab.common import by_code
+from prepbook.store.audit import LogEntry
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditHead, Batch, Replicate, Review, Run, Use
 
@@ -68,12 +68,12 @@ def batch_records(db: Database, code: str) -> list[str]:
     return records
 
 
-def batch_events(db: Database, code: str) -> list[dict[str, Any]]:
+def batch_events(db: Database, code: str) -> list[LogEntry]:
     """Every audit event of one batch's history, oldest first (as ``audit log``)."""
-    events: dict[int, dict[str, Any]] = {}
+    events: dict[int, LogEntry] = {}
     for record in batch_records(db, code):
         for ev in auditing.log(db, record=record):
-            events[ev["seq"]] = ev
+            events[ev.seq] = ev
     return [events[k] for k in sorted(events)]
 
 

@@ -67,12 +67,12 @@ def measure(db_path: str | Path, runs: int = 3) -> dict[str, Any]:
     bare_s, matched = _best_of(runs, lambda: bare_loop(path))
     verify_s, report = _best_of(runs, lambda: prepbook_verify(path))
     return {
-        "events": report["events"],
+        "events": report.events,
         "events_matched_by_bare_loop": matched,
         "bare_loop_s": round(bare_s, 3),
         "verify_s": round(verify_s, 3),
         "ratio": round(verify_s / bare_s, 2),
-        "verify_ok": report["ok"],
+        "verify_ok": report.ok,
     }
 
 

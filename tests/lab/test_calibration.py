@@ -53,11 +53,11 @@ def test_calibration_moves_the_due_date_and_clears_the_warning(overdue_lab: Cli)
         assert listed["BUR-9"].due == _day(365)
         # The earlier due date is in the trail, and the row still matches its last event.
         events = auditing.log(db, record="instruments")
-        calibrations = [e for e in events if e["action"] == "instrument.calibrate"]
+        calibrations = [e for e in events if e.action == "instrument.calibrate"]
         assert len(calibrations) == 1
-        assert f"was due {_day(-1)}" in calibrations[0]["reason"]
-        assert "CAL-2026-118" in calibrations[0]["reason"]
-        assert auditing.verify(db)["ok"]
+        assert f"was due {_day(-1)}" in calibrations[0].reason
+        assert "CAL-2026-118" in calibrations[0].reason
+        assert auditing.verify(db).ok
     finally:
         db.dispose()
 

@@ -54,8 +54,8 @@ def test_a_print_records_the_run_factor_and_dates_it_showed(lab: tuple[Cli, str,
     assert (restd, expires) == (shown["restandardize_by"], shown["expires"])
     assert json.loads(shown_json)["code"] == batch
     # The print is audited like every other write, and the trail still verifies.
-    assert auditing.verify(db)["ok"] is True
-    assert any(e["action"] == "label.print" for e in auditing.log(db, record="label_prints"))
+    assert auditing.verify(db).ok is True
+    assert any(e.action == "label.print" for e in auditing.log(db, record="label_prints"))
 
 
 def test_a_newer_accepted_run_makes_the_label_stale(lab: tuple[Cli, str, str],

@@ -51,7 +51,7 @@ def test_the_report_shows_every_run_replicate_review_and_the_head_hash(demo: Pat
     res = _write(db, code, out)
     text = _text(out)
     shown = batches.show_batch(db, code)
-    head = auditing.verify(db)["head_hash"]
+    head = auditing.verify(db).head_hash
     assert res.head_hash == head and res.pages >= 2 and res.runs == len(shown.runs)
     for section in ("Preparation", "Control chart", "Standardizations", "Uncertainty budget",
                     "Corrections and reasons", "Uses", "Labels printed", "Audit trail"):

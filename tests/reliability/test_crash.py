@@ -71,7 +71,7 @@ def test_killed_benches_leave_whole_records(backend: str) -> None:
     # but before its line was printed.
     assert len(after["batches"]) - len(before["batches"]) - len(batches) <= KILLS
     assert all(n == len(REPS) for n in after["replicates"].values()), after["replicates"]
-    assert after["verify"]["ok"] is True, after["verify"]["problems"]
+    assert after["verify"].ok is True, after["verify"].problems
     if "://" not in backend:
         con = sqlite3.connect(Path(backend))
         try:

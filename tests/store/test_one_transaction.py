@@ -42,7 +42,7 @@ def test_calls_in_one_transaction_are_committed_together(
     after = row_counts(db_target)
     assert after["instruments"] == before["instruments"] + 2
     assert after["audit_events"] == before["audit_events"] + 2
-    assert auditing.verify(db)["ok"] is True
+    assert auditing.verify(db).ok is True
 
 
 def test_a_refused_call_fails_the_whole_block(db: Database, db_target: Path | str) -> None:
@@ -54,7 +54,7 @@ def test_a_refused_call_fails_the_whole_block(db: Database, db_target: Path | st
             _balance(db, "BAL-1")  # the same code twice
         _balance(db, "BAL-2")  # the caller went on: the block fails all the same
     assert row_counts(db_target) == before
-    assert auditing.verify(db)["ok"] is True
+    assert auditing.verify(db).ok is True
 
 
 def test_a_call_that_is_not_found_fails_the_whole_block(
@@ -77,7 +77,7 @@ def test_an_error_leaving_the_block_rolls_everything_back(
         raise RuntimeError("power cut")
     assert row_counts(db_target) == before
     _balance(db, "BAL-1")  # the database is usable again, outside any block
-    assert auditing.verify(db)["ok"] is True
+    assert auditing.verify(db).ok is True
 
 
 def test_blocks_do_not_nest(db: Database) -> None:

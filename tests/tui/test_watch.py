@@ -23,19 +23,19 @@ def test_head_moves_with_every_write_and_batch_events_are_its_history(built) -> 
 
     db, due_naoh = built
     head = watch.head_seq(db)
-    assert head == auditing.log(db, limit=1)[0]["seq"]
+    assert head == auditing.log(db, limit=1)[0].seq
     made = batches.make_batch(db, actor="ines", spec="NaOH-0.1N", volume="1000",
                               solute_mass="4.10")
     assert watch.head_seq(db) == head + 1
     events = watch.batch_events(db, made.batch)
-    assert [e["action"] for e in events] == ["batch.make"]
+    assert [e.action for e in events] == ["batch.make"]
     naoh = watch.batch_events(db, due_naoh)
     runs = batches.show_batch(db, due_naoh).runs
     # one event per run recorded, per replicate, per review and per status change
-    assert sum(e["action"] == "run.record" for e in naoh) == len(runs)
-    assert sum(e["action"] == "replicate.record" for e in naoh) == sum(
+    assert sum(e.action == "run.record" for e in naoh) == len(runs)
+    assert sum(e.action == "replicate.record" for e in naoh) == sum(
         len(r.replicates or ()) for r in runs)
-    assert [e["seq"] for e in naoh] == sorted(e["seq"] for e in naoh)
+    assert [e.seq for e in naoh] == sorted(e.seq for e in naoh)
 
 
 def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(built) -> None:

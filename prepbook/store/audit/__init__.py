@@ -10,11 +10,12 @@ behind prepbook's back is found and named.
 """
 
 from prepbook.store.audit.chain import KEY_ENV, KEYED, PLAIN, canonical_json, read_key, utc_naive
-from prepbook.store.audit.reading import log
+from prepbook.store.audit.reading import LogEntry, log
 from prepbook.store.audit.verifying import VerifyReport, verify
 from prepbook.store.audit.writing import record
 
 __all__ = [
+    "LogEntry",
     "KEYED",
     "KEY_ENV",
     "PLAIN",

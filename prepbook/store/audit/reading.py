@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta
-from typing import Any
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session
@@ -15,6 +15,22 @@ from prepbook.store.models import AuditEvent
 _events = AuditEvent.__table__
 
 
+
+@dataclass(frozen=True)
+class LogEntry:
+    """One audit event as a reader sees it (times as ISO text, UTC)."""
+
+    seq: int
+    at: str | None
+    actor: str
+    action: str
+    record: str
+    record_type: str
+    record_id: int
+    reason: str | None
+    performed_at: str | None
+
+
 def log(
     session: Session,
     *,
@@ -24,8 +40,8 @@ def log(
     since: date | datetime | None = None,
     until: date | datetime | None = None,
     limit: int | None = None,
-) -> list[dict[str, Any]]:
-    """Audit events as plain dicts, oldest first; ``limit`` keeps the most recent ones.
+) -> list[LogEntry]:
+    """Audit events, oldest first; ``limit`` keeps the most recent ones.
 
     Times are UTC. ``since`` is inclusive; ``until`` is inclusive too, and a plain
     date means the whole of that day.
@@ -57,17 +73,8 @@ def log(
     rows = list(session.connection().execute(stmt))
     if limit is not None:
         rows.reverse()
-    return [
-        {
-            "seq": row.seq,
-            "at": iso(row.at),
-            "actor": row.actor,
-            "action": row.action,
-            "record": f"{row.record_type} #{row.record_id}",
-            "record_type": row.record_type,
-            "record_id": row.record_id,
-            "reason": row.reason,
-            "performed_at": iso(row.performed_at),
-        }
-        for row in rows
-    ]
+    return [LogEntry(seq=row.seq, at=iso(row.at), actor=row.actor, action=row.action,
+                     record=f"{row.record_type} #{row.record_id}",
+                     record_type=row.record_type, record_id=row.record_id, reason=row.reason,
+                     performed_at=iso(row.performed_at))
+            for row in rows]

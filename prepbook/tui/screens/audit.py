@@ -72,8 +72,8 @@ class AuditScreen(Screen[None]):
         table = self.query_one("#events", DataTable)
         table.clear()
         for ev in reversed(events):  # newest first
-            table.add_row(str(ev["seq"]), words.when(ev["at"]), ev["actor"], ev["action"],
-                          ev["record"], words.when(ev["performed_at"]), ev["reason"] or "")
+            table.add_row(str(ev.seq), words.when(ev.at), ev.actor, ev.action,
+                          ev.record, words.when(ev.performed_at), ev.reason or "")
         msg.set_class(False, "refusal")
         msg.update(f"{len(events)} event(s), newest first"
                    + ("; m shows older ones" if more else "; that is all of them"))
@@ -93,13 +93,13 @@ class AuditScreen(Screen[None]):
 
         rep = auditing.verify(self.app.db)  # type: ignore[attr-defined]
         msg = self.query_one("#message", Static)
-        if rep["ok"]:
+        if rep.ok:
             msg.set_class(False, "refusal")
-            msg.update(Text(f"✓ verified: the chain of {rep['events']} events is intact and "
+            msg.update(Text(f"✓ verified: the chain of {rep.events} events is intact and "
                             "every current row matches its last audited state",
                             style=f"bold {colour(self.app, 'success')}"))
         else:
             msg.set_class(True, "refusal")
-            msg.update(Text(f"✖ VERIFY FAILED ({rep['events']} events):\n"
-                            + "\n".join(f"  {p}" for p in rep["problems"]),
+            msg.update(Text(f"✖ VERIFY FAILED ({rep.events} events):\n"
+                            + "\n".join(f"  {p}" for p in rep.problems),
                             style=f"bold {colour(self.app, 'error')}"))

@@ -146,8 +146,8 @@ class BatchScreen(Screen[None]):
                 table.add_column(c)
         table.clear()
         for ev in watch.batch_events(self.app.db, self.code):  # type: ignore[attr-defined]
-            table.add_row(str(ev["seq"]), words.when(ev["at"]), ev["actor"], ev["action"],
-                          ev["record"], words.when(ev["performed_at"]), ev["reason"] or "")
+            table.add_row(str(ev.seq), words.when(ev.at), ev.actor, ev.action,
+                          ev.record, words.when(ev.performed_at), ev.reason or "")
         self._events_loaded = True
 
     def on_tabbed_content_tab_activated(self, event: TabbedContent.TabActivated) -> None:
@@ -211,13 +211,17 @@ class BatchScreen(Screen[None]):
                                           note="An existing file is never overwritten."), done)
 
     def action_label(self) -> None:
-        from prepbook.cli.labels import print_label
         from prepbook.lab import labels
+        from prepbook.render.label_files import label_job
 
-        app: Any = self.app
         self._to_file(f"Label for {self.code}", labels.default_file_name(self.code),
-                      lambda out: str(print_label(app.db, actor=app.actor or "",
-                                                       code=self.code, output=out).file))
+                      lambda out: self._print_label(labels, label_job(out, out)))
+
+    def _print_label(self, labels: Any, job: Any) -> str:
+        app: Any = self.app
+        return labels.print_label(app.db, actor=app.actor or "", code=self.code,
+                                  size=job.size.name, sheet=job.sheet_name, copies=job.copies,
+                                  file=job.file, deliver=job.deliver).file
 
     def action_report(self) -> None:
         from prepbook.lab import reports

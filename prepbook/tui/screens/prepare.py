@@ -241,7 +241,7 @@ class PrepareScreen(Screen[None]):
         spec = self.specs[code]
         live.update(Group(out, safety(self.app, spec.hazard, res.cautions,
                                       spec.storage)))
-        for w in self.query(Input):
-            w.disabled = True
+        for box in self.query(Input):
+            box.disabled = True
         self.app.notify(f"batch {res.batch} recorded", title="recorded")
         self.app.wrote()  # type: ignore[attr-defined]

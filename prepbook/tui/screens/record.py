@@ -27,8 +27,8 @@ from prepbook.tui.screens.common import budget_table, small_table
 from prepbook.tui.widgets import check_cell, colour, state_cell
 
 if TYPE_CHECKING:
-    from prepbook.lab.runs import RunResult
     from prepbook.lab.batch_records import BatchRecord
+    from prepbook.lab.runs import RunResult
 
 START_ROWS = 3
 
