@@ -1,7 +1,7 @@
 """Recording an event: one hash-chained event per write, in the writer's transaction.
 
 Each event stores the canonical JSON snapshot of the whole row after the write
-(``store.models.snapshot``); a large derived text column (``info={"audit":
+(``store.snapshot.snapshot``); a large derived text column (``info={"audit":
 "digest"}``, a run's computed result) is in it as its fingerprint ``sha256:<hex>``.
 """
 
@@ -14,7 +14,8 @@ from sqlalchemy.orm import Session
 
 from prepbook.errors import IntegrityError, InvalidInput
 from prepbook.store.audit.chain import canonical_json, hasher, iso, payload, read_key, utc_naive
-from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead, Base, snapshot
+from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead, Base
+from prepbook.store.snapshot import snapshot
 
 _HEAD_KEY = "prepbook_audit_head"
 
