@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from datetime import UTC, datetime
 
-from sqlalchemy import Table, insert, select, update
+from sqlalchemy import Table, bindparam, insert, select, update
 from sqlalchemy.orm import Session
 
 from prepbook.errors import IntegrityError, InvalidInput
@@ -20,6 +20,10 @@ from prepbook.store.snapshot import snapshot
 _HEAD_KEY = "prepbook_audit_head"
 _EVENTS = table_of(AuditEvent)
 _HEAD = table_of(AuditHead)
+# Built once with bound parameters: compiled once, not rebuilt for every event.
+_ADD_EVENT = insert(_EVENTS)
+_MOVE_HEAD = (update(_HEAD).where(_HEAD.c.id == 1)
+              .values(seq=bindparam("new_seq"), hash=bindparam("new_hash")))
 
 
 def _locked_head(session: Session) -> tuple[int, str | None]:
@@ -86,10 +90,10 @@ def record(
     # Two plain statements on the session's connection, in its transaction: the trail
     # is append-only and the head one row, so the unit of work has nothing to track.
     conn = session.connection()
-    conn.execute(insert(_EVENTS).values(
-        seq=seq, at=at, actor=actor, action=action, record_type=table.name,
-        record_id=record_id, values=values, reason=reason, performed_at=when,
-        prev_hash=head_hash, hash=new_hash))
-    conn.execute(update(_HEAD).where(_HEAD.c.id == 1).values(seq=seq, hash=new_hash))
+    conn.execute(_ADD_EVENT, {
+        "seq": seq, "at": at, "actor": actor, "action": action, "record_type": table.name,
+        "record_id": record_id, "values": values, "reason": reason, "performed_at": when,
+        "prev_hash": head_hash, "hash": new_hash})
+    conn.execute(_MOVE_HEAD, {"new_seq": seq, "new_hash": new_hash})
     session.info[_HEAD_KEY] = (session.get_transaction(), seq, new_hash)
     return seq
