@@ -137,6 +137,14 @@ def legacy_to_digest(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
+def canonical_type(column: Any) -> type | None:
+    """The type a value of this column already has when it is canonical as read (text
+    read as ``str``, whole numbers as ``int``), so a reader may skip the canonicaliser
+    for it; None when every value goes through it."""
+    convert = _column_converter(column)
+    return str if convert is _text else int if convert is _int else None
+
+
 def _column_converter(column: Any) -> Callable[[Any], Any]:
     return fingerprint if audited_in_digest(column) else _converter(column.type)
 

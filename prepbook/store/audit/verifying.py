@@ -36,6 +36,7 @@ from prepbook.store.audit.chain import (
     KEYED,
     PLAIN,
     canonical_json,
+    canonical_json_of_sorted,
     date_text,
     hasher,
     label,
@@ -44,7 +45,12 @@ from prepbook.store.audit.chain import (
     time_text,
 )
 from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead
-from prepbook.store.snapshot import audited_in_digest, legacy_to_digest, snapshot_columns
+from prepbook.store.snapshot import (
+    audited_in_digest,
+    canonical_type,
+    legacy_to_digest,
+    snapshot_columns,
+)
 
 _MAX_LISTED = 10  # problems of one kind listed one by one before they are counted
 _PAGE = 10_000  # rows read at a time
@@ -221,13 +227,15 @@ def _check_head(conn: Connection, chain: _Chain, problems: _Problems) -> None:
         problems.add("head", f"the audit head hash does not match event #{chain.last_seq}")
 
 
-def _converters(table: Table) -> tuple[tuple[str, Converter], ...]:
-    """(name, canonicaliser) of each column, sorted, for values as the driver reads them.
+def _converters(table: Table) -> tuple[tuple[str, Converter, type | None], ...]:
+    """(name, canonicaliser, type kept as read) of each column, sorted by name.
 
     As ``snapshot_columns``, except that a time or date is read as stored (SQLite
-    keeps text) and made the ISO text the snapshot holds.
+    keeps text) and made the ISO text the snapshot holds, and that a value already of
+    its column's canonical type (``canonical_type``: text as str, whole numbers as int)
+    is taken as read.
     """
-    out: list[tuple[str, Converter]] = []
+    out: list[tuple[str, Converter, type | None]] = []
     for name, convert in snapshot_columns(table):
         column = table.c[name]
         if not audited_in_digest(column):
@@ -235,7 +243,7 @@ def _converters(table: Table) -> tuple[tuple[str, Converter], ...]:
                 convert = time_text
             elif isinstance(column.type, Date):
                 convert = date_text
-        out.append((name, convert))
+        out.append((name, convert, canonical_type(column)))
     return tuple(out)
 
 
@@ -243,13 +251,14 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems) 
     """Every audited row must equal the snapshot of its last event, and vice versa."""
     for name, table in AUDITED_TABLES.items():
         converters = _converters(table)
-        id_at = [n for n, _ in converters].index("id")
-        for rows in _pages(conn, table, [n for n, _ in converters]):
+        names = [n for n, _, _ in converters]
+        id_at = names.index("id")
+        for rows in _pages(conn, table, names):
             for row in rows:
                 last = last_events.pop((name, row[id_at]), None)
                 try:
-                    current = {n: None if v is None else convert(v)
-                               for (n, convert), v in zip(converters, row, strict=True)}
+                    current = {n: v if v is None or type(v) is kept else convert(v)
+                               for (n, convert, kept), v in zip(converters, row, strict=True)}
                 except (ValueError, TypeError) as exc:
                     problems.add("unreadable", f"{name} #{row[id_at]} cannot be read "
                                  f"({exc}): edited outside prepbook")
@@ -258,7 +267,7 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems) 
                     problems.add("added", f"{label(name, current['id'], current)} has no "
                                  "audit event: added outside prepbook")
                     continue
-                text = canonical_json(current)
+                text = canonical_json_of_sorted(current)  # built in column-name order
                 if text != last[1]:
                     _compare_again(table, current, text, last[1], problems)
     _report_deleted(last_events, problems)
