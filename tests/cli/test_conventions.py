@@ -254,3 +254,14 @@ def test_build_requires_a_setuptools_that_reads_pep_639_license_fields() -> None
     assert isinstance(project["project"]["license"], str) and project["project"]["license-files"]
     floor = next(r for r in project["build-system"]["requires"] if r.startswith("setuptools"))
     assert floor == "setuptools>=77.0.1"
+
+
+def test_the_readmes_example_file_is_read_as_written(config_file: Path) -> None:
+    import re
+
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    example = re.search(r"```toml\n(.*?)```", readme, re.S)
+    assert example, "README shows no configuration file"
+    config_file.write_text(example.group(1), encoding="utf-8")
+    shown = settings(run("config", "show", "--json"))
+    assert {name for name, s in shown.items() if s["source"] == "file"} == set(shown)
