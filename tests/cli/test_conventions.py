@@ -265,3 +265,13 @@ def test_the_readmes_example_file_is_read_as_written(config_file: Path) -> None:
     config_file.write_text(example.group(1), encoding="utf-8")
     shown = settings(run("config", "show", "--json"))
     assert {name for name, s in shown.items() if s["source"] == "file"} == set(shown)
+
+
+def test_every_package_of_the_source_tree_is_installed() -> None:
+    # A package left out of the list works in a checkout and fails once installed
+    # (prepbook.store.audit was: `prepbook init` from a wheel raised ImportError).
+    project = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))
+    listed = set(project["tool"]["setuptools"]["packages"])
+    in_tree = {".".join(p.parent.relative_to(ROOT).parts)
+               for p in (ROOT / "prepbook").rglob("__init__.py")}
+    assert in_tree <= listed, sorted(in_tree - listed)
