@@ -173,6 +173,11 @@ def _isolated_env(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.delenv("PREPBOOK_USER", raising=False)
     monkeypatch.delenv("PREPBOOK_AUDIT_KEY_FILE", raising=False)
     monkeypatch.setenv("HOME", str(tmp_path / "home"))
+    # The configuration file: a path under tmp_path, never the user's own (on every OS).
+    monkeypatch.setenv("PREPBOOK_CONFIG", str(tmp_path / "home" / "prepbook-config.toml"))
+    for name in ("PREPBOOK_TIMEZONE", "PREPBOOK_WITNESS_FOLDER", "PREPBOOK_DISPLAY_WIDTH",
+                 "PREPBOOK_DISPLAY_COLOR", "XDG_CONFIG_HOME"):
+        monkeypatch.delenv(name, raising=False)
     monkeypatch.setenv("COLUMNS", "160")
     monkeypatch.setenv("NO_COLOR", "1")
 

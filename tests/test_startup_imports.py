@@ -70,7 +70,9 @@ def test_help_imports_no_command_module_and_no_catalog() -> None:
     assert "calc" in out and "batch" in out  # the listing is there, from the static table
     prepbook = sorted(m for m in loaded if m.startswith("prepbook"))
     assert prepbook == ["prepbook", "prepbook.cli", "prepbook.cli.app", "prepbook.cli.context",
-                        "prepbook.errors"]
+                        "prepbook.config", "prepbook.errors"]
+    # The configuration file is read only by a command that needs a setting.
+    assert not {"platformdirs", "tomllib", "zoneinfo", "logging"} & loaded
 
 
 def test_calc_normality_imports_only_its_own_command_module_and_no_periodictable() -> None:
@@ -81,6 +83,7 @@ def test_calc_normality_imports_only_its_own_command_module_and_no_periodictable
     assert commands == ["prepbook.cli.app", "prepbook.cli.calc", "prepbook.cli.context",
                         "prepbook.cli.output"]
     assert not {"periodictable", "pyparsing"} & {m.split(".")[0] for m in loaded}
+    assert not {"platformdirs", "tomllib"} & loaded  # no setting needed, no file read
 
 
 def test_the_check_sees_a_command_module() -> None:

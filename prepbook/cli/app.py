@@ -20,7 +20,7 @@ import typer
 from typer.core import TyperCommand, TyperGroup
 
 from prepbook.cli.context import DEFAULT_DB, Invocation
-from prepbook.errors import PrepbookError
+from prepbook.errors import InvalidInput, PrepbookError
 
 
 class Entry(NamedTuple):
@@ -80,6 +80,8 @@ COMMANDS: tuple[Entry, ...] = (
     Entry("audit", "audit", "app", True, "Read and verify the audit trail."),
     Entry("settings", "settings", "app", True,
           "Show and change lab-wide settings (`prepbook settings` shows them)."),
+    Entry("config", "config", "app", True,
+          "Show the settings and where the configuration file is."),
     Entry("calc", "calc", "app", True,
           "Compute without a database: normality, preparation, corrections, curves."),
 )
@@ -127,6 +129,9 @@ class _LazyCommands(Mapping[str, TyperCommand | TyperGroup]):
         return name in self._entries
 
 
+_COMMAND_KEY = "prepbook.command"
+
+
 class _Root(TyperGroup):
     """Root group: commands loaded on demand, and prepbook's own errors turned into
     exit status 1."""
@@ -149,6 +154,17 @@ class _Root(TyperGroup):
         with formatter.section("Commands"):
             formatter.write_dl(rows)
 
+    def resolve_command(self, ctx: Any, args: list[str]) -> Any:
+        """As Click resolves it; the command's full name (``batch show``) is kept in
+        ``ctx.meta`` for the -v log, found by following ``args`` down the groups."""
+        name, command, rest = super().resolve_command(ctx, args)
+        path, inner, words = [name], command, rest
+        while isinstance(inner, TyperGroup) and words and words[0] in inner.commands:
+            path.append(words[0])
+            inner, words = inner.commands[words[0]], words[1:]
+        ctx.meta[_COMMAND_KEY] = " ".join(str(p) for p in path)
+        return name, command, rest
+
     def invoke(self, ctx: Any) -> Any:
         try:
             return super().invoke(ctx)
@@ -165,12 +181,55 @@ app = typer.Typer(
     name="prepbook",
     help=(
         "Prepare, standardize and label volumetric solutions (titrants), "
-        "with an audited record of every batch."
+        "with an audited record of every batch.\n\n"
+        "Each setting is taken from the first of: a command-line option, an environment "
+        "variable, the configuration file (`prepbook config path` shows where), the default "
+        "(`prepbook config show` says which gave each)."
     ),
     no_args_is_help=True,
-    add_completion=False,
+    # --install-completion and --show-completion, as Typer offers them.
+    add_completion=True,
     context_settings={"help_option_names": ["-h", "--help"]},
 )
+
+
+def _show_version(value: bool) -> None:
+    if value:
+        from importlib.metadata import PackageNotFoundError, version
+
+        try:
+            number = version("prepbook")
+        except PackageNotFoundError:  # run from a checkout that was never installed
+            from prepbook import __version__ as number
+        sys.stdout.write(f"prepbook {number}\n")
+        raise typer.Exit()
+
+
+def _start_logging(ctx: typer.Context, verbosity: int) -> None:
+    """-v: what the program does, as log lines on stderr (logger ``prepbook``); -q: only
+    errors. Undone when the command ends (the tests run many commands in one process)."""
+    import logging
+
+    logger = logging.getLogger("prepbook")
+    level = logger.level
+    handler = None
+    if verbosity > 0:
+        handler = logging.StreamHandler(sys.stderr)
+        handler.setFormatter(logging.Formatter("prepbook: %(message)s"))
+        logger.addHandler(handler)
+        logger.setLevel(logging.INFO)
+    else:
+        logger.setLevel(logging.ERROR)
+
+    def stop() -> None:
+        logger.setLevel(level)
+        if handler is not None:
+            logger.removeHandler(handler)
+
+    ctx.call_on_close(stop)
+    command = ctx.meta.get(_COMMAND_KEY)
+    if command:
+        logger.info("command started: prepbook %s", command)
 
 
 @app.callback()
@@ -181,7 +240,8 @@ def _root(
         "--db",
         metavar="PATH|URL",
         envvar="PREPBOOK_DB",
-        help=f"Database: a file path (SQLite, default ./{DEFAULT_DB}) or an SQLAlchemy URL.",
+        help=f"Database: a file path (SQLite) or an SQLAlchemy URL [default: the "
+             f"configuration file's, else ./{DEFAULT_DB}].",
         show_default=False,
     ),
     user: str = typer.Option(
@@ -192,5 +252,25 @@ def _root(
         help="Acting user (default: login name).",
         show_default=False,
     ),
+    verbose: bool = typer.Option(
+        False, "--verbose", "-v",
+        help="Say on stderr what the program is doing (database, retries, each command).",
+    ),
+    quiet: bool = typer.Option(
+        False, "--quiet", "-q", help="Say nothing on stderr but errors.",
+    ),
+    version: bool = typer.Option(
+        False, "--version", callback=_show_version, is_eager=True, expose_value=False,
+        help="Print prepbook's version and exit.",
+    ),
 ) -> None:
-    ctx.obj = Invocation(db=db or DEFAULT_DB, user_given=user or None)
+    if verbose and quiet:
+        raise InvalidInput("-v (--verbose) and -q (--quiet) cannot be used together")
+    verbosity = 1 if verbose else -1 if quiet else 0
+    source = ctx.get_parameter_source("db")
+    from_env = getattr(source, "name", None) == "ENVIRONMENT"
+    ctx.obj = Invocation(db_given=db or None, user_given=user or None,
+                         db_source="environment" if from_env else "option",
+                         verbosity=verbosity)
+    if verbosity:
+        _start_logging(ctx, verbosity)

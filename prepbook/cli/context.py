@@ -1,4 +1,5 @@
-"""What the root options give every command: the database target and the acting user."""
+"""What the root options give every command: the database target, the acting user and
+how much to say on stderr."""
 
 from __future__ import annotations
 
@@ -7,16 +8,49 @@ from typing import NamedTuple
 
 import typer
 
-DEFAULT_DB = "prepbook.db"
+from prepbook.config import DEFAULT_DB, Setting, Source
+
+__all__ = ["DEFAULT_DB", "Invocation", "current_user", "invocation"]
 
 
 class Invocation(NamedTuple):
-    """The root options of one run. ``user_given`` is as given (``--user`` or PREPBOOK_USER);
-    ``user`` falls back to the login name, looked up only when a command needs
-    it (a NamedTuple rather than a dataclass: every command builds one at start-up)."""
+    """The root options of one run. ``db_given`` is ``--db`` or PREPBOOK_DB as given
+    (``db_source`` says which); without it :attr:`db` comes from the configuration file
+    or the default, read only when a command asks. ``user_given`` is as given (``--user``
+    or PREPBOOK_USER); ``user`` falls back to the login name, looked up only when a command
+    needs it (a NamedTuple rather than a dataclass: every command builds one at start-up).
+    ``verbosity``: -1 with ``-q``, 0 normally, 1 with ``-v``."""
 
-    db: str
+    db_given: str | None = None
     user_given: str | None = None
+    db_source: Source = "option"
+    verbosity: int = 0
+
+    @property
+    def given(self) -> dict[str, Setting]:
+        """The settings the command line gave, for :func:`prepbook.config.resolve`."""
+        if self.db_given is None:
+            return {}
+        origin = "--db" if self.db_source == "option" else "PREPBOOK_DB"
+        return {"database": Setting("database", self.db_given, self.db_source, origin)}
+
+    @property
+    def db(self) -> str:
+        from prepbook.config import setting
+
+        chosen = setting("database", self.given)
+        if self.verbosity > 0:
+            import logging
+
+            logging.getLogger("prepbook.cli").info(
+                "database %s (from %s%s)", chosen.value, chosen.source,
+                f" {chosen.origin}" if chosen.origin else "")
+        return str(chosen.value)
+
+    @property
+    def quiet(self) -> bool:
+        """True with ``-q``: say nothing on stderr that is not an error."""
+        return self.verbosity < 0
 
     @property
     def user(self) -> str:
@@ -38,5 +72,6 @@ def invocation(ctx: typer.Context) -> Invocation:
     obj = root.obj
     if isinstance(obj, Invocation):
         return obj
-    return Invocation(db=os.environ.get("PREPBOOK_DB") or DEFAULT_DB,
-                      user_given=os.environ.get("PREPBOOK_USER") or None)
+    return Invocation(db_given=os.environ.get("PREPBOOK_DB") or None,
+                      user_given=os.environ.get("PREPBOOK_USER") or None,
+                      db_source="environment")

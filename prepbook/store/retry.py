@@ -23,6 +23,7 @@ becomes a ``DatabaseError`` ("nothing was written, try again"), never a tracebac
 from __future__ import annotations
 
 import functools
+import logging
 import random
 import time
 from collections.abc import Callable
@@ -32,6 +33,8 @@ from prepbook.errors import DatabaseError
 
 P = ParamSpec("P")
 T = TypeVar("T")
+
+log = logging.getLogger(__name__)  # shown with `prepbook -v`
 
 ATTEMPTS = 5
 _RETRY_SQLSTATES = {"23505", "40001", "40P01"}
@@ -69,7 +72,11 @@ def call(fn: Callable[P, T], *args: P.args, **kwargs: P.kwargs) -> T:
                     f"({attempt} attempts, last: {reason}); nothing was written, try again"
                 ) from exc
             # A short, growing, jittered pause so the benches do not collide in step.
-            time.sleep(random.uniform(0, 0.02 * 2**attempt))
+            pause = random.uniform(0, 0.02 * 2**attempt)
+            log.info("write conflict on %s (attempt %d of %d: %s); rerunning in %.0f ms",
+                     getattr(fn, "__name__", "a write"), attempt, ATTEMPTS,
+                     str(getattr(exc, "orig", exc)).splitlines()[0], pause * 1000)
+            time.sleep(pause)
     raise AssertionError("unreachable")  # pragma: no cover
 
 
