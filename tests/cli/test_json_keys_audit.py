@@ -16,7 +16,7 @@ from tests.cli.test_bench_flow import _make_batch, bench  # noqa: F401
 from tests.conftest import Cli
 
 # The commands whose --json keys this file pins.
-PINNED = {"audit verify", "audit log", "demo"}
+PINNED = {"audit verify", "audit log", "demo", "config show"}
 VERIFY = ["ok", "events", "head_hash", "problems"]
 LOG = ["seq", "at", "actor", "action", "record", "record_type", "record_id", "reason",
        "performed_at"]
@@ -44,6 +44,18 @@ def test_demo_json_is_the_board(tmp_path: Path) -> None:
     assert isinstance(board, list) and board
     # DESIGN contract: status (and the demo's board) carry at least these keys.
     assert all(set(BOARD_ITEM) <= set(item) for item in board)
+
+
+def test_config_show_keys(tmp_path: Path) -> None:
+    import json
+
+    env = {"COLUMNS": "120", "PREPBOOK_CONFIG": str(tmp_path / "config.toml")}
+    result = CliRunner().invoke(app, ["config", "show", "--json"], env=env)
+    assert result.exit_code == 0, result.output
+    shown = json.loads(result.stdout)
+    assert list(shown) == ["file", "file_exists", "settings"]
+    assert shown["settings"] and all(list(s) == ["name", "value", "source", "origin"]
+                                     for s in shown["settings"])
 
 
 def _json_commands() -> list[str]:
