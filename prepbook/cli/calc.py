@@ -28,22 +28,25 @@ app = typer.Typer(
 JSON = typer.Option(False, "--json", help="Print one JSON document instead of a table.")
 
 
+def _budget_row(line: BudgetLine) -> tuple[str, ...]:
+    value = f"{output.sig(line.value, 6)} {'' if line.unit == '1' else line.unit}".strip()
+    if line.missing is not None:  # a term that belongs here but was not evaluated
+        return (line.quantity, value, "missing", "missing", "missing", "-")
+    return (
+        line.quantity,
+        value,
+        output.sig(line.u, 2),
+        "-" if line.u_relative is None else f"{line.u_relative * 100:.3f} %",
+        output.sig(line.contribution, 2),
+        f"{line.share_percent:.1f} %",
+    )
+
+
 def _budget_table(budget: Sequence[BudgetLine]) -> object:
-    rows = [
-        (
-            line.quantity,
-            f"{output.sig(line.value, 6)} {'' if line.unit == '1' else line.unit}".strip(),
-            output.sig(line.u, 2),
-            "-" if line.u_relative is None else f"{line.u_relative * 100:.3f} %",
-            output.sig(line.contribution, 2),
-            f"{line.share_percent:.1f} %",
-        )
-        for line in budget
-    ]
     return output.table(
         "Uncertainty budget (GUM)",
         ["quantity", "value", "u", "u (rel.)", "contrib. (eq/L)", "share"],
-        rows,
+        [_budget_row(line) for line in budget],
         right=(1, 2, 3, 4, 5),
     )
 
@@ -88,6 +91,11 @@ def normality(
     temp_range: str = typer.Option(
         "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
     ),
+    repeatability: str = typer.Option(
+        None, "--repeatability", metavar="RSD%",
+        help="Validated repeatability, relative SD of one result in % (e.g. from the "
+             "method validation); used in the budget instead of the replicates' scatter."
+    ),
     as_json: bool = JSON,
 ) -> None:
     """Normality of a titrant from replicate titrations of a weighed primary standard."""
@@ -105,6 +113,7 @@ def normality(
         burette_tolerance_ml=burette_tolerance,
         burette_capacity_ml=burette_capacity,
         temperature_range_c=temp_range,
+        repeatability_percent=repeatability,
     )
     if as_json:
         output.emit_json(result)
@@ -139,11 +148,14 @@ def normality(
     out.print(line)
     if result.molarity is not None:
         out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
+    gaps = [line.quantity for line in result.budget if line.missing is not None]
     out.print(
         f"u = {output.sig(result.u, 2)} eq/L, U = {output.sig(result.U, 2)} eq/L "
-        f"(k = {result.k:g})"
+        f"(k = {result.k:g})" + (f", incomplete: {', '.join(gaps)} missing" if gaps else "")
     )
     out.print(_budget_table(result.budget))
+    for note in result.uncertainty_notes:
+        out.print(f"note: {note}")
     output.warn_lines(out, result.warnings)
 
 
