@@ -155,7 +155,7 @@ def normality(
     )
     out.print(_budget_table(result.budget))
     for note in result.uncertainty_notes:
-        out.print(f"note: {note}")
+        out.print(f"note: {note}", markup=False)
     output.warn_lines(out, result.warnings)
 
 
@@ -401,36 +401,59 @@ def titer(
 def endpoint(
     file: Path = typer.Argument(
         ..., metavar="FILE",
-        help="CSV: a header row, then volume (mL) and pH or mV.", show_default=False
+        help="A meter's export: a header naming volume (mL) and pH or mV, in either order; "
+             "metadata lines above it, ';' and decimal commas are read.", show_default=False
     ),
     sample_ml: str = typer.Option(
         None, "--sample-ml", metavar="ML",
         help="Volume in the vessel before titrant (Gran after the end)."
     ),
+    from_ml: str = typer.Option(
+        None, "--from", metavar="ML", help="Look for endpoints only from this volume, mL."
+    ),
+    to_ml: str = typer.Option(
+        None, "--to", metavar="ML", help="Look for endpoints only up to this volume, mL."
+    ),
     search: str = typer.Option(
         None, "--between", metavar="ML:ML",
-        help="Look for the endpoint only between these mL, e.g. 5:15."
+        help="The same window as --from/--to in one option, e.g. 5:15."
+    ),
+    smoothing: str = typer.Option(
+        None, "--smoothing", metavar="ML",
+        help="Span of the derivative filter, mL (default: seven median volume steps)."
     ),
     as_json: bool = JSON,
 ) -> None:
-    """Equivalence volume from a recorded titration curve (derivative and Gran)."""
+    """Every endpoint (inflection) of a recorded titration curve, with its uncertainty,
+    and Gran's estimate beside the last one."""
     from prepbook.lab import curves
 
-    try:
-        text = file.read_text(encoding="utf-8-sig")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InvalidInput(f"cannot read {file}: {exc.__class__.__name__}") from None
-    result = curves.endpoint(text, sample_ml_text=sample_ml, between_text=search)
+    result = curves.endpoint(file, sample_ml_text=sample_ml, from_text=from_ml, to_text=to_ml,
+                             between_text=search, smoothing_text=smoothing)
     if as_json:
         output.emit_json(result)
         return
     out = output.console()
+    rows = [(e.index, output.fixed(e.volume_ml, 3), output.fixed(e.u_ml, 3),
+             f"{e.reading:.2f}" if result.kind == "pH" else f"{e.reading:.1f}",
+             output.sig(e.slope, 3))
+            for e in result.endpoints]
+    where = ("" if result.window_ml is None
+             else f" between {result.window_ml[0]:g} and {result.window_ml[1]:g} mL")
+    out.print(output.table(f"Endpoints{where} ({result.points} points)",
+                           ["#", "volume (mL)", "u (mL)", result.kind,
+                            f"slope ({result.kind}/mL)"], rows, right=(0, 1, 2, 3, 4)))
     out.print(f"equivalence volume [bold]{output.fixed(result.equivalence_ml, 3)} mL[/bold] "
-              f"({result.method}, {result.points} points)")
+              f"(u = {output.fixed(result.u_ml, 3)} mL, endpoint #{len(result.endpoints)})")
     if result.gran_ml is not None:
-        out.print(f"Gran estimate {output.fixed(result.gran_ml, 3)} mL")
+        assert result.gran_tolerance_ml is not None
+        verdict = ("agree" if result.gran_agrees else "DISAGREE")
+        out.print(f"Gran estimate {output.fixed(result.gran_ml, 3)} mL beside "
+                  f"{output.fixed(result.equivalence_ml, 3)} mL: {verdict} "
+                  f"(difference {abs(result.gran_ml - result.equivalence_ml):.3f} mL, "
+                  f"tolerance {result.gran_tolerance_ml:.3f} mL)")
     for note in result.notes:
-        out.print(f"note: {note}")
+        out.print(f"note: {note}", markup=False)
 
 
 @app.command("eqpoint")

@@ -7,13 +7,30 @@ fields are the keys of the command's JSON out.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_number
 
 
 @dataclass(frozen=True)
+class Endpoint:
+    """One inflection of the curve: its volume and standard uncertainty (mL), the reading
+    there, the slope there (reading units per mL) and the points the cubic was fitted to."""
+
+    index: int
+    volume_ml: float
+    u_ml: float
+    reading: float
+    slope: float
+    points_fitted: int
+
+
+@dataclass(frozen=True)
 class EndpointResult:
+    """``calc endpoint``: every inflection in ``endpoints``; ``equivalence_ml`` and
+    ``u_ml`` are the last one's (the one Gran's estimate is compared with)."""
+
     equivalence_ml: float
     method: str
     kind: str
@@ -22,6 +39,16 @@ class EndpointResult:
     gran_points: int
     points: int
     notes: tuple[str, ...]
+    u_ml: float
+    endpoints: tuple[Endpoint, ...]
+    window_ml: tuple[float, float] | None
+    smoothing_ml: float
+    noise: float
+    gran_agrees: bool | None
+    gran_tolerance_ml: float | None
+    volume_column: int
+    reading_column: int
+    preamble_lines: int
 
 
 @dataclass(frozen=True)
@@ -36,27 +63,66 @@ class EqpointResult:
     unsuitable: tuple[str, ...]
 
 
-def endpoint(csv_text: str, *, sample_ml_text: str | None = None,
-             between_text: str | None = None) -> EndpointResult:
-    from prepbook.chem import curves
+METHOD = "inflection: cubic fit around each peak of a Savitzky-Golay derivative"
+
+
+def _volume_window(volumes: tuple[float, ...], from_text: str | None, to_text: str | None,
+                   between_text: str | None) -> tuple[float, float] | None:
+    """The volume window asked for: ``--from``/``--to`` (either may be left open, the
+    curve's first or last volume then), or ``--between LOW:HIGH``; None for the whole."""
+    if between_text is not None:
+        if from_text is not None or to_text is not None:
+            raise InvalidInput("give the volume window either as --from/--to or as --between, "
+                               "not both")
+        from_text, sep, to_text = between_text.partition(":")
+        if not sep:
+            raise InvalidInput("--between should be LOW:HIGH in mL, e.g. 5:15")
+    if from_text is None and to_text is None:
+        return None
+    low = (parse_number(from_text, "window from (mL)", non_negative=True).value
+           if from_text is not None else volumes[0])
+    high = (parse_number(to_text, "window to (mL)", positive=True).value
+            if to_text is not None else volumes[-1])
+    if low >= high:
+        raise InvalidInput(f"volume window: from {low:g} mL must be below to {high:g} mL")
+    return low, high
+
+
+def endpoint(path: str | Path, *, sample_ml_text: str | None = None,
+             from_text: str | None = None, to_text: str | None = None,
+             between_text: str | None = None,
+             smoothing_text: str | None = None) -> EndpointResult:
+    """Every inflection of the curve in a meter's export (``read_curve_file``), each
+    with its uncertainty, within a volume window if one is given, and Gran's estimate
+    beside the last one with whether the two agree."""
+    from prepbook.chem.curve_files import read_curve_file
+    from prepbook.chem.inflections import find_endpoints
 
     sample = (parse_number(sample_ml_text, "sample volume (mL)", positive=True).value
               if sample_ml_text is not None else None)
-    window = None
-    if between_text is not None:
-        lo_text, sep, hi_text = between_text.partition(":")
-        if not sep:
-            raise InvalidInput("--between should be LOW:HIGH in mL, e.g. 5:15")
-        lo = parse_number(lo_text, "--between low (mL)", non_negative=True).value
-        hi = parse_number(hi_text, "--between high (mL)", positive=True).value
-        if lo >= hi:
-            raise InvalidInput("--between: the low volume must be below the high one")
-        window = (lo, hi)
-    volumes, readings, kind = curves.read_curve_csv(csv_text)
-    ep = curves.endpoint(volumes, readings, kind=kind, sample_ml=sample, search_ml=window)
-    return EndpointResult(equivalence_ml=ep.equivalence_ml, method=ep.method, kind=kind,
-                          reading_at_endpoint=ep.reading_at_endpoint, gran_ml=ep.gran_ml,
-                          gran_points=ep.gran_points, points=ep.points, notes=tuple(ep.notes))
+    smoothing = (parse_number(smoothing_text, "smoothing span (mL)", positive=True).value
+                 if smoothing_text is not None else None)
+    curve = read_curve_file(path)
+    window = _volume_window(curve.volumes_ml, from_text, to_text, between_text)
+    report = find_endpoints(curve.volumes_ml, curve.readings, kind=curve.kind,
+                            window_ml=window, smoothing_ml=smoothing, sample_ml=sample)
+    found = tuple(Endpoint(index=i, volume_ml=f.volume_ml, u_ml=f.u_ml, reading=f.reading,
+                           slope=f.slope, points_fitted=f.points_fitted)
+                  for i, f in enumerate(report.inflections, start=1))
+    last = found[-1]
+    notes = report.notes
+    if curve.preamble_lines:
+        notes = (f"{curve.preamble_lines} preamble line(s) above the header skipped",
+                 *notes)
+    return EndpointResult(
+        equivalence_ml=last.volume_ml, method=METHOD, kind=report.kind,
+        reading_at_endpoint=last.reading, gran_ml=report.gran_ml,
+        gran_points=report.gran_points, points=report.points, notes=notes,
+        u_ml=last.u_ml, endpoints=found, window_ml=report.window_ml,
+        smoothing_ml=report.smoothing_ml, noise=report.noise, gran_agrees=report.gran_agrees,
+        gran_tolerance_ml=report.gran_tolerance_ml, volume_column=curve.volume_column,
+        reading_column=curve.reading_column, preamble_lines=curve.preamble_lines,
+    )
 
 
 def eqpoint(*, standard: str, titrant: str, concentration_text: str) -> EqpointResult:

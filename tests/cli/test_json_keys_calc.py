@@ -84,7 +84,11 @@ def test_calc_endpoint_json_keys(cli: Cli, tmp_path: Path) -> None:
                                             for v in range(0, 21)))
     out = cli.json("calc", "endpoint", str(f))
     assert list(out) == ["equivalence_ml", "method", "kind", "reading_at_endpoint", "gran_ml",
-                         "gran_points", "points", "notes"]
+                         "gran_points", "points", "notes", "u_ml", "endpoints", "window_ml",
+                         "smoothing_ml", "noise", "gran_agrees", "gran_tolerance_ml",
+                         "volume_column", "reading_column", "preamble_lines"]
+    assert [list(e) for e in out["endpoints"]] == [
+        ["index", "volume_ml", "u_ml", "reading", "slope", "points_fitted"]]
 
 
 @pytest.fixture
