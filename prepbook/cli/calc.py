@@ -468,16 +468,41 @@ def eqpoint(
         ..., "--concentration", metavar="MOL/L",
         help="Concentration of the salt at equivalence, mol/L."
     ),
+    titrant_concentration: str = typer.Option(
+        None, "--titrant-concentration", metavar="MOL/L",
+        help="Titrant, mol/L (default: the sample's volume equal to the equivalence volume)."
+    ),
+    co2_removed: bool = typer.Option(
+        False, "--boil-co2",
+        help="Carbon dioxide boiled off near the endpoint (a carbonate titrated with an "
+             "acid to its last endpoint)."
+    ),
+    tolerance: str = typer.Option(
+        None, "--tolerance", metavar="PERCENT",
+        help="Titration error, % of the equivalence volume, within which an indicator is "
+             "advised (default 0.1)."
+    ),
     as_json: bool = JSON,
 ) -> None:
-    """pH at the equivalence point, and the indicators whose range covers it."""
+    """pH at the equivalence point, and each indicator judged by its titration error."""
     from prepbook.lab import curves
 
-    result = curves.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration)
+    result = curves.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration,
+                            titrant_concentration_text=titrant_concentration,
+                            co2_removed=co2_removed, tolerance_text=tolerance)
     if as_json:
         output.emit_json(result)
         return
     out = output.console()
     out.print(f"pH at equivalence [bold]{result.ph:.2f}[/bold] ({result.reaction})")
+    rows = [(a.name, f"{a.low_ph:g}-{a.high_ph:g}", f"{a.stop_ph:.2f}",
+             "never reached" if a.error_percent is None else f"{a.error_percent:+.3f} %",
+             "suitable" if a.suitable else "unsuitable")
+            for a in result.indicators]
+    out.print(output.table(f"Indicators (advised within +/-{result.tolerance_percent:g} %)",
+                           ["indicator", "range (pH)", "stop at pH", "titration error",
+                            "advice"], rows, right=(2, 3)))
     out.print("suitable: " + (", ".join(result.suitable) or "none of the catalog's indicators"))
     out.print("unsuitable: " + ", ".join(result.unsuitable))
+    for note in result.notes:
+        out.print(f"note: {note}", markup=False)

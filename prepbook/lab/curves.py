@@ -8,9 +8,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_number
+
+if TYPE_CHECKING:
+    from prepbook.chem.indicators import IndicatorAdvice
 
 
 @dataclass(frozen=True)
@@ -53,6 +57,9 @@ class EndpointResult:
 
 @dataclass(frozen=True)
 class EqpointResult:
+    """``calc eqpoint``: ``suitable`` and ``unsuitable`` judged by the titration error of
+    each indicator (``indicators`` gives each one's error and reason)."""
+
     standard: str
     titrant: str
     reaction: str
@@ -61,6 +68,12 @@ class EqpointResult:
     ph: float
     suitable: tuple[str, ...]
     unsuitable: tuple[str, ...]
+    titrant_concentration_mol_per_l: float
+    sample_concentration_mol_per_l: float
+    co2_removed: bool
+    tolerance_percent: float
+    indicators: tuple[IndicatorAdvice, ...]
+    notes: tuple[str, ...]
 
 
 METHOD = "inflection: cubic fit around each peak of a Savitzky-Golay derivative"
@@ -125,21 +138,64 @@ def endpoint(path: str | Path, *, sample_ml_text: str | None = None,
     )
 
 
-def eqpoint(*, standard: str, titrant: str, concentration_text: str) -> EqpointResult:
+SAMPLE_ML = 50.0
+"""Sample volume the titration is modelled with: errors in % of the equivalence volume
+do not depend on it, only on the concentrations."""
+
+
+def eqpoint(*, standard: str, titrant: str, concentration_text: str,
+            titrant_concentration_text: str | None = None, co2_removed: bool = False,
+            tolerance_text: str | None = None) -> EqpointResult:
+    """The equivalence pH of a standard with a titrant at the stated concentration (of
+    the product at equivalence), and each catalog indicator judged by the titration
+    error it would cause (``prepbook.chem.indicators``), optionally with the carbon
+    dioxide boiled off near the end."""
     from prepbook.catalog import loader
-    from prepbook.chem import equilibria
+    from prepbook.chem import equilibria, indicators
 
     std = loader.find_material(standard)
     tit = loader.find_material(titrant)
     std_rx, _ = loader.reaction_for_pair(std, tit)
-    if std_rx.kind != "acid-base" or not std.pka:
+    if (std_rx.kind != "acid-base" or not std.pka or std.initial_protons is None
+            or std.acid_units is None or std_rx.protons is None):
         raise InvalidInput(f"{std.name} with {tit.name} is not an acid-base titration with "
                            "known pKa values; no equivalence pH to compute")
     conc = parse_number(concentration_text, "concentration (mol/L)", positive=True).value
-    ph = equilibria.equivalence_ph_for(std, std_rx, conc)
+    k = int(std_rx.protons)
+    notes: list[str] = []
+    if titrant_concentration_text is None:
+        # Sample volume equal to the equivalence volume: c_t = 2 k C, c_s = 2 C.
+        c_titrant = 2.0 * k * conc
+        notes.append(f"titrant taken as {c_titrant:g} mol/L (the sample's volume equal to "
+                     "the equivalence volume); give --titrant-concentration to change it")
+    else:
+        c_titrant = parse_number(titrant_concentration_text, "titrant concentration (mol/L)",
+                                 positive=True).value
+        if k * conc >= c_titrant:
+            raise InvalidInput(f"at {conc:g} mol/L at equivalence the titrant must be stronger "
+                               f"than {k * conc:g} mol/L ({k} x the concentration)")
+    # C = c_s V0 / (V0 + Ve) with Ve = k c_s V0 / c_t, solved for c_s.
+    c_sample = conc / (1.0 - k * conc / c_titrant)
+    tolerance = (parse_number(tolerance_text, "tolerance (%)", positive=True).value
+                 if tolerance_text is not None else indicators.DEFAULT_TOLERANCE_PERCENT)
+    titration = indicators.Titration(
+        pkas=tuple(std.pka), sample_mol_per_l=c_sample, sample_ml=SAMPLE_ML,
+        titrant_mol_per_l=c_titrant, initial_protons=std.initial_protons,
+        protons_transferred=k, titrant_is_base=std.acid_base == "acid",
+        units_per_formula=std.acid_units, co2_removed=co2_removed)
+    if co2_removed:
+        ph = equilibria.PKW_25C / 2.0  # the sample acts as a strong base once CO2 is gone
+        notes.append("carbon dioxide boiled off near the endpoint: the sample counts as "
+                     "its equivalents of strong base")
+    else:
+        ph = equilibria.equivalence_ph_for(std, std_rx, conc)
     table = [(i.name, i.low_ph, i.high_ph) for i in loader.indicators()
              if i.low_ph is not None and i.high_ph is not None]
-    suitable, unsuitable = equilibria.indicator_fit(ph, table)
+    advice = indicators.indicator_advice(titration, table, tolerance_percent=tolerance)
     return EqpointResult(standard=std.code, titrant=tit.code, reaction=std_rx.name,
                          n_eq_per_mol=std_rx.n, concentration_mol_per_l=conc, ph=ph,
-                         suitable=tuple(suitable), unsuitable=tuple(unsuitable))
+                         suitable=tuple(a.name for a in advice if a.suitable),
+                         unsuitable=tuple(a.name for a in advice if not a.suitable),
+                         titrant_concentration_mol_per_l=c_titrant,
+                         sample_concentration_mol_per_l=c_sample, co2_removed=co2_removed,
+                         tolerance_percent=tolerance, indicators=advice, notes=tuple(notes))

@@ -52,7 +52,9 @@ CALC = {
          "reaction", "mg_per_ml"],
     ("eqpoint", "--standard", "KHP", "--titrant", "NaOH", "--concentration", "0.05"):
         ["standard", "titrant", "reaction", "n_eq_per_mol", "concentration_mol_per_l", "ph",
-         "suitable", "unsuitable"],
+         "suitable", "unsuitable", "titrant_concentration_mol_per_l",
+         "sample_concentration_mol_per_l", "co2_removed", "tolerance_percent", "indicators",
+         "notes"],
 }
 
 
@@ -76,6 +78,14 @@ def test_calc_normality_nested_keys(cli: Cli) -> None:
                       "--rep", "24.9")
     assert list(second["replicates"][0]) == ["index", "aliquot_ml", "volume_ml", "normality",
                                              "true_mass_g", "outlier", "excluded"]
+
+
+def test_calc_eqpoint_indicator_keys(cli: Cli) -> None:
+    out = cli.json("calc", "eqpoint", "--standard", "KHP", "--titrant", "NaOH",
+                   "--concentration", "0.05")
+    assert [list(a) for a in out["indicators"]] == [
+        ["name", "low_ph", "high_ph", "stop_ph", "error_percent", "error_range_percent",
+         "suitable", "reason"]] * len(out["indicators"])
 
 
 def test_calc_endpoint_json_keys(cli: Cli, tmp_path: Path) -> None:
