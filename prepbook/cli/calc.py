@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import typer
 
@@ -40,6 +40,11 @@ def _budget_row(line: BudgetLine) -> tuple[str, ...]:
         output.sig(line.contribution, 2),
         f"{line.share_percent:.1f} %",
     )
+
+
+def _notes(out: Any, notes: Sequence[str]) -> None:
+    for note in notes:
+        out.print(f"note: {note}", markup=False)
 
 
 def _budget_table(budget: Sequence[BudgetLine]) -> object:
@@ -154,8 +159,7 @@ def normality(
         f"(k = {result.k:g})" + (f", incomplete: {', '.join(gaps)} missing" if gaps else "")
     )
     out.print(_budget_table(result.budget))
-    for note in result.uncertainty_notes:
-        out.print(f"note: {note}", markup=False)
+    _notes(out, result.uncertainty_notes)
     output.warn_lines(out, result.warnings)
 
 
@@ -408,20 +412,12 @@ def endpoint(
         None, "--sample-ml", metavar="ML",
         help="Volume in the vessel before titrant (Gran after the end)."
     ),
-    from_ml: str = typer.Option(
-        None, "--from", metavar="ML", help="Look for endpoints only from this volume, mL."
-    ),
-    to_ml: str = typer.Option(
-        None, "--to", metavar="ML", help="Look for endpoints only up to this volume, mL."
-    ),
-    search: str = typer.Option(
-        None, "--between", metavar="ML:ML",
-        help="The same window as --from/--to in one option, e.g. 5:15."
-    ),
-    smoothing: str = typer.Option(
-        None, "--smoothing", metavar="ML",
-        help="Span of the derivative filter, mL (default: seven median volume steps)."
-    ),
+    from_ml: str = typer.Option(None, "--from", metavar="ML", help="Window: from this mL."),
+    to_ml: str = typer.Option(None, "--to", metavar="ML", help="Window: up to this mL."),
+    search: str = typer.Option(None, "--between", metavar="ML:ML",
+                               help="The window as one option, e.g. 5:15."),
+    smoothing: str = typer.Option(None, "--smoothing", metavar="ML",
+                                  help="Derivative filter span, mL (default 7 median steps)."),
     as_json: bool = JSON,
 ) -> None:
     """Every endpoint (inflection) of a recorded titration curve, with its uncertainty,
@@ -435,8 +431,7 @@ def endpoint(
         return
     out = output.console()
     rows = [(e.index, output.fixed(e.volume_ml, 3), output.fixed(e.u_ml, 3),
-             f"{e.reading:.2f}" if result.kind == "pH" else f"{e.reading:.1f}",
-             output.sig(e.slope, 3))
+             output.fixed(e.reading, 2 if result.kind == "pH" else 1), output.sig(e.slope, 3))
             for e in result.endpoints]
     where = ("" if result.window_ml is None
              else f" between {result.window_ml[0]:g} and {result.window_ml[1]:g} mL")
@@ -445,15 +440,13 @@ def endpoint(
                             f"slope ({result.kind}/mL)"], rows, right=(0, 1, 2, 3, 4)))
     out.print(f"equivalence volume [bold]{output.fixed(result.equivalence_ml, 3)} mL[/bold] "
               f"(u = {output.fixed(result.u_ml, 3)} mL, endpoint #{len(result.endpoints)})")
-    if result.gran_ml is not None:
-        assert result.gran_tolerance_ml is not None
-        verdict = ("agree" if result.gran_agrees else "DISAGREE")
+    if result.gran_ml is not None and result.gran_tolerance_ml is not None:
         out.print(f"Gran estimate {output.fixed(result.gran_ml, 3)} mL beside "
-                  f"{output.fixed(result.equivalence_ml, 3)} mL: {verdict} "
-                  f"(difference {abs(result.gran_ml - result.equivalence_ml):.3f} mL, "
-                  f"tolerance {result.gran_tolerance_ml:.3f} mL)")
-    for note in result.notes:
-        out.print(f"note: {note}", markup=False)
+                  f"{output.fixed(result.equivalence_ml, 3)} mL: "
+                  f"{'agree' if result.gran_agrees else 'DISAGREE'} (difference "
+                  f"{abs(result.gran_ml - result.equivalence_ml):.3f} mL, tolerance "
+                  f"{result.gran_tolerance_ml:.3f} mL)")
+    _notes(out, result.notes)
 
 
 @app.command("eqpoint")
@@ -472,11 +465,8 @@ def eqpoint(
         None, "--titrant-concentration", metavar="MOL/L",
         help="Titrant, mol/L (default: the sample's volume equal to the equivalence volume)."
     ),
-    co2_removed: bool = typer.Option(
-        False, "--boil-co2",
-        help="Carbon dioxide boiled off near the endpoint (a carbonate titrated with an "
-             "acid to its last endpoint)."
-    ),
+    co2_removed: bool = typer.Option(False, "--boil-co2", help="CO2 boiled off near the "
+                                     "endpoint (a carbonate titrated with an acid to CO2)."),
     tolerance: str = typer.Option(
         None, "--tolerance", metavar="PERCENT",
         help="Titration error, % of the equivalence volume, within which an indicator is "
@@ -504,5 +494,4 @@ def eqpoint(
                             "advice"], rows, right=(2, 3)))
     out.print("suitable: " + (", ".join(result.suitable) or "none of the catalog's indicators"))
     out.print("unsuitable: " + ", ".join(result.unsuitable))
-    for note in result.notes:
-        out.print(f"note: {note}", markup=False)
+    _notes(out, result.notes)
