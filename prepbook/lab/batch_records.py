@@ -6,7 +6,7 @@
 from __future__ import annotations
 
 from dataclasses import asdict, dataclass
-from typing import Any, TypedDict
+from typing import Any, NotRequired, TypedDict
 
 from prepbook.lab.batch_facts import UseNeedingReview
 
@@ -47,6 +47,7 @@ class BudgetRow(TypedDict):
     u_relative: float
     contribution: float
     share_percent: float
+    missing: NotRequired[str | None]  # why the term could not be evaluated (newer runs)
 
 
 @dataclass(frozen=True)

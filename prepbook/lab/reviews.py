@@ -8,21 +8,21 @@ review desk's queue.
 from __future__ import annotations
 
 import functools
-import json
-from dataclasses import dataclass
-from typing import Any, TypedDict
+from dataclasses import dataclass, fields
+from typing import Any
 
 from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_datetime, parse_text
+from prepbook.lab.batch_records import RunRecord
+from prepbook.lab.batches import run_dict
 from prepbook.lab.common import (
     REVIEWERS,
     acting,
     by_code,
     find_by_code,
-    iso,
     not_future,
     signed,
     write,
@@ -32,69 +32,12 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Replicate, Review, Run
 
 
-class CheckRecord(TypedDict):
-    """An acceptance check as stored with its run (read back as written)."""
-
-    name: str
-    passed: bool
-    severity: str
-    message: str
-
-
-class BudgetRecord(TypedDict):
-    """A line of a run's uncertainty budget as stored with it (read back as written)."""
-
-    quantity: str
-    symbol: str
-    value: float
-    unit: str
-    u: float
-    u_relative: float | None
-    contribution: float
-    share_percent: float
-
-
 @dataclass(frozen=True)
-class Signature:
-    reviewer: str
-    decision: str
-    reason: str | None
-    signed_at: str | None
+class QueuedRun(RunRecord):
+    """A run with its batch's code: what ``review`` returns and the review desk lists.
+    The fields are the keys of ``review --json``."""
 
-
-@dataclass(frozen=True)
-class RunRecord:
-    """A recorded run as stored, with its reviews: what ``review`` returns and the review
-    desk lists. The fields are the keys of ``review --json``."""
-
-    run: str
-    method: str
-    status: str
-    performed_at: str | None
-    recorded_at: str | None
-    analyst: str
-    lot: str | None
-    lot_certificate: str | None
-    reference_batch: str | None
-    balance: str | None
-    burette: str | None
-    temperature_c: str | None  # as typed
-    blank_ml: str | None  # as typed
-    indicator: str | None
-    normality: float | None
-    normality_20c: float | None
-    factor: float | None
-    sd: float | None
-    rsd_percent: float | None
-    u: float | None
-    U: float | None
-    k: float | None
-    verdict: str | None
-    checks: tuple[CheckRecord, ...]
-    budget: tuple[BudgetRecord, ...]
-    reviews: tuple[Signature, ...]
     batch: str
-
 
 
 def _run_to_review(s: Session, code: str) -> Run:
@@ -145,7 +88,7 @@ def review(
     reason: str | None,
     passphrase: str | None,
     at: str | None = None,
-) -> RunRecord:
+) -> QueuedRun:
     """A second person's signed accept or reject of a run awaiting review.
 
     ``at`` records when the review was actually done (transcribing a paper
@@ -172,27 +115,14 @@ def review(
         return _record(s, r)
 
 
-def runs_awaiting_review(db: Database) -> tuple[RunRecord, ...]:
+def runs_awaiting_review(db: Database) -> tuple[QueuedRun, ...]:
     with db.session(write=False) as s:
         rows = s.scalars(select(Run).where(Run.status == "awaiting-review")
                          .order_by(Run.performed_at)).all()
         return tuple(_record(s, r) for r in rows)
 
 
-def _record(s: Session, r: Run) -> RunRecord:
-    stored = json.loads(r.result_json) if r.result_json else {}
-    reviews = s.scalars(select(Review).where(Review.run_id == r.id).order_by(Review.id))
-    return RunRecord(
-        run=r.code, method=r.method, status=r.status, performed_at=iso(r.performed_at),
-        recorded_at=iso(r.recorded_at), analyst=r.analyst,
-        lot=r.lot.code if r.lot else None, lot_certificate=r.lot.certificate if r.lot else None,
-        reference_batch=r.reference_batch.code if r.reference_batch else None,
-        balance=r.balance.code if r.balance else None,
-        burette=r.burette.code if r.burette else None,
-        temperature_c=r.temperature_c_text, blank_ml=r.blank_ml_text, indicator=r.indicator,
-        normality=r.normality, normality_20c=r.normality_20c, factor=r.factor, sd=r.sd,
-        rsd_percent=r.rsd_percent, u=r.u, U=r.U, k=r.k, verdict=stored.get("verdict"),
-        checks=tuple(stored.get("checks", ())), budget=tuple(stored.get("budget", ())),
-        reviews=tuple(Signature(reviewer=v.reviewer, decision=v.decision, reason=v.reason,
-                                signed_at=iso(v.signed_at)) for v in reviews),
-        batch=r.batch.code)
+def _record(s: Session, r: Run) -> QueuedRun:
+    shown = run_dict(s, r, with_replicates=False)
+    return QueuedRun(**{f.name: getattr(shown, f.name) for f in fields(shown)},
+                     batch=r.batch.code)

@@ -42,14 +42,14 @@ from prepbook.lab.common import (
     signed,
     write,
 )
-from prepbook.lab.reviews import RunRecord, review, runs_awaiting_review
+from prepbook.lab.reviews import QueuedRun, review, runs_awaiting_review
 from prepbook.rules import evaluation as ev
 from prepbook.rules.acceptance import Check
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Replicate, Run
 
-__all__ = ["RunRecord", "RunResult", "correct", "exclude", "review", "runs_awaiting_review",
+__all__ = ["QueuedRun", "RunResult", "correct", "exclude", "review", "runs_awaiting_review",
            "standardize"]
 
 

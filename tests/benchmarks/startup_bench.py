@@ -74,12 +74,10 @@ def measure(repeat: int = 20) -> dict[str, float]:
     return result
 
 
-def main() -> None:
-    parser = argparse.ArgumentParser(description=(__doc__ or "").splitlines()[0])
-    parser.add_argument("--repeat", type=int, default=20, help="runs of each command")
-    args = parser.parse_args()
-    m = measure(args.repeat)
-    print(f"start-up: median of {args.repeat} runs each; Python {sys.version.split()[0]}")
+def report(repeat: int) -> None:
+    """Print the start-up figures side by side with their targets."""
+    m = measure(repeat)
+    print(f"start-up: median of {repeat} runs each; Python {sys.version.split()[0]}")
     print(f"  {'':31} {'wall':<15}  {'processor':<15}")
     label = "python -c 'import typer'"
     print(f"  {label:31} {m['typer']:6.1f} ms {'':5}  {m['typer_cpu']:6.1f} ms")
@@ -88,7 +86,13 @@ def main() -> None:
         verdict = "met" if m[f"{name}_x"] <= target else "NOT MET"
         print(f"  {label:31} {m[name]:6.1f} ms {m[f'{name}_x']:4.2f}x  "
               f"{m[f'{name}_cpu']:6.1f} ms {m[f'{name}_cpu_x']:4.2f}x  "
-              f"(target <= {target}x of the wall time: {verdict})")
+              f"(target <= {target}x of the wall time: {verdict})", flush=True)
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=(__doc__ or "").splitlines()[0])
+    parser.add_argument("--repeat", type=int, default=20, help="runs of each command")
+    report(parser.parse_args().repeat)
 
 
 if __name__ == "__main__":

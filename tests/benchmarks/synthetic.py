@@ -228,10 +228,10 @@ class _History:
                                  at=made.isoformat(timespec="minutes"), **args)
         # What was really made: the theoretical strength, off by a little (a hygroscopic
         # solid, a concentrate of uncertain strength, a flask slightly off).
-        n0 = res["theoretical_normality"] * (1 + self.rng.gauss(-0.006 if kind.spec.startswith(
+        n0 = res.theoretical_normality * (1 + self.rng.gauss(-0.006 if kind.spec.startswith(
             ("NaOH", "KOH")) else 0.0, 0.003))
-        bottle = _Bottle(code=res["batch"], kind=kind, made=made,
-                         expires=date.fromisoformat(res["expires"]), true_n0=n0,
+        bottle = _Bottle(code=res.batch, kind=kind, made=made,
+                         expires=date.fromisoformat(res.expires), true_n0=n0,
                          left_ml=1000.0)
         self.counts["batches"] += 1
         self.standardize(bottle, made + timedelta(minutes=40))

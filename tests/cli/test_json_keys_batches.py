@@ -26,7 +26,7 @@ REPLICATE = ["position", "version", "current", "amount", "volume_ml", "excluded"
 REVIEW = ["reviewer", "decision", "reason", "signed_at"]
 CHECK = {"name", "passed", "severity", "message"}
 BUDGET = {"quantity", "symbol", "value", "unit", "u", "u_relative", "contribution",
-          "share_percent"}
+          "share_percent", "missing"}
 USE = ["at", "by", "volume_ml", "purpose"]
 RETIRED = ["at", "by", "reason"]
 DOUBTFUL_USE = ["used_at", "used_by", "volume_ml", "purpose", "why"]

@@ -17,14 +17,8 @@ from prepbook.errors import InvalidInput
 from prepbook.store import audit
 from prepbook.store.audit import chain
 from prepbook.store.engine import Database, open_database
-from prepbook.store.models import (
-    AuditEvent,
-    AuditHead,
-    Batch,
-    Setting,
-    snapshot,
-    snapshot_mapping,
-)
+from prepbook.store.models import AuditEvent, AuditHead, Batch, Setting
+from prepbook.store.snapshot import snapshot, snapshot_mapping
 
 from .conftest import add_batch, now
 
@@ -397,10 +391,10 @@ def test_log_lists_events_with_filters(db: Database) -> None:
     _write_lab(db)
     with db.session(write=False) as session:
         everything = audit.log(session)
-        assert [e["seq"] for e in everything] == [1, 2, 3, 4, 5]
-        assert everything[1]["record"] == "batches #1"
-        assert everything[4]["reason"] == "contaminated"
-        assert set(everything[0]) >= {
+        assert [e.seq for e in everything] == [1, 2, 3, 4, 5]
+        assert everything[1].record == "batches #1"
+        assert everything[4].reason == "contaminated"
+        assert set(vars(everything[0])) >= {
             "seq",
             "at",
             "actor",
@@ -410,8 +404,8 @@ def test_log_lists_events_with_filters(db: Database) -> None:
             "performed_at",
         }
         b2 = audit.log(session, record_type="batches", record_id=2)
-        assert [(e["seq"], e["action"]) for e in b2] == [(3, "batch make"), (5, "batch retire")]
-        assert [e["seq"] for e in audit.log(session, limit=2)] == [4, 5]
+        assert [(e.seq, e.action) for e in b2] == [(3, "batch make"), (5, "batch retire")]
+        assert [e.seq for e in audit.log(session, limit=2)] == [4, 5]
         assert audit.log(session, actor="nobody") == []
         today = datetime.now(UTC).date()
         assert len(audit.log(session, since=today, until=today)) == 5

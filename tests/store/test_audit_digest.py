@@ -21,15 +21,8 @@ from sqlalchemy import select, text
 from prepbook.store import audit
 from prepbook.store.audit import writing
 from prepbook.store.engine import Database
-from prepbook.store.models import (
-    AUDITED_TABLES,
-    AuditEvent,
-    Run,
-    digested_columns,
-    fingerprint,
-    legacy_to_digest,
-    snapshot,
-)
+from prepbook.store.models import AUDITED_TABLES, AuditEvent, Run
+from prepbook.store.snapshot import digested_columns, fingerprint, legacy_to_digest, snapshot
 from tests.cli.test_bench_flow import _make_batch, _standardize, bench  # noqa: F401
 from tests.conftest import Cli, raw_sql
 
@@ -47,7 +40,7 @@ RESULT = json.dumps(
 
 
 def _sha256_of(value: str) -> str:
-    # Computed here, independently of models.fingerprint.
+    # Computed here, independently of snapshot.fingerprint.
     return "sha256:" + hashlib.sha256(value.encode("utf-8")).hexdigest()
 
 

@@ -36,7 +36,7 @@ def test_calls_in_one_transaction_are_committed_together(
         _balance(db, "BAL-1")
         _balance(db, "BAL-2")
         # The block's own calls see each other's writes ...
-        assert [i["code"] for i in instruments.list_instruments(db)] == ["BAL-1", "BAL-2"]
+        assert [i.code for i in instruments.list_instruments(db)] == ["BAL-1", "BAL-2"]
         # ... nobody else does until the block ends.
         assert row_counts(db_target)["instruments"] == before["instruments"]
     after = row_counts(db_target)

@@ -22,7 +22,8 @@ from sqlalchemy.engine import make_url
 from prepbook.errors import DatabaseError
 from prepbook.store import audit, migrate
 from prepbook.store.engine import Database, open_database
-from prepbook.store.models import AuditEvent, Base, Batch, Setting, snapshot
+from prepbook.store.models import AuditEvent, Base, Batch, Setting
+from prepbook.store.snapshot import snapshot
 
 from .conftest import add_batch, now
 

@@ -43,14 +43,8 @@ from prepbook.store.audit.chain import (
     read_key,
     time_text,
 )
-from prepbook.store.models import (
-    AUDITED_TABLES,
-    AuditEvent,
-    AuditHead,
-    audited_in_digest,
-    legacy_to_digest,
-    snapshot_columns,
-)
+from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead
+from prepbook.store.snapshot import audited_in_digest, legacy_to_digest, snapshot_columns
 
 _MAX_LISTED = 10  # problems of one kind listed one by one before they are counted
 _PAGE = 10_000  # rows read at a time

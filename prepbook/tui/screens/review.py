@@ -19,7 +19,7 @@ from prepbook.tui.screens.common import budget_table, run_block
 from prepbook.tui.widgets import colour
 
 if TYPE_CHECKING:
-    from prepbook.lab.reviews import RunRecord
+    from prepbook.lab.reviews import QueuedRun
 
 REVIEWER_ROLES = ("reviewer", "admin")
 
@@ -34,7 +34,7 @@ class ReviewScreen(Screen[None]):
 
     def __init__(self) -> None:
         super().__init__()
-        self.queue: tuple[RunRecord, ...] = ()
+        self.queue: tuple[QueuedRun, ...] = ()
         self._details: dict[str, dict[str, Any]] = {}
 
     def compose(self) -> ComposeResult:
@@ -104,7 +104,7 @@ class ReviewScreen(Screen[None]):
             self._details[code] = {"run": full, "batch": chain}
         return self._details[code]
 
-    def _queued(self, code: str | None) -> RunRecord | None:
+    def _queued(self, code: str | None) -> QueuedRun | None:
         return next((q for q in self.queue if q.run == code), None)
 
     def show(self) -> None:
