@@ -40,7 +40,7 @@ from __future__ import annotations
 
 import math
 import statistics
-from collections.abc import Collection, Sequence
+from collections.abc import Callable, Collection, Sequence
 from dataclasses import dataclass
 
 from prepbook.chem.corrections import buoyancy_true_mass
@@ -231,6 +231,23 @@ def _blank_line(blank_ml: float, u_blank_ml: float) -> InputQuantity | None:
     return InputQuantity("blank", "V_blank", blank_ml, "mL", u_blank_ml)
 
 
+def _blank_and_repeatability(
+    blank_ml: float, u_blank_ml: float, rep_line: InputQuantity | None,
+) -> tuple[list[InputQuantity], Callable[[tuple[float, ...]], tuple[float, float]]]:
+    """The optional budget lines that follow a model's own inputs (the blank, the
+    repeatability factor), and how the model reads them back: (V_blank, f_rep)."""
+    blank_line = _blank_line(blank_ml, u_blank_ml)
+    lines = [line for line in (blank_line, rep_line) if line is not None]
+
+    def split(rest: tuple[float, ...]) -> tuple[float, float]:
+        extra = list(rest)
+        vb = extra.pop(0) if blank_line is not None else 0.0
+        f = extra.pop(0) if rep_line is not None else 1.0
+        return vb, f
+
+    return lines, split
+
+
 # --- the two standardizations --------------------------------------------------------
 
 
@@ -311,18 +328,12 @@ def direct(
             InputQuantity("titrant volume", "V", mean_volume, "mL",
                           _non_negative(uncertainty.u_volume_ml, "volume uncertainty (mL)")),
         ]
-        blank_line = _blank_line(blank, _non_negative(uncertainty.u_blank_ml,
-                                                      "blank uncertainty (mL)"))
-        has_blank = blank_line is not None
-        if blank_line is not None:
-            inputs.append(blank_line)
-        if rep_line is not None:
-            inputs.append(rep_line)
+        extra_lines, split = _blank_and_repeatability(
+            blank, _non_negative(uncertainty.u_blank_ml, "blank uncertainty (mL)"), rep_line)
+        inputs += extra_lines
 
         def model(m, p, m_molar, v, *rest):  # type: ignore[no-untyped-def]
-            extra = list(rest)
-            vb = extra.pop(0) if has_blank else 0.0
-            f = extra.pop(0) if rep_line is not None else 1.0
+            vb, f = split(rest)
             return 1000.0 * m * p * n_eq * f / (m_molar * (v - vb))
 
         if len(kept) > 1:
@@ -367,18 +378,12 @@ def secondary(
             InputQuantity("titrant volume", "V", mean_volume, "mL",
                           _non_negative(uncertainty.u_volume_ml, "volume uncertainty (mL)")),
         ]
-        blank_line = _blank_line(blank, _non_negative(uncertainty.u_blank_ml,
-                                                      "blank uncertainty (mL)"))
-        has_blank = blank_line is not None
-        if blank_line is not None:
-            inputs.append(blank_line)
-        if rep_line is not None:
-            inputs.append(rep_line)
+        extra_lines, split = _blank_and_repeatability(
+            blank, _non_negative(uncertainty.u_blank_ml, "blank uncertainty (mL)"), rep_line)
+        inputs += extra_lines
 
         def model(nr, va, v, *rest):  # type: ignore[no-untyped-def]
-            extra = list(rest)
-            vb = extra.pop(0) if has_blank else 0.0
-            f = extra.pop(0) if rep_line is not None else 1.0
+            vb, f = split(rest)
             return nr * va * f / (v - vb)
 
         if len(kept) > 1:

@@ -50,13 +50,13 @@ def demo(
     target = Path(_target(ctx, db))
     res = demo_lab.build(target, replace=replace)
     if as_json:
-        output.emit_json(res["board"])
+        output.emit_json(list(res.board))
         return
     out = output.console()
-    out.print(f"[bold]{res['lab']}[/bold]: demo lab built in {res['database']} "
-              f"({res['batches']} batches, {res['runs']} standardizations, "
-              f"{res['events']} audit events)")
-    for line in res["story"]:
+    out.print(f"[bold]{res.lab}[/bold]: demo lab built in {res.database} "
+              f"({res.batches} batches, {res.runs} standardizations, "
+              f"{res.events} audit events)")
+    for line in res.story:
         out.print(f"  {line}")
-    render_board(out, res["board"])
-    out.print(f"\nTry: prepbook --db {res['database']} batch show {res['example_batch']}")
+    render_board(out, list(res.board))
+    out.print(f"\nTry: prepbook --db {res.database} batch show {res.example_batch}")

@@ -4,15 +4,32 @@ a bench would use, with its dates counted back from today."""
 from __future__ import annotations
 
 import tomllib
+from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 from importlib import resources
 from pathlib import Path
 from typing import Any
 
 from prepbook.errors import Refused
+from prepbook.lab.board import BatchLife
 
 DEMO_FILE = "lab.toml"
 
+
+
+@dataclass(frozen=True)
+class DemoLab:
+    """The demo lab just built: where, how much, the story it tells and its board."""
+
+    lab: str
+    database: str
+    batches: int
+    runs: int
+    events: int
+    verified: bool
+    story: tuple[str, ...]
+    board: tuple[BatchLife, ...]
+    example_batch: str
 
 def scenario() -> dict[str, Any]:
     text = resources.files("prepbook.demo_lab").joinpath(DEMO_FILE).read_text(encoding="utf-8")
@@ -37,7 +54,7 @@ def _move_aside(path: Path, replace: bool) -> None:
                 old.rename(f"{path}.old-{stamp}{suffix}")
 
 
-def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
+def build(path: Path, *, replace: bool = False) -> DemoLab:
     """Build the demo lab into a new SQLite file at ``path`` and return its board."""
     from prepbook.lab import batches, board, instruments, lots, people, runs, setup
     from prepbook.store.engine import open_database
@@ -110,14 +127,6 @@ def build(path: Path, *, replace: bool = False) -> dict[str, Any]:
         "a thiosulfate run was rejected and repeated; permanganate " + codes["kmno4"]
         + " is past its shelf life; an EDTA run awaits review",
     ]
-    return {
-        "lab": data["lab"],
-        "database": target,
-        "batches": len(codes),
-        "runs": run_count,
-        "events": verified.events,
-        "verified": verified.ok,
-        "story": story,
-        "board": items,
-        "example_batch": codes["naoh_a"],
-    }
+    return DemoLab(lab=data["lab"], database=target, batches=len(codes), runs=run_count,
+                   events=verified.events, verified=verified.ok, story=tuple(story),
+                   board=tuple(items), example_batch=codes["naoh_a"])

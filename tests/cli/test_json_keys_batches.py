@@ -11,6 +11,9 @@ import pytest
 from tests.cli.test_bench_flow import REPS, _at, _make_batch, _standardize, bench  # noqa: F401
 from tests.conftest import Cli
 
+# The commands whose --json keys this file pins (test_json_keys_audit checks the union).
+PINNED = {"batch make", "batch show", "batch use", "batch retire", "use", "status", "trend",
+          "trace", "report"}
 SHOW = ["batch", "spec", "spec_name", "nominal", "unit", "state", "normality", "factor",
         "restandardize_by", "expires", "warnings", "preparation", "retired", "runs", "uses",
         "diluted_into", "uses_needing_review", "storage", "hazard"]

@@ -13,6 +13,10 @@ from tests.conftest import Cli
 
 # One budget row for calc and the recorded runs; ``missing`` (why a term was not evaluated)
 # was added by the chemistry core, a new key as DESIGN section 4 allows.
+# The commands whose --json keys this file pins (test_json_keys_audit checks the union).
+PINNED = {"calc normality", "calc secondary", "calc solid", "calc liquid", "calc dilute",
+          "calc adjust", "calc buoyancy", "calc temperature", "calc titer", "calc eqpoint",
+          "calc endpoint", "standardize", "correct", "exclude", "review"}
 BUDGET = ["quantity", "symbol", "value", "unit", "u", "u_relative", "contribution",
           "share_percent", "missing"]
 CHECK = ["name", "passed", "severity", "message"]

@@ -30,7 +30,7 @@ def demo_lab(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, str]:
 
     path = tmp_path_factory.mktemp("demo") / "d.db"
     story = demo.build(path)
-    return path, story["example_batch"]
+    return path, story.example_batch
 
 
 @pytest.fixture(scope="module")

@@ -15,7 +15,7 @@ def built(tmp_path: Path):
     story = demo.build(tmp_path / "d.db")
     # The demo's NaOH batch due for restandardization (its code carries the date it
     # was made, counted back from today, so it is read from the demo, never typed).
-    return open_database(str(tmp_path / "d.db")), story["example_batch"]
+    return open_database(str(tmp_path / "d.db")), story.example_batch
 
 
 def test_head_moves_with_every_write_and_batch_events_are_its_history(built) -> None:
