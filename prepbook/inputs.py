@@ -10,16 +10,19 @@ from __future__ import annotations
 
 import math
 import re
+import sys
+import unicodedata
 from dataclasses import dataclass
 from datetime import UTC, date, datetime, time
 from decimal import Decimal, InvalidOperation
 
 from prepbook.errors import InvalidInput
 
-# Plain decimal notation only: optional sign, digits, optional point and digits.
-# Exponents, thousands separators, "nan" and "inf" are refused on purpose:
-# a bench reading is never written that way, and guessing is how values go wrong.
-_DECIMAL = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)$")
+# Decimal notation: optional sign, ASCII digits, optional point and digits, and an
+# optional exponent of one to three digits after "e" or "E" ("1.5e-3", "2E-4"), which
+# reads one way only. Thousands separators, "nan" and "inf" are refused on purpose:
+# guessing is how values go wrong. Digits of other scripts are refused by name.
+_NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]{1,3})?$")
 _MAX_LEN = 32
 
 
@@ -32,13 +35,24 @@ class Reading:
 
     @property
     def decimals(self) -> int:
-        """Digits after the point as entered (22.20 -> 2)."""
-        return len(self.text.split(".", 1)[1]) if "." in self.text else 0
+        """Decimal places of the value as entered (22.20 -> 2; 1.5e-3 -> 4, as 0.0015)."""
+        mantissa, _, exponent = self.text.lower().partition("e")
+        places = len(mantissa.split(".", 1)[1]) if "." in mantissa else 0
+        return max(0, places - int(exponent or 0))
 
 
 def _shown(text: str) -> str:
     clean = "".join(ch if ch.isprintable() else "?" for ch in text)
     return clean if len(clean) <= 40 else clean[:37] + "..."
+
+
+def _foreign_character(raw: str) -> str | None:
+    """The first non-ASCII character of ``raw``, named (e.g. a digit of another script)."""
+    for ch in raw:
+        if not ch.isascii():
+            name = unicodedata.name(ch, "unnamed character")
+            return f"'{ch}' (U+{ord(ch):04X} {name})"
+    return None
 
 
 def parse_number(
@@ -49,23 +63,31 @@ def parse_number(
     non_negative: bool = False,
     maximum: float | None = None,
 ) -> Reading:
-    """Parse a plain decimal number typed by a person.
+    """Parse a decimal number typed by a person, in plain or scientific notation.
 
-    ``positive`` refuses zero and negatives, ``non_negative`` refuses negatives.
+    ``positive`` refuses zero and negatives, ``non_negative`` refuses negatives. Only
+    the ASCII digits 0-9 are read: a digit of another script is refused by name.
     """
     raw = text.strip() if isinstance(text, str) else str(text)
     if not raw:
         raise InvalidInput(f"{what}: a number is required")
-    if "," in raw and "." not in raw and _DECIMAL.match(raw.replace(",", ".")):
+    foreign = _foreign_character(raw)
+    if foreign is not None:
+        raise InvalidInput(f"{what}: {_shown(raw)!r} holds {foreign}; type the digits 0-9 "
+                           "and '.'")
+    if "," in raw and "." not in raw and _NUMBER.match(raw.replace(",", ".")):
         raise InvalidInput(f"{what}: {_shown(raw)!r} uses a comma; write the decimal point as '.'")
-    if len(raw) > _MAX_LEN or not _DECIMAL.match(raw):
-        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a plain decimal number")
+    if len(raw) > _MAX_LEN or not _NUMBER.match(raw):
+        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a plain decimal number "
+                           "(or one in scientific notation, such as 1.5e-3)")
     try:
-        value = float(Decimal(raw))
-    except (InvalidOperation, ValueError, OverflowError):  # pragma: no cover - regex guards
+        exact = Decimal(raw)
+    except (InvalidOperation, ValueError):  # pragma: no cover - regex guards
         raise InvalidInput(f"{what}: {_shown(raw)!r} is not a number") from None
-    if not math.isfinite(value):  # pragma: no cover - regex guards
-        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a finite number")
+    value = float(exact)
+    if not math.isfinite(value) or (exact != 0 and abs(value) < sys.float_info.min):
+        raise InvalidInput(f"{what}: {_shown(raw)!r} is out of the range of numbers computed "
+                           "with")
     if positive and value <= 0:
         raise InvalidInput(f"{what} must be greater than zero (got {raw})")
     if non_negative and value < 0:

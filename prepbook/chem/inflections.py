@@ -102,6 +102,7 @@ class EndpointReport:
     gran_agrees: bool | None
     gran_tolerance_ml: float | None
     notes: tuple[str, ...]
+    gran_points: int = 0  # points Gran's line was fitted through (0: not applied)
 
 
 def _window(v: Any, e: Any, window_ml: tuple[float, float] | None) -> tuple[Any, Any]:
@@ -246,13 +247,13 @@ def find_endpoints(
     notes.insert(0, f"{len(found)} inflection(s); derivative smoothed over {span:.3g} mL; "
                     f"reading noise {noise:.3g} {kind}")
 
-    gran_ml, agrees, tolerance = _gran_check(volumes, values, kind, found, window_ml,
-                                             sample_ml, gran_tolerance_fraction, notes)
+    gran_ml, agrees, tolerance, gran_points = _gran_check(
+        volumes, values, kind, found, window_ml, sample_ml, gran_tolerance_fraction, notes)
     return EndpointReport(
         inflections=tuple(found), kind=kind, points=len(v),
         window_ml=None if window_ml is None else (float(window_ml[0]), float(window_ml[1])),
         smoothing_ml=span, noise=noise, gran_ml=gran_ml, gran_agrees=agrees,
-        gran_tolerance_ml=tolerance, notes=tuple(notes),
+        gran_tolerance_ml=tolerance, notes=tuple(notes), gran_points=gran_points,
     )
 
 
@@ -260,15 +261,16 @@ def _gran_check(
     volumes: list[float], values: list[float], kind: str, found: list[Inflection],
     window_ml: tuple[float, float] | None, sample_ml: float | None,
     tolerance_fraction: float, notes: list[str],
-) -> tuple[float | None, bool | None, float | None]:
-    """Gran's estimate for the last inflection and whether it agrees with it."""
+) -> tuple[float | None, bool | None, float | None, int]:
+    """Gran's estimate for the last inflection, whether it agrees with it, the tolerance
+    and the points fitted."""
     if kind != "pH":
         notes.append("Gran's method not applied: it needs pH readings")
-        return None, None, None
+        return None, None, None, 0
     if window_ml is not None:
         notes.append("Gran's method not applied within a volume window: its functions "
                       "hold over the whole curve")
-        return None, None, None
+        return None, None, None, 0
     last = found[-1]
     rising = last.slope > 0
     if rising and len(found) == 1:
@@ -279,7 +281,7 @@ def _gran_check(
                sample_ml=sample_ml)
     notes.extend(note for note in fit.notes if "differ by" not in note)
     if fit.equivalence_ml is None:
-        return None, None, None
+        return None, None, None, 0
     tolerance = compare_tolerance_ml(last.volume_ml, last.u_ml, tolerance_fraction)
     difference = abs(fit.equivalence_ml - last.volume_ml)
     agrees = difference <= tolerance
@@ -287,7 +289,7 @@ def _gran_check(
         notes.append(f"Gran ({fit.equivalence_ml:.3f} mL) and the inflection "
                      f"({last.volume_ml:.3f} mL) disagree by {difference:.3f} mL, more than "
                      f"{tolerance:.3f} mL: check the curve and the sample volume")
-    return fit.equivalence_ml, agrees, tolerance
+    return fit.equivalence_ml, agrees, tolerance, fit.points
 
 
 def compare_tolerance_ml(volume_ml: float, u_ml: float,

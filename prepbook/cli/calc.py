@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import typer
 
@@ -28,22 +28,30 @@ app = typer.Typer(
 JSON = typer.Option(False, "--json", help="Print one JSON document instead of a table.")
 
 
+def _budget_row(line: BudgetLine) -> tuple[str, ...]:
+    value = f"{output.sig(line.value, 6)} {'' if line.unit == '1' else line.unit}".strip()
+    if line.missing is not None:  # a term that belongs here but was not evaluated
+        return (line.quantity, value, "missing", "missing", "missing", "-")
+    return (
+        line.quantity,
+        value,
+        output.sig(line.u, 2),
+        "-" if line.u_relative is None else f"{line.u_relative * 100:.3f} %",
+        output.sig(line.contribution, 2),
+        f"{line.share_percent:.1f} %",
+    )
+
+
+def _notes(out: Any, notes: Sequence[str]) -> None:
+    for note in notes:
+        out.print(f"note: {note}", markup=False)
+
+
 def _budget_table(budget: Sequence[BudgetLine]) -> object:
-    rows = [
-        (
-            line.quantity,
-            f"{output.sig(line.value, 6)} {'' if line.unit == '1' else line.unit}".strip(),
-            output.sig(line.u, 2),
-            "-" if line.u_relative is None else f"{line.u_relative * 100:.3f} %",
-            output.sig(line.contribution, 2),
-            f"{line.share_percent:.1f} %",
-        )
-        for line in budget
-    ]
     return output.table(
         "Uncertainty budget (GUM)",
         ["quantity", "value", "u", "u (rel.)", "contrib. (eq/L)", "share"],
-        rows,
+        [_budget_row(line) for line in budget],
         right=(1, 2, 3, 4, 5),
     )
 
@@ -88,6 +96,11 @@ def normality(
     temp_range: str = typer.Option(
         "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
     ),
+    repeatability: str = typer.Option(
+        None, "--repeatability", metavar="RSD%",
+        help="Validated repeatability, relative SD of one result in % (e.g. from the "
+             "method validation); used in the budget instead of the replicates' scatter."
+    ),
     as_json: bool = JSON,
 ) -> None:
     """Normality of a titrant from replicate titrations of a weighed primary standard."""
@@ -105,6 +118,7 @@ def normality(
         burette_tolerance_ml=burette_tolerance,
         burette_capacity_ml=burette_capacity,
         temperature_range_c=temp_range,
+        repeatability_percent=repeatability,
     )
     if as_json:
         output.emit_json(result)
@@ -139,11 +153,13 @@ def normality(
     out.print(line)
     if result.molarity is not None:
         out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
+    gaps = [line.quantity for line in result.budget if line.missing is not None]
     out.print(
         f"u = {output.sig(result.u, 2)} eq/L, U = {output.sig(result.U, 2)} eq/L "
-        f"(k = {result.k:g})"
+        f"(k = {result.k:g})" + (f", incomplete: {', '.join(gaps)} missing" if gaps else "")
     )
     out.print(_budget_table(result.budget))
+    _notes(out, result.uncertainty_notes)
     output.warn_lines(out, result.warnings)
 
 
@@ -389,36 +405,48 @@ def titer(
 def endpoint(
     file: Path = typer.Argument(
         ..., metavar="FILE",
-        help="CSV: a header row, then volume (mL) and pH or mV.", show_default=False
+        help="A meter's export: a header naming volume (mL) and pH or mV, in either order; "
+             "metadata lines above it, ';' and decimal commas are read.", show_default=False
     ),
     sample_ml: str = typer.Option(
         None, "--sample-ml", metavar="ML",
         help="Volume in the vessel before titrant (Gran after the end)."
     ),
-    search: str = typer.Option(
-        None, "--between", metavar="ML:ML",
-        help="Look for the endpoint only between these mL, e.g. 5:15."
-    ),
+    from_ml: str = typer.Option(None, "--from", metavar="ML", help="Window: from this mL."),
+    to_ml: str = typer.Option(None, "--to", metavar="ML", help="Window: up to this mL."),
+    search: str = typer.Option(None, "--between", metavar="ML:ML",
+                               help="The window as one option, e.g. 5:15."),
+    smoothing: str = typer.Option(None, "--smoothing", metavar="ML",
+                                  help="Derivative filter span, mL (default 7 median steps)."),
     as_json: bool = JSON,
 ) -> None:
-    """Equivalence volume from a recorded titration curve (derivative and Gran)."""
+    """Every endpoint (inflection) of a recorded titration curve, with its uncertainty,
+    and Gran's estimate beside the last one."""
     from prepbook.lab import curves
 
-    try:
-        text = file.read_text(encoding="utf-8-sig")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InvalidInput(f"cannot read {file}: {exc.__class__.__name__}") from None
-    result = curves.endpoint(text, sample_ml_text=sample_ml, between_text=search)
+    result = curves.endpoint(file, sample_ml_text=sample_ml, from_text=from_ml, to_text=to_ml,
+                             between_text=search, smoothing_text=smoothing)
     if as_json:
         output.emit_json(result)
         return
     out = output.console()
+    rows = [(e.index, output.fixed(e.volume_ml, 3), output.fixed(e.u_ml, 3),
+             output.fixed(e.reading, 2 if result.kind == "pH" else 1), output.sig(e.slope, 3))
+            for e in result.endpoints]
+    where = ("" if result.window_ml is None
+             else f" between {result.window_ml[0]:g} and {result.window_ml[1]:g} mL")
+    out.print(output.table(f"Endpoints{where} ({result.points} points)",
+                           ["#", "volume (mL)", "u (mL)", result.kind,
+                            f"slope ({result.kind}/mL)"], rows, right=(0, 1, 2, 3, 4)))
     out.print(f"equivalence volume [bold]{output.fixed(result.equivalence_ml, 3)} mL[/bold] "
-              f"({result.method}, {result.points} points)")
-    if result.gran_ml is not None:
-        out.print(f"Gran estimate {output.fixed(result.gran_ml, 3)} mL")
-    for note in result.notes:
-        out.print(f"note: {note}")
+              f"(u = {output.fixed(result.u_ml, 3)} mL, endpoint #{len(result.endpoints)})")
+    if result.gran_ml is not None and result.gran_tolerance_ml is not None:
+        out.print(f"Gran estimate {output.fixed(result.gran_ml, 3)} mL beside "
+                  f"{output.fixed(result.equivalence_ml, 3)} mL: "
+                  f"{'agree' if result.gran_agrees else 'DISAGREE'} (difference "
+                  f"{abs(result.gran_ml - result.equivalence_ml):.3f} mL, tolerance "
+                  f"{result.gran_tolerance_ml:.3f} mL)")
+    _notes(out, result.notes)
 
 
 @app.command("eqpoint")
@@ -433,16 +461,37 @@ def eqpoint(
         ..., "--concentration", metavar="MOL/L",
         help="Concentration of the salt at equivalence, mol/L."
     ),
+    titrant_concentration: str = typer.Option(
+        None, "--titrant-concentration", metavar="MOL/L",
+        help="Titrant, mol/L (default: the sample's volume equal to the equivalence volume)."
+    ),
+    co2_removed: bool = typer.Option(False, "--boil-co2", help="CO2 boiled off near the "
+                                     "endpoint (a carbonate titrated with an acid to CO2)."),
+    tolerance: str = typer.Option(
+        None, "--tolerance", metavar="PERCENT",
+        help="Titration error, % of the equivalence volume, within which an indicator is "
+             "advised (default 0.1)."
+    ),
     as_json: bool = JSON,
 ) -> None:
-    """pH at the equivalence point, and the indicators whose range covers it."""
+    """pH at the equivalence point, and each indicator judged by its titration error."""
     from prepbook.lab import curves
 
-    result = curves.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration)
+    result = curves.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration,
+                            titrant_concentration_text=titrant_concentration,
+                            co2_removed=co2_removed, tolerance_text=tolerance)
     if as_json:
         output.emit_json(result)
         return
     out = output.console()
     out.print(f"pH at equivalence [bold]{result.ph:.2f}[/bold] ({result.reaction})")
+    rows = [(a.name, f"{a.low_ph:g}-{a.high_ph:g}", f"{a.stop_ph:.2f}",
+             "never reached" if a.error_percent is None else f"{a.error_percent:+.3f} %",
+             "suitable" if a.suitable else "unsuitable")
+            for a in result.indicators]
+    out.print(output.table(f"Indicators (advised within +/-{result.tolerance_percent:g} %)",
+                           ["indicator", "range (pH)", "stop at pH", "titration error",
+                            "advice"], rows, right=(2, 3)))
     out.print("suitable: " + (", ".join(result.suitable) or "none of the catalog's indicators"))
     out.print("unsuitable: " + ", ".join(result.unsuitable))
+    _notes(out, result.notes)

@@ -68,6 +68,8 @@ class NormalityResult:
     k: float | None
     budget: tuple[BudgetLine, ...]
     warnings: tuple[str, ...]
+    repeatability_rsd_percent: float | None  # the validated value given, if any
+    uncertainty_notes: tuple[str, ...]  # what the budget assumed or left out
 
 
 @dataclass(frozen=True)
@@ -193,9 +195,14 @@ def normality(
     burette_tolerance_ml: str = "0.05",
     burette_capacity_ml: str | None = None,
     temperature_range_c: str = "3",
+    repeatability_percent: str | None = None,
 ) -> NormalityResult:
     """Normality of a titrant from weighed primary standard: the one evaluation of a
-    standardization (``prepbook.rules.evaluation``), with the calculator's advice."""
+    standardization (``prepbook.rules.evaluation``), with the calculator's advice.
+
+    ``repeatability_percent``: a validated repeatability (relative SD of one result, %,
+    e.g. from the method's validation), used in the budget instead of the replicates'
+    scatter; without it one replicate leaves the repeatability term missing."""
     from prepbook.rules import evaluation as ev
 
     purity = parse_percent(purity_percent, "purity").value / 100
@@ -214,6 +221,8 @@ def normality(
         if burette_capacity_ml is not None
         else None
     )
+    rsd = (parse_percent(repeatability_percent, "repeatability RSD (%)").value
+           if repeatability_percent is not None else None)
     e = ev.evaluate(ev.Standardization(
         readings=readings_of(entries),
         titrant=titrant,
@@ -226,6 +235,7 @@ def normality(
         balance_linearity_g=linearity_g,
         burette_tolerance_ml=tol,
         burette_capacity_ml=capacity,
+        u_rel_repeatability=None if rsd is None else rsd / 100,
     ))
     std, reaction = e.standard, e.reaction
     assert std is not None and reaction is not None, "a weighed standard has a reaction"
@@ -258,6 +268,8 @@ def normality(
         k=e.k,
         budget=e.budget,
         warnings=tuple(warnings),
+        repeatability_rsd_percent=rsd,
+        uncertainty_notes=e.uncertainty_notes,
     )
 
 

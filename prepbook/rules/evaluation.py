@@ -107,6 +107,7 @@ class Standardization:
     burette_capacity_ml: float | None = None
     burette: str | None = None  # the burette's code, for messages
     judgement: Judgement | None = None
+    u_rel_repeatability: float | None = None  # validated relative SD; None: the replicates'
 
 
 @dataclass(frozen=True)
@@ -207,7 +208,8 @@ def evaluate(s: Standardization) -> Evaluation:
             standard, pairs, blank_ml=s.blank_ml, buoyancy=_buoyancy(s, std_mat, notes),
             excluded=s.excluded,
             uncertainty=st.UncertaintyInputs(u_mass_g=st.mass_u_from_balance(linearity),
-                                             u_volume_ml=u_volume))
+                                             u_volume_ml=u_volume,
+                                             u_rel_repeatability=s.u_rel_repeatability))
         if s.judgement is not None:
             indicator = indicator or std_rx.indicator
             eq_ph = _equivalence_ph(std_mat, std_rx, standard, kept, mean_volume)
@@ -222,7 +224,8 @@ def evaluate(s: Standardization) -> Evaluation:
         result = st.secondary(
             n_ref, u_ref, pairs, blank_ml=s.blank_ml, excluded=s.excluded,
             uncertainty=st.UncertaintyInputs(u_mass_g=0.0, u_volume_ml=u_volume,
-                                             u_aliquot_ml=u_aliquot))
+                                             u_aliquot_ml=u_aliquot,
+                                             u_rel_repeatability=s.u_rel_repeatability))
         notes.append(f"reference {ref.batch} at {ref.normality_20c:.5f} eq/L (20 C), "
                      f"from its run {ref.run}")
     normality_20c = corrections.normality_at_temperature(result.normality, s.temperature_c,

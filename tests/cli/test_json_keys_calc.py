@@ -30,7 +30,7 @@ CALC = {
      "--rep", "0.8085:39.16", "--rep", "0.8116:39.29", "--rep", "0.8596:41.67"):
         ["standard", "titrant", "reaction", "titrant_n_eq_per_mol", "blank_ml", "buoyancy",
          "normality", "molarity", "replicates", "sd", "rsd_percent", "u", "U", "k", "budget",
-         "warnings"],
+         "warnings", "repeatability_rsd_percent", "uncertainty_notes"],
     ("secondary", "--reference-normality", "0.1", "--aliquot", "25", "--rep", "24.9",
      "--rep", "25.1"):
         ["reference_normality", "aliquot_ml", "blank_ml", "normality", "replicates", "sd",
@@ -56,7 +56,9 @@ CALC = {
          "reaction", "mg_per_ml"],
     ("eqpoint", "--standard", "KHP", "--titrant", "NaOH", "--concentration", "0.05"):
         ["standard", "titrant", "reaction", "n_eq_per_mol", "concentration_mol_per_l", "ph",
-         "suitable", "unsuitable"],
+         "suitable", "unsuitable", "titrant_concentration_mol_per_l",
+         "sample_concentration_mol_per_l", "co2_removed", "tolerance_percent", "indicators",
+         "notes"],
 }
 
 
@@ -82,13 +84,25 @@ def test_calc_normality_nested_keys(cli: Cli) -> None:
                                              "true_mass_g", "outlier", "excluded"]
 
 
+def test_calc_eqpoint_indicator_keys(cli: Cli) -> None:
+    out = cli.json("calc", "eqpoint", "--standard", "KHP", "--titrant", "NaOH",
+                   "--concentration", "0.05")
+    assert [list(a) for a in out["indicators"]] == [
+        ["name", "low_ph", "high_ph", "stop_ph", "error_percent", "error_range_percent",
+         "suitable", "reason"]] * len(out["indicators"])
+
+
 def test_calc_endpoint_json_keys(cli: Cli, tmp_path: Path) -> None:
     f = tmp_path / "curve.csv"
     f.write_text("volume_ml,pH\n" + "".join(f"{v},{3 + 8 / (1 + 10 ** (10 - v))}\n"
                                             for v in range(0, 21)))
     out = cli.json("calc", "endpoint", str(f))
     assert list(out) == ["equivalence_ml", "method", "kind", "reading_at_endpoint", "gran_ml",
-                         "gran_points", "points", "notes"]
+                         "gran_points", "points", "notes", "u_ml", "endpoints", "window_ml",
+                         "smoothing_ml", "noise", "gran_agrees", "gran_tolerance_ml",
+                         "volume_column", "reading_column", "preamble_lines"]
+    assert [list(e) for e in out["endpoints"]] == [
+        ["index", "volume_ml", "u_ml", "reading", "slope", "points_fitted"]]
 
 
 @pytest.fixture
