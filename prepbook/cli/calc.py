@@ -14,7 +14,6 @@ from typing import TYPE_CHECKING, Any
 import typer
 
 from prepbook.cli import output
-from prepbook.errors import InvalidInput
 
 if TYPE_CHECKING:
     from prepbook.chem.uncertainty import BudgetLine
