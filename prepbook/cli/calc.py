@@ -215,9 +215,10 @@ def solid(
     as_json: bool = JSON,
 ) -> None:
     """Mass of solid to weigh for a volume of a given normality."""
-    from prepbook.lab import calcs
+    from prepbook.lab import preparing
 
-    result = calcs.solid(solute, normality_text=normality, volume_text=volume, purity_text=purity)
+    result = preparing.solid(solute, normality_text=normality, volume_text=volume,
+                             purity_text=purity)
     if as_json:
         output.emit_json(result)
         return
@@ -252,9 +253,9 @@ def liquid(
     as_json: bool = JSON,
 ) -> None:
     """Volume of a concentrated liquid reagent for a volume of a given normality."""
-    from prepbook.lab import calcs
+    from prepbook.lab import preparing
 
-    result = calcs.liquid(reagent, normality_text=normality, volume_text=volume,
+    result = preparing.liquid(reagent, normality_text=normality, volume_text=volume,
                           fraction_text=fraction, density_text=density, n_text=n)
     if as_json:
         output.emit_json(result)
@@ -281,9 +282,9 @@ def dilute(
     as_json: bool = JSON,
 ) -> None:
     """Volumes of stock and water for a dilution (N1 V1 = N2 V2)."""
-    from prepbook.lab import calcs
+    from prepbook.lab import preparing
 
-    result = calcs.dilute(stock_text=stock, normality_text=normality, volume_text=volume)
+    result = preparing.dilute(stock_text=stock, normality_text=normality, volume_text=volume)
     if as_json:
         output.emit_json(result)
         return
@@ -310,9 +311,9 @@ def adjust(
     as_json: bool = JSON,
 ) -> None:
     """Water (or stronger stock) to add to bring a standardized batch to nominal."""
-    from prepbook.lab import calcs
+    from prepbook.lab import preparing
 
-    result = calcs.adjust(normality_text=normality, target_text=target, volume_text=volume,
+    result = preparing.adjust(normality_text=normality, target_text=target, volume_text=volume,
                           stock_text=stock)
     if as_json:
         output.emit_json(result)
@@ -338,9 +339,9 @@ def buoyancy(
     as_json: bool = JSON,
 ) -> None:
     """True mass of a weighed sample, corrected for air buoyancy (NIST IR 6969 SOP 2)."""
-    from prepbook.lab import calcs
+    from prepbook.lab import preparing
 
-    result = calcs.buoyancy(mass_text=mass, density_text=density, air_text=air_density,
+    result = preparing.buoyancy(mass_text=mass, density_text=density, air_text=air_density,
                             weights_text=weights_density)
     if as_json:
         output.emit_json(result)
@@ -363,9 +364,9 @@ def temperature(
     as_json: bool = JSON,
 ) -> None:
     """Normality at another temperature (dilute aqueous solution, CIPM water density)."""
-    from prepbook.lab import calcs
+    from prepbook.lab import preparing
 
-    result = calcs.temperature(normality_text=normality, from_text=from_c, to_text=to_c)
+    result = preparing.temperature(normality_text=normality, from_text=from_c, to_text=to_c)
     if as_json:
         output.emit_json(result)
         return
@@ -387,9 +388,9 @@ def titer(
     as_json: bool = JSON,
 ) -> None:
     """Titer: mg of an analyte equivalent to 1 mL of the titrant."""
-    from prepbook.lab import calcs
+    from prepbook.lab import preparing
 
-    result = calcs.titer(titrant=titrant, normality_text=normality, analyte=analyte)
+    result = preparing.titer(titrant=titrant, normality_text=normality, analyte=analyte)
     if as_json:
         output.emit_json(result)
         return

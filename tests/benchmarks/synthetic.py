@@ -42,7 +42,7 @@ if __name__ == "__main__":  # run as a script: the repository's own prepbook
 
 from prepbook.catalog import loader
 from prepbook.chem import formula
-from prepbook.lab import batches, calcs, history, instruments, lots, people, runs, setup
+from prepbook.lab import batches, history, instruments, lots, people, preparing, runs, setup
 from prepbook.lab.database import Database, open_database
 from prepbook.lab.security import HashCost
 
@@ -220,7 +220,7 @@ class _History:
                   / rx_n / (reagent.density_g_per_ml * reagent.mass_fraction))
             args["stock_volume"] = f"{ml * (1 + self.rng.gauss(0, 0.004)):.1f}"
         else:
-            mass = calcs.solid(spec.solute, normality_text=str(spec.nominal),
+            mass = preparing.solid(spec.solute, normality_text=str(spec.nominal),
                                volume_text="1000").mass_g
             args.update(solute_mass=f"{mass * (1 + self.rng.gauss(0.01, 0.004)):.4f}",
                         balance=balance)

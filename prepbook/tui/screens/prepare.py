@@ -134,7 +134,7 @@ class PrepareScreen(Screen[None]):
 
     # -- calculators ----------------------------------------------------------------------
     def calculate(self) -> None:
-        from prepbook.lab import calcs
+        from prepbook.lab import preparing
 
         if self.made:
             return
@@ -163,7 +163,7 @@ class PrepareScreen(Screen[None]):
             found: tuple[str, ...] = ()  # the calculator's cautions for what it names
             try:
                 if method == "solid":
-                    solid = calcs.solid(spec.solute, normality_text=target,
+                    solid = preparing.solid(spec.solute, normality_text=target,
                                         volume_text=volume,
                                         purity_text=self.value("purity") or "100")
                     out.append(f"  weigh {words.sig(solid.mass_g, 5)} g of {solid.name} "
@@ -173,7 +173,7 @@ class PrepareScreen(Screen[None]):
                                f"{solid.purity_percent:g} %) for {target} N in {volume} mL\n")
                     found = solid.cautions
                 elif method == "concentrate":
-                    liquid = calcs.liquid(spec.solute, normality_text=target,
+                    liquid = preparing.liquid(spec.solute, normality_text=target,
                                           volume_text=volume)
                     out.append(f"  measure {words.sig(liquid.volume_ml, 4)} mL of {liquid.name} "
                                f"({liquid.mass_fraction_percent:g} % m/m, "
@@ -188,7 +188,7 @@ class PrepareScreen(Screen[None]):
                     if stock is None or stock.normality is None:
                         out.append("  choose a standardized stock batch\n")
                     else:
-                        d = calcs.dilute(stock_text=repr(stock.normality),
+                        d = preparing.dilute(stock_text=repr(stock.normality),
                                          normality_text=target, volume_text=volume)
                         out.append(f"  take {words.sig(d.stock_ml, 4)} mL of {parent} "
                                    f"(N {words.sig(stock.normality)}) and make up to "

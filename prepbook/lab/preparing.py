@@ -1,0 +1,239 @@
+"""The database-free preparation calculators behind ``prepbook calc``: solid, liquid,
+dilute, adjust, buoyancy, temperature and titer.
+
+Each function takes the values as typed (strings), looks materials up in the
+built-in catalog, calls the chemistry core and returns a frozen dataclass whose fields
+are the keys of the command's JSON. Apart from ``lab.calcs`` so that ``calc
+normality``, the command a bench runs most, does not build these types at start-up.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from prepbook.errors import InvalidInput, NotFound
+from prepbook.inputs import parse_number, parse_percent
+
+
+@dataclass(frozen=True)
+class SolidResult:
+    solute: str
+    name: str
+    formula: str
+    molar_mass_g_per_mol: float
+    n_eq_per_mol: float
+    reaction: str
+    normality: float
+    volume_ml: float
+    purity_percent: float
+    mass_g: float
+    cautions: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class LiquidResult:
+    reagent: str
+    name: str
+    formula: str
+    mass_fraction_percent: float
+    density_g_per_ml: float
+    molarity_mol_per_l: float
+    n_eq_per_mol: float
+    normality: float
+    final_volume_ml: float
+    volume_ml: float
+    cautions: tuple[str, ...]
+    source: str
+
+
+@dataclass(frozen=True)
+class DilutionResult:
+    stock_normality: float
+    normality: float
+    volume_ml: float
+    stock_ml: float
+    water_ml: float
+
+
+@dataclass(frozen=True)
+class AdjustResult:
+    normality: float
+    target: float
+    volume_now_ml: float
+    add: str  # "water" or "stock"
+    volume_ml: float
+
+
+@dataclass(frozen=True)
+class BuoyancyResult:
+    reading_g: float
+    mass_g: float
+    correction_g: float
+    density_g_per_cm3: float
+    air_density_g_per_cm3: float
+    weights_density_g_per_cm3: float
+
+
+@dataclass(frozen=True)
+class TemperatureResult:
+    normality_from: float
+    from_c: float
+    to_c: float
+    normality: float
+    ratio: float
+
+
+@dataclass(frozen=True)
+class TiterResult:
+    titrant: str
+    normality: float
+    analyte: str
+    analyte_formula: str
+    analyte_n_eq_per_mol: float
+    reaction: str
+    mg_per_ml: float
+
+
+def _cautions(*materials: Any) -> tuple[str, ...]:
+    seen: list[str] = []
+    for m in materials:
+        for c in getattr(m, "cautions", ()) or ():
+            if c not in seen:
+                seen.append(c)
+    return tuple(seen)
+
+
+def solid(solute: str, *, normality_text: str, volume_text: str,
+          purity_text: str = "100") -> SolidResult:
+    from prepbook.catalog import loader
+    from prepbook.chem import formula, preparation
+
+    mat = loader.find_material(solute)
+    rx = mat.reaction()
+    n_target = parse_number(normality_text, "normality", positive=True).value
+    volume = parse_number(volume_text, "volume (mL)", positive=True).value
+    purity = parse_percent(purity_text, "purity").value / 100
+    mm = formula.molar_mass(mat.formula)
+    mass = preparation.solid_mass_g(n_target, volume, mm.value_g_per_mol, rx.n, purity)
+    return SolidResult(solute=mat.code, name=mat.name, formula=mat.formula,
+                       molar_mass_g_per_mol=mm.value_g_per_mol, n_eq_per_mol=rx.n,
+                       reaction=rx.name, normality=n_target, volume_ml=volume,
+                       purity_percent=purity * 100, mass_g=mass, cautions=_cautions(mat))
+
+
+def liquid(
+    reagent: str,
+    *,
+    normality_text: str,
+    volume_text: str,
+    fraction_text: str | None = None,
+    density_text: str | None = None,
+    n_text: str | None = None,
+) -> LiquidResult:
+    from prepbook.catalog import loader
+    from prepbook.chem import formula, preparation
+
+    rg = loader.find_reagent(reagent)
+    n_target = parse_number(normality_text, "normality", positive=True).value
+    volume = parse_number(volume_text, "volume (mL)", positive=True).value
+    fraction = (
+        parse_percent(fraction_text, "mass fraction").value / 100
+        if fraction_text is not None
+        else rg.mass_fraction
+    )
+    density = (
+        parse_number(density_text, "density (g/mL)", positive=True).value
+        if density_text is not None
+        else rg.density_g_per_ml
+    )
+    mm = formula.molar_mass(rg.formula)
+    if n_text is not None:
+        n_eq = parse_number(n_text, "equivalents per mole", positive=True).value
+    else:
+        try:
+            n_eq = loader.find_material(rg.formula).reaction().n
+        except NotFound:
+            raise InvalidInput(
+                f"the catalog has no titration reaction for {rg.name}: give its equivalents "
+                "per mole with --n"
+            ) from None
+    v_conc = preparation.liquid_volume_ml(
+        n_target, volume, mm.value_g_per_mol, n_eq, fraction, density
+    )
+    molarity = 1000 * fraction * density / mm.value_g_per_mol
+    return LiquidResult(reagent=rg.code, name=rg.name, formula=rg.formula,
+                        mass_fraction_percent=fraction * 100, density_g_per_ml=density,
+                        molarity_mol_per_l=molarity, n_eq_per_mol=n_eq, normality=n_target,
+                        final_volume_ml=volume, volume_ml=v_conc, cautions=tuple(rg.cautions),
+                        source=rg.source)
+
+
+def dilute(*, stock_text: str, normality_text: str, volume_text: str) -> DilutionResult:
+    from prepbook.chem import preparation
+
+    stock = parse_number(stock_text, "stock normality", positive=True).value
+    target = parse_number(normality_text, "normality", positive=True).value
+    volume = parse_number(volume_text, "volume (mL)", positive=True).value
+    d = preparation.dilution(stock, target, volume)
+    return DilutionResult(stock_normality=stock, normality=target, volume_ml=volume,
+                          stock_ml=d.stock_ml, water_ml=d.water_ml)
+
+
+def adjust(*, normality_text: str, target_text: str, volume_text: str,
+           stock_text: str | None = None) -> AdjustResult:
+    from prepbook.chem import preparation
+
+    found = parse_number(normality_text, "normality", positive=True).value
+    target = parse_number(target_text, "target normality", positive=True).value
+    volume = parse_number(volume_text, "volume (mL)", positive=True).value
+    stock = (parse_number(stock_text, "stock normality", positive=True).value
+             if stock_text is not None else None)
+    a = preparation.adjust(found, target, volume, stock_n=stock)
+    return AdjustResult(normality=found, target=target, volume_now_ml=volume, add=a.add,
+                        volume_ml=a.volume_ml)
+
+
+def buoyancy(*, mass_text: str, density_text: str, air_text: str = "0.0012",
+             weights_text: str = "8.0") -> BuoyancyResult:
+    from prepbook.chem import corrections
+
+    mass = parse_number(mass_text, "mass (g)", positive=True).value
+    density = parse_number(density_text, "sample density (g/cm3)", positive=True).value
+    air = parse_number(air_text, "air density (g/cm3)", non_negative=True).value
+    weights = parse_number(weights_text, "weights density (g/cm3)", positive=True).value
+    if air >= density or air >= weights:
+        raise InvalidInput("air density must be below the densities of the sample and the weights")
+    true = corrections.buoyancy_true_mass(mass, density, air=air, weights=weights)
+    return BuoyancyResult(reading_g=mass, mass_g=true, correction_g=true - mass,
+                          density_g_per_cm3=density, air_density_g_per_cm3=air,
+                          weights_density_g_per_cm3=weights)
+
+
+def temperature(*, normality_text: str, from_text: str, to_text: str) -> TemperatureResult:
+    from prepbook.chem import corrections
+
+    n1 = parse_number(normality_text, "normality", positive=True).value
+    t1 = parse_number(from_text, "temperature from (C)").value
+    t2 = parse_number(to_text, "temperature to (C)").value
+    for t in (t1, t2):
+        if not 0 <= t <= 40:
+            raise InvalidInput(f"temperature {t:g} C is outside 0-40 C, where the CIPM water "
+                               "density formula applies")
+    n2 = corrections.normality_at_temperature(n1, t1, t2)
+    return TemperatureResult(normality_from=n1, from_c=t1, to_c=t2, normality=n2, ratio=n2 / n1)
+
+
+def titer(*, titrant: str, normality_text: str, analyte: str) -> TiterResult:
+    from prepbook.catalog import loader
+    from prepbook.chem import formula, preparation
+
+    tit = loader.find_material(titrant)
+    ana = loader.find_material(analyte)
+    ana_rx, tit_rx = loader.reaction_for_pair(ana, tit)
+    n = parse_number(normality_text, "normality", positive=True).value
+    mm = formula.molar_mass(ana.formula)
+    mg = preparation.titer_mg_per_ml(n, mm.value_g_per_mol, ana_rx.n)
+    return TiterResult(titrant=tit.code, normality=n, analyte=ana.name,
+                       analyte_formula=ana.formula, analyte_n_eq_per_mol=ana_rx.n,
+                       reaction=ana_rx.name, mg_per_ml=mg)
