@@ -7,9 +7,11 @@ before it does.
 The trend is an ordinary least-squares line factor = a + b t (t in days from the
 first point). The slope is reported in percent of nominal per 30 days (the factor is
 N/N_nominal, so 0.01 in factor is 1 % of nominal) with a two-sided 95 % confidence
-interval b +/- t_{0.975, n-2} s_b. The forecast is the date where the fitted line
-crosses the window edge it is heading for: None when the slope is zero (to rounding)
-or the line is heading back into the window; a date in the past when the fitted line
+interval b +/- t_{0.975, n-2} s_b (t from ``chem.student_t``; the line from
+``statistics.linear_regression``, so no scipy is imported for a trend). The forecast
+is the date where the fitted line crosses the window edge it is heading for: None when
+the slope is zero (to rounding) or the line is heading back into the window; a date in
+the past when the fitted line
 has already left it.
 """
 
@@ -21,6 +23,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta
 
+from prepbook.chem.student_t import t_975
 from prepbook.errors import InvalidInput
 
 DAYS_PER_PERIOD = 30.0
@@ -60,12 +63,19 @@ def _as_datetime(when: date | datetime, i: int) -> datetime:
     raise InvalidInput(f"point {i}: {when!r} is not a date or datetime")
 
 
+def _slope_standard_error(days: list[float], factors: list[float], slope: float,
+                          intercept: float) -> float:
+    """s_b = sqrt(SSR / (n - 2) / Sxx), the standard error of an OLS slope."""
+    mean_day = statistics.fmean(days)
+    sxx = math.fsum((d - mean_day) ** 2 for d in days)
+    ssr = math.fsum((f - (intercept + slope * d)) ** 2 for d, f in zip(days, factors, strict=True))
+    return math.sqrt(ssr / (len(days) - 2) / sxx)
+
+
 def trend(
     points: Sequence[tuple[date | datetime, float]], window: tuple[float, float]
 ) -> Trend:
     """Fit factor vs time and forecast when the line leaves ``window`` (low, high)."""
-    from scipy import stats as sps  # heavy: only when a trend is asked for
-
     if len(points) < 3:
         raise InvalidInput(f"a trend needs at least 3 points, not {len(points)}")
     low, high = window
@@ -85,12 +95,9 @@ def trend(
     if statistics.pvariance(days) == 0:
         raise InvalidInput("all points are at the same time; no trend can be fitted")
 
-    fit = sps.linregress(days, factors)
-    slope = float(fit.slope)
-    intercept = float(fit.intercept)
+    slope, intercept = statistics.linear_regression(days, factors)
     n = len(points)
-    t_crit = float(sps.t.ppf(0.5 + CONFIDENCE / 2.0, n - 2))
-    half = t_crit * float(fit.stderr)
+    half = t_975(n - 2) * _slope_standard_error(days, factors, slope, intercept)
     to_pct = 100.0 * DAYS_PER_PERIOD
 
     forecast: date | None = None
