@@ -11,8 +11,7 @@ interval b +/- t_{0.975, n-2} s_b (t from ``chem.student_t``; the line from
 ``statistics.linear_regression``, so no scipy is imported for a trend). The forecast
 is the date where the fitted line crosses the window edge it is heading for: None when
 the slope is zero (to rounding) or the line is heading back into the window; a date in
-the past when the fitted line
-has already left it.
+the past when the fitted line has already left it.
 """
 
 from __future__ import annotations
