@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import time
+from typing import TYPE_CHECKING
+
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -12,6 +15,11 @@ from textual.widgets import DataTable, Footer, Input, Static
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.widgets import colour
+
+if TYPE_CHECKING:
+    from textual.timer import Timer
+
+    from prepbook.store.audit import VerifyReport
 
 PAGE = 200  # newest events first shown; m shows older ones page by page
 
@@ -28,6 +36,8 @@ class AuditScreen(Screen[None]):
         super().__init__()
         self.record = record
         self.limit = PAGE
+        self.verifying: float | None = None  # when the running verify started
+        self._ticker: Timer | None = None
 
     def compose(self) -> ComposeResult:
         yield Static("", id="topline", classes="topline")
@@ -89,11 +99,46 @@ class AuditScreen(Screen[None]):
         self.reload()
 
     def action_verify(self) -> None:
+        """Verify in a worker thread: on a large trail it takes seconds, and the screen
+        stays usable meanwhile (the message counts the seconds). A second ``v`` while
+        one runs does nothing."""
+        if self.verifying is not None:
+            return
+        self.verifying = time.monotonic()
+        self._show_progress()
+        self._ticker = self.set_interval(0.5, self._show_progress)
+        self.run_worker(self._verify_in_thread, thread=True, group="verify",
+                        exit_on_error=False)
+
+    def _show_progress(self) -> None:
+        if self.verifying is None:
+            return
+        msg = self.query_one("#message", Static)
+        msg.set_class(False, "refusal")
+        seconds = time.monotonic() - self.verifying
+        msg.update(f"verifying the chain and every current row … {seconds:.0f} s "
+                   "(keep working; the verdict appears here)")
+
+    def _verify_in_thread(self) -> None:
         from prepbook.lab import auditing
 
-        rep = auditing.verify(self.app.db)  # type: ignore[attr-defined]
+        try:
+            rep = auditing.verify(self.app.db)  # type: ignore[attr-defined]
+        except PrepbookError as exc:
+            self.app.call_from_thread(self._show_verdict, None, str(exc))
+            return
+        self.app.call_from_thread(self._show_verdict, rep, None)
+
+    def _show_verdict(self, rep: VerifyReport | None, refusal: str | None) -> None:
+        self.verifying = None
+        if self._ticker is not None:
+            self._ticker.stop()
+            self._ticker = None
         msg = self.query_one("#message", Static)
-        if rep.ok:
+        if rep is None:
+            msg.set_class(True, "refusal")
+            msg.update(Text(f"verify refused: {refusal}"))
+        elif rep.ok:
             msg.set_class(False, "refusal")
             msg.update(Text(f"✓ verified: the chain of {rep.events} events is intact and "
                             "every current row matches its last audited state",
