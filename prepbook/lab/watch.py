@@ -4,7 +4,7 @@
 anyone (another bench, the command line) has written since it last looked: every
 write appends an audit event and moves the audit head in the same transaction.
 The other functions gather what one batch's screen needs beside ``show_batch``:
-the records that make up its history (for its audit events) and its factor trend.
+the audit events of its history (read in one query) and its factor trend.
 """
 
 from __future__ import annotations
@@ -12,10 +12,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
-from prepbook.lab import auditing, history
+from prepbook.lab import history
 from prepbook.lab.batch_facts import when
 from prepbook.lab.common import by_code
+from prepbook.store import audit
 from prepbook.store.audit import LogEntry
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditHead, Batch, Replicate, Review, Run, Use
@@ -51,30 +53,25 @@ def head_seq(db: Database) -> int:
     return int(seq or 0)
 
 
-def batch_records(db: Database, code: str) -> list[str]:
-    """The audited records of one batch's history as ``table#id``: the batch, its
-    runs, their replicates (every version) and reviews, and its uses."""
-    with db.session(write=False) as s:
-        b = by_code(s, Batch, code, "batch")
-        run_ids = list(s.scalars(select(Run.id).where(Run.batch_id == b.id).order_by(Run.id)))
-        records = [f"batches#{b.id}"] + [f"runs#{i}" for i in run_ids]
-        if run_ids:
-            records += [f"replicates#{i}" for i in s.scalars(
-                select(Replicate.id).where(Replicate.run_id.in_(run_ids)).order_by(Replicate.id))]
-            records += [f"reviews#{i}" for i in s.scalars(
-                select(Review.id).where(Review.run_id.in_(run_ids)).order_by(Review.id))]
-        records += [f"uses#{i}" for i in s.scalars(
-            select(Use.id).where(Use.batch_id == b.id).order_by(Use.id))]
-    return records
+def _history_ids(s: Session, batch: Batch) -> dict[str, list[int]]:
+    """The audited records of one batch's history, table -> ids: the batch, its runs,
+    their replicates (every version) and reviews, and its uses."""
+    run_ids = list(s.scalars(select(Run.id).where(Run.batch_id == batch.id)))
+    ids = {"batches": [batch.id], "runs": run_ids,
+           "uses": list(s.scalars(select(Use.id).where(Use.batch_id == batch.id)))}
+    if run_ids:
+        ids["replicates"] = list(s.scalars(
+            select(Replicate.id).where(Replicate.run_id.in_(run_ids))))
+        ids["reviews"] = list(s.scalars(select(Review.id).where(Review.run_id.in_(run_ids))))
+    return ids
 
 
 def batch_events(db: Database, code: str) -> list[LogEntry]:
-    """Every audit event of one batch's history, oldest first (as ``audit log``)."""
-    events: dict[int, LogEntry] = {}
-    for record in batch_records(db, code):
-        for ev in auditing.log(db, record=record):
-            events[ev.seq] = ev
-    return [events[k] for k in sorted(events)]
+    """Every audit event of one batch's history, oldest first (as ``audit log``), read
+    in one session: the record ids, then their events in one query."""
+    with db.session(write=False) as s:
+        ids = _history_ids(s, by_code(s, Batch, code, "batch"))
+        return audit.log(s, records=ids)
 
 
 def batch_trend(db: Database, code: str) -> BatchTrend:

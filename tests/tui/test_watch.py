@@ -50,3 +50,36 @@ def test_trend_points_are_the_runs_factors_and_the_window_is_the_specs(built) ->
     # the demo's NaOH loses strength to carbon dioxide: the fitted slope is negative
     assert t.trend.slope_ci_percent_per_30d is not None
     assert t.trend.slope_ci_percent_per_30d[1] < 0
+
+
+def test_a_batch_s_events_come_in_one_session_and_one_query_of_the_trail(built) -> None:
+    """The audit tab used to open one session (and one query) per record of the batch:
+    38 for the largest demo batch. Now: one session, one query of audit_events, and the
+    same events as asking `audit log` record by record."""
+    from sqlalchemy import event
+
+    from prepbook.lab import auditing, watch
+
+    db, due_naoh = built
+    statements: list[str] = []
+    sessions_opened: list[int] = []
+
+    def seen(conn, cursor, statement, params, context, executemany) -> None:  # noqa: ANN001
+        statements.append(statement)
+
+    def began(conn) -> None:  # noqa: ANN001
+        sessions_opened.append(1)
+
+    event.listen(db.engine, "before_cursor_execute", seen)
+    event.listen(db.engine, "begin", began)
+    try:
+        events = watch.batch_events(db, due_naoh)
+    finally:
+        event.remove(db.engine, "before_cursor_execute", seen)
+        event.remove(db.engine, "begin", began)
+    assert sum("audit_events" in s for s in statements) == 1
+    assert len(sessions_opened) == 1
+    one_by_one = {e.seq for rec in {f"{e.record_type}#{e.record_id}" for e in events}
+                  for e in auditing.log(db, record=rec)}
+    assert [e.seq for e in events] == sorted(one_by_one)
+    assert len(events) > 20

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta
 
-from sqlalchemy import select
+from sqlalchemy import and_, or_, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput
@@ -40,11 +41,13 @@ def log(
     since: date | datetime | None = None,
     until: date | datetime | None = None,
     limit: int | None = None,
+    records: Mapping[str, Sequence[int]] | None = None,
 ) -> list[LogEntry]:
     """Audit events, oldest first; ``limit`` keeps the most recent ones.
 
     Times are UTC. ``since`` is inclusive; ``until`` is inclusive too, and a plain
-    date means the whole of that day.
+    date means the whole of that day. ``records`` (table -> ids) keeps the events of
+    those records only, in the same one query.
     """
     c = _events.c
     stmt = select(c.seq, c.at, c.actor, c.action, c.record_type, c.record_id, c.reason,
@@ -53,6 +56,11 @@ def log(
         stmt = stmt.where(c.record_type == record_type)
     if record_id is not None:
         stmt = stmt.where(c.record_id == record_id)
+    if records is not None:
+        if not any(records.values()):
+            return []
+        stmt = stmt.where(or_(*(and_(c.record_type == table, c.record_id.in_(ids))
+                                for table, ids in records.items() if ids)))
     if actor is not None:
         stmt = stmt.where(c.actor == actor)
     if since is not None:
