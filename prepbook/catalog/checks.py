@@ -27,6 +27,7 @@ from prepbook.catalog.models import (
     Catalog,
     Hazard,
     Indicator,
+    Ion,
     Material,
     Reagent,
     SpecDefaults,
@@ -327,6 +328,18 @@ def _check_analyte(a: Analyte, cat: Catalog) -> list[str]:
     return out
 
 
+def _check_ion(i: Ion) -> list[str]:
+    w = f"ion {i.name}"
+    out = []
+    if i.charge == 0:
+        out.append(f"{w}: charge must not be zero")
+    if list(i.pka) != sorted(i.pka):
+        out.append(f"{w}: pka values must be in increasing order (most acidic first)")
+    if not 0 <= i.protons <= len(i.pka):
+        out.append(f"{w}: protons must lie between 0 and its {len(i.pka)} pka steps")
+    return out
+
+
 def check_catalog(cat: Catalog) -> tuple[str, ...]:
     """Every consistency problem in ``cat`` (empty when the catalog is sound).
 
@@ -351,4 +364,7 @@ def check_catalog(cat: Catalog) -> tuple[str, ...]:
     out += _unique(cat.analytes, "analyte")
     for a in cat.analytes:
         out += _check_analyte(a, cat)
+    out += _unique(cat.ions, "ion")
+    for ion in cat.ions:
+        out += _check_ion(ion)
     return tuple(out)
