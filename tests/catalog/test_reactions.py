@@ -120,6 +120,8 @@ FROM_EQUATION = {
     ("AgNO3", "precipitation"): ("Ag^+", "Cl^-", 1),
     ("NH4SCN", "precipitation"): ("SCN^-", "Ag^+", 1),
     ("EDTA", "complexation"): ("C10H14N2O8^2-", "Zn^2+", 1),
+    ("Ba(OH)2", "acid-base"): ("Ba(OH)2", "H^+", 1),
+    ("Ca(OH)2", "acid-base"): ("Ca(OH)2", "H^+", 1),
 }
 
 
