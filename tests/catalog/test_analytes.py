@@ -134,3 +134,19 @@ def test_bad_analyte_entries_are_refused(data_dir: Path, old: str, new: str,
     path.write_text(text.replace(old, new, 1), encoding="utf-8")
     with pytest.raises(CatalogDataError, match=problem):
         load_catalog(data_dir)
+
+
+@pytest.mark.parametrize(("old", "new", "problem"), [
+    ("pka = [9.245]\nprotons = 1", "pka = [9.245]\nprotons = 2", "protons must lie"),
+    ("charge = -2\npka = [6.35, 10.33]", "charge = 0\npka = [6.35, 10.33]", "not be zero"),
+    ("pka = [2.15, 7.20, 12.35]", "pka = [7.20, 2.15, 12.35]", "increasing order"),
+    ('aliases = ["HCO3-"', 'aliases = ["CO3"', "also a name of"),
+    ('source = "from memory (oxalic', 'sorce = "from memory (oxalic', "unknown key"),
+])
+def test_bad_ion_entries_are_refused(data_dir: Path, old: str, new: str, problem: str) -> None:
+    path = data_dir / "ions.toml"
+    text = path.read_text(encoding="utf-8")
+    assert old in text, old
+    path.write_text(text.replace(old, new, 1), encoding="utf-8")
+    with pytest.raises(CatalogDataError, match=problem):
+        load_catalog(data_dir)

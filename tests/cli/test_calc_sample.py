@@ -114,3 +114,12 @@ def test_salt_and_eqpoint_commands(cli: Cli) -> None:
     text = cli.ok("calc", "eqpoint", "--analyte", "phosphoric acid", "--titrant", "NaOH",
                   "--concentration", "0.05").stdout
     assert "equivalence point 1" in text and "equivalence point 3" in text
+
+
+def test_the_readme_block_runs(tmp_path) -> None:
+    """README.md, section "calc sample": its examples run as written."""
+    from tests.test_readme import _block_after, _run_block
+
+    done = _run_block(_block_after("calc sample"), tmp_path)
+    assert done.returncode == 0, done.stdout + done.stderr
+    assert "mg/L as CaCO3" in done.stdout and "cyanide governs" in done.stdout
