@@ -127,8 +127,9 @@ def eqpoint(
         help="Concentration of the salt at equivalence, mol/L."
     ),
     titrant_concentration: str = typer.Option(
-        None, "--titrant-concentration", metavar="MOL/L",
-        help="Titrant, mol/L (default: the sample's volume equal to the equivalence volume)."
+        None, "--titrant-concentration", metavar="EQ/L",
+        help="Titrant, eq/L: mol/L of H+ or OH- (0.05 M Ba(OH)2 is 0.1); default: the "
+             "sample's volume equal to the equivalence volume."
     ),
     method: str = typer.Option(
         None, "--method", metavar="NAME",

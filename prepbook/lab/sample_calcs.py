@@ -215,8 +215,13 @@ def _calc(found: AnalyteTitration, result: SampleResult, n_t: float, blank: floa
           amounts: list[Reading], readings: list[Reading], excess: Any,
           capacity: float | None) -> SampleCalc:
     what = found.analyte.report_as or found.analyte.formula
-    statement = (f"each mL of {n_t:g} N {found.titrant.name} is equivalent to "
-                 f"{result.mg_per_ml:.4g} mg of {what}")
+    if excess is None:
+        statement = (f"each mL of {n_t:g} N {found.titrant.name} is equivalent to "
+                     f"{result.mg_per_ml:.4g} mg of {what}")
+    else:
+        statement = (f"each mL of {excess.solution.normality:g} N {excess.solution.name} "
+                     f"consumed by the sample is equivalent to {result.mg_per_ml:.4g} mg "
+                     f"of {what}")
     facts = None
     if excess is not None:
         facts = ExcessFacts(excess.solution.name, excess.solution.normality, excess.solution.U,
