@@ -12,17 +12,15 @@ from collections.abc import Mapping
 from typing import Any
 
 from prepbook.catalog.models import (
-    Analyte,
-    AnalyteMethod,
     Catalog,
     Hazard,
     Indicator,
-    Ion,
     Material,
     Reaction,
     Reagent,
     SpecDefaults,
 )
+from prepbook.catalog.sample_models import Analyte, AnalyteMethod, Ion
 from prepbook.catalog.shape import FILES, SPEC, SPEC_SOURCED, SPEC_SOURCED_IF_SET
 
 

@@ -16,24 +16,22 @@ from typing import Any
 
 from prepbook.catalog.models import (
     ACID_BASE,
-    CONCENTRATION_UNITS,
     INDICATOR_KINDS,
     REACTION_KINDS,
     ROLES,
     SDS_DEFERRAL,
     SIGNAL_WORDS,
     UNITS,
-    Analyte,
     Catalog,
     Hazard,
     Indicator,
-    Ion,
     Material,
     Reagent,
     SpecDefaults,
     lookup_key,
     reaction_for_pair,
 )
+from prepbook.catalog.sample_models import CONCENTRATION_UNITS, Analyte, Ion
 from prepbook.errors import InvalidInput, NotFound
 
 

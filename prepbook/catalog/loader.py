@@ -25,21 +25,18 @@ from typing import TYPE_CHECKING
 from prepbook.catalog.build import build_catalog
 from prepbook.catalog.checks import check_catalog
 from prepbook.catalog.models import (
-    Analyte,
-    AnalyteMethod,
     Catalog,
     CatalogDataError,
     Hazard,
     Indicator,
-    Ion,
     Material,
     Reaction,
     Reagent,
     SpecDefaults,
-    method_for,
     reaction_for_pair,
 )
 from prepbook.catalog.parsed_copy import PARSED_COPY, data_directory, parse_files, read_files
+from prepbook.catalog.sample_models import Analyte, AnalyteMethod, Ion, method_for
 
 if TYPE_CHECKING:
     from pathlib import Path

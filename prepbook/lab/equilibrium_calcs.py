@@ -15,7 +15,7 @@ from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_number
 
 if TYPE_CHECKING:
-    from prepbook.catalog.models import Analyte
+    from prepbook.catalog.sample_models import Analyte
     from prepbook.chem.indicators import IndicatorAdvice
     from prepbook.chem.salts import Strength
 

@@ -11,7 +11,7 @@ import pytest
 import prepbook.catalog.loader as loader
 from prepbook.catalog import CatalogDataError, find_material, load_catalog
 from prepbook.catalog.loader import analyte_titration, analytes, find_analyte
-from prepbook.catalog.models import method_for
+from prepbook.catalog.sample_models import method_for
 from prepbook.errors import NotFound
 from tests.catalog.test_reactions import _coefficient, _parse, total
 

@@ -10,6 +10,8 @@ from __future__ import annotations
 import math
 
 import pytest
+from hypothesis import given
+from hypothesis import strategies as s
 
 from prepbook.catalog.loader import analyte_titration
 from prepbook.chem.sample import (
@@ -227,3 +229,26 @@ def test_back_titration_states_the_each_ml_figure_for_the_excess_reagent() -> No
     r = sample_result(found.computed, Solution("NH4SCN", 0.05), [50.0], [10.0],
                       excess=ExcessReagent(Solution("AgNO3", 0.1), 25.0))
     assert r.mg_per_ml == pytest.approx(3.545, abs=0.0005)
+
+
+@given(normality=s.floats(0.001, 2.0), factor=s.floats(0.5, 2.0),
+       volumes=s.lists(s.floats(1.0, 50.0), min_size=1, max_size=5))
+def test_a_direct_result_is_proportional_to_the_titrant_s_normality(
+        normality: float, factor: float, volumes: list[float]) -> None:
+    """N_a = N_t V_t / V_s: scaling the titrant's normality scales every result by the
+    same factor (what a corrected standardization does to the samples titrated with it)."""
+    analyte = _analyte("HCl", "NaOH")
+    a = sample_result(analyte, Solution("NaOH", normality), [25.0], volumes)
+    b = sample_result(analyte, Solution("NaOH", normality * factor), [25.0], volumes)
+    assert b.value == pytest.approx(a.value * factor, rel=1e-9)
+    assert b.uncertainty.u_relative == pytest.approx(a.uncertainty.u_relative, rel=1e-6)
+
+
+@given(more=s.floats(0.01, 5.0))
+def test_more_back_titrant_means_less_analyte(more: float) -> None:
+    found = analyte_titration("chloride", "NH4SCN")
+    excess = ExcessReagent(Solution("AgNO3", 0.1), 25.0)
+    a = sample_result(found.computed, Solution("NH4SCN", 0.1), [50.0], [10.0], excess=excess)
+    b = sample_result(found.computed, Solution("NH4SCN", 0.1), [50.0], [10.0 + more],
+                      excess=excess)
+    assert b.value < a.value
