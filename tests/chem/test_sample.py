@@ -252,3 +252,18 @@ def test_more_back_titrant_means_less_analyte(more: float) -> None:
     b = sample_result(found.computed, Solution("NH4SCN", 0.1), [50.0], [10.0 + more],
                       excess=excess)
     assert b.value < a.value
+
+
+def test_eurachem_citac_example_a3_value() -> None:
+    """EURACHEM/CITAC CG4, 3rd ed., Example A3 (its table A3.1, read from a stored copy of
+    the example's summary): 15 mL of HCl takes 14.89 mL of the NaOH of Example A2
+    (0.3888 g KHP, purity 1.0, 204.2212 g/mol, 18.64 mL): c(HCl) = 0.10139 mol/L. The
+    NaOH's own relative uncertainty enters the result's: it can only add to it."""
+    c_naoh = 1000 * 0.3888 * 1.0 / (204.2212 * 18.64)
+    u_naoh = 0.000966 * c_naoh  # m, P, V_T1 and M of table A3.1 in quadrature
+    r = sample_result(_analyte("HCl", "NaOH"), Solution("NaOH", c_naoh, U=2 * u_naoh),
+                      [15.0], [14.89])
+    assert r.molarity == pytest.approx(0.10139, abs=0.000005)
+    assert r.uncertainty.u_relative > 0.000966
+    share = {line.symbol: line.share_percent for line in r.uncertainty.budget}
+    assert share["N_t"] > 0

@@ -123,3 +123,9 @@ def test_the_readme_block_runs(tmp_path) -> None:
     done = _run_block(_block_after("calc sample"), tmp_path)
     assert done.returncode == 0, done.stdout + done.stderr
     assert "mg/L as CaCO3" in done.stdout and "cyanide governs" in done.stdout
+
+
+def test_the_calc_group_lists_the_commands_it_loads_later(cli: Cli) -> None:
+    text = cli.ok("calc", "--help").stdout
+    for name in ("sample", "eqpoint", "salt", "normality"):
+        assert f"  {name} " in text
