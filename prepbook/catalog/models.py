@@ -406,3 +406,4 @@ def reaction_for_pair(
         f"{standard.code} has no {t_rx.kind} reaction written for {titrant.code} "
         f"(only for: {names or 'none'}); add one to the catalog to pair them"
     )
+
