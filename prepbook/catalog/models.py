@@ -11,9 +11,12 @@ from __future__ import annotations
 import functools
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from prepbook.errors import NotFound, PrepbookError
+
+if TYPE_CHECKING:
+    from prepbook.catalog.sample_models import Analyte, Ion
 
 REACTION_KINDS = ("acid-base", "redox", "precipitation", "complexation")
 ROLES = ("primary-standard", "titrant-solute")
@@ -308,6 +311,8 @@ class Catalog:
     specs: tuple[SpecDefaults, ...]
     hazard_statements: Mapping[str, str]
     pictogram_names: Mapping[str, str]
+    analytes: tuple[Analyte, ...] = ()
+    ions: tuple[Ion, ...] = ()
 
     @functools.cached_property
     def _material_index(self) -> dict[str, Material]:
@@ -336,6 +341,20 @@ class Catalog:
 
     def find_spec(self, code: str) -> SpecDefaults:
         return _lookup(self._spec_index, lambda s: s.code, "solution spec", code)
+
+    @functools.cached_property
+    def _analyte_index(self) -> dict[str, Analyte]:
+        return _index(self.analytes)
+
+    def find_analyte(self, query: str) -> Analyte:
+        return _lookup(self._analyte_index, lambda a: a.code, "analyte", query)
+
+    @functools.cached_property
+    def _ion_index(self) -> dict[str, Ion]:
+        return _index(self.ions)
+
+    def find_ion(self, query: str) -> Ion:
+        return _lookup(self._ion_index, lambda i: i.name, "ion", query)
 
 
 # --------------------------------------------------------------------------- pairing
