@@ -69,10 +69,10 @@ class Findings:
 def gather(conn: Connection, kept: Keying | None, codes: Sequence[str], folder: Path | None,
            add: Add) -> list[Attestation]:
     """Every checkpoint verify can see, each once; faults of the witness named."""
-    found: dict[str, Attestation] = {}
+    found: dict[Checkpoint, Attestation] = {}
 
     def take(cp: Checkpoint, source: str) -> None:
-        seen = found.setdefault(cp.signature, Attestation(cp.events, cp.code, cp))
+        seen = found.setdefault(cp, Attestation(cp.events, cp.code, cp))
         if source not in seen.sources:
             seen.sources.append(source)
 
