@@ -208,6 +208,25 @@ def test_the_database_checkpoints_were_witnessed(
     assert rep.checkpoints_checked == 3
 
 
+def test_a_holder_of_both_keys_rewriting_the_trail_is_named_by_earlier_witness_lines(
+        db: Database, key_file: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    folder = _witness(tmp_path, monkeypatch)
+    monkeypatch.setenv("PREPBOOK_WITNESS_FOLDER", str(folder))
+    _lab(db)
+    # An insider with the audit key and the signing key rewrites the keyed chain, clears
+    # the database's checkpoints and signs a fresh one of the rewritten trail.
+    _sql(db, "UPDATE audit_events SET actor = 'mallory' WHERE seq = 2")
+    _rehash(db, key_file.read_bytes())
+    _sql(db, "DELETE FROM audit_checkpoints")
+    assert _verify(db).ok  # the chain and the database alone vouch for the rewrite
+    with db.session() as s:
+        audit.make_checkpoint(s, audit.load_signing_key(tmp_path / "qa-keys" / "lab.pem"))
+    rep = _verify(db, folder)
+    assert any(p.startswith("event #2 is not the one the checkpoint of") and
+               p.endswith("(witness folder) attests: the trail was rolled back or rewritten")
+               for p in rep.problems)
+
+
 # --- benches with no key or another key -------------------------------------------------
 
 
