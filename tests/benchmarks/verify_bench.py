@@ -8,8 +8,9 @@ any check of the chain can cost (the same loop as ``bench.py``). prepbook's ``ve
 does that and also checks the links, the head and every audited row against its last
 event, so the bare loop it is measured against also reads every audited row and writes
 it as JSON. ``verify`` also holds the trail against the checkpoints in the database
-and in the witness folder named by PREPBOOK_WITNESS_FOLDER, when set. Not a timed test: it prints the figures (the target is verify at most 1.5x
-the bare loop over the same rows; the ratio to the events alone is printed too).
+and in the witness folder named by PREPBOOK_WITNESS_FOLDER, when set. Not a timed
+test: it prints the figures (the target is verify at most 1.5x the bare loop over the
+same rows; the ratio to the events alone is printed too).
 """
 
 from __future__ import annotations

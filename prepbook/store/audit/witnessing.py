@@ -127,11 +127,11 @@ def compare(attestations: list[Attestation], last_seq: int, hashes_at: dict[int,
     agreeing: list[Attestation] = []
     for att in sorted(attestations, key=lambda a: a.events):
         actual = hashes_at.get(att.events)
-        if att.events <= last_seq and actual is not None and code_of(att.events,
-                                                                     actual) == att.code:
-            if att.checkpoint is None or att.checkpoint.head_hash == actual:
-                agreeing.append(att)
-                continue
+        if actual is not None and att.events <= last_seq and (
+                att.checkpoint.head_hash == actual if att.checkpoint is not None
+                else code_of(att.events, actual) == att.code):
+            agreeing.append(att)
+            continue
         if not _signed_by_lab(att, kept, add):
             continue
         if att.events > last_seq:
