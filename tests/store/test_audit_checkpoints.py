@@ -25,15 +25,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, AuditHead
 
 from .conftest import add_batch
-
-
-@pytest.fixture
-def key_file(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
-    """The lab's audit (HMAC) key, set for this test's benches."""
-    path = tmp_path / "audit.key"
-    path.write_bytes(b"the lab's audit secret, kept outside the database")
-    monkeypatch.setenv(audit.KEY_ENV, str(path))
-    return path
+from .test_audit import key_file  # noqa: F401  (the lab's audit key, set for the test)
 
 
 def _witness(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
@@ -175,7 +167,8 @@ def _downgrade(db: Database) -> None:
 
 
 def test_downgraded_keyed_chain_is_named_by_a_key_holder_and_by_a_witness(
-        db: Database, key_file: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+        db: Database, key_file: Path, tmp_path: Path,  # noqa: F811
+        monkeypatch: pytest.MonkeyPatch) -> None:
     folder = _witness(tmp_path, monkeypatch)
     monkeypatch.setenv("PREPBOOK_WITNESS_FOLDER", str(folder))
     _lab(db)
@@ -209,7 +202,8 @@ def test_the_database_checkpoints_were_witnessed(
 
 
 def test_a_holder_of_both_keys_rewriting_the_trail_is_named_by_earlier_witness_lines(
-        db: Database, key_file: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+        db: Database, key_file: Path, tmp_path: Path,  # noqa: F811
+        monkeypatch: pytest.MonkeyPatch) -> None:
     folder = _witness(tmp_path, monkeypatch)
     monkeypatch.setenv("PREPBOOK_WITNESS_FOLDER", str(folder))
     _lab(db)
@@ -236,7 +230,8 @@ def _events(db: Database) -> int:
 
 
 def test_a_bench_without_the_key_refuses_to_write_into_a_keyed_trail(
-        db: Database, key_file: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+        db: Database, key_file: Path, tmp_path: Path,  # noqa: F811
+        monkeypatch: pytest.MonkeyPatch) -> None:
     _lab(db)
     monkeypatch.delenv(audit.KEY_ENV)
     with pytest.raises(Refused, match=r"^this lab's audit trail is keyed \(key [0-9a-f]{16}\) "
@@ -267,7 +262,7 @@ def test_a_keyed_bench_refuses_to_write_into_a_plain_trail(
 
 
 def test_an_event_written_with_another_key_is_named_so(
-        db: Database, key_file: Path, tmp_path: Path) -> None:
+        db: Database, key_file: Path, tmp_path: Path) -> None:  # noqa: F811
     _lab(db)
     # An older prepbook let a bench with another key write one event.
     _sql(db, "UPDATE audit_events SET key_id = 'feedfacefeedface', hash = "
