@@ -11,15 +11,20 @@ from tests.cli.test_bench_flow import _make_batch, bench  # noqa: F401
 from tests.conftest import Cli
 
 # The commands whose --json keys this file pins (test_json_keys_audit checks the union).
-PINNED = {"audit verify", "audit checkpoint"}
+PINNED = {"audit verify", "audit checkpoint", "audit log"}
 VERIFY = ["ok", "events", "head_hash", "problems", "checkpoint", "checkpoints_checked",
           "witnessed_events", "notes"]
 CHECKPOINT = ["checkpoint", "events", "head_hash", "made_at", "lab", "witness_file"]
+LOG = ["seq", "at", "actor", "action", "record", "record_type", "record_id", "reason",
+       "performed_at", "os_login", "host"]
 
 
 def test_audit_verify_and_checkpoint_keys(bench: Cli, tmp_path: Path,  # noqa: F811
                                           monkeypatch: pytest.MonkeyPatch) -> None:
     _make_batch(bench)
+    events = bench.json("audit", "log")
+    assert events and all(list(e) == LOG for e in events)
+    assert all(e["os_login"] and e["host"] for e in events)
     unwitnessed = bench.json("audit", "verify")
     assert list(unwitnessed) == VERIFY
     assert unwitnessed["witnessed_events"] is None and len(unwitnessed["notes"]) == 1

@@ -210,7 +210,7 @@ def test_a_holder_of_both_keys_rewriting_the_trail_is_named_by_earlier_witness_l
     # An insider with the audit key and the signing key rewrites the keyed chain, clears
     # the database's checkpoints and signs a fresh one of the rewritten trail.
     _sql(db, "UPDATE audit_events SET actor = 'mallory' WHERE seq = 2")
-    _rehash(db, key_file.read_bytes())
+    _rehash(db, key_file.read_bytes().strip())
     _sql(db, "DELETE FROM audit_checkpoints")
     assert _verify(db).ok  # the chain and the database alone vouch for the rewrite
     with db.session() as s:
@@ -271,7 +271,7 @@ def test_an_event_written_with_another_key_is_named_so(
     problems = _verify(db).problems
     assert problems == (f"audit event #4 (batches #3) was written with a different key (key "
                         f"feedfacefeedface; the key set here is "
-                        f"{chain.key_fingerprint(key_file.read_bytes())})",)
+                        f"{chain.key_fingerprint(key_file.read_bytes().strip())})",)
 
 
 # --- codes typed from paper ------------------------------------------------------------
