@@ -338,7 +338,7 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems,
     """Every audited row must equal the snapshot of its last event, and vice versa (a
     row with no event, in a trail known to be ``shortened``: its event was removed)."""
     no_event = ("its audit event was removed from the end of the trail" if shortened
-                else "its event was removed, or it was added outside prepbook")
+                else "added outside prepbook")
     for name, table in AUDITED_TABLES.items():
         converters = _converters(table)
         names = [n for n, _, _ in converters]
