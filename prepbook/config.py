@@ -8,6 +8,7 @@ names::
     database = "/srv/lab/prepbook.db"    # a file path or an SQLAlchemy URL
     timezone = "Europe/Vienna"           # the lab's IANA time zone
     witness_folder = "/srv/lab/witness"
+    signing_key_file = "/etc/prepbook/checkpoint.key"
 
     [display]
     width = 100                          # columns for tables
@@ -97,6 +98,7 @@ SPECS: dict[str, _Spec] = {
     "database": _Spec("PREPBOOK_DB", _text, DEFAULT_DB, path=True),
     "timezone": _Spec("PREPBOOK_TIMEZONE", _timezone, None),
     "witness_folder": _Spec("PREPBOOK_WITNESS_FOLDER", _text, None, path=True),
+    "signing_key_file": _Spec("PREPBOOK_SIGNING_KEY_FILE", _text, None, path=True),
     "display.width": _Spec("PREPBOOK_DISPLAY_WIDTH", _width, None),
     "display.color": _Spec("PREPBOOK_DISPLAY_COLOR", _flag, None),
 }

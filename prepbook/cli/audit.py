@@ -44,12 +44,19 @@ def log(
 @app.command("verify")
 def verify(
     ctx: typer.Context,
+    codes: list[str] = typer.Option(
+        None, "--checkpoint", metavar="CODE",
+        help="A checkpoint code from a printed report or label (repeatable)."),
+    witness: str = typer.Option(
+        None, "--witness", metavar="DIR",
+        help="The witness folder (default: witness_folder of the configuration)."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
-    """Check the hash chain and that every row matches its last audited state."""
+    """Check the hash chain, every row against its last audited state, and the trail
+    against every checkpoint in sight."""
     from prepbook.lab import auditing
 
-    rep = auditing.verify(database(ctx))
+    rep = auditing.verify_against(database(ctx), codes=codes or (), witness=witness)
     if as_json:
         output.emit_json(rep)
     else:
@@ -60,5 +67,43 @@ def verify(
             out.print(f"[bold]audit trail NOT verified[/bold] ({rep.events} events):")
             for p in rep.problems:
                 out.print(f"  - {p}")
+        if rep.checkpoint:
+            out.print(f"checkpoint {rep.checkpoint}; {rep.checkpoints_checked} checkpoint(s) "
+                      "held against the trail")
+        for note in rep.notes:
+            out.print(f"note: {note}")
     if not rep.ok:
         raise typer.Exit(1)
+
+
+@app.command("checkpoint")
+def checkpoint(
+    ctx: typer.Context,
+    as_json: bool = typer.Option(False, "--json", help="Print JSON."),
+) -> None:
+    """Sign a checkpoint of the trail now and append it to the witness folder."""
+    from prepbook.lab import auditing
+
+    made = auditing.checkpoint(database(ctx))
+    if as_json:
+        output.emit_json(made)
+        return
+    where = f"witnessed in {made.witness_file}" if made.witness_file else (
+        "kept in the database only (no witness_folder set)")
+    output.console().print(f"Checkpoint {made.checkpoint}: {made.events} events, "
+                           f"at {made.made_at[:16].replace('T', ' ')} UTC; {where}")
+
+
+@app.command("signing-key")
+def signing_key(
+    path: str = typer.Argument(..., metavar="PATH",
+                               help="Where to write the new private key (never overwritten)."),
+) -> None:
+    """Make the lab's checkpoint-signing key pair (keep PATH away from the database)."""
+    from prepbook.lab import auditing
+
+    made = auditing.new_signing_key(path)
+    output.console().print(
+        f"signing key written to {made.file} (readable by its owner only); public key "
+        f"{made.public_key}. Name it in signing_key_file of the configuration or in "
+        "PREPBOOK_SIGNING_KEY_FILE; its public key is recorded at the first checkpoint.")

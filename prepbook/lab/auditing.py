@@ -2,6 +2,10 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_date
 from prepbook.store import audit
@@ -36,6 +40,63 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
 
 
 def verify(db: Database) -> audit.VerifyReport:
-    """The chain recomputed and every audited row checked against its last event."""
+    """The chain recomputed and every audited row checked against its last event, and
+    against the checkpoints of the database and of the configured witness folder."""
+    return verify_against(db)
+
+
+@dataclass(frozen=True)
+class CheckpointMade:
+    """A signed checkpoint just made: its code, what it attests, where it is witnessed."""
+
+    checkpoint: str
+    events: int
+    head_hash: str
+    made_at: str
+    lab: str
+    witness_file: str | None
+
+
+@dataclass(frozen=True)
+class SigningKeyMade:
+    """A new lab signing key: the private key's file and the public key (hex)."""
+
+    file: str
+    public_key: str
+
+
+def verify_against(db: Database, *, codes: Sequence[str] = (),
+                   witness: str | None = None) -> audit.VerifyReport:
+    """``verify``, held also against checkpoint ``codes`` typed from paper and the
+    ``witness`` folder (default: the configured one)."""
+    folder = Path(witness).expanduser() if witness else audit.witness_folder()
     with db.session(write=False) as s:
-        return audit.verify(s)
+        return audit.verify(s, codes=codes, witness=folder)
+
+
+def checkpoint(db: Database) -> CheckpointMade:
+    """Sign a checkpoint of the trail now, keep it and witness it (for a schedule)."""
+    path = audit.signing_key_path()
+    if path is None:
+        raise InvalidInput("no signing key: set signing_key_file in the configuration or "
+                           f"{audit.SIGNING_KEY_ENV} (`prepbook audit signing-key PATH` "
+                           "makes one)")
+    key = audit.load_signing_key(path)
+    with db.session() as s:
+        cp = audit.make_checkpoint(s, key)
+    witnessed = audit.witness(cp)
+    return CheckpointMade(checkpoint=cp.code, events=cp.events, head_hash=cp.head_hash,
+                          made_at=cp.made_at, lab=cp.lab_id,
+                          witness_file=str(witnessed) if witnessed else None)
+
+
+def new_signing_key(path: str) -> SigningKeyMade:
+    """Make the lab's checkpoint-signing key pair; the private key goes to ``path``."""
+    target = Path(path).expanduser()
+    return SigningKeyMade(file=str(target), public_key=audit.new_signing_key(target))
+
+
+def checkpoint_code(db: Database) -> str | None:
+    """The code of the trail as it stands, for a printed page (None while empty)."""
+    with db.session(write=False) as s:
+        return audit.head_code(s)

@@ -49,6 +49,7 @@ class BatchLabel(Standing):
     printed_on: str
     printed_by: str
     kind: Literal["batch"] = "batch"
+    checkpoint: str | None = None  # the audit trail's code when printed
 
 
 @dataclass(frozen=True)
@@ -71,6 +72,7 @@ class LotLabel:
     printed_on: str
     printed_by: str
     kind: Literal["lot"] = "lot"
+    checkpoint: str | None = None  # the audit trail's code when printed
 
 
 LabelContent = BatchLabel | LotLabel

@@ -12,7 +12,7 @@ from __future__ import annotations
 import json
 import re
 from collections.abc import Callable, Sequence
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, replace
 from datetime import date
 from typing import Protocol, TypedDict
 
@@ -24,6 +24,7 @@ from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.common import acting, by_code, iso, write
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel, Standing
+from prepbook.store.audit import head_code
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, LabelPrint, Lot, Run
 
@@ -199,6 +200,7 @@ def print_label(db: Database, *, actor: str, code: str, size: str, copies: int, 
         row.sheet = sheet
         row.copies = copies
         row.file_name = file
+        content = replace(content, checkpoint=head_code(s))
         row.shown_json = json.dumps(asdict(content), sort_keys=True, ensure_ascii=False)
         drawn = deliver(content, lambda: write(s, user.name, "label.print", row))
         if not inspect(row).persistent:

@@ -63,6 +63,7 @@ class AuditSummary:
     events: int
     head_hash: str | None
     problems: tuple[str, ...]
+    checkpoint: str | None = None  # the trail's code when printed, for `audit verify`
 
 
 @dataclass(frozen=True)
@@ -128,5 +129,5 @@ def gather(db: Database, code: str) -> ReportData:
         batch=shown, window=window, chart=tuple(points), corrections=events,
         labels=tuple(labels.label_prints(db, code)),
         audit=AuditSummary(ok=audit.ok, events=audit.events, head_hash=audit.head_hash,
-                           problems=audit.problems),
+                           problems=audit.problems, checkpoint=audit.checkpoint),
         printed_at=when(utc_now()))

@@ -196,7 +196,10 @@ def _footer(data: LabelContent, tier: int) -> Line:
 
 
 def lines_for(data: LabelContent, tier: int = 0) -> list[Line]:
-    return lot_lines(data, tier) if isinstance(data, LotLabel) else batch_lines(data, tier)
+    lines = lot_lines(data, tier) if isinstance(data, LotLabel) else batch_lines(data, tier)
+    if data.checkpoint:  # the audit trail's code when printed: the label is a witness too
+        lines.append(Line("footer", f"Checkpoint {data.checkpoint}"))
+    return lines
 
 
 # --- layout and drawing (reportlab) ---------------------------------------------------

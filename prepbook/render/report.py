@@ -336,6 +336,8 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[
                + "; ".join(audit.problems[:10]))
     story.append(_p(f"{audit.events} events; {verdict}. Head hash "
                     f"{audit.head_hash or '-'}.", st.body))
+    story.append(_p(f"Checkpoint {audit.checkpoint or '-'} (prepbook audit verify "
+                    "--checkpoint CODE checks the trail still holds it)", st.body))
     story.append(Spacer(1, 8))
     story.append(_p("Figures are rounded for reading; the record keeps every value unrounded "
                     "(prepbook export). Safety: follow the substance's safety data sheet, local "

@@ -350,6 +350,12 @@ class AuditEvent(Base):
     performed_at: Mapped[datetime | None]
     prev_hash: Mapped[str | None]
     hash: Mapped[str]
+    # Who wrote it at the machine: the operating-system login and the host (None on
+    # events written before they were recorded); ``key_id`` is the fingerprint of the
+    # audit key of a keyed event. Part of the hashed text when present.
+    os_login: Mapped[str | None]
+    host: Mapped[str | None]
+    key_id: Mapped[str | None]
 
 
 class AuditHead(Base):
@@ -395,6 +401,45 @@ class LabelPrint(Base):
     expires: Mapped[date | None]
     file_name: Mapped[str] = mapped_column(Text)
     shown_json: Mapped[str] = mapped_column(Text)
+
+
+class AuditKeying(Base):
+    """The single row (id=1) saying how this trail is kept, recorded at its first write.
+
+    ``lab_id`` names the lab's trail in checkpoints and witness files; ``scheme`` is the
+    hash scheme (sha256 or hmac-sha256) and ``key_fingerprint`` the fingerprint of the
+    audit key of a keyed trail; ``public_key`` is the lab's Ed25519 checkpoint-signing
+    public key (hex), recorded at the first checkpoint.
+    """
+
+    __tablename__ = "audit_keying"
+    __table_args__ = (CheckConstraint("id = 1", name="single_row"),)
+    __updatable__ = frozenset({"public_key"})
+
+    id: Mapped[int] = mapped_column(primary_key=True, autoincrement=False)
+    lab_id: Mapped[str]
+    scheme: Mapped[str]
+    key_fingerprint: Mapped[str | None]
+    public_key: Mapped[str | None]
+    recorded_at: Mapped[datetime]
+
+
+class AuditCheckpoint(Base):
+    """A signed statement that the trail had ``events`` events ending in ``head_hash``.
+
+    The same line goes to the witness folder outside the database; ``signature`` is
+    the Ed25519 signature (hex) of ``prepbook.store.audit.checkpoints.message``.
+    """
+
+    __tablename__ = "audit_checkpoints"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    lab_id: Mapped[str]
+    events: Mapped[int]
+    head_hash: Mapped[str]
+    made_at: Mapped[datetime]
+    public_key: Mapped[str]
+    signature: Mapped[str]
 
 
 # Every table whose rows the audit trail vouches for (all but the trail itself).

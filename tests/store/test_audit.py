@@ -56,7 +56,9 @@ def _raw(db_file: Path, *statements: str) -> None:
 
 
 def test_an_empty_trail_verifies(db: Database) -> None:
-    assert _verify(db) == audit.VerifyReport(ok=True, events=0, head_hash=None, problems=())
+    rep = _verify(db)
+    assert (rep.ok, rep.events, rep.head_hash, rep.problems) == (True, 0, None, ())
+    assert rep.checkpoint is None and rep.witnessed_events is None
 
 
 def test_recorded_events_chain_and_verify(db: Database) -> None:
@@ -89,7 +91,11 @@ def test_event_hash_is_sha256_of_the_documented_fields(db: Database) -> None:
             event.reason,
             None,
             event.prev_hash,
+            event.os_login,
+            event.host,
+            event.key_id,
         ]
+        assert event.os_login and event.host and event.key_id is None
         payload = json.dumps(fields, separators=(",", ":"), ensure_ascii=False).encode()
         assert event.hash == "sha256:" + hashlib.sha256(payload).hexdigest()
         batch = session.scalars(select(Batch)).one()
@@ -285,7 +291,10 @@ def test_keyed_chain_without_the_key_is_reported(
     monkeypatch.delenv(audit.KEY_ENV)
     report = _verify(db)
     assert not report.ok
-    assert report.problems == (
+    assert report.problems[0].startswith("this trail is keyed (key ")
+    assert report.problems[0].endswith(f"no audit key is set here: it cannot be verified; "
+                                       f"set {audit.KEY_ENV}")
+    assert report.problems[1:] == (
         "5 audit event(s) are keyed (hmac-sha256) and cannot be checked without the key: "
         f"set {audit.KEY_ENV}",
     )
@@ -300,7 +309,10 @@ def test_keyed_chain_with_a_wrong_key_is_reported(
     monkeypatch.setenv(audit.KEY_ENV, str(wrong))
     report = _verify(db)
     assert not report.ok
-    assert sum("does not match its hash" in p for p in report.problems) == 5
+    # Named for what happened: written with another key than the one set here, not edited.
+    assert "is not the one this trail is keyed with" in report.problems[0]
+    assert sum("was written with a different key" in p for p in report.problems) == 5
+    assert not any("edited" in p for p in report.problems)
 
 
 def test_missing_key_file_is_reported(

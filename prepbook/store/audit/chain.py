@@ -3,6 +3,8 @@
 An event's hash covers the JSON array (seq, at, actor, action, record_type, record_id,
 values, reason, performed_at, prev_hash), written with ``json.dumps(fields,
 separators=(",", ":"), ensure_ascii=False)``; times are ISO text with microseconds.
+Events written since the writer's login and host are recorded append (os_login, host,
+key_id) to the array; older events, which have none of the three, keep the ten fields.
 It is stored with its scheme: ``sha256:<hex>``, or ``hmac-sha256:<hex>`` when
 ``PREPBOOK_AUDIT_KEY_FILE`` names a file holding a lab secret kept outside the
 database (a chain rewritten without the secret then no longer verifies).
@@ -15,7 +17,7 @@ import hmac
 import json
 import os
 from collections.abc import Callable
-from datetime import UTC, date, datetime
+from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
@@ -24,6 +26,9 @@ from prepbook.errors import InvalidInput
 KEY_ENV = "PREPBOOK_AUDIT_KEY_FILE"
 PLAIN = "sha256"
 KEYED = "hmac-sha256"
+# How far an event may be dated before the one it follows (benches' clocks differ by a
+# few seconds even when kept in time; a clock set back by more is refused and named).
+CLOCK_TOLERANCE = timedelta(seconds=60)
 
 # Built once with the public JSONEncoder: json.dumps with options builds one per call.
 _canonical = json.JSONEncoder(
@@ -49,13 +54,19 @@ def canonical_json_of_sorted(row: dict[str, Any]) -> str:
 
 
 def payload(seq: Any, at: Any, actor: Any, action: Any, record_type: Any, record_id: Any,
-            values: Any, reason: Any, performed_at: Any, prev_hash: Any) -> bytes:
+            values: Any, reason: Any, performed_at: Any, prev_hash: Any,
+            os_login: Any = None, host: Any = None, key_id: Any = None) -> bytes:
     """The bytes an event's hash is taken over (times already as ISO text).
 
+    The writer's login, host and key id are appended when any of them is set (every
+    event written since they are recorded), so older events hash as they always did.
     Raises ``TypeError`` or ``ValueError`` for a value JSON cannot hold (a blob, NaN).
     """
+    if os_login is None and host is None and key_id is None:
+        return _fields([seq, at, actor, action, record_type, record_id, values, reason,
+                        performed_at, prev_hash]).encode()
     return _fields([seq, at, actor, action, record_type, record_id, values, reason,
-                    performed_at, prev_hash]).encode()
+                    performed_at, prev_hash, os_login, host, key_id]).encode()
 
 
 def read_key() -> bytes | None:
@@ -70,6 +81,13 @@ def read_key() -> bytes | None:
     if not key:
         raise InvalidInput(f"the audit key file named by {KEY_ENV} ({name}) is empty")
     return key
+
+
+def key_fingerprint(key: bytes | None) -> str | None:
+    """A short name of an audit key that reveals nothing of it (an HMAC of a fixed text)."""
+    if key is None:
+        return None
+    return hmac.new(key, b"prepbook audit key fingerprint", hashlib.sha256).hexdigest()[:16]
 
 
 def hasher(key: bytes | None) -> tuple[str, Hasher]:

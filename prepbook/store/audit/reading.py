@@ -30,6 +30,8 @@ class LogEntry:
     record_id: int
     reason: str | None
     performed_at: str | None
+    os_login: str | None  # the writer's operating-system login (None on older events)
+    host: str | None  # and the machine it wrote from
 
 
 def log(
@@ -51,7 +53,7 @@ def log(
     """
     c = _events.c
     stmt = select(c.seq, c.at, c.actor, c.action, c.record_type, c.record_id, c.reason,
-                  c.performed_at)
+                  c.performed_at, c.os_login, c.host)
     if record_type is not None:
         stmt = stmt.where(c.record_type == record_type)
     if record_id is not None:
@@ -84,5 +86,6 @@ def log(
     return [LogEntry(seq=row.seq, at=iso(row.at), actor=row.actor, action=row.action,
                      record=f"{row.record_type} #{row.record_id}",
                      record_type=row.record_type, record_id=row.record_id, reason=row.reason,
-                     performed_at=iso(row.performed_at))
+                     performed_at=iso(row.performed_at), os_login=row.os_login,
+                     host=row.host)
             for row in rows]

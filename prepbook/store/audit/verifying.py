@@ -2,12 +2,17 @@
 
 ``verify`` reads top to bottom:
 
+0. ``_check_keying``: a keyed trail needs its own key here, else it cannot be verified;
+   ``witnessing.gather`` collects every checkpoint in sight (the database, the witness
+   folder, codes typed from paper).
 1. ``_check_chain`` reads every event once, in seq order, as plain driver values
    (no ORM object, no type processing: SQLite's times arrive as the text stored), and
    recomputes its hash from the JSON text of its fields (``chain.payload``) with
-   ``hashlib``/``hmac``. Each event must link to the one before it. It keeps, for
-   every record, the seq and snapshot text of its last event.
-2. ``_check_head`` compares the head row with the last event.
+   ``hashlib``/``hmac``. Each event must link to the one before it and be dated no
+   earlier than it (beyond the clock tolerance). It keeps, for every record, the seq
+   and snapshot text of its last event, and the hashes of the events checkpoints name.
+2. ``_check_head`` compares the head row with the last event, and
+   ``witnessing.compare`` every checkpoint with the trail (shortened, rewritten).
 3. ``_check_rows`` reads every row of every audited table the same plain way, writes
    its canonical JSON (every value through its column's canonicaliser, which refuses a
    fraction in a whole-number column or a flag other than 0/1 instead of coercing it)
@@ -25,13 +30,17 @@ from __future__ import annotations
 import json
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
+from datetime import datetime
+from pathlib import Path
 from typing import Any
 
 from sqlalchemy import Connection, Date, DateTime, Table, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput
+from prepbook.store.audit import witnessing
 from prepbook.store.audit.chain import (
+    CLOCK_TOLERANCE,
     KEY_ENV,
     KEYED,
     PLAIN,
@@ -39,11 +48,13 @@ from prepbook.store.audit.chain import (
     canonical_json_of_sorted,
     date_text,
     hasher,
+    key_fingerprint,
     label,
     payload,
     read_key,
     time_text,
 )
+from prepbook.store.audit.checkpoints import Keying, code_of, keying
 from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead
 from prepbook.store.snapshot import (
     audited_in_digest,
@@ -62,12 +73,21 @@ Converter = Callable[[Any], Any]
 
 @dataclass(frozen=True)
 class VerifyReport:
-    """Outcome of ``verify``: ok only when the chain and every audited row check out."""
+    """Outcome of ``verify``: ok only when the chain and every audited row check out.
+
+    ``checkpoint`` is the code of the trail as verified (None while empty);
+    ``witnessed_events`` how far a witness outside the database (the witness folder, a
+    typed code) vouches for it; ``notes`` say what could not be ruled out.
+    """
 
     ok: bool
     events: int
     head_hash: str | None
     problems: tuple[str, ...]
+    checkpoint: str | None
+    checkpoints_checked: int
+    witnessed_events: int | None
+    notes: tuple[str, ...]
 
 
 @dataclass(frozen=True)
@@ -78,6 +98,7 @@ class _Chain:
     last_seq: int
     last_hash: str | None
     last_events: LastEvents
+    hashes_at: dict[int, str]  # the hashes of the events checkpoints name
 
 
 class _Problems:
@@ -103,8 +124,11 @@ class _Problems:
         return tuple(out)
 
 
-def verify(session: Session) -> VerifyReport:
-    """Recompute the whole chain and check every audited row against its last event."""
+def verify(session: Session, *, codes: Sequence[str] = (),
+           witness: Path | None = None) -> VerifyReport:
+    """Recompute the whole chain, hold it against every checkpoint in sight (the
+    database's, the ``witness`` folder's, ``codes`` typed from paper) and check every
+    audited row against its last event."""
     problems = _Problems()
     try:
         key = read_key()
@@ -113,12 +137,47 @@ def verify(session: Session) -> VerifyReport:
         key = None
     session.flush()  # events still pending in this session are part of the trail
     conn = session.connection()
-    chain = _check_chain(conn, key, problems)
-    _check_head(conn, chain, problems)
-    _check_rows(conn, chain.last_events, problems)
+    kept = keying(conn)
+    _check_keying(kept, key, problems)
+    seen = witnessing.gather(conn, kept, codes, witness, problems.add)
+    chain = _check_chain(conn, key, problems, {a.events for a in seen})
+    removed = _check_head(conn, chain, problems)
+    found = witnessing.compare(seen, chain.last_seq, chain.hashes_at, kept, problems.add)
+    _check_rows(conn, chain.last_events, problems, removed or found.shortened)
     listed = problems.as_tuple()
-    return VerifyReport(ok=not listed, events=chain.events, head_hash=chain.last_hash,
-                        problems=listed)
+    return VerifyReport(
+        ok=not listed, events=chain.events, head_hash=chain.last_hash, problems=listed,
+        checkpoint=code_of(chain.last_seq, chain.last_hash) if chain.last_hash else None,
+        checkpoints_checked=len(seen), witnessed_events=found.witnessed_events,
+        notes=_notes(chain, found, witness))
+
+
+def _notes(chain: _Chain, found: witnessing.Findings, witness: Path | None) -> tuple[str, ...]:
+    """What the checks could not rule out, said plainly."""
+    if found.witnessed_events is None:
+        where = ("no witness outside the database was checked" if witness is None else
+                 f"no checkpoint of the witness folder {witness} matched this trail")
+        return (f"{where}: a shortened trail (its last events removed) or a rollback to an "
+                "older copy cannot be ruled out; set witness_folder or give --checkpoint "
+                "CODE from a printed report",)
+    if found.witnessed_events < chain.last_seq:
+        return (f"events up to #{found.witnessed_events} are attested by a witness outside "
+                f"the database; the {chain.last_seq - found.witnessed_events} after it only "
+                "by the database itself",)
+    return ()
+
+
+def _check_keying(kept: Keying | None, key: bytes | None, problems: _Problems) -> None:
+    """A keyed trail cannot be verified without its own key: never "ok" then."""
+    if kept is None or kept.scheme != KEYED:
+        return
+    if key is None:
+        problems.add("key", f"this trail is keyed (key {kept.key_fingerprint}) and no audit "
+                     f"key is set here: it cannot be verified; set {KEY_ENV}")
+    elif kept.key_fingerprint is not None and key_fingerprint(key) != kept.key_fingerprint:
+        problems.add("key", f"the audit key set here (key {key_fingerprint(key)}) is not the "
+                     f"one this trail is keyed with (key {kept.key_fingerprint}): it cannot "
+                     "be verified with it")
 
 
 def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Sequence[Any]]:
@@ -143,23 +202,31 @@ def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Seq
 
 _EVENT_TABLE: Table = AuditEvent.__table__  # type: ignore[assignment]
 _EVENT_COLUMNS = ("seq", "at", "actor", "action", "record_type", "record_id", "values",
-                  "reason", "performed_at", "prev_hash", "hash")
+                  "reason", "performed_at", "prev_hash", "hash", "os_login", "host", "key_id")
 
 
-def _check_chain(conn: Connection, key: bytes | None, problems: _Problems) -> _Chain:
-    """One pass over the events: each hash recomputed, each link to the one before."""
+def _check_chain(conn: Connection, key: bytes | None, problems: _Problems,
+                 wanted: set[int]) -> _Chain:
+    """One pass over the events: each hash recomputed, each link to the one before, each
+    time no earlier than the one before; the hashes of the ``wanted`` events kept."""
     scheme, digest = hasher(key)
     prefix = f"{scheme}:"
     other_prefix = f"{KEYED if scheme == PLAIN else PLAIN}:"
+    our_key = key_fingerprint(key)
     last_events: LastEvents = {}
+    hashes_at: dict[int, str] = {}
     count = prev_seq = other_scheme = 0
     prev_hash: str | None = None
+    prev_at = ""
     for rows in _pages(conn, _EVENT_TABLE, _EVENT_COLUMNS):
         count += len(rows)
-        for seq, at, actor, action, rtype, rid, values, reason, pat, linked, stored in rows:
+        for (seq, at, actor, action, rtype, rid, values, reason, pat, linked, stored,
+             login, host, key_id) in rows:
             if seq != prev_seq + 1 or linked != prev_hash:
                 _not_linked(problems, seq, prev_seq)
             last_events[(rtype, rid)] = (seq, values)
+            if seq in wanted:
+                hashes_at[seq] = stored
             prev_seq, prev_hash = seq, stored
             try:
                 at_text = time_text(at)
@@ -168,9 +235,12 @@ def _check_chain(conn: Connection, key: bytes | None, problems: _Problems) -> _C
                 problems.add("edited", f"audit event #{seq} has an unreadable time: "
                              "edited outside prepbook")
                 continue
+            if at_text < prev_at:  # ISO text of one shape sorts as time does
+                _out_of_order(problems, seq, at_text, prev_at)
+            prev_at = at_text
             try:
                 hashed = payload(seq, at_text, actor, action, rtype, rid, values, reason,
-                                 pat_text, linked)
+                                 pat_text, linked, login, host, key_id)
             except (ValueError, TypeError) as exc:  # a blob, say, where text belongs
                 problems.add("edited", f"audit event #{seq} ({label(rtype, rid)}) cannot be "
                              f"read ({exc}): edited outside prepbook")
@@ -179,12 +249,25 @@ def _check_chain(conn: Connection, key: bytes | None, problems: _Problems) -> _C
                 continue
             if isinstance(stored, str) and stored.startswith(other_prefix):
                 other_scheme += 1
+            elif key_id is not None and key_id != our_key and stored.startswith(f"{KEYED}:"):
+                problems.add("other key", f"audit event #{seq} ({label(rtype, rid)}) was "
+                             f"written with a different key (key {key_id}; the key set here "
+                             f"is {our_key or 'none'})")
             else:
                 problems.add("edited", f"audit event #{seq} ({label(rtype, rid)}) does not "
                              "match its hash: edited outside prepbook")
     if other_scheme:
         problems.add("key", _other_scheme(scheme, other_scheme))
-    return _Chain(count, prev_seq, prev_hash, last_events)
+    return _Chain(count, prev_seq, prev_hash, last_events, hashes_at)
+
+
+def _out_of_order(problems: _Problems, seq: Any, at_text: str, prev_at: str) -> None:
+    """Name an event dated before the one it follows, beyond the clock tolerance."""
+    behind = datetime.fromisoformat(prev_at) - datetime.fromisoformat(at_text)
+    if behind > CLOCK_TOLERANCE:
+        problems.add("time", f"audit event #{seq} is dated {at_text[:19].replace('T', ' ')} "
+                     f"UTC, {behind} before event #{seq - 1}: a clock set back, or times "
+                     "edited outside prepbook")
 
 
 def _not_linked(problems: _Problems, seq: Any, prev_seq: int) -> None:
@@ -205,8 +288,9 @@ def _other_scheme(scheme: str, count: int) -> str:
             "was written or rewritten without it")
 
 
-def _check_head(conn: Connection, chain: _Chain, problems: _Problems) -> None:
-    """The single head row must name the chain's last event and its hash."""
+def _check_head(conn: Connection, chain: _Chain, problems: _Problems) -> bool:
+    """The single head row must name the chain's last event and its hash; True when it
+    shows events removed from the end."""
     head = AuditHead.__table__
     rows = conn.execute(select(head.c.id, head.c.seq, head.c.hash)).all()
     if len(rows) > 1:
@@ -215,16 +299,18 @@ def _check_head(conn: Connection, chain: _Chain, problems: _Problems) -> None:
     if not named:
         if chain.events:
             problems.add("head", "the audit head row is missing")
-        return
+        return False
     seq, hash_ = named[0]
     if seq > chain.last_seq:
         problems.add("head", f"the audit head names event #{seq} but the trail ends at "
                      f"#{chain.last_seq}: events removed from the end")
-    elif seq < chain.last_seq:
+        return True
+    if seq < chain.last_seq:
         problems.add("head", f"the audit head names event #{seq} but the trail goes on to "
                      f"#{chain.last_seq}: events added outside prepbook")
     elif hash_ != chain.last_hash:
         problems.add("head", f"the audit head hash does not match event #{chain.last_seq}")
+    return False
 
 
 def _converters(table: Table) -> tuple[tuple[str, Converter, type | None], ...]:
@@ -247,8 +333,12 @@ def _converters(table: Table) -> tuple[tuple[str, Converter, type | None], ...]:
     return tuple(out)
 
 
-def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems) -> None:
-    """Every audited row must equal the snapshot of its last event, and vice versa."""
+def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems,
+                shortened: bool) -> None:
+    """Every audited row must equal the snapshot of its last event, and vice versa (a
+    row with no event, in a trail known to be ``shortened``: its event was removed)."""
+    no_event = ("its audit event was removed from the end of the trail" if shortened
+                else "added outside prepbook")
     for name, table in AUDITED_TABLES.items():
         converters = _converters(table)
         names = [n for n, _, _ in converters]
@@ -265,7 +355,7 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems) 
                     continue
                 if last is None:
                     problems.add("added", f"{label(name, current['id'], current)} has no "
-                                 "audit event: added outside prepbook")
+                                 f"audit event: {no_event}")
                     continue
                 text = canonical_json_of_sorted(current)  # built in column-name order
                 if text != last[1]:

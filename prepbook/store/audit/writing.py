@@ -7,17 +7,32 @@ Each event stores the canonical JSON snapshot of the whole row after the write
 
 from __future__ import annotations
 
+import functools
+import getpass
+import os
+import socket
 from datetime import UTC, datetime
 
-from sqlalchemy import Table, bindparam, insert, select, update
+from sqlalchemy import Connection, Table, bindparam, insert, select, update
 from sqlalchemy.orm import Session
 
-from prepbook.errors import IntegrityError, InvalidInput
-from prepbook.store.audit.chain import canonical_json, hasher, iso, payload, read_key, utc_naive
+from prepbook.errors import IntegrityError, InvalidInput, Refused
+from prepbook.store.audit import checkpoints
+from prepbook.store.audit.chain import (
+    CLOCK_TOLERANCE,
+    KEY_ENV,
+    KEYED,
+    canonical_json,
+    hasher,
+    iso,
+    key_fingerprint,
+    payload,
+    read_key,
+    utc_naive,
+)
 from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead, Base, table_of
 from prepbook.store.snapshot import snapshot
 
-_HEAD_KEY = "prepbook_audit_head"
 _EVENTS = table_of(AuditEvent)
 _HEAD = table_of(AuditHead)
 # Built once with bound parameters: compiled once, not rebuilt for every event.
@@ -26,8 +41,46 @@ _MOVE_HEAD = (update(_HEAD).where(_HEAD.c.id == 1)
               .values(seq=bindparam("new_seq"), hash=bindparam("new_hash")))
 
 
-def _locked_head(session: Session) -> tuple[int, str | None]:
-    """The chain's head (seq, hash), read and locked once per transaction.
+@functools.cache
+def writer() -> tuple[str, str]:
+    """(operating-system login, host) of this process, recorded with every event."""
+    try:
+        login = getpass.getuser()
+    except (KeyError, OSError):  # no login name (some containers, Windows services)
+        login = os.environ.get("USERNAME") or os.environ.get("USER") or "unknown"
+    return login, socket.gethostname() or "unknown"
+
+
+def _check_keying(conn: Connection, head_hash: str | None, scheme: str,
+                  fingerprint: str | None) -> None:
+    """Refuse a bench whose audit key is not the one the trail is kept with.
+
+    The keying is recorded at the first write (an older trail: at its first write
+    since, from the scheme of its head).
+    """
+    kept = checkpoints.keying(conn)
+    if kept is None:
+        if head_hash is not None and not head_hash.startswith(f"{scheme}:"):
+            kept = checkpoints.Keying("", head_hash.partition(":")[0], None, None)
+        else:
+            checkpoints.record_keying(conn, scheme, fingerprint)
+            return
+    if kept.scheme == scheme and (scheme != KEYED or kept.key_fingerprint in (None, fingerprint)):
+        return
+    if kept.scheme == KEYED and fingerprint is None:
+        raise Refused(f"this lab's audit trail is keyed (key {kept.key_fingerprint or '?'}) and "
+                      f"this computer has no audit key: set {KEY_ENV}; nothing was written")
+    if kept.scheme == KEYED:
+        raise Refused(f"the audit key set here (key {fingerprint}) is not this lab's "
+                      f"(key {kept.key_fingerprint}); nothing was written")
+    raise Refused(f"this lab's audit trail is not keyed but {KEY_ENV} names a key here: "
+                  "unset it; nothing was written")
+
+
+def _locked_head(session: Session, scheme: str,
+                 fingerprint: str | None) -> tuple[int, str | None, datetime | None]:
+    """The chain's head (seq, hash, time of its event), read and locked once per
+    transaction, with the writer's key checked against the trail's.
 
     The first event of a transaction reads the head FOR UPDATE (on SQLite the
     BEGIN IMMEDIATE write lock already excludes other writers); until that
@@ -35,9 +88,9 @@ def _locked_head(session: Session) -> tuple[int, str | None]:
     transaction take it from ``session.info``, where ``record`` leaves it.
     """
     transaction = session.get_transaction()
-    held = session.info.get(_HEAD_KEY)
+    held = session.info.get(checkpoints.HEAD_KEY)
     if held is not None and held[0] is transaction:
-        return held[1], held[2]
+        return held[1], held[2], held[3]
     conn = session.connection()
     row = conn.execute(select(_HEAD.c.seq, _HEAD.c.hash).where(_HEAD.c.id == 1)
                        .with_for_update()).first()
@@ -46,8 +99,20 @@ def _locked_head(session: Session) -> tuple[int, str | None]:
         if conn.execute(select(_EVENTS.c.seq).limit(1)).first() is not None:
             raise IntegrityError("the audit head row is missing: run `prepbook audit verify`")
         conn.execute(insert(_HEAD).values(id=1, seq=0, hash=None))
-        return 0, None
-    return int(row.seq), row.hash
+        row_seq, row_hash = 0, None
+    else:
+        row_seq, row_hash = int(row.seq), row.hash
+    _check_keying(conn, row_hash, scheme, fingerprint)
+    last_at = conn.execute(select(_EVENTS.c.at).where(_EVENTS.c.seq == row_seq)).scalar()
+    return row_seq, row_hash, last_at
+
+
+def _check_clock(at: datetime, last_at: datetime | None) -> None:
+    """Refuse an event dated before the last one beyond the tolerance (a clock set back)."""
+    if last_at is not None and at < last_at - CLOCK_TOLERANCE:
+        raise Refused(f"this computer's clock reads {at:%Y-%m-%d %H:%M:%S} UTC, before the "
+                      f"last audit event ({last_at:%Y-%m-%d %H:%M:%S} UTC): set the clock "
+                      "right; nothing was written")
 
 
 def record(
@@ -64,7 +129,8 @@ def record(
     Call it after every insert or permitted update (the row flushed, so it has its
     id). The head row is locked for the rest of the transaction (FOR UPDATE on
     PostgreSQL; on SQLite the session's BEGIN IMMEDIATE already holds the write lock),
-    so events never interleave.
+    so events never interleave. A bench whose audit key is not the trail's, or whose
+    clock reads before the last event, is refused (``Refused``) and writes nothing.
     """
     if not actor or not actor.strip():
         raise InvalidInput("an audit event needs an actor")
@@ -73,19 +139,23 @@ def record(
     table: Table = row.__table__  # type: ignore[attr-defined,assignment]
     if table.name not in AUDITED_TABLES:
         raise InvalidInput(f"{table.name} rows are not audited")
-    scheme, digest = hasher(read_key())
+    key = read_key()
+    scheme, digest = hasher(key)
+    key_id = key_fingerprint(key)
 
     if getattr(row, "id", None) is None:
         session.flush()  # a new row gets its id
     values = canonical_json(snapshot(row))
     record_id = int(row.id)  # type: ignore[attr-defined]
 
-    head_seq, head_hash = _locked_head(session)
+    head_seq, head_hash, last_at = _locked_head(session, scheme, key_id)
     seq = head_seq + 1
     at = datetime.now(UTC).replace(tzinfo=None)
+    _check_clock(at, last_at)
     when = utc_naive(performed_at) if performed_at is not None else None
+    os_login, host = writer()
     hashed = payload(seq, iso(at), actor, action, table.name, record_id, values, reason,
-                     iso(when), head_hash)
+                     iso(when), head_hash, os_login, host, key_id)
     new_hash = f"{scheme}:{digest(hashed)}"
     # Two plain statements on the session's connection, in its transaction: the trail
     # is append-only and the head one row, so the unit of work has nothing to track.
@@ -93,7 +163,8 @@ def record(
     conn.execute(_ADD_EVENT, {
         "seq": seq, "at": at, "actor": actor, "action": action, "record_type": table.name,
         "record_id": record_id, "values": values, "reason": reason, "performed_at": when,
-        "prev_hash": head_hash, "hash": new_hash})
+        "prev_hash": head_hash, "hash": new_hash, "os_login": os_login, "host": host,
+        "key_id": key_id})
     conn.execute(_MOVE_HEAD, {"new_seq": seq, "new_hash": new_hash})
-    session.info[_HEAD_KEY] = (session.get_transaction(), seq, new_hash)
+    session.info[checkpoints.HEAD_KEY] = (session.get_transaction(), seq, new_hash, at)
     return seq
