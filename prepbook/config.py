@@ -99,6 +99,7 @@ SPECS: dict[str, _Spec] = {
     "witness_folder": _Spec("PREPBOOK_WITNESS_FOLDER", _text, None, path=True),
     "display.width": _Spec("PREPBOOK_DISPLAY_WIDTH", _width, None),
     "display.color": _Spec("PREPBOOK_DISPLAY_COLOR", _flag, None),
+    "balance_profiles": _Spec("PREPBOOK_BALANCE_PROFILES", _text, None, path=True),
 }
 
 

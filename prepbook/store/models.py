@@ -18,7 +18,6 @@ from typing import Any, ClassVar
 
 from sqlalchemy import (
     Boolean,
-    LargeBinary,
     CheckConstraint,
     Date,
     DateTime,
@@ -26,6 +25,7 @@ from sqlalchemy import (
     ForeignKey,
     Index,
     Integer,
+    LargeBinary,
     MetaData,
     String,
     Table,
