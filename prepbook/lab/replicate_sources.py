@@ -186,3 +186,31 @@ def sources_of_runs(s: Session, runs: list[Run]) -> dict[str, tuple[SourceRow, .
             raw=src.amount_raw if src else None,
             volume_source=src.volume_source if src else "typed"))
     return {code: tuple(rows) for code, rows in out.items()}
+
+
+@dataclass(frozen=True)
+class RunReadings:
+    """Where one run's readings came from, and its stored curves."""
+
+    run: str
+    sources: tuple[SourceRow, ...]
+    curves: tuple[replicate_curves.StoredCurve, ...]
+
+    @property
+    def from_instruments(self) -> bool:
+        return bool(self.curves) or any(r.amount_source != "typed" or r.volume_source != "typed"
+                                        for r in self.sources)
+
+
+def of_batch(db: Database, code: str) -> dict[str, RunReadings]:
+    """Every run of a batch with its readings' sources and curves, by run code."""
+    from prepbook.lab.common import by_code
+    from prepbook.store.models import Batch
+
+    with db.session(write=False) as s:
+        batch = by_code(s, Batch, code, "batch")
+        runs = list(s.scalars(select(Run).where(Run.batch_id == batch.id).order_by(Run.id)))
+        found = sources_of_runs(s, runs)
+        curves = replicate_curves.curves_of_runs(s, runs)
+        return {r.code: RunReadings(run=r.code, sources=found.get(r.code, ()),
+                                    curves=curves.get(r.code, ())) for r in runs}
