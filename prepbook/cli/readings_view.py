@@ -90,6 +90,7 @@ def amount_or_reading(db: Any, out: Any, typed: str, balance: str | None, positi
         out.print(f"[bold]not taken:[/bold] {exc}")
         return None
     w = entry.weighing
+    assert w is not None, "weighed() returns a mass read from the balance"
     out.print(f"  read {w.mass_text} g from balance {w.balance} (printed as {w.raw!r})",
               highlight=False)
     return entry

@@ -46,6 +46,7 @@ class SourceRow:
     read_at: str | None
     raw: str | None
     volume_source: str  # "typed" or "curve"
+    volume_ml_text: str  # the titrant volume of this version, as recorded
 
 
 def _written(endpoint_ml: float) -> str:
@@ -184,7 +185,8 @@ def sources_of_runs(s: Session, runs: list[Run]) -> dict[str, tuple[SourceRow, .
             read_at=src.amount_read_at.isoformat(timespec="seconds")
             if src and src.amount_read_at else None,
             raw=src.amount_raw if src else None,
-            volume_source=src.volume_source if src else "typed"))
+            volume_source=src.volume_source if src else "typed",
+            volume_ml_text=rep.volume_ml_text))
     return {code: tuple(rows) for code, rows in out.items()}
 
 
