@@ -165,7 +165,7 @@ def read(
 @app.command("simulate-balance")
 def simulate_balance(
     port: str = typer.Option(
-        "pty", "--port", metavar="pty|N",
+        "pty", "--port", metavar="PTY|N",
         help="Serve on a pseudo-terminal (pty, Linux/macOS) or on loopback TCP port N "
         "(0: any free port; open it as socket://127.0.0.1:N)."
     ),

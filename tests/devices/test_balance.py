@@ -148,3 +148,26 @@ def test_a_bad_profile_is_one_line_naming_it(tmp_path: Path, change: tuple[str, 
     own.write_text(shipped.replace(*change, 1), encoding="utf-8")
     with pytest.raises(InvalidInput, match=words):
         load_profiles(own)
+
+
+@pytest.mark.parametrize("port", [pytest.param("pty", marks=POSIX_ONLY), "0"])
+def test_the_simulate_balance_command_serves_then_stops(port: str) -> None:
+    import subprocess
+
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "prepbook", "instrument", "simulate-balance", "--port", port,
+         "--profile", "mark-last", "--mass", "1.2345", "--mode", "noisy", "--for", "6"],
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        assert proc.stdout is not None
+        url = proc.stdout.readline().strip()
+        assert url.startswith("socket://127.0.0.1:" if port == "0" else "/dev/")
+        reading = read_mass(url, find_profile("mark-last"), timeout_s=5)
+        assert reading.value_text == "1.2345"
+        _, err = proc.communicate(timeout=60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.communicate()
+    assert proc.returncode == 0, err
+    assert "simulated balance (mark-last, noisy, 1.2345 g)" in err
