@@ -55,19 +55,13 @@ class RecordedCurve:
 def recorded_curve(file_name: str, content: bytes) -> RecordedCurve:
     """Read and analyse an exported curve (``read_curve`` for the columns and preamble,
     ``find_endpoints`` for the inflections); a file that cannot be read is refused."""
-    from prepbook.chem.curve_files import read_curve
+    from prepbook.chem.curve_files import curve_text, read_curve
     from prepbook.chem.inflections import find_endpoints
 
     if len(content) > MAX_CURVE_BYTES:
         raise InvalidInput(f"the curve file {file_name!r} is {len(content)} bytes; at most "
                            f"{MAX_CURVE_BYTES} are stored")
-    if b"\x00" in content:
-        raise InvalidInput(f"the curve file {file_name!r} is not text (it holds NUL bytes); "
-                           "export the curve as CSV")
-    try:
-        text = content.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        text = content.decode("latin-1")
+    text = curve_text(content, file_name)
     try:
         curve = read_curve(text)
         report = find_endpoints(curve.volumes_ml, curve.readings, kind=curve.kind)

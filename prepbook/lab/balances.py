@@ -117,14 +117,20 @@ def connect(db: Database, *, actor: str, code: str, port: str, profile: str) -> 
         return _info(ins, row, chosen)
 
 
+def _connected(s: Session, code: str) -> tuple[Instrument, InstrumentConnection]:
+    """A balance and its current connection; refused when it has none."""
+    ins = _balance(s, code)
+    c = _latest(s, ins)
+    if c is None:
+        raise Refused(f"balance {ins.code} has no connection; record one with "
+                      f"`prepbook instrument connect {ins.code} --port PORT --profile NAME`")
+    return ins, c
+
+
 def connection(db: Database, code: str) -> Connection:
     """A balance's current connection; refused when it has none."""
     with db.session(write=False) as s:
-        ins = _balance(s, code)
-        c = _latest(s, ins)
-        if c is None:
-            raise Refused(f"balance {ins.code} has no connection; record one with "
-                          f"`prepbook instrument connect {ins.code} --port PORT --profile NAME`")
+        ins, c = _connected(s, code)
         return _info(ins, c, find_profile(c.profile, lab_profiles_file()))
 
 
@@ -133,11 +139,7 @@ def read_mass(db: Database, code: str, *, timeout_s: float | None = None) -> Wei
     from prepbook.devices.balance import read_mass as read_line
 
     with db.session(write=False) as s:
-        ins = _balance(s, code)
-        c = _latest(s, ins)
-        if c is None:
-            raise Refused(f"balance {ins.code} has no connection; record one with "
-                          f"`prepbook instrument connect {ins.code} --port PORT --profile NAME`")
+        ins, c = _connected(s, code)
         balance, port, profile_name = ins.code, c.port, c.profile
         wait = timeout_s if timeout_s is not None else float(
             setting(s, "balance_timeout_s", "5"))

@@ -174,8 +174,8 @@ def test_a_curve_is_stored_byte_for_byte_and_gives_the_volume(
     assert "curve of replicate 1: curve1.csv" in text and "E" in text
 
 
-def test_editing_a_stored_curve_outside_prepbook_is_found(bench: Cli,
-                                                          curves: list[Path]) -> None:  # noqa: F811
+def test_editing_a_stored_curve_outside_prepbook_is_found(
+        bench: Cli, curves: list[Path]) -> None:  # noqa: F811
     batch = _make_batch(bench)
     _standardize(bench, batch, [f"{MASSES[0]}:@{curves[0]}"])
     assert bench.json("audit", "verify")["ok"] is True
@@ -206,8 +206,8 @@ def test_a_typed_volume_that_disagrees_with_its_curve_fails_the_run(
     assert shown["runs"][0]["verdict"] == "fail"
 
 
-def test_a_correction_is_checked_against_the_stored_curve(bench: Cli,
-                                                          curves: list[Path]) -> None:  # noqa: F811
+def test_a_correction_is_checked_against_the_stored_curve(
+        bench: Cli, curves: list[Path]) -> None:  # noqa: F811
     batch = _make_batch(bench)
     reps = [f"{m}:@{c}" for m, c in zip(MASSES, curves, strict=True)]
     run = _standardize(bench, batch, reps)
@@ -220,8 +220,8 @@ def test_a_correction_is_checked_against_the_stored_curve(bench: Cli,
     assert sources[-1] == ("typed",)  # the corrected volume was typed, not the curve's
 
 
-def test_the_prompt_reads_a_mass_from_the_balance(bench: Cli,
-                                                  balance: SimulatedBalance) -> None:  # noqa: F811
+def test_the_prompt_reads_a_mass_from_the_balance(
+        bench: Cli, balance: SimulatedBalance) -> None:  # noqa: F811
     batch = _make_batch(bench)
     answers = "b\n39.16\n0.8116\n39.29\n\n"
     result = bench.ok("standardize", batch, "--lot", "KHP-0001", "--balance", "BAL-1",
