@@ -219,3 +219,31 @@ def simulate_balance(
         pass
     finally:
         server.stop()
+
+
+@app.command("curve")
+def curve(
+    ctx: typer.Context,
+    run: str = typer.Argument(..., metavar="RUN", help="Run code."),
+    replicate: int = typer.Option(..., "--replicate", metavar="N",
+                                  help="Replicate number (from 1)."),
+    out: str = typer.Option(..., "-o", "--output", metavar="FILE",
+                            help="File to write the stored curve to (not overwritten)."),
+) -> None:
+    """Write a replicate's stored titration curve, exactly as it was recorded."""
+    from pathlib import Path
+
+    from prepbook.errors import InvalidInput
+    from prepbook.lab import replicate_curves
+
+    content = replicate_curves.load(database(ctx), run, replicate)
+    target = Path(out).expanduser()
+    try:
+        with target.open("xb") as handle:
+            handle.write(content)
+    except FileExistsError:
+        raise InvalidInput(f"{target} already exists; choose another --output") from None
+    except OSError as exc:
+        raise InvalidInput(f"cannot write {target}: {exc.strerror or exc}") from None
+    output.console().print(f"curve of run {run} replicate {replicate} written to {target} "
+                           f"({len(content)} bytes)", highlight=False)

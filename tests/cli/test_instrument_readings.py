@@ -162,6 +162,11 @@ def test_a_curve_is_stored_byte_for_byte_and_gives_the_volume(
     db = open_database(str(bench.db))
     for i, path in enumerate(curves, start=1):
         assert replicate_curves.load(db, run["run"], i) == path.read_bytes()
+    back = path.parent / "back.csv"
+    bench.ok("instrument", "curve", run["run"], "--replicate", "2", "-o", str(back))
+    assert back.read_bytes() == curves[1].read_bytes()
+    assert "exists" in bench.refused("instrument", "curve", run["run"], "--replicate", "2",
+                                     "-o", str(back)).stderr
     stored = _rows(bench.db, "SELECT sha256, size_bytes FROM replicate_curves ORDER BY position")
     assert stored[0] == (hashlib.sha256(curves[0].read_bytes()).hexdigest(),
                          len(curves[0].read_bytes()))
