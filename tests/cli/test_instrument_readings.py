@@ -245,3 +245,17 @@ def test_the_prompt_refuses_an_unstable_reading_and_asks_again(
                       "--at", _at(-1), user="ben", input="b\n0.8116\n39.29\n\n")
     assert "not taken" in result.stdout and "not stable" in result.stdout
     assert _rows(bench.db, "SELECT amount_source FROM replicate_sources") == [("typed",)]
+
+
+def test_a_curve_that_cannot_be_read_records_nothing(bench: Cli, tmp_path: Path) -> None:  # noqa: F811
+    batch = _make_batch(bench)
+    flat = tmp_path / "flat.csv"
+    flat.write_text("volume_ml,pH\n" + "".join(f"{v},{7.0}\n" for v in range(20)),
+                    encoding="ascii")
+    before = row_counts(bench.db)
+    for rep, words in ((f"0.8085:@{flat}", "no inflection"),
+                       (f"0.8085:39.16@{tmp_path / 'missing.csv'}", "cannot read the curve")):
+        result = bench.refused("standardize", batch, "--lot", "KHP-0001", "--at", _at(-1),
+                               "--rep", rep, user="ben")
+        assert words in result.stderr
+    assert row_counts(bench.db) == before
