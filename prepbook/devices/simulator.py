@@ -21,6 +21,7 @@ import sys
 import threading
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import Self
 
 from prepbook.devices.profiles import BalanceProfile
 from prepbook.errors import InvalidInput
@@ -83,9 +84,28 @@ class SimulatedBalance:
 class _LineServer:
     """Reads request lines from one byte stream and writes the balance's answers."""
 
+    url: str  # what pyserial opens
+
     def __init__(self, balance: SimulatedBalance) -> None:
         self.balance = balance
         self.stopping = threading.Event()
+        self.thread = threading.Thread(target=self._serve, name="simulated-balance",
+                                       daemon=True)
+
+    def _serve(self) -> None:
+        raise NotImplementedError
+
+    def _close(self) -> None:
+        raise NotImplementedError
+
+    def start(self) -> Self:
+        self.thread.start()
+        return self
+
+    def stop(self) -> None:
+        self.stopping.set()
+        self.thread.join(timeout=2)
+        self._close()
 
     def answer_lines(self, data: bytes, pending: bytes) -> tuple[bytes, bytes]:
         """(the answers to every complete line in ``pending + data``, what is left)."""
@@ -106,8 +126,6 @@ class SocketServer(_LineServer):
         self.listener.settimeout(0.2)
         self.port = self.listener.getsockname()[1]
         self.url = f"socket://127.0.0.1:{self.port}"
-        self.thread = threading.Thread(target=self._serve, name="simulated-balance",
-                                       daemon=True)
 
     def _serve(self) -> None:
         while not self.stopping.is_set():
@@ -136,13 +154,7 @@ class SocketServer(_LineServer):
                         except OSError:
                             break
 
-    def start(self) -> SocketServer:
-        self.thread.start()
-        return self
-
-    def stop(self) -> None:
-        self.stopping.set()
-        self.thread.join(timeout=2)
+    def _close(self) -> None:
         self.listener.close()
 
 
@@ -160,8 +172,6 @@ class PtyServer(_LineServer):
         tty.setraw(self.slave)  # no echo and no line editing: bytes pass as they are
         self.path = os.ttyname(self.slave)
         self.url = self.path
-        self.thread = threading.Thread(target=self._serve, name="simulated-balance",
-                                       daemon=True)
 
     def _serve(self) -> None:
         import select
@@ -179,12 +189,6 @@ class PtyServer(_LineServer):
             if out:
                 os.write(self.master, out)
 
-    def start(self) -> PtyServer:
-        self.thread.start()
-        return self
-
-    def stop(self) -> None:
-        self.stopping.set()
-        self.thread.join(timeout=2)
+    def _close(self) -> None:
         os.close(self.master)
         os.close(self.slave)
