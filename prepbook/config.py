@@ -101,6 +101,7 @@ SPECS: dict[str, _Spec] = {
     "signing_key_file": _Spec("PREPBOOK_SIGNING_KEY_FILE", _text, None, path=True),
     "display.width": _Spec("PREPBOOK_DISPLAY_WIDTH", _width, None),
     "display.color": _Spec("PREPBOOK_DISPLAY_COLOR", _flag, None),
+    "balance_profiles": _Spec("PREPBOOK_BALANCE_PROFILES", _text, None, path=True),
 }
 
 

@@ -15,8 +15,12 @@ import unicodedata
 from dataclasses import dataclass
 from datetime import UTC, date, datetime, time
 from decimal import Decimal, InvalidOperation
+from typing import TYPE_CHECKING
 
 from prepbook.errors import InvalidInput
+
+if TYPE_CHECKING:
+    from prepbook.devices.records import RecordedCurve, Weighing
 
 # Decimal notation: optional sign, ASCII digits, optional point and digits, and an
 # optional exponent of one to three digits after "e" or "E" ("1.5e-3", "2E-4"), which
@@ -107,10 +111,15 @@ def parse_percent(text: str, what: str) -> Reading:
 
 @dataclass(frozen=True)
 class ReplicateEntry:
-    """One replicate as typed: ``MASS:VOL`` (or ``ALIQUOT:VOL``)."""
+    """One replicate as typed: ``MASS:VOL`` (or ``ALIQUOT:VOL``); a mass read from a
+    balance carries its ``weighing``, a recorded curve its ``curve`` (``volume_from_curve``
+    when the volume is the curve's endpoint): see ``prepbook.lab.replicate_sources``."""
 
     amount: Reading
     volume: Reading
+    weighing: Weighing | None = None
+    curve: RecordedCurve | None = None
+    volume_from_curve: bool = False
 
 
 def parse_replicate(text: str, position: int, *, amount_name: str = "mass (g)") -> ReplicateEntry:

@@ -173,11 +173,16 @@ def read_curve_file(path: str | Path) -> CurveFile:
     except OSError as exc:
         raise InvalidInput(f"cannot read the curve file {str(where)!r}: "
                            f"{exc.strerror or exc}") from None
+    return read_curve(curve_text(raw, str(where)))
+
+
+def curve_text(raw: bytes, name: str) -> str:
+    """An exported curve's bytes as text: UTF-8 (with or without BOM) or Latin-1; a file
+    holding NUL bytes is not a text export and is refused, naming it."""
     if b"\x00" in raw:
-        raise InvalidInput(f"the curve file {str(where)!r} is not text (it holds NUL bytes); "
+        raise InvalidInput(f"the curve file {name!r} is not text (it holds NUL bytes); "
                            "export the curve as CSV")
     try:
-        text = raw.decode("utf-8-sig")
+        return raw.decode("utf-8-sig")
     except UnicodeDecodeError:
-        text = raw.decode("latin-1")
-    return read_curve(text)
+        return raw.decode("latin-1")

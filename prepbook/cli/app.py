@@ -74,7 +74,7 @@ COMMANDS: tuple[Entry, ...] = (
     Entry("user", "users", "app", True, "Add and list users (technician, reviewer, admin)."),
     Entry("lot", "lots", "app", True, "Add and list primary-standard lots."),
     Entry("instrument", "instruments", "app", True,
-          "Add and list instruments and record their calibration."),
+          "Add and list instruments, record their calibration, connect and read balances."),
     Entry("spec", "specs", "app", True, "List solution specs and add the lab's own."),
     Entry("batch", "batches", "app", True, "Make batches and show their history."),
     Entry("audit", "audit", "app", True, "Read and verify the audit trail."),

@@ -7,10 +7,12 @@ from typing import TYPE_CHECKING, Any
 import typer
 
 from prepbook.cli import output
+from prepbook.cli.readings_view import render_readings
 from prepbook.cli.session import actor, database
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BatchRecord
+    from prepbook.lab.replicate_sources import RunReadings
 
 app = typer.Typer(
     help="Make batches and show their history.",
@@ -69,7 +71,7 @@ def make(
     output.caution_lines(out, res.cautions)
 
 
-def _render_show(out: Any, b: BatchRecord) -> None:
+def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings]) -> None:
     p = b.preparation
     out.print(f"[bold]{b.batch}[/bold]  {b.spec_name} ({b.spec}), "
               f"nominal {b.nominal:g} {b.unit}")
@@ -112,6 +114,7 @@ def _render_show(out: Any, b: BatchRecord) -> None:
         amount = "aliquot (mL)" if run.method == "secondary" else "mass (g)"
         out.print(output.table(None, ["#", "v", amount, "titrant (mL)", "N (eq/L)", ""], rows,
                                right=(0, 1, 2, 3, 4)))
+        render_readings(out, readings.get(run.run))
         for c in run.checks:
             if not c["passed"]:
                 out.print(f"  {c['severity']}: {c['message']}")
@@ -141,7 +144,9 @@ def show(
     if as_json:
         output.emit_json(b)
     else:
-        _render_show(output.console(), b)
+        from prepbook.lab.replicate_sources import of_batch
+
+        _render_show(output.console(), b, of_batch(database(ctx), code))
 
 
 @app.command("use")

@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Any
 import typer
 
 from prepbook.cli import output
+from prepbook.cli.readings_view import amount_or_reading, replicate_of
 from prepbook.cli.session import actor, database
 from prepbook.errors import InvalidInput
 
@@ -52,7 +53,9 @@ def standardize(
         "--rep",
         metavar="MASS:VOL",
         help="One replicate (g of standard : mL of titrant), or ALIQUOT:VOL with "
-        "--against. Repeat. Without --rep you are asked for them one at a time.",
+        "--against. Repeat. @balance:VOL reads the mass from --balance; MASS:@FILE takes "
+        "the volume from a recorded curve, MASS:VOL@FILE checks it against the curve. "
+        "Without --rep you are asked for them one at a time.",
     ),
     at: str = typer.Option(
         None, "--at", metavar="WHEN",
@@ -67,7 +70,7 @@ def standardize(
     args: dict[str, Any] = dict(actor=actor(ctx), batch=batch, lot=lot, against=against,
                                 balance=balance, burette=burette, temperature=temp, blank=blank,
                                 indicator=indicator, at=at)
-    replicates = list(rep or [])
+    replicates: list[Any] = list(rep or [])
     if not replicates:
         replicates = _ask(db, args, runs, secondary=against is not None, quiet=as_json)
     res = runs.standardize(db, replicates=replicates, **args)
@@ -80,13 +83,16 @@ def standardize(
     render_result(out, res)
 
 
-def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bool) -> list[str]:
+def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bool) -> list[Any]:
     """Ask for replicates one at a time, showing the running result after each."""
     out = output.console(stderr=quiet)
     amount = "aliquot (mL)" if secondary else "mass of standard (g)"
     out.print(f"Enter each replicate as {amount} and titrant volume (mL); "
               "an empty line ends.")
-    reps: list[str] = []
+    if args["balance"] and not secondary:
+        out.print(f"For the mass, type b to read it from balance {args['balance']}; for the "
+                  "volume, @FILE takes it from a recorded curve.")
+    reps: list[Any] = []
     while True:
         n = len(reps) + 1
         a = typer.prompt(f"replicate {n} {amount}", default="", show_default=False).strip()
@@ -95,9 +101,12 @@ def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bo
                 out.print("no replicates: nothing recorded")
                 raise typer.Exit(1)
             return reps
+        amount = amount_or_reading(db, out, a, args["balance"], n, secondary)
+        if amount is None:
+            continue
         v = typer.prompt(f"replicate {n} titrant volume (mL)").strip()
-        trial = reps + [f"{a}:{v}"]
         try:
+            trial = reps + [replicate_of(amount, v, n)]
             res = runs.standardize(db, replicates=trial, record=False, **args)
         except InvalidInput as exc:
             out.print(f"[bold]not taken:[/bold] {exc}")

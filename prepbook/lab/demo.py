@@ -113,8 +113,14 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
                             accept=rv["decision"] == "accept", reason=rv.get("reason"),
                             passphrase=users[rv["by"]]["passphrase"],
                             at=signed.isoformat(timespec="minutes"))
-    from prepbook.lab import auditing
+    from prepbook.lab import auditing, demo_readings
 
+    weighed, weighed_run = demo_readings.weighed_batch(
+        db, actor=admin["name"], analyst="ines", lot="FH-KHP-2291", balance="BAL-A2",
+        burette="BUR-50-07", made_at=_moment(today, -3, "08:40"),
+        titrated_at=_moment(today, -2, "10:15"))
+    codes["naoh_weighed"] = weighed
+    run_count += 1
     verified = auditing.verify(db)
     items = board.board(db)
     story = [
@@ -126,6 +132,11 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
         + codes["hcl_stock"] + " and standardized against sodium hydroxide " + codes["naoh_b"],
         "a thiosulfate run was rejected and repeated; permanganate " + codes["kmno4"]
         + " is past its shelf life; an EDTA run awaits review",
+        "sodium hydroxide " + weighed + " was weighed on balance BAL-A2 over its serial line "
+        "(a simulated balance) and its endpoints come from stored titration curves (run "
+        + weighed_run + "); to read the balance yourself, start `prepbook instrument "
+        f"simulate-balance --port {demo_readings.TRY_PORT}` and run `prepbook instrument "
+        "read BAL-A2`",
     ]
     return DemoLab(lab=data["lab"], database=target, batches=len(codes), runs=run_count,
                    events=verified.events, verified=verified.ok, story=tuple(story),

@@ -8,7 +8,8 @@ prints of the batch. Drawing the PDF is the edge's work (``prepbook.render.repor
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Mapping
+from dataclasses import dataclass, field
 
 from sqlalchemy import and_, or_, select
 
@@ -18,6 +19,7 @@ from prepbook.lab.batch_facts import when
 from prepbook.lab.batch_records import BatchRecord
 from prepbook.lab.common import by_code
 from prepbook.lab.labels import LabelPrintRow
+from prepbook.lab.replicate_sources import RunReadings
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, Batch, LabelPrint, Replicate, Review, Run, Use
 
@@ -77,6 +79,7 @@ class ReportData:
     labels: tuple[LabelPrintRow, ...]  # ``labels.label_prints``
     audit: AuditSummary
     printed_at: str
+    readings: Mapping[str, RunReadings] = field(default_factory=dict)  # by run code
 
 
 def _reasoned_events(db: Database, code: str) -> tuple[SpecWindow, tuple[ReasonedEvent, ...]]:
@@ -111,7 +114,7 @@ def _reasoned_events(db: Database, code: str) -> tuple[SpecWindow, tuple[Reasone
 
 def gather(db: Database, code: str) -> ReportData:
     """Everything the report shows."""
-    from prepbook.lab import auditing, batches, labels
+    from prepbook.lab import auditing, batches, labels, replicate_sources
 
     shown = batches.show_batch(db, code)
     window, events = _reasoned_events(db, code)
@@ -130,4 +133,4 @@ def gather(db: Database, code: str) -> ReportData:
         labels=tuple(labels.label_prints(db, code)),
         audit=AuditSummary(ok=audit.ok, events=audit.events, head_hash=audit.head_hash,
                            problems=audit.problems, checkpoint=audit.checkpoint),
-        printed_at=when(utc_now()))
+        printed_at=when(utc_now()), readings=replicate_sources.of_batch(db, code))

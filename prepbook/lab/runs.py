@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Sequence
 from dataclasses import asdict, dataclass, replace
 from datetime import datetime
 from typing import Any
@@ -26,10 +27,10 @@ from prepbook.inputs import (
     ReplicateEntry,
     parse_datetime,
     parse_number,
-    parse_replicates,
     parse_text,
     utc_now,
 )
+from prepbook.lab import replicate_sources as sources
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batches import current_normality, instrument_of, next_code
 from prepbook.lab.calcs import readings_of
@@ -158,7 +159,7 @@ def _standardization(s: Session, c: _Conditions, entries: list[ReplicateEntry],
             instruments=tuple((i.code, i.kind, i.due) for i in (balance, burette)
                               if i is not None),
             balance_readability_g=_float(balance.readability_text) if balance else None,
-            indicator=c.indicator or view.indicator),
+            indicator=c.indicator or view.indicator, curves=sources.evidence(s, entries)),
     )
 
 
@@ -217,7 +218,7 @@ def standardize(
     *,
     actor: str,
     batch: str,
-    replicates: list[str],
+    replicates: Sequence[str | ReplicateEntry],
     lot: str | None = None,
     against: str | None = None,
     balance: str | None = None,
@@ -238,8 +239,9 @@ def standardize(
         raise InvalidInput("standardize against exactly one of --lot LOT (a primary standard) "
                            "or --against BATCH (a standardized solution)")
     secondary = against is not None
-    entries: list[ReplicateEntry] = parse_replicates(
-        replicates, amount_name="aliquot (mL)" if secondary else "mass (g)")
+    entries: list[ReplicateEntry] = sources.entries(
+        db, replicates, amount_name="aliquot (mL)" if secondary else "mass (g)",
+        balance=balance, secondary=secondary)
     temp = parse_number(temperature or "20", "temperature (C)")
     if not 0 <= temp.value <= 40:
         raise InvalidInput(f"temperature {temp.text} C is outside 0-40 C")
@@ -294,10 +296,11 @@ def standardize(
         write(s, user.name, "run.record", run, performed_at=performed_at)
         now = utc_now()
         for pos, entry in enumerate(entries, start=1):
-            write(s, user.name, "replicate.record", Replicate(
-                run_id=run.id, position=pos, version=1, amount_text=entry.amount.text,
-                volume_ml_text=entry.volume.text, excluded=False, created_at=now,
-                created_by=user.name), performed_at=performed_at)
+            rep = Replicate(run_id=run.id, position=pos, version=1, amount_text=entry.amount.text,
+                            volume_ml_text=entry.volume.text, excluded=False, created_at=now,
+                            created_by=user.name)
+            write(s, user.name, "replicate.record", rep, performed_at=performed_at)
+            sources.record(s, user.name, run, rep, entry)
         return _result(cond, e, run=code, status=run.status, notes=ref_notes)
 
 
@@ -365,10 +368,12 @@ def _revise(db: Database, *, actor: str, run: str, position: int, reason: str | 
             volume=parse_number(rep.volume_ml_text, f"replicate {pos} titrant volume (mL)",
                                 positive=True))
             for pos, rep in sorted(current.items())]
+        entries = sources.with_stored_curves(s, r, entries)
         excluded = frozenset(pos for pos, rep in current.items() if rep.excluded)
         cond = _conditions_of(r)
         e, columns = _evaluate(s, cond, entries, excluded)
         write(s, user.name, f"replicate.{action}", new, reason=reason)
+        sources.carry(s, user.name, old, new)
         previous_status = r.status
         for key, value in columns.items():
             setattr(r, key, value)

@@ -26,6 +26,13 @@ class SettingInfo:
 KNOWN: dict[str, SettingInfo] = {
     s.key: s
     for s in (
+        SettingInfo("balance_timeout_s", "5",
+                    "seconds to wait for a balance's printed line before giving up "
+                    "(common practice, no source)", integer_range=(1, 120)),
+        SettingInfo("curve_tolerance_ul", "50",
+                    "largest difference, in microlitres, between a typed titrant volume and "
+                    "the endpoint of the replicate's recorded curve (the +/-0.05 mL of a "
+                    "Class A 50 mL burette, ISO 385)", integer_range=(1, 5000)),
         SettingInfo("buoyancy", "off",
                     "correct weighings of primary standards for air buoyancy (NIST IR 6969 "
                     "SOP 2) in standardizations", choices=("on", "off")),

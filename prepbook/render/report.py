@@ -17,10 +17,11 @@ from xml.sax.saxutils import escape
 from prepbook.errors import InvalidInput
 from prepbook.render import files
 from prepbook.render.labels import significant
-from prepbook.render.report_chart import control_chart
+from prepbook.render.report_chart import control_chart, curve_chart
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import RunRecord
+    from prepbook.lab.replicate_sources import RunReadings
     from prepbook.lab.reports import ReportData
 
 PAPERS = ("a4", "letter")
@@ -149,7 +150,8 @@ def _pairs(rows: list[list[Any]], width: float, st: _Styles) -> Any:
     return table
 
 
-def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float) -> list[Any]:
+def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
+                 readings: RunReadings | None = None) -> list[Any]:
     from reportlab.platypus import KeepTogether, Spacer
 
     out: list[Any] = []
@@ -183,6 +185,7 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float) -> l
     out.append(_table(["#.v", amount, "titrant (mL)", "N (eq/L)", "flags", "reason",
                        "recorded by, at (UTC)"], reps,
                       [w * width for w in (0.06, 0.15, 0.1, 0.11, 0.14, 0.2, 0.24)], st))
+    out.extend(_readings_section(readings, st, width))
     out.append(Spacer(1, 4))
     stats = (f"mean N {_num(run.normality, 6)} eq/L at {_text(run.temperature_c)} °C; "
              f"{_num(run.normality_20c, 6)} eq/L at 20 °C; factor "
@@ -218,6 +221,38 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float) -> l
                           [w * width for w in (0.12, 0.18, 0.22, 0.48)], st))
     else:
         out.append(_p("Review: not yet signed.", st.body))
+    return out
+
+
+def _readings_section(readings: RunReadings | None, st: _Styles, width: float) -> list[Any]:
+    """Which readings came from an instrument, and each stored curve with its endpoint."""
+    from reportlab.platypus import KeepTogether, Spacer, Table
+
+    if readings is None or not readings.from_instruments:
+        return []
+    rows = [[f"{r.position}.{r.version}",
+             f"balance {r.balance}, read {r.read_at} UTC" if r.amount_source == "balance"
+             else "typed",
+             _text(r.raw), "curve endpoint" if r.volume_source == "curve" else "typed"]
+            for r in readings.sources]
+    out: list[Any] = [Spacer(1, 4), _p("Where the readings came from", st.small),
+                      _table(["#.v", "mass or aliquot", "line the balance printed (as "
+                              "received)", "titrant volume"], rows,
+                             [w * width for w in (0.06, 0.34, 0.4, 0.2)], st)]
+    typed = {r.position: float(r.volume_ml_text) for r in readings.sources
+             if r.volume_source == "typed"}  # the latest version of each position wins
+    charts = []
+    for c in readings.curves:
+        caption = (f"replicate {c.position}: {c.file_name} ({c.size_bytes} bytes, sha256 "
+                   f"{c.sha256[:12]}...)")
+        charts.append(curve_chart(c.curve, width * 0.49, caption, typed.get(c.position)))
+    if charts:
+        pairs = [charts[i:i + 2] + [""] * (2 - len(charts[i:i + 2]))
+                 for i in range(0, len(charts), 2)]
+        out.append(Spacer(1, 4))
+        out.append(KeepTogether([_p("Recorded titration curves: dashed, the endpoint "
+                                    "prepbook found; dotted, a volume typed instead", st.small),
+                                 Table(pairs, colWidths=[width * 0.5] * 2, hAlign="LEFT")]))
     return out
 
 
@@ -298,7 +333,7 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[
     if not b.runs:
         story.append(_p("None recorded.", st.body))
     for run in b.runs:
-        story.extend(_run_section(run, unit_word, st, width))
+        story.extend(_run_section(run, unit_word, st, width, data.readings.get(run.run)))
 
     story.append(_p("Corrections and reasons", st.h1))
     if data.corrections:

@@ -1,5 +1,6 @@
-"""The report's control chart: every run's concentration at 20 C over time, with its
-U bar and the spec's acceptance window (reportlab.graphics), black on white."""
+"""The report's charts (reportlab.graphics), black on white: the control chart (every
+run's concentration at 20 C over time, with its U bar and the spec's acceptance window)
+and each stored titration curve with its endpoint marked."""
 
 from __future__ import annotations
 
@@ -9,6 +10,7 @@ from typing import TYPE_CHECKING, Any
 from prepbook.render.labels import significant
 
 if TYPE_CHECKING:
+    from prepbook.devices.records import RecordedCurve
     from prepbook.lab.reports import ReportData
 
 
@@ -129,4 +131,53 @@ def control_chart(data: ReportData, width: float, *, detail: bool = False) -> An
                "filled: accepted, square: to review, cross: rejected")
     drawing.add(String(plot.x, plot.y + plot.height + 8, caption, fontName="Helvetica",
                        fontSize=7))
+    return drawing
+
+
+def curve_chart(curve: RecordedCurve, width: float, caption: str,
+                entered_ml: float | None = None) -> Any:
+    """A replicate's recorded titration curve (reading against volume), each endpoint
+    found marked by a dashed vertical line and its volume, and a typed volume
+    (``entered_ml``) by a dotted one, black on white."""
+    from reportlab.graphics.charts.lineplots import LinePlot
+    from reportlab.graphics.shapes import Drawing, Line, String
+    from reportlab.lib import colors
+
+    height = 95.0
+    drawing = Drawing(width, height + 30)
+    plot = LinePlot()
+    plot.x, plot.y = 30, 28
+    plot.width, plot.height = width - 40, height - 12
+    plot.data = [list(zip(curve.volumes_ml, curve.readings, strict=True))]
+    line = plot.lines[0]
+    line.strokeColor = colors.black
+    line.strokeWidth = 0.7
+    low, high = min(curve.readings), max(curve.readings)
+    pad = (high - low) * 0.05 or 1.0
+    plot.yValueAxis.valueMin, plot.yValueAxis.valueMax = low - pad, high + pad
+    plot.xValueAxis.valueMin = curve.volumes_ml[0]
+    plot.xValueAxis.valueMax = curve.volumes_ml[-1]
+    for axis in (plot.xValueAxis, plot.yValueAxis):
+        axis.labels.fontName = "Helvetica"
+        axis.labels.fontSize = 7
+    plot.xValueAxis.labelTextFormat = lambda v: f"{v:g}"
+    plot.yValueAxis.labelTextFormat = lambda v: f"{v:.1f}" if curve.kind == "pH" else f"{v:.0f}"
+    drawing.add(plot)
+    x_span = plot.xValueAxis.valueMax - plot.xValueAxis.valueMin
+    marks: list[tuple[float, str, tuple[float, float], float]] = [
+        (at, f"endpoint {at:.3f} mL", (3, 2), 0.18) for at in curve.endpoints_ml]
+    if entered_ml is not None:
+        marks.append((entered_ml, f"entered {entered_ml:g} mL", (1, 1.5), 0.34))
+    for at, text, dash, height_share in marks:
+        x = plot.x + (at - plot.xValueAxis.valueMin) / x_span * plot.width
+        drawing.add(Line(x, plot.y, x, plot.y + plot.height, strokeColor=colors.black,
+                         strokeWidth=0.6, strokeDashArray=dash))
+        drawing.add(String(x - 3, plot.y + plot.height * height_share, text,
+                           fontName="Helvetica", fontSize=6.5, textAnchor="end"))
+    drawing.add(String(4, plot.y + plot.height + 8, caption, fontName="Helvetica",
+                       fontSize=6.5))
+    drawing.add(String(plot.x + plot.width, plot.y - 18, "titrant (mL)",
+                       fontName="Helvetica", fontSize=6.5, textAnchor="end"))
+    drawing.add(String(plot.x - 4, plot.y + plot.height - 2, curve.kind,
+                       fontName="Helvetica", fontSize=6.5, textAnchor="end"))
     return drawing

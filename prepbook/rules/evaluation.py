@@ -24,6 +24,7 @@ from prepbook.chem import corrections, formula
 from prepbook.chem import standardization as st
 from prepbook.errors import InvalidInput
 from prepbook.rules.acceptance import AcceptanceRules, Check, check_standardization, verdict
+from prepbook.rules.curve_check import CurveEvidence, check_curves
 
 if TYPE_CHECKING:
     from prepbook.catalog.loader import Material, Reaction
@@ -84,6 +85,7 @@ class Judgement:
     instruments: tuple[tuple[str, str, date], ...] = ()  # (code, kind, calibration due)
     balance_readability_g: float | None = None
     indicator: str | None = None  # as typed, or the spec's; None -> the reaction's
+    curves: tuple[CurveEvidence, ...] = ()  # replicates with a recorded curve
 
 
 @dataclass(frozen=True)
@@ -255,7 +257,7 @@ def evaluate(s: Standardization) -> Evaluation:
             indicator=indicator,
             equivalence_ph=eq_ph,
             indicator_range=ind_range,
-        )
+        ) + check_curves(j.curves)
     unc = result.uncertainty
     return Evaluation(
         normality=result.normality,

@@ -377,6 +377,7 @@ def every_table(recorded: tuple[Cli, str, str], tmp_path: Path) -> Cli:
     cli.ok("settings", "set", "lockout_after", "6", "--reason", "lab policy",
            "--passphrase-stdin", user="ada", input="ada-passphrase\n")
     cli.ok("label", batch, "-o", str(tmp_path / "label.pdf"), user="ben")
+    _readings_from_instruments(cli, batch, tmp_path)
     counts = row_counts(cli.db)
     assert all(counts[name] > 0 for name in AUDITED_TABLES), counts
     assert cli.json("audit", "verify")["ok"] is True
@@ -388,8 +389,22 @@ EDITED = {
     "users": "created_by", "materials": "name", "specs": "name", "lots": "certificate",
     "instruments": "capacity_text", "batches": "notes", "runs": "indicator",
     "replicates": "amount_text", "reviews": "reason", "uses": "purpose", "settings": "value",
-    "label_prints": "file_name",
+    "label_prints": "file_name", "instrument_connections": "port",
+    "replicate_sources": "amount_raw", "replicate_curves": "file_name",
 }
+
+
+def _readings_from_instruments(cli: Cli, batch: str, folder: Path) -> None:
+    """A balance connection and a replicate with a stored curve (tests/cli/
+    test_instrument_readings.py reads the balance itself)."""
+    from prepbook.lab.demo_readings import khp_curve
+
+    curve = folder / "curve.csv"
+    curve.write_bytes(khp_curve(0.8085, 0.9998, 0.1003, seed=1))
+    cli.ok("instrument", "connect", "BAL-1", "--port", "socket://127.0.0.1:9", "--profile",
+           "mark-first", user="ben")
+    cli.ok("standardize", batch, "--lot", "KHP-0001", "--at", _at(-1), "--rep",
+           f"0.8085:@{curve}", user="ben")
 
 
 def _copy_of_last_row(name: str) -> str:
@@ -398,9 +413,11 @@ def _copy_of_last_row(name: str) -> str:
     columns = [c.name for c in table.columns if c.name != "id"]
 
     def value(column: str) -> str:
-        if table.c[column].unique:
-            return f"{column} || '-copy'"
-        return f"{column} + 1000" if (name, column) == ("replicates", "version") else column
+        bumped = {("replicates", "version"), ("replicate_curves", "position"),
+                  ("instrument_connections", "version"), ("replicate_sources", "replicate_id")}
+        if (name, column) in bumped:  # whole numbers kept unique
+            return f"{column} + 1000"
+        return f"{column} || '-copy'" if table.c[column].unique else column
 
     listed = ", ".join(f'"{c}"' for c in columns)
     chosen = ", ".join(value(c) for c in columns)

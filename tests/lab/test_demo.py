@@ -72,3 +72,23 @@ def test_demo_refuses_a_server_url_and_writes_nothing(tmp_path: Path) -> None:
     result = cli.refused("demo")
     assert "server URL" in result.stderr
     assert list(tmp_path.iterdir()) == []
+
+
+def test_demo_weighs_on_the_simulated_balance_and_stores_curves(demo_db: Path) -> None:
+    from prepbook.lab import replicate_sources
+    from prepbook.store.engine import open_database
+
+    cli = Cli(demo_db)
+    weighed = [b["batch"] for b in cli.json("status")
+               if any(r.from_instruments for r in
+                      replicate_sources.of_batch(open_database(str(demo_db)),
+                                                 b["batch"]).values())]
+    assert len(weighed) == 1
+    readings = next(iter(replicate_sources.of_batch(open_database(str(demo_db)),
+                                                    weighed[0]).values()))
+    assert [s.amount_source for s in readings.sources] == ["balance"] * 3
+    assert all(s.raw and s.raw.startswith("S ") for s in readings.sources)
+    assert [s.volume_source for s in readings.sources] == ["curve", "typed", "curve"]
+    assert len(readings.curves) == 3
+    run = cli.json("batch", "show", weighed[0])["runs"][0]
+    assert any(c["name"] == "curve-endpoint" and c["passed"] for c in run["checks"])

@@ -48,7 +48,7 @@ def test_history_verifies_and_its_counts_agree(history: tuple[Path, dict[str, in
     # retirements, so nothing reached the database beside the services.
     writes = sum(_count(path, f"SELECT count(*) FROM {t}") for t in (  # noqa: S608
         "users", "materials", "specs", "lots", "instruments", "batches", "runs", "replicates",
-        "reviews", "uses"))
+        "reviews", "uses", "replicate_sources"))
     assert report["events"] == writes + runs + res["retired"]
 
 

@@ -84,6 +84,7 @@ def test_benches_writing_at_once_lose_nothing(backend: str) -> None:
     assert len(set(after["runs"])) == len(after["runs"])
     assert all(n == len(REPS) for n in after["replicates"].values()), after["replicates"]
     assert after["verify"].ok is True, after["verify"].problems
-    # One event per row written: a batch, a run and its replicates, a use.
-    per_round = 1 + 1 + len(REPS) + 1
+    # One event per row written: a batch, a run, its replicates and where each one's
+    # readings came from, a use.
+    per_round = 1 + 1 + 2 * len(REPS) + 1
     assert after["events"] == before["events"] + per_round * len(TECHNICIANS) * ROUNDS

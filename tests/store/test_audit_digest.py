@@ -114,9 +114,10 @@ def _problems(db: Database) -> tuple[str, ...]:
 # --- today's form ------------------------------------------------------------------------
 
 
-def test_only_the_computed_result_of_a_run_is_digested() -> None:
+def test_only_the_computed_result_and_stored_curve_files_are_digested() -> None:
     marked = {name: digested_columns(table) for name, table in AUDITED_TABLES.items()}
-    assert {name: cols for name, cols in marked.items() if cols} == {"runs": ("result_json",)}
+    assert {name: cols for name, cols in marked.items() if cols} == {
+        "runs": ("result_json",), "replicate_curves": ("content",)}
 
 
 def test_a_run_snapshot_holds_the_fingerprint_of_its_result_text(db: Database) -> None:

@@ -14,12 +14,24 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 
 from prepbook.errors import PrepbookError
+from prepbook.render.curve_text import curve_chart, curve_heading, source_lines
 from prepbook.tui import words
 from prepbook.tui.screens.common import run_block, safety, small_table
 from prepbook.tui.widgets import TrendChart, colour, state_cell
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BatchRecord
+    from prepbook.lab.replicate_sources import RunReadings
+
+
+def readings_block(readings: RunReadings | None) -> list[RenderableType]:
+    """Where a run's readings came from, and its stored curves as text charts."""
+    if readings is None or not readings.from_instruments:
+        return []
+    lines = ["  " + line for line in source_lines(readings)]
+    for c in readings.curves:
+        lines += ["  " + curve_heading(c), *("    " + line for line in curve_chart(c.curve))]
+    return [Text("\n".join(lines))]
 
 
 class BatchScreen(Screen[None]):
@@ -39,6 +51,7 @@ class BatchScreen(Screen[None]):
         super().__init__()
         self.code = code
         self.data: BatchRecord | None = None
+        self.readings: dict[str, RunReadings] = {}
         self._events_loaded = False
 
     def compose(self) -> ComposeResult:
@@ -59,7 +72,7 @@ class BatchScreen(Screen[None]):
 
     # -- data -------------------------------------------------------------------------------
     def reload(self) -> None:
-        from prepbook.lab import batches, watch
+        from prepbook.lab import batches, replicate_sources, watch
 
         db = self.app.db  # type: ignore[attr-defined]
         try:
@@ -67,6 +80,7 @@ class BatchScreen(Screen[None]):
         except PrepbookError as exc:
             self.say(str(exc), bad=True)
             return
+        self.readings = replicate_sources.of_batch(db, self.code)
         d = self.data
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "batch  ", (d.batch, "bold"), f"  {d.spec_name}  ",
@@ -125,6 +139,7 @@ class BatchScreen(Screen[None]):
             parts.append(Text("  none yet: press s to record one"))
         for run in reversed(d.runs):  # newest first
             parts.append(run_block(self.app, run, d.unit))
+            parts.extend(readings_block(self.readings.get(run.run)))
             parts.append(Text(""))
         parts.append(Text(f"uses ({len(d.uses)})", style="bold"))
         if d.uses:
