@@ -397,6 +397,79 @@ class LabelPrint(Base):
     shown_json: Mapped[str] = mapped_column(Text)
 
 
+class Assay(Base):
+    """A sample titrated with a batch in service: the sample as entered, the titrant's
+    value taken from its accepted standardization, the result and its uncertainty.
+
+    Exactly one of ``aliquot_ml_text`` (a measured volume of sample) and ``mass_g_text``
+    (a weighed sample) is set. ``run_id`` is the standardization whose normality was
+    used (``titrant_normality_20c`` as it stood then; ``titrant_normality`` at the
+    temperature of use), so a later correction, revocation or drift of that run can be
+    followed to this result without rewriting it. ``use_id`` is the draw of titrant
+    this titration made from the batch. ``result`` is the reported value in
+    ``result_unit`` (a mass concentration, or % w/w for a weighed sample).
+    """
+
+    __tablename__ = "assays"
+    __table_args__ = (
+        CheckConstraint("(aliquot_ml_text IS NULL) <> (mass_g_text IS NULL)",
+                        name="one_amount"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    code: Mapped[str] = mapped_column(unique=True)
+    batch_id: Mapped[int] = mapped_column(ForeignKey("batches.id"), index=True)
+    run_id: Mapped[int] = mapped_column(ForeignKey("runs.id"), index=True)
+    use_id: Mapped[int] = mapped_column(ForeignKey("uses.id"), unique=True)
+    sample: Mapped[str]
+    analyte: Mapped[str]
+    reaction: Mapped[str | None]
+    aliquot_ml_text: Mapped[str | None]
+    mass_g_text: Mapped[str | None]
+    blank_ml_text: Mapped[str]
+    temperature_c_text: Mapped[str]
+    titrant_normality_20c: Mapped[float]
+    titrant_normality: Mapped[float]
+    titrant_u: Mapped[float | None]
+    limit_low_text: Mapped[str | None]
+    limit_high_text: Mapped[str | None]
+    performed_at: Mapped[datetime]
+    recorded_at: Mapped[datetime]
+    analyst: Mapped[str]
+    result: Mapped[float]
+    result_unit: Mapped[str]
+    sd: Mapped[float | None]
+    rsd_percent: Mapped[float | None]
+    u: Mapped[float | None]
+    U: Mapped[float | None] = mapped_column("expanded_u")  # noqa: N815 (the trade's symbol)
+    k: Mapped[float | None]
+    # The whole computed result (statistics, budget, warnings): the audit trail keeps
+    # its fingerprint, the readings and the result in full.
+    result_json: Mapped[str] = mapped_column(Text, info={"audit": "digest"})
+
+    batch: Mapped[Batch] = relationship()
+    run: Mapped[Run] = relationship()
+    replicates: Mapped[list[AssayReplicate]] = relationship(
+        back_populates="assay", order_by="AssayReplicate.position")
+
+
+class AssayReplicate(Base):
+    """One titration of a sample: the titrant volume at the endpoint, as entered."""
+
+    __tablename__ = "assay_replicates"
+    __table_args__ = (
+        UniqueConstraint("assay_id", "position"),
+        CheckConstraint("position >= 1", name="position"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    assay_id: Mapped[int] = mapped_column(ForeignKey("assays.id"), index=True)
+    position: Mapped[int]
+    volume_ml_text: Mapped[str]
+
+    assay: Mapped[Assay] = relationship(back_populates="replicates")
+
+
 # Every table whose rows the audit trail vouches for (all but the trail itself).
 AUDITED_MODELS: tuple[type[Base], ...] = (
     User,
@@ -411,6 +484,8 @@ AUDITED_MODELS: tuple[type[Base], ...] = (
     Use,
     Setting,
     LabelPrint,
+    Assay,
+    AssayReplicate,
 )
 
 
