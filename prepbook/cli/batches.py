@@ -10,6 +10,7 @@ from prepbook.cli import output
 from prepbook.cli.session import actor, database
 
 if TYPE_CHECKING:
+    from prepbook.lab.assays import AssayRow
     from prepbook.lab.batch_records import BatchRecord
 
 app = typer.Typer(
@@ -137,11 +138,32 @@ def show(
     """The whole chain of a batch: preparation, standardizations, replicates, reviews."""
     from prepbook.lab import batches
 
-    b = batches.show_batch(database(ctx), code)
+    from prepbook.lab.assays import assays_of
+
+    db = database(ctx)
+    b = batches.show_batch(db, code)
+    made = assays_of(db, code)
     if as_json:
-        output.emit_json(b)
+        from dataclasses import fields
+
+        output.emit_json({**{f.name: getattr(b, f.name) for f in fields(b)}, "assays": made})
     else:
-        _render_show(output.console(), b)
+        out = output.console()
+        _render_show(out, b)
+        _render_assays(out, made)
+
+
+def _render_assays(out: Any, made: tuple[AssayRow, ...]) -> None:
+    """The sample results made with the batch (``prepbook impact`` recomputes them)."""
+    if not made:
+        return
+    rows = [(a.assay, a.sample, a.analyte, a.performed_at, a.run,
+             output.sig(a.result, 5), a.unit,
+             f"{a.limit_low or '-'} to {a.limit_high or '-'}"
+             if a.limit_low or a.limit_high else "") for a in made]
+    out.print(output.table(f"\nassays: {len(made)}", ["assay", "sample", "analyte", "when",
+                                                       "run", "result", "unit", "limit"],
+                           rows, right=(5,)))
 
 
 @app.command("use")

@@ -14,9 +14,11 @@ from sqlalchemy import and_, or_, select
 
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
+from prepbook.lab.assays import AssayRow
 from prepbook.lab.batch_facts import when
 from prepbook.lab.batch_records import BatchRecord
 from prepbook.lab.common import by_code
+from prepbook.lab.impact import ImpactedAssay
 from prepbook.lab.labels import LabelPrintRow
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, Batch, LabelPrint, Replicate, Review, Run, Use
@@ -76,6 +78,8 @@ class ReportData:
     labels: tuple[LabelPrintRow, ...]  # ``labels.label_prints``
     audit: AuditSummary
     printed_at: str
+    assays: tuple[AssayRow, ...] = ()  # the sample results made with the batch
+    impact: tuple[ImpactedAssay, ...] = ()  # those a changed titrant value puts in question
 
 
 def _reasoned_events(db: Database, code: str) -> tuple[SpecWindow, tuple[ReasonedEvent, ...]]:
@@ -129,4 +133,14 @@ def gather(db: Database, code: str) -> ReportData:
         labels=tuple(labels.label_prints(db, code)),
         audit=AuditSummary(ok=audit.ok, events=audit.events, head_hash=audit.head_hash,
                            problems=audit.problems),
-        printed_at=when(utc_now()))
+        printed_at=when(utc_now()), **_assay_parts(db, code))
+
+
+def _assay_parts(db: Database, code: str) -> dict[str, tuple[object, ...]]:
+    """The report's assays and their impact, read in one transaction."""
+    from prepbook.lab.assays import assay_rows
+    from prepbook.lab.impact import impacted
+
+    with db.session(write=False) as s:
+        batch = by_code(s, Batch, code, "batch")
+        return {"assays": assay_rows(s, batch), "impact": impacted(s, batch)}
