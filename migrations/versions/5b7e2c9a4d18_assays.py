@@ -60,10 +60,10 @@ def upgrade() -> None:
         sa.ForeignKeyConstraint(["use_id"], ["uses.id"], name=op.f("fk_assays_use_id_uses")),
         sa.PrimaryKeyConstraint("id", name=op.f("pk_assays")),
         sa.UniqueConstraint("code", name=op.f("uq_assays_code")),
-        sa.UniqueConstraint("use_id", name=op.f("uq_assays_use_id")),
     )
     op.create_index(op.f("ix_assays_batch_id"), "assays", ["batch_id"], unique=False)
     op.create_index(op.f("ix_assays_run_id"), "assays", ["run_id"], unique=False)
+    op.create_index(op.f("ix_assays_use_id"), "assays", ["use_id"], unique=False)
     op.create_table(
         "assay_replicates",
         sa.Column("id", sa.Integer(), nullable=False),

@@ -137,7 +137,6 @@ def show(
 ) -> None:
     """The whole chain of a batch: preparation, standardizations, replicates, reviews."""
     from prepbook.lab import batches
-
     from prepbook.lab.assays import assays_of
 
     db = database(ctx)

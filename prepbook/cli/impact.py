@@ -10,7 +10,7 @@ from prepbook.cli import output
 from prepbook.cli.session import database
 
 if TYPE_CHECKING:
-    from prepbook.lab.impact import ImpactedAssay
+    from prepbook.lab.assays import ImpactedAssay
 
 
 def new_value(row: ImpactedAssay) -> str:
@@ -45,9 +45,9 @@ def impact(
 ) -> None:
     """Each assay result a corrected, withdrawn or drifted standardization changes: old ->
     new (or its range), the change in % and whether it now crosses the sample's limit."""
-    from prepbook.lab import impact as impact_service
+    from prepbook.lab import assays
 
-    rows = impact_service.impact(database(ctx), batch)
+    rows = assays.impact(database(ctx), batch)
     if as_json:
         output.emit_json(list(rows))
     else:

@@ -16,10 +16,11 @@ from datetime import datetime
 from typing import Any, cast
 
 from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, selectinload
 
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import Reading, parse_datetime, parse_number, parse_text, utc_now
+from prepbook.lab import impact as impact_rules
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import current_normality, when
 from prepbook.lab.common import acting, by_code, not_future, write
@@ -307,3 +308,68 @@ def assays_of(db: Database, code: str) -> tuple[AssayRow, ...]:
     """The assays made with a batch, oldest first."""
     with db.session(write=False) as s:
         return assay_rows(s, by_code(s, Batch, code, "batch"))
+
+
+@dataclass(frozen=True)
+class ImpactedAssay:
+    """One assay result and what the titrant's changed value does to it."""
+
+    assay: str
+    sample: str
+    batch: str
+    run: str
+    performed_at: str
+    unit: str
+    before: float
+    after: float | None  # a corrected value: exact
+    after_low: float | None  # a range: the titrant's true value at use is unknown
+    after_high: float | None
+    change_percent: float | None  # the largest change, signed
+    crosses_limit: bool | None  # None when the sample has no limit
+    limit_low: str | None
+    limit_high: str | None
+    kind: str
+    reason: str
+
+
+
+def _quantified(s: Session, a: Assay, f: impact_rules.Finding, titrant: str) -> ImpactedAssay:
+    """Recompute the assay with the finding's normalities (nothing is written)."""
+    results = []
+    for run_fact in f.runs:
+        run = s.get(Run, run_fact.key)
+        assert run is not None
+        n, u = normality_in_use(run, float(a.temperature_c_text))
+        results.append(reported(compute(inputs_of(a, titrant), n, u))[0])
+    before = a.result
+    limit = Limit(float(a.limit_low_text) if a.limit_low_text else None,
+                  float(a.limit_high_text) if a.limit_high_text else None)
+    change = max((100 * (x - before) / before for x in results), key=abs, default=None)
+    crosses = (None if limit.low is None and limit.high is None or not results
+               else any(limit.side(x) != limit.side(before) for x in results))
+    exact = f.kind == "corrected"
+    return ImpactedAssay(
+        assay=a.code, sample=a.sample, batch=a.batch.code, run=a.run.code,
+        performed_at=when(a.performed_at), unit=a.result_unit, before=before,
+        after=results[0] if exact else None,
+        after_low=min(results) if results and not exact else None,
+        after_high=max(results) if results and not exact else None,
+        change_percent=change, crosses_limit=crosses, limit_low=a.limit_low_text,
+        limit_high=a.limit_high_text, kind=f.kind, reason=f.reason)
+
+
+def impacted(s: Session, batch: Batch) -> tuple[ImpactedAssay, ...]:
+    """The impacted assays of one batch, quantified (inside a service's session)."""
+    view = spec_view.view(batch.spec)
+    runs, assays = impact_rules.facts(s, [batch.id])
+    found = impact_rules.findings(runs.get(batch.id, []), assays.get(batch.id, []),
+                     view.drift_limit_percent)
+    rows = {a.id: a for a in s.scalars(select(Assay).where(Assay.id.in_([f.assay for f in found]))
+                                       .options(selectinload(Assay.replicates)))}
+    return tuple(_quantified(s, rows[f.assay], f, view.solute) for f in found)
+
+
+def impact(db: Database, code: str) -> tuple[ImpactedAssay, ...]:
+    """Every assay result of a batch that its titrant's changed value puts in question."""
+    with db.session(write=False) as s:
+        return impacted(s, by_code(s, Batch, code, "batch"))

@@ -9,16 +9,16 @@ prints of the batch. Drawing the PDF is the edge's work (``prepbook.render.repor
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TypedDict
 
 from sqlalchemy import and_, or_, select
 
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
-from prepbook.lab.assays import AssayRow
+from prepbook.lab.assays import AssayRow, ImpactedAssay
 from prepbook.lab.batch_facts import when
 from prepbook.lab.batch_records import BatchRecord
 from prepbook.lab.common import by_code
-from prepbook.lab.impact import ImpactedAssay
 from prepbook.lab.labels import LabelPrintRow
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, Batch, LabelPrint, Replicate, Review, Run, Use
@@ -136,10 +136,14 @@ def gather(db: Database, code: str) -> ReportData:
         printed_at=when(utc_now()), **_assay_parts(db, code))
 
 
-def _assay_parts(db: Database, code: str) -> dict[str, tuple[object, ...]]:
+class _AssayParts(TypedDict):
+    assays: tuple[AssayRow, ...]
+    impact: tuple[ImpactedAssay, ...]
+
+
+def _assay_parts(db: Database, code: str) -> _AssayParts:
     """The report's assays and their impact, read in one transaction."""
-    from prepbook.lab.assays import assay_rows
-    from prepbook.lab.impact import impacted
+    from prepbook.lab.assays import assay_rows, impacted
 
     with db.session(write=False) as s:
         batch = by_code(s, Batch, code, "batch")

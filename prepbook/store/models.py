@@ -420,7 +420,7 @@ class Assay(Base):
     code: Mapped[str] = mapped_column(unique=True)
     batch_id: Mapped[int] = mapped_column(ForeignKey("batches.id"), index=True)
     run_id: Mapped[int] = mapped_column(ForeignKey("runs.id"), index=True)
-    use_id: Mapped[int] = mapped_column(ForeignKey("uses.id"), unique=True)
+    use_id: Mapped[int] = mapped_column(ForeignKey("uses.id"), index=True)
     sample: Mapped[str]
     analyte: Mapped[str]
     reaction: Mapped[str | None]

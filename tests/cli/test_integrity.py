@@ -377,6 +377,8 @@ def every_table(recorded: tuple[Cli, str, str], tmp_path: Path) -> Cli:
     cli.ok("settings", "set", "lockout_after", "6", "--reason", "lab policy",
            "--passphrase-stdin", user="ada", input="ada-passphrase\n")
     cli.ok("label", batch, "-o", str(tmp_path / "label.pdf"), user="ben")
+    cli.ok("assay", batch, "--sample", "S-1", "--analyte", "HCl", "--aliquot", "25", "--rep",
+           "24.10", user="ben")
     counts = row_counts(cli.db)
     assert all(counts[name] > 0 for name in AUDITED_TABLES), counts
     assert cli.json("audit", "verify")["ok"] is True
@@ -388,7 +390,7 @@ EDITED = {
     "users": "created_by", "materials": "name", "specs": "name", "lots": "certificate",
     "instruments": "capacity_text", "batches": "notes", "runs": "indicator",
     "replicates": "amount_text", "reviews": "reason", "uses": "purpose", "settings": "value",
-    "label_prints": "file_name",
+    "label_prints": "file_name", "assays": "sample", "assay_replicates": "volume_ml_text",
 }
 
 
@@ -400,7 +402,8 @@ def _copy_of_last_row(name: str) -> str:
     def value(column: str) -> str:
         if table.c[column].unique:
             return f"{column} || '-copy'"
-        return f"{column} + 1000" if (name, column) == ("replicates", "version") else column
+        bumped = {("replicates", "version"), ("assay_replicates", "position")}
+        return f"{column} + 1000" if (name, column) in bumped else column
 
     listed = ", ".join(f'"{c}"' for c in columns)
     chosen = ", ".join(value(c) for c in columns)

@@ -170,11 +170,12 @@ class AssayScreen(Screen[None]):
 
     def _result(self, res: AssayResult, title: str) -> Group:
         c = res.computed
-        lines = [
+        lines: list[str | tuple[str, str]] = [
             (f"{title}\n", "bold"),
             f"  sample {res.sample}: ",
             (f"{words.sig(res.result)} {res.unit}", "bold"),
-            f"   RSD {words.sig(c.get('rsd_percent'), 3)} %   n = {len(res.computed.get('replicates') or [])}\n",
+            f"   RSD {words.sig(c.get('rsd_percent'), 3)} %   "
+            f"n = {len(c.get('replicates') or [])}\n",
             f"  u = {words.sig(c.get('u'), 2)}   U = {words.sig(c.get('U'), 2)} "
             f"(k = {words.sig(c.get('k'), 2)})\n",
             f"  titrant {res.batch}: {words.sig(res.titrant_normality)} eq/L at "
@@ -182,7 +183,8 @@ class AssayScreen(Screen[None]):
         ]
         if res.within_limit is not None:
             ok = "within the limit" if res.within_limit else "OUTSIDE the limit"
-            lines.append(("  " + ok + "\n", f"bold {colour(self.app, 'success' if res.within_limit else 'error')}".strip()))
+            tone = colour(self.app, "success" if res.within_limit else "error")
+            lines.append((f"  {ok}\n", f"bold {tone}".strip()))
         notes = Text("".join(f"  note: {w}\n" for w in c.get("warnings") or []))
         return Group(Text.assemble(*lines), notes, Text("uncertainty budget", style="bold"),
                      budget_table(list(c.get("budget") or [])))
