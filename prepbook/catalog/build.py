@@ -12,6 +12,8 @@ from collections.abc import Mapping
 from typing import Any
 
 from prepbook.catalog.models import (
+    Analyte,
+    AnalyteMethod,
     Catalog,
     Hazard,
     Indicator,
@@ -77,6 +79,13 @@ def _spec(own: Mapping[str, Any], defaults: Mapping[str, Any], where: str, ghs: 
     return SpecDefaults(**fields)
 
 
+def _analyte(a: Mapping[str, Any]) -> Analyte:
+    fields = {k: v for k, v in a.items() if k != "method"}
+    fields["methods"] = tuple(AnalyteMethod(**m) for m in a["method"])
+    fields["sources"] = tuple(sorted(a["sources"].items()))
+    return Analyte(**fields)
+
+
 def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:
     """Turn the parsed files (keyed by file name) into a Catalog and its shape problems.
 
@@ -93,5 +102,7 @@ def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:
     specs_file = read["specs.toml"]
     specs = tuple(_spec(own, specs_file["defaults"], f"specs.toml.spec[{i}]", ghs, problems)
                   for i, own in enumerate(specs_file["spec"]))
-    catalog = Catalog(materials, reagents, indicators, specs, ghs.statements, ghs.pictograms)
+    analytes = tuple(_analyte(a) for a in read["analytes.toml"]["analyte"])
+    catalog = Catalog(materials, reagents, indicators, specs, ghs.statements, ghs.pictograms,
+                      analytes)
     return catalog, tuple(problems)

@@ -16,12 +16,14 @@ from typing import Any
 
 from prepbook.catalog.models import (
     ACID_BASE,
+    CONCENTRATION_UNITS,
     INDICATOR_KINDS,
     REACTION_KINDS,
     ROLES,
     SDS_DEFERRAL,
     SIGNAL_WORDS,
     UNITS,
+    Analyte,
     Catalog,
     Hazard,
     Indicator,
@@ -108,23 +110,7 @@ def _check_material(m: Material, cat: Catalog) -> list[str]:
                     out.append(f"{rw}: {t.code} has no reaction {r.titrant_reaction!r}")
                 elif t_rx.kind != r.kind:
                     out.append(f"{rw}: kind {r.kind} but {t.code}'s {t_rx.name} is {t_rx.kind}")
-    if m.acid_base is not None and m.acid_base not in ACID_BASE:
-        out.append(f"{w}: acid_base must be 'acid' or 'base', not {m.acid_base!r}")
-    if m.acid_base is None:
-        if m.pka or m.acid_units is not None or m.initial_protons is not None:
-            out.append(f"{w}: pka/acid_units/initial_protons given without acid_base")
-    else:
-        if m.acid_units is None or m.acid_units < 1:
-            out.append(f"{w}: acid_units must be a whole number >= 1")
-        if m.initial_protons is None or m.initial_protons < 0:
-            out.append(f"{w}: initial_protons must be a whole number >= 0")
-        elif m.pka and m.acid_units and m.initial_protons > m.acid_units * len(m.pka):
-            out.append(
-                f"{w}: initial_protons {m.initial_protons} exceeds the {m.acid_units} x "
-                f"{len(m.pka)} protons its acid system can carry"
-            )
-    if list(m.pka) != sorted(m.pka):
-        out.append(f"{w}: pka values must be in increasing order (most acidic first)")
+    out += _check_acid_base(w, m.acid_base, m.pka, m.acid_units, m.initial_protons)
     if m.density_g_per_cm3 is not None and not m.density_g_per_cm3 > 0:
         out.append(f"{w}: density must be positive")
     needs = {
@@ -266,6 +252,81 @@ def _check_spec(s: SpecDefaults, cat: Catalog) -> list[str]:
     return out + _check_hazard(s.hazard, w)
 
 
+def _check_acid_base(w: str, acid_base: str | None, pka: Sequence[float],
+                     acid_units: int | None, initial_protons: int | None) -> list[str]:
+    """The acid-base fields of a material or an analyte, as the equilibrium model reads them."""
+    out = []
+    if acid_base is not None and acid_base not in ACID_BASE:
+        out.append(f"{w}: acid_base must be 'acid' or 'base', not {acid_base!r}")
+    if acid_base is None:
+        if pka or acid_units is not None or initial_protons is not None:
+            out.append(f"{w}: pka/acid_units/initial_protons given without acid_base")
+    else:
+        if acid_units is None or acid_units < 1:
+            out.append(f"{w}: acid_units must be a whole number >= 1")
+        if initial_protons is None or initial_protons < 0:
+            out.append(f"{w}: initial_protons must be a whole number >= 0")
+        elif pka and acid_units and initial_protons > acid_units * len(pka):
+            out.append(
+                f"{w}: initial_protons {initial_protons} exceeds the {acid_units} x "
+                f"{len(pka)} protons its acid system can carry"
+            )
+    if list(pka) != sorted(pka):
+        out.append(f"{w}: pka values must be in increasing order (most acidic first)")
+    return out
+
+
+def _check_analyte(a: Analyte, cat: Catalog) -> list[str]:
+    w = f"analyte {a.code}"
+    out = []
+    for what, formula in (("formula", a.formula), ("report_as", a.report_as)):
+        reason = _formula_problem(formula) if formula is not None else None
+        if reason:
+            out.append(f"{w}: {what} {formula!r} {reason}")
+    if a.unit not in CONCENTRATION_UNITS:
+        out.append(f"{w}: unit must be one of {CONCENTRATION_UNITS}, not {a.unit!r}")
+    if (a.report_as is None) != (a.report_as_n is None):
+        out.append(f"{w}: report_as and report_as_n go together")
+    if a.report_as_n is not None and not (math.isfinite(a.report_as_n) and a.report_as_n > 0):
+        out.append(f"{w}: report_as_n must be a positive number")
+    out += _check_acid_base(w, a.acid_base, a.pka, a.acid_units, a.initial_protons)
+    if not a.methods:
+        out.append(f"{w}: has no method")
+    names = [lookup_key(m.name) for m in a.methods]
+    if len(set(names)) != len(names):
+        out.append(f"{w}: method names repeat: {[m.name for m in a.methods]}")
+    mats = {m.code: m for m in cat.materials}
+    indicator_names = {lookup_key(i.name) for i in cat.indicators}
+    for m in a.methods:
+        mw = f"{w} method {m.name}"
+        if m.kind not in REACTION_KINDS:
+            out.append(f"{mw}: kind must be one of {REACTION_KINDS}, not {m.kind!r}")
+        if not (math.isfinite(m.n) and m.n > 0):
+            out.append(f"{mw}: n must be a positive number, not {m.n}")
+        if m.kind == "acid-base" and a.acid_base is None:
+            out.append(f"{mw}: an acid-base method needs acid_base on the analyte")
+        if m.indicator and lookup_key(m.indicator) not in indicator_names:
+            out.append(f"{mw}: unknown indicator {m.indicator!r}")
+        for role, code in (("titrant", m.titrant), ("excess_reagent", m.excess_reagent)):
+            if code is not None and code not in mats:
+                out.append(f"{mw}: {role} {code!r} is not a material in the catalog")
+        titrant = mats.get(m.titrant)
+        if titrant is not None:
+            name = m.titrant_reaction
+            t_rx = next((r for r in titrant.reactions if name in (None, r.name)), None)
+            if t_rx is None:
+                out.append(f"{mw}: {titrant.code} has no reaction {name!r}")
+            elif t_rx.kind != m.kind:
+                out.append(f"{mw}: kind {m.kind} but {titrant.code}'s {t_rx.name} is "
+                           f"{t_rx.kind}")
+    needs = {"formula": False, "unit": True, "report_as": a.report_as is not None,
+             "pka": bool(a.pka)}
+    for key, needed in needs.items():
+        if needed and not a.source_of(key):
+            out.append(f"{w}: no source named for {key!r}")
+    return out
+
+
 def check_catalog(cat: Catalog) -> tuple[str, ...]:
     """Every consistency problem in ``cat`` (empty when the catalog is sound).
 
@@ -287,4 +348,7 @@ def check_catalog(cat: Catalog) -> tuple[str, ...]:
         out += _check_indicator(i)
     for s in cat.specs:
         out += _check_spec(s, cat)
+    out += _unique(cat.analytes, "analyte")
+    for a in cat.analytes:
+        out += _check_analyte(a, cat)
     return tuple(out)

@@ -308,6 +308,7 @@ class Catalog:
     specs: tuple[SpecDefaults, ...]
     hazard_statements: Mapping[str, str]
     pictogram_names: Mapping[str, str]
+    analytes: tuple[Analyte, ...] = ()
 
     @functools.cached_property
     def _material_index(self) -> dict[str, Material]:
@@ -336,6 +337,13 @@ class Catalog:
 
     def find_spec(self, code: str) -> SpecDefaults:
         return _lookup(self._spec_index, lambda s: s.code, "solution spec", code)
+
+    @functools.cached_property
+    def _analyte_index(self) -> dict[str, Analyte]:
+        return _index(self.analytes)
+
+    def find_analyte(self, query: str) -> Analyte:
+        return _lookup(self._analyte_index, lambda a: a.code, "analyte", query)
 
 
 # --------------------------------------------------------------------------- pairing
@@ -388,3 +396,95 @@ def reaction_for_pair(
         f"(only for: {names or 'none'}); add one to the catalog to pair them"
     )
 
+
+
+# --------------------------------------------------------------------------- analytes
+
+#: How a liquid sample's result is reported: mass of analyte per volume of sample.
+CONCENTRATION_UNITS = ("g/L", "mg/L", "g/100 mL")
+
+
+@dataclass(frozen=True)
+class AnalyteMethod:
+    """One way of titrating an analyte: the titrant, and ``n`` per mole of the analyte.
+
+    ``n`` counts the analyte's equivalents in the same convention as the titrant's own
+    reaction (protons, electrons, or moles of the 1:1 partner for Ag+ and EDTA), so that
+    equivalents of analyte = equivalents of titrant. ``excess_reagent`` makes it a
+    back-titration: a measured excess of that reagent (a material code) reacts with the
+    analyte and what is left of it is titrated with ``titrant``.
+    """
+
+    name: str
+    kind: str
+    titrant: str
+    n: float
+    description: str
+    equation: str
+    source: str
+    indicator: str | None = None
+    titrant_reaction: str | None = None
+    excess_reagent: str | None = None
+
+    @property
+    def is_back_titration(self) -> bool:
+        return self.excess_reagent is not None
+
+
+@dataclass(frozen=True)
+class Analyte:
+    """What a sample is titrated for, with the ways of titrating it.
+
+    ``unit`` is how the trade reports a liquid sample's result (g/L, mg/L, g/100 mL);
+    ``report_as`` names a formula the result is expressed as (total alkalinity and
+    hardness "as CaCO3"), with ``report_as_n`` its equivalents per mole in the methods'
+    convention. The acid-base fields are those of ``Material`` (for the equivalence pH).
+    """
+
+    code: str
+    name: str
+    formula: str
+    aliases: tuple[str, ...]
+    unit: str
+    methods: tuple[AnalyteMethod, ...]
+    report_as: str | None = None
+    report_as_n: float | None = None
+    acid_base: str | None = None
+    pka: tuple[float, ...] = ()
+    acid_units: int | None = None
+    initial_protons: int | None = None
+    note: str = ""
+    sources: tuple[tuple[str, str], ...] = ()
+
+    @property
+    def lookup_names(self) -> tuple[str, ...]:
+        """What finds it: code, name and aliases (a formula such as Cl is an alias)."""
+        return (self.code, self.name, *self.aliases)
+
+    def source_of(self, field_name: str) -> str | None:
+        """Where the value of ``field_name`` came from, or None if not recorded."""
+        return dict(self.sources).get(field_name)
+
+
+def method_for(analyte: Analyte, titrant: Material, name: str | None = None) -> AnalyteMethod:
+    """The analyte's method with ``titrant`` (its ``name`` when given).
+
+    A method written for this titrant wins; otherwise an acid-base method serves any
+    strong titrant of the opposite nature (acetic acid with potassium or barium hydroxide
+    as with sodium hydroxide: n of the analyte does not depend on which strong base).
+    Anything else is refused, naming the methods the analyte has.
+    """
+    named = [m for m in analyte.methods
+             if name is None or lookup_key(m.name) == lookup_key(name)]
+    exact = [m for m in named if m.titrant == titrant.code]
+    if exact:
+        return exact[0]
+    kind = titrant.reactions[0].kind if titrant.reactions else None
+    if (kind == "acid-base" and analyte.acid_base is not None
+            and titrant.acid_base is not None and analyte.acid_base != titrant.acid_base):
+        for m in named:
+            if m.kind == "acid-base" and m.excess_reagent is None:
+                return m
+    have = "; ".join(f"{m.name} (titrant {m.titrant})" for m in analyte.methods)
+    wanted = f" {name!r}" if name else ""
+    raise NotFound(f"{analyte.name} has no method{wanted} with {titrant.code}; it has: {have}")

@@ -1,6 +1,6 @@
 """Reading the data files: their bytes, their TOML, and the parsed copy beside them.
 
-``data/parsed.json`` holds the five files as tomllib parses them, with each file's
+``data/parsed.json`` holds the data files as tomllib parses them, with each file's
 length and CRC-32. tomllib is pure Python, and parsing the files costs more than
 ``calc normality`` computes; JSON is parsed in C. The copy is used only while the
 digest it records equals the digest of the files as they are now, so an edited file (a
@@ -19,7 +19,8 @@ from typing import Any
 from prepbook.catalog.models import CatalogDataError
 
 #: The data files, in the order they are read and digested.
-FILES = ("ghs.toml", "materials.toml", "reagents.toml", "indicators.toml", "specs.toml")
+FILES = ("ghs.toml", "materials.toml", "reagents.toml", "indicators.toml", "specs.toml",
+         "analytes.toml")
 
 #: The data files as parsed, beside them: ``{"digest": ..., "files": {name: parsed}}``.
 PARSED_COPY = "parsed.json"

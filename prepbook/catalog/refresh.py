@@ -45,11 +45,11 @@ from prepbook.catalog.shape import json_schema
 from prepbook.chem.formula import PRECOMPUTED, molar_mass_live
 
 ABOUT = [
-    "Molar masses of the packaged catalog's formulas (materials, then reagents), computed by",
+    "Molar masses of the packaged catalog's formulas (materials, reagents, analytes), computed by",
     "prepbook.chem.formula from periodictable: CIAAW 2021 abridged standard atomic weights,",
     "u from each element's half-width taken as rectangular (EURACHEM/CITAC CG4, Example A2).",
     "GENERATED: do not edit. Run `python -m prepbook.catalog.refresh` after changing a formula",
-    "in materials.toml or reagents.toml, or after upgrading periodictable;",
+    "in materials.toml, reagents.toml or analytes.toml, or after upgrading periodictable;",
     "tests/catalog/test_molar_mass_table.py fails while this file differs from periodictable.",
 ]
 
@@ -60,7 +60,8 @@ def catalog_formulas() -> tuple[str, ...]:
     if problems:
         raise CatalogDataError("the catalog data has problems:\n  " + "\n  ".join(problems))
     return tuple(dict.fromkeys([*(m.formula for m in cat.materials),
-                                *(g.formula for g in cat.reagents)]))
+                                *(g.formula for g in cat.reagents),
+                                *(a.formula for a in cat.analytes)]))
 
 
 def render() -> str:

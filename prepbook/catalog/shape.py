@@ -23,6 +23,7 @@ from typing import Any
 
 from prepbook.catalog.models import (
     ACID_BASE,
+    CONCENTRATION_UNITS,
     INDICATOR_KINDS,
     REACTION_KINDS,
     ROLES,
@@ -259,6 +260,42 @@ SPEC = Table("solution spec", {
     "sources": Field(TEXT_MAP, {}, _SOURCE, keys=tuple(_SPEC_FIELDS)),
 })
 
+ANALYTE_METHOD = Table("a way of titrating the analyte", {
+    "name": Field(TEXT),
+    "kind": Field(TEXT, choices=REACTION_KINDS),
+    "titrant": Field(TEXT, doc="the titrant (material code)"),
+    "n": Field(NUMBER, doc="equivalents per mole of the analyte, in the titrant's convention"),
+    "description": Field(TEXT),
+    "equation": Field(TEXT, doc="balanced ionic equation"),
+    "source": Field(TEXT, doc=_SOURCE),
+    "indicator": Field(TEXT, None, "an indicator's name from indicators.toml"),
+    "titrant_reaction": Field(TEXT, None, "the titrant's reaction, when not its primary one"),
+    "excess_reagent": Field(TEXT, None, "back-titration: the reagent added in measured "
+                            "excess (material code); the titrant measures what is left"),
+})
+
+#: The fields of an analyte whose value must name its source in ``sources``.
+ANALYTE_SOURCE_KEYS = ("formula", "unit", "report_as", "pka", "acid_units",
+                       "initial_protons")
+
+ANALYTE = Table("analyte (what a sample is titrated for)", {
+    "code": Field(TEXT),
+    "name": Field(TEXT),
+    "formula": Field(TEXT, doc="the species whose mass is reported"),
+    "aliases": Field(TEXTS, ()),
+    "unit": Field(TEXT, doc="how a liquid sample's result is reported",
+                  choices=CONCENTRATION_UNITS),
+    "method": Field(TABLES, (), "the first is the default", table=ANALYTE_METHOD),
+    "report_as": Field(TEXT, None, "a formula the result is expressed as, e.g. CaCO3"),
+    "report_as_n": Field(NUMBER, None, "equivalents per mole of report_as"),
+    "acid_base": Field(TEXT, None, "what the analyte acts as", choices=ACID_BASE),
+    "pka": Field(NUMBERS, (), "weak steps of its conjugate acid system, most acidic first"),
+    "acid_units": Field(WHOLE, None, "acid-base units per formula unit"),
+    "initial_protons": Field(WHOLE, None, "protons the analyte carries as it is in the sample"),
+    "note": Field(TEXT, ""),
+    "sources": Field(TEXT_MAP, {}, _SOURCE, keys=ANALYTE_SOURCE_KEYS),
+})
+
 FILES: dict[str, Table] = {
     "ghs.toml": Table("GHS wording", {
         "source": Field(TEXT, doc=_SOURCE),
@@ -275,6 +312,7 @@ FILES: dict[str, Table] = {
         "spec": Field(TABLES, (), "fields left out come from [defaults]",
                       table=SPEC.optional()),
     }),
+    "analytes.toml": Table("analytes", {"analyte": Field(TABLES, (), table=ANALYTE)}),
 }
 
 

@@ -18,6 +18,7 @@ from pathlib import Path
 import pytest
 
 from prepbook.catalog import materials, reagents, refresh
+from prepbook.catalog.loader import analytes
 from prepbook.chem import formula
 
 
@@ -27,7 +28,8 @@ def test_the_file_is_what_periodictable_gives_now() -> None:
 
 
 def test_the_table_holds_exactly_the_catalogs_formulas() -> None:
-    wanted = {m.formula for m in materials()} | {g.formula for g in reagents()}
+    wanted = ({m.formula for m in materials()} | {g.formula for g in reagents()}
+              | {a.formula for a in analytes()})
     assert set(formula.precomputed()) == wanted
 
 
