@@ -16,18 +16,15 @@ if TYPE_CHECKING:
 def render_result(out: Any, res: AssayResult) -> None:
     """The result, its uncertainty and the limit, for a person to read."""
     c = res.computed
-    U = c.get("U")
     line = f"[bold]{output.sig(res.result, 5)} {output.escape(res.unit)}[/bold]"
-    if U is not None:
-        scale = res.result / c["concentration"]["value"] \
-            if res.unit != "% w/w" and c.get("concentration", {}).get("value") else None
-        if res.unit == "% w/w" or scale is None:
-            line += f" (U = {output.sig(U, 2)} in the core's unit, k = {c.get('k')})"
-        else:
-            line += f" +/- {output.sig(U * scale, 2)} (k = {c.get('k')})"
+    concentration = c.get("concentration") or {}
+    if concentration.get("as"):
+        line += f" as {output.escape(concentration['as'])}"
+    if c.get("U") is not None:
+        line += f", U = {output.sig(c['U'], 2)} (k = {c['k']:g})"
     if c.get("rsd_percent") is not None:
         line += f", RSD {output.fixed(c['rsd_percent'], 3)} %"
-    out.print(line)
+    out.print(line + f", n = {len(c.get('replicates') or [])}")
     out.print(f"titrant {res.batch}: {output.sig(res.titrant_normality, 5)} eq/L at "
               f"{res.temperature_c:g} C (standardization {res.run})")
     if res.within_limit is not None:
@@ -52,8 +49,9 @@ def assay(
     rep: list[str] = typer.Option(
         None, "--rep", metavar="VOL", help="Titrant volume at the endpoint, mL. Repeat."
     ),
-    reaction: str = typer.Option(
-        None, "--reaction", metavar="NAME", help="The analyte's reaction, if not its default."
+    method: str = typer.Option(
+        None, "--method", metavar="NAME",
+        help="The analyte's method (reaction) in the catalog, if not its first."
     ),
     blank: str = typer.Option("0", "--blank", metavar="ML", help="Blank titration volume, mL."),
     temp: str = typer.Option("20", "--temp", metavar="C", help="Temperature of the titrant, C."),
@@ -71,7 +69,7 @@ def assay(
 
     res = assays.assay(database(ctx), actor=actor(ctx), batch=batch, sample=sample,
                        analyte=analyte, replicates=list(rep or []), aliquot=aliquot, mass=mass,
-                       reaction=reaction, blank=blank, temperature=temp, limit=limit, at=at)
+                       reaction=method, blank=blank, temperature=temp, limit=limit, at=at)
     if as_json:
         output.emit_json(res)
         return

@@ -13,7 +13,7 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass
 from datetime import datetime
-from typing import Any, cast
+from typing import TYPE_CHECKING, Any, cast
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session, selectinload
@@ -27,6 +27,9 @@ from prepbook.lab.common import acting, by_code, not_future, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Assay, AssayReplicate, Batch, Run, Use
+
+if TYPE_CHECKING:
+    from prepbook.chem.sample import SampleResult
 
 
 @dataclass(frozen=True)
@@ -62,32 +65,44 @@ class Limit:
         return 0
 
 
-def compute(inputs: SampleInputs, normality: float, normality_u: float | None) -> Any:
-    """The chemistry core's result for this sample with this titrant normality (eq/L)."""
-    from prepbook.chem import sample as chem_sample
+def compute(inputs: SampleInputs, normality: float, normality_u: float | None
+            ) -> SampleResult:
+    """The chemistry core's result for this sample with this titrant normality (eq/L) and
+    its standard uncertainty."""
+    from prepbook.catalog import loader
+    from prepbook.chem.sample import Solution, sample_result
 
-    return chem_sample.sample_result(
-        analyte=inputs.analyte, reaction=inputs.reaction, titrant=inputs.titrant,
-        normality=normality, normality_u=normality_u, aliquot_ml=inputs.aliquot_ml,
-        mass_g=inputs.mass_g, volumes_ml=list(inputs.volumes_ml), blank_ml=inputs.blank_ml)
+    way = loader.analyte_titration(inputs.analyte, inputs.titrant, inputs.reaction)
+    if way.excess_reagent is not None:
+        raise InvalidInput(f"{way.analyte.name} by {way.method.name} is a back-titration; "
+                           "an assay records direct titrations only")
+    titrant = Solution(name=inputs.titrant, normality=normality, U=normality_u, k=1.0,
+                       n_eq_per_mol=way.titrant_n_eq_per_mol)
+    mass = inputs.mass_g is not None
+    amount = inputs.mass_g if mass else inputs.aliquot_ml
+    assert amount is not None
+    return sample_result(way.computed, titrant, [amount], list(inputs.volumes_ml),
+                         sample_is_mass=mass, blank_ml=inputs.blank_ml)
 
 
-def reported(result: Any) -> tuple[float, str]:
-    """The value a sample's result is reported as, and its unit: the mass fraction of a
-    weighed sample, else the mass concentration."""
-    if result.mass_fraction_percent is not None:
-        return float(result.mass_fraction_percent), "% w/w"
-    return float(result.concentration.value), str(result.concentration.unit)
-
-
-def result_json(result: Any) -> dict[str, Any]:
-    """The JSON of the chemistry core's result (the keys of `calc sample`)."""
-    to_json = getattr(result, "to_json", None)
-    if to_json is not None:
-        return cast(dict[str, Any], to_json())
+def sample_json(result: SampleResult) -> dict[str, Any]:
+    """A sample's result with the keys of `calc sample` (DESIGN section 7)."""
     from dataclasses import asdict
 
-    return asdict(result)
+    stats, unc = result.stats, result.uncertainty
+    warnings = [*unc.notes]
+    if stats.outlier is not None:
+        warnings.append(f"replicate {stats.outlier.index} is an outlier by Grubbs' test "
+                        "(kept: exclude it only with a reason)")
+    return {
+        "normality": result.normality, "molarity": result.molarity,
+        "concentration": None if result.concentration is None else {
+            "value": result.concentration, "unit": result.unit, "as": result.reported_as},
+        "mass_fraction_percent": result.mass_fraction_percent,
+        "replicates": [asdict(r) for r in result.replicates],
+        "sd": stats.sd, "rsd_percent": stats.rsd_percent, "u": unc.u, "U": unc.U, "k": unc.k,
+        "budget": [asdict(line) for line in unc.budget], "warnings": warnings,
+    }
 
 
 @dataclass(frozen=True)
@@ -213,7 +228,7 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             volumes_ml=tuple(v.value for v in volumes), blank_ml=blank_r.value)
         n_use, u_use = normality_in_use(run, temp.value)
         computed = compute(inputs, n_use, u_use)
-        value, unit = reported(computed)
+        value, unit = computed.value, computed.unit
         lim = Limit(low.value if low else None, high.value if high else None)
         result = AssayResult(
             assay=None, batch=b.code, sample=sample_id, run=run.code, titrant_normality=n_use,
@@ -221,7 +236,7 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             limit_high=lim.high,
             within_limit=None if low is None and high is None else lim.side(value) == 0,
             performed_at=when(performed_at), analyst=user.name,
-            computed=result_json(computed))
+            computed=sample_json(computed))
         if not record:
             return result
         code = _next_code(s, performed_at)
@@ -239,8 +254,8 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             titrant_u=u_use, limit_low_text=low.text if low else None,
             limit_high_text=high.text if high else None, performed_at=performed_at,
             recorded_at=utc_now(), analyst=user.name, result=value, result_unit=unit,
-            sd=_number(computed, "sd"), rsd_percent=_number(computed, "rsd_percent"),
-            u=_number(computed, "u"), U=_number(computed, "U"), k=_number(computed, "k"),
+            sd=computed.stats.sd, rsd_percent=computed.stats.rsd_percent,
+            u=computed.u, U=computed.U, k=computed.uncertainty.k,
             result_json=json.dumps(result.computed, sort_keys=True, default=str))
         write(s, user.name, "assay.record", row, performed_at=performed_at)
         for pos, v in enumerate(volumes, start=1):
@@ -248,11 +263,6 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
                 assay_id=row.id, position=pos, volume_ml_text=v.text),
                 performed_at=performed_at)
         return AssayResult(**{**result.__dict__, "assay": code})
-
-
-def _number(result: Any, name: str) -> float | None:
-    value = getattr(result, name, None)
-    return float(value) if value is not None else None
 
 
 def _total_text(volumes: list[Reading]) -> str:
@@ -340,7 +350,7 @@ def _quantified(s: Session, a: Assay, f: impact_rules.Finding, titrant: str) -> 
         run = s.get(Run, run_fact.key)
         assert run is not None
         n, u = normality_in_use(run, float(a.temperature_c_text))
-        results.append(reported(compute(inputs_of(a, titrant), n, u))[0])
+        results.append(compute(inputs_of(a, titrant), n, u).value)
     before = a.result
     limit = Limit(float(a.limit_low_text) if a.limit_low_text else None,
                   float(a.limit_high_text) if a.limit_high_text else None)
