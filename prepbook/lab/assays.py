@@ -22,7 +22,7 @@ from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import Reading, parse_datetime, parse_number, parse_text, utc_now
 from prepbook.lab import impact as impact_rules
 from prepbook.lab import specs as spec_view
-from prepbook.lab.batch_facts import current_normality, when
+from prepbook.lab.batch_facts import when
 from prepbook.lab.common import acting, by_code, not_future, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
@@ -218,8 +218,7 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             raise Refused(f"batch {b.code} is {life.state} and may not be used")
         if performed_at < b.made_at:
             raise InvalidInput("the assay cannot be before the batch was made")
-        _, run = current_normality(s, b)
-        assert run is not None, "a batch in service has an accepted standardization"
+        run = _run_in_force(s, b, performed_at)
         titrant = spec_view.view(b.spec).solute
         inputs = SampleInputs(
             analyte=analyte, reaction=reaction, titrant=titrant,
@@ -263,6 +262,18 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
                 assay_id=row.id, position=pos, volume_ml_text=v.text),
                 performed_at=performed_at)
         return AssayResult(**{**result.__dict__, "assay": code})
+
+
+def _run_in_force(s: Session, batch: Batch, at: datetime) -> Run:
+    """The batch's latest accepted standardization made before ``at`` (an assay typed in
+    later takes the value that was in force when it was titrated)."""
+    run = s.scalars(select(Run).where(Run.batch_id == batch.id, Run.status == "accepted",
+                                      Run.performed_at <= at)
+                    .order_by(Run.performed_at.desc(), Run.id.desc()).limit(1)).first()
+    if run is None or run.normality_20c is None:
+        raise Refused(f"batch {batch.code} had no accepted standardization before "
+                      f"{at:%Y-%m-%d %H:%M}")
+    return run
 
 
 def _total_text(volumes: list[Reading]) -> str:
