@@ -368,14 +368,15 @@ def _assay_section(data: ReportData, st: _Styles, width: float) -> list[Any]:
         return story
     rows = []
     for r in data.impact:
-        now = (_num(r.after, 5) if r.after is not None else
-               f"{_num(r.after_low, 5)} to {_num(r.after_high, 5)}"
+        now = (f"{_num(r.after, 5)} {r.unit}" if r.after is not None else
+               f"{_num(r.after_low, 5)} to {_num(r.after_high, 5)} {r.unit}"
                if r.after_low is not None else "unknown")
         crosses = "-" if r.crosses_limit is None else ("CROSSES" if r.crosses_limit else "no")
         rows.append([r.assay, r.sample, f"{_num(r.before, 5)} {r.unit}", now,
-                     _fixed(r.change_percent, 2), crosses, r.reason])
-    story.append(_table(["assay", "sample", "recorded", "now", "change %", "limit", "why"],
-                        rows, [w * width for w in (0.1, 0.1, 0.14, 0.16, 0.08, 0.09, 0.33)],
+                     "-" if r.change_percent is None else f"{r.change_percent:+.2f} %",
+                     crosses, r.reason])
+    story.append(_table(["assay", "sample", "recorded", "now", "change", "limit", "why"],
+                        rows, [w * width for w in (0.11, 0.13, 0.14, 0.17, 0.08, 0.08, 0.29)],
                         st))
     return story
 
