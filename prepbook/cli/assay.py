@@ -64,7 +64,7 @@ def assay(
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
-    """Titrate a sample with a batch in service: the result is recorded, and so is the use."""
+    """Titrate a sample with a batch in service and record its result (and the use)."""
     from prepbook.lab import assays
 
     res = assays.assay(database(ctx), actor=actor(ctx), batch=batch, sample=sample,

@@ -43,8 +43,11 @@ def impact(
     batch: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
-    """Each assay result a corrected, withdrawn or drifted standardization changes: old ->
-    new (or its range), the change in % and whether it now crosses the sample's limit."""
+    """The sample results a corrected, withdrawn or drifted titrant value changes, recomputed.
+
+    Each result old -> new (or its range when the titrant's true value at the time of use
+    is unknown), the change in % and whether it now crosses the sample's limit.
+    """
     from prepbook.lab import assays
 
     rows = assays.impact(database(ctx), batch)

@@ -224,3 +224,20 @@ def test_an_unknown_batch_or_analyte_is_refused(lab, counts) -> None:
                 "25", "--rep", "24.1", user="ben")
     cli.refused("impact", "NO-SUCH")
     assert counts(cli.db) == before
+
+
+def test_export_assays_keeps_the_readings_as_typed(lab, tmp_path) -> None:
+    import csv
+
+    cli, batch, (r1, _), (a1, _, _) = lab
+    _assay(cli, batch, -4, "=1+2")
+    out = tmp_path / "assays.csv"
+    cli.ok("export", "assays", "--format", "csv", "-o", str(out))
+    with out.open(encoding="utf-8", newline="") as f:
+        rows = list(csv.DictReader(f))
+    assert len(rows) == 4
+    first = rows[0]
+    assert first["assay"] == a1["assay"] and first["run"] == r1
+    assert first["titrant_volumes_ml"] == ";".join(VOLUMES)
+    assert float(first["result"]) == a1["result"] and first["result_unit"] == "g/L"
+    assert rows[-1]["sample"] == "'=1+2"  # a formula-looking ID is made inert
