@@ -17,6 +17,7 @@ from prepbook.catalog.models import (
     Catalog,
     Hazard,
     Indicator,
+    Ion,
     Material,
     Reaction,
     Reagent,
@@ -103,6 +104,7 @@ def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:
     specs = tuple(_spec(own, specs_file["defaults"], f"specs.toml.spec[{i}]", ghs, problems)
                   for i, own in enumerate(specs_file["spec"]))
     analytes = tuple(_analyte(a) for a in read["analytes.toml"]["analyte"])
+    ions = tuple(Ion(**i) for i in read["ions.toml"]["ion"])
     catalog = Catalog(materials, reagents, indicators, specs, ghs.statements, ghs.pictograms,
-                      analytes)
+                      analytes, ions)
     return catalog, tuple(problems)

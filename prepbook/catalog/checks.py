@@ -27,6 +27,7 @@ from prepbook.catalog.models import (
     Catalog,
     Hazard,
     Indicator,
+    Ion,
     Material,
     Reagent,
     SpecDefaults,
@@ -70,6 +71,19 @@ def _check_hazard(h: Hazard, where: str) -> list[str]:
     return out
 
 
+def _check_step(where: str, kind: str, n: float, indicator: str | None,
+                indicator_names: set[str]) -> list[str]:
+    """A reaction's or a method's kind, n and indicator."""
+    out = []
+    if kind not in REACTION_KINDS:
+        out.append(f"{where}: kind must be one of {REACTION_KINDS}, not {kind!r}")
+    if not (math.isfinite(n) and n > 0):
+        out.append(f"{where}: n must be a positive number, not {n}")
+    if indicator and lookup_key(indicator) not in indicator_names:
+        out.append(f"{where}: unknown indicator {indicator!r}")
+    return out
+
+
 def _check_material(m: Material, cat: Catalog) -> list[str]:
     w = f"material {m.code}"
     out = []
@@ -86,12 +100,7 @@ def _check_material(m: Material, cat: Catalog) -> list[str]:
     indicator_names = {lookup_key(i.name) for i in cat.indicators}
     for r in m.reactions:
         rw = f"{w} reaction {r.name}"
-        if r.kind not in REACTION_KINDS:
-            out.append(f"{rw}: kind must be one of {REACTION_KINDS}, not {r.kind!r}")
-        if not (math.isfinite(r.n) and r.n > 0):
-            out.append(f"{rw}: n must be a positive number, not {r.n}")
-        if r.indicator and lookup_key(r.indicator) not in indicator_names:
-            out.append(f"{rw}: unknown indicator {r.indicator!r}")
+        out += _check_step(rw, r.kind, r.n, r.indicator, indicator_names)
         if r.kind == "acid-base" and m.acid_base is None:
             out.append(f"{rw}: an acid-base reaction needs acid_base on the material")
         if m.is_primary_standard and not r.titrant:
@@ -276,7 +285,8 @@ def _check_acid_base(w: str, acid_base: str | None, pka: Sequence[float],
     return out
 
 
-def _check_analyte(a: Analyte, cat: Catalog) -> list[str]:
+def _check_analyte(a: Analyte, mats: dict[str, Material],
+                   indicator_names: set[str]) -> list[str]:
     w = f"analyte {a.code}"
     out = []
     for what, formula in (("formula", a.formula), ("report_as", a.report_as)):
@@ -295,18 +305,11 @@ def _check_analyte(a: Analyte, cat: Catalog) -> list[str]:
     names = [lookup_key(m.name) for m in a.methods]
     if len(set(names)) != len(names):
         out.append(f"{w}: method names repeat: {[m.name for m in a.methods]}")
-    mats = {m.code: m for m in cat.materials}
-    indicator_names = {lookup_key(i.name) for i in cat.indicators}
     for m in a.methods:
         mw = f"{w} method {m.name}"
-        if m.kind not in REACTION_KINDS:
-            out.append(f"{mw}: kind must be one of {REACTION_KINDS}, not {m.kind!r}")
-        if not (math.isfinite(m.n) and m.n > 0):
-            out.append(f"{mw}: n must be a positive number, not {m.n}")
+        out += _check_step(mw, m.kind, m.n, m.indicator, indicator_names)
         if m.kind == "acid-base" and a.acid_base is None:
             out.append(f"{mw}: an acid-base method needs acid_base on the analyte")
-        if m.indicator and lookup_key(m.indicator) not in indicator_names:
-            out.append(f"{mw}: unknown indicator {m.indicator!r}")
         for role, code in (("titrant", m.titrant), ("excess_reagent", m.excess_reagent)):
             if code is not None and code not in mats:
                 out.append(f"{mw}: {role} {code!r} is not a material in the catalog")
@@ -324,6 +327,18 @@ def _check_analyte(a: Analyte, cat: Catalog) -> list[str]:
     for key, needed in needs.items():
         if needed and not a.source_of(key):
             out.append(f"{w}: no source named for {key!r}")
+    return out
+
+
+def _check_ion(i: Ion) -> list[str]:
+    w = f"ion {i.name}"
+    out = []
+    if i.charge == 0:
+        out.append(f"{w}: charge must not be zero")
+    if list(i.pka) != sorted(i.pka):
+        out.append(f"{w}: pka values must be in increasing order (most acidic first)")
+    if not 0 <= i.protons <= len(i.pka):
+        out.append(f"{w}: protons must lie between 0 and its {len(i.pka)} pka steps")
     return out
 
 
@@ -349,6 +364,11 @@ def check_catalog(cat: Catalog) -> tuple[str, ...]:
     for s in cat.specs:
         out += _check_spec(s, cat)
     out += _unique(cat.analytes, "analyte")
+    mats = {m.code: m for m in cat.materials}
+    indicator_names = {lookup_key(i.name) for i in cat.indicators}
     for a in cat.analytes:
-        out += _check_analyte(a, cat)
+        out += _check_analyte(a, mats, indicator_names)
+    out += _unique(cat.ions, "ion")
+    for ion in cat.ions:
+        out += _check_ion(ion)
     return tuple(out)

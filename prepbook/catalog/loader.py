@@ -31,6 +31,7 @@ from prepbook.catalog.models import (
     CatalogDataError,
     Hazard,
     Indicator,
+    Ion,
     Material,
     Reaction,
     Reagent,
@@ -70,6 +71,7 @@ __all__ = [
     "analyte_titration",
     "analytes",
     "find_analyte",
+    "find_ion",
     "load_catalog",
     "materials",
     "method_for",
@@ -149,6 +151,11 @@ def analytes() -> tuple[Analyte, ...]:
 def find_analyte(query: str) -> Analyte:
     """An analyte by code, name or alias (case- and whitespace-insensitive)."""
     return catalog().find_analyte(query)
+
+
+def find_ion(query: str) -> Ion:
+    """An ion by name, formula or alias (case- and whitespace-insensitive)."""
+    return catalog().find_ion(query)
 
 
 @dataclass(frozen=True)

@@ -309,6 +309,7 @@ class Catalog:
     hazard_statements: Mapping[str, str]
     pictogram_names: Mapping[str, str]
     analytes: tuple[Analyte, ...] = ()
+    ions: tuple[Ion, ...] = ()
 
     @functools.cached_property
     def _material_index(self) -> dict[str, Material]:
@@ -344,6 +345,13 @@ class Catalog:
 
     def find_analyte(self, query: str) -> Analyte:
         return _lookup(self._analyte_index, lambda a: a.code, "analyte", query)
+
+    @functools.cached_property
+    def _ion_index(self) -> dict[str, Ion]:
+        return _index(self.ions)
+
+    def find_ion(self, query: str) -> Ion:
+        return _lookup(self._ion_index, lambda i: i.name, "ion", query)
 
 
 # --------------------------------------------------------------------------- pairing
@@ -488,3 +496,23 @@ def method_for(analyte: Analyte, titrant: Material, name: str | None = None) -> 
     have = "; ".join(f"{m.name} (titrant {m.titrant})" for m in analyte.methods)
     wanted = f" {name!r}" if name else ""
     raise NotFound(f"{analyte.name} has no method{wanted} with {titrant.code}; it has: {have}")
+
+
+@dataclass(frozen=True)
+class Ion:
+    """An ion for a salt's pH: its charge and acid/base system (``pka`` empty for a
+    spectator), with ``protons`` it carries counted from the system's fully deprotonated
+    member."""
+
+    name: str
+    formula: str
+    charge: int
+    source: str
+    aliases: tuple[str, ...] = ()
+    pka: tuple[float, ...] = ()
+    protons: int = 0
+
+    @property
+    def lookup_names(self) -> tuple[str, ...]:
+        """What finds it: name, formula and aliases."""
+        return (self.name, self.formula, *self.aliases)

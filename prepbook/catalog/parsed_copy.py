@@ -20,7 +20,7 @@ from prepbook.catalog.models import CatalogDataError
 
 #: The data files, in the order they are read and digested.
 FILES = ("ghs.toml", "materials.toml", "reagents.toml", "indicators.toml", "specs.toml",
-         "analytes.toml")
+         "analytes.toml", "ions.toml")
 
 #: The data files as parsed, beside them: ``{"digest": ..., "files": {name: parsed}}``.
 PARSED_COPY = "parsed.json"

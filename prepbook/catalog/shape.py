@@ -296,6 +296,16 @@ ANALYTE = Table("analyte (what a sample is titrated for)", {
     "sources": Field(TEXT_MAP, {}, _SOURCE, keys=ANALYTE_SOURCE_KEYS),
 })
 
+ION = Table("ion (for the pH of a salt's solution)", {
+    "name": Field(TEXT),
+    "formula": Field(TEXT, doc='with its charge, e.g. "HCO3^-"'),
+    "charge": Field(WHOLE),
+    "source": Field(TEXT, doc=_SOURCE),
+    "aliases": Field(TEXTS, ()),
+    "pka": Field(NUMBERS, (), "its acid/base system, most acidic first; empty: a spectator"),
+    "protons": Field(WHOLE, 0, "protons it carries, from the fully deprotonated member"),
+})
+
 FILES: dict[str, Table] = {
     "ghs.toml": Table("GHS wording", {
         "source": Field(TEXT, doc=_SOURCE),
@@ -313,6 +323,7 @@ FILES: dict[str, Table] = {
                       table=SPEC.optional()),
     }),
     "analytes.toml": Table("analytes", {"analyte": Field(TABLES, (), table=ANALYTE)}),
+    "ions.toml": Table("ions", {"ion": Field(TABLES, (), table=ION)}),
 }
 
 

@@ -153,13 +153,27 @@ def _solve_ph(pkas: tuple[float, ...], sites_mol_per_l: float,
               proton_excess_mol_per_l: float, pkw: float) -> float:
     """Root of the proton condition; ``proton_excess`` = protons the system starts with
     plus strong acid minus strong base, all in mol/L."""
+    return solve_systems_ph(((pkas, sites_mol_per_l),), proton_excess_mol_per_l, pkw)
+
+
+def solve_systems_ph(systems: Sequence[tuple[tuple[float, ...], float]],
+                     proton_excess_mol_per_l: float, pkw: float = PKW_25C) -> float:
+    """pH of a solution of several independent acid/base systems, each given as (its
+    ascending pKa values, its sites in mol/L): the root of the proton condition
+
+        [H+] - Kw/[H+] + sum(sites_i nbar_i([H+])) - proton_excess = 0
+
+    where ``proton_excess`` is the protons all systems carry as dissolved plus strong acid
+    minus strong base (mol/L). A salt of a weak acid and a weak base is two systems."""
     from scipy.optimize import brentq
 
     kw = 10.0 ** (-pkw)
+    checked = [(check_pkas(p), float(c)) for p, c in systems]
 
     def residual(log_h: float) -> float:
         h = 10.0**log_h
-        return h - kw / h + sites_mol_per_l * _nbar(pkas, log_h) - proton_excess_mol_per_l
+        bound = sum(c * _nbar(p, log_h) for p, c in checked)
+        return h - kw / h + bound - proton_excess_mol_per_l
 
     low, high = residual(_LOG_H_LOW), residual(_LOG_H_HIGH)
     if not (low < 0 < high):

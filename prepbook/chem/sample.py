@@ -173,7 +173,8 @@ class SampleResult:
     (% w/w, of ``reported_as`` when set), and the others None. ``value`` and ``unit`` are
     the reported quantity either way, which ``uncertainty`` (u, U, budget) is about.
     ``mg_per_ml``: the pharmacopoeial figure, mg of the reported species equivalent to
-    1 mL of this titrant.
+    1 mL of this titrant (of the excess reagent, in a back-titration: that is what the
+    sample consumes).
     """
 
     analyte: str
@@ -322,7 +323,9 @@ def sample_result(
         value=stats.mean,
         unit="%" if sample_is_mass else analyte.unit,
         reported_as=analyte.report_as,
-        mg_per_ml=n_titrant * mass_reported / n_reported,
+        # in a back-titration the sample consumes the excess reagent, not the titrant
+        mg_per_ml=(reagent_meq / excess.volume_ml if excess is not None else n_titrant)
+        * mass_reported / n_reported,
         back_titration=excess is not None,
         replicates=replicates,
         stats=stats,

@@ -7,19 +7,58 @@ JSON or as a table.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterator, MutableMapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import typer
+from typer.core import TyperGroup
 
 from prepbook.cli import output
 
 if TYPE_CHECKING:
     from prepbook.chem.uncertainty import BudgetLine
 
+#: Commands of this group defined in prepbook.cli.calc_sample, imported on first use.
+LATER = ("sample", "eqpoint", "salt")
+
+
+class _Later(MutableMapping[str, Any]):
+    """The group's commands: those defined here, then ``LATER``, each loaded (by the
+    root's own ``load``) when first looked up, so ``calc normality`` never imports them."""
+
+    def __init__(self, commands: MutableMapping[str, Any]) -> None:
+        self._commands = commands
+
+    def __getitem__(self, name: str) -> Any:
+        if name not in self._commands and name in LATER:
+            from prepbook.cli.app import Entry, load
+
+            self._commands[name] = load(Entry(name, "calc_sample", name, False, ""))
+        return self._commands[name]
+
+    def __setitem__(self, name: str, command: Any) -> None:
+        self._commands[name] = command
+
+    def __delitem__(self, name: str) -> None:
+        del self._commands[name]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter([*self._commands, *(n for n in LATER if n not in self._commands)])
+
+    def __len__(self) -> int:
+        return len(set(self._commands) | set(LATER))
+
+
+class _CalcGroup(TyperGroup):
+    def __init__(self, **attrs: Any) -> None:
+        super().__init__(**attrs)
+        self.commands = _Later(self.commands)
+
+
 app = typer.Typer(
     rich_markup_mode=None,
+    cls=_CalcGroup,
     help="Compute without a database: normality, preparation, corrections, curves.",
     no_args_is_help=True,
 )
@@ -46,10 +85,10 @@ def _notes(out: Any, notes: Sequence[str]) -> None:
         out.print(f"note: {note}", markup=False)
 
 
-def _budget_table(budget: Sequence[BudgetLine]) -> object:
+def _budget_table(budget: Sequence[BudgetLine], unit: str = "eq/L") -> object:
     return output.table(
         "Uncertainty budget (GUM)",
-        ["quantity", "value", "u", "u (rel.)", "contrib. (eq/L)", "share"],
+        ["quantity", "value", "u", "u (rel.)", f"contrib. ({unit})", "share"],
         [_budget_row(line) for line in budget],
         right=(1, 2, 3, 4, 5),
     )
@@ -446,52 +485,4 @@ def endpoint(
                   f"{'agree' if result.gran_agrees else 'DISAGREE'} (difference "
                   f"{abs(result.gran_ml - result.equivalence_ml):.3f} mL, tolerance "
                   f"{result.gran_tolerance_ml:.3f} mL)")
-    _notes(out, result.notes)
-
-
-@app.command("eqpoint")
-def eqpoint(
-    standard: str = typer.Option(
-        ..., "--standard", metavar="SUBSTANCE", help="Primary standard (acid or base)."
-    ),
-    titrant: str = typer.Option(
-        ..., "--titrant", metavar="SUBSTANCE", help="Titrant solute (strong acid or base)."
-    ),
-    concentration: str = typer.Option(
-        ..., "--concentration", metavar="MOL/L",
-        help="Concentration of the salt at equivalence, mol/L."
-    ),
-    titrant_concentration: str = typer.Option(
-        None, "--titrant-concentration", metavar="MOL/L",
-        help="Titrant, mol/L (default: the sample's volume equal to the equivalence volume)."
-    ),
-    co2_removed: bool = typer.Option(False, "--boil-co2", help="CO2 boiled off near the "
-                                     "endpoint (a carbonate titrated with an acid to CO2)."),
-    tolerance: str = typer.Option(
-        None, "--tolerance", metavar="PERCENT",
-        help="Titration error, % of the equivalence volume, within which an indicator is "
-             "advised (default 0.1)."
-    ),
-    as_json: bool = JSON,
-) -> None:
-    """pH at the equivalence point, and each indicator judged by its titration error."""
-    from prepbook.lab import curves
-
-    result = curves.eqpoint(standard=standard, titrant=titrant, concentration_text=concentration,
-                            titrant_concentration_text=titrant_concentration,
-                            co2_removed=co2_removed, tolerance_text=tolerance)
-    if as_json:
-        output.emit_json(result)
-        return
-    out = output.console()
-    out.print(f"pH at equivalence [bold]{result.ph:.2f}[/bold] ({result.reaction})")
-    rows = [(a.name, f"{a.low_ph:g}-{a.high_ph:g}", f"{a.stop_ph:.2f}",
-             "never reached" if a.error_percent is None else f"{a.error_percent:+.3f} %",
-             "suitable" if a.suitable else "unsuitable")
-            for a in result.indicators]
-    out.print(output.table(f"Indicators (advised within +/-{result.tolerance_percent:g} %)",
-                           ["indicator", "range (pH)", "stop at pH", "titration error",
-                            "advice"], rows, right=(2, 3)))
-    out.print("suitable: " + (", ".join(result.suitable) or "none of the catalog's indicators"))
-    out.print("unsuitable: " + ", ".join(result.unsuitable))
     _notes(out, result.notes)

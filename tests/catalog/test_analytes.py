@@ -4,7 +4,6 @@ loader refuses bad entries naming the problem, and a titrant finds its method.""
 from __future__ import annotations
 
 import shutil
-from collections import Counter
 from pathlib import Path
 
 import pytest
@@ -14,26 +13,16 @@ from prepbook.catalog import CatalogDataError, find_material, load_catalog
 from prepbook.catalog.loader import analyte_titration, analytes, find_analyte
 from prepbook.catalog.models import method_for
 from prepbook.errors import NotFound
-from tests.catalog.test_reactions import _coefficient, _parse
+from tests.catalog.test_reactions import _coefficient, _parse, total
 
 DATA = Path(loader.__file__).with_name("data")
 METHODS = [(a.code, m) for a in analytes() for m in a.methods]
 
 
-def _total(side: list) -> tuple[Counter[str], int]:
-    atoms: Counter[str] = Counter()
-    charge = 0
-    for coeff, _, a, q in side:
-        for el, k in a.items():
-            atoms[el] += coeff * k
-        charge += coeff * q
-    return atoms, charge
-
-
 @pytest.mark.parametrize(("code", "method"), METHODS, ids=[f"{c}-{m.name}" for c, m in METHODS])
 def test_every_analyte_equation_balances(code: str, method) -> None:
     left, right = _parse(method.equation)
-    assert _total(left) == _total(right), method.equation
+    assert total(left) == total(right), method.equation
 
 
 # (analyte, method): the partner species whose coefficient gives n (H+/OH- per analyte,
@@ -129,6 +118,22 @@ def data_dir(tmp_path: Path) -> Path:
 def test_bad_analyte_entries_are_refused(data_dir: Path, old: str, new: str,
                                          problem: str) -> None:
     path = data_dir / "analytes.toml"
+    text = path.read_text(encoding="utf-8")
+    assert old in text, old
+    path.write_text(text.replace(old, new, 1), encoding="utf-8")
+    with pytest.raises(CatalogDataError, match=problem):
+        load_catalog(data_dir)
+
+
+@pytest.mark.parametrize(("old", "new", "problem"), [
+    ("pka = [9.245]\nprotons = 1", "pka = [9.245]\nprotons = 2", "protons must lie"),
+    ("charge = -2\npka = [6.35, 10.33]", "charge = 0\npka = [6.35, 10.33]", "not be zero"),
+    ("pka = [2.15, 7.20, 12.35]", "pka = [7.20, 2.15, 12.35]", "increasing order"),
+    ('aliases = ["HCO3-"', 'aliases = ["CO3"', "also a name of"),
+    ('source = "from memory (oxalic', 'sorce = "from memory (oxalic', "unknown key"),
+])
+def test_bad_ion_entries_are_refused(data_dir: Path, old: str, new: str, problem: str) -> None:
+    path = data_dir / "ions.toml"
     text = path.read_text(encoding="utf-8")
     assert old in text, old
     path.write_text(text.replace(old, new, 1), encoding="utf-8")

@@ -70,17 +70,18 @@ ALL_REACTIONS = [(m.code, r) for m in materials() for r in m.reactions]
 )
 def test_every_catalog_equation_balances(code: str, reaction) -> None:
     left, right = _parse(reaction.equation)
-
-    def total(side):
-        atoms: Counter[str] = Counter()
-        charge = 0
-        for coeff, _, a, q in side:
-            for el, k in a.items():
-                atoms[el] += coeff * k
-            charge += coeff * q
-        return atoms, charge
-
     assert total(left) == total(right), reaction.equation
+
+
+def total(side: list) -> tuple[Counter[str], int]:
+    """Atoms and charge of one side of an equation, as ``_side`` parsed it."""
+    atoms: Counter[str] = Counter()
+    charge = 0
+    for coeff, _, a, q in side:
+        for el, k in a.items():
+            atoms[el] += coeff * k
+        charge += coeff * q
+    return atoms, charge
 
 
 # (material, reaction): (species of the material, partner species, what one partner
@@ -120,6 +121,8 @@ FROM_EQUATION = {
     ("AgNO3", "precipitation"): ("Ag^+", "Cl^-", 1),
     ("NH4SCN", "precipitation"): ("SCN^-", "Ag^+", 1),
     ("EDTA", "complexation"): ("C10H14N2O8^2-", "Zn^2+", 1),
+    ("Ba(OH)2", "acid-base"): ("Ba(OH)2", "H^+", 1),
+    ("Ca(OH)2", "acid-base"): ("Ca(OH)2", "H^+", 1),
 }
 
 

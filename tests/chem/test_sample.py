@@ -217,3 +217,13 @@ def test_bad_input_is_refused(amounts: list[float], volumes: list[float], blank:
     with pytest.raises(InvalidInput, match=message):
         sample_result(_analyte("HCl", "NaOH"), Solution("NaOH", 0.1), amounts, volumes,
                       blank_ml=blank)
+
+
+def test_back_titration_states_the_each_ml_figure_for_the_excess_reagent() -> None:
+    """In a back-titration the sample consumes the excess reagent: each mL of 0.1 N silver
+    nitrate is equivalent to 3.545 mg of chloride (pharmacopoeial chloride assays, from
+    memory), whatever the thiocyanate's normality."""
+    found = analyte_titration("chloride", "NH4SCN")
+    r = sample_result(found.computed, Solution("NH4SCN", 0.05), [50.0], [10.0],
+                      excess=ExcessReagent(Solution("AgNO3", 0.1), 25.0))
+    assert r.mg_per_ml == pytest.approx(3.545, abs=0.0005)
