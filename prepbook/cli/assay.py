@@ -17,14 +17,12 @@ def render_result(out: Any, res: AssayResult) -> None:
     """The result, its uncertainty and the limit, for a person to read."""
     c = res.computed
     line = f"[bold]{output.sig(res.result, 5)} {output.escape(res.unit)}[/bold]"
-    concentration = c.get("concentration") or {}
-    if concentration.get("as"):
-        line += f" as {output.escape(concentration['as'])}"
-    if c.get("U") is not None:
-        line += f", U = {output.sig(c['U'], 2)} (k = {c['k']:g})"
-    if c.get("rsd_percent") is not None:
-        line += f", RSD {output.fixed(c['rsd_percent'], 3)} %"
-    out.print(line + f", n = {len(c.get('replicates') or [])}")
+    if c.reported_as:
+        line += f" as {output.escape(c.reported_as)}"
+    line += f", U = {output.sig(c.U, 2)} (k = {c.k:g})"
+    if c.rsd_percent is not None:
+        line += f", RSD {output.fixed(c.rsd_percent, 3)} %"
+    out.print(line + f", n = {len(c.replicates)}")
     out.print(f"titrant {res.batch}: {output.sig(res.titrant_normality, 5)} eq/L at "
               f"{res.temperature_c:g} C (standardization {res.run})")
     if res.within_limit is not None:
@@ -32,7 +30,7 @@ def render_result(out: Any, res: AssayResult) -> None:
         high = "-" if res.limit_high is None else f"{res.limit_high:g}"
         verdict = "within" if res.within_limit else "[bold]OUTSIDE[/bold]"
         out.print(f"limit {low} to {high} {output.escape(res.unit)}: {verdict}")
-    output.warn_lines(out, c.get("warnings") or [])
+    output.warn_lines(out, [*c.warnings, *c.uncertainty_notes])
 
 
 def assay(

@@ -11,7 +11,7 @@ the titrant does to the result is computed on reading (``prepbook.lab.impact``).
 from __future__ import annotations
 
 import json
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass, fields
 from datetime import datetime
 from typing import TYPE_CHECKING, Any, cast
 
@@ -29,24 +29,22 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Assay, AssayReplicate, Batch, Run, Use
 
 if TYPE_CHECKING:
-    from prepbook.chem.sample import SampleResult
+    from prepbook.lab.sample_calcs import SampleCalc
 
 
 @dataclass(frozen=True)
 class SampleInputs:
-    """Everything a sample's result is computed from, except the titrant's normality.
-
-    Kept as recorded so that the same result can be recomputed with another normality
-    (``prepbook.lab.impact``).
-    """
+    """Everything a sample's result is computed from, as typed, except the titrant's
+    normality: kept so that the result can be recomputed with another normality
+    (``impact``)."""
 
     analyte: str
     reaction: str | None
     titrant: str
-    aliquot_ml: float | None
-    mass_g: float | None
-    volumes_ml: tuple[float, ...]
-    blank_ml: float
+    aliquot_ml: str | None
+    mass_g: str | None
+    volumes_ml: tuple[str, ...]
+    blank_ml: str
 
 
 @dataclass(frozen=True)
@@ -66,43 +64,34 @@ class Limit:
 
 
 def compute(inputs: SampleInputs, normality: float, normality_u: float | None
-            ) -> SampleResult:
-    """The chemistry core's result for this sample with this titrant normality (eq/L) and
-    its standard uncertainty."""
+            ) -> SampleCalc:
+    """The sample's result with this titrant normality (eq/L) and its standard
+    uncertainty, by the same path as `prepbook calc sample` (``lab.sample_calcs``)."""
     from prepbook.catalog import loader
-    from prepbook.chem.sample import Solution, sample_result
+    from prepbook.chem.uncertainty import COVERAGE_FACTOR
+    from prepbook.lab import sample_calcs
 
     way = loader.analyte_titration(inputs.analyte, inputs.titrant, inputs.reaction)
     if way.excess_reagent is not None:
         raise InvalidInput(f"{way.analyte.name} by {way.method.name} is a back-titration; "
                            "an assay records direct titrations only")
-    titrant = Solution(name=inputs.titrant, normality=normality, U=normality_u, k=1.0,
-                       n_eq_per_mol=way.titrant_n_eq_per_mol)
-    mass = inputs.mass_g is not None
-    amount = inputs.mass_g if mass else inputs.aliquot_ml
-    assert amount is not None
-    return sample_result(way.computed, titrant, [amount], list(inputs.volumes_ml),
-                         sample_is_mass=mass, blank_ml=inputs.blank_ml)
+    # Passed as text, as typed values are: repr() gives the float back exactly.
+    return sample_calcs.sample(
+        analyte=inputs.analyte, titrant=inputs.titrant, method=inputs.reaction,
+        volumes=list(inputs.volumes_ml), normality=repr(normality),
+        normality_u=None if normality_u is None else repr(normality_u * COVERAGE_FACTOR),
+        aliquot=[inputs.aliquot_ml] if inputs.aliquot_ml is not None else None,
+        mass=[inputs.mass_g] if inputs.mass_g is not None else None,
+        blank_ml=inputs.blank_ml)
 
 
-def sample_json(result: SampleResult) -> dict[str, Any]:
-    """A sample's result with the keys of `calc sample` (DESIGN section 7)."""
-    from dataclasses import asdict
-
-    stats, unc = result.stats, result.uncertainty
-    warnings = [*unc.notes]
-    if stats.outlier is not None:
-        warnings.append(f"replicate {stats.outlier.index} is an outlier by Grubbs' test "
-                        "(kept: exclude it only with a reason)")
-    return {
-        "normality": result.normality, "molarity": result.molarity,
-        "concentration": None if result.concentration is None else {
-            "value": result.concentration, "unit": result.unit, "as": result.reported_as},
-        "mass_fraction_percent": result.mass_fraction_percent,
-        "replicates": [asdict(r) for r in result.replicates],
-        "sd": stats.sd, "rsd_percent": stats.rsd_percent, "u": unc.u, "U": unc.U, "k": unc.k,
-        "budget": [asdict(line) for line in unc.budget], "warnings": warnings,
-    }
+def reported(calc: SampleCalc) -> tuple[float, str]:
+    """The value a sample's result is reported as, and its unit: the mass fraction (%) of
+    a weighed sample, else the mass concentration."""
+    if calc.mass_fraction_percent is not None:
+        return calc.mass_fraction_percent, "%"
+    assert calc.concentration is not None
+    return calc.concentration.value, calc.concentration.unit
 
 
 @dataclass(frozen=True)
@@ -122,14 +111,15 @@ class AssayResult:
     within_limit: bool | None
     performed_at: str
     analyst: str
-    computed: dict[str, Any]  # the `calc sample` keys
+    computed: SampleCalc  # what `calc sample` gives for the same sample and titrant
 
     def to_json(self) -> dict[str, Any]:
-        """`calc sample`'s keys, then the assay's own."""
-        return {**self.computed, "assay": self.assay, "batch": self.batch,
-                "sample": self.sample, "run": self.run,
-                "titrant_normality": self.titrant_normality,
-                "temperature_c": self.temperature_c, "result": self.result, "unit": self.unit,
+        """`calc sample`'s keys (``titrant_normality`` among them: at the temperature of
+        use), then the assay's own."""
+        calc = {f.name: getattr(self.computed, f.name) for f in fields(self.computed)}
+        return {**calc, "assay": self.assay, "batch": self.batch,
+                "sample": self.sample, "run": self.run, "temperature_c": self.temperature_c,
+                "result": self.result, "unit": self.unit,
                 "limit_low": self.limit_low, "limit_high": self.limit_high,
                 "within_limit": self.within_limit, "performed_at": self.performed_at,
                 "analyst": self.analyst}
@@ -164,13 +154,12 @@ def normality_in_use(run: Run, temperature_c: float) -> tuple[float, float | Non
 
 
 def inputs_of(assay: Assay, titrant: str) -> SampleInputs:
-    """The recorded sample, as the chemistry core takes it."""
+    """The recorded sample, readings as typed."""
     return SampleInputs(
         analyte=assay.analyte, reaction=assay.reaction, titrant=titrant,
-        aliquot_ml=float(assay.aliquot_ml_text) if assay.aliquot_ml_text else None,
-        mass_g=float(assay.mass_g_text) if assay.mass_g_text else None,
-        volumes_ml=tuple(float(r.volume_ml_text) for r in assay.replicates),
-        blank_ml=float(assay.blank_ml_text))
+        aliquot_ml=assay.aliquot_ml_text, mass_g=assay.mass_g_text,
+        volumes_ml=tuple(r.volume_ml_text for r in assay.replicates),
+        blank_ml=assay.blank_ml_text)
 
 
 @retry.on_conflict
@@ -222,12 +211,12 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
         titrant = spec_view.view(b.spec).solute
         inputs = SampleInputs(
             analyte=analyte, reaction=reaction, titrant=titrant,
-            aliquot_ml=amount.value if aliquot is not None else None,
-            mass_g=amount.value if mass is not None else None,
-            volumes_ml=tuple(v.value for v in volumes), blank_ml=blank_r.value)
+            aliquot_ml=amount.text if aliquot is not None else None,
+            mass_g=amount.text if mass is not None else None,
+            volumes_ml=tuple(v.text for v in volumes), blank_ml=blank_r.text)
         n_use, u_use = normality_in_use(run, temp.value)
         computed = compute(inputs, n_use, u_use)
-        value, unit = computed.value, computed.unit
+        value, unit = reported(computed)
         lim = Limit(low.value if low else None, high.value if high else None)
         result = AssayResult(
             assay=None, batch=b.code, sample=sample_id, run=run.code, titrant_normality=n_use,
@@ -235,7 +224,7 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             limit_high=lim.high,
             within_limit=None if low is None and high is None else lim.side(value) == 0,
             performed_at=when(performed_at), analyst=user.name,
-            computed=sample_json(computed))
+            computed=computed)
         if not record:
             return result
         code = _next_code(s, performed_at)
@@ -253,9 +242,9 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             titrant_u=u_use, limit_low_text=low.text if low else None,
             limit_high_text=high.text if high else None, performed_at=performed_at,
             recorded_at=utc_now(), analyst=user.name, result=value, result_unit=unit,
-            sd=computed.stats.sd, rsd_percent=computed.stats.rsd_percent,
-            u=computed.u, U=computed.U, k=computed.uncertainty.k,
-            result_json=json.dumps(result.computed, sort_keys=True, default=str))
+            sd=computed.sd, rsd_percent=computed.rsd_percent, u=computed.u, U=computed.U,
+            k=computed.k,
+            result_json=json.dumps(asdict(computed), sort_keys=True))
         write(s, user.name, "assay.record", row, performed_at=performed_at)
         for pos, v in enumerate(volumes, start=1):
             write(s, user.name, "assay.replicate", AssayReplicate(
@@ -361,7 +350,7 @@ def _quantified(s: Session, a: Assay, f: impact_rules.Finding, titrant: str) -> 
         run = s.get(Run, run_fact.key)
         assert run is not None
         n, u = normality_in_use(run, float(a.temperature_c_text))
-        results.append(compute(inputs_of(a, titrant), n, u).value)
+        results.append(reported(compute(inputs_of(a, titrant), n, u))[0])
     before = a.result
     limit = Limit(float(a.limit_low_text) if a.limit_low_text else None,
                   float(a.limit_high_text) if a.limit_high_text else None)

@@ -11,7 +11,7 @@ PINNED = {"assay", "impact"}
 # assay's own additions.
 CALC_SAMPLE = {"normality", "molarity", "concentration", "mass_fraction_percent", "replicates",
                "sd", "rsd_percent", "u", "U", "k", "budget", "warnings"}
-ASSAY_OWN = ["assay", "batch", "sample", "run", "titrant_normality", "temperature_c", "result",
+ASSAY_OWN = ["assay", "batch", "sample", "run", "temperature_c", "result",
              "unit", "limit_low", "limit_high", "within_limit", "performed_at", "analyst"]
 IMPACT = ["assay", "sample", "batch", "run", "performed_at", "unit", "before", "after",
           "after_low", "after_high", "change_percent", "crosses_limit", "limit_low",

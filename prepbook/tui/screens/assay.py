@@ -8,6 +8,7 @@ disagree. Ctrl+S records through the same call with ``record=True``.
 
 from __future__ import annotations
 
+from dataclasses import asdict
 from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
@@ -174,10 +175,8 @@ class AssayScreen(Screen[None]):
             (f"{title}\n", "bold"),
             f"  sample {res.sample}: ",
             (f"{words.sig(res.result)} {res.unit}", "bold"),
-            f"   RSD {words.sig(c.get('rsd_percent'), 3)} %   "
-            f"n = {len(c.get('replicates') or [])}\n",
-            f"  u = {words.sig(c.get('u'), 2)}   U = {words.sig(c.get('U'), 2)} "
-            f"(k = {words.sig(c.get('k'), 2)})\n",
+            f"   RSD {words.sig(c.rsd_percent, 3)} %   n = {len(c.replicates)}\n",
+            f"  u = {words.sig(c.u, 2)}   U = {words.sig(c.U, 2)} (k = {words.sig(c.k, 2)})\n",
             f"  titrant {res.batch}: {words.sig(res.titrant_normality)} eq/L at "
             f"{res.temperature_c:g} °C (run {res.run})\n",
         ]
@@ -185,9 +184,9 @@ class AssayScreen(Screen[None]):
             ok = "within the limit" if res.within_limit else "OUTSIDE the limit"
             tone = colour(self.app, "success" if res.within_limit else "error")
             lines.append((f"  {ok}\n", f"bold {tone}".strip()))
-        notes = Text("".join(f"  note: {w}\n" for w in c.get("warnings") or []))
+        notes = Text("".join(f"  note: {w}\n" for w in (*c.warnings, *c.uncertainty_notes)))
         return Group(Text.assemble(*lines), notes, Text("uncertainty budget", style="bold"),
-                     budget_table(list(c.get("budget") or [])))
+                     budget_table([asdict(line) for line in c.budget]))
 
     def action_submit(self) -> None:
         from prepbook.lab import assays
