@@ -398,17 +398,11 @@ class LabelPrint(Base):
 
 
 class Assay(Base):
-    """A sample titrated with a batch in service: the sample as entered, the titrant's
-    value taken from its accepted standardization, the result and its uncertainty.
-
-    Exactly one of ``aliquot_ml_text`` (a measured volume of sample) and ``mass_g_text``
-    (a weighed sample) is set. ``run_id`` is the standardization whose normality was
-    used (``titrant_normality_20c`` as it stood then; ``titrant_normality`` at the
-    temperature of use), so a later correction, revocation or drift of that run can be
-    followed to this result without rewriting it. ``use_id`` is the draw of titrant
-    this titration made from the batch. ``result`` is the reported value in
-    ``result_unit`` (a mass concentration, or % w/w for a weighed sample).
-    """
+    """A sample titrated with a batch in service: the sample as entered (an aliquot or a
+    mass), the standardization whose normality was used (``titrant_normality_20c`` as it
+    stood then, ``titrant_normality`` at the temperature of use), the draw of titrant
+    (``use_id``) and the result in ``result_unit``. Never rewritten: a later correction,
+    revocation or drift of the run is followed to it on reading (``lab.impact``)."""
 
     __tablename__ = "assays"
     __table_args__ = (
