@@ -30,7 +30,9 @@ def render_result(out: Any, res: AssayResult) -> None:
         high = "-" if res.limit_high is None else f"{res.limit_high:g}"
         verdict = "within" if res.within_limit else "[bold]OUTSIDE[/bold]"
         out.print(f"limit {low} to {high} {output.escape(res.unit)}: {verdict}")
-    output.warn_lines(out, [*c.warnings, *c.uncertainty_notes])
+    output.warn_lines(out, c.warnings)
+    for note in c.uncertainty_notes:
+        out.print(f"note: {output.escape(note)}")
 
 
 def assay(

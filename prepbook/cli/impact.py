@@ -30,7 +30,7 @@ def render(out: Any, batch: str, rows: tuple[ImpactedAssay, ...]) -> None:
         f"{len(rows)} assay result(s) of {batch} impacted",
         ["assay", "sample", "when", "before", "now", "unit", "change %", "limit"],
         [(r.assay, r.sample, r.performed_at, output.sig(r.before, 5), new_value(r), r.unit,
-          output.fixed(r.change_percent, 2),
+          "-" if r.change_percent is None else f"{r.change_percent:+.2f}",
           "-" if r.crosses_limit is None else ("CROSSES" if r.crosses_limit else "same side"))
          for r in rows], right=(3, 6))
     out.print(table)
