@@ -49,6 +49,15 @@ def test_walkthrough_runs(tmp_path: Path) -> None:
 
 
 @pytest.mark.skipif(shutil.which("bash") is None, reason="needs bash")
+def test_a_day_with_samples_runs(tmp_path: Path) -> None:
+    done = _run_block(_block_after("samples"), tmp_path)
+    assert done.returncode == 0, done.stdout + done.stderr
+    assert "VIN-0413" in done.stdout and "OUTSIDE" in done.stdout
+    assert "R261201-1 was corrected after use" in done.stdout
+    assert (tmp_path / "assays.csv").read_text(encoding="utf-8").count("VIN-04") == 2
+
+
+@pytest.mark.skipif(shutil.which("bash") is None, reason="needs bash")
 def test_calculation_examples_run(tmp_path: Path) -> None:
     done = _run_block(_block_after("calculations"), tmp_path)
     assert done.returncode == 0, done.stdout + done.stderr

@@ -58,6 +58,11 @@ COMMANDS: tuple[Entry, ...] = (
           "(dilutions, uses)."),
     Entry("use", "batches", "use", False,
           "Record a use of a batch in service (kept so a bad batch's impact can be traced)."),
+    Entry("assay", "assay", "assay", False,
+          "Titrate a sample with a batch in service and record its result (and the use)."),
+    Entry("impact", "impact", "impact", False,
+          "The sample results a corrected, withdrawn or drifted titrant value changes, "
+          "recomputed."),
     Entry("label", "labels", "label", False,
           "Print a bottle label as PDF (recorded), or list outdated labels with --stale."),
     Entry("report", "report", "report", False,

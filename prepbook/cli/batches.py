@@ -11,6 +11,7 @@ from prepbook.cli.readings_view import render_readings
 from prepbook.cli.session import actor, database
 
 if TYPE_CHECKING:
+    from prepbook.lab.assays import AssayRow
     from prepbook.lab.batch_records import BatchRecord
     from prepbook.lab.replicate_sources import RunReadings
 
@@ -139,14 +140,34 @@ def show(
 ) -> None:
     """The whole chain of a batch: preparation, standardizations, replicates, reviews."""
     from prepbook.lab import batches
+    from prepbook.lab.assays import assays_of
 
-    b = batches.show_batch(database(ctx), code)
+    db = database(ctx)
+    b = batches.show_batch(db, code)
+    made = assays_of(db, code)
     if as_json:
-        output.emit_json(b)
+        from dataclasses import fields
+
+        output.emit_json({**{f.name: getattr(b, f.name) for f in fields(b)}, "assays": made})
     else:
         from prepbook.lab.replicate_sources import of_batch
 
-        _render_show(output.console(), b, of_batch(database(ctx), code))
+        out = output.console()
+        _render_show(out, b, of_batch(db, code))
+        _render_assays(out, made)
+
+
+def _render_assays(out: Any, made: tuple[AssayRow, ...]) -> None:
+    """The sample results made with the batch (``prepbook impact`` recomputes them)."""
+    if not made:
+        return
+    rows = [(a.assay, a.sample, a.analyte, a.performed_at, a.run,
+             output.sig(a.result, 5), a.unit,
+             f"{a.limit_low or '-'} to {a.limit_high or '-'}"
+             if a.limit_low or a.limit_high else "") for a in made]
+    out.print(output.table(f"\nassays: {len(made)}", ["assay", "sample", "analyte", "when",
+                                                       "run", "result", "unit", "limit"],
+                           rows, right=(5,)))
 
 
 @app.command("use")

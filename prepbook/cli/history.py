@@ -88,6 +88,9 @@ def trace(
     for ref in down.reference_for:
         out.print(f"  reference for run {ref.run} of {ref.batch} ({ref.status})")
     out.print(f"  {len(down.uses)} use(s)")
+    for made in down.assays:
+        out.print(f"  assay {made.assay} {made.performed_at}: sample {output.escape(made.sample)}, "
+                  f"{output.sig(made.result, 5)} {output.escape(made.unit)} (run {made.run})")
     if t.uses_needing_review:
         out.print(f"[bold]{len(t.uses_needing_review)} use(s) need review:[/bold]")
         for u in t.uses_needing_review:

@@ -229,6 +229,21 @@ def board(db: Database, today: date | None = None) -> list[BatchLife]:
                   solute_lot=lot, today=today, lead_days=lead)
             for b, spec, ins, lot in rows
         ]
+        items = _mark_impacted(s, rows, items)
     items.sort(key=lambda it: (_ORDER.get(it.state, 9), it.restandardize_by or "9999",
                                it.expires, it.batch))
     return items
+
+
+def _mark_impacted(session: Session, rows: list[tuple[Batch, Spec, list, Any]],
+                   items: list[BatchLife]) -> list[BatchLife]:
+    """A warning on each batch with assay results its titrant's changed value impacts."""
+    from dataclasses import replace
+
+    from prepbook.lab.impact import impacted_counts
+
+    counts = impacted_counts(session, [(b.id, b.code, spec) for b, spec, _, _ in rows])
+    return [replace(it, warnings=(*it.warnings, f"{counts[it.batch]} assay result(s) "
+                                  "impacted by a change of the titrant's value (prepbook "
+                                  f"impact {it.batch})")) if it.batch in counts else it
+            for it in items]

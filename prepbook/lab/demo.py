@@ -15,6 +15,21 @@ from prepbook.lab.board import BatchLife
 
 DEMO_FILE = "lab.toml"
 
+# Samples titrated with the demo's batches (invented IDs): batch key, day, time, analyst,
+# sample, analyte, aliquot mL, titrant volumes mL, limit in the reported unit.
+DEMO_ASSAYS = (
+    ("naoh_a", -44, "11:10", "ines", "VIN-2610-17", "acetic-acid", "2",
+     ("16.21", "16.28"), "4.5:5.5"),
+    ("naoh_a", -30, "14:20", "tomas", "VIN-2611-02", "acetic-acid", "2",
+     ("17.02", "16.95"), "4.5:5.5"),
+    ("naoh_a", -20, "10:40", "ines", "ACD-2611-09", "HCl", "25", ("24.31", "24.38"),
+     "3.40:3.60"),
+    ("agno3", -12, "11:30", "ines", "WTR-2611-21", "chloride", "100", ("6.88", "6.93"),
+     ":250"),
+    ("naoh_b", -1, "15:05", "tomas", "VIN-2612-01", "acetic-acid", "2",
+     ("16.48", "16.55"), "4.5:5.5"),
+)
+
 
 
 @dataclass(frozen=True)
@@ -113,6 +128,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
                             accept=rv["decision"] == "accept", reason=rv.get("reason"),
                             passphrase=users[rv["by"]]["passphrase"],
                             at=signed.isoformat(timespec="minutes"))
+    _record_assays(db, today, codes, users)
     from prepbook.lab import auditing, demo_readings
 
     weighed, weighed_run = demo_readings.weighed_batch(
@@ -137,7 +153,30 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
         + weighed_run + "); to read the balance yourself, start `prepbook instrument "
         f"simulate-balance --port {demo_readings.TRY_PORT}` and run `prepbook instrument "
         "read BAL-A2`",
+        "a silver nitrate reading was corrected after a water sample was titrated with it: "
+        "prepbook impact " + codes["agno3"] + " shows the chloride result recomputed",
     ]
     return DemoLab(lab=data["lab"], database=target, batches=len(codes), runs=run_count,
                    events=verified.events, verified=verified.ok, story=tuple(story),
                    board=tuple(items), example_batch=codes["naoh_a"])
+
+
+def _record_assays(db: Any, today: datetime, codes: dict[str, str],
+                   users: dict[str, Any]) -> None:
+    """The demo's sample titrations, each with the batch's value in force that day; then
+    a burette reading of the silver nitrate standardization is found transposed and
+    corrected after a water sample was titrated with it (``prepbook impact`` shows the
+    chloride result recomputed)."""
+    from prepbook.lab import assays, batches, runs
+
+    for key, day, clock, who, sample, analyte, aliquot, volumes, limit in DEMO_ASSAYS:
+        assays.assay(db, actor=who, batch=codes[key], sample=sample, analyte=analyte,
+                     aliquot=aliquot, replicates=list(volumes), limit=limit,
+                     at=_moment(today, day, clock).isoformat(timespec="minutes"))
+    shown = batches.show_batch(db, codes["agno3"])
+    run = shown.runs[-1].run
+    runs.correct(db, actor="ines", run=run, replicate=2, volume="35.18",
+                 reason="burette reading transposed on the bench sheet (35.18, typed 35.81)",
+                 passphrase=users["ines"]["passphrase"])
+    runs.review(db, actor="priya", run=run, accept=True, reason="reading checked on the sheet",
+                passphrase=users["priya"]["passphrase"])

@@ -19,7 +19,7 @@ from prepbook.inputs import parse_date
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, Batch, Instrument, Lot, Replicate, Run, Spec, Use
 
-KINDS = ("batches", "runs", "replicates", "uses", "audit")
+KINDS = ("batches", "runs", "replicates", "uses", "assays", "audit")
 
 
 def when(value: datetime | None) -> str | None:
@@ -125,8 +125,34 @@ def _audit(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
     return cols, rows
 
 
+def _assays(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
+    """One row per assay; the titrant volumes as typed, joined with ';' in their order."""
+    from sqlalchemy.orm import selectinload
+
+    from prepbook.store.models import Assay
+
+    q = (select(Assay, Batch.code, Run.code).join(Batch, Assay.batch_id == Batch.id)
+         .join(Run, Assay.run_id == Run.id).options(selectinload(Assay.replicates))
+         .order_by(Assay.id))
+    if since is not None:
+        q = q.where(Assay.performed_at >= since)
+    cols = ["assay", "batch", "run", "sample", "analyte", "reaction", "aliquot_ml",
+            "sample_mass_g", "titrant_volumes_ml", "blank_ml", "temperature_c",
+            "titrant_normality_20c_eq_per_l", "titrant_normality_eq_per_l",
+            "titrant_u_eq_per_l", "result", "result_unit", "sd", "rsd_percent", "u",
+            "expanded_u", "k", "limit_low", "limit_high", "performed_at_utc",
+            "recorded_at_utc", "analyst", "use_id"]
+    rows = [[a.code, bc, rc, a.sample, a.analyte, a.reaction, a.aliquot_ml_text,
+             a.mass_g_text, ";".join(r.volume_ml_text for r in a.replicates), a.blank_ml_text,
+             a.temperature_c_text, a.titrant_normality_20c, a.titrant_normality, a.titrant_u,
+             a.result, a.result_unit, a.sd, a.rsd_percent, a.u, a.U, a.k, a.limit_low_text,
+             a.limit_high_text, when(a.performed_at), when(a.recorded_at), a.analyst, a.use_id]
+            for a, bc, rc in s.execute(q)]
+    return cols, rows
+
+
 _QUERIES = {"batches": _batches, "runs": _runs, "replicates": _replicates, "uses": _uses,
-            "audit": _audit}
+            "assays": _assays, "audit": _audit}
 
 
 @dataclass(frozen=True)

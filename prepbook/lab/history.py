@@ -12,6 +12,7 @@ from sqlalchemy.orm import Session
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_datetime, parse_text, utc_now
 from prepbook.lab import specs as spec_view
+from prepbook.lab.assays import AssayRow, assay_rows
 from prepbook.lab.batch_facts import UseNeedingReview, current_normality, impact, when
 from prepbook.lab.common import RECORDERS, acting, by_code, iso, not_future, signed, write
 from prepbook.store import retry
@@ -148,6 +149,7 @@ class Downward:
     diluted_into: tuple[Dilution, ...]
     reference_for: tuple[ReferenceUse, ...]
     uses: tuple[TracedUse, ...]
+    assays: tuple[AssayRow, ...]  # the sample results made with the batch
 
 
 @dataclass(frozen=True)
@@ -277,7 +279,8 @@ def trace(db: Database, code: str) -> Trace:
                                         .order_by(Use.used_at)))
         return Trace(batch=b.code, spec=b.spec.code, upward=up,
                      downward=Downward(diluted_into=tuple(children),
-                                       reference_for=standardized_against, uses=uses),
+                                       reference_for=standardized_against, uses=uses,
+                                       assays=assay_rows(s, b)),
                      uses_needing_review=impact(s, b, view.drift_limit_percent))
 
 

@@ -10,11 +10,13 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import TypedDict
 
 from sqlalchemy import and_, or_, select
 
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
+from prepbook.lab.assays import AssayRow, ImpactedAssay
 from prepbook.lab.batch_facts import when
 from prepbook.lab.batch_records import BatchRecord
 from prepbook.lab.common import by_code
@@ -80,6 +82,8 @@ class ReportData:
     audit: AuditSummary
     printed_at: str
     readings: Mapping[str, RunReadings] = field(default_factory=dict)  # by run code
+    assays: tuple[AssayRow, ...] = ()  # the sample results made with the batch
+    impact: tuple[ImpactedAssay, ...] = ()  # those a changed titrant value puts in question
 
 
 def _reasoned_events(db: Database, code: str) -> tuple[SpecWindow, tuple[ReasonedEvent, ...]]:
@@ -133,4 +137,19 @@ def gather(db: Database, code: str) -> ReportData:
         labels=tuple(labels.label_prints(db, code)),
         audit=AuditSummary(ok=audit.ok, events=audit.events, head_hash=audit.head_hash,
                            problems=audit.problems, checkpoint=audit.checkpoint),
-        printed_at=when(utc_now()), readings=replicate_sources.of_batch(db, code))
+        printed_at=when(utc_now()), readings=replicate_sources.of_batch(db, code),
+        **_assay_parts(db, code))
+
+
+class _AssayParts(TypedDict):
+    assays: tuple[AssayRow, ...]
+    impact: tuple[ImpactedAssay, ...]
+
+
+def _assay_parts(db: Database, code: str) -> _AssayParts:
+    """The report's assays and their impact, read in one transaction."""
+    from prepbook.lab.assays import assay_rows, impacted
+
+    with db.session(write=False) as s:
+        batch = by_code(s, Batch, code, "batch")
+        return {"assays": assay_rows(s, batch), "impact": impacted(s, batch)}

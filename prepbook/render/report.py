@@ -353,6 +353,8 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[
     else:
         story.append(_p("No use recorded.", st.body))
 
+    story.extend(_assay_section(data, st, width))
+
     story.append(_p("Labels printed", st.h1))
     if data.labels:
         story.append(_table(["printed (UTC)", "by", "showed run", "factor", "size", "copies"],
@@ -377,6 +379,42 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[
     story.append(_p("Figures are rounded for reading; the record keeps every value unrounded "
                     "(prepbook export). Safety: follow the substance's safety data sheet, local "
                     "regulations and the laboratory's own procedures.", st.small))
+    return story
+
+
+def _limit(low: str | None, high: str | None) -> str:
+    return f"{low or '-'} to {high or '-'}" if low or high else "-"
+
+
+def _assay_section(data: ReportData, st: _Styles, width: float) -> list[Any]:
+    """The sample results made with the batch, and those its titrant's changed value
+    puts in question (recomputed on reading; the recorded results stay as they were)."""
+    story: list[Any] = [_p(f"Assays ({len(data.assays)})", st.h1)]
+    if not data.assays:
+        return [*story, _p("No sample titrated with this batch.", st.body)]
+    story.append(_table(
+        ["assay", "sample", "analyte", "at (UTC)", "run", "titrant (eq/L)", "result", "limit"],
+        [[a.assay, a.sample, a.analyte, a.performed_at, a.run, _num(a.titrant_normality, 5),
+          f"{_num(a.result, 5)} {a.unit}", _limit(a.limit_low, a.limit_high)]
+         for a in data.assays],
+        [w * width for w in (0.12, 0.12, 0.14, 0.16, 0.11, 0.11, 0.14, 0.1)], st))
+    story.append(_p(f"Impact on the results ({len(data.impact)})", st.h1))
+    if not data.impact:
+        story.append(_p("No result is impacted: every standardization used stands, "
+                        "uncorrected, and no later one drifted beyond the limit.", st.body))
+        return story
+    rows = []
+    for r in data.impact:
+        now = (f"{_num(r.after, 5)} {r.unit}" if r.after is not None else
+               f"{_num(r.after_low, 5)} to {_num(r.after_high, 5)} {r.unit}"
+               if r.after_low is not None else "unknown")
+        crosses = "-" if r.crosses_limit is None else ("CROSSES" if r.crosses_limit else "no")
+        rows.append([r.assay, r.sample, f"{_num(r.before, 5)} {r.unit}", now,
+                     "-" if r.change_percent is None else f"{r.change_percent:+.2f} %",
+                     crosses, r.reason])
+    story.append(_table(["assay", "sample", "recorded", "now", "change", "limit", "why"],
+                        rows, [w * width for w in (0.11, 0.13, 0.14, 0.17, 0.08, 0.08, 0.29)],
+                        st))
     return story
 
 

@@ -378,6 +378,8 @@ def every_table(recorded: tuple[Cli, str, str], tmp_path: Path) -> Cli:
            "--passphrase-stdin", user="ada", input="ada-passphrase\n")
     cli.ok("label", batch, "-o", str(tmp_path / "label.pdf"), user="ben")
     _readings_from_instruments(cli, batch, tmp_path)
+    cli.ok("assay", batch, "--sample", "S-1", "--analyte", "HCl", "--aliquot", "25", "--rep",
+           "24.10", user="ben")
     counts = row_counts(cli.db)
     assert all(counts[name] > 0 for name in AUDITED_TABLES), counts
     assert cli.json("audit", "verify")["ok"] is True
@@ -391,6 +393,7 @@ EDITED = {
     "replicates": "amount_text", "reviews": "reason", "uses": "purpose", "settings": "value",
     "label_prints": "file_name", "instrument_connections": "port",
     "replicate_sources": "amount_raw", "replicate_curves": "file_name",
+    "assays": "sample", "assay_replicates": "volume_ml_text",
 }
 
 
@@ -414,7 +417,8 @@ def _copy_of_last_row(name: str) -> str:
 
     def value(column: str) -> str:
         bumped = {("replicates", "version"), ("replicate_curves", "position"),
-                  ("instrument_connections", "version"), ("replicate_sources", "replicate_id")}
+                  ("instrument_connections", "version"), ("replicate_sources", "replicate_id"),
+                  ("assay_replicates", "position")}
         if (name, column) in bumped:  # whole numbers kept unique
             return f"{column} + 1000"
         return f"{column} || '-copy'" if table.c[column].unique else column

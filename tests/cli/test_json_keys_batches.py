@@ -16,7 +16,7 @@ PINNED = {"batch make", "batch show", "batch use", "batch retire", "use", "statu
           "trace", "report"}
 SHOW = ["batch", "spec", "spec_name", "nominal", "unit", "state", "normality", "factor",
         "restandardize_by", "expires", "warnings", "preparation", "retired", "runs", "uses",
-        "diluted_into", "uses_needing_review", "storage", "hazard"]
+        "diluted_into", "uses_needing_review", "storage", "hazard", "assays"]
 PREPARATION = ["method", "volume_ml", "solute_mass_g", "solute_lot", "concentrate_volume_ml",
                "from_batch", "aliquot_ml", "flask", "balance", "theoretical_normality",
                "made_at", "recorded_at", "made_by", "notes"]
@@ -114,7 +114,7 @@ def test_status_trend_and_trace_keys(lab: tuple[Cli, str, str]) -> None:
         assert list(run) == ["run", "status", "performed_at", "analyst", "lot",
                              "reference_batch", "balance", "burette", "reviewers"]
         assert list(run["lot"]) == LOT and list(run["burette"]) == INSTRUMENT
-    assert list(trace["downward"]) == ["diluted_into", "reference_for", "uses"]
+    assert list(trace["downward"]) == ["diluted_into", "reference_for", "uses", "assays"]
     assert trace["downward"]["diluted_into"] == [
         {"batch": dilution, "spec": "NaOH-0.1N", "from": stock,
          "made_at": _at(-1, "17:00")}]

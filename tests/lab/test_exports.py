@@ -94,7 +94,7 @@ def test_replicates_keep_the_readings_exactly_as_typed(lab: Cli, tmp_path: Path,
 @pytest.mark.parametrize("fmt", ["csv", "xlsx"])
 def test_every_export_has_one_row_per_record(lab: Cli, tmp_path: Path, fmt: str) -> None:
     tables = {"batches": "batches", "runs": "runs", "replicates": "replicates", "uses": "uses",
-              "audit": "audit_events"}
+              "assays": "assays", "audit": "audit_events"}
     counts = row_counts(lab.db)
     for kind in exports.KINDS:
         out = tmp_path / f"{kind}.{fmt}"

@@ -114,10 +114,11 @@ def _problems(db: Database) -> tuple[str, ...]:
 # --- today's form ------------------------------------------------------------------------
 
 
-def test_only_the_computed_result_and_stored_curve_files_are_digested() -> None:
+def test_only_computed_results_and_stored_curve_files_are_digested() -> None:
     marked = {name: digested_columns(table) for name, table in AUDITED_TABLES.items()}
     assert {name: cols for name, cols in marked.items() if cols} == {
-        "runs": ("result_json",), "replicate_curves": ("content",)}
+        "runs": ("result_json",), "replicate_curves": ("content",),
+        "assays": ("result_json",)}
 
 
 def test_a_run_snapshot_holds_the_fingerprint_of_its_result_text(db: Database) -> None:

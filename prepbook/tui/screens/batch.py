@@ -42,6 +42,7 @@ class BatchScreen(Screen[None]):
         Binding("3", "tab('events')", "Audit events"),
         Binding("s", "standardize", "Standardize"),
         Binding("u", "use", "Use"),
+        Binding("a", "assay", "Assay"),
         Binding("l", "label", "Label"),
         Binding("e", "report", "Report"),
         Binding("x", "retire", "Retire"),
@@ -182,6 +183,11 @@ class BatchScreen(Screen[None]):
         from prepbook.tui.screens.record import RecordScreen
 
         self.app.push_screen(RecordScreen(self.code))
+
+    def action_assay(self) -> None:
+        from prepbook.tui.screens.assay import AssayScreen
+
+        self.app.push_screen(AssayScreen(self.code))
 
     def action_use(self) -> None:
         from prepbook.tui.screens.dialogs import FieldsScreen
