@@ -14,6 +14,7 @@ import json
 import math
 from dataclasses import asdict, dataclass, replace
 from datetime import datetime
+from decimal import Decimal
 from typing import Any
 
 from sqlalchemy import select
@@ -43,6 +44,7 @@ from prepbook.lab.common import (
     write,
 )
 from prepbook.lab.reviews import QueuedRun, review, runs_awaiting_review
+from prepbook.lab.volumes import draw
 from prepbook.rules import evaluation as ev
 from prepbook.rules import plausibility as plaus
 from prepbook.rules.acceptance import Check
@@ -318,6 +320,10 @@ def standardize(
                            balance=balance_row, burette=burette_row, reference=reference,
                            entered_at=utc_now())
         plausible_readings(entries, secondary=secondary, burette=burette_row)
+        draw(s, b, sum((Decimal(e.volume.text) for e in entries), Decimal(0)), "the titrant")
+        if ref_batch is not None:
+            draw(s, ref_batch, sum((Decimal(e.amount.text) for e in entries), Decimal(0)),
+                 "the aliquots")
         e, columns = _evaluate(s, cond, entries, notes=temp_notes)
         assert e.factor is not None
         plaus.factor(e.factor, nominal=cond.view.nominal, unit=cond.view.unit)
