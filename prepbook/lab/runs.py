@@ -251,6 +251,28 @@ def _reference(s: Session, ref_batch: Batch, batch: Batch, performed_at: datetim
     return ev.Reference(batch=ref_batch.code, run=ref_run.code, normality_20c=n20, u=ref_run.u)
 
 
+def parse_temperature(text: str) -> Reading:
+    """A titrant temperature as typed, within 0-40 C."""
+    temp = parse_number(text, "temperature (C)")
+    if not 0 <= temp.value <= 40:
+        raise InvalidInput(f"temperature {temp.text} C is outside 0-40 C")
+    return temp
+
+
+def last_temperature(db: Database, batch: str) -> str | None:
+    """The temperature of the latest run of this batch, else of its spec's batches."""
+    with db.session(write=False) as s:
+        b = by_code(s, Batch, batch, "batch")
+        for where in (Run.batch_id == b.id,
+                      Run.batch_id.in_(select(Batch.id).where(Batch.spec_id == b.spec_id))):
+            text = s.scalars(select(Run.temperature_c_text)
+                             .where(where, Run.temperature_c_text.is_not(None))
+                             .order_by(Run.performed_at.desc(), Run.id.desc()).limit(1)).first()
+            if text is not None:
+                return text
+    return None
+
+
 @retry.on_conflict
 def standardize(
     db: Database,
@@ -280,10 +302,8 @@ def standardize(
     secondary = against is not None
     entries: list[ReplicateEntry] = parse_replicates(
         replicates, amount_name="aliquot (mL)" if secondary else "mass (g)")
-    temp = parse_number(temperature or REFERENCE_TEMPERATURE_C, "temperature (C)")
+    temp = parse_temperature(temperature or REFERENCE_TEMPERATURE_C)
     temp_notes = [] if temperature else [NO_TEMPERATURE_NOTE]
-    if not 0 <= temp.value <= 40:
-        raise InvalidInput(f"temperature {temp.text} C is outside 0-40 C")
     blank_r = parse_number(blank or "0", "blank (mL)", non_negative=True)
     indicator = parse_text(indicator, "indicator", max_len=60)
     performed_at = not_future(parse_datetime(at, "--at") if at else None, "standardization time")
