@@ -112,9 +112,10 @@ def _life(
         drift_limit_percent=view.drift_limit_percent,
         latest_status=latest.status if latest else None,
     )
-    warnings = (*warnings, *(f"an accepted result of {batch.code} (standardized {r.performed_on}) was "
-                 f"revoked: the uses made while it stood need review (prepbook trace "
-                 f"{batch.code})" for r in revoked))
+    warnings = (*warnings, *(
+        f"an accepted result of {batch.code} (standardized {r.performed_on}) was revoked: "
+        f"the uses made while it stood need review (prepbook trace {batch.code})"
+        for r in revoked))
     return BatchLife(
         batch=batch.code,
         spec=spec.code,

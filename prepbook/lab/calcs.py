@@ -126,7 +126,6 @@ def normality(
     e.g. from the method's validation), used in the budget instead of the replicates'
     scatter; without it one replicate leaves the repeatability term missing."""
     from prepbook.rules import evaluation as ev
-
     from prepbook.rules import plausibility as plaus
 
     purity_r = parse_percent(purity_percent, "purity")

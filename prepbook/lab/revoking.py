@@ -54,8 +54,8 @@ def revoke(db: Database, *, actor: str, run: str, reason: str | None,
            passphrase: str | None, at: str | None = None) -> Revoked:
     """Withdraw an accepted result (signed by a reviewer or an admin, with a reason)."""
     from prepbook.lab import board
-    from prepbook.lab.batch_facts import impact
     from prepbook.lab import specs as spec_view
+    from prepbook.lab.batch_facts import impact
 
     reason = parse_text(reason, "reason", max_len=1000)
     if not (reason and reason.strip()):

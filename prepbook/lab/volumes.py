@@ -27,13 +27,13 @@ def remaining_volumes(session: Session, batch_ids: Any) -> dict[int, Decimal]:
     left: dict[int, Decimal] = {
         bid: Decimal(text) for bid, text in session.execute(
             select(Batch.id, Batch.volume_ml_text).where(Batch.id.in_(batch_ids)))}
-    for bid, text in session.execute(
-            select(Use.batch_id, Use.volume_ml_text)
-            .where(Use.batch_id.in_(batch_ids), Use.volume_ml_text.is_not(None))):
-        left[bid] -= Decimal(text)
-    for bid, text in session.execute(
-            select(Batch.parent_batch_id, Batch.aliquot_ml_text)
-            .where(Batch.parent_batch_id.in_(batch_ids), Batch.aliquot_ml_text.is_not(None))):
+    drawn = [
+        *session.execute(select(Use.batch_id, Use.volume_ml_text)
+                         .where(Use.batch_id.in_(batch_ids), Use.volume_ml_text.is_not(None))),
+        *session.execute(select(Batch.parent_batch_id, Batch.aliquot_ml_text)
+                         .where(Batch.parent_batch_id.in_(batch_ids),
+                                Batch.aliquot_ml_text.is_not(None)))]
+    for bid, text in drawn:  # uses, and aliquots taken to make other batches
         left[bid] -= Decimal(text)
     latest: dict[tuple[int, int], tuple[int, int | None, str, str]] = {}
     # Ordered by version: the latest version of each replicate is the one kept.

@@ -129,7 +129,8 @@ def test_status_trend_and_trace_keys(lab: tuple[Cli, str, str]) -> None:
 
 def test_use_retire_and_report_keys(lab: tuple[Cli, str, str], tmp_path: Path) -> None:
     cli, stock, dilution = lab
-    assert list(cli.json("batch", "use", stock, "--volume", "5", "--purpose", "assay", user="ben")) == USED
+    assert list(cli.json("batch", "use", stock, "--volume", "5", "--purpose", "assay",
+                              user="ben")) == USED
     assert list(cli.json("use", stock, "--purpose", "assay", user="ben")) == USED
     retired = cli.json("batch", "retire", dilution, "--reason", "spilled",
                        "--passphrase-stdin", user="ben", input="ben-passphrase\n")
