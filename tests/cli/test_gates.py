@@ -264,3 +264,16 @@ def test_revoking_the_only_result_takes_the_batch_out_of_service(bench: Cli,  # 
     assert done["falls_back_to"] is None and done["state"] == "new"
     assert "is new and may not be used" in _refused(bench, counts, "use", batch, "--volume",
                                                     "5", "--purpose", "assay", user="ben")
+
+
+@pytest.mark.parametrize(("args", "said"), [
+    (["lot", "add", "KHP", "--code", "KHP-X", "--purity", "0.0000001", "--expires",
+      _days(300)], "cannot be a primary standard's"),
+    (["instrument", "add", "BAL-X", "--kind", "balance", "--due", _days(300), "--tolerance",
+      "1000000"], "balance linearity 1e+09 mg"),
+    (["instrument", "add", "BUR-X", "--kind", "burette", "--due", _days(300), "--capacity",
+      "50", "--tolerance", "5"], "no volumetric burette's"),
+])
+def test_absurd_lot_and_instrument_figures_are_refused(bench: Cli, counts: Counts,  # noqa: F811
+                                                       args: list[str], said: str) -> None:
+    assert said in _refused(bench, counts, *args, user="ben")
