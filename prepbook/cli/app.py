@@ -43,6 +43,9 @@ COMMANDS: tuple[Entry, ...] = (
           "Standardize a batch against a primary-standard lot or a standardized batch."),
     Entry("review", "review", "review", False,
           "Accept or reject a run awaiting review, signed with your passphrase."),
+    Entry("revoke", "revoke", "revoke", False,
+          "Withdraw an accepted result (reviewer or admin, signed): the batch falls back to "
+          "its previous accepted standardization, or out of service; uses since are flagged."),
     Entry("correct", "corrections", "correct", False,
           "Correct one replicate (signed): a new version, the run recomputed and back to "
           "review."),

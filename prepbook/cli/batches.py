@@ -124,6 +124,8 @@ def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings]) -> 
                       + (f": {rv.reason}" if rv.reason else ""))
     if b.uses:
         out.print(f"\nuses: {len(b.uses)}")
+    if b.remaining_ml is not None:
+        out.print(f"remaining: {b.remaining_ml:g} mL of {p.volume_ml} mL made")
     if b.diluted_into:
         out.print("diluted into: " + ", ".join(b.diluted_into))
     if b.uses_needing_review:
@@ -176,7 +178,8 @@ def use(
     code: str = typer.Argument(..., metavar="BATCH", help="Batch code."),
     volume: str = typer.Option(None, "--volume", metavar="ML", help="Volume drawn, mL."),
     purpose: str = typer.Option(
-        None, "--purpose", metavar="TEXT", help="What it was used for (sample, method)."
+        None, "--purpose", metavar="TEXT",
+        help="What it was used for (sample, method); required."
     ),
     at: str = typer.Option(
         None, "--at", metavar="WHEN", help="When (YYYY-MM-DD[THH:MM], UTC), if not now."

@@ -30,11 +30,13 @@ def render_board(out: Any, items: list[BatchLife]) -> None:
     rows = [(it.batch, STATE_WORDS.get(it.state, it.state),
              output.sig(it.normality, 5), output.fixed(it.factor, 4),
              it.restandardize_by or "-", it.expires,
+             "-" if it.remaining_ml is None else f"{it.remaining_ml:g}",
              str(len(it.warnings)) if it.warnings else "")
             for it in items]
     out.print(output.table(f"Board: {len(items)} batches in use",
-                           ["batch", "state", "N 20 C", "factor", "restd. by", "expires", "!"],
-                           rows, right=(2, 3, 6), no_wrap=range(7)))
+                           ["batch", "state", "N 20 C", "factor", "restd. by", "expires",
+                            "left mL", "!"],
+                           rows, right=(2, 3, 6, 7), no_wrap=range(8)))
     flagged = [it for it in items if it.warnings]
     if flagged:
         out.print("[bold]Warnings[/bold]")

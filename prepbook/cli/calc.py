@@ -198,7 +198,7 @@ def normality(
     )
     out.print(_budget_table(result.budget))
     _notes(out, result.uncertainty_notes)
-    output.warn_lines(out, result.warnings)
+    output.warn_lines(output.console(stderr=True), result.warnings)  # one line each
 
 
 @app.command("secondary")

@@ -43,7 +43,11 @@ def standardize(
     ),
     balance: str = typer.Option(None, "--balance", metavar="CODE", help="Balance used."),
     burette: str = typer.Option(None, "--burette", metavar="CODE", help="Burette used."),
-    temp: str = typer.Option("20", "--temp", metavar="C", help="Temperature of the titrant, C."),
+    temp: str = typer.Option(
+        None, "--temp", metavar="C",
+        help="Temperature of the titrant, C (asked when replicates are asked; with --rep "
+             "and no --temp the reference 20 C is used and the result says so)."
+    ),
     blank: str = typer.Option("0", "--blank", metavar="ML", help="Blank titration volume, mL."),
     indicator: str = typer.Option(
         None, "--indicator", metavar="NAME", help="Indicator (default: the spec's)."
@@ -84,10 +88,14 @@ def standardize(
 
 
 def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bool) -> list[Any]:
-    """Ask for replicates one at a time, showing the running result after each."""
+    """Ask the temperature (offering the last one used), then the replicates one at a time
+    with the running result after each; show the whole result with its checks and
+    record only after a confirmation. An empty first answer records nothing."""
     out = output.console(stderr=quiet)
-    amount = "aliquot (mL)" if secondary else "mass of standard (g)"
-    out.print(f"Enter each replicate as {amount} and titrant volume (mL); "
+    if args["temperature"] is None:
+        args["temperature"] = _ask_temperature(db, args["batch"], runs, out)
+    asked = "aliquot (mL)" if secondary else "mass of standard (g)"
+    out.print(f"Enter each replicate as {asked} and titrant volume (mL); "
               "an empty line ends.")
     if args["balance"] and not secondary:
         out.print(f"For the mass, type b to read it from balance {args['balance']}; for the "
@@ -95,12 +103,11 @@ def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bo
     reps: list[Any] = []
     while True:
         n = len(reps) + 1
-        a = typer.prompt(f"replicate {n} {amount}", default="", show_default=False).strip()
+        a = typer.prompt(f"replicate {n} {asked}", default="", show_default=False).strip()
         if not a:
             if not reps:
-                out.print("no replicates: nothing recorded")
-                raise typer.Exit(1)
-            return reps
+                raise InvalidInput("no replicates: nothing recorded")
+            break
         amount = amount_or_reading(db, out, a, args["balance"], n, secondary)
         if amount is None:
             continue
@@ -109,9 +116,31 @@ def _ask(db: Any, args: dict[str, Any], runs: Any, *, secondary: bool, quiet: bo
             trial = reps + [replicate_of(amount, v, n)]
             res = runs.standardize(db, replicates=trial, record=False, **args)
         except InvalidInput as exc:
-            out.print(f"[bold]not taken:[/bold] {exc}")
+            out.print(f"[bold]not taken:[/bold] {output.escape(str(exc))}")
             continue
         reps = trial
         out.print(f"  running: N = {output.sig(res.normality, 5)} eq/L, factor "
                   f"{res.factor:.4f}, RSD {output.fixed(res.rsd_percent, 3)} % "
                   f"(n = {len(reps)})")
+    res = runs.standardize(db, replicates=reps, record=False, **args)
+    out.print(f"\nTo be recorded: {len(reps)} replicate(s) of batch {res.batch} "
+              f"(checks: {res.verdict})")
+    render_result(out, res)
+    if not typer.confirm("Record this run?", default=False, err=quiet):
+        raise InvalidInput("not confirmed: nothing recorded")
+    return reps
+
+
+def _ask_temperature(db: Any, batch: str, runs: Any, out: Any) -> str:
+    """The titrant's temperature, offering the last one used for this batch or spec."""
+    last = runs.last_temperature(db, batch)
+    offer = f" [Enter: {last}, the last used for this batch or spec]" if last else ""
+    while True:
+        text = typer.prompt(f"titrant temperature (C){offer}", default="",
+                            show_default=False).strip() or (last or "")
+        if not text:
+            raise InvalidInput("no temperature given: nothing recorded")
+        try:
+            return str(runs.parse_temperature(text).text)
+        except InvalidInput as exc:
+            out.print(f"[bold]not taken:[/bold] {output.escape(str(exc))}")

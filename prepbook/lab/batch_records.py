@@ -172,6 +172,7 @@ class BatchRecord:
     uses_needing_review: tuple[UseNeedingReview, ...]
     storage: str | None
     hazard: dict[str, Any]
+    remaining_ml: float | None = None  # made less every recorded draw (``lab.volumes``)
 
 
 @dataclass(frozen=True)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import functools
 import json
 from datetime import date
+from decimal import Decimal
 from typing import Any, cast
 
 from sqlalchemy import bindparam, func, select
@@ -28,6 +29,7 @@ from prepbook.lab.batch_records import (
     UseRow,
 )
 from prepbook.lab.common import acting, by_code, not_future, write
+from prepbook.lab.volumes import draw, remaining_ml
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Replicate, Review, Run, Spec, Use
@@ -157,6 +159,7 @@ def make_batch(
                 raise Refused(f"batch {parent.code} is retired and cannot be used")
             if parent.expires < made_at.date():
                 raise Refused(f"batch {parent.code} expired on {parent.expires.isoformat()}")
+            draw(s, parent, Decimal(ali.text), "an aliquot")
             n_parent, _ = current_normality(s, parent)
             if n_parent is None:
                 n_parent = parent.theoretical_normality
@@ -312,7 +315,8 @@ def show_batch(db: Database, code: str, today: date | None = None) -> BatchRecor
                               purpose=u.purpose) for u in uses),
             diluted_into=tuple(children),
             uses_needing_review=impact(s, b, view.drift_limit_percent),
-            storage=view.storage, hazard=view.hazard)
+            storage=view.storage, hazard=view.hazard,
+            remaining_ml=float(remaining_ml(s, b)))
 
 
 def batch_count(db: Database) -> int:
@@ -329,6 +333,9 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
 
     vol = parse_number(volume, "volume used (mL)", positive=True) if volume else None
     purpose = parse_text(purpose, "purpose", max_len=500)
+    if not (purpose and purpose.strip()):
+        raise InvalidInput("a use needs a --purpose (the sample or method it served), so "
+                           "its impact can be traced")
     used_at = not_future(parse_datetime(at, "--at") if at else None, "time of use")
     with db.session() as s:
         user = acting(s, actor, doing="use batches")
@@ -338,6 +345,8 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
             raise Refused(f"batch {b.code} is {life_row.state} and may not be used")
         if used_at < b.made_at:
             raise InvalidInput("the use cannot be before the batch was made")
+        if vol is not None:
+            draw(s, b, Decimal(vol.text), "a use")
         use = Use(batch_id=b.id, used_at=used_at, used_by=user.name,
                   volume_ml_text=vol.text if vol else None, purpose=purpose)
         write(s, user.name, "batch.use", use, performed_at=used_at)

@@ -10,6 +10,7 @@ import functools
 from collections import defaultdict
 from dataclasses import dataclass
 from datetime import date
+from decimal import Decimal
 from typing import TYPE_CHECKING, Any, cast
 
 from sqlalchemy import bindparam, select
@@ -19,6 +20,7 @@ from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
 from prepbook.lab.common import iso, life_facts, life_result, setting
+from prepbook.lab.volumes import remaining_volumes
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Spec
 
@@ -44,6 +46,7 @@ class BatchLife:
     restandardize_by: str | None
     expires: str
     warnings: tuple[str, ...]
+    remaining_ml: float | None = None  # made less every recorded draw (``lab.volumes``)
 
 
 @dataclass(frozen=True)
@@ -67,10 +70,14 @@ def _life(
     solute_lot: tuple[str, date] | None,
     today: date,
     lead_days: int,
+    remaining_ml: Decimal | None = None,
 ) -> BatchLife:
     from prepbook.rules import life
 
     view = spec_view.view(spec)
+    # A revoked result no longer counts: the batch stands on the runs before it.
+    revoked = [r for r in runs if r.status == "revoked"]
+    runs = [r for r in runs if r.status != "revoked"]
     accepted = [r for r in runs if r.status == "accepted"]
     last = accepted[-1] if accepted else None
     latest = runs[-1] if runs else None
@@ -105,6 +112,10 @@ def _life(
         drift_limit_percent=view.drift_limit_percent,
         latest_status=latest.status if latest else None,
     )
+    warnings = (*warnings, *(
+        f"an accepted result of {batch.code} (standardized {r.performed_on}) was revoked: "
+        f"the uses made while it stood need review (prepbook trace {batch.code})"
+        for r in revoked))
     return BatchLife(
         batch=batch.code,
         spec=spec.code,
@@ -115,6 +126,7 @@ def _life(
         restandardize_by=iso(restd),
         expires=when(batch.expires),
         warnings=tuple(warnings),
+        remaining_ml=float(remaining_ml) if remaining_ml is not None else None,
     )
 
 
@@ -223,10 +235,12 @@ def board(db: Database, today: date | None = None) -> list[BatchLife]:
         rows = _batch_rows(s, Batch.retired_at.is_(None))
         # Only the runs of the batches shown: retired batches' runs (most of a long
         # history) are never read.
-        facts = _run_facts(s, select(Batch.id).where(Batch.retired_at.is_(None)))
+        shown = select(Batch.id).where(Batch.retired_at.is_(None))
+        facts = _run_facts(s, shown)
+        left = remaining_volumes(s, shown)
         items = [
             _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=ins,
-                  solute_lot=lot, today=today, lead_days=lead)
+                  solute_lot=lot, today=today, lead_days=lead, remaining_ml=left.get(b.id))
             for b, spec, ins, lot in rows
         ]
         items = _mark_impacted(s, rows, items)

@@ -126,8 +126,10 @@ def normality(
     e.g. from the method's validation), used in the budget instead of the replicates'
     scatter; without it one replicate leaves the repeatability term missing."""
     from prepbook.rules import evaluation as ev
+    from prepbook.rules import plausibility as plaus
 
-    purity = parse_percent(purity_percent, "purity").value / 100
+    purity_r = parse_percent(purity_percent, "purity")
+    purity = purity_r.value / 100
     u_purity = None
     if purity_u_percent is not None:
         u_purity = parse_number(purity_u_percent, "purity uncertainty", non_negative=True).value
@@ -145,6 +147,19 @@ def normality(
     )
     rsd = (parse_percent(repeatability_percent, "repeatability RSD (%)").value
            if repeatability_percent is not None else None)
+    linearity_text = parse_number(linearity_mg, "balance linearity (mg)").text
+    tol_text = parse_number(burette_tolerance_ml, "burette tolerance (mL)").text
+    # What cannot be right is refused; what is unusual becomes a warning.
+    unusual = [
+        *plaus.replicates(
+            [plaus.Replicate(position=i, amount=e.amount.value, volume_ml=e.volume.value,
+                             amount_text=e.amount.text, volume_text=e.volume.text)
+             for i, e in enumerate(entries, start=1)],
+            weighed=True, burette_capacity_ml=capacity),
+        *plaus.primary_purity(purity_r.value, purity_r.text),
+        *plaus.balance_linearity(linearity_g * 1000, linearity_text),
+        *plaus.burette_tolerance(tol, tol_text, capacity),
+    ]
     e = ev.evaluate(ev.Standardization(
         readings=readings_of(entries),
         titrant=titrant,
@@ -161,7 +176,7 @@ def normality(
     ))
     std, reaction = e.standard, e.reaction
     assert std is not None and reaction is not None, "a weighed standard has a reaction"
-    warnings = _stat_warnings(e.n, e.rsd_percent, e.outlier)
+    warnings = [*unusual, *_stat_warnings(e.n, e.rsd_percent, e.outlier)]
     if capacity is not None:
         warnings += [
             f"titrant volume {entry.volume.text} mL is below 30 % of the {capacity:g} mL "

@@ -70,6 +70,13 @@ def add_instrument(db: Database, *, actor: str, code: str, kind: str, due: str,
         raise InvalidInput("tolerance must be smaller than the capacity")
     if cap is not None and rd is not None and rd.value >= cap.value:
         raise InvalidInput("readability must be smaller than the capacity")
+    if tol is not None and kind in ("balance", "burette"):  # figures that cannot be right
+        from prepbook.rules import plausibility as plaus
+
+        if kind == "balance":
+            plaus.balance_linearity(tol.value * 1000, f"{tol.value * 1000:g}")
+        else:
+            plaus.burette_tolerance(tol.value, tol.text, cap.value if cap else None)
     with db.session() as s:
         user = acting(s, actor, doing="add instruments")
         if s.scalars(select(Instrument).where(Instrument.code == code)).first() is not None:

@@ -49,6 +49,10 @@ def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
     mat = loader.find_material(material)
     code = parse_code(code, "lot code")
     purity_r = parse_percent(purity, "purity")
+    if mat.is_primary_standard:  # a certified purity that cannot be right is refused
+        from prepbook.rules.plausibility import primary_purity
+
+        primary_purity(purity_r.value, purity_r.text)
     purity_u_r = (parse_number(purity_u, "purity uncertainty (%)", non_negative=True)
                   if purity_u is not None else None)
     if purity_u_r is not None and purity_u_r.value >= purity_r.value:

@@ -8,6 +8,7 @@ review desk's queue.
 from __future__ import annotations
 
 import functools
+import json
 from dataclasses import dataclass, fields
 from typing import Any
 
@@ -64,7 +65,17 @@ def _correctors_query() -> Any:
                                               Replicate.version > 1)
 
 
-def _review_precheck(s: Session, actor: str, run: str) -> Run:
+def failed_checks(r: Run) -> list[str]:
+    """The failed checks of a run's stored result (a run with no verdict fails)."""
+    result = json.loads(r.result_json) if r.result_json else {}
+    failed = [f"{c['name']}: {c['message']}" for c in result.get("checks", [])
+              if not c.get("passed") and c.get("severity") == "fail"]
+    if result.get("verdict") != "pass" and not failed:
+        failed = ["no passing verdict is recorded for it"]
+    return failed
+
+
+def _review_precheck(s: Session, actor: str, run: str, accept: bool) -> Run:
     reviewer = acting(s, actor, REVIEWERS, "review standardizations")
     r = _run_to_review(s, run)
     if r.analyst == reviewer.name:
@@ -75,7 +86,24 @@ def _review_precheck(s: Session, actor: str, run: str) -> Run:
         raise Refused(f"{reviewer.name} corrected run {r.code} and cannot review it")
     if r.status != "awaiting-review":
         raise Refused(f"run {r.code} is already {r.status}")
+    failed = failed_checks(r)
+    if accept and failed:
+        more = f" (and {len(failed) - 1} more)" if len(failed) > 1 else ""
+        raise Refused(f"run {r.code} failed a check and cannot be accepted: {failed[0]}{more}; "
+                      "reject it, or correct it and review it again")
     return r
+
+
+def to_sign(db: Database, *, actor: str, run: str, accept: bool,
+            reason: str | None) -> QueuedRun:
+    """What a reviewer is about to sign (the run, its result and checks), after every
+    check that can refuse the review; nothing is written. Show it, then ask the
+    passphrase and call ``review``."""
+    reason = parse_text(reason, "reason", max_len=1000)
+    if not accept and not (reason and reason.strip()):
+        raise InvalidInput("a rejection needs a --reason")
+    with db.session(write=False) as s:
+        return _record(s, _review_precheck(s, actor, run, accept))
 
 
 @retry.on_conflict
@@ -96,13 +124,11 @@ def review(
     """
     reason = parse_text(reason, "reason", max_len=1000)
     signed_at = not_future(parse_datetime(at, "--at") if at else None, "review time")
-    if not accept and not (reason and reason.strip()):
-        raise InvalidInput("a rejection needs a --reason")
-    with db.session(write=False) as s:
-        _review_precheck(s, actor, run)
+    # Every refusal comes before the signature (whose check is itself written down).
+    to_sign(db, actor=actor, run=run, accept=accept, reason=reason)
     signed(db, actor, passphrase, REVIEWERS, "review standardizations")
     with db.session() as s:
-        r = _review_precheck(s, actor, run)
+        r = _review_precheck(s, actor, run, accept)
         if signed_at < r.performed_at:
             raise InvalidInput(f"the review ({signed_at:%Y-%m-%d %H:%M}) cannot be before the "
                                f"run ({r.performed_at:%Y-%m-%d %H:%M})")

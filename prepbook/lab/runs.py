@@ -15,6 +15,7 @@ import math
 from collections.abc import Sequence
 from dataclasses import asdict, dataclass, replace
 from datetime import datetime
+from decimal import Decimal
 from typing import Any
 
 from sqlalchemy import select
@@ -44,7 +45,9 @@ from prepbook.lab.common import (
     write,
 )
 from prepbook.lab.reviews import QueuedRun, review, runs_awaiting_review
+from prepbook.lab.volumes import draw
 from prepbook.rules import evaluation as ev
+from prepbook.rules import plausibility as plaus
 from prepbook.rules.acceptance import Check
 from prepbook.store import retry
 from prepbook.store.engine import Database
@@ -114,6 +117,40 @@ class _Conditions:
     balance: Instrument | None = None
     burette: Instrument | None = None
     reference: ev.Reference | None = None  # secondary: the reference used, as recorded
+    entered_at: datetime | None = None  # when the run was entered (recorded_at)
+
+    @property
+    def secondary(self) -> bool:
+        return self.reference is not None
+
+
+# The instruments a standardization must name unless its spec says otherwise (a spec's
+# "required_instruments" list): what its calibration and capacity checks need.
+REQUIRED_INSTRUMENTS = {"direct": ("balance", "burette"), "secondary": ("burette",)}
+# A run entered without a temperature is computed at the reference temperature, and says so.
+REFERENCE_TEMPERATURE_C = "20"
+NO_TEMPERATURE_NOTE = ("no temperature given: computed at the reference temperature 20 C "
+                       "(European Pharmacopoeia 4.2.2: prepared, standardized and used at "
+                       "20 C); give --temp C as measured")
+
+
+def required_instruments(view: spec_view.SpecView, secondary: bool) -> tuple[str, ...]:
+    """The instrument kinds a run of this spec must name (the spec's, else the default)."""
+    own = view.data.get("required_instruments")
+    if isinstance(own, list) and all(isinstance(k, str) for k in own):
+        return tuple(own)
+    return REQUIRED_INSTRUMENTS["secondary" if secondary else "direct"]
+
+
+def plausible_readings(entries: list[ReplicateEntry], *, secondary: bool,
+                       burette: Instrument | None,
+                       first: int = 1) -> tuple[str, ...]:
+    """Refuse replicates that cannot be right (``rules.plausibility``); the warnings."""
+    readings = [plaus.Replicate(position=i, amount=e.amount.value, volume_ml=e.volume.value,
+                                amount_text=e.amount.text, volume_text=e.volume.text)
+                for i, e in enumerate(entries, start=first)]
+    capacity = _float(burette.capacity_text) if burette is not None else None
+    return plaus.replicates(readings, weighed=not secondary, burette_capacity_ml=capacity)
 
 
 def _setting_number(session: Session, key: str, default: float) -> float:
@@ -159,20 +196,23 @@ def _standardization(s: Session, c: _Conditions, entries: list[ReplicateEntry],
             instruments=tuple((i.code, i.kind, i.due) for i in (balance, burette)
                               if i is not None),
             balance_readability_g=_float(balance.readability_text) if balance else None,
-            indicator=c.indicator or view.indicator, curves=sources.evidence(s, entries)),
+            indicator=c.indicator or view.indicator, curves=sources.evidence(s, entries),
+            entered_on=(c.entered_at or utc_now()).date(),
+            required_instruments=required_instruments(view, c.secondary)),
     )
 
 
 def _evaluate(s: Session, c: _Conditions, entries: list[ReplicateEntry],
-              excluded: frozenset[int] = frozenset()
+              excluded: frozenset[int] = frozenset(), notes: list[str] | None = None
               ) -> tuple[ev.Evaluation, dict[str, Any]]:
-    """Compute a run: the evaluation, and the columns of the run that store it."""
+    """Compute a run: the evaluation, and the columns of the run that store it
+    (``notes``: what the service itself assumed, kept with the result)."""
     e = ev.evaluate(_standardization(s, c, entries, excluded))
     payload = {
         "verdict": e.verdict,
         "checks": [asdict(ch) for ch in e.checks],
         "budget": [asdict(line) for line in e.budget],
-        "notes": [*e.notes, *e.uncertainty_notes],
+        "notes": [*(notes or []), *e.notes, *e.uncertainty_notes],
         "equivalence_ph": e.equivalence_ph,
         "titrant_n_eq_per_mol": e.titrant_n_eq_per_mol,
         "reference": asdict(c.reference) if c.reference else None,
@@ -212,6 +252,28 @@ def _reference(s: Session, ref_batch: Batch, batch: Batch, performed_at: datetim
     return ev.Reference(batch=ref_batch.code, run=ref_run.code, normality_20c=n20, u=ref_run.u)
 
 
+def parse_temperature(text: str) -> Reading:
+    """A titrant temperature as typed, within 0-40 C."""
+    temp = parse_number(text, "temperature (C)")
+    if not 0 <= temp.value <= 40:
+        raise InvalidInput(f"temperature {temp.text} C is outside 0-40 C")
+    return temp
+
+
+def last_temperature(db: Database, batch: str) -> str | None:
+    """The temperature of the latest run of this batch, else of its spec's batches."""
+    with db.session(write=False) as s:
+        b = by_code(s, Batch, batch, "batch")
+        for where in (Run.batch_id == b.id,
+                      Run.batch_id.in_(select(Batch.id).where(Batch.spec_id == b.spec_id))):
+            text = s.scalars(select(Run.temperature_c_text)
+                             .where(where, Run.temperature_c_text.is_not(None))
+                             .order_by(Run.performed_at.desc(), Run.id.desc()).limit(1)).first()
+            if text is not None:
+                return text
+    return None
+
+
 @retry.on_conflict
 def standardize(
     db: Database,
@@ -242,9 +304,8 @@ def standardize(
     entries: list[ReplicateEntry] = sources.entries(
         db, replicates, amount_name="aliquot (mL)" if secondary else "mass (g)",
         balance=balance, secondary=secondary)
-    temp = parse_number(temperature or "20", "temperature (C)")
-    if not 0 <= temp.value <= 40:
-        raise InvalidInput(f"temperature {temp.text} C is outside 0-40 C")
+    temp = parse_temperature(temperature or REFERENCE_TEMPERATURE_C)
+    temp_notes = [] if temperature else [NO_TEMPERATURE_NOTE]
     blank_r = parse_number(blank or "0", "blank (mL)", non_negative=True)
     indicator = parse_text(indicator, "indicator", max_len=60)
     performed_at = not_future(parse_datetime(at, "--at") if at else None, "standardization time")
@@ -263,7 +324,7 @@ def standardize(
         lot_row: Lot | None = None
         ref_batch: Batch | None = None
         reference = None
-        ref_notes: list[str] = []
+        ref_notes: list[str] = list(temp_notes)
         if secondary:
             if balance_row is not None:
                 raise InvalidInput("--balance goes with --lot: a secondary standardization "
@@ -278,8 +339,16 @@ def standardize(
                 raise Refused(f"lot {lot_row.code} expired on {lot_row.expires.isoformat()}")
         cond = _Conditions(batch=b, view=spec_view.view(b.spec), performed_at=performed_at,
                            temperature=temp, blank=blank_r, indicator=indicator, lot=lot_row,
-                           balance=balance_row, burette=burette_row, reference=reference)
-        e, columns = _evaluate(s, cond, entries)
+                           balance=balance_row, burette=burette_row, reference=reference,
+                           entered_at=utc_now())
+        plausible_readings(entries, secondary=secondary, burette=burette_row)
+        draw(s, b, sum((Decimal(e.volume.text) for e in entries), Decimal(0)), "the titrant")
+        if ref_batch is not None:
+            draw(s, ref_batch, sum((Decimal(e.amount.text) for e in entries), Decimal(0)),
+                 "the aliquots")
+        e, columns = _evaluate(s, cond, entries, notes=temp_notes)
+        assert e.factor is not None
+        plaus.factor(e.factor, nominal=cond.view.nominal, unit=cond.view.unit)
         if not record:
             return _result(cond, e, run=None, status=None, notes=ref_notes)
         code = next_code(s, Run, f"R{performed_at:%y%m%d}")
@@ -320,7 +389,8 @@ def _conditions_of(run: Run) -> _Conditions:
         temperature=parse_number(run.temperature_c_text or "20", "temperature (C)"),
         blank=parse_number(run.blank_ml_text or "0", "blank (mL)", non_negative=True),
         indicator=run.indicator, lot=run.lot, balance=run.balance, burette=run.burette,
-        reference=ev.Reference(**reference) if reference else None)
+        reference=ev.Reference(**reference) if reference else None,
+        entered_at=run.recorded_at)
 
 
 @retry.on_conflict
@@ -371,7 +441,12 @@ def _revise(db: Database, *, actor: str, run: str, position: int, reason: str | 
         entries = sources.with_stored_curves(s, r, entries)
         excluded = frozenset(pos for pos, rep in current.items() if rep.excluded)
         cond = _conditions_of(r)
-        e, columns = _evaluate(s, cond, entries, excluded)
+        if not exclude:  # the corrected reading must be plausible; the others stand as read
+            plausible_readings([entries[position - 1]], secondary=cond.secondary,
+                               burette=cond.burette, first=position)
+        kept = [n for n in json.loads(r.result_json or "{}").get("notes", [])
+                if n == NO_TEMPERATURE_NOTE]
+        e, columns = _evaluate(s, cond, entries, excluded, notes=kept)
         write(s, user.name, f"replicate.{action}", new, reason=reason)
         sources.carry(s, user.name, old, new)
         previous_status = r.status

@@ -260,16 +260,20 @@ def _burette(
     return fraction, capacity
 
 
-def _lot(expires: date, dried_on: date | None, run_date: date) -> tuple[Check, ...]:
-    # A lot is usable through its expiry date (common practice, no source).
-    expired = run_date > expires
+def _lot(expires: date, dried_on: date | None, run_date: date,
+         entered_on: date | None = None) -> tuple[Check, ...]:
+    # A lot is usable through its expiry date (common practice, no source). It is checked
+    # when the work was done and when it was entered: a backdated entry cannot bring an
+    # expired lot back into use.
+    late = [d for d in (run_date, entered_on) if d is not None and d > expires]
     expiry = Check(
         "lot-expiry",
-        not expired,
+        not late,
         "fail",
-        f"the primary-standard lot expired on {expires.isoformat()}, before the run on "
-        f"{run_date.isoformat()}"
-        if expired
+        f"the primary-standard lot expired on {expires.isoformat()}, before "
+        + (f"the run on {run_date.isoformat()}" if run_date in late
+           else f"the run was entered on {late[0].isoformat()}")
+        if late
         else f"the primary-standard lot is within expiry ({expires.isoformat()})",
     )
     if dried_on is None:
@@ -299,22 +303,44 @@ def _lot(expires: date, dried_on: date | None, run_date: date) -> tuple[Check, .
     return expiry, dried
 
 
-def _calibration(instruments: Sequence[tuple[str, str, date]], run_date: date) -> Check:
-    # An instrument may be used on its due date itself (common practice, no source).
-    overdue = [(code, kind, due) for code, kind, due in instruments if due < run_date]
+def _calibration(instruments: Sequence[tuple[str, str, date]], run_date: date,
+                 entered_on: date | None = None) -> Check:
+    # An instrument may be used on its due date itself (common practice, no source); it
+    # is checked when the work was done and when it was entered (see ``_lot``).
+    latest = max(run_date, entered_on) if entered_on is not None else run_date
+    overdue = [(code, kind, due) for code, kind, due in instruments if due < latest]
     if overdue:
         return Check(
             "calibration",
             False,
             "fail",
             "; ".join(
-                f"{kind} {code} calibration was due {due.isoformat()}, before the run on "
-                f"{run_date.isoformat()}"
+                f"{kind} {code} calibration was due {due.isoformat()}, before "
+                + (f"the run on {run_date.isoformat()}" if due < run_date
+                   else f"the run was entered on {latest.isoformat()}")
                 for code, kind, due in overdue
             ),
         )
     listed = ", ".join(f"{kind} {code} (due {due.isoformat()})" for code, kind, due in instruments)
     return Check("calibration", True, "fail", f"all instruments within calibration: {listed}")
+
+
+def _required(required: Sequence[str], instruments: Sequence[tuple[str, str, date]]) -> Check:
+    # Without the instrument named, its calibration, capacity and minimum weight cannot be
+    # checked and the result cannot be traced to it: a failed check, not silence.
+    named = {kind for _, kind, _ in instruments}
+    missing = [kind for kind in required if kind not in named]
+    wanted = " and ".join(required)
+    if missing:
+        return Check(
+            "instruments",
+            False,
+            "fail",
+            f"no {' and no '.join(missing)} named: the spec requires the {wanted} used, so "
+            "their calibration can be checked and the result traced to them",
+        )
+    return Check("instruments", True, "fail", f"the {wanted} used are named, as the spec "
+                 "requires")
 
 
 def _outlier(index: int, excluded: Collection[int]) -> Check:
@@ -366,6 +392,8 @@ def check_standardization(
     indicator: str | None = None,
     equivalence_ph: float | None = None,
     indicator_range: tuple[float, float] | None = None,
+    entered_on: date | None = None,
+    required_instruments: Sequence[str] = (),
 ) -> tuple[Check, ...]:
     """All acceptance checks of one standardization run, in a fixed order.
 
@@ -378,6 +406,10 @@ def check_standardization(
     a secondary standardization) -> no lot checks; no ``instruments`` -> no calibration
     check; the indicator check runs only with both ``equivalence_ph`` and
     ``indicator_range``. ``instruments`` are (code, kind, calibration due date).
+    ``entered_on`` (the day the run was entered, when not the day it was done): lot
+    expiry and calibration are checked on both days. ``required_instruments`` are the
+    kinds the spec requires (``balance``, ``burette``): one not among ``instruments`` is
+    a failed check.
     """
     if isinstance(replicate_count, bool) or not isinstance(replicate_count, int):
         raise InvalidInput(f"replicate count must be a whole number, not {replicate_count!r}")
@@ -413,9 +445,11 @@ def check_standardization(
         )
     checks.extend(_burette(rules, kept_volumes, burette_capacity_ml))
     if lot_expires is not None:
-        checks.extend(_lot(lot_expires, lot_dried_on, run_date))
+        checks.extend(_lot(lot_expires, lot_dried_on, run_date, entered_on))
+    if required_instruments:
+        checks.append(_required(required_instruments, instruments))
     if instruments:
-        checks.append(_calibration(instruments, run_date))
+        checks.append(_calibration(instruments, run_date, entered_on))
     if outlier_index is not None:
         checks.append(_outlier(outlier_index, excluded))
     if equivalence_ph is not None and indicator_range is not None:

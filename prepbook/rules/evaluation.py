@@ -86,6 +86,8 @@ class Judgement:
     balance_readability_g: float | None = None
     indicator: str | None = None  # as typed, or the spec's; None -> the reaction's
     curves: tuple[CurveEvidence, ...] = ()  # replicates with a recorded curve
+    entered_on: date | None = None  # lot expiry and calibration are checked on this day too
+    required_instruments: tuple[str, ...] = ()  # kinds the spec requires (balance, burette)
 
 
 @dataclass(frozen=True)
@@ -257,6 +259,8 @@ def evaluate(s: Standardization) -> Evaluation:
             indicator=indicator,
             equivalence_ph=eq_ph,
             indicator_range=ind_range,
+            entered_on=j.entered_on,
+            required_instruments=j.required_instruments,
         ) + check_curves(j.curves)
     unc = result.uncertainty
     return Evaluation(

@@ -3,7 +3,8 @@
 Pure: plain tuples in, plain tuples out. A use needs review when it was made
 between two accepted standardizations that differ by more than the spec's drift
 limit (the titrant may have been off for any of them), or after the last accepted
-standardization and before a run that was then rejected.
+standardization and before a run that was then rejected, or while the result of a
+run that was later revoked stood (from that run to the next accepted one).
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ from prepbook.rules.life import drift_between
 class RunPoint:
     code: str
     at: datetime
-    status: str  # "accepted" | "rejected" | "awaiting-review"
+    status: str  # "accepted" | "rejected" | "awaiting-review" | "revoked"
     normality: float | None
 
 
@@ -58,5 +59,12 @@ def uses_needing_review(runs: Sequence[RunPoint], uses: Sequence[UsePoint],
                "which was rejected")
         for u in uses:
             if u.at < rej.at and (since is None or u.at >= since):
+                reasons.setdefault(u.key, why)
+    for rev in (r for r in ordered if r.status == "revoked"):
+        after = [a for a in accepted if a.at > rev.at]
+        until = after[0].at if after else None
+        why = f"made while the result of {rev.code} stood, which was revoked"
+        for u in uses:
+            if u.at >= rev.at and (until is None or u.at < until):
                 reasons.setdefault(u.key, why)
     return tuple(Flag(u.key, reasons[u.key]) for u in uses if u.key in reasons)

@@ -48,8 +48,8 @@ UNITS = ("N", "M")
 INSTRUMENT_KINDS = ("balance", "burette", "flask", "pipette", "thermometer", "meter")
 BATCH_METHODS = ("solid", "concentrate", "dilution")
 RUN_METHODS = ("direct", "secondary")
-RUN_STATUSES = ("awaiting-review", "accepted", "rejected")
-DECISIONS = ("accept", "reject")
+RUN_STATUSES = ("awaiting-review", "accepted", "rejected", "revoked")
+DECISIONS = ("accept", "reject", "revoke")
 
 
 def _one_of(column: str, values: tuple[str, ...]) -> str:

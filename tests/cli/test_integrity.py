@@ -27,6 +27,10 @@ M_KHP = Formula("KHC8H4O4").mass
 T = TypeVar("T")
 
 
+# A standardization names its balance and burette (a missing one is a failed check).
+INSTRUMENTS = ("--balance", "BAL-1", "--burette", "BUR-1")
+
+
 def _accept(cli: Cli, run: str) -> None:
     cli.ok("review", run, "--accept", "--passphrase-stdin", user="cleo",
            input="cleo-passphrase\n")
@@ -211,7 +215,7 @@ def test_expired_and_retired_batches_cannot_be_standardized_or_used(bench: Cli) 
     before = row_counts(bench.db)
     r = bench.refused("standardize", old, "--lot", "KHP-0001", "--rep", "0.8:40", user="ben")
     assert "expired" in r.stderr
-    r = bench.refused("use", old, "--volume", "10", user="ben")
+    r = bench.refused("use", old, "--volume", "10", "--purpose", "assay", user="ben")
     assert "expired" in r.stderr
     assert row_counts(bench.db) == before
     fresh = _make_batch(bench)
@@ -250,12 +254,13 @@ def test_a_retirement_can_be_dated_but_not_before_what_the_batch_went_through(
 def test_a_due_batch_cannot_be_used(bench: Cli) -> None:  # noqa: F811
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
                        "--at", _at(-20), user="ben")["batch"]
-    run = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(-19),
+    run = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
+                     "--at", _at(-19),
                      *sum((["--rep", r] for r in REPS), []), user="ben")["run"]
     _accept(bench, run)
     row = next(b for b in bench.json("status") if b["batch"] == batch)
     assert row["state"] == "due"  # NaOH-0.1N: restandardize every 7 days
-    r = bench.refused("use", batch, "--volume", "10", user="ben")
+    r = bench.refused("use", batch, "--volume", "10", "--purpose", "assay", user="ben")
     assert "due" in r.stderr
 
 
@@ -278,7 +283,8 @@ def test_trend_forecast_matches_a_hand_least_squares(bench: Cli) -> None:  # noq
             (-20, ["0.8085:39.38", "0.8116:39.51", "0.8596:41.90"]),
             (-10, ["0.8085:39.47", "0.8116:39.60", "0.8596:41.99"])]
     for day, reps in sets:
-        run = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(day),
+        run = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
+                     "--at", _at(day),
                          *sum((["--rep", r] for r in reps), []), user="ben")["run"]
         _accept(bench, run)
     t = bench.json("trend", batch)
@@ -304,14 +310,16 @@ def test_drift_beyond_the_limit_flags_the_uses_since_the_previous_standardizatio
         bench: Cli) -> None:  # noqa: F811
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
                        "--at", _at(-6), user="ben")["batch"]
-    first = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(-5, "09:00"),
+    first = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
+                     "--at", _at(-5, "09:00"),
                        *sum((["--rep", r] for r in REPS), []), user="ben")["run"]
     _accept(bench, first)
     bench.ok("use", batch, "--volume", "20", "--purpose", "sample 17", "--at", _at(-4), user="ben")
     bench.ok("use", batch, "--volume", "20", "--purpose", "sample 18", "--at", _at(-3), user="ben")
     # About 1 % weaker: beyond the 0.5 % drift limit of NaOH-0.1N.
     weaker = ["0.8085:39.56", "0.8116:39.69", "0.8596:42.09"]
-    second = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(-2),
+    second = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
+                     "--at", _at(-2),
                         *sum((["--rep", r] for r in weaker), []), user="ben")["run"]
     _accept(bench, second)
     bench.ok("use", batch, "--volume", "20", "--purpose", "sample 19", "--at", _at(-1), user="ben")
@@ -334,10 +342,12 @@ def test_the_board_compares_and_shows_normalities_at_20_c(bench: Cli) -> None:  
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
                        "--at", _at(-6), user="ben")["batch"]
     reps = sum((["--rep", r] for r in REPS), [])
-    cold = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(-5), "--temp", "10",
+    cold = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
+                     "--at", _at(-5), "--temp", "10",
                       *reps, user="ben")
     _accept(bench, cold["run"])
-    warm = bench.json("standardize", batch, "--lot", "KHP-0001", "--at", _at(-2), "--temp", "35",
+    warm = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
+                     "--at", _at(-2), "--temp", "35",
                       *reps, user="ben")
     _accept(bench, warm["run"])
     assert warm["normality"] == pytest.approx(cold["normality"], rel=1e-12)

@@ -16,7 +16,7 @@ PINNED = {"batch make", "batch show", "batch use", "batch retire", "use", "statu
           "trace", "report"}
 SHOW = ["batch", "spec", "spec_name", "nominal", "unit", "state", "normality", "factor",
         "restandardize_by", "expires", "warnings", "preparation", "retired", "runs", "uses",
-        "diluted_into", "uses_needing_review", "storage", "hazard", "assays"]
+        "diluted_into", "uses_needing_review", "storage", "hazard", "remaining_ml", "assays"]
 PREPARATION = ["method", "volume_ml", "solute_mass_g", "solute_lot", "concentrate_volume_ml",
                "from_batch", "aliquot_ml", "flask", "balance", "theoretical_normality",
                "made_at", "recorded_at", "made_by", "notes"]
@@ -34,7 +34,7 @@ USE = ["at", "by", "volume_ml", "purpose"]
 RETIRED = ["at", "by", "reason"]
 DOUBTFUL_USE = ["used_at", "used_by", "volume_ml", "purpose", "why"]
 STATUS = ["batch", "spec", "state", "normality", "factor", "standardized_on",
-          "restandardize_by", "expires", "warnings"]
+          "restandardize_by", "expires", "warnings", "remaining_ml"]
 TREND = ["batch", "spec", "nominal", "unit", "window", "drift_limit_percent", "history",
          "slope_percent_per_30d", "slope_ci_percent_per_30d", "forecast_leaves_window", "note"]
 TREND_POINT = ["run", "performed_at", "normality", "normality_20c", "factor", "change_percent",
@@ -129,8 +129,9 @@ def test_status_trend_and_trace_keys(lab: tuple[Cli, str, str]) -> None:
 
 def test_use_retire_and_report_keys(lab: tuple[Cli, str, str], tmp_path: Path) -> None:
     cli, stock, dilution = lab
-    assert list(cli.json("batch", "use", stock, "--volume", "5", user="ben")) == USED
-    assert list(cli.json("use", stock, user="ben")) == USED
+    assert list(cli.json("batch", "use", stock, "--volume", "5", "--purpose", "assay",
+                              user="ben")) == USED
+    assert list(cli.json("use", stock, "--purpose", "assay", user="ben")) == USED
     retired = cli.json("batch", "retire", dilution, "--reason", "spilled",
                        "--passphrase-stdin", user="ben", input="ben-passphrase\n")
     assert list(retired) == RETIREMENT

@@ -144,8 +144,10 @@ def test_standardize_correct_exclude_review_json_keys(lab: Cli) -> None:
                         "--passphrase-stdin", user="ben", input="ben-passphrase\n")
     assert list(excluded) == revised
     assert [r["excluded"] for r in excluded["replicates"]] == [False, False, True]
-    reviewed = lab.json("review", "NAOH-0001", "--accept", "--passphrase-stdin",
-                        "--at", "2026-12-01T10:00", user="cleo", input="cleo-passphrase\n")
+    # Two replicates left fail the minimum of three: the run can only be rejected.
+    reviewed = lab.json("review", "NAOH-0001", "--reject", "--reason", "two replicates left",
+                        "--passphrase-stdin", "--at", "2026-12-01T10:00", user="cleo",
+                        input="cleo-passphrase\n")
     assert list(reviewed) == [
         "run", "method", "status", "performed_at", "recorded_at", "analyst", "lot",
         "lot_certificate", "reference_batch", "balance", "burette", "temperature_c",
@@ -154,13 +156,13 @@ def test_standardize_correct_exclude_review_json_keys(lab: Cli) -> None:
     assert list(reviewed["reviews"][0]) == ["reviewer", "decision", "reason", "signed_at"]
     assert set(reviewed["checks"][0]) == set(CHECK)
     assert set(reviewed["budget"][0]) == set(BUDGET)
-    assert reviewed["status"] == "accepted" and reviewed["run"] == run["run"]
+    assert reviewed["status"] == "rejected" and reviewed["run"] == run["run"]
 
 
 def test_standardize_preview_has_the_same_keys(lab: Cli) -> None:
     """Typed one at a time (no --rep), the recorded result has the same keys."""
     result = lab("standardize", "NAOH-0001", "--lot", "KHP-0001", "--at", "2026-12-01T09:00",
-                 "--json", user="ben", input="0.8085\n39.16\n0.8116\n39.29\n\n")
+                 "--json", user="ben", input="20\n0.8085\n39.16\n0.8116\n39.29\n\ny\n")
     assert result.exit_code == 0, result.stderr
     out = json.loads(result.stdout[result.stdout.index("{"):])
     assert list(out) == RUN_RESULT

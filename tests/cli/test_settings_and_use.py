@@ -43,7 +43,7 @@ def test_buoyancy_setting_raises_the_normality_by_the_nist_correction(bench: Cli
 def test_uses_only_of_a_batch_in_service(bench: Cli) -> None:  # noqa: F811
     batch = _make_batch(bench)
     before = row_counts(bench.db)
-    result = bench.refused("use", batch, "--volume", "25", user="ben")
+    result = bench.refused("use", batch, "--volume", "25", "--purpose", "assay", user="ben")
     assert "new" in result.stderr
     assert row_counts(bench.db) == before
     run = _standardize(bench, batch)

@@ -8,7 +8,7 @@ from tests.conftest import Cli, row_counts
 
 def test_replicates_are_asked_for_and_the_running_result_shown(bench: Cli) -> None:  # noqa: F811
     batch = _make_batch(bench)
-    answers = "0.8085\n39.16\n0.8116\n39.29\n0.8596\n41.67\n\n"
+    answers = "20\n0.8085\n39.16\n0.8116\n39.29\n0.8596\n41.67\n\ny\n"
     result = bench.ok("standardize", batch, "--lot", "KHP-0001", "--at", _at(-1), user="ben",
                       input=answers)
     assert result.stdout.count("running: N =") == 3
@@ -19,7 +19,7 @@ def test_replicates_are_asked_for_and_the_running_result_shown(bench: Cli) -> No
 
 def test_a_mistyped_replicate_is_refused_and_asked_again(bench: Cli) -> None:  # noqa: F811
     batch = _make_batch(bench)
-    answers = "0.8085\n39,16\n0.8085\n39.16\n\n"
+    answers = "20\n0.8085\n39,16\n0.8085\n39.16\n\ny\n"
     result = bench.ok("standardize", batch, "--lot", "KHP-0001", "--at", _at(-1), user="ben",
                       input=answers)
     assert "not taken" in result.stdout

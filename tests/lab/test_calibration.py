@@ -19,8 +19,9 @@ def _day(n: int) -> str:
 
 
 @pytest.fixture
-def overdue_lab(bench: Cli) -> Cli:  # noqa: F811
-    """A batch in service whose burette's calibration ran out yesterday."""
+def overdue_lab(bench: Cli, monkeypatch: pytest.MonkeyPatch) -> Cli:  # noqa: F811
+    """A batch in service whose burette's calibration ran out yesterday (the run done and
+    entered yesterday, on the burette's due date: calibration is checked on both days)."""
     bench.ok("instrument", "add", "BUR-9", "--kind", "burette", "--due", _day(-1),
              "--capacity", "50", "--tolerance", "0.05", user="ben")
     batch = _make_batch(bench)
@@ -28,7 +29,10 @@ def overdue_lab(bench: Cli) -> Cli:  # noqa: F811
             "BUR-9", "--at", f"{_day(-1)}T10:00"]
     for rep in ("0.8085:39.16", "0.8116:39.29", "0.8596:41.67"):
         args += ["--rep", rep]
-    run = bench.json(*args, user="ben")
+    entered = datetime.fromisoformat(f"{_day(-1)}T10:05")
+    with monkeypatch.context() as m:
+        m.setattr("prepbook.lab.runs.utc_now", lambda: entered)
+        run = bench.json(*args, user="ben")
     bench.ok("review", run["run"], "--accept", "--passphrase-stdin", user="cleo",
              input="cleo-passphrase\n")
     return bench

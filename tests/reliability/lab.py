@@ -54,8 +54,9 @@ def build_lab(target: str) -> str:
         instruments.add_instrument(db, actor="ben", code="BUR-1", kind="burette",
                                    due=_day(400), capacity="50", tolerance="0.05",
                                    readability=None)
-        made = batches.make_batch(db, actor="ben", spec="NaOH-0.1N", volume="1000",
-                                  solute_mass="4.1", balance="BAL-1")
+        # A 20 L carboy: the benches draw from it round after round (what remains is kept).
+        made = batches.make_batch(db, actor="ben", spec="NaOH-0.1N", volume="20000",
+                                  solute_mass="82", balance="BAL-1")
         run = runs.standardize(db, actor="ben", batch=made.batch, replicates=REPS,
                                lot="KHP-0001", balance="BAL-1", burette="BUR-1",
                                temperature="21.0")

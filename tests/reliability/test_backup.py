@@ -47,7 +47,8 @@ def test_a_restored_copy_verifies_and_holds_every_row(lab: tuple[Cli, str],
     assert row_counts(copy) == row_counts(cli.db)
     assert restored.json("status") == cli.json("status")
     # The copy is a working database: a bench can carry on in it.
-    restored.ok("use", cli.json("status")[0]["batch"], "--volume", "10", user="ben")
+    restored.ok("use", cli.json("status")[0]["batch"], "--volume", "10", "--purpose", "assay",
+                user="ben")
     assert restored.json("audit", "verify")["ok"] is True
 
 

@@ -132,6 +132,9 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
         assert form.last is not None and len(form.last.replicates) == 3
         await pilot.press("ctrl+s")
         await pilot.pause()
+        assert form.recorded is None  # recorded only after the confirmation
+        await pilot.press("y")
+        await pilot.pause()
         code = form.recorded
         assert code is not None and code in shown(form.query_one("#live"))
         await pilot.press("escape")

@@ -62,8 +62,8 @@ class RecordScreen(Screen[None]):
                                                          compact=True))
                 yield from self._field("burette", Select([], prompt="none named", id="burette",
                                                          compact=True))
-                yield from self._field("temperature °C", Input(placeholder="20", id="temp",
-                                                                  compact=True))
+                yield from self._field("temperature °C", Input(
+                    placeholder="as measured (required)", id="temp", compact=True))
                 yield from self._field("blank mL", Input(placeholder="0", id="blank", compact=True))
                 yield from self._field("indicator", Input(id="indicator", compact=True))
                 yield from self._field("performed", Input(
@@ -130,6 +130,11 @@ class RecordScreen(Screen[None]):
                 self.query_one(f"#{kind}", Select).value = live[0].code
         if spec and spec.indicator:
             self.query_one("#indicator", Input).value = spec.indicator
+        from prepbook.lab import runs
+
+        last = runs.last_temperature(db, self.code)  # offered, to be checked and kept or typed
+        if last is not None:
+            self.query_one("#temp", Input).value = last
         self.query_one("#topline", Static).update(Text.assemble(
             ("prepbook ", "bold"), "standardize  ", (self.code, "bold"),
             f"  {chain.spec_name}  ", state_cell(self.app, chain.state),
@@ -353,10 +358,37 @@ class RecordScreen(Screen[None]):
         problems += waiting
         if not reps and not problems:
             problems = ["type at least one replicate"]
+        if not self.query_one("#temp", Input).value.strip():
+            problems.append("type the titrant's temperature (°C) as measured")
         live = self.query_one("#live", Static)
         if problems:
             live.update(self._problem("not recorded: nothing was written", problems))
             return
+        from prepbook.tui.screens.dialogs import ConfirmScreen
+
+        try:  # the whole result with its checks, then a confirmation, then the record
+            res = runs.standardize(self.app.db, **self.kwargs(reps), record=False)  # type: ignore[attr-defined]
+        except PrepbookError as exc:
+            live.update(self._problem("not recorded: nothing was written", [str(exc)]))
+            return
+        live.update(self._result(res, "to be recorded: check the result and every check"))
+        failed = [c.name for c in res.checks if not c.passed and c.severity == "fail"]
+        question = (f"Record this run of {self.code}: {len(reps)} replicate(s), N = "
+                    f"{words.sig(res.normality)} eq/L at {res.temperature_c:g} °C, factor "
+                    f"{words.fixed(res.factor)}, checks {res.verdict.upper()}"
+                    + (f" (failed: {', '.join(failed)})" if failed else "") + "?")
+
+        def answer(yes: bool | None) -> None:
+            if yes:
+                self.record(reps)
+
+        self.app.push_screen(ConfirmScreen(question), answer)
+
+    def record(self, reps: list[str]) -> None:
+        """Record the run as confirmed (the same service call, with ``record=True``)."""
+        from prepbook.lab import runs
+
+        live = self.query_one("#live", Static)
         try:
             res = runs.standardize(self.app.db, **self.kwargs(reps), record=True)  # type: ignore[attr-defined]
         except PrepbookError as exc:

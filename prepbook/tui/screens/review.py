@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
+from rich.markup import escape
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -157,10 +158,33 @@ class ReviewScreen(Screen[None]):
             return
         queued = r
         verb = "accept" if accept else "reject"
+        from prepbook.lab import reviews
+
+        if accept:  # a run that failed a check is refused before anything is asked
+            try:
+                reviews.to_sign(app.db, actor=app.actor, run=queued.run, accept=True,
+                                reason=None)
+            except PrepbookError as exc:
+                self.say(f"not signed: {exc}", bad=True)
+                return
 
         def sign(reason: str | None) -> None:
-            doing = f"{verb} run {queued.run} of batch {queued.batch}" + (
-                f"\nreason: {reason}" if reason else "")
+            try:  # what is signed, shown with the passphrase request
+                run = reviews.to_sign(app.db, actor=app.actor, run=queued.run, accept=accept,
+                                      reason=reason)
+            except PrepbookError as exc:
+                self.say(f"not signed: {exc}", bad=True)
+                return
+            # Shown as markup by the dialog: escaped, so no stored text can style it.
+            doing = escape("\n".join([
+                f"{verb} run {run.run} of batch {run.batch}",
+                f"N = {words.sig(run.normality)} eq/L (at 20 °C {words.sig(run.normality_20c)})"
+                f", factor {words.fixed(run.factor)}, RSD {words.sig(run.rsd_percent, 3)} %, "
+                f"checks {(run.verdict or '-').upper()}",
+                *(("ok   " if c["passed"] else "FAIL " if c["severity"] == "fail"
+                   else "warn ") + f"{c['name']}: {c['message']}" for c in run.checks),
+                *([f"reason: {reason}"] if reason else [])]))
+
             def signed(secret: str | None) -> None:
                 if secret is not None:
                     finish(reason, secret)
@@ -168,8 +192,6 @@ class ReviewScreen(Screen[None]):
             app.push_screen(PassphraseScreen(app.actor, doing), signed)
 
         def finish(reason: str | None, secret: str) -> None:
-            from prepbook.lab import reviews
-
             try:
                 res = reviews.review(app.db, actor=app.actor, run=queued.run, accept=accept,
                                      reason=reason, passphrase=secret)

@@ -1,0 +1,65 @@
+"""What remains in a batch: the volume made less every recorded draw.
+
+One computation (``remaining_volumes``) for the board, ``batch show`` and every
+service that draws from a batch (uses, the assays' sample titrations, dilutions,
+standardizations); ``draw`` refuses taking more than remains.
+"""
+
+from __future__ import annotations
+
+from decimal import Decimal
+from typing import Any
+
+from sqlalchemy import or_, select
+from sqlalchemy.orm import Session
+
+from prepbook.errors import Refused
+from prepbook.store.models import Batch, Replicate, Run, Use
+
+
+def remaining_volumes(session: Session, batch_ids: Any) -> dict[int, Decimal]:
+    """mL left in each of the given batches (a list of ids, or a subquery selecting them):
+    the volume made, less every recorded draw: uses (the assays' too), aliquots taken to
+    make other batches, the titrant of its standardizations and the aliquots pipetted
+    from it to standardize others (the latest version of each replicate). Exact decimal
+    arithmetic on the readings as entered; a fixed number of queries for any number of
+    batches. The one place the remaining volume is computed."""
+    left: dict[int, Decimal] = {
+        bid: Decimal(text) for bid, text in session.execute(
+            select(Batch.id, Batch.volume_ml_text).where(Batch.id.in_(batch_ids)))}
+    drawn = [
+        *session.execute(select(Use.batch_id, Use.volume_ml_text)
+                         .where(Use.batch_id.in_(batch_ids), Use.volume_ml_text.is_not(None))),
+        *session.execute(select(Batch.parent_batch_id, Batch.aliquot_ml_text)
+                         .where(Batch.parent_batch_id.in_(batch_ids),
+                                Batch.aliquot_ml_text.is_not(None)))]
+    for bid, text in drawn:  # uses, and aliquots taken to make other batches
+        left[bid] -= Decimal(text)
+    latest: dict[tuple[int, int], tuple[int, int | None, str, str]] = {}
+    # Ordered by version: the latest version of each replicate is the one kept.
+    for own, ref, run_id, pos, amount, volume in session.execute(
+            select(Run.batch_id, Run.reference_batch_id, Replicate.run_id, Replicate.position,
+                   Replicate.amount_text, Replicate.volume_ml_text)
+            .join(Run, Replicate.run_id == Run.id)
+            .where(or_(Run.batch_id.in_(batch_ids), Run.reference_batch_id.in_(batch_ids)))
+            .order_by(Replicate.run_id, Replicate.position, Replicate.version)):
+        latest[(run_id, pos)] = (own, ref, amount, volume)
+    for own, ref, amount, volume in latest.values():
+        if own in left:
+            left[own] -= Decimal(volume)
+        if ref in left:
+            left[ref] -= Decimal(amount)
+    return left
+
+
+def remaining_ml(session: Session, batch: Batch) -> Decimal:
+    """mL left in one batch (``remaining_volumes``)."""
+    return remaining_volumes(session, [batch.id])[batch.id]
+
+
+def draw(session: Session, batch: Batch, volume_ml: Decimal, what: str) -> None:
+    """Refuse drawing more from a batch than remains in it (one line, nothing written)."""
+    left = remaining_ml(session, batch)
+    if volume_ml > left:
+        raise Refused(f"{what} of {volume_ml:f} mL is more than remains in batch {batch.code} "
+                      f"({max(left, Decimal(0)):f} mL of {batch.volume_ml_text} mL made)")
