@@ -59,6 +59,6 @@ def verify(
         else:
             out.print(f"[bold]audit trail NOT verified[/bold] ({rep.events} events):")
             for p in rep.problems:
-                out.print(f"  - {p}")
+                out.print(f"  - {output.text(p)}")
     if not rep.ok:
         raise typer.Exit(1)

@@ -61,7 +61,7 @@ def make(
         output.emit_json(res)
         return
     out = output.console()
-    out.print(f"batch [bold]{res.batch}[/bold] ({res.spec}, {res.method})")
+    out.print(f"batch [bold]{res.batch}[/bold] ({output.text(res.spec)}, {res.method})")
     out.print(f"theoretical normality {output.sig(res.theoretical_normality, 5)} eq/L, "
               f"factor {res.theoretical_factor:.4f}; expires {res.expires}")
     out.print("standardize it before use: prepbook standardize " + res.batch + " --lot ...")
@@ -71,7 +71,7 @@ def make(
 
 def _render_show(out: Any, b: BatchRecord) -> None:
     p = b.preparation
-    out.print(f"[bold]{b.batch}[/bold]  {b.spec_name} ({b.spec}), "
+    out.print(f"[bold]{b.batch}[/bold]  {output.text(b.spec_name)} ({b.spec}), "
               f"nominal {b.nominal:g} {b.unit}")
     state = b.state
     out.print(f"state: [bold]{state}[/bold]   normality: {output.sig(b.normality, 5)} eq/L "
@@ -89,13 +89,13 @@ def _render_show(out: Any, b: BatchRecord) -> None:
               + (f", balance {p.balance}" if p.balance else "")
               + f"; theoretical {output.sig(p.theoretical_normality, 5)} eq/L")
     if p.notes:
-        out.print(f"notes: {p.notes}")
+        out.print(f"notes: {output.text(p.notes)}")
     if b.retired:
-        out.print(f"retired {b.retired.at} by {b.retired.by}: {b.retired.reason}")
+        out.print(f"retired {b.retired.at} by {b.retired.by}: {output.text(b.retired.reason)}")
     for run in b.runs:
         src = f"lot {run.lot}" if run.lot else f"against {run.reference_batch}"
         head = (f"\n[bold]{run.run}[/bold] {run.status}  {run.performed_at} by "
-                f"{run.analyst}, {src}")
+                f"{run.analyst}, {output.text(src)}")
         inst = ", ".join(x for x in (run.balance and f"balance {run.balance}",
                                      run.burette and f"burette {run.burette}") if x)
         out.print(head + (f" ({inst})" if inst else ""))
@@ -114,10 +114,10 @@ def _render_show(out: Any, b: BatchRecord) -> None:
                                right=(0, 1, 2, 3, 4)))
         for c in run.checks:
             if not c["passed"]:
-                out.print(f"  {c['severity']}: {c['message']}")
+                out.print(f"  {c['severity']}: {output.text(c['message'])}")
         for rv in run.reviews:
             out.print(f"  {rv.decision}ed by {rv.reviewer} {rv.signed_at}"
-                      + (f": {rv.reason}" if rv.reason else ""))
+                      + (f": {output.text(rv.reason)}" if rv.reason else ""))
     if b.uses:
         out.print(f"\nuses: {len(b.uses)}")
     if b.diluted_into:
@@ -195,4 +195,5 @@ def retire(
     if as_json:
         output.emit_json(res)
     else:
-        output.console().print(f"batch [bold]{res.batch}[/bold] retired: {res.reason}")
+        output.console().print(f"batch [bold]{res.batch}[/bold] retired: "
+                               f"{output.text(res.reason)}")

@@ -2,6 +2,12 @@
 
 Rich is imported only when something is drawn, so ``--json`` and ``--help`` do
 not pay for it.
+
+Stored text is shown as text. Every value that came from the record (a note, a
+reason, a name) goes into a printed line through :func:`text`, which shows control
+and formatting characters visibly (``plain``) and escapes Rich markup; a table cell
+is a Rich ``Text``, never read as markup. The console itself also shows any control
+character visibly, so no escape sequence from the record reaches the terminal.
 """
 
 from __future__ import annotations
@@ -51,17 +57,52 @@ def emit_json(data: Any) -> None:
 
 def console(stderr: bool = False) -> Any:
     from rich.console import Console
+    from rich.errors import MarkupError
+
+    class _Console(Console):
+        """A console that shows control characters in printed strings visibly, and a
+        line that is not valid markup as it is (Rich raises before it writes)."""
+
+        def print(self, *objects: Any, **kwargs: Any) -> None:
+            shown = [plain(o) if isinstance(o, str) else o for o in objects]
+            try:
+                super().print(*shown, **kwargs)
+            except MarkupError:  # a stored text that missed `text`: printed as it is
+                super().print(*shown, **(kwargs | {"markup": False}))
 
     width = None
     if os.environ.get("COLUMNS", "").isdigit():
         width = int(os.environ["COLUMNS"])
-    return Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
+    return _Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
+
+
+def plain(value: object) -> str:
+    """``value`` as a string whose control and formatting characters (escape sequences,
+    bidirectional overrides, NUL...) are shown as ``\\x1b``-style escapes; line breaks and
+    tabs stay, as in a note of several lines."""
+    raw = str(value)
+    if raw.isprintable():
+        return raw
+    return "".join(ch if ch.isprintable() or ch in "\n\t" else _escaped(ch) for ch in raw)
+
+
+def _escaped(ch: str) -> str:
+    code = ord(ch)
+    return f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}" if code < 0x10000 \
+        else f"\\U{code:08x}"
+
+
+def text(value: object) -> str:
+    """Stored text for a line printed with Rich markup: shown exactly as stored, never
+    read as markup (``[bold]`` in a note prints as ``[bold]``)."""
+    return escape(plain(value))
 
 
 def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any]],
           *, right: Iterable[int] = (), no_wrap: Iterable[int] = ()) -> Any:
     from rich import box
     from rich.table import Table
+    from rich.text import Text
 
     right_set = set(right)
     keep = set(no_wrap)
@@ -71,7 +112,7 @@ def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any
     for i, name in enumerate(columns):
         tab.add_column(name, justify="right" if i in right_set else "left", no_wrap=i in keep)
     for row in rows:
-        tab.add_row(*("" if cell is None else str(cell) for cell in row))
+        tab.add_row(*(Text("" if cell is None else plain(cell)) for cell in row))
     return tab
 
 
@@ -92,7 +133,7 @@ def fixed(value: float | None, decimals: int) -> str:
 
 def warn_lines(out: Any, warnings: Sequence[str]) -> None:
     for w in warnings:
-        out.print(f"[bold]warning:[/bold] {escape(w)}")
+        out.print(f"[bold]warning:[/bold] {text(w)}")
 
 
 def caution_lines(out: Any, cautions: Sequence[str]) -> None:
@@ -101,7 +142,7 @@ def caution_lines(out: Any, cautions: Sequence[str]) -> None:
     out.print("[bold]Safety[/bold] (follow the safety data sheet, local regulations and "
               "your laboratory's procedures):")
     for c in cautions:
-        out.print(f"  - {escape(c)}")
+        out.print(f"  - {text(c)}")
 
 
 def escape(text: str) -> str:

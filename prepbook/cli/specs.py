@@ -87,4 +87,4 @@ def add(
     if as_json:
         output.emit_json(sp)
     else:
-        output.console().print(f"added spec [bold]{sp.code}[/bold] ({sp.name})")
+        output.console().print(f"added spec [bold]{sp.code}[/bold] ({output.text(sp.name)})")
