@@ -41,11 +41,16 @@ def make(
     balance: str = typer.Option(None, "--balance", metavar="CODE", help="Balance used."),
     notes: str = typer.Option(None, "--notes", metavar="TEXT", help="Free notes."),
     at: str = typer.Option(
-        None, "--at", metavar="WHEN", help="When it was made (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN", help="When it was made (YYYY-MM-DD[THH:MM], lab time), if not now."
     ),
     code: str = typer.Option(
         None, "--code", metavar="CODE",
         help="The lab's own bottle code (default: spec-date-number)."
+    ),
+    late_reason: str = typer.Option(
+        None, "--reason", metavar="TEXT",
+        help="Why it is entered late (needed when --at is more than the lab's "
+        "late_entry_hours ago)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
@@ -56,7 +61,7 @@ def make(
                              solute_mass=solute_mass, solute_lot=solute_lot,
                              stock_volume=stock_volume, from_batch=from_batch, aliquot=aliquot,
                              flask=flask, balance=balance, notes=notes, at=at,
-                             code=code)
+                             code=code, late_reason=late_reason)
     if as_json:
         output.emit_json(res)
         return
@@ -153,7 +158,12 @@ def use(
         None, "--purpose", metavar="TEXT", help="What it was used for (sample, method)."
     ),
     at: str = typer.Option(
-        None, "--at", metavar="WHEN", help="When (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN", help="When (YYYY-MM-DD[THH:MM], lab time), if not now."
+    ),
+    late_reason: str = typer.Option(
+        None, "--reason", metavar="TEXT",
+        help="Why it is entered late (needed when --at is more than the lab's "
+        "late_entry_hours ago)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the use as JSON."),
 ) -> None:
@@ -161,7 +171,7 @@ def use(
     from prepbook.lab import batches
 
     res = batches.use_batch(database(ctx), actor=actor(ctx), code=code, volume=volume,
-                            purpose=purpose, at=at)
+                            purpose=purpose, at=at, late_reason=late_reason)
     if as_json:
         output.emit_json(res)
     else:
@@ -181,7 +191,7 @@ def retire(
     ),
     at: str = typer.Option(
         None, "--at", metavar="WHEN",
-        help="When discarded (YYYY-MM-DD[THH:MM], UTC), if not now."
+        help="When discarded (YYYY-MM-DD[THH:MM], lab time), if not now."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:

@@ -15,7 +15,7 @@ from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_datetime, parse_text
+from prepbook.inputs import parse_text
 from prepbook.lab.batch_records import RunRecord
 from prepbook.lab.batches import run_dict
 from prepbook.lab.common import (
@@ -23,8 +23,8 @@ from prepbook.lab.common import (
     acting,
     by_code,
     find_by_code,
-    not_future,
     signed,
+    work_time,
     write,
 )
 from prepbook.store import retry
@@ -95,7 +95,7 @@ def review(
     sign-off); the audit event keeps the time it was entered as well.
     """
     reason = parse_text(reason, "reason", max_len=1000)
-    signed_at = not_future(parse_datetime(at, "--at") if at else None, "review time")
+    signed_at = work_time(db, at, "review time", reason=reason)
     if not accept and not (reason and reason.strip()):
         raise InvalidInput("a rejection needs a --reason")
     with db.session(write=False) as s:

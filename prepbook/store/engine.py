@@ -16,7 +16,7 @@ import os
 import re
 import sqlite3
 from collections.abc import Iterator
-from contextlib import contextmanager
+from contextlib import contextmanager, suppress
 from pathlib import Path, PureWindowsPath
 from typing import Any
 from urllib.parse import quote
@@ -126,10 +126,9 @@ def _install_sqlite_pragmas(engine: Engine, *, foreign_keys: bool) -> None:
         cursor = dbapi_connection.cursor()
         try:
             cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
-            try:
+            # A read-only file stays in its journal mode: it is only read.
+            with suppress(sqlite3.OperationalError):
                 cursor.execute("PRAGMA journal_mode = WAL")
-            except sqlite3.OperationalError:
-                pass  # a read-only file stays in its journal mode: it is only read
             cursor.execute(f"PRAGMA foreign_keys = {'ON' if foreign_keys else 'OFF'}")
             # LIKE as PostgreSQL has it, case-sensitive (codes are): then SQLite finds
             # ``code LIKE 'prefix-%'`` (the next free code) through the index on code
