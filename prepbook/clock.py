@@ -97,20 +97,36 @@ def local_date(moment: datetime, zone: tzinfo) -> date:
     return local(moment, zone).date()
 
 
+def as_utc(value: datetime | str | None) -> datetime | None:
+    """A stored time, or the ISO text the services return for one (naive, UTC), as a
+    naive UTC datetime; None for a date alone or text that is not a time."""
+    if value is None or isinstance(value, datetime):
+        return value
+    if "T" not in value:
+        return None
+    try:
+        moment = datetime.fromisoformat(value)
+    except ValueError:
+        return None
+    return moment.astimezone(UTC).replace(tzinfo=None) if moment.tzinfo else moment
+
+
 def shown(value: datetime | str | None, zone: tzinfo) -> str:
     """A stored time as a person reads it: lab wall-clock time with its offset,
     ``2026-12-04 11:30 +01:00``. Accepts the ISO text the services return (naive,
     UTC); a date alone, or text that is not a time, is returned as it is."""
     if value is None:
         return "-"
-    if isinstance(value, str):
-        if "T" not in value:
-            return value
-        try:
-            value = datetime.fromisoformat(value)
-        except ValueError:
-            return value
-        if value.tzinfo is not None:
-            value = value.astimezone(UTC).replace(tzinfo=None)
-    there = local(value, zone)
+    moment = as_utc(value)
+    if moment is None:
+        return str(value)
+    there = local(moment, zone)
     return f"{there:%Y-%m-%d %H:%M} {_offset(there.utcoffset())}"
+
+
+def late(performed: datetime | str | None, entered: datetime | str | None,
+         allowed: timedelta) -> bool:
+    """True when work done at ``performed`` was entered at ``entered`` more than
+    ``allowed`` later (a late entry, shown as such)."""
+    done, typed = as_utc(performed), as_utc(entered)
+    return done is not None and typed is not None and typed - done > allowed

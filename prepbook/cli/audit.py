@@ -28,16 +28,22 @@ def log(
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """List audit events."""
-    from prepbook.lab import auditing
+    from prepbook import clock
+    from prepbook.lab import auditing, settings
 
-    events = auditing.log(database(ctx), record=record, actor=actor_name, since=since,
+    db = database(ctx)
+    events = auditing.log(db, record=record, actor=actor_name, since=since,
                           until=until, limit=limit)
     if as_json:
         output.emit_json(events)
         return
+    clk = settings.lab_clock(db)
     output.console().print(output.table(
-        "Audit trail", ["seq", "at (UTC)", "actor", "action", "record", "reason"],
-        [(e.seq, e.at, e.actor, e.action, e.record, e.reason or "")
+        f"Audit trail (lab time, {clock.zone_name(clk.zone)})",
+        ["seq", "entered", "work done", "actor", "action", "record", "reason"],
+        [(e.seq, clk.shown(e.at),
+          (clk.shown(e.performed_at) + (" LATE" if clk.late(e.performed_at, e.at) else ""))
+          if e.performed_at else "", e.actor, e.action, e.record, e.reason or "")
          for e in events], right=(0,)))
 
 

@@ -11,6 +11,7 @@ from prepbook.cli.session import actor, database
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BatchRecord
+    from prepbook.lab.settings import LabClock
 
 app = typer.Typer(
     help="Make batches and show their history.",
@@ -74,7 +75,7 @@ def make(
     output.caution_lines(out, res.cautions)
 
 
-def _render_show(out: Any, b: BatchRecord) -> None:
+def _render_show(out: Any, b: BatchRecord, clk: LabClock) -> None:
     p = b.preparation
     out.print(f"[bold]{b.batch}[/bold]  {output.text(b.spec_name)} ({b.spec}), "
               f"nominal {b.nominal:g} {b.unit}")
@@ -89,17 +90,20 @@ def _render_show(out: Any, b: BatchRecord) -> None:
         "concentrate": f"{p.concentrate_volume_ml} mL of concentrate",
         "dilution": f"{p.aliquot_ml} mL of batch {p.from_batch}",
     }[p.method]
-    out.print(f"made {p.made_at} by {p.made_by}: {how} made up to {p.volume_ml} mL"
+    out.print(f"made {clk.shown(p.made_at)}{clk.entered(p.made_at, p.recorded_at)} by "
+              f"{p.made_by}: {output.text(how)} made up to {p.volume_ml} mL"
               + (f" in flask {p.flask}" if p.flask else "")
               + (f", balance {p.balance}" if p.balance else "")
               + f"; theoretical {output.sig(p.theoretical_normality, 5)} eq/L")
     if p.notes:
         out.print(f"notes: {output.text(p.notes)}")
     if b.retired:
-        out.print(f"retired {b.retired.at} by {b.retired.by}: {output.text(b.retired.reason)}")
+        out.print(f"retired {clk.shown(b.retired.at)} by {b.retired.by}: "
+                  f"{output.text(b.retired.reason)}")
     for run in b.runs:
         src = f"lot {run.lot}" if run.lot else f"against {run.reference_batch}"
-        head = (f"\n[bold]{run.run}[/bold] {run.status}  {run.performed_at} by "
+        head = (f"\n[bold]{run.run}[/bold] {run.status}  {clk.shown(run.performed_at)}"
+                f"{clk.entered(run.performed_at, run.recorded_at)} by "
                 f"{run.analyst}, {output.text(src)}")
         inst = ", ".join(x for x in (run.balance and f"balance {run.balance}",
                                      run.burette and f"burette {run.burette}") if x)
@@ -121,7 +125,7 @@ def _render_show(out: Any, b: BatchRecord) -> None:
             if not c["passed"]:
                 out.print(f"  {c['severity']}: {output.text(c['message'])}")
         for rv in run.reviews:
-            out.print(f"  {rv.decision}ed by {rv.reviewer} {rv.signed_at}"
+            out.print(f"  {rv.decision}ed by {rv.reviewer} {clk.shown(rv.signed_at)}"
                       + (f": {output.text(rv.reason)}" if rv.reason else ""))
     if b.uses:
         out.print(f"\nuses: {len(b.uses)}")
@@ -140,13 +144,14 @@ def show(
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """The whole chain of a batch: preparation, standardizations, replicates, reviews."""
-    from prepbook.lab import batches
+    from prepbook.lab import batches, settings
 
-    b = batches.show_batch(database(ctx), code)
+    db = database(ctx)
+    b = batches.show_batch(db, code)
     if as_json:
         output.emit_json(b)
     else:
-        _render_show(output.console(), b)
+        _render_show(output.console(), b, settings.lab_clock(db))
 
 
 @app.command("use")

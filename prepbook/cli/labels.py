@@ -58,7 +58,10 @@ def label(
     if stale:
         if code is not None:
             raise InvalidInput("--stale lists every bottle; give no CODE with it")
-        rows = labels.stale_labels(database(ctx))
+        from prepbook.lab import settings
+
+        db = database(ctx)
+        rows = labels.stale_labels(db)
         if as_json:
             output.emit_json(rows)
             return
@@ -69,7 +72,7 @@ def label(
         out.print(output.table(
             f"Labels to replace: {len(rows)}",
             ["batch", "label printed", "by", "shows run", "factor", "why"],
-            [(r.batch, r.printed_at, r.printed_by, r.shown.run or "-",
+            [(r.batch, settings.lab_clock(db).shown(r.printed_at), r.printed_by, r.shown.run or "-",
               output.fixed(r.shown.factor, 4), "; ".join(r.reasons)) for r in rows],
             no_wrap=(0, 1)))
         return

@@ -232,9 +232,9 @@ def _find_batch(session: Session, code: str) -> Batch:
 def stale_labels(db: Database, today: date | None = None) -> list[StaleLabel]:
     """Bottles (batches not retired) whose latest label no longer matches the record:
     a newer or corrected standardization, another factor, or other dates."""
-    today = today or utc_now().date()
     out: list[StaleLabel] = []
     with db.session(write=False) as s:
+        today = today or clock.local_date(utc_now(), lab_zone(s))
         latest: dict[int, LabelPrint] = {}
         for lp in s.scalars(select(LabelPrint).where(LabelPrint.batch_id.is_not(None))
                             .order_by(LabelPrint.printed_at, LabelPrint.id)):

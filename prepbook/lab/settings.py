@@ -3,13 +3,22 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import datetime, timedelta, tzinfo
 
 from sqlalchemy import select
 
 from prepbook import clock
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_text, utc_now
-from prepbook.lab.common import LATE_AFTER_HOURS, acting, iso, signed, write
+from prepbook.lab.common import (
+    LATE_AFTER_HOURS,
+    acting,
+    iso,
+    lab_zone,
+    late_after,
+    signed,
+    write,
+)
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Setting
@@ -66,6 +75,34 @@ class SettingValue:
     help: str
     changed_at: str | None
     changed_by: str | None
+
+
+@dataclass(frozen=True)
+class LabClock:
+    """The lab's time zone and how late an entry may be without a reason: what a
+    screen needs to show times in lab time and mark late entries."""
+
+    zone: tzinfo
+    late_after: timedelta
+
+    def shown(self, value: datetime | str | None) -> str:
+        """A stored (UTC) time in lab wall-clock time with its offset."""
+        return clock.shown(value, self.zone)
+
+    def late(self, performed: datetime | str | None, entered: datetime | str | None) -> bool:
+        return clock.late(performed, entered, self.late_after)
+
+    def entered(self, performed: datetime | str | None,
+                entered: datetime | str | None) -> str:
+        """`` (entered ... late)`` after a time entered late, else nothing."""
+        if not self.late(performed, entered):
+            return ""
+        return f" (entered {self.shown(entered)}, late)"
+
+
+def lab_clock(db: Database) -> LabClock:
+    with db.session(write=False) as s:
+        return LabClock(zone=lab_zone(s), late_after=late_after(s))
 
 
 @dataclass(frozen=True)
