@@ -13,6 +13,7 @@ its offset: guessing would put the work an hour off.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from datetime import UTC, date, datetime, timedelta, tzinfo
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
@@ -130,3 +131,27 @@ def late(performed: datetime | str | None, entered: datetime | str | None,
     ``allowed`` later (a late entry, shown as such)."""
     done, typed = as_utc(performed), as_utc(entered)
     return done is not None and typed is not None and typed - done > allowed
+
+
+@dataclass(frozen=True)
+class LabClock:
+    """The lab's time zone and how late an entry may be without a reason: what a
+    screen, a report or a label needs to show times in lab time and mark late entries
+    (``prepbook.lab.settings.lab_clock`` reads it from the database)."""
+
+    zone: tzinfo = UTC
+    late_after: timedelta = timedelta(hours=72)
+
+    def shown(self, value: datetime | str | None) -> str:
+        """A stored (UTC) time in lab wall-clock time with its offset."""
+        return shown(value, self.zone)
+
+    def late(self, performed: datetime | str | None, entered: datetime | str | None) -> bool:
+        return late(performed, entered, self.late_after)
+
+    def entered(self, performed: datetime | str | None,
+                entered: datetime | str | None) -> str:
+        """`` (entered ..., late)`` after a time entered late, else nothing."""
+        if not self.late(performed, entered):
+            return ""
+        return f" (entered {self.shown(entered)}, late)"

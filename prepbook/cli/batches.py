@@ -42,7 +42,8 @@ def make(
     balance: str = typer.Option(None, "--balance", metavar="CODE", help="Balance used."),
     notes: str = typer.Option(None, "--notes", metavar="TEXT", help="Free notes."),
     at: str = typer.Option(
-        None, "--at", metavar="WHEN", help="When it was made (YYYY-MM-DD[THH:MM], lab time), if not now."
+        None, "--at", metavar="WHEN",
+        help="When it was made (YYYY-MM-DD[THH:MM], lab time), if not now."
     ),
     code: str = typer.Option(
         None, "--code", metavar="CODE",

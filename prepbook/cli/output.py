@@ -21,6 +21,8 @@ from dataclasses import asdict, fields, is_dataclass
 from datetime import date, datetime
 from typing import Any
 
+from prepbook.text import visible
+
 
 def _default(value: Any) -> Any:
     if isinstance(value, datetime):
@@ -77,19 +79,8 @@ def console(stderr: bool = False) -> Any:
 
 
 def plain(value: object) -> str:
-    """``value`` as a string whose control and formatting characters (escape sequences,
-    bidirectional overrides, NUL...) are shown as ``\\x1b``-style escapes; line breaks and
-    tabs stay, as in a note of several lines."""
-    raw = str(value)
-    if raw.isprintable():
-        return raw
-    return "".join(ch if ch.isprintable() or ch in "\n\t" else _escaped(ch) for ch in raw)
-
-
-def _escaped(ch: str) -> str:
-    code = ord(ch)
-    return f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}" if code < 0x10000 \
-        else f"\\U{code:08x}"
+    """``value`` with its control and format characters shown visibly (``\\x1b``)."""
+    return visible(value)
 
 
 def text(value: object) -> str:

@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from datetime import datetime, timedelta, tzinfo
 
 from sqlalchemy import select
 
 from prepbook import clock
+from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_text, utc_now
 from prepbook.lab.common import (
@@ -75,29 +75,6 @@ class SettingValue:
     help: str
     changed_at: str | None
     changed_by: str | None
-
-
-@dataclass(frozen=True)
-class LabClock:
-    """The lab's time zone and how late an entry may be without a reason: what a
-    screen needs to show times in lab time and mark late entries."""
-
-    zone: tzinfo
-    late_after: timedelta
-
-    def shown(self, value: datetime | str | None) -> str:
-        """A stored (UTC) time in lab wall-clock time with its offset."""
-        return clock.shown(value, self.zone)
-
-    def late(self, performed: datetime | str | None, entered: datetime | str | None) -> bool:
-        return clock.late(performed, entered, self.late_after)
-
-    def entered(self, performed: datetime | str | None,
-                entered: datetime | str | None) -> str:
-        """`` (entered ... late)`` after a time entered late, else nothing."""
-        if not self.late(performed, entered):
-            return ""
-        return f" (entered {self.shown(entered)}, late)"
 
 
 def lab_clock(db: Database) -> LabClock:
