@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from prepbook.clock import LabClock, zone_name
+from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput
 from prepbook.render import files
 from prepbook.render.labels import significant
@@ -313,7 +313,7 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str,
         story.append(_table(["audit #", "at", "by", "action", "record", "reason"],
                             [[e.seq, clk.shown(e.at), e.actor, e.action, e.record, e.reason]
                              for e in data.corrections],
-                            [w * width for w in (0.08, 0.17, 0.1, 0.15, 0.13, 0.37)], st))
+                            [w * width for w in (0.07, 0.21, 0.1, 0.14, 0.12, 0.36)], st))
     else:
         story.append(_p("No record of this batch was changed with a reason.", st.body))
 
@@ -359,7 +359,7 @@ def _build(data: ReportData, make_story: Any, pagesize: tuple[float, float],
     audit = data.audit
     footer_left = (f"audit chain head {audit.head_hash or '-'} "
                    f"({'verified' if audit.ok else 'NOT VERIFIED'})")
-    footer_right = f"printed {clk.shown(data.printed_at)} ({zone_name(clk.zone)})"
+    footer_right = f"printed {clk.shown(data.printed_at)}"
     header = f"prepbook batch record  {b.batch}"
 
     class _Doc(SimpleDocTemplate):

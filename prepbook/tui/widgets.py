@@ -1,4 +1,12 @@
-"""Widgets of our own: a labelled text chart of a batch's factor, and state cells."""
+"""Widgets of our own: a labelled text chart of a batch's factor, state cells, and the
+tables and message text that show stored text as text.
+
+Textual reads a ``str`` given to a DataTable cell, a Rich table cell or
+``Static.update`` as markup, so a note holding ``[/]`` would crash the screen and
+``[link=...]`` would make a link. Stored text therefore reaches the screen as a Rich
+``Text`` (never markup) made by :func:`shown`, with its control characters visible;
+:class:`SafeTable` and :func:`safe_table` do that for every string cell.
+"""
 
 from __future__ import annotations
 
@@ -6,16 +14,45 @@ from collections.abc import Mapping, Sequence
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
 
+from rich.table import Table
 from rich.text import Text
 from textual.app import App
-from textual.widgets import Static
+from textual.widgets import DataTable, Static
 
+from prepbook.text import visible
 from prepbook.tui import words
 
 if TYPE_CHECKING:
     from prepbook.lab.watch import BatchTrend, FactorPoint
 
 MARKS = {"accepted": "●", "awaiting-review": "◇", "rejected": "×"}
+
+
+def shown(value: object, style: str = "") -> Text:
+    """Stored (or typed) text for the screen: never read as markup, control characters
+    shown visibly."""
+    return value if isinstance(value, Text) else Text(visible(value), style=style)
+
+
+def _cells(cells: Sequence[Any]) -> list[Any]:
+    return [shown(c) if isinstance(c, str) else c for c in cells]
+
+
+class SafeTable(DataTable[Any]):
+    """A DataTable whose string cells are shown as text, never read as markup."""
+
+    def add_row(self, *cells: Any, **kwargs: Any) -> Any:
+        return super().add_row(*_cells(cells), **kwargs)
+
+
+class _SafeRichTable(Table):
+    def add_row(self, *renderables: Any, **kwargs: Any) -> None:
+        super().add_row(*_cells(renderables), **kwargs)
+
+
+def safe_table(**kwargs: Any) -> Table:
+    """A Rich table whose string cells are shown as text, never read as markup."""
+    return _SafeRichTable(**kwargs)
 
 
 def colour(app: App, name: str) -> str:

@@ -11,7 +11,7 @@ from textual.widgets import DataTable, Footer, Input, Static
 
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
-from prepbook.tui.widgets import colour
+from prepbook.tui.widgets import SafeTable, colour, shown
 
 PAGE = 200  # newest events first shown; m shows older ones page by page
 
@@ -37,7 +37,7 @@ class AuditScreen(Screen[None]):
             yield Input(placeholder="actor", id="f-actor")
             yield Input(placeholder="since YYYY-MM-DD", id="f-since")
             yield Input(placeholder="until YYYY-MM-DD", id="f-until")
-        yield DataTable(id="events", cursor_type="row", zebra_stripes=True)
+        yield SafeTable(id="events", cursor_type="row", zebra_stripes=True)
         yield Static("", id="message", classes="message")
         yield Footer()
 
@@ -65,7 +65,7 @@ class AuditScreen(Screen[None]):
                                   until=val("#f-until"), limit=self.limit + 1)
         except PrepbookError as exc:
             msg.set_class(True, "refusal")
-            msg.update(f"filter refused: {exc}")
+            msg.update(shown(f"filter refused: {exc}"))
             return
         more = len(events) > self.limit
         events = events[-self.limit:]

@@ -16,7 +16,7 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import run_block, safety, small_table
-from prepbook.tui.widgets import TrendChart, colour, state_cell
+from prepbook.tui.widgets import SafeTable, TrendChart, colour, shown, state_cell
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BatchRecord
@@ -50,7 +50,7 @@ class BatchScreen(Screen[None]):
                 yield TrendChart(id="chart")
                 yield Static("", id="trend-points")
             with TabPane("3 audit events", id="events"):
-                yield DataTable(id="batch-events", cursor_type="row", zebra_stripes=True)
+                yield SafeTable(id="batch-events", cursor_type="row", zebra_stripes=True)
         yield Static("", id="message", classes="message")
         yield Footer()
 
@@ -100,10 +100,10 @@ class BatchScreen(Screen[None]):
             f"{words.fixed(d.factor)} to nominal {d.nominal:g} {d.unit}  ·  "
             f"restandardize by {d.restandardize_by or '-'}  ·  expires {d.expires}"))
         for w in d.warnings:
-            parts.append(Text(f"  ! {w}", style=warn))
+            parts.append(shown(f"  ! {w}", style=warn))
         if d.retired:
             r = d.retired
-            parts.append(Text(f"  retired {words.when(r.at)} by {r.by}: {r.reason}"))
+            parts.append(shown(f"  retired {words.when(r.at)} by {r.by}: {r.reason}"))
         p = d.preparation
         parts.append(Text("\npreparation", style="bold"))
         how = {"solid": f"{p.solute_mass_g} g of solute"
@@ -158,7 +158,7 @@ class BatchScreen(Screen[None]):
     def say(self, text: str, *, bad: bool = False) -> None:
         msg = self.query_one("#message", Static)
         msg.set_class(bad, "refusal")
-        msg.update(text)
+        msg.update(shown(text))
 
     def action_tab(self, tab: str) -> None:
         self.query_one("#tabs", TabbedContent).active = tab

@@ -16,7 +16,7 @@ from textual.widgets import DataTable, Footer, Static
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, run_block
-from prepbook.tui.widgets import colour
+from prepbook.tui.widgets import SafeTable, colour, shown
 
 if TYPE_CHECKING:
     from prepbook.lab.reviews import QueuedRun
@@ -39,7 +39,7 @@ class ReviewScreen(Screen[None]):
 
     def compose(self) -> ComposeResult:
         yield Static("", id="topline", classes="topline")
-        yield DataTable(id="queue", cursor_type="row", zebra_stripes=True)
+        yield SafeTable(id="queue", cursor_type="row", zebra_stripes=True)
         with VerticalScroll(id="review-detail"):
             yield Static("", id="review-body")
         yield Static("", id="message", classes="message")
@@ -131,7 +131,7 @@ class ReviewScreen(Screen[None]):
     def say(self, text: str, *, bad: bool = False) -> None:
         msg = self.query_one("#message", Static)
         msg.set_class(bad, "refusal")
-        msg.update(text)
+        msg.update(shown(text))
 
     def action_open_batch(self) -> None:
         from prepbook.tui.screens.batch import BatchScreen
