@@ -88,6 +88,7 @@ def review(
     reason: str | None,
     passphrase: str | None,
     at: str | None = None,
+    late_reason: str | None = None,
 ) -> QueuedRun:
     """A second person's signed accept or reject of a run awaiting review.
 
@@ -95,7 +96,8 @@ def review(
     sign-off); the audit event keeps the time it was entered as well.
     """
     reason = parse_text(reason, "reason", max_len=1000)
-    signed_at = work_time(db, at, "review time", reason=reason)
+    late_reason = parse_text(late_reason, "reason", max_len=500) or reason
+    signed_at = work_time(db, at, "review time", reason=late_reason)
     if not accept and not (reason and reason.strip()):
         raise InvalidInput("a rejection needs a --reason")
     with db.session(write=False) as s:
@@ -109,9 +111,10 @@ def review(
         decision = "accept" if accept else "reject"
         write(s, actor, f"review.{decision}",
               Review(run_id=r.id, reviewer=actor, decision=decision, reason=reason,
-                     signed_at=signed_at), reason=reason, performed_at=signed_at)
+                     signed_at=signed_at), reason=reason or late_reason,
+              performed_at=signed_at)
         r.status = "accepted" if accept else "rejected"
-        write(s, actor, "run.status", r, reason=reason, performed_at=signed_at)
+        write(s, actor, "run.status", r, reason=reason or late_reason, performed_at=signed_at)
         return _record(s, r)
 
 

@@ -13,12 +13,14 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
+from weakref import WeakKeyDictionary
 
 from rich.table import Table
 from rich.text import Text
 from textual.app import App
 from textual.widgets import DataTable, Static
 
+from prepbook.clock import LabClock
 from prepbook.text import visible
 from prepbook.tui import words
 
@@ -32,6 +34,23 @@ def shown(value: object, style: str = "") -> Text:
     """Stored (or typed) text for the screen: never read as markup, control characters
     shown visibly."""
     return value if isinstance(value, Text) else Text(visible(value), style=style)
+
+
+_CLOCKS: WeakKeyDictionary[App[Any], LabClock] = WeakKeyDictionary()
+
+
+def when(app: App[Any], value: str | None) -> str:
+    """A stored time in the lab's wall-clock time with its offset (the lab's zone is
+    read once per running app)."""
+    clk = _CLOCKS.get(app)
+    if clk is None:
+        db = getattr(app, "db", None)
+        if db is None:  # no database (a screen drawn alone): UTC, as stored
+            return LabClock().shown(value)
+        from prepbook.lab import settings
+
+        clk = _CLOCKS[app] = settings.lab_clock(db)
+    return clk.shown(value)
 
 
 def _cells(cells: Sequence[Any]) -> list[Any]:

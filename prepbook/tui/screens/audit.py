@@ -10,8 +10,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
 from prepbook.errors import PrepbookError
-from prepbook.tui import words
-from prepbook.tui.widgets import SafeTable, colour, shown
+from prepbook.tui.widgets import SafeTable, colour, shown, when
 
 PAGE = 200  # newest events first shown; m shows older ones page by page
 
@@ -72,8 +71,8 @@ class AuditScreen(Screen[None]):
         table = self.query_one("#events", DataTable)
         table.clear()
         for ev in reversed(events):  # newest first
-            table.add_row(str(ev.seq), words.when(ev.at), ev.actor, ev.action,
-                          ev.record, words.when(ev.performed_at), ev.reason or "")
+            table.add_row(str(ev.seq), when(self.app, ev.at), ev.actor, ev.action,
+                          ev.record, when(self.app, ev.performed_at), ev.reason or "")
         msg.set_class(False, "refusal")
         msg.update(f"{len(events)} event(s), newest first"
                    + ("; m shows older ones" if more else "; that is all of them"))

@@ -16,7 +16,7 @@ from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import run_block, safety, small_table
-from prepbook.tui.widgets import SafeTable, TrendChart, colour, shown, state_cell
+from prepbook.tui.widgets import SafeTable, TrendChart, colour, shown, state_cell, when
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BatchRecord
@@ -80,7 +80,7 @@ class BatchScreen(Screen[None]):
         limit = trend.trend.drift_limit_percent
         for p in trend.points:
             ch = p.change_percent
-            pts.add_row(p.run, words.when(p.at), words.run_words(p.status),
+            pts.add_row(p.run, when(self.app, p.at), words.run_words(p.status),
                         words.fixed(p.factor, 5), "-" if ch is None else f"{ch:+.3f}",
                         f"beyond the drift limit {limit:g} %" if p.beyond_drift_limit
                         else "")
@@ -103,7 +103,7 @@ class BatchScreen(Screen[None]):
             parts.append(shown(f"  ! {w}", style=warn))
         if d.retired:
             r = d.retired
-            parts.append(shown(f"  retired {words.when(r.at)} by {r.by}: {r.reason}"))
+            parts.append(shown(f"  retired {when(self.app, r.at)} by {r.by}: {r.reason}"))
         p = d.preparation
         parts.append(Text("\npreparation", style="bold"))
         how = {"solid": f"{p.solute_mass_g} g of solute"
@@ -112,8 +112,8 @@ class BatchScreen(Screen[None]):
                "dilution": f"{p.aliquot_ml} mL of batch {p.from_batch}"}[p.method]
         parts.append(Text(
             f"  {how}, made up to {p.volume_ml} mL in flask {p.flask or '-'}"
-            f" (balance {p.balance or '-'})\n  made {words.when(p.made_at)} by "
-            f"{p.made_by}, recorded {words.when(p.recorded_at)};  theoretical N "
+            f" (balance {p.balance or '-'})\n  made {when(self.app, p.made_at)} by "
+            f"{p.made_by}, recorded {when(self.app, p.recorded_at)};  theoretical N "
             f"{words.sig(p.theoretical_normality)}"
             + (f"\n  notes: {p.notes}" if p.notes else "")))
         if d.diluted_into:
@@ -130,7 +130,7 @@ class BatchScreen(Screen[None]):
         if d.uses:
             t = small_table("when", "by", "mL", "purpose", right=(2,))
             for u in d.uses:
-                t.add_row(words.when(u.at), u.by, u.volume_ml or "-",
+                t.add_row(when(self.app, u.at), u.by, u.volume_ml or "-",
                           u.purpose or "")
             parts.append(t)
         else:
@@ -146,8 +146,8 @@ class BatchScreen(Screen[None]):
                 table.add_column(c)
         table.clear()
         for ev in watch.batch_events(self.app.db, self.code):  # type: ignore[attr-defined]
-            table.add_row(str(ev.seq), words.when(ev.at), ev.actor, ev.action,
-                          ev.record, words.when(ev.performed_at), ev.reason or "")
+            table.add_row(str(ev.seq), when(self.app, ev.at), ev.actor, ev.action,
+                          ev.record, when(self.app, ev.performed_at), ev.reason or "")
         self._events_loaded = True
 
     def on_tabbed_content_tab_activated(self, event: TabbedContent.TabActivated) -> None:

@@ -11,7 +11,7 @@ from rich.text import Text
 from textual.app import App
 
 from prepbook.tui import words
-from prepbook.tui.widgets import check_cell, colour, safe_table, shown, status_cell
+from prepbook.tui.widgets import check_cell, colour, safe_table, shown, status_cell, when
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BudgetRow, RunRecord
@@ -69,8 +69,8 @@ def run_block(app: App, run: RunRecord, unit: str = "N") -> RenderableType:
     """One standardization: how it was done, its replicates, checks, budget and reviews."""
     head = Text.assemble(
         (f"run {run.run}", "bold"), "  ", status_cell(app, run.status),
-        f"  {run.method}  performed {words.when(run.performed_at)} by {run.analyst}"
-        f"  (recorded {words.when(run.recorded_at)})")
+        f"  {run.method}  performed {when(app, run.performed_at)} by {run.analyst}"
+        f"  (recorded {when(app, run.recorded_at)})")
     against = (f"lot {run.lot} ({run.lot_certificate or 'no certificate on record'})"
                if run.lot else f"against batch {run.reference_batch}")
     how = Text(f"  {against};  balance {run.balance or '-'};  burette "
@@ -107,7 +107,7 @@ def run_block(app: App, run: RunRecord, unit: str = "N") -> RenderableType:
         parts.append(ct)
     for rv in run.reviews:
         parts.append(shown(f"  {rv.decision}ed by {rv.reviewer} on "
-                           f"{words.when(rv.signed_at)}"
+                           f"{when(app, rv.signed_at)}"
                            + (f": {rv.reason}" if rv.reason else "")))
     return Group(*parts)
 

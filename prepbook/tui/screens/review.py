@@ -16,7 +16,7 @@ from textual.widgets import DataTable, Footer, Static
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, run_block
-from prepbook.tui.widgets import SafeTable, colour, shown
+from prepbook.tui.widgets import SafeTable, colour, shown, when
 
 if TYPE_CHECKING:
     from prepbook.lab.reviews import QueuedRun
@@ -64,7 +64,7 @@ class ReviewScreen(Screen[None]):
         for r in self.queue:
             v_style = colour(self.app, {"pass": "success", "fail": "error"}.get(
                 r.verdict or "", "warning"))
-            table.add_row(r.run, r.batch, r.analyst, words.when(r.performed_at),
+            table.add_row(r.run, r.batch, r.analyst, when(self.app, r.performed_at),
                           Text(words.sig(r.normality), justify="right"),
                           Text(words.fixed(r.factor), justify="right"),
                           Text(words.sig(r.rsd_percent, 3), justify="right"),
