@@ -89,8 +89,12 @@ def _offset(delta: timedelta | None) -> str:
 
 
 def local(moment: datetime, zone: tzinfo) -> datetime:
-    """A stored (naive UTC) time as an aware time in ``zone``."""
-    return moment.replace(tzinfo=UTC).astimezone(zone)
+    """A stored (naive UTC) time as an aware time in ``zone``; at the very ends of the
+    calendar (a record changed behind the tool's back), as it is stored, in UTC."""
+    try:
+        return moment.replace(tzinfo=UTC).astimezone(zone)
+    except OverflowError:
+        return moment.replace(tzinfo=UTC)
 
 
 def local_date(moment: datetime, zone: tzinfo) -> date:
@@ -122,7 +126,7 @@ def shown(value: datetime | str | None, zone: tzinfo) -> str:
     if moment is None:
         return str(value)
     there = local(moment, zone)
-    return f"{there:%Y-%m-%d %H:%M} {_offset(there.utcoffset())}"
+    return f"{there.year:04d}-{there:%m-%d %H:%M} {_offset(there.utcoffset())}"
 
 
 def late(performed: datetime | str | None, entered: datetime | str | None,
