@@ -134,7 +134,8 @@ def test_dates_outside_the_supported_range_are_one_line(bench: Cli) -> None:  # 
     assert row_counts(bench.db) == before
 
 
-def test_a_zone_that_is_not_an_iana_name_is_one_line(bench: Cli, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
+def test_a_zone_that_is_not_an_iana_name_is_one_line(
+        bench: Cli, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
     before = row_counts(bench.db)
     out = bench.refused("settings", "set", "timezone", "Mars/Olympus", "--reason", "x",
                         "--passphrase-stdin", user="ada", input="ada-passphrase\n")
@@ -146,7 +147,8 @@ def test_a_zone_that_is_not_an_iana_name_is_one_line(bench: Cli, monkeypatch: py
     assert row_counts(bench.db) == before
 
 
-def test_the_configured_zone_serves_until_the_lab_sets_its_own(bench: Cli, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
+def test_the_configured_zone_serves_until_the_lab_sets_its_own(
+        bench: Cli, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
     monkeypatch.setenv("PREPBOOK_TIMEZONE", WEST)
     typed = _local(WEST, hours=-2)
     bench.ok("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
