@@ -98,6 +98,31 @@ def parse_number(
     return Reading(text=raw.lstrip("+"), value=value)
 
 
+# The largest whole number a count or a record id may be (what both databases store).
+MAX_WHOLE = 2**63 - 1
+
+
+def parse_whole(text: str | int, what: str, *, minimum: int = 0,
+                maximum: int = MAX_WHOLE) -> int:
+    """A whole number typed with the ASCII digits 0-9 (a count, a number of days, a
+    record id), between ``minimum`` and ``maximum``."""
+    if isinstance(text, int) and not isinstance(text, bool):
+        value = text
+    else:
+        raw = str(text).strip()
+        foreign = _foreign_character(raw)
+        if foreign is not None:
+            raise InvalidInput(f"{what}: {_shown(raw)!r} holds {foreign}; type the digits 0-9")
+        if not raw.isdigit() or len(raw) > 19:
+            raise InvalidInput(f"{what}: {_shown(raw)!r} is not a whole number from "
+                               f"{minimum} to {maximum}")
+        value = int(raw)
+    if not minimum <= value <= maximum:
+        raise InvalidInput(f"{what} must be a whole number from {minimum} to {maximum} "
+                           f"(got {value})")
+    return value
+
+
 def parse_percent(text: str, what: str) -> Reading:
     """A percentage in (0, 100], such as a certificate purity."""
     reading = parse_number(text, what, positive=True)

@@ -22,7 +22,7 @@ def log(
     actor_name: str = typer.Option(None, "--actor", metavar="NAME", help="Only this actor."),
     since: str = typer.Option(None, "--since", metavar="DATE", help="From this date, YYYY-MM-DD."),
     until: str = typer.Option(None, "--until", metavar="DATE", help="Up to this date, YYYY-MM-DD."),
-    limit: int = typer.Option(
+    limit: str = typer.Option(
         None, "--limit", metavar="N", help="At most this many events (newest)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
@@ -33,7 +33,8 @@ def log(
 
     db = database(ctx)
     events = auditing.log(db, record=record, actor=actor_name, since=since,
-                          until=until, limit=limit)
+                          until=until,
+                          limit=None if limit is None else output.whole(limit, "--limit", 1))
     if as_json:
         output.emit_json(events)
         return

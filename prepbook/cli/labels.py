@@ -42,7 +42,7 @@ def label(
                              help="Label stock, WxH with mm or in: 100x50mm, "
                              "89x36mm, 70x37mm (default), 62x29mm, 4x2in, 2.625x1in.",
                              show_default=False),
-    copies: int = typer.Option(1, "--copies", metavar="N", help="How many labels."),
+    copies: str = typer.Option("1", "--copies", metavar="N", help="How many labels."),
     sheet: str = typer.Option(None, "--sheet", metavar="PAPER",
                               help="Lay the labels out on a4 or letter "
                               "sheets instead of one label per page.", show_default=False),
@@ -79,7 +79,8 @@ def label(
     if code is None:
         raise InvalidInput("give a batch code (or a lot code with --lot), or --stale")
     res = print_label(database(ctx), actor=actor(ctx), code=code, output=out_file, size=size,
-                      copies=copies, sheet=sheet, lot=lot, replace=replace)
+                      copies=output.whole(copies, "--copies", 1), sheet=sheet, lot=lot,
+                      replace=replace)
     if as_json:
         output.emit_json(res)
         return

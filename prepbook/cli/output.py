@@ -107,6 +107,14 @@ def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any
     return tab
 
 
+def whole(text: str, what: str, minimum: int = 0) -> int:
+    """A whole-number option, typed as text and read here with the ASCII digits only
+    (Typer's own integer options read "١٢" as 12); a bad value is one line, exit 1."""
+    from prepbook.inputs import parse_whole
+
+    return parse_whole(text, what, minimum=minimum)
+
+
 def sig(value: float | None, digits: int = 5) -> str:
     """A value for reading by a person: fixed decimals, never used for storage."""
     if value is None:

@@ -152,7 +152,7 @@ def draw_trend(points: Sequence[FactorPoint], window: tuple[float, float], *, wi
         r = row_of(p.factor)
         grid[r][c] = MARKS.get(p.status, "·")
         styles.pop((r, c), None)
-    out.append("factor = N / N nominal, by date of standardization (UTC)\n", style="bold")
+    out.append("factor = N / N nominal, by date of standardization\n", style="bold")
     if high > hi:
         out.append(f"  upper window limit {high:g} is above the chart "
                    f"({(high - vmax) * 100:.2g} % of nominal above the highest point)\n",

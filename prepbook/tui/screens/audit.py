@@ -42,7 +42,7 @@ class AuditScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#events", DataTable)
-        for c in ("seq", "at (UTC)", "actor", "action", "record", "performed (UTC)", "reason"):
+        for c in ("seq", "entered", "actor", "action", "record", "performed", "reason"):
             table.add_column(c)
         self.reload()
         table.focus()

@@ -75,7 +75,7 @@ class BatchScreen(Screen[None]):
         self.query_one("#chain-body", Static).update(self.chain(d))
         trend = watch.batch_trend(db, self.code)
         self.query_one("#chart", TrendChart).set_data(trend)
-        pts = small_table("run", "date (UTC)", "status", "factor", "change %", "",
+        pts = small_table("run", "date", "status", "factor", "change %", "",
                           right=(3, 4))
         limit = trend.trend.drift_limit_percent
         for p in trend.points:
@@ -142,7 +142,7 @@ class BatchScreen(Screen[None]):
 
         table = self.query_one("#batch-events", DataTable)
         if not table.columns:
-            for c in ("seq", "at (UTC)", "actor", "action", "record", "performed", "reason"):
+            for c in ("seq", "entered", "actor", "action", "record", "performed", "reason"):
                 table.add_column(c)
         table.clear()
         for ev in watch.batch_events(self.app.db, self.code):  # type: ignore[attr-defined]

@@ -47,7 +47,7 @@ class ReviewScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#queue", DataTable)
-        for c in ("run", "batch", "analyst", "performed (UTC)", "N (eq/L)", "factor",
+        for c in ("run", "batch", "analyst", "performed", "N (eq/L)", "factor",
                   "RSD %", "verdict"):
             table.add_column(c, key=c)
         self.reload()
