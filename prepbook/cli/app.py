@@ -179,6 +179,14 @@ class _Root(TyperGroup):
                 exc.message = (f"{name} is an option of prepbook itself: put it before the "
                                f"command (prepbook {name} ... COMMAND)")
             raise
+        except Exception as exc:
+            # The database said no to something the services did not foresee: its first
+            # line, not a traceback (the store names the usual ones itself).
+            if not type(exc).__module__.startswith("sqlalchemy"):
+                raise
+            cause = getattr(exc, "orig", None) or exc
+            first = (str(cause).splitlines() or [type(cause).__name__])[0]
+            _refuse(f"the database refused: {first}", 1)
 
 
 # The root's own options, which a user may put after the command by mistake.

@@ -76,12 +76,11 @@ def _supported(url: str) -> URL:
     return parsed
 
 
-def database_error(exc: BaseException) -> DatabaseError:
-    """One clear line for what went wrong in the database (or the disk under it).
-
-    A missing table, a read-only file or folder, a full disk and a number too large to
-    store each get their own words; anything else is named by the driver's first line.
-    """
+def database_error(exc: BaseException) -> DatabaseError | None:
+    """One clear line for what went wrong in the database (or the disk under it): a
+    missing table, a read-only file or folder, a full disk, a number too large to store,
+    a file that cannot be opened. None for anything else (a constraint, a bug), which
+    keeps its own type for the caller."""
     orig = getattr(exc, "orig", None) or exc
     message = str(orig).splitlines()[0] if str(orig) else type(orig).__name__
     lowered = message.lower()
@@ -102,7 +101,7 @@ def database_error(exc: BaseException) -> DatabaseError:
     if "unable to open database file" in lowered:
         return DatabaseError("cannot open the database file (its folder is missing, or not "
                              "readable and writable by this user)")
-    return DatabaseError(f"the database refused: {message}")
+    return None
 
 
 def sqlite_path(url: str) -> Path | None:
@@ -177,9 +176,13 @@ def _writable(path: Path) -> bool:
 
 def _read_only_uri(path: Path) -> str:
     """An SQLite URI opening ``path`` for reading only. In a folder closed to writing
-    no -wal or -shm file can be made, so the file is opened as immutable (nobody can
-    change it there either)."""
-    flags = "mode=ro" if os.access(path.parent, os.W_OK) else "mode=ro&immutable=1"
+    no -wal or -shm file can be made: a file with no write-ahead log beside it is
+    opened as immutable (nobody can change it there either); one with a log is read
+    through it, as SQLite can when the log's files are there."""
+    wal = path.with_name(path.name + "-wal")
+    logged = wal.is_file() and wal.stat().st_size > 0
+    immutable = not os.access(path.parent, os.W_OK) and not logged
+    flags = "mode=ro&immutable=1" if immutable else "mode=ro"
     return f"file:{quote(str(path.resolve().as_posix()))}?{flags}"
 
 
@@ -275,9 +278,10 @@ class Database:
         except (SQLAlchemyError, OverflowError) as exc:
             from prepbook.store.retry import is_collision
 
-            if is_collision(exc):
-                raise  # the retry decorator reruns the whole transaction
-            raise database_error(exc) from exc
+            translated = None if is_collision(exc) else database_error(exc)
+            if translated is None:
+                raise  # a collision: the retry decorator reruns the whole transaction
+            raise translated from exc
 
     @contextmanager
     def one_transaction(self) -> Iterator[None]:
