@@ -13,10 +13,11 @@ import re
 import sys
 import unicodedata
 from dataclasses import dataclass
-from datetime import UTC, date, datetime, time
+from datetime import UTC, date, datetime, time, tzinfo
 from decimal import Decimal, InvalidOperation
 from typing import TYPE_CHECKING
 
+from prepbook.clock import in_range, to_utc
 from prepbook.errors import InvalidInput
 
 if TYPE_CHECKING:
@@ -101,6 +102,31 @@ def parse_number(
     return Reading(text=raw.lstrip("+"), value=value)
 
 
+# The largest whole number a count or a record id may be (what both databases store).
+MAX_WHOLE = 2**63 - 1
+
+
+def parse_whole(text: str | int, what: str, *, minimum: int = 0,
+                maximum: int = MAX_WHOLE) -> int:
+    """A whole number typed with the ASCII digits 0-9 (a count, a number of days, a
+    record id), between ``minimum`` and ``maximum``."""
+    if isinstance(text, int) and not isinstance(text, bool):
+        value = text
+    else:
+        raw = str(text).strip()
+        foreign = _foreign_character(raw)
+        if foreign is not None:
+            raise InvalidInput(f"{what}: {_shown(raw)!r} holds {foreign}; type the digits 0-9")
+        if not raw.isdigit() or len(raw) > 19:
+            raise InvalidInput(f"{what}: {_shown(raw)!r} is not a whole number from "
+                               f"{minimum} to {maximum}")
+        value = int(raw)
+    if not minimum <= value <= maximum:
+        raise InvalidInput(f"{what} must be a whole number from {minimum} to {maximum} "
+                           f"(got {value})")
+    return value
+
+
 def parse_percent(text: str, what: str) -> Reading:
     """A percentage in (0, 100], such as a certificate purity."""
     reading = parse_number(text, what, positive=True)
@@ -141,32 +167,37 @@ def parse_replicates(texts: list[str], *, amount_name: str = "mass (g)") -> list
 
 
 def parse_date(text: str, what: str) -> date:
-    """An ISO 8601 calendar date (2026-03-31)."""
+    """An ISO 8601 calendar date (2026-03-31), within the dates the record accepts."""
     raw = text.strip()
     try:
-        return date.fromisoformat(raw)
+        day = date.fromisoformat(raw) if len(raw) == 10 else None
     except ValueError:
-        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a date; use YYYY-MM-DD") from None
+        day = None
+    if day is None:
+        raise InvalidInput(f"{what}: {_shown(raw)!r} is not a date; use YYYY-MM-DD")
+    return in_range(day, what)
 
 
-def parse_datetime(text: str, what: str) -> datetime:
-    """An ISO 8601 date or date and time; naive values are taken as UTC.
+def parse_datetime(text: str, what: str, zone: tzinfo = UTC) -> datetime:
+    """An ISO 8601 date, or date and time, typed in the lab's ``zone``: wall-clock
+    time unless it gives its offset (``+01:00``, ``Z``). A date alone means noon.
 
-    Returned as a naive UTC datetime, the form the record stores.
+    Returned as a naive UTC datetime, the form the record stores. A time that does not
+    exist in ``zone`` or occurs twice there (a daylight-saving change) is refused.
     """
     raw = text.strip()
     try:
         if len(raw) == 10:
             moment = datetime.combine(date.fromisoformat(raw), time(12, 0))
+        elif len(raw) > 32:
+            raise ValueError(raw)
         else:
             moment = datetime.fromisoformat(raw.replace("Z", "+00:00"))
     except ValueError:
         raise InvalidInput(
             f"{what}: {_shown(raw)!r} is not a date and time; use YYYY-MM-DD or YYYY-MM-DDTHH:MM"
         ) from None
-    if moment.tzinfo is not None:
-        moment = moment.astimezone(UTC).replace(tzinfo=None)
-    return moment
+    return to_utc(moment, zone, what)
 
 
 _CODE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._()/+-]{0,47}$")

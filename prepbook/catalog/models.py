@@ -398,8 +398,8 @@ def reaction_for_pair(
         return candidates[0], t_rx
     if t_rx.kind == "acid-base":
         raise NotFound(
-            f"{standard.code} is an {standard.acid_base} and {titrant.code} is an "
-            f"{titrant.acid_base}: no acid-base reaction of {standard.code} pairs with it"
+            f"{standard.code} is {_a(standard.acid_base)} and {titrant.code} is "
+            f"{_a(titrant.acid_base)}: no acid-base reaction of {standard.code} pairs with it"
         )
     names = ", ".join(sorted({r.titrant for r in candidates if r.titrant}))
     raise NotFound(
@@ -407,3 +407,8 @@ def reaction_for_pair(
         f"(only for: {names or 'none'}); add one to the catalog to pair them"
     )
 
+
+def _a(word: str | None) -> str:
+    """``word`` with its indefinite article ("an acid", "a base")."""
+    text = word or "unknown"
+    return f"{'an' if text[:1].lower() in 'aeiou' else 'a'} {text}"

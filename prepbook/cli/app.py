@@ -177,9 +177,37 @@ class _Root(TyperGroup):
         try:
             return super().invoke(ctx)
         except PrepbookError as exc:
-            message = " ".join(str(exc).split()) or exc.__class__.__name__
-            sys.stderr.write(f"prepbook: {message}\n")
-            raise typer.Exit(exc.exit_code) from None
+            _refuse(str(exc) or exc.__class__.__name__, exc.exit_code)
+        except OSError as exc:  # the disk or a file under a command, not a bug
+            where = f" {exc.filename}" if exc.filename else ""
+            _refuse(f"cannot read or write{where}: {exc.strerror or exc}", 1)
+        except typer.TyperException as exc:  # a usage error; Typer prints it (exit 2)
+            if getattr(exc, "option_name", None) in _ROOT_OPTIONS:
+                name = getattr(exc, "option_name", "")
+                exc.message = (f"{name} is an option of prepbook itself: put it before the "
+                               f"command (prepbook {name} ... COMMAND)")
+            raise
+        except Exception as exc:
+            # The database said no to something the services did not foresee: its first
+            # line, not a traceback (the store names the usual ones itself).
+            if not type(exc).__module__.startswith("sqlalchemy"):
+                raise
+            cause = getattr(exc, "orig", None) or exc
+            first = (str(cause).splitlines() or [type(cause).__name__])[0]
+            _refuse(f"the database refused: {first}", 1)
+
+
+# The root's own options, which a user may put after the command by mistake.
+_ROOT_OPTIONS = ("--db", "--user", "--verbose", "-v", "--quiet", "-q")
+
+
+def _refuse(message: str, code: int) -> None:
+    """The one place an error becomes a line on stderr and an exit status. The message
+    is folded to one line, control characters shown as "?"."""
+    line = " ".join(message.split())
+    line = "".join(ch if ch.isprintable() else "?" for ch in line)
+    sys.stderr.write(f"prepbook: {line}\n")
+    raise typer.Exit(code) from None
 
 
 app = typer.Typer(

@@ -22,22 +22,29 @@ def log(
     actor_name: str = typer.Option(None, "--actor", metavar="NAME", help="Only this actor."),
     since: str = typer.Option(None, "--since", metavar="DATE", help="From this date, YYYY-MM-DD."),
     until: str = typer.Option(None, "--until", metavar="DATE", help="Up to this date, YYYY-MM-DD."),
-    limit: int = typer.Option(
+    limit: str = typer.Option(
         None, "--limit", metavar="N", help="At most this many events (newest)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """List audit events."""
-    from prepbook.lab import auditing
+    from prepbook import clock
+    from prepbook.lab import auditing, settings
 
-    events = auditing.log(database(ctx), record=record, actor=actor_name, since=since,
-                          until=until, limit=limit)
+    db = database(ctx)
+    events = auditing.log(db, record=record, actor=actor_name, since=since,
+                          until=until,
+                          limit=None if limit is None else output.whole(limit, "--limit", 1))
     if as_json:
         output.emit_json(events)
         return
+    clk = settings.lab_clock(db)
     output.console().print(output.table(
-        "Audit trail", ["seq", "at (UTC)", "actor", "action", "record", "reason"],
-        [(e.seq, e.at, e.actor, e.action, e.record, e.reason or "")
+        f"Audit trail (lab time, {clock.zone_name(clk.zone)})",
+        ["seq", "entered", "work done", "actor", "action", "record", "reason"],
+        [(e.seq, clk.shown(e.at),
+          (clk.shown(e.performed_at) + (" LATE" if clk.late(e.performed_at, e.at) else ""))
+          if e.performed_at else "", e.actor, e.action, e.record, e.reason or "")
          for e in events], right=(0,)))
 
 
@@ -66,12 +73,12 @@ def verify(
         else:
             out.print(f"[bold]audit trail NOT verified[/bold] ({rep.events} events):")
             for p in rep.problems:
-                out.print(f"  - {p}")
+                out.print(f"  - {output.text(p)}")
         if rep.checkpoint:
             out.print(f"checkpoint {rep.checkpoint}; {rep.checkpoints_checked} checkpoint(s) "
                       "held against the trail")
         for note in rep.notes:
-            out.print(f"note: {note}")
+            out.print(f"note: {output.text(note)}")
     if not rep.ok:
         raise typer.Exit(1)
 

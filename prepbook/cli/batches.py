@@ -14,6 +14,7 @@ if TYPE_CHECKING:
     from prepbook.lab.assays import AssayRow
     from prepbook.lab.batch_records import BatchRecord
     from prepbook.lab.replicate_sources import RunReadings
+    from prepbook.lab.settings import LabClock
 
 app = typer.Typer(
     help="Make batches and show their history.",
@@ -44,11 +45,17 @@ def make(
     balance: str = typer.Option(None, "--balance", metavar="CODE", help="Balance used."),
     notes: str = typer.Option(None, "--notes", metavar="TEXT", help="Free notes."),
     at: str = typer.Option(
-        None, "--at", metavar="WHEN", help="When it was made (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN",
+        help="When it was made (YYYY-MM-DD[THH:MM], lab time), if not now."
     ),
     code: str = typer.Option(
         None, "--code", metavar="CODE",
         help="The lab's own bottle code (default: spec-date-number)."
+    ),
+    late_reason: str = typer.Option(
+        None, "--reason", metavar="TEXT",
+        help="Why it is entered late (needed when --at is more than the lab's "
+        "late_entry_hours ago)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
@@ -59,12 +66,12 @@ def make(
                              solute_mass=solute_mass, solute_lot=solute_lot,
                              stock_volume=stock_volume, from_batch=from_batch, aliquot=aliquot,
                              flask=flask, balance=balance, notes=notes, at=at,
-                             code=code)
+                             code=code, late_reason=late_reason)
     if as_json:
         output.emit_json(res)
         return
     out = output.console()
-    out.print(f"batch [bold]{res.batch}[/bold] ({res.spec}, {res.method})")
+    out.print(f"batch [bold]{res.batch}[/bold] ({output.text(res.spec)}, {res.method})")
     out.print(f"theoretical normality {output.sig(res.theoretical_normality, 5)} eq/L, "
               f"factor {res.theoretical_factor:.4f}; expires {res.expires}")
     out.print("standardize it before use: prepbook standardize " + res.batch + " --lot ...")
@@ -72,9 +79,10 @@ def make(
     output.caution_lines(out, res.cautions)
 
 
-def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings]) -> None:
+def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings],
+                 clk: LabClock) -> None:
     p = b.preparation
-    out.print(f"[bold]{b.batch}[/bold]  {b.spec_name} ({b.spec}), "
+    out.print(f"[bold]{b.batch}[/bold]  {output.text(b.spec_name)} ({b.spec}), "
               f"nominal {b.nominal:g} {b.unit}")
     state = b.state
     out.print(f"state: [bold]{state}[/bold]   normality: {output.sig(b.normality, 5)} eq/L "
@@ -87,18 +95,21 @@ def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings]) -> 
         "concentrate": f"{p.concentrate_volume_ml} mL of concentrate",
         "dilution": f"{p.aliquot_ml} mL of batch {p.from_batch}",
     }[p.method]
-    out.print(f"made {p.made_at} by {p.made_by}: {how} made up to {p.volume_ml} mL"
+    out.print(f"made {clk.shown(p.made_at)}{clk.entered(p.made_at, p.recorded_at)} by "
+              f"{p.made_by}: {output.text(how)} made up to {p.volume_ml} mL"
               + (f" in flask {p.flask}" if p.flask else "")
               + (f", balance {p.balance}" if p.balance else "")
               + f"; theoretical {output.sig(p.theoretical_normality, 5)} eq/L")
     if p.notes:
-        out.print(f"notes: {p.notes}")
+        out.print(f"notes: {output.text(p.notes)}")
     if b.retired:
-        out.print(f"retired {b.retired.at} by {b.retired.by}: {b.retired.reason}")
+        out.print(f"retired {clk.shown(b.retired.at)} by {b.retired.by}: "
+                  f"{output.text(b.retired.reason)}")
     for run in b.runs:
         src = f"lot {run.lot}" if run.lot else f"against {run.reference_batch}"
-        head = (f"\n[bold]{run.run}[/bold] {run.status}  {run.performed_at} by "
-                f"{run.analyst}, {src}")
+        head = (f"\n[bold]{run.run}[/bold] {run.status}  {clk.shown(run.performed_at)}"
+                f"{clk.entered(run.performed_at, run.recorded_at)} by "
+                f"{run.analyst}, {output.text(src)}")
         inst = ", ".join(x for x in (run.balance and f"balance {run.balance}",
                                      run.burette and f"burette {run.burette}") if x)
         out.print(head + (f" ({inst})" if inst else ""))
@@ -118,10 +129,10 @@ def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings]) -> 
         render_readings(out, readings.get(run.run))
         for c in run.checks:
             if not c["passed"]:
-                out.print(f"  {c['severity']}: {c['message']}")
+                out.print(f"  {c['severity']}: {output.text(c['message'])}")
         for rv in run.reviews:
-            out.print(f"  {rv.decision}ed by {rv.reviewer} {rv.signed_at}"
-                      + (f": {rv.reason}" if rv.reason else ""))
+            out.print(f"  {rv.decision}ed by {rv.reviewer} {clk.shown(rv.signed_at)}"
+                      + (f": {output.text(rv.reason)}" if rv.reason else ""))
     if b.uses:
         out.print(f"\nuses: {len(b.uses)}")
     if b.remaining_ml is not None:
@@ -141,7 +152,7 @@ def show(
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """The whole chain of a batch: preparation, standardizations, replicates, reviews."""
-    from prepbook.lab import batches
+    from prepbook.lab import batches, settings
     from prepbook.lab.assays import assays_of
 
     db = database(ctx)
@@ -155,15 +166,15 @@ def show(
         from prepbook.lab.replicate_sources import of_batch
 
         out = output.console()
-        _render_show(out, b, of_batch(db, code))
-        _render_assays(out, made)
+        _render_show(out, b, of_batch(db, code), settings.lab_clock(db))
+        _render_assays(out, made, settings.lab_clock(db))
 
 
-def _render_assays(out: Any, made: tuple[AssayRow, ...]) -> None:
+def _render_assays(out: Any, made: tuple[AssayRow, ...], clk: LabClock) -> None:
     """The sample results made with the batch (``prepbook impact`` recomputes them)."""
     if not made:
         return
-    rows = [(a.assay, a.sample, a.analyte, a.performed_at, a.run,
+    rows = [(a.assay, a.sample, a.analyte, clk.shown(a.performed_at), a.run,
              output.sig(a.result, 5), a.unit,
              f"{a.limit_low or '-'} to {a.limit_high or '-'}"
              if a.limit_low or a.limit_high else "") for a in made]
@@ -182,7 +193,12 @@ def use(
         help="What it was used for (sample, method); required."
     ),
     at: str = typer.Option(
-        None, "--at", metavar="WHEN", help="When (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN", help="When (YYYY-MM-DD[THH:MM], lab time), if not now."
+    ),
+    late_reason: str = typer.Option(
+        None, "--reason", metavar="TEXT",
+        help="Why it is entered late (needed when --at is more than the lab's "
+        "late_entry_hours ago)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the use as JSON."),
 ) -> None:
@@ -190,7 +206,7 @@ def use(
     from prepbook.lab import batches
 
     res = batches.use_batch(database(ctx), actor=actor(ctx), code=code, volume=volume,
-                            purpose=purpose, at=at)
+                            purpose=purpose, at=at, late_reason=late_reason)
     if as_json:
         output.emit_json(res)
     else:
@@ -210,7 +226,7 @@ def retire(
     ),
     at: str = typer.Option(
         None, "--at", metavar="WHEN",
-        help="When discarded (YYYY-MM-DD[THH:MM], UTC), if not now."
+        help="When discarded (YYYY-MM-DD[THH:MM], lab time), if not now."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
@@ -224,4 +240,5 @@ def retire(
     if as_json:
         output.emit_json(res)
     else:
-        output.console().print(f"batch [bold]{res.batch}[/bold] retired: {res.reason}")
+        output.console().print(f"batch [bold]{res.batch}[/bold] retired: "
+                               f"{output.text(res.reason)}")

@@ -42,7 +42,7 @@ def label(
                              help="Label stock, WxH with mm or in: 100x50mm, "
                              "89x36mm, 70x37mm (default), 62x29mm, 4x2in, 2.625x1in.",
                              show_default=False),
-    copies: int = typer.Option(1, "--copies", metavar="N", help="How many labels."),
+    copies: str = typer.Option("1", "--copies", metavar="N", help="How many labels."),
     sheet: str = typer.Option(None, "--sheet", metavar="PAPER",
                               help="Lay the labels out on a4 or letter "
                               "sheets instead of one label per page.", show_default=False),
@@ -58,7 +58,10 @@ def label(
     if stale:
         if code is not None:
             raise InvalidInput("--stale lists every bottle; give no CODE with it")
-        rows = labels.stale_labels(database(ctx))
+        from prepbook.lab import settings
+
+        db = database(ctx)
+        rows = labels.stale_labels(db)
         if as_json:
             output.emit_json(rows)
             return
@@ -69,14 +72,15 @@ def label(
         out.print(output.table(
             f"Labels to replace: {len(rows)}",
             ["batch", "label printed", "by", "shows run", "factor", "why"],
-            [(r.batch, r.printed_at, r.printed_by, r.shown.run or "-",
+            [(r.batch, settings.lab_clock(db).shown(r.printed_at), r.printed_by, r.shown.run or "-",
               output.fixed(r.shown.factor, 4), "; ".join(r.reasons)) for r in rows],
             no_wrap=(0, 1)))
         return
     if code is None:
         raise InvalidInput("give a batch code (or a lot code with --lot), or --stale")
     res = print_label(database(ctx), actor=actor(ctx), code=code, output=out_file, size=size,
-                      copies=copies, sheet=sheet, lot=lot, replace=replace)
+                      copies=output.whole(copies, "--copies", 1), sheet=sheet, lot=lot,
+                      replace=replace)
     if as_json:
         output.emit_json(res)
         return

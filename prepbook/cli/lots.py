@@ -43,7 +43,7 @@ def add(
         output.emit_json(lot)
         return
     out = output.console()
-    out.print(f"lot [bold]{lot.code}[/bold] of {lot.material}, purity "
+    out.print(f"lot [bold]{lot.code}[/bold] of {output.text(lot.material)}, purity "
               f"{lot.purity_percent} %, expires {lot.expires}")
     if lot.expired:
         out.print("[bold]warning:[/bold] this lot is already past its expiry date")

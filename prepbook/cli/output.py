@@ -2,6 +2,12 @@
 
 Rich is imported only when something is drawn, so ``--json`` and ``--help`` do
 not pay for it.
+
+Stored text is shown as text. Every value that came from the record (a note, a
+reason, a name) goes into a printed line through :func:`text`, which shows control
+and formatting characters visibly (``plain``) and escapes Rich markup; a table cell
+is a Rich ``Text``, never read as markup. The console itself also shows any control
+character visibly, so no escape sequence from the record reaches the terminal.
 """
 
 from __future__ import annotations
@@ -14,6 +20,8 @@ from collections.abc import Iterable, Sequence
 from dataclasses import asdict, fields, is_dataclass
 from datetime import date, datetime
 from typing import Any
+
+from prepbook.text import visible
 
 
 def _default(value: Any) -> Any:
@@ -51,17 +59,41 @@ def emit_json(data: Any) -> None:
 
 def console(stderr: bool = False) -> Any:
     from rich.console import Console
+    from rich.errors import MarkupError
+
+    class _Console(Console):
+        """A console that shows control characters in printed strings visibly, and a
+        line that is not valid markup as it is (Rich raises before it writes)."""
+
+        def print(self, *objects: Any, **kwargs: Any) -> None:
+            shown = [plain(o) if isinstance(o, str) else o for o in objects]
+            try:
+                super().print(*shown, **kwargs)
+            except MarkupError:  # a stored text that missed `text`: printed as it is
+                super().print(*shown, **(kwargs | {"markup": False}))
 
     width = None
     if os.environ.get("COLUMNS", "").isdigit():
         width = int(os.environ["COLUMNS"])
-    return Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
+    return _Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
+
+
+def plain(value: object) -> str:
+    """``value`` with its control and format characters shown visibly (``\\x1b``)."""
+    return visible(value)
+
+
+def text(value: object) -> str:
+    """Stored text for a line printed with Rich markup: shown exactly as stored, never
+    read as markup (``[bold]`` in a note prints as ``[bold]``)."""
+    return escape(plain(value))
 
 
 def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any]],
           *, right: Iterable[int] = (), no_wrap: Iterable[int] = ()) -> Any:
     from rich import box
     from rich.table import Table
+    from rich.text import Text
 
     right_set = set(right)
     keep = set(no_wrap)
@@ -71,8 +103,16 @@ def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any
     for i, name in enumerate(columns):
         tab.add_column(name, justify="right" if i in right_set else "left", no_wrap=i in keep)
     for row in rows:
-        tab.add_row(*("" if cell is None else str(cell) for cell in row))
+        tab.add_row(*(Text("" if cell is None else plain(cell)) for cell in row))
     return tab
+
+
+def whole(text: str, what: str, minimum: int = 0) -> int:
+    """A whole-number option, typed as text and read here with the ASCII digits only
+    (Typer's own integer options read "١٢" as 12); a bad value is one line, exit 1."""
+    from prepbook.inputs import parse_whole
+
+    return parse_whole(text, what, minimum=minimum)
 
 
 def sig(value: float | None, digits: int = 5) -> str:
@@ -92,7 +132,7 @@ def fixed(value: float | None, decimals: int) -> str:
 
 def warn_lines(out: Any, warnings: Sequence[str]) -> None:
     for w in warnings:
-        out.print(f"[bold]warning:[/bold] {escape(w)}")
+        out.print(f"[bold]warning:[/bold] {text(w)}")
 
 
 def caution_lines(out: Any, cautions: Sequence[str]) -> None:
@@ -101,7 +141,7 @@ def caution_lines(out: Any, cautions: Sequence[str]) -> None:
     out.print("[bold]Safety[/bold] (follow the safety data sheet, local regulations and "
               "your laboratory's procedures):")
     for c in cautions:
-        out.print(f"  - {escape(c)}")
+        out.print(f"  - {text(c)}")
 
 
 def escape(text: str) -> str:

@@ -18,13 +18,14 @@ def report(
 ) -> None:
     """Write a batch's traceability report: preparation, every standardization, chart,
     reviews, corrections, uses, labels and the audit chain's head hash."""
-    from prepbook.lab import reports
+    from prepbook.lab import reports, settings
     from prepbook.render import report as drawn
 
     paper = paper.lower()
     target = drawn.checked_target(out_file, paper=paper, replace=replace)
-    res = drawn.write_report(reports.gather(database(ctx), code), target, paper=paper,
-                             replace=replace)
+    db = database(ctx)
+    res = drawn.write_report(reports.gather(db, code), target, paper=paper,
+                             replace=replace, clk=settings.lab_clock(db))
     if as_json:
         output.emit_json(res)
         return

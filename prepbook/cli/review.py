@@ -42,7 +42,7 @@ def review(
     ),
     at: str = typer.Option(
         None, "--at", metavar="WHEN",
-        help="When reviewed (YYYY-MM-DD[THH:MM], UTC), if not now."
+        help="When reviewed (YYYY-MM-DD[THH:MM], lab time), if not now."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the reviewed run as JSON."),
 ) -> None:

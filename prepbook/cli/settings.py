@@ -27,14 +27,16 @@ def show(ctx: typer.Context,
     """Show every setting, its value and what it does."""
     from prepbook.lab import settings
 
-    rows = settings.show(database(ctx))
+    db = database(ctx)
+    rows = settings.show(db)
     if as_json:
         output.emit_json(rows)
         return
+    clk = settings.lab_clock(db)
     output.console().print(output.table(
         "Settings", ["key", "value", "default", "what it does", "changed"],
         [(r.key, r.value, r.default, r.help,
-          f"{r.changed_at} by {r.changed_by}" if r.changed_at else "")
+          f"{clk.shown(r.changed_at)} by {r.changed_by}" if r.changed_at else "")
          for r in rows]))
 
 

@@ -53,8 +53,8 @@ def add(
         None, "--standard", metavar="SUBSTANCE", help="Default primary standard."
     ),
     indicator: str = typer.Option(None, "--indicator", metavar="NAME", help="Default indicator."),
-    min_replicates: int = typer.Option(
-        3, "--min-replicates", metavar="N", help="Fewest replicates."
+    min_replicates: str = typer.Option(
+        "3", "--min-replicates", metavar="N", help="Fewest replicates."
     ),
     rsd: str = typer.Option("0.2", "--rsd", metavar="PERCENT", help="Largest RSD, %."),
     factor_low: str = typer.Option(
@@ -66,11 +66,11 @@ def add(
     drift: str = typer.Option(
         "0.5", "--drift", metavar="PERCENT", help="Largest change between standardizations, %."
     ),
-    restandardize_days: int = typer.Option(
-        30, "--restandardize-days", metavar="DAYS", help="Interval, days."
+    restandardize_days: str = typer.Option(
+        "30", "--restandardize-days", metavar="DAYS", help="Interval, days."
     ),
-    shelf_life_days: int = typer.Option(
-        180, "--shelf-life-days", metavar="DAYS", help="Shelf life, days."
+    shelf_life_days: str = typer.Option(
+        "180", "--shelf-life-days", metavar="DAYS", help="Shelf life, days."
     ),
     storage: str = typer.Option(None, "--storage", metavar="TEXT", help="How to store it."),
     as_json: bool = typer.Option(False, "--json", help="Print the spec as JSON."),
@@ -80,11 +80,15 @@ def add(
 
     sp = specs.add_spec(database(ctx), actor=actor(ctx), code=code, solute=solute,
                         nominal=nominal, unit=unit, name=name, reaction=reaction,
-                        standard=standard, indicator=indicator, min_replicates=min_replicates,
+                        standard=standard, indicator=indicator,
+                        min_replicates=output.whole(min_replicates, "--min-replicates"),
                         max_rsd_percent=rsd, factor_low=factor_low, factor_high=factor_high,
-                        drift_limit_percent=drift, restandardize_days=restandardize_days,
-                        shelf_life_days=shelf_life_days, storage=storage)
+                        drift_limit_percent=drift,
+                        restandardize_days=output.whole(restandardize_days,
+                                                        "--restandardize-days"),
+                        shelf_life_days=output.whole(shelf_life_days, "--shelf-life-days"),
+                        storage=storage)
     if as_json:
         output.emit_json(sp)
     else:
-        output.console().print(f"added spec [bold]{sp.code}[/bold] ({sp.name})")
+        output.console().print(f"added spec [bold]{sp.code}[/bold] ({output.text(sp.name)})")

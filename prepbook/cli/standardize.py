@@ -63,7 +63,12 @@ def standardize(
     ),
     at: str = typer.Option(
         None, "--at", metavar="WHEN",
-        help="When titrated (YYYY-MM-DD[THH:MM], UTC), if not now."
+        help="When titrated (YYYY-MM-DD[THH:MM], lab time), if not now."
+    ),
+    late_reason: str = typer.Option(
+        None, "--reason", metavar="TEXT",
+        help="Why it is entered late (needed when --at is more than the lab's "
+        "late_entry_hours ago)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
@@ -73,7 +78,7 @@ def standardize(
     db = database(ctx)
     args: dict[str, Any] = dict(actor=actor(ctx), batch=batch, lot=lot, against=against,
                                 balance=balance, burette=burette, temperature=temp, blank=blank,
-                                indicator=indicator, at=at)
+                                indicator=indicator, at=at, late_reason=late_reason)
     replicates: list[Any] = list(rep or [])
     if not replicates:
         replicates = _ask(db, args, runs, secondary=against is not None, quiet=as_json)

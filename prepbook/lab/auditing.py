@@ -7,7 +7,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from prepbook.errors import InvalidInput
-from prepbook.inputs import parse_date
+from prepbook.inputs import parse_date, parse_whole
 from prepbook.store import audit
 from prepbook.store.engine import Database
 from prepbook.store.models import AUDITED_TABLES
@@ -25,9 +25,7 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
                                f"{', '.join(sorted(AUDITED_TABLES))}")
         record_type = name
         if rid:
-            if not rid.isdigit():
-                raise InvalidInput(f"record id {rid!r} is not a number")
-            record_id = int(rid)
+            record_id = parse_whole(rid, "record id")
     if limit is not None and limit < 1:
         raise InvalidInput("--limit must be at least 1")
     since_d = parse_date(since, "--since") if since else None

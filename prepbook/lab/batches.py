@@ -11,8 +11,9 @@ from typing import Any, cast
 from sqlalchemy import bindparam, func, select
 from sqlalchemy.orm import Session, joinedload
 
+from prepbook import clock
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_code, parse_datetime, parse_number, parse_text, utc_now
+from prepbook.inputs import parse_code, parse_number, parse_text, utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import current_normality, impact, when
 from prepbook.lab.batch_records import (
@@ -28,7 +29,7 @@ from prepbook.lab.batch_records import (
     UseRecorded,
     UseRow,
 )
-from prepbook.lab.common import acting, by_code, not_future, write
+from prepbook.lab.common import acting, by_code, lab_zone, work_time, write
 from prepbook.lab.volumes import draw, remaining_ml
 from prepbook.store import retry
 from prepbook.store.engine import Database
@@ -80,6 +81,7 @@ def make_batch(
     notes: str | None = None,
     at: str | None = None,
     code: str | None = None,
+    late_reason: str | None = None,
 ) -> MadeBatch:
     """Record a new batch and compute its theoretical normality from how it was made.
 
@@ -116,10 +118,12 @@ def make_batch(
                            f"volume {vol.text} mL")
     notes = parse_text(notes, "notes")
     own_code = parse_code(code, "batch code") if code is not None else None
-    made_at = not_future(parse_datetime(at, "--at") if at else None, "preparation time")
+    late_reason = parse_text(late_reason, "reason", max_len=500)
+    made_at = work_time(db, at, "preparation time", reason=late_reason)
 
     with db.session() as s:
         user = acting(s, actor, doing="make batches")
+        made_on = clock.local_date(made_at, lab_zone(s))  # the lab's date of the work
         sp = by_code(s, Spec, spec, "solution spec")
         view = spec_view.view(sp)
         solute = loader.find_material(view.solute)
@@ -136,7 +140,7 @@ def make_batch(
                 if lot_row.material_code != solute.code:
                     raise InvalidInput(f"lot {lot_row.code} is {lot_row.material_code}, but "
                                        f"{sp.code} is made from {solute.code}")
-                if lot_row.expires < made_at.date():
+                if lot_row.expires < made_on:
                     raise Refused(f"lot {lot_row.code} expired on {lot_row.expires.isoformat()}")
                 purity = float(lot_row.purity_text) / 100
                 parents.append(lot_row.expires)
@@ -157,7 +161,7 @@ def make_batch(
                                    f"needs {view.solute}")
             if parent.retired_at is not None:
                 raise Refused(f"batch {parent.code} is retired and cannot be used")
-            if parent.expires < made_at.date():
+            if parent.expires < made_on:
                 raise Refused(f"batch {parent.code} expired on {parent.expires.isoformat()}")
             draw(s, parent, Decimal(ali.text), "an aliquot")
             n_parent, _ = current_normality(s, parent)
@@ -172,20 +176,20 @@ def make_batch(
         flask_row = instrument_of(s, flask, "flask")
         balance_row = instrument_of(s, balance, "balance")
         for ins in (flask_row, balance_row):
-            if ins is not None and ins.due < made_at.date():
+            if ins is not None and ins.due < made_on:
                 warnings.append(f"{ins.kind} {ins.code} was past its calibration due date "
                                 f"({ins.due.isoformat()})")
         if flask_row is not None and flask_row.capacity_text is not None \
                 and float(flask_row.capacity_text) != vol.value:
             warnings.append(f"flask {flask_row.code} holds {flask_row.capacity_text} mL, "
                             f"not the {vol.text} mL recorded")
-        expires = life.expiry(made_at.date(), view.shelf_life_days, parents)
+        expires = life.expiry(made_on, view.shelf_life_days, parents)
         if own_code is not None:
             if s.scalars(select(Batch).where(Batch.code == own_code)).first() is not None:
                 raise Refused(f"batch {own_code!r} already exists")
             code = own_code
         else:
-            code = next_code(s, Batch, f"{sp.code}-{made_at:%y%m%d}")
+            code = next_code(s, Batch, f"{sp.code}-{made_on:%y%m%d}")
         batch = Batch(
             code=code, spec_id=sp.id, method=method, volume_ml_text=vol.text,
             solute_mass_g_text=mass.text if mass else None,
@@ -198,7 +202,7 @@ def make_batch(
             theoretical_normality=theoretical, made_at=made_at, recorded_at=utc_now(),
             made_by=user.name, notes=notes, expires=expires,
         )
-        write(s, user.name, "batch.make", batch, performed_at=made_at)
+        write(s, user.name, "batch.make", batch, performed_at=made_at, reason=late_reason)
         nominal_value = view.to_spec_unit(theoretical, rx.n)
         return MadeBatch(
             batch=code, spec=sp.code, method=method, theoretical_normality=theoretical,
@@ -327,7 +331,8 @@ def batch_count(db: Database) -> int:
 
 @retry.on_conflict
 def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
-              purpose: str | None = None, at: str | None = None) -> UseRecorded:
+              purpose: str | None = None, at: str | None = None,
+              late_reason: str | None = None) -> UseRecorded:
     """Record a draw from a batch (kept for impact analysis); only a batch in service."""
     from prepbook.lab import board
 
@@ -336,7 +341,8 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
     if not (purpose and purpose.strip()):
         raise InvalidInput("a use needs a --purpose (the sample or method it served), so "
                            "its impact can be traced")
-    used_at = not_future(parse_datetime(at, "--at") if at else None, "time of use")
+    late_reason = parse_text(late_reason, "reason", max_len=500)
+    used_at = work_time(db, at, "time of use", reason=late_reason)
     with db.session() as s:
         user = acting(s, actor, doing="use batches")
         b = by_code(s, Batch, code, "batch")
@@ -349,7 +355,7 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
             draw(s, b, Decimal(vol.text), "a use")
         use = Use(batch_id=b.id, used_at=used_at, used_by=user.name,
                   volume_ml_text=vol.text if vol else None, purpose=purpose)
-        write(s, user.name, "batch.use", use, performed_at=used_at)
+        write(s, user.name, "batch.use", use, performed_at=used_at, reason=late_reason)
         return UseRecorded(batch=b.code, used_at=when(used_at), used_by=user.name,
                            volume_ml=vol.text if vol else None, purpose=purpose,
                            normality=life_row.normality, factor=life_row.factor)

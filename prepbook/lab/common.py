@@ -10,16 +10,18 @@ import difflib
 import functools
 import json
 from collections.abc import Callable
-from datetime import date, datetime
+from datetime import UTC, date, datetime, timedelta, tzinfo
 from typing import Any, TypeVar
 
 from sqlalchemy import bindparam, inspect, select
 from sqlalchemy.orm import Session
 
+from prepbook import clock
 from prepbook.errors import InvalidInput, NotFound, Refused
-from prepbook.inputs import utc_now
+from prepbook.inputs import parse_datetime, utc_now
 from prepbook.lab.security import passphrase_matches
 from prepbook.store import audit
+from prepbook.store.engine import Database
 from prepbook.store.models import Base, Batch, Instrument, Lot, Run, Setting, Spec, User
 
 T = TypeVar("T", bound=Base)
@@ -241,12 +243,52 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
                  performed_at=performed_at)
 
 
-def not_future(moment: datetime | None, what: str) -> datetime:
+def not_future(moment: datetime | None, what: str, zone: tzinfo = UTC) -> datetime:
     now = utc_now()
     if moment is None:
         return now
     if moment > now:
-        raise InvalidInput(f"{what} {moment.isoformat(timespec='minutes')} is in the future")
+        raise InvalidInput(f"{what} {clock.shown(moment, zone)} is in the future")
+    return moment
+
+
+LATE_AFTER_HOURS = "72"
+
+
+def lab_zone(session: Session) -> tzinfo:
+    """The lab's time zone: the database's ``timezone`` setting (one for every bench of
+    the lab, changed by an admin, audited), else the configuration's ``timezone``
+    (option, PREPBOOK_TIMEZONE or the file: this computer's own default), else this
+    computer's zone."""
+    name = setting(session, "timezone", "")
+    if name:
+        return clock.zone_named(name, "the lab's timezone setting")
+    from prepbook.config import setting as configured
+
+    chosen = configured("timezone").value
+    return clock.zone_named(str(chosen), "timezone") if chosen else clock.machine_zone()
+
+
+def late_after(session: Session) -> timedelta:
+    """How long after the work an entry may be made without a reason."""
+    return timedelta(hours=int(setting(session, "late_entry_hours", LATE_AFTER_HOURS)))
+
+
+def work_time(db: Database, at: str | None, what: str, *, reason: str | None = None) -> datetime:
+    """When the work was done, as the record stores it (naive UTC): ``at`` typed in the
+    lab's time zone, else now. Not in the future; entered more than the lab's
+    ``late_entry_hours`` after it was done, only with a reason (``reason``)."""
+    if not at:
+        return utc_now()
+    with db.session(write=False) as s:
+        zone, late = lab_zone(s), late_after(s)
+    moment = not_future(parse_datetime(at, "--at", zone), what, zone)
+    delay = utc_now() - moment
+    if delay > late and not (reason and reason.strip()):
+        hours = int(delay.total_seconds() // 3600)
+        raise InvalidInput(f"{what} {clock.shown(moment, zone)} is {hours} h ago, more than "
+                           f"the lab's {int(late.total_seconds() // 3600)} h: a late entry "
+                           "needs a --reason saying why it is entered now")
     return moment
 
 
@@ -287,9 +329,12 @@ __all__ = [
     "find_by_code",
     "check_passphrase",
     "iso",
+    "lab_zone",
+    "late_after",
     "not_future",
     "setting",
     "spec_data",
     "user_named",
+    "work_time",
     "write",
 ]

@@ -46,6 +46,9 @@ class DemoLab:
     board: tuple[BatchLife, ...]
     example_batch: str
 
+# The demo writes weeks of invented history at once: each entry says so (a late entry).
+INVENTED = "demo lab: invented history, entered all at once"
+
 def scenario() -> dict[str, Any]:
     text = resources.files("prepbook.demo_lab").joinpath(DEMO_FILE).read_text(encoding="utf-8")
     return tomllib.loads(text)
@@ -110,7 +113,8 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
             solute_mass=b.get("solute_mass"), stock_volume=b.get("stock_volume"),
             from_batch=codes[b["from_batch"]] if "from_batch" in b else None,
             aliquot=b.get("aliquot"), flask=b.get("flask"), balance=b.get("balance"),
-            notes=b.get("notes"), at=made.isoformat(timespec="minutes"))
+            notes=b.get("notes"), at=made.isoformat(timespec="minutes"),
+            late_reason=INVENTED)
         codes[b["key"]] = res.batch
         for r in b.get("run", []):
             when = _moment(today, r["day"], r.get("time", "10:00"))
@@ -119,7 +123,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
                 lot=r.get("lot"), against=codes[r["against"]] if "against" in r else None,
                 balance=r.get("balance"), burette=r.get("burette"), temperature=r.get("temp"),
                 blank=r.get("blank"), indicator=r.get("indicator"),
-                at=when.isoformat(timespec="minutes"))
+                at=when.isoformat(timespec="minutes"), late_reason=INVENTED)
             run_count += 1
             rv = r.get("review")
             if rv and out.run is not None:
@@ -127,7 +131,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
                 runs.review(db, actor=rv["by"], run=out.run,
                             accept=rv["decision"] == "accept", reason=rv.get("reason"),
                             passphrase=users[rv["by"]]["passphrase"],
-                            at=signed.isoformat(timespec="minutes"))
+                            at=signed.isoformat(timespec="minutes"), late_reason=INVENTED)
     _record_assays(db, today, codes, users)
     from prepbook.lab import auditing, demo_readings
 

@@ -10,11 +10,19 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_datetime, parse_text, utc_now
+from prepbook.inputs import parse_text, utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.assays import AssayRow, assay_rows
 from prepbook.lab.batch_facts import UseNeedingReview, current_normality, impact, when
-from prepbook.lab.common import RECORDERS, acting, by_code, iso, not_future, signed, write
+from prepbook.lab.common import (
+    RECORDERS,
+    acting,
+    by_code,
+    iso,
+    signed,
+    work_time,
+    write,
+)
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Use
@@ -297,7 +305,7 @@ def retire(db: Database, *, actor: str, code: str, reason: str | None,
     reason = parse_text(reason, "reason", max_len=1000)
     if not (reason and reason.strip()):
         raise InvalidInput("retiring a batch needs a --reason")
-    retired_at = not_future(parse_datetime(at, "--at") if at else None, "retirement time")
+    retired_at = work_time(db, at, "retirement time", reason=reason)
     signed(db, actor, passphrase, RECORDERS, "retire batches")
     with db.session() as s:
         user = acting(s, actor, RECORDERS, "retire batches")

@@ -19,10 +19,11 @@ from typing import Protocol, TypedDict
 from sqlalchemy import inspect, select
 from sqlalchemy.orm import Session
 
+from prepbook import clock
 from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
-from prepbook.lab.common import acting, by_code, iso, write
+from prepbook.lab.common import acting, by_code, iso, lab_zone, write
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel, Standing
 from prepbook.store.audit import head_code
 from prepbook.store.engine import Database
@@ -131,15 +132,16 @@ def _current(session: Session, batch: Batch, today: date) -> tuple[Standing, int
     return Standing(
         state=life.state, run=run.code, normality=n20, factor=run.factor,
         concentration=nominal * run.factor if run.factor else None,
-        standardized_on=run.performed_at.date().isoformat(),
+        standardized_on=clock.local_date(run.performed_at, lab_zone(session)).isoformat(),
         restandardize_by=life.restandardize_by, expires=life.expires), run.id
 
 
-def _batch_content(batch: Batch, now: Standing, actor: str, today: date) -> BatchLabel:
+def _batch_content(batch: Batch, now: Standing, actor: str, today: date,
+                   made_on: date) -> BatchLabel:
     view = spec_view.view(batch.spec)
     return BatchLabel(
         **asdict(now), code=batch.code, spec=batch.spec.code, name=batch.spec.name,
-        unit=view.unit, nominal=view.nominal, made_on=batch.made_at.date().isoformat(),
+        unit=view.unit, nominal=view.nominal, made_on=made_on.isoformat(),
         made_by=batch.made_by, storage=view.storage,
         hazard=Hazard(signal_word=view.hazard.get("signal_word"),
                       statements=view.hazard.get("statements"),
@@ -178,18 +180,21 @@ def print_label(db: Database, *, actor: str, code: str, size: str, copies: int, 
     now = utc_now()
     with db.session() as s:
         user = acting(s, actor, doing="print labels")
+        zone = lab_zone(s)
+        today = clock.local_date(now, zone)  # the lab's date, on the label and its checks
         content: LabelContent
         if lot:
             lot_row = by_code(s, Lot, code, "lot")
-            content = _lot_content(lot_row, user.name, now.date())
+            content = _lot_content(lot_row, user.name, today)
             row = LabelPrint(lot_id=lot_row.id, expires=lot_row.expires)
             shows = None
         else:
             batch = _find_batch(s, code)
             if batch.retired_at is not None:
                 raise Refused(f"batch {batch.code} is retired; its bottle is not relabelled")
-            shows, run_id = _current(s, batch, now.date())
-            content = _batch_content(batch, shows, user.name, now.date())
+            shows, run_id = _current(s, batch, today)
+            content = _batch_content(batch, shows, user.name, today,
+                                     clock.local_date(batch.made_at, zone))
             row = LabelPrint(
                 batch_id=batch.id, run_id=run_id, normality=shows.normality,
                 factor=shows.factor, standardized_on=_date(shows.standardized_on),
@@ -229,9 +234,9 @@ def _find_batch(session: Session, code: str) -> Batch:
 def stale_labels(db: Database, today: date | None = None) -> list[StaleLabel]:
     """Bottles (batches not retired) whose latest label no longer matches the record:
     a newer or corrected standardization, another factor, or other dates."""
-    today = today or utc_now().date()
     out: list[StaleLabel] = []
     with db.session(write=False) as s:
+        today = today or clock.local_date(utc_now(), lab_zone(s))
         latest: dict[int, LabelPrint] = {}
         for lp in s.scalars(select(LabelPrint).where(LabelPrint.batch_id.is_not(None))
                             .order_by(LabelPrint.printed_at, LabelPrint.id)):

@@ -16,7 +16,7 @@ from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_datetime, parse_text
+from prepbook.inputs import parse_text
 from prepbook.lab.batch_records import RunRecord
 from prepbook.lab.batches import run_dict
 from prepbook.lab.common import (
@@ -24,8 +24,8 @@ from prepbook.lab.common import (
     acting,
     by_code,
     find_by_code,
-    not_future,
     signed,
+    work_time,
     write,
 )
 from prepbook.store import retry
@@ -116,6 +116,7 @@ def review(
     reason: str | None,
     passphrase: str | None,
     at: str | None = None,
+    late_reason: str | None = None,
 ) -> QueuedRun:
     """A second person's signed accept or reject of a run awaiting review.
 
@@ -123,7 +124,8 @@ def review(
     sign-off); the audit event keeps the time it was entered as well.
     """
     reason = parse_text(reason, "reason", max_len=1000)
-    signed_at = not_future(parse_datetime(at, "--at") if at else None, "review time")
+    late_reason = parse_text(late_reason, "reason", max_len=500) or reason
+    signed_at = work_time(db, at, "review time", reason=late_reason)
     # Every refusal comes before the signature (whose check is itself written down).
     to_sign(db, actor=actor, run=run, accept=accept, reason=reason)
     signed(db, actor, passphrase, REVIEWERS, "review standardizations")
@@ -135,9 +137,10 @@ def review(
         decision = "accept" if accept else "reject"
         write(s, actor, f"review.{decision}",
               Review(run_id=r.id, reviewer=actor, decision=decision, reason=reason,
-                     signed_at=signed_at), reason=reason, performed_at=signed_at)
+                     signed_at=signed_at), reason=reason or late_reason,
+              performed_at=signed_at)
         r.status = "accepted" if accept else "rejected"
-        write(s, actor, "run.status", r, reason=reason, performed_at=signed_at)
+        write(s, actor, "run.status", r, reason=reason or late_reason, performed_at=signed_at)
         return _record(s, r)
 
 

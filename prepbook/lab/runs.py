@@ -21,12 +21,12 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from prepbook import clock
 from prepbook.chem.uncertainty import BudgetLine
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import (
     Reading,
     ReplicateEntry,
-    parse_datetime,
     parse_number,
     parse_text,
     utc_now,
@@ -39,9 +39,10 @@ from prepbook.lab.common import (
     RECORDERS,
     acting,
     by_code,
-    not_future,
+    lab_zone,
     setting,
     signed,
+    work_time,
     write,
 )
 from prepbook.lab.reviews import QueuedRun, review, runs_awaiting_review
@@ -290,6 +291,7 @@ def standardize(
     indicator: str | None = None,
     at: str | None = None,
     record: bool = True,
+    late_reason: str | None = None,
 ) -> RunResult:
     """Record and compute one standardization; it then awaits a second person's review.
 
@@ -308,7 +310,7 @@ def standardize(
     temp_notes = [] if temperature else [NO_TEMPERATURE_NOTE]
     blank_r = parse_number(blank or "0", "blank (mL)", non_negative=True)
     indicator = parse_text(indicator, "indicator", max_len=60)
-    performed_at = not_future(parse_datetime(at, "--at") if at else None, "standardization time")
+    performed_at = work_time(db, at, "standardization time", reason=late_reason)
 
     with db.session(write=record) as s:
         user = acting(s, actor, doing="standardize")
@@ -351,7 +353,7 @@ def standardize(
         plaus.factor(e.factor, nominal=cond.view.nominal, unit=cond.view.unit)
         if not record:
             return _result(cond, e, run=None, status=None, notes=ref_notes)
-        code = next_code(s, Run, f"R{performed_at:%y%m%d}")
+        code = next_code(s, Run, f"R{clock.local_date(performed_at, lab_zone(s)):%y%m%d}")
         run = Run(
             code=code, batch_id=b.id, method="secondary" if secondary else "direct",
             lot_id=lot_row.id if lot_row else None,
@@ -362,7 +364,8 @@ def standardize(
             performed_at=performed_at, recorded_at=utc_now(), analyst=user.name,
             status="awaiting-review", **columns,
         )
-        write(s, user.name, "run.record", run, performed_at=performed_at)
+        write(s, user.name, "run.record", run, performed_at=performed_at,
+              reason=parse_text(late_reason, "reason", max_len=500))
         now = utc_now()
         for pos, entry in enumerate(entries, start=1):
             rep = Replicate(run_id=run.id, position=pos, version=1, amount_text=entry.amount.text,

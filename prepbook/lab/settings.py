@@ -6,9 +6,19 @@ from dataclasses import dataclass
 
 from sqlalchemy import select
 
+from prepbook import clock
+from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_text, utc_now
-from prepbook.lab.common import acting, iso, signed, write
+from prepbook.lab.common import (
+    LATE_AFTER_HOURS,
+    acting,
+    iso,
+    lab_zone,
+    late_after,
+    signed,
+    write,
+)
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Setting
@@ -21,6 +31,8 @@ class SettingInfo:
     help: str
     choices: tuple[str, ...] = ()
     integer_range: tuple[int, int] | None = None
+    zone: bool = False  # an IANA time zone name (empty: the configuration's, else this
+    # computer's zone)
 
 
 KNOWN: dict[str, SettingInfo] = {
@@ -36,6 +48,9 @@ KNOWN: dict[str, SettingInfo] = {
         SettingInfo("buoyancy", "off",
                     "correct weighings of primary standards for air buoyancy (NIST IR 6969 "
                     "SOP 2) in standardizations", choices=("on", "off")),
+        SettingInfo("late_entry_hours", LATE_AFTER_HOURS,
+                    "hours after the work within which it may be entered without a reason "
+                    "(common practice, no source)", integer_range=(1, 8760)),
         SettingInfo("lockout_after", "5",
                     "wrong passphrases in a row that lock a user out until an admin unlocks "
                     "(common practice, no source)", integer_range=(1, 20)),
@@ -46,6 +61,10 @@ KNOWN: dict[str, SettingInfo] = {
                     "laboratory temperature variation (+/- C, rectangular) in the titrant "
                     "volume uncertainty (common practice, no source)",
                     integer_range=(0, 20)),
+        SettingInfo("timezone", "",
+                    "the lab's time zone, an IANA name such as Europe/Vienna: times are typed "
+                    "and shown in it, dates on codes and labels are its dates (empty: the "
+                    "configuration's timezone, else this computer's zone)", zone=True),
         SettingInfo("warning_lead_days", "7",
                     "days of notice before restandardization and expiry dates (common "
                     "practice, no source)", integer_range=(0, 365)),
@@ -63,6 +82,11 @@ class SettingValue:
     help: str
     changed_at: str | None
     changed_by: str | None
+
+
+def lab_clock(db: Database) -> LabClock:
+    with db.session(write=False) as s:
+        return LabClock(zone=lab_zone(s), late_after=late_after(s))
 
 
 @dataclass(frozen=True)
@@ -94,9 +118,11 @@ def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | N
     value = value.strip()
     if info.choices and value not in info.choices:
         raise InvalidInput(f"{key} must be one of {', '.join(info.choices)}")
+    if info.zone and value:
+        value = clock.zone_name(clock.zone_named(value, key))
     if info.integer_range is not None:
         lo, hi = info.integer_range
-        if not value.isdigit() or not lo <= int(value) <= hi:
+        if not (value.isascii() and value.isdigit()) or not lo <= int(value) <= hi:
             raise InvalidInput(f"{key} must be a whole number from {lo} to {hi}")
     reason = parse_text(reason, "reason", max_len=500)
     if not (reason and reason.strip()):

@@ -20,11 +20,11 @@ import io
 import math
 from dataclasses import dataclass, field
 from typing import Any
-from xml.sax.saxutils import escape
 
 from prepbook.errors import InvalidInput
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel
 from prepbook.render.sizes import MM, LabelSize, Sheet, grid
+from prepbook.text import for_pdf
 
 MIN_FONT_PT = 4.25  # smallest body text (a line about 1.75 mm): common practice, no source
 MAX_FONT_PT = 9.0
@@ -242,12 +242,12 @@ def _paragraph(line: Line, styles: dict[str, Any]) -> Any:
     from reportlab.platypus import Paragraph
 
     if line.parts:
-        body = " · ".join(f"<b>{escape(k)} {escape(v)}</b>" if strong else
-                          f"{escape(k)} {escape(v)}" for k, v, strong in line.parts)
+        body = " · ".join(f"<b>{for_pdf(k)} {for_pdf(v)}</b>" if strong else
+                          f"{for_pdf(k)} {for_pdf(v)}" for k, v, strong in line.parts)
         return Paragraph(body, styles[line.role])
-    body = f"<b>{escape(line.text)}</b>" if line.strong else escape(line.text)
+    body = f"<b>{for_pdf(line.text)}</b>" if line.strong else for_pdf(line.text)
     if line.lead:
-        body = f"<b>{escape(line.lead)}</b> {body}"
+        body = f"<b>{for_pdf(line.lead)}</b> {body}"
     if line.role == "footer":
         body = f"<i>{body}</i>"
     return Paragraph(body, styles[line.role])

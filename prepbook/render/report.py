@@ -12,12 +12,13 @@ import io
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
-from xml.sax.saxutils import escape
 
+from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput
 from prepbook.render import files
 from prepbook.render.labels import significant
 from prepbook.render.report_chart import control_chart, curve_chart
+from prepbook.text import for_pdf
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import RunRecord
@@ -56,9 +57,10 @@ def checked_target(output: str, *, paper: str, replace: bool) -> Path:
 
 
 def write_report(data: ReportData, target: Path, *, paper: str = "a4",
-                 replace: bool = False) -> WrittenReport:
-    """Draw the report of ``data`` and write it to ``target`` (see ``checked_target``)."""
-    pdf, pages = report_pdf(data, paper=paper)
+                 replace: bool = False, clk: LabClock | None = None) -> WrittenReport:
+    """Draw the report of ``data`` and write it to ``target`` (see ``checked_target``);
+    times in the lab's time zone (``clk``; UTC without it)."""
+    pdf, pages = report_pdf(data, paper=paper, clk=clk)
     path = files.write_bytes(target, pdf, replace=replace)
     return WrittenReport(batch=data.batch.batch, file=str(path), pages=pages,
                          runs=len(data.batch.runs), head_hash=data.audit.head_hash,
@@ -100,7 +102,7 @@ class _Styles:
 def _p(text: Any, style: Any) -> Any:
     from reportlab.platypus import Paragraph
 
-    return Paragraph(escape(_text(text)), style)
+    return Paragraph(for_pdf(_text(text)), style)
 
 
 def _cell(value: Any, st: _Styles) -> Any:
@@ -151,7 +153,7 @@ def _pairs(rows: list[list[Any]], width: float, st: _Styles) -> Any:
 
 
 def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
-                 readings: RunReadings | None = None) -> list[Any]:
+                 readings: RunReadings | None, clk: LabClock) -> list[Any]:
     from reportlab.platypus import KeepTogether, Spacer
 
     out: list[Any] = []
@@ -161,8 +163,9 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
                if run.lot else f"batch {run.reference_batch}")
     conditions = [
         ["Method", f"{run.method} against {against}"],
-        ["Performed", f"{run.performed_at} UTC by {run.analyst} "
-                      f"(recorded {run.recorded_at})"],
+        ["Performed", f"{clk.shown(run.performed_at)} by {run.analyst} (recorded "
+                      f"{clk.shown(run.recorded_at)}"
+                      f"{', LATE ENTRY' if clk.late(run.performed_at, run.recorded_at) else ''})"],
         ["Instruments", f"balance {_text(run.balance)}, burette {_text(run.burette)}"],
         ["Conditions", f"temperature {_text(run.temperature_c)} °C, blank "
                        f"{_text(run.blank_ml)} mL, indicator {_text(run.indicator)}"],
@@ -181,11 +184,11 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
             flags.append("outlier (Grubbs)")
         reps.append([f"{r.position}.{r.version}", r.amount, r.volume_ml,
                      _num(r.normality, 6), ", ".join(flags) or "-", _text(r.reason),
-                     f"{r.recorded_by}, {r.recorded_at}"])
+                     f"{r.recorded_by}, {clk.shown(r.recorded_at)}"])
     out.append(_table(["#.v", amount, "titrant (mL)", "N (eq/L)", "flags", "reason",
-                       "recorded by, at (UTC)"], reps,
+                       "recorded by, at"], reps,
                       [w * width for w in (0.06, 0.15, 0.1, 0.11, 0.14, 0.2, 0.24)], st))
-    out.extend(_readings_section(readings, st, width))
+    out.extend(_readings_section(readings, st, width, clk))
     out.append(Spacer(1, 4))
     stats = (f"mean N {_num(run.normality, 6)} eq/L at {_text(run.temperature_c)} °C; "
              f"{_num(run.normality_20c, 6)} eq/L at 20 °C; factor "
@@ -213,7 +216,7 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
             _table(["quantity", "value", "unit", "u", "u relative", "contribution (eq/L)",
                     "share %"], budget,
                    [w * width for w in (0.3, 0.13, 0.08, 0.12, 0.12, 0.15, 0.1)], st)]))
-    reviews = [[rv.decision, rv.reviewer, f"{rv.signed_at} UTC", _text(rv.reason)]
+    reviews = [[rv.decision, rv.reviewer, clk.shown(rv.signed_at), _text(rv.reason)]
                for rv in run.reviews]
     out.append(Spacer(1, 3))
     if reviews:
@@ -224,14 +227,15 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
     return out
 
 
-def _readings_section(readings: RunReadings | None, st: _Styles, width: float) -> list[Any]:
+def _readings_section(readings: RunReadings | None, st: _Styles, width: float,
+                      clk: LabClock) -> list[Any]:
     """Which readings came from an instrument, and each stored curve with its endpoint."""
     from reportlab.platypus import KeepTogether, Spacer, Table
 
     if readings is None or not readings.from_instruments:
         return []
     rows = [[f"{r.position}.{r.version}",
-             f"balance {r.balance}, read {r.read_at} UTC" if r.amount_source == "balance"
+             f"balance {r.balance}, read {clk.shown(r.read_at)}" if r.amount_source == "balance"
              else "typed",
              _text(r.raw), "curve endpoint" if r.volume_source == "curve" else "typed"]
             for r in readings.sources]
@@ -256,11 +260,13 @@ def _readings_section(readings: RunReadings | None, st: _Styles, width: float) -
     return out
 
 
-def report_pdf(data: ReportData, *, paper: str = "a4") -> tuple[bytes, int]:
-    """The report's PDF bytes and its page count."""
+def report_pdf(data: ReportData, *, paper: str = "a4",
+               clk: LabClock | None = None) -> tuple[bytes, int]:
+    """The report's PDF bytes and its page count; times in ``clk``'s zone (else UTC)."""
     from reportlab.lib.pagesizes import A4, LETTER
     from reportlab.lib.units import mm
 
+    clk = clk or LabClock()
     st = _Styles()
     pagesize = A4 if paper == "a4" else LETTER
     margin = 16 * mm
@@ -269,12 +275,13 @@ def report_pdf(data: ReportData, *, paper: str = "a4") -> tuple[bytes, int]:
     unit_word = "mol/L" if win.unit == "M" else "N"
 
     def make_story() -> list[Any]:
-        return _story(data, st, width, unit_word)
+        return _story(data, st, width, unit_word, clk)
 
-    return _build(data, make_story, pagesize, margin)
+    return _build(data, make_story, pagesize, margin, clk)
 
 
-def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[Any]:
+def _story(data: ReportData, st: _Styles, width: float, unit_word: str,
+           clk: LabClock) -> list[Any]:
     from reportlab.platypus import Spacer
 
     b = data.batch
@@ -302,7 +309,7 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[
     ]
     if b.retired:
         r = b.retired
-        summary.append(["Retired", f"{r.at} UTC by {r.by}: {_text(r.reason)}"])
+        summary.append(["Retired", f"{clk.shown(r.at)} by {r.by}: {_text(r.reason)}"])
     story.append(_pairs(summary, width, st))
 
     story.append(_p("Preparation", st.h1))
@@ -312,7 +319,8 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[
            "concentrate": f"{_text(p.concentrate_volume_ml)} mL of concentrated reagent",
            "dilution": f"{_text(p.aliquot_ml)} mL of batch {_text(p.from_batch)}"}
     prep = [
-        ["Made", f"{p.made_at} UTC by {p.made_by} (recorded {p.recorded_at})"],
+        ["Made", f"{clk.shown(p.made_at)} by {p.made_by} (recorded {clk.shown(p.recorded_at)}"
+                 f"{', LATE ENTRY' if clk.late(p.made_at, p.recorded_at) else ''})"],
         ["From", f"{how.get(p.method, p.method)}, made up to {p.volume_ml} mL"],
         ["Instruments", f"flask {_text(p.flask)}, balance {_text(p.balance)}"],
         ["Theoretical", f"{_num(p.theoretical_normality, 5)} eq/L from how it was made"],
@@ -333,32 +341,32 @@ def _story(data: ReportData, st: _Styles, width: float, unit_word: str) -> list[
     if not b.runs:
         story.append(_p("None recorded.", st.body))
     for run in b.runs:
-        story.extend(_run_section(run, unit_word, st, width, data.readings.get(run.run)))
+        story.extend(_run_section(run, unit_word, st, width, data.readings.get(run.run), clk))
 
     story.append(_p("Corrections and reasons", st.h1))
     if data.corrections:
-        story.append(_table(["audit #", "at (UTC)", "by", "action", "record", "reason"],
-                            [[e.seq, e.at, e.actor, e.action, e.record, e.reason]
+        story.append(_table(["audit #", "at", "by", "action", "record", "reason"],
+                            [[e.seq, clk.shown(e.at), e.actor, e.action, e.record, e.reason]
                              for e in data.corrections],
-                            [w * width for w in (0.08, 0.17, 0.1, 0.15, 0.13, 0.37)], st))
+                            [w * width for w in (0.07, 0.21, 0.1, 0.14, 0.12, 0.36)], st))
     else:
         story.append(_p("No record of this batch was changed with a reason.", st.body))
 
     story.append(_p("Uses", st.h1))
     if b.uses:
-        story.append(_table(["at (UTC)", "by", "volume (mL)", "purpose"],
-                            [[u.at, u.by, _text(u.volume_ml), _text(u.purpose)]
+        story.append(_table(["at", "by", "volume (mL)", "purpose"],
+                            [[clk.shown(u.at), u.by, _text(u.volume_ml), _text(u.purpose)]
                              for u in b.uses],
                             [w * width for w in (0.2, 0.15, 0.12, 0.53)], st))
     else:
         story.append(_p("No use recorded.", st.body))
 
-    story.extend(_assay_section(data, st, width))
+    story.extend(_assay_section(data, st, width, clk))
 
     story.append(_p("Labels printed", st.h1))
     if data.labels:
-        story.append(_table(["printed (UTC)", "by", "showed run", "factor", "size", "copies"],
-                            [[lp["printed_at"], lp["printed_by"], _text(lp["run"]),
+        story.append(_table(["printed", "by", "showed run", "factor", "size", "copies"],
+                            [[clk.shown(lp["printed_at"]), lp["printed_by"], _text(lp["run"]),
                               _fixed(lp["factor"], 4), lp["size"], lp["copies"]]
                              for lp in data.labels],
                             [w * width for w in (0.22, 0.14, 0.16, 0.14, 0.2, 0.14)], st))
@@ -386,15 +394,16 @@ def _limit(low: str | None, high: str | None) -> str:
     return f"{low or '-'} to {high or '-'}" if low or high else "-"
 
 
-def _assay_section(data: ReportData, st: _Styles, width: float) -> list[Any]:
+def _assay_section(data: ReportData, st: _Styles, width: float, clk: LabClock) -> list[Any]:
     """The sample results made with the batch, and those its titrant's changed value
     puts in question (recomputed on reading; the recorded results stay as they were)."""
     story: list[Any] = [_p(f"Assays ({len(data.assays)})", st.h1)]
     if not data.assays:
         return [*story, _p("No sample titrated with this batch.", st.body)]
     story.append(_table(
-        ["assay", "sample", "analyte", "at (UTC)", "run", "titrant (eq/L)", "result", "limit"],
-        [[a.assay, a.sample, a.analyte, a.performed_at, a.run, _num(a.titrant_normality, 5),
+        ["assay", "sample", "analyte", "at", "run", "titrant (eq/L)", "result", "limit"],
+        [[a.assay, _text(a.sample), _text(a.analyte), clk.shown(a.performed_at), a.run,
+          _num(a.titrant_normality, 5),
           f"{_num(a.result, 5)} {a.unit}", _limit(a.limit_low, a.limit_high)]
          for a in data.assays],
         [w * width for w in (0.12, 0.12, 0.14, 0.16, 0.11, 0.11, 0.14, 0.1)], st))
@@ -409,9 +418,9 @@ def _assay_section(data: ReportData, st: _Styles, width: float) -> list[Any]:
                f"{_num(r.after_low, 5)} to {_num(r.after_high, 5)} {r.unit}"
                if r.after_low is not None else "unknown")
         crosses = "-" if r.crosses_limit is None else ("CROSSES" if r.crosses_limit else "no")
-        rows.append([r.assay, r.sample, f"{_num(r.before, 5)} {r.unit}", now,
+        rows.append([r.assay, _text(r.sample), f"{_num(r.before, 5)} {r.unit}", now,
                      "-" if r.change_percent is None else f"{r.change_percent:+.2f} %",
-                     crosses, r.reason])
+                     crosses, _text(r.reason)])
     story.append(_table(["assay", "sample", "recorded", "now", "change", "limit", "why"],
                         rows, [w * width for w in (0.11, 0.13, 0.14, 0.17, 0.08, 0.08, 0.29)],
                         st))
@@ -419,14 +428,14 @@ def _assay_section(data: ReportData, st: _Styles, width: float) -> list[Any]:
 
 
 def _build(data: ReportData, make_story: Any, pagesize: tuple[float, float],
-           margin: float) -> tuple[bytes, int]:
+           margin: float, clk: LabClock) -> tuple[bytes, int]:
     from reportlab.platypus import SimpleDocTemplate
 
     b = data.batch
     audit = data.audit
     footer_left = (f"audit chain head {audit.head_hash or '-'} "
                    f"({'verified' if audit.ok else 'NOT VERIFIED'})")
-    footer_right = f"printed {data.printed_at} UTC"
+    footer_right = f"printed {clk.shown(data.printed_at)}"
     header = f"prepbook batch record  {b.batch}"
 
     class _Doc(SimpleDocTemplate):

@@ -54,7 +54,7 @@ def control_chart(data: ReportData, width: float, *, detail: bool = False) -> An
 
     made = day(data.batch.preparation.made_at)
     xs = [day(p.at) for p in points] or [made]
-    x0 = min([made, *xs]) - 2
+    x0 = max(1.0, min([made, *xs]) - 2)  # day 1 is the first the calendar has
     x1 = max([*xs, made]) + 2
     expires = data.batch.expires
     if expires:

@@ -12,15 +12,18 @@ query and compared with ``prepbook.store.revision.HEAD_REVISION``.
 
 from __future__ import annotations
 
+import os
 import re
 import sqlite3
 from collections.abc import Iterator
-from contextlib import contextmanager
+from contextlib import contextmanager, suppress
 from pathlib import Path, PureWindowsPath
 from typing import Any
+from urllib.parse import quote
 
 from sqlalchemy import Engine, create_engine, event, make_url, text
-from sqlalchemy.exc import SQLAlchemyError
+from sqlalchemy.engine import URL
+from sqlalchemy.exc import ArgumentError, NoSuchModuleError, SQLAlchemyError
 from sqlalchemy.orm import ORMExecuteState, Session, sessionmaker
 
 from prepbook.errors import DatabaseError, IntegrityError
@@ -42,6 +45,7 @@ def resolve_url(target: str) -> str:
     if not target:
         raise DatabaseError("no database given: pass --db PATH or set PREPBOOK_DB")
     if "://" in target:
+        _supported(target)
         return target
     if target == ":memory:":
         return "sqlite://"
@@ -52,6 +56,52 @@ def resolve_url(target: str) -> str:
     # Escape only what make_url would otherwise read as a query string or an escape.
     escaped = database.replace("%", "%25").replace("?", "%3F").replace("#", "%23")
     return f"sqlite:///{escaped}"
+
+
+# The backends prepbook is built and tested for, as a user writes them.
+SUPPORTED = "SQLite (a file path, or sqlite:///PATH) and PostgreSQL (postgresql+psycopg://...)"
+
+
+def _supported(url: str) -> URL:
+    """``url`` parsed, if it names a backend prepbook works with; else one clear line."""
+    try:
+        parsed = make_url(url)
+    except (ArgumentError, ValueError):
+        raise DatabaseError(f"{url.split('://')[0]}://... is not a database URL "
+                            f"prepbook can read; it works with {SUPPORTED}") from None
+    backend = parsed.get_backend_name()
+    if backend not in ("sqlite", "postgresql"):
+        raise DatabaseError(f"unsupported database {backend!r}: prepbook works with "
+                            f"{SUPPORTED}")
+    return parsed
+
+
+def database_error(exc: BaseException) -> DatabaseError | None:
+    """One clear line for what went wrong in the database (or the disk under it): a
+    missing table, a read-only file or folder, a full disk, a number too large to store,
+    a file that cannot be opened. None for anything else (a constraint, a bug), which
+    keeps its own type for the caller."""
+    orig = getattr(exc, "orig", None) or exc
+    message = str(orig).splitlines()[0] if str(orig) else type(orig).__name__
+    lowered = message.lower()
+    sqlstate = getattr(orig, "sqlstate", None)
+    missing = re.search(r'no such table: (\w+)|relation "(\w+)" does not exist', message)
+    if missing:
+        table = missing.group(1) or missing.group(2)
+        return DatabaseError(f"not a prepbook database, or damaged: table {table} is missing")
+    if "readonly database" in lowered or "read-only" in lowered or sqlstate == "25006":
+        return DatabaseError("the database is read-only (the file or its folder cannot be "
+                             "written by this user); nothing was written")
+    if "disk is full" in lowered or "no space left" in lowered or sqlstate == "53100":
+        return DatabaseError("the disk is full; nothing was written (free some space and "
+                             "try again)")
+    if isinstance(orig, OverflowError) or "too large" in lowered or sqlstate == "22003":
+        return DatabaseError("a number given is too large to store or look up "
+                             f"(at most {2**63 - 1})")
+    if "unable to open database file" in lowered:
+        return DatabaseError("cannot open the database file (its folder is missing, or not "
+                             "readable and writable by this user)")
+    return None
 
 
 def sqlite_path(url: str) -> Path | None:
@@ -75,7 +125,9 @@ def _install_sqlite_pragmas(engine: Engine, *, foreign_keys: bool) -> None:
         cursor = dbapi_connection.cursor()
         try:
             cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
-            cursor.execute("PRAGMA journal_mode = WAL")
+            # A read-only file stays in its journal mode: it is only read.
+            with suppress(sqlite3.OperationalError):
+                cursor.execute("PRAGMA journal_mode = WAL")
             cursor.execute(f"PRAGMA foreign_keys = {'ON' if foreign_keys else 'OFF'}")
             # LIKE as PostgreSQL has it, case-sensitive (codes are): then SQLite finds
             # ``code LIKE 'prefix-%'`` (the next free code) through the index on code
@@ -96,12 +148,42 @@ def _install_sqlite_pragmas(engine: Engine, *, foreign_keys: bool) -> None:
 
 
 def make_engine(url: str, *, foreign_keys: bool = True) -> Engine:
-    """An engine configured for prepbook (pragmas and BEGIN IMMEDIATE on SQLite)."""
-    if make_url(url).get_backend_name() == "sqlite":
-        engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT_S})
-        _install_sqlite_pragmas(engine, foreign_keys=foreign_keys)
-        return engine
-    return create_engine(url, pool_pre_ping=True)
+    """An engine configured for prepbook (pragmas and BEGIN IMMEDIATE on SQLite).
+
+    A SQLite file that this user cannot write (or in a folder it cannot write) is
+    opened read-only, so reading it (``audit verify``) works and a write is refused
+    with one line rather than failing half-way.
+    """
+    parsed = _supported(url)
+    try:
+        if parsed.get_backend_name() == "sqlite":
+            path = sqlite_path(url)
+            if path is not None and path.is_file() and not _writable(path):
+                url = f"sqlite:///{_read_only_uri(path)}&uri=true"
+            engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT_S})
+            _install_sqlite_pragmas(engine, foreign_keys=foreign_keys)
+            return engine
+        return create_engine(url, pool_pre_ping=True)
+    except (NoSuchModuleError, ImportError) as exc:
+        raise DatabaseError(f"the database driver for {parsed.drivername!r} is not installed "
+                            f"({exc}); for PostgreSQL: pip install 'prepbook[postgres]'") \
+            from None
+
+
+def _writable(path: Path) -> bool:
+    return os.access(path, os.W_OK) and os.access(path.parent, os.W_OK)
+
+
+def _read_only_uri(path: Path) -> str:
+    """An SQLite URI opening ``path`` for reading only. In a folder closed to writing
+    no -wal or -shm file can be made: a file with no write-ahead log beside it is
+    opened as immutable (nobody can change it there either); one with a log is read
+    through it, as SQLite can when the log's files are there."""
+    wal = path.with_name(path.name + "-wal")
+    logged = wal.is_file() and wal.stat().st_size > 0
+    immutable = not os.access(path.parent, os.W_OK) and not logged
+    flags = "mode=ro&immutable=1" if immutable else "mode=ro"
+    return f"file:{quote(str(path.resolve().as_posix()))}?{flags}"
 
 
 def _refuse_deletes_and_silent_updates(session: Session, _context: Any, _instances: Any) -> None:
@@ -188,10 +270,18 @@ class Database:
                 raise
             return
         factory = self._write if write else self._read
-        with factory() as session, session.begin():
-            if write:
-                self.hold_writer_lock(session)
-            yield session
+        try:
+            with factory() as session, session.begin():
+                if write:
+                    self.hold_writer_lock(session)
+                yield session
+        except (SQLAlchemyError, OverflowError) as exc:
+            from prepbook.store.retry import is_collision
+
+            translated = None if is_collision(exc) else database_error(exc)
+            if translated is None:
+                raise  # a collision: the retry decorator reruns the whole transaction
+            raise translated from exc
 
     @contextmanager
     def one_transaction(self) -> Iterator[None]:
@@ -245,9 +335,7 @@ def _init_hint(what: str) -> DatabaseError:
 def _sqlite_revision(path: Path) -> str | None:
     """The schema revision of a SQLite file, read without creating or changing anything."""
     try:
-        con = sqlite3.connect(
-            f"{path.resolve().as_uri()}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_S
-        )
+        con = sqlite3.connect(_read_only_uri(path), uri=True, timeout=BUSY_TIMEOUT_S)
     except sqlite3.Error as exc:
         raise DatabaseError(f"cannot open the database {path}: {exc}") from exc
     try:

@@ -1,21 +1,77 @@
-"""Widgets of our own: a labelled text chart of a batch's factor, and state cells."""
+"""Widgets of our own: a labelled text chart of a batch's factor, state cells, and the
+tables and message text that show stored text as text.
+
+Textual reads a ``str`` given to a DataTable cell, a Rich table cell or
+``Static.update`` as markup, so a note holding ``[/]`` would crash the screen and
+``[link=...]`` would make a link. Stored text therefore reaches the screen as a Rich
+``Text`` (never markup) made by :func:`shown`, with its control characters visible;
+:class:`SafeTable` and :func:`safe_table` do that for every string cell.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from datetime import datetime
 from typing import TYPE_CHECKING, Any
+from weakref import WeakKeyDictionary
 
+from rich.table import Table
 from rich.text import Text
 from textual.app import App
-from textual.widgets import Static
+from textual.widgets import DataTable, Static
 
+from prepbook.clock import LabClock
+from prepbook.text import visible
 from prepbook.tui import words
 
 if TYPE_CHECKING:
     from prepbook.lab.watch import BatchTrend, FactorPoint
 
 MARKS = {"accepted": "●", "awaiting-review": "◇", "rejected": "×"}
+
+
+def shown(value: object, style: str = "") -> Text:
+    """Stored (or typed) text for the screen: never read as markup, control characters
+    shown visibly."""
+    return value if isinstance(value, Text) else Text(visible(value), style=style)
+
+
+_CLOCKS: WeakKeyDictionary[App[Any], LabClock] = WeakKeyDictionary()
+
+
+def when(app: App[Any], value: str | None) -> str:
+    """A stored time in the lab's wall-clock time with its offset (the lab's zone is
+    read once per running app)."""
+    clk = _CLOCKS.get(app)
+    if clk is None:
+        db = getattr(app, "db", None)
+        if db is None:  # no database (a screen drawn alone): UTC, as stored
+            return LabClock().shown(value)
+        from prepbook.lab import settings
+
+        clk = _CLOCKS[app] = settings.lab_clock(db)
+    return clk.shown(value)
+
+
+def _cells(cells: Sequence[Any]) -> list[Any]:
+    return [shown(c) if isinstance(c, str) else c for c in cells]
+
+
+class SafeTable(DataTable[Any]):
+    """A DataTable whose string cells are shown as text, never read as markup."""
+
+    def add_row(self, *cells: Any, **kwargs: Any) -> Any:
+        return super().add_row(*_cells(cells), **kwargs)
+
+
+class _SafeRichTable(Table):
+    def add_row(self, *renderables: Any, **kwargs: Any) -> None:
+        super().add_row(*_cells(renderables), **kwargs)
+
+
+def safe_table(**kwargs: Any) -> Table:
+    """A Rich table whose string cells are shown as text, never read as markup."""
+    return _SafeRichTable(**kwargs)
 
 
 def colour(app: App, name: str) -> str:
@@ -96,7 +152,7 @@ def draw_trend(points: Sequence[FactorPoint], window: tuple[float, float], *, wi
         r = row_of(p.factor)
         grid[r][c] = MARKS.get(p.status, "·")
         styles.pop((r, c), None)
-    out.append("factor = N / N nominal, by date of standardization (UTC)\n", style="bold")
+    out.append("factor = N / N nominal, by date of standardization\n", style="bold")
     if high > hi:
         out.append(f"  upper window limit {high:g} is above the chart "
                    f"({(high - vmax) * 100:.2g} % of nominal above the highest point)\n",

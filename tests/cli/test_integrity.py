@@ -210,7 +210,7 @@ def test_an_excluded_replicate_leaves_the_mean(bench: Cli) -> None:  # noqa: F81
 
 def test_expired_and_retired_batches_cannot_be_standardized_or_used(bench: Cli) -> None:  # noqa: F811
     old = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
-                     "--at", _at(-120), user="ben")["batch"]
+                     "--at", _at(-120), "--reason", "from the bench log", user="ben")["batch"]
     assert old  # NaOH-0.1N keeps 90 days (catalog, common practice)
     before = row_counts(bench.db)
     r = bench.refused("standardize", old, "--lot", "KHP-0001", "--rep", "0.8:40", user="ben")
@@ -253,9 +253,9 @@ def test_a_retirement_can_be_dated_but_not_before_what_the_batch_went_through(
 
 def test_a_due_batch_cannot_be_used(bench: Cli) -> None:  # noqa: F811
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
-                       "--at", _at(-20), user="ben")["batch"]
+                       "--at", _at(-20), "--reason", "from the bench log", user="ben")["batch"]
     run = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
-                     "--at", _at(-19),
+                     "--at", _at(-19), "--reason", "from the bench log",
                      *sum((["--rep", r] for r in REPS), []), user="ben")["run"]
     _accept(bench, run)
     row = next(b for b in bench.json("status") if b["batch"] == batch)
@@ -267,7 +267,7 @@ def test_a_due_batch_cannot_be_used(bench: Cli) -> None:  # noqa: F811
 def test_a_stock_expiry_caps_its_dilution(bench: Cli) -> None:  # noqa: F811
     """Expiry = made + shelf life, never later than what it was made from (DESIGN)."""
     stock = bench.json("batch", "make", "HCl-1N", "--volume", "1000", "--stock-volume", "86",
-                       "--at", _at(-300), user="ben")
+                       "--at", _at(-300), "--reason", "from the bench log", user="ben")
     dil = bench.json("batch", "make", "HCl-0.1N", "--volume", "1000", "--from-batch",
                      stock["batch"], "--aliquot", "100", "--at", _at(-1), user="ben")
     own = (datetime.now(UTC).date() + timedelta(days=-1 + 365)).isoformat()
@@ -277,14 +277,14 @@ def test_a_stock_expiry_caps_its_dilution(bench: Cli) -> None:  # noqa: F811
 
 def test_trend_forecast_matches_a_hand_least_squares(bench: Cli) -> None:  # noqa: F811
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
-                       "--at", _at(-40), user="ben")["batch"]
+                       "--at", _at(-40), "--reason", "from the bench log", user="ben")["batch"]
     sets = [(-39, ["0.8085:39.16", "0.8116:39.29", "0.8596:41.67"]),
             (-30, ["0.8085:39.26", "0.8116:39.39", "0.8596:41.77"]),
             (-20, ["0.8085:39.38", "0.8116:39.51", "0.8596:41.90"]),
             (-10, ["0.8085:39.47", "0.8116:39.60", "0.8596:41.99"])]
     for day, reps in sets:
         run = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
-                     "--at", _at(day),
+                         "--at", _at(day), "--reason", "from the bench log",
                          *sum((["--rep", r] for r in reps), []), user="ben")["run"]
         _accept(bench, run)
     t = bench.json("trend", batch)
@@ -309,12 +309,13 @@ def test_trend_forecast_matches_a_hand_least_squares(bench: Cli) -> None:  # noq
 def test_drift_beyond_the_limit_flags_the_uses_since_the_previous_standardization(
         bench: Cli) -> None:  # noqa: F811
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
-                       "--at", _at(-6), user="ben")["batch"]
+                       "--at", _at(-6), "--reason", "from the bench log", user="ben")["batch"]
     first = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
-                     "--at", _at(-5, "09:00"),
+                       "--at", _at(-5, "09:00"), "--reason", "from the bench log",
                        *sum((["--rep", r] for r in REPS), []), user="ben")["run"]
     _accept(bench, first)
-    bench.ok("use", batch, "--volume", "20", "--purpose", "sample 17", "--at", _at(-4), user="ben")
+    bench.ok("use", batch, "--volume", "20", "--purpose", "sample 17", "--at", _at(-4),
+             "--reason", "from the bench log", user="ben")
     bench.ok("use", batch, "--volume", "20", "--purpose", "sample 18", "--at", _at(-3), user="ben")
     # About 1 % weaker: beyond the 0.5 % drift limit of NaOH-0.1N.
     weaker = ["0.8085:39.56", "0.8116:39.69", "0.8596:42.09"]
@@ -340,10 +341,10 @@ def test_the_board_compares_and_shows_normalities_at_20_c(bench: Cli) -> None:  
     # NaOH-0.1N. The trend and the board must both see that drift, and the board's
     # normality must be the one its factor and the label use.
     batch = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
-                       "--at", _at(-6), user="ben")["batch"]
+                       "--at", _at(-6), "--reason", "from the bench log", user="ben")["batch"]
     reps = sum((["--rep", r] for r in REPS), [])
     cold = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
-                     "--at", _at(-5), "--temp", "10",
+                      "--at", _at(-5), "--reason", "from the bench log", "--temp", "10",
                       *reps, user="ben")
     _accept(bench, cold["run"])
     warm = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,

@@ -121,7 +121,8 @@ def lab(cli: Cli) -> Cli:
     cli.ok("instrument", "add", "BUR-1", "--kind", "burette", "--due", "2030-06-01",
            "--capacity", "50", "--tolerance", "0.05", user="ada")
     cli.ok("batch", "make", "NaOH-0.1N", "--code", "NAOH-0001", "--volume", "1000",
-           "--solute-mass", "4.1", "--balance", "BAL-1", "--at", "2026-12-01T08:00", user="ben")
+           "--solute-mass", "4.1", "--balance", "BAL-1", "--at", "2026-12-01T08:00",
+           "--reason", "from the bench log", user="ben")
     return cli
 
 
@@ -129,7 +130,7 @@ def test_standardize_correct_exclude_review_json_keys(lab: Cli) -> None:
     run = lab.json("standardize", "NAOH-0001", "--lot", "KHP-0001", "--balance", "BAL-1",
                    "--burette", "BUR-1", "--temp", "21.0", "--rep", "0.8085:39.16",
                    "--rep", "0.8116:39.29", "--rep", "0.8596:41.67", "--at", "2026-12-01T09:00",
-                   user="ben")
+                   "--reason", "from the bench log", user="ben")
     assert list(run) == RUN_RESULT
     assert [list(c) for c in run["checks"]] == [CHECK] * len(run["checks"])
     assert [list(r) for r in run["replicates"]] == [RUN_REPLICATE] * 3
@@ -162,7 +163,8 @@ def test_standardize_correct_exclude_review_json_keys(lab: Cli) -> None:
 def test_standardize_preview_has_the_same_keys(lab: Cli) -> None:
     """Typed one at a time (no --rep), the recorded result has the same keys."""
     result = lab("standardize", "NAOH-0001", "--lot", "KHP-0001", "--at", "2026-12-01T09:00",
-                 "--json", user="ben", input="20\n0.8085\n39.16\n0.8116\n39.29\n\ny\n")
+                 "--reason", "from the bench log", "--json", user="ben",
+                 input="20\n0.8085\n39.16\n0.8116\n39.29\n\ny\n")
     assert result.exit_code == 0, result.stderr
     out = json.loads(result.stdout[result.stdout.index("{"):])
     assert list(out) == RUN_RESULT

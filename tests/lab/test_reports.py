@@ -9,6 +9,7 @@ from pathlib import Path
 import pytest
 from pypdf import PdfReader
 
+from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput, NotFound
 from prepbook.lab import auditing, batches, reports
 from prepbook.render import report as drawn
@@ -62,7 +63,7 @@ def test_the_report_shows_every_run_replicate_review_and_the_head_hash(demo: Pat
         for rep in run.replicates or ():
             assert rep.amount in text and rep.volume_ml in text
         for review in run.reviews:
-            assert review.reviewer in text and review.signed_at in text
+            assert review.reviewer in text and LabClock().shown(review.signed_at) in text
     for use in shown.uses:
         assert use.by in text
     # The footer carries the head hash on every page, and the time of printing.

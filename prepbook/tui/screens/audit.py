@@ -13,8 +13,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
 from prepbook.errors import PrepbookError
-from prepbook.tui import words
-from prepbook.tui.widgets import colour
+from prepbook.tui.widgets import SafeTable, colour, shown, when
 
 if TYPE_CHECKING:
     from textual.timer import Timer
@@ -47,13 +46,13 @@ class AuditScreen(Screen[None]):
             yield Input(placeholder="actor", id="f-actor")
             yield Input(placeholder="since YYYY-MM-DD", id="f-since")
             yield Input(placeholder="until YYYY-MM-DD", id="f-until")
-        yield DataTable(id="events", cursor_type="row", zebra_stripes=True)
+        yield SafeTable(id="events", cursor_type="row", zebra_stripes=True)
         yield Static("", id="message", classes="message")
         yield Footer()
 
     def on_mount(self) -> None:
         table = self.query_one("#events", DataTable)
-        for c in ("seq", "at (UTC)", "actor", "action", "record", "performed (UTC)", "reason"):
+        for c in ("seq", "entered", "actor", "action", "record", "performed", "reason"):
             table.add_column(c)
         self.reload()
         table.focus()
@@ -75,15 +74,15 @@ class AuditScreen(Screen[None]):
                                   until=val("#f-until"), limit=self.limit + 1)
         except PrepbookError as exc:
             msg.set_class(True, "refusal")
-            msg.update(f"filter refused: {exc}")
+            msg.update(shown(f"filter refused: {exc}"))
             return
         more = len(events) > self.limit
         events = events[-self.limit:]
         table = self.query_one("#events", DataTable)
         table.clear()
         for ev in reversed(events):  # newest first
-            table.add_row(str(ev.seq), words.when(ev.at), ev.actor, ev.action,
-                          ev.record, words.when(ev.performed_at), ev.reason or "")
+            table.add_row(str(ev.seq), when(self.app, ev.at), ev.actor, ev.action,
+                          ev.record, when(self.app, ev.performed_at), ev.reason or "")
         msg.set_class(False, "refusal")
         msg.update(f"{len(events)} event(s), newest first"
                    + ("; m shows older ones" if more else "; that is all of them"))

@@ -17,7 +17,7 @@ from prepbook.errors import PrepbookError
 from prepbook.render.curve_text import curve_chart, curve_heading, source_lines
 from prepbook.tui import words
 from prepbook.tui.screens.common import run_block, safety, small_table
-from prepbook.tui.widgets import TrendChart, colour, state_cell
+from prepbook.tui.widgets import SafeTable, TrendChart, colour, shown, state_cell, when
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BatchRecord
@@ -64,7 +64,7 @@ class BatchScreen(Screen[None]):
                 yield TrendChart(id="chart")
                 yield Static("", id="trend-points")
             with TabPane("3 audit events", id="events"):
-                yield DataTable(id="batch-events", cursor_type="row", zebra_stripes=True)
+                yield SafeTable(id="batch-events", cursor_type="row", zebra_stripes=True)
         yield Static("", id="message", classes="message")
         yield Footer()
 
@@ -90,12 +90,12 @@ class BatchScreen(Screen[None]):
         self.query_one("#chain-body", Static).update(self.chain(d))
         trend = watch.batch_trend(db, self.code)
         self.query_one("#chart", TrendChart).set_data(trend)
-        pts = small_table("run", "date (UTC)", "status", "factor", "change %", "",
+        pts = small_table("run", "date", "status", "factor", "change %", "",
                           right=(3, 4))
         limit = trend.trend.drift_limit_percent
         for p in trend.points:
             ch = p.change_percent
-            pts.add_row(p.run, words.when(p.at), words.run_words(p.status),
+            pts.add_row(p.run, when(self.app, p.at), words.run_words(p.status),
                         words.fixed(p.factor, 5), "-" if ch is None else f"{ch:+.3f}",
                         f"beyond the drift limit {limit:g} %" if p.beyond_drift_limit
                         else "")
@@ -115,10 +115,10 @@ class BatchScreen(Screen[None]):
             f"{words.fixed(d.factor)} to nominal {d.nominal:g} {d.unit}  ·  "
             f"restandardize by {d.restandardize_by or '-'}  ·  expires {d.expires}"))
         for w in d.warnings:
-            parts.append(Text(f"  ! {w}", style=warn))
+            parts.append(shown(f"  ! {w}", style=warn))
         if d.retired:
             r = d.retired
-            parts.append(Text(f"  retired {words.when(r.at)} by {r.by}: {r.reason}"))
+            parts.append(shown(f"  retired {when(self.app, r.at)} by {r.by}: {r.reason}"))
         p = d.preparation
         parts.append(Text("\npreparation", style="bold"))
         how = {"solid": f"{p.solute_mass_g} g of solute"
@@ -127,8 +127,8 @@ class BatchScreen(Screen[None]):
                "dilution": f"{p.aliquot_ml} mL of batch {p.from_batch}"}[p.method]
         parts.append(Text(
             f"  {how}, made up to {p.volume_ml} mL in flask {p.flask or '-'}"
-            f" (balance {p.balance or '-'})\n  made {words.when(p.made_at)} by "
-            f"{p.made_by}, recorded {words.when(p.recorded_at)};  theoretical N "
+            f" (balance {p.balance or '-'})\n  made {when(self.app, p.made_at)} by "
+            f"{p.made_by}, recorded {when(self.app, p.recorded_at)};  theoretical N "
             f"{words.sig(p.theoretical_normality)}"
             + (f"\n  notes: {p.notes}" if p.notes else "")))
         if d.diluted_into:
@@ -146,7 +146,7 @@ class BatchScreen(Screen[None]):
         if d.uses:
             t = small_table("when", "by", "mL", "purpose", right=(2,))
             for u in d.uses:
-                t.add_row(words.when(u.at), u.by, u.volume_ml or "-",
+                t.add_row(when(self.app, u.at), u.by, u.volume_ml or "-",
                           u.purpose or "")
             parts.append(t)
         else:
@@ -158,12 +158,12 @@ class BatchScreen(Screen[None]):
 
         table = self.query_one("#batch-events", DataTable)
         if not table.columns:
-            for c in ("seq", "at (UTC)", "actor", "action", "record", "performed", "reason"):
+            for c in ("seq", "entered", "actor", "action", "record", "performed", "reason"):
                 table.add_column(c)
         table.clear()
         for ev in watch.batch_events(self.app.db, self.code):  # type: ignore[attr-defined]
-            table.add_row(str(ev.seq), words.when(ev.at), ev.actor, ev.action,
-                          ev.record, words.when(ev.performed_at), ev.reason or "")
+            table.add_row(str(ev.seq), when(self.app, ev.at), ev.actor, ev.action,
+                          ev.record, when(self.app, ev.performed_at), ev.reason or "")
         self._events_loaded = True
 
     def on_tabbed_content_tab_activated(self, event: TabbedContent.TabActivated) -> None:
@@ -174,7 +174,7 @@ class BatchScreen(Screen[None]):
     def say(self, text: str, *, bad: bool = False) -> None:
         msg = self.query_one("#message", Static)
         msg.set_class(bad, "refusal")
-        msg.update(text)
+        msg.update(shown(text))
 
     def action_tab(self, tab: str) -> None:
         self.query_one("#tabs", TabbedContent).active = tab

@@ -13,7 +13,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Select, Static
 
 from prepbook.tui import words
-from prepbook.tui.widgets import colour, state_cell
+from prepbook.tui.widgets import SafeTable, colour, state_cell
 
 if TYPE_CHECKING:
     from prepbook.lab.board import BatchLife
@@ -46,7 +46,7 @@ class BoardScreen(Screen[None]):
             yield Select([], prompt="every spec", id="spec")
             yield Select([(words.state_words(s), s) for s in words.STATES],
                          prompt="every state", id="state")
-        yield DataTable(id="board", cursor_type="row", zebra_stripes=True)
+        yield SafeTable(id="board", cursor_type="row", zebra_stripes=True)
         yield Static("", id="board-detail", classes="detail")
         yield Footer()
 

@@ -11,7 +11,7 @@ from rich.text import Text
 from textual.app import App
 
 from prepbook.tui import words
-from prepbook.tui.widgets import check_cell, colour, status_cell
+from prepbook.tui.widgets import check_cell, colour, safe_table, shown, status_cell, when
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BudgetRow, RunRecord
@@ -21,7 +21,7 @@ DEFER = ("Follow the substance's safety data sheet, local regulations and the "
 
 
 def small_table(*columns: str, right: tuple[int, ...] = ()) -> Table:
-    t = Table(box=None, pad_edge=False, expand=False, header_style="bold underline")
+    t = safe_table(box=None, pad_edge=False, expand=False, header_style="bold underline")
     for i, c in enumerate(columns):
         t.add_column(c, justify="right" if i in right else "left", no_wrap=i in right)
     return t
@@ -69,8 +69,8 @@ def run_block(app: App, run: RunRecord, unit: str = "N") -> RenderableType:
     """One standardization: how it was done, its replicates, checks, budget and reviews."""
     head = Text.assemble(
         (f"run {run.run}", "bold"), "  ", status_cell(app, run.status),
-        f"  {run.method}  performed {words.when(run.performed_at)} by {run.analyst}"
-        f"  (recorded {words.when(run.recorded_at)})")
+        f"  {run.method}  performed {when(app, run.performed_at)} by {run.analyst}"
+        f"  (recorded {when(app, run.recorded_at)})")
     against = (f"lot {run.lot} ({run.lot_certificate or 'no certificate on record'})"
                if run.lot else f"against batch {run.reference_batch}")
     how = Text(f"  {against};  balance {run.balance or '-'};  burette "
@@ -106,9 +106,9 @@ def run_block(app: App, run: RunRecord, unit: str = "N") -> RenderableType:
             ct.add_row(c["name"], check_cell(app, c), c["message"])
         parts.append(ct)
     for rv in run.reviews:
-        parts.append(Text(f"  {rv.decision}ed by {rv.reviewer} on "
-                          f"{words.when(rv.signed_at)}"
-                          + (f": {rv.reason}" if rv.reason else "")))
+        parts.append(shown(f"  {rv.decision}ed by {rv.reviewer} on "
+                           f"{when(app, rv.signed_at)}"
+                           + (f": {rv.reason}" if rv.reason else "")))
     return Group(*parts)
 
 

@@ -66,7 +66,7 @@ class PrepareScreen(Screen[None]):
                 yield from f("balance", Select([], prompt="none named", id="balance",
                                                compact=True), "f-balance")
                 yield from f("notes", Input(id="notes", compact=True))
-                yield from f("made", Input(placeholder="now, or YYYY-MM-DDTHH:MM (UTC)",
+                yield from f("made", Input(placeholder="now, or YYYY-MM-DDTHH:MM (lab time)",
                                            id="at", compact=True))
             with VerticalScroll(id="record-live"):
                 yield Static("", id="live")

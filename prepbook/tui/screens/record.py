@@ -67,7 +67,7 @@ class RecordScreen(Screen[None]):
                 yield from self._field("blank mL", Input(placeholder="0", id="blank", compact=True))
                 yield from self._field("indicator", Input(id="indicator", compact=True))
                 yield from self._field("performed", Input(
-                    placeholder="now, or YYYY-MM-DDTHH:MM (UTC)", id="at", compact=True))
+                    placeholder="now, or YYYY-MM-DDTHH:MM (lab time)", id="at", compact=True))
                 yield Label("replicates", classes="section")
                 with Horizontal(classes="grid-head"):
                     yield Label("#", classes="rep-n")

@@ -17,7 +17,7 @@ from textual.widgets import DataTable, Footer, Static
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, run_block
-from prepbook.tui.widgets import colour
+from prepbook.tui.widgets import SafeTable, colour, shown, when
 
 if TYPE_CHECKING:
     from prepbook.lab.reviews import QueuedRun
@@ -40,7 +40,7 @@ class ReviewScreen(Screen[None]):
 
     def compose(self) -> ComposeResult:
         yield Static("", id="topline", classes="topline")
-        yield DataTable(id="queue", cursor_type="row", zebra_stripes=True)
+        yield SafeTable(id="queue", cursor_type="row", zebra_stripes=True)
         with VerticalScroll(id="review-detail"):
             yield Static("", id="review-body")
         yield Static("", id="message", classes="message")
@@ -48,7 +48,7 @@ class ReviewScreen(Screen[None]):
 
     def on_mount(self) -> None:
         table = self.query_one("#queue", DataTable)
-        for c in ("run", "batch", "analyst", "performed (UTC)", "N (eq/L)", "factor",
+        for c in ("run", "batch", "analyst", "performed", "N (eq/L)", "factor",
                   "RSD %", "verdict"):
             table.add_column(c, key=c)
         self.reload()
@@ -65,7 +65,7 @@ class ReviewScreen(Screen[None]):
         for r in self.queue:
             v_style = colour(self.app, {"pass": "success", "fail": "error"}.get(
                 r.verdict or "", "warning"))
-            table.add_row(r.run, r.batch, r.analyst, words.when(r.performed_at),
+            table.add_row(r.run, r.batch, r.analyst, when(self.app, r.performed_at),
                           Text(words.sig(r.normality), justify="right"),
                           Text(words.fixed(r.factor), justify="right"),
                           Text(words.sig(r.rsd_percent, 3), justify="right"),
@@ -132,7 +132,7 @@ class ReviewScreen(Screen[None]):
     def say(self, text: str, *, bad: bool = False) -> None:
         msg = self.query_one("#message", Static)
         msg.set_class(bad, "refusal")
-        msg.update(text)
+        msg.update(shown(text))
 
     def action_open_batch(self) -> None:
         from prepbook.tui.screens.batch import BatchScreen
