@@ -44,12 +44,14 @@ def log(
 @app.command("verify")
 def verify(
     ctx: typer.Context,
+    thorough: bool = typer.Option(False, "--thorough",
+                                  help="Read every page of the file (SQLite integrity_check)."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """Check the hash chain and that every row matches its last audited state."""
     from prepbook.lab import auditing
 
-    rep = auditing.verify(database(ctx))
+    rep = auditing.verify(database(ctx), thorough=thorough)
     if as_json:
         output.emit_json(rep)
     else:

@@ -35,7 +35,7 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
                          since=since_d, until=until_d, limit=limit)
 
 
-def verify(db: Database) -> audit.VerifyReport:
+def verify(db: Database, *, thorough: bool = False) -> audit.VerifyReport:
     """The chain recomputed and every audited row checked against its last event."""
     with db.session(write=False) as s:
-        return audit.verify(s)
+        return audit.verify(s, thorough=thorough)

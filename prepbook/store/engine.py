@@ -22,6 +22,7 @@ from typing import Any
 from sqlalchemy import Engine, create_engine, event, make_url, text
 from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import ORMExecuteState, Session, sessionmaker
+from sqlalchemy.orm.exc import StaleDataError
 
 from prepbook.errors import DatabaseError, IntegrityError
 from prepbook.store.revision import HEAD_REVISION
@@ -188,10 +189,15 @@ class Database:
                 raise
             return
         factory = self._write if write else self._read
-        with factory() as session, session.begin():
-            if write:
-                self.hold_writer_lock(session)
-            yield session
+        try:
+            with factory() as session, session.begin():
+                if write:
+                    self.hold_writer_lock(session)
+                yield session
+        except StaleDataError as exc:  # a trigger swallowed a write: one line, not a trace
+            raise IntegrityError("the database did not store a change prepbook wrote (a "
+                                 "trigger or rule added outside prepbook?); nothing was "
+                                 "recorded: run `prepbook audit verify`") from exc
 
     @contextmanager
     def one_transaction(self) -> Iterator[None]:

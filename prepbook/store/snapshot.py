@@ -3,8 +3,10 @@
 ``snapshot(row)`` is the same on SQLite and PostgreSQL: every value goes through its
 column type's canonicaliser (times as ISO text, whole numbers refused if fractional,
 flags only 0/1). A column marked ``info={"audit": "digest"}`` (a large text derived
-from the rest of the record, such as a run's computed result) enters the snapshot as
-its fingerprint ``sha256:<hex>`` instead of in full; see ``fingerprint``.
+from the rest of the record, such as a run's computed result, or a secret, such as a
+user's passphrase hash) enters the snapshot as its fingerprint ``sha256:<hex>``
+instead of in full; see ``fingerprint``. Events written before a column was marked
+still verify (``legacy_to_digest``).
 """
 
 from __future__ import annotations

@@ -44,6 +44,7 @@ from prepbook.store.audit.chain import (
     read_key,
     time_text,
 )
+from prepbook.store.audit.defenses import store_problems
 from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead
 from prepbook.store.snapshot import (
     audited_in_digest,
@@ -103,8 +104,9 @@ class _Problems:
         return tuple(out)
 
 
-def verify(session: Session) -> VerifyReport:
-    """Recompute the whole chain and check every audited row against its last event."""
+def verify(session: Session, *, thorough: bool = False) -> VerifyReport:
+    """Recompute the whole chain and check every audited row against its last event;
+    the schema, the file (``thorough``: every page) and the credentials too."""
     problems = _Problems()
     try:
         key = read_key()
@@ -113,6 +115,8 @@ def verify(session: Session) -> VerifyReport:
         key = None
     session.flush()  # events still pending in this session are part of the trail
     conn = session.connection()
+    for kind, problem in store_problems(conn, thorough=thorough):
+        problems.add(kind, problem)
     chain = _check_chain(conn, key, problems)
     _check_head(conn, chain, problems)
     _check_rows(conn, chain.last_events, problems)
