@@ -2,7 +2,9 @@
 
 Tamper tests change the database directly (as someone with a database browser or
 a SQL console would: sqlite3 on the file, or plain SQL on the PostgreSQL server)
-and check that `audit verify` exits 1 and names what was altered.
+and check that `audit verify` exits 1 and names what was altered. The guard triggers
+refuse such changes, so the tamperer first drops the guards of the tables they edit
+(as the owner of the file can), and verify names the missing guards too.
 """
 
 from __future__ import annotations
@@ -22,6 +24,7 @@ from sqlalchemy import Connection
 from prepbook.store.models import AUDITED_TABLES
 from tests.cli.test_bench_flow import REPS, _at, _days, _make_batch, _standardize, bench  # noqa: F401
 from tests.conftest import Cli, is_url, on_postgres, raw_sql, row_counts
+from tests.tampering import drop_guards, guarded_again, missing_guards
 
 M_KHP = Formula("KHC8H4O4").mass
 T = TypeVar("T")
@@ -36,6 +39,22 @@ def _verify_fails(cli: Cli) -> str:
     result = cli("audit", "verify")
     assert result.exit_code == 1, result.stdout
     return result.stdout
+
+
+def _unguarded(cli: Cli, *tables: str) -> list[str]:
+    """Drop the guards of ``tables``; what verify will then say of them."""
+    drop_guards(cli.db, tables)
+    return missing_guards(cli.db, *tables)
+
+
+def _verify_names(cli: Cli, *expected: str) -> list[str]:
+    """verify --json fails, and each expected text is in one of its problems."""
+    result = cli("audit", "verify", "--json")
+    assert result.exit_code == 1, result.stdout
+    problems: list[str] = json.loads(result.stdout)["problems"]
+    for text in expected:
+        assert any(text in p for p in problems), (text, problems)
+    return problems
 
 
 # ------------------------------------------------------------------ tamper evidence
@@ -53,9 +72,10 @@ def recorded(bench: Cli) -> tuple[Cli, str, str]:  # noqa: F811
 
 def test_an_edited_replicate_is_named(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
+    guards = _unguarded(cli, "replicates")
     raw_sql(cli.db, "UPDATE replicates SET volume_ml_text = '39.61' WHERE position = 1")
-    out = _verify_fails(cli)
-    assert "replicates #1" in out and "volume_ml_text" in out
+    problems = _verify_names(cli, *guards)
+    assert any("replicates #1" in p and "volume_ml_text" in p for p in problems), problems
 
 
 @pytest.mark.parametrize(("sql", "column"), [
@@ -74,9 +94,10 @@ def test_a_value_of_the_wrong_kind_is_found_not_coerced(
     cli, _, _ = recorded
     if on_postgres():
         pytest.skip("the server's column types refuse these values outright")
+    guards = _unguarded(cli, "replicates")
     raw_sql(cli.db, sql)
-    out = _verify_fails(cli)
-    assert "replicates" in out, out
+    problems = _verify_names(cli, *guards)
+    assert any(p.startswith("replicates #1") for p in problems), problems
 
 
 def test_an_inserted_row_is_named(recorded: tuple[Cli, str, str]) -> None:
@@ -89,26 +110,30 @@ def test_an_inserted_row_is_named(recorded: tuple[Cli, str, str]) -> None:
 
 def test_a_deleted_row_is_named(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
+    guards = _unguarded(cli, "uses")
     raw_sql(cli.db, "DELETE FROM uses WHERE id = 1")
-    out = _verify_fails(cli)
-    assert "uses #1" in out
+    _verify_names(cli, *guards, "uses #1")
 
 
 def test_an_edited_or_removed_audit_event_is_found(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
+    guards = _unguarded(cli, "audit_events")
     raw_sql(cli.db, "UPDATE audit_events SET actor = 'mallory' WHERE seq = 3")
-    assert "audit event #3" in _verify_fails(cli)
+    _verify_names(cli, *guards, "audit event #3")
 
 
 def test_a_removed_audit_event_is_found(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
+    guards = _unguarded(cli, "audit_events")
     raw_sql(cli.db, "DELETE FROM audit_events WHERE seq = 5")
-    assert "#5" in _verify_fails(cli)
+    _verify_names(cli, *guards, "#5")
 
 
 def test_verify_json_lists_problems(recorded: tuple[Cli, str, str]) -> None:
     cli, _, _ = recorded
+    guards = _unguarded(cli, "batches")
     raw_sql(cli.db, "UPDATE batches SET notes = 'edited behind its back'")
+    _verify_names(cli, *guards)
     result = cli("audit", "verify", "--json")
     assert result.exit_code == 1
     doc = json.loads(result.stdout)
@@ -132,6 +157,7 @@ def test_a_keyed_chain_rebuilt_without_the_key_fails(tmp_path: Path,
     assert cli.json("audit", "verify")["ok"] is True
     from prepbook.store.audit import canonical_json
 
+    guards = _unguarded(cli, "instruments", "audit_events", "audit_head")
     con = sqlite3.connect(cli.db)
     con.execute("UPDATE instruments SET capacity_text = '25'")
     rows = con.execute("SELECT seq, at, actor, action, record_type, record_id, \"values\", "
@@ -153,7 +179,7 @@ def test_a_keyed_chain_rebuilt_without_the_key_fails(tmp_path: Path,
     con.execute("UPDATE audit_head SET hash = ?", (prev,))
     con.commit()
     con.close()
-    _verify_fails(cli)
+    _verify_names(cli, *guards)
 
 
 # ------------------------------------------------------------------ corrections
@@ -359,11 +385,13 @@ def test_a_time_stored_the_iso_way_is_the_same_time(recorded: tuple[Cli, str, st
     cli, _, _ = recorded
     if on_postgres():
         pytest.skip("the server stores times as times")
-    raw_sql(cli.db, "UPDATE replicates SET created_at = replace(created_at, ' ', 'T')")
-    raw_sql(cli.db, "UPDATE batches SET made_at = replace(made_at, ' ', 'T')")
+    with guarded_again(cli.db):
+        raw_sql(cli.db, "UPDATE replicates SET created_at = replace(created_at, ' ', 'T')")
+        raw_sql(cli.db, "UPDATE batches SET made_at = replace(made_at, ' ', 'T')")
     assert cli.json("audit", "verify")["ok"] is True
-    raw_sql(cli.db, "UPDATE replicates SET created_at = replace(created_at, 'T', ' ') || 'Z' "
-                 "WHERE id = 1")
+    with guarded_again(cli.db):
+        raw_sql(cli.db, "UPDATE replicates SET created_at = replace(created_at, 'T', ' ') "
+                     "|| 'Z' WHERE id = 1")
     assert "replicates #1" in _verify_fails(cli)
 
 
@@ -423,13 +451,14 @@ class _BehindTheBack:
         from sqlalchemy import create_engine
         from sqlalchemy.pool import NullPool
 
+        self.db = db
         self.engine = create_engine(str(db) if is_url(db) else f"sqlite:///{db}",
                                     poolclass=NullPool)
 
     def run(self, work: Callable[[Connection], T]) -> T:
         from sqlalchemy import text
 
-        with self.engine.begin() as conn:
+        with guarded_again(self.db), self.engine.begin() as conn:
             if conn.dialect.name == "postgresql":
                 conn.execute(text("SET LOCAL session_replication_role = replica"))
             return work(conn)

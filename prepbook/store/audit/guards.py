@@ -63,21 +63,20 @@ def _guarded_models() -> tuple[type[Base], ...]:
     return (AuditEvent, AuditHead, *AUDITED_MODELS)
 
 
+def _updatable_columns(model: type[Base]) -> tuple[str, ...]:
+    """The column names behind ``__updatable__`` (attribute names: ``U`` is
+    ``expanded_u``), sorted."""
+    attrs = model.__mapper__.column_attrs
+    return tuple(sorted(attrs[key].columns[0].name for key in model.__updatable__))
+
+
 def guarded_tables() -> tuple[Guarded, ...]:
     """Every guarded table as the models describe it (what verify expects)."""
     return tuple(
         Guarded(table_of(m).name, tuple(c.name for c in table_of(m).columns),
-                tuple(sorted(m.__updatable__)))
+                _updatable_columns(m))
         for m in _guarded_models()
     )
-
-
-def updatable_of(table: str) -> tuple[str, ...]:
-    """The columns of a guarded table that may change (from its model)."""
-    for model in _guarded_models():
-        if table_of(model).name == table:
-            return tuple(sorted(model.__updatable__))
-    raise KeyError(table)
 
 
 def _q(name: str) -> str:
