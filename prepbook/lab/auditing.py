@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from prepbook.errors import InvalidInput
+from sqlalchemy.exc import DBAPIError
+
+from prepbook.errors import IntegrityError, InvalidInput
 from prepbook.inputs import parse_date
 from prepbook.store import audit
 from prepbook.store.engine import Database
@@ -37,5 +39,10 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
 
 def verify(db: Database, *, thorough: bool = False) -> audit.VerifyReport:
     """The chain recomputed and every audited row checked against its last event."""
-    with db.session(write=False) as s:
-        return audit.verify(s, thorough=thorough)
+    try:
+        with db.session(write=False) as s:
+            return audit.verify(s, thorough=thorough)
+    except DBAPIError as exc:  # pages that cannot be read: one line, never a traceback
+        raise IntegrityError(f"the database cannot be read to the end ({exc.orig}): restore "
+                             "it from a backup; `prepbook audit verify --thorough` on a "
+                             "copy lists the damage") from exc

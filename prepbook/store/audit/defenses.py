@@ -17,6 +17,8 @@ from prepbook.store.audit.schema_check import damage_problems, schema_problems
 def store_problems(conn: Connection, *, thorough: bool = False) -> list[tuple[str, str]]:
     """(kind, problem) for every defence of the store found wanting."""
     found = [("damage", p) for p in damage_problems(conn, thorough=thorough)]
+    if found:  # the other checks read through indexes, which may be the damaged pages
+        return found
     found += [("schema", p) for p in schema_problems(conn)]
     found += [("credential", p) for p in credential_problems(conn)]
     return found

@@ -11,6 +11,8 @@ page: an overwritten index page passes the row check but not this one.
 
 from __future__ import annotations
 
+import sqlite3
+from pathlib import Path
 from typing import Any
 
 from sqlalchemy import Connection, text
@@ -41,9 +43,23 @@ def damage_problems(conn: Connection, *, thorough: bool = False) -> list[str]:
     if conn.dialect.name != "sqlite":
         return []
     pragma = "integrity_check" if thorough else "quick_check"
-    lines = [str(row[0]) for row in conn.exec_driver_sql(f"PRAGMA {pragma}")]
+    path = conn.engine.url.database
+    if not path or path == ":memory:":
+        return []
+    lines: list[str] = []
+    # A connection of its own, read-only: SQLite refuses to end a transaction in which a
+    # read met a damaged page, and verify's own transaction must end cleanly.
+    own = sqlite3.connect(f"{Path(path).resolve().as_uri()}?mode=ro", uri=True)
+    try:
+        for row in own.execute(f"PRAGMA {pragma}"):
+            lines.extend(str(row[0]).splitlines())
+    except sqlite3.DatabaseError as exc:  # the check stopped on a page it cannot read
+        lines.append(f"the check stopped: {exc}")
+    finally:
+        own.close()
     if lines == ["ok"]:
         return []
+    lines = [line for line in lines if not line.startswith("*** in database")]
     shown = "; ".join(lines[:_SHOWN]) + (f"; and {len(lines) - _SHOWN} more"
                                          if len(lines) > _SHOWN else "")
     return [f"the database file is damaged (SQLite {pragma}): {shown}"]
