@@ -128,7 +128,11 @@ def legacy_to_digest(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
     one is taken as one), so the old snapshot compares with a row read today. The
     event itself is never rewritten: its hash is over the text it stores.
     """
-    names = digested_columns(table)
+    return _fingerprinted(digested_columns(table), audited)
+
+
+def _fingerprinted(names: tuple[str, ...], audited: dict[str, Any]) -> dict[str, Any]:
+    """``audited`` with each of ``names`` held in full replaced by its fingerprint."""
     if not names:
         return audited
     out = dict(audited)
@@ -137,6 +141,21 @@ def legacy_to_digest(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
         if isinstance(value, str) and not is_fingerprint(value):
             out[name] = fingerprint(value)
     return out
+
+
+@cache
+def secret_columns(table: Table) -> tuple[str, ...]:
+    """The digested columns of ``table`` that hold a secret (``info={"secret": True}``)."""
+    return tuple(name for name in digested_columns(table) if table.c[name].info.get("secret"))
+
+
+def without_secrets(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
+    """A snapshot with every secret as its fingerprint, for showing outside the trail.
+
+    Events recorded before a secret was digested hold it in full (a user's passphrase
+    hash); an export shows them in today's form instead. Other columns are untouched.
+    """
+    return _fingerprinted(secret_columns(table), audited)
 
 
 def canonical_type(column: Any) -> type | None:
