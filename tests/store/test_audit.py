@@ -19,7 +19,6 @@ from prepbook.store.audit import chain
 from prepbook.store.engine import Database, open_database
 from prepbook.store.models import AuditEvent, AuditHead, Batch, Setting
 from prepbook.store.snapshot import snapshot, snapshot_mapping
-
 from tests.tampering import drop_guards, guarded_again, restore_guards
 
 from .conftest import add_batch, now
