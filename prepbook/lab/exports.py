@@ -9,7 +9,6 @@ fingerprint, as the trail itself keeps it.
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass
 from datetime import date, datetime, time
 from typing import Any
@@ -32,7 +31,7 @@ from prepbook.store.models import (
     Spec,
     Use,
 )
-from prepbook.store.snapshot import secret_columns, without_secrets
+from prepbook.store.snapshot import decoded_snapshot, secret_columns, without_secrets
 
 KINDS = ("batches", "runs", "replicates", "uses", "audit")
 
@@ -148,12 +147,7 @@ def _shown_values(record_type: str, values: str) -> str:
     table = AUDITED_TABLES.get(record_type)
     if table is None or not secret_columns(table):
         return values
-    try:
-        audited = json.loads(values)
-    except ValueError:
-        return values
-    if not isinstance(audited, dict):
-        return values
+    audited = decoded_snapshot(values)
     shown = without_secrets(table, audited)
     return values if shown == audited else canonical_json(shown)
 

@@ -12,6 +12,7 @@ still verify (``legacy_to_digest``).
 from __future__ import annotations
 
 import hashlib
+import json
 import math
 import re
 from collections.abc import Callable, Mapping
@@ -156,6 +157,15 @@ def without_secrets(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
     hash); an export shows them in today's form instead. Other columns are untouched.
     """
     return _fingerprinted(secret_columns(table), audited)
+
+
+def decoded_snapshot(values: Any) -> dict[str, Any]:
+    """An event's stored snapshot text as a dict ({} when it is not a JSON object)."""
+    try:
+        decoded = json.loads(values)
+    except (ValueError, TypeError):
+        return {}
+    return decoded if isinstance(decoded, dict) else {}
 
 
 def canonical_type(column: Any) -> type | None:

@@ -140,16 +140,22 @@ def test_an_added_column_with_data_is_named(recorded: tuple[Cli, str, str]) -> N
         "column lots.side_notes is not one prepbook makes: added outside prepbook"]
 
 
+def _plant_swallowing_trigger(db: Path | str, name: str, columns: str) -> None:
+    """A trigger on users that makes an UPDATE (``columns``: SQLite's ``OF ...``) do
+    nothing, without an error."""
+    if on_postgres():
+        raw_sql(db, f"CREATE FUNCTION {name}() RETURNS trigger LANGUAGE plpgsql "
+                    "AS $$ BEGIN RETURN NULL; END $$")
+        raw_sql(db, f"CREATE TRIGGER {name} BEFORE UPDATE ON users FOR EACH ROW "
+                    f"EXECUTE FUNCTION {name}()")
+    else:
+        raw_sql(db, f"CREATE TRIGGER {name} BEFORE UPDATE {columns} ON users "
+                    "BEGIN SELECT RAISE(IGNORE); END")
+
+
 def test_a_planted_trigger_and_view_are_named(recorded: tuple[Cli, str, str]) -> None:  # noqa: F811
     cli = recorded[0]
-    if on_postgres():
-        raw_sql(cli.db, "CREATE FUNCTION quiet() RETURNS trigger LANGUAGE plpgsql "
-                        "AS $$ BEGIN RETURN NULL; END $$")
-        raw_sql(cli.db, "CREATE TRIGGER quiet BEFORE UPDATE ON users FOR EACH ROW "
-                        "EXECUTE FUNCTION quiet()")
-    else:
-        raw_sql(cli.db, "CREATE TRIGGER quiet BEFORE UPDATE ON users "
-                        "BEGIN SELECT RAISE(IGNORE); END")
+    _plant_swallowing_trigger(cli.db, "quiet", "")
     raw_sql(cli.db, "CREATE VIEW everyone AS SELECT name FROM users")
     assert _problems(cli) == [
         "trigger quiet on users is not one prepbook makes: planted outside prepbook",
@@ -184,14 +190,7 @@ def test_a_trigger_that_swallows_failed_attempts_gives_one_line_not_a_traceback(
     """A wrong passphrase must still be refused (and the lockout counter not bypassed in
     silence): the command fails with one line, and verify names the planted trigger."""
     drop_guards(bench.db, ["users"])
-    if on_postgres():
-        raw_sql(bench.db, "CREATE FUNCTION swallow() RETURNS trigger LANGUAGE plpgsql "
-                          "AS $$ BEGIN RETURN NULL; END $$")
-        raw_sql(bench.db, "CREATE TRIGGER swallow BEFORE UPDATE ON users FOR EACH ROW "
-                          "EXECUTE FUNCTION swallow()")
-    else:
-        raw_sql(bench.db, "CREATE TRIGGER swallow BEFORE UPDATE OF failed_attempts ON users "
-                          "BEGIN SELECT RAISE(IGNORE); END")
+    _plant_swallowing_trigger(bench.db, "swallow", "OF failed_attempts")
     batch = _make_batch(bench)
     before = row_counts(bench.db)
     result = bench.refused("batch", "retire", batch, "--reason", "spilled",

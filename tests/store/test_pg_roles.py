@@ -76,12 +76,11 @@ def _refused_to(url: str, sql: str) -> str:
 def test_a_bench_account_works_but_cannot_rewrite_or_unguard(
         bench_account: tuple[Cli, str]) -> None:
     cli, _ = bench_account
-    cli.ok("user", "add", "ada", "--role", "admin", "--passphrase-stdin", user="ada",
-           input="ada-passphrase\n")
-    cli.ok("user", "add", "ben", "--role", "technician", "--passphrase-stdin", user="ada",
-           input="ben-passphrase\nada-passphrase\n")
-    cli.ok("user", "add", "cleo", "--role", "reviewer", "--passphrase-stdin", user="ada",
-           input="cleo-passphrase\nada-passphrase\n")
+    admin = ""  # the first user signs nothing; the admin signs every later one
+    for name, role in (("ada", "admin"), ("ben", "technician"), ("cleo", "reviewer")):
+        cli.ok("user", "add", name, "--role", role, "--passphrase-stdin", user="ada",
+               input=f"{name}-passphrase\n{admin}")
+        admin = "ada-passphrase\n"
     cli.ok("lot", "add", "KHP", "--code", "KHP-0001", "--purity", "99.98", "--expires",
            _days(400), "--dried", _days(-3), user="ben")
     cli.ok("instrument", "add", "BAL-1", "--kind", "balance", "--due", _days(200),

@@ -11,14 +11,13 @@ fingerprint is not the one before it, and ``credential_problems`` names it.
 
 from __future__ import annotations
 
-import json
 from typing import Any
 
 from sqlalchemy import Connection, select
 
 from prepbook.store.audit.chain import label
 from prepbook.store.models import AuditEvent, User, table_of
-from prepbook.store.snapshot import legacy_to_digest
+from prepbook.store.snapshot import decoded_snapshot, legacy_to_digest
 
 # The only actions that may give a user a new passphrase hash.
 CREDENTIAL_ACTIONS = frozenset({"user.add", "user.passphrase", "user.reset"})
@@ -35,7 +34,7 @@ def credential_problems(conn: Connection) -> list[str]:
     last: dict[Any, Any] = {}
     problems = []
     for seq, action, rid, values in rows:
-        snapshot = _decoded(values)
+        snapshot = decoded_snapshot(values)
         if _COLUMN not in snapshot:
             continue  # an unreadable event: the chain check names it
         credential = legacy_to_digest(users, snapshot)[_COLUMN]
@@ -48,10 +47,3 @@ def credential_problems(conn: Connection) -> list[str]:
         last[rid] = credential
     return problems
 
-
-def _decoded(values: Any) -> dict[str, Any]:
-    try:
-        decoded = json.loads(values)
-    except (ValueError, TypeError):
-        return {}
-    return decoded if isinstance(decoded, dict) else {}

@@ -22,7 +22,6 @@ counted, so a wholesale rewrite gives a readable report.
 
 from __future__ import annotations
 
-import json
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -51,6 +50,9 @@ from prepbook.store.snapshot import (
     canonical_type,
     legacy_to_digest,
     snapshot_columns,
+)
+from prepbook.store.snapshot import (
+    decoded_snapshot as _decoded,
 )
 
 _MAX_LISTED = 10  # problems of one kind listed one by one before they are counted
@@ -275,15 +277,6 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems) 
                 if text != last[1]:
                     _compare_again(table, current, text, last[1], problems)
     _report_deleted(last_events, problems)
-
-
-def _decoded(values: Any) -> dict[str, Any]:
-    """An event's snapshot as a dict ({} when it is not a JSON object)."""
-    try:
-        decoded = json.loads(values)
-    except (ValueError, TypeError):
-        return {}
-    return decoded if isinstance(decoded, dict) else {}
 
 
 def _compare_again(table: Table, current: dict[str, Any], text: str, event_values: Any,
