@@ -21,7 +21,8 @@ from sqlalchemy.pool import NullPool
 
 from prepbook.store.audit import guards
 from tests.cli.test_bench_flow import _make_batch, bench  # noqa: F401
-from tests.cli.test_integrity import every_table, record_tables, recorded  # noqa: F401
+from tests.cli.test_integrity import recorded  # noqa: F401
+from tests.cli.test_tamper_every_table import every_table, record_tables  # noqa: F401
 from tests.conftest import Cli, is_url, on_postgres, raw_sql, row_counts
 from tests.tampering import drop_guards, guarded_again, missing_guards
 
