@@ -25,6 +25,7 @@ from prepbook.store.engine import open_database
 from prepbook.store.models import AuditEvent
 from prepbook.store.snapshot import fingerprint
 from tests.cli.test_bench_flow import _make_batch, bench  # noqa: F401
+from tests.cli.test_integrity import recorded  # noqa: F401
 from tests.cli.test_tamper_every_table import every_table  # noqa: F401
 from tests.conftest import Cli, is_url, raw_sql
 from tests.tampering import guarded_again

@@ -299,7 +299,7 @@ def test_keyed_chain_with_a_wrong_key_is_reported(
 ) -> None:
     _write_lab(db)
     wrong = tmp_path / "wrong.key"
-    wrong.write_bytes(b"another secret")
+    wrong.write_bytes(b"another secret, not the lab one")
     monkeypatch.setenv(audit.KEY_ENV, str(wrong))
     report = _verify(db)
     assert not report.ok
