@@ -57,13 +57,16 @@ def verify(
     witness: str = typer.Option(
         None, "--witness", metavar="DIR",
         help="The witness folder (default: witness_folder of the configuration)."),
+    thorough: bool = typer.Option(False, "--thorough",
+                                  help="Read every page of the file (SQLite integrity_check)."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """Check the hash chain, every row against its last audited state, and the trail
     against every checkpoint in sight."""
     from prepbook.lab import auditing
 
-    rep = auditing.verify_against(database(ctx), codes=codes or (), witness=witness)
+    rep = auditing.verify_against(database(ctx), codes=codes or (), witness=witness,
+                                  thorough=thorough)
     if as_json:
         output.emit_json(rep)
     else:

@@ -6,7 +6,9 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from prepbook.errors import InvalidInput
+from sqlalchemy.exc import DBAPIError
+
+from prepbook.errors import IntegrityError, InvalidInput
 from prepbook.inputs import parse_date, parse_whole
 from prepbook.store import audit
 from prepbook.store.engine import Database
@@ -37,10 +39,11 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
                          since=since_d, until=until_d, limit=limit)
 
 
-def verify(db: Database) -> audit.VerifyReport:
+def verify(db: Database, *, thorough: bool = False) -> audit.VerifyReport:
     """The chain recomputed and every audited row checked against its last event, and
-    against the checkpoints of the database and of the configured witness folder."""
-    return verify_against(db)
+    against the checkpoints of the database and of the configured witness folder; the
+    schema, the file (``thorough``: every page) and the credentials too."""
+    return verify_against(db, thorough=thorough)
 
 
 @dataclass(frozen=True)
@@ -63,13 +66,18 @@ class SigningKeyMade:
     public_key: str
 
 
-def verify_against(db: Database, *, codes: Sequence[str] = (),
-                   witness: str | None = None) -> audit.VerifyReport:
+def verify_against(db: Database, *, codes: Sequence[str] = (), witness: str | None = None,
+                   thorough: bool = False) -> audit.VerifyReport:
     """``verify``, held also against checkpoint ``codes`` typed from paper and the
     ``witness`` folder (default: the configured one)."""
     folder = Path(witness).expanduser() if witness else audit.witness_folder()
-    with db.session(write=False) as s:
-        return audit.verify(s, codes=codes, witness=folder)
+    try:
+        with db.session(write=False) as s:
+            return audit.verify(s, codes=codes, witness=folder, thorough=thorough)
+    except DBAPIError as exc:  # pages that cannot be read: one line, never a traceback
+        raise IntegrityError(f"the database cannot be read to the end ({exc.orig}): restore "
+                             "it from a backup; `prepbook audit verify --thorough` on a "
+                             "copy lists the damage") from exc
 
 
 def checkpoint(db: Database) -> CheckpointMade:

@@ -3,6 +3,8 @@
 One row per record, one column per field, units in the column names, times in
 ISO 8601 UTC (``...Z``), dates as YYYY-MM-DD. Readings are exported exactly as
 they were typed (text); computed values are the unrounded floats of the record.
+No export holds a credential: the audit export shows a passphrase hash only as its
+fingerprint, as the trail itself keeps it.
 """
 
 from __future__ import annotations
@@ -16,8 +18,20 @@ from sqlalchemy.orm import aliased
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_date
+from prepbook.store.audit import canonical_json
 from prepbook.store.engine import Database
-from prepbook.store.models import AuditEvent, Batch, Instrument, Lot, Replicate, Run, Spec, Use
+from prepbook.store.models import (
+    AUDITED_TABLES,
+    AuditEvent,
+    Batch,
+    Instrument,
+    Lot,
+    Replicate,
+    Run,
+    Spec,
+    Use,
+)
+from prepbook.store.snapshot import decoded_snapshot, secret_columns, without_secrets
 
 KINDS = ("batches", "runs", "replicates", "uses", "assays", "audit")
 
@@ -120,8 +134,9 @@ def _audit(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
         q = q.where(AuditEvent.at >= since)
     cols = ["seq", "at_utc", "actor", "action", "record_type", "record_id", "values_json",
             "reason", "performed_at_utc", "prev_hash", "hash"]
-    rows = [[e.seq, when(e.at), e.actor, e.action, e.record_type, e.record_id, e.values,
-             e.reason, when(e.performed_at), e.prev_hash, e.hash] for e in s.scalars(q)]
+    rows = [[e.seq, when(e.at), e.actor, e.action, e.record_type, e.record_id,
+             _shown_values(e.record_type, e.values), e.reason, when(e.performed_at),
+             e.prev_hash, e.hash] for e in s.scalars(q)]
     return cols, rows
 
 
@@ -149,6 +164,18 @@ def _assays(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]
              a.limit_high_text, when(a.performed_at), when(a.recorded_at), a.analyst, a.use_id]
             for a, bc, rc in s.execute(q)]
     return cols, rows
+
+
+def _shown_values(record_type: str, values: str) -> str:
+    """An event's snapshot with no credential in it: an event written before passphrase
+    hashes were digested shows the hash's fingerprint (so its own hash cannot be
+    recomputed from the export; `prepbook audit verify` checks it in the database)."""
+    table = AUDITED_TABLES.get(record_type)
+    if table is None or not secret_columns(table):
+        return values
+    audited = decoded_snapshot(values)
+    shown = without_secrets(table, audited)
+    return values if shown == audited else canonical_json(shown)
 
 
 _QUERIES = {"batches": _batches, "runs": _runs, "replicates": _replicates, "uses": _uses,

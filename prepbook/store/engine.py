@@ -25,6 +25,7 @@ from sqlalchemy import Engine, create_engine, event, make_url, text
 from sqlalchemy.engine import URL
 from sqlalchemy.exc import ArgumentError, NoSuchModuleError, SQLAlchemyError
 from sqlalchemy.orm import ORMExecuteState, Session, sessionmaker
+from sqlalchemy.orm.exc import StaleDataError
 
 from prepbook.errors import DatabaseError, IntegrityError
 from prepbook.store.revision import HEAD_REVISION
@@ -275,6 +276,10 @@ class Database:
                 if write:
                     self.hold_writer_lock(session)
                 yield session
+        except StaleDataError as exc:  # a trigger swallowed a write: one line, not a trace
+            raise IntegrityError("the database did not store a change prepbook wrote (a "
+                                 "trigger or rule added outside prepbook?); nothing was "
+                                 "recorded: run `prepbook audit verify`") from exc
         except (SQLAlchemyError, OverflowError) as exc:
             from prepbook.store.retry import is_collision
 

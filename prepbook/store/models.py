@@ -85,7 +85,10 @@ class User(Base):
     id: Mapped[int] = mapped_column(primary_key=True)
     name: Mapped[str] = mapped_column(unique=True)
     role: Mapped[str]
-    passphrase_hash: Mapped[str | None]
+    # A secret: the audit trail keeps only its fingerprint (sha256 of the hash text),
+    # enough to see that it changed, nothing to attack offline.
+    passphrase_hash: Mapped[str | None] = mapped_column(info={"audit": "digest",
+                                                                    "secret": True})
     active: Mapped[bool] = mapped_column(default=True)
     failed_attempts: Mapped[int] = mapped_column(default=0)
     created_at: Mapped[datetime]

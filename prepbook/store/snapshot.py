@@ -3,13 +3,16 @@
 ``snapshot(row)`` is the same on SQLite and PostgreSQL: every value goes through its
 column type's canonicaliser (times as ISO text, whole numbers refused if fractional,
 flags only 0/1). A column marked ``info={"audit": "digest"}`` (a large text derived
-from the rest of the record, such as a run's computed result) enters the snapshot as
-its fingerprint ``sha256:<hex>`` instead of in full; see ``fingerprint``.
+from the rest of the record, such as a run's computed result, or a secret, such as a
+user's passphrase hash) enters the snapshot as its fingerprint ``sha256:<hex>``
+instead of in full; see ``fingerprint``. Events written before a column was marked
+still verify (``legacy_to_digest``).
 """
 
 from __future__ import annotations
 
 import hashlib
+import json
 import math
 import re
 from collections.abc import Callable, Mapping
@@ -129,7 +132,11 @@ def legacy_to_digest(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
     one is taken as one), so the old snapshot compares with a row read today. The
     event itself is never rewritten: its hash is over the text it stores.
     """
-    names = digested_columns(table)
+    return _fingerprinted(digested_columns(table), audited)
+
+
+def _fingerprinted(names: tuple[str, ...], audited: dict[str, Any]) -> dict[str, Any]:
+    """``audited`` with each of ``names`` held in full replaced by its fingerprint."""
     if not names:
         return audited
     out = dict(audited)
@@ -138,6 +145,30 @@ def legacy_to_digest(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
         if isinstance(value, str) and not is_fingerprint(value):
             out[name] = fingerprint(value)
     return out
+
+
+@cache
+def secret_columns(table: Table) -> tuple[str, ...]:
+    """The digested columns of ``table`` that hold a secret (``info={"secret": True}``)."""
+    return tuple(name for name in digested_columns(table) if table.c[name].info.get("secret"))
+
+
+def without_secrets(table: Table, audited: dict[str, Any]) -> dict[str, Any]:
+    """A snapshot with every secret as its fingerprint, for showing outside the trail.
+
+    Events recorded before a secret was digested hold it in full (a user's passphrase
+    hash); an export shows them in today's form instead. Other columns are untouched.
+    """
+    return _fingerprinted(secret_columns(table), audited)
+
+
+def decoded_snapshot(values: Any) -> dict[str, Any]:
+    """An event's stored snapshot text as a dict ({} when it is not a JSON object)."""
+    try:
+        decoded = json.loads(values)
+    except (ValueError, TypeError):
+        return {}
+    return decoded if isinstance(decoded, dict) else {}
 
 
 def canonical_type(column: Any) -> type | None:

@@ -19,6 +19,7 @@ from prepbook.store.audit import chain
 from prepbook.store.engine import Database, open_database
 from prepbook.store.models import AuditEvent, AuditHead, Batch, Setting
 from prepbook.store.snapshot import snapshot, snapshot_mapping
+from tests.tampering import drop_guards, guarded_again, restore_guards
 
 from .conftest import add_batch, now
 
@@ -45,14 +46,16 @@ def _verify(db: Database) -> audit.VerifyReport:
 
 
 def _raw(db_file: Path, *statements: str) -> None:
-    """Change the file behind prepbook's back, as someone with a SQLite shell could."""
-    con = sqlite3.connect(db_file)
-    try:
-        for statement in statements:
-            con.execute(statement)
-        con.commit()
-    finally:
-        con.close()
+    """Change the file behind prepbook's back, as someone with a SQLite shell could
+    (the guard triggers dropped first and put back after)."""
+    with guarded_again(db_file):
+        con = sqlite3.connect(db_file)
+        try:
+            for statement in statements:
+                con.execute(statement)
+            con.commit()
+        finally:
+            con.close()
 
 
 def test_an_empty_trail_verifies(db: Database) -> None:
@@ -305,7 +308,7 @@ def test_keyed_chain_with_a_wrong_key_is_reported(
 ) -> None:
     _write_lab(db)
     wrong = tmp_path / "wrong.key"
-    wrong.write_bytes(b"another secret")
+    wrong.write_bytes(b"another secret, not the lab one")
     monkeypatch.setenv(audit.KEY_ENV, str(wrong))
     report = _verify(db)
     assert not report.ok
@@ -332,6 +335,7 @@ def test_forged_unkeyed_rewrite_of_a_keyed_chain_is_found(
 ) -> None:
     # Someone without the key edits an event and recomputes a plain SHA-256 chain from it.
     _write_lab(db)
+    drop_guards(db_file)  # as the owner of the file can; put back after the rewrite
     con = sqlite3.connect(db_file)
     try:
         rows = con.execute(
@@ -356,6 +360,7 @@ def test_forged_unkeyed_rewrite_of_a_keyed_chain_is_found(
         con.commit()
     finally:
         con.close()
+    restore_guards(db_file)
     report = _verify(db)
     assert report.problems == (
         "5 audit event(s) are not keyed although an audit key is set: the chain was written "

@@ -16,6 +16,8 @@ import hashlib
 import hmac
 import json
 import os
+import stat
+import sys
 from collections.abc import Callable
 from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
@@ -69,17 +71,44 @@ def payload(seq: Any, at: Any, actor: Any, action: Any, record_type: Any, record
                     performed_at, prev_hash, os_login, host, key_id]).encode()
 
 
+KEY_MIN_BYTES = 16  # shorter than a 128-bit secret: refused
+KEY_MAX_BYTES = 4096  # a key file is a few dozen bytes; anything this big is not one
+_warned: set[tuple[str, int, int]] = set()  # (file, inode, mode) already warned about
+
+
 def read_key() -> bytes | None:
-    """The lab's audit secret from the file named by PREPBOOK_AUDIT_KEY_FILE, if set."""
+    """The lab's audit secret from the file named by PREPBOOK_AUDIT_KEY_FILE, if set.
+
+    The file must be a regular file of 16 bytes to 4 KB (a device such as /dev/zero
+    or a FIFO is refused from its ``stat``, before any read, so nothing hangs or fills
+    memory); one readable by group or others gets a one-line warning on stderr (POSIX).
+    """
     name = os.environ.get(KEY_ENV)
     if not name:
         return None
+    path = Path(name).expanduser()
+    where = f"the audit key file named by {KEY_ENV} ({name})"
     try:
-        key = Path(name).expanduser().read_bytes().strip()
+        if not stat.S_ISREG(os.stat(path).st_mode):
+            raise InvalidInput(f"{where} is not a regular file")
+        # O_NONBLOCK: were it swapped for a FIFO since the stat, the open does not wait.
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+        with os.fdopen(fd, "rb") as handle:
+            info = os.fstat(handle.fileno())
+            if not stat.S_ISREG(info.st_mode):
+                raise InvalidInput(f"{where} is not a regular file")
+            if info.st_size > KEY_MAX_BYTES:
+                raise InvalidInput(f"{where} holds {info.st_size} bytes; a key file holds "
+                                   f"{KEY_MIN_BYTES} to {KEY_MAX_BYTES}")
+            key = handle.read(KEY_MAX_BYTES + 1).strip()
     except OSError as exc:
         raise InvalidInput(f"cannot read the audit key file named by {KEY_ENV}: {exc}") from exc
     if not key:
-        raise InvalidInput(f"the audit key file named by {KEY_ENV} ({name}) is empty")
+        raise InvalidInput(f"{where} is empty")
+    if len(key) < KEY_MIN_BYTES:
+        raise InvalidInput(f"{where} holds only {len(key)} bytes; a key needs at least "
+                           f"{KEY_MIN_BYTES} (e.g. 32 random bytes)")
+    _warn_if_shared(path, info)
     return key
 
 
@@ -88,6 +117,18 @@ def key_fingerprint(key: bytes | None) -> str | None:
     if key is None:
         return None
     return hmac.new(key, b"prepbook audit key fingerprint", hashlib.sha256).hexdigest()[:16]
+
+
+def _warn_if_shared(path: Path, info: os.stat_result) -> None:
+    """One line on stderr, once per file, when group or others may read the key."""
+    if os.name != "posix" or not info.st_mode & (stat.S_IRGRP | stat.S_IROTH):
+        return
+    seen = (str(path), info.st_ino, info.st_mode)
+    if seen in _warned:
+        return
+    _warned.add(seen)
+    sys.stderr.write(f"prepbook: warning: the audit key file {path} is readable by group or "
+                     f"others; make it private (chmod 600 {path})\n")
 
 
 def hasher(key: bytes | None) -> tuple[str, Hasher]:

@@ -27,7 +27,6 @@ counted, so a wholesale rewrite gives a readable report.
 
 from __future__ import annotations
 
-import json
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from datetime import datetime
@@ -55,12 +54,16 @@ from prepbook.store.audit.chain import (
     time_text,
 )
 from prepbook.store.audit.checkpoints import Keying, code_of, keying
+from prepbook.store.audit.defenses import store_problems
 from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead
 from prepbook.store.snapshot import (
     audited_in_digest,
     canonical_type,
     legacy_to_digest,
     snapshot_columns,
+)
+from prepbook.store.snapshot import (
+    decoded_snapshot as _decoded,
 )
 
 _MAX_LISTED = 10  # problems of one kind listed one by one before they are counted
@@ -124,11 +127,12 @@ class _Problems:
         return tuple(out)
 
 
-def verify(session: Session, *, codes: Sequence[str] = (),
-           witness: Path | None = None) -> VerifyReport:
+def verify(session: Session, *, codes: Sequence[str] = (), witness: Path | None = None,
+           thorough: bool = False) -> VerifyReport:
     """Recompute the whole chain, hold it against every checkpoint in sight (the
     database's, the ``witness`` folder's, ``codes`` typed from paper) and check every
-    audited row against its last event."""
+    audited row against its last event; the schema, the file (``thorough``: every page)
+    and the credentials too."""
     problems = _Problems()
     try:
         key = read_key()
@@ -137,6 +141,8 @@ def verify(session: Session, *, codes: Sequence[str] = (),
         key = None
     session.flush()  # events still pending in this session are part of the trail
     conn = session.connection()
+    for kind, problem in store_problems(conn, thorough=thorough):
+        problems.add(kind, problem)
     kept = keying(conn)
     _check_keying(kept, key, problems)
     seen = witnessing.gather(conn, kept, codes, witness, problems.add)
@@ -361,15 +367,6 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems,
                 if text != last[1]:
                     _compare_again(table, current, text, last[1], problems)
     _report_deleted(last_events, problems)
-
-
-def _decoded(values: Any) -> dict[str, Any]:
-    """An event's snapshot as a dict ({} when it is not a JSON object)."""
-    try:
-        decoded = json.loads(values)
-    except (ValueError, TypeError):
-        return {}
-    return decoded if isinstance(decoded, dict) else {}
 
 
 def _compare_again(table: Table, current: dict[str, Any], text: str, event_values: Any,
