@@ -30,8 +30,23 @@ KNOWN: dict[str, SettingInfo] = {
                     "correct weighings of primary standards for air buoyancy (NIST IR 6969 "
                     "SOP 2) in standardizations", choices=("on", "off")),
         SettingInfo("lockout_after", "5",
-                    "wrong passphrases in a row that lock a user out until an admin unlocks "
+                    "wrong passphrases in a row that lock a user out for lockout_minutes "
                     "(common practice, no source)", integer_range=(1, 20)),
+        SettingInfo("lockout_minutes", "15",
+                    "minutes the first lockout lasts; each further wrong passphrase doubles "
+                    "it, up to a day (common practice, no source)", integer_range=(1, 1440)),
+        SettingInfo("passphrase_min_length", "12",
+                    "fewest characters of a new passphrase (common practice, no source)",
+                    integer_range=(8, 128)),
+        SettingInfo("passphrase_name_rule", "on",
+                    "refuse a new passphrase that contains the user's name",
+                    choices=("on", "off")),
+        SettingInfo("session_idle_minutes", "15",
+                    "minutes without a write after which a login session ends (common "
+                    "practice, no source)", integer_range=(1, 480)),
+        SettingInfo("session_max_hours", "12",
+                    "hours after which a login session ends however busy (common practice, "
+                    "no source)", integer_range=(1, 24)),
         SettingInfo("min_burette_fraction_percent", "30",
                     "smallest titrant volume as a percentage of the burette's capacity "
                     "(USP <31>: 30 %)", integer_range=(1, 100)),
@@ -94,7 +109,8 @@ def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | N
     reason = parse_text(reason, "reason", max_len=500)
     if not (reason and reason.strip()):
         raise InvalidInput("changing a setting needs a --reason")
-    signed(db, actor, passphrase, ("admin",), "change settings")
+    signed(db, actor, passphrase, ("admin",), "change settings",
+           meaning="changed a setting", what=f"{key} = {value}")
     with db.session() as s:
         admin = acting(s, actor, ("admin",), "change settings")
         now = utc_now()
