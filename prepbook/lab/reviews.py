@@ -100,7 +100,8 @@ def review(
         raise InvalidInput("a rejection needs a --reason")
     with db.session(write=False) as s:
         _review_precheck(s, actor, run)
-    signed(db, actor, passphrase, REVIEWERS, "review standardizations")
+    signed(db, actor, passphrase, REVIEWERS, "review standardizations", what=f"run {run}",
+           meaning="reviewed and accepted" if accept else "reviewed and rejected")
     with db.session() as s:
         r = _review_precheck(s, actor, run)
         if signed_at < r.performed_at:

@@ -165,8 +165,8 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
         await pilot.pause()
         secret = app.screen.query_one("#secret")
         assert secret.password is True
-        await pilot.press(*"demo-priya-pass")
-        assert "demo-priya-pass" not in app.export_screenshot()
+        await pilot.press(*"second-look-7731")
+        assert "second-look-7731" not in app.export_screenshot()
         await pilot.press("enter")
         await pilot.pause()
         assert "accepted" in shown(app.screen.query_one("#message"))
