@@ -308,7 +308,7 @@ class Cli:
         from prepbook.store.engine import open_database
 
         passphrase = passphrase_of(target, user)
-        if passphrase is None:
+        if passphrase is None or not AUTO_LOGIN:
             return
         try:
             db = open_database(str(target))

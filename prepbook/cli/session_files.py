@@ -68,12 +68,13 @@ def save(db: Any, name: str, token: str) -> Path:
 
 def _read(path: Path) -> dict[str, Any] | None:
     try:
-        if not _private(path):
-            raise Refused(f"the session file {path} belongs to another account or others may "
-                          "read it; delete it and log in again")
+        private = _private(path)
         data = json.loads(path.read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return None
+    if not private:
+        raise Refused(f"the session file {path} belongs to another account or others may "
+                      "read it; delete it and log in again")
     return data if isinstance(data, dict) else None
 
 
