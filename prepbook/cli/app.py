@@ -77,7 +77,8 @@ COMMANDS: tuple[Entry, ...] = (
     Entry("backup", "maintenance", "backup", False,
           "Copy a SQLite database consistently, even while it is in use (on PostgreSQL: says "
           "how to use pg_dump)."),
-    Entry("user", "users", "app", True, "Add and list users (technician, reviewer, admin)."),
+    Entry("user", "users", "app", True,
+          "Add and list users (technician, reviewer, admin); passphrases, roles, lockouts."),
     Entry("lot", "lots", "app", True, "Add and list primary-standard lots."),
     Entry("instrument", "instruments", "app", True,
           "Add and list instruments and record their calibration."),
