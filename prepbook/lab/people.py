@@ -18,12 +18,12 @@ from prepbook.inputs import parse_text, utc_now
 from prepbook.lab.common import acting, locked_until, proven, signed, user_named, write
 from prepbook.lab.security import (
     HashCost,
-    PassphrasePolicy,
     check_new_passphrase,
     check_user_name,
     hash_passphrase,
 )
 from prepbook.lab.sessions import end_sessions
+from prepbook.lab.settings import passphrase_policy
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import ROLES, User
@@ -47,18 +47,6 @@ def _user_info(s: Session, u: User) -> UserInfo:
                     failed_attempts=u.failed_attempts,
                     locked=locked_until(s, u) is not None,
                     created_at=u.created_at.isoformat(timespec="minutes"), created_by=u.created_by)
-
-
-def passphrase_policy(s: Session) -> PassphrasePolicy:
-    """The lab's passphrase policy (settings ``passphrase_min_length`` and
-    ``passphrase_name_rule``; defaults: at least 12 characters, not containing the name)."""
-    from prepbook.lab.common import setting, whole_setting
-    from prepbook.lab.settings import KNOWN
-
-    length_default = int(KNOWN["passphrase_min_length"].default)
-    rule = setting(s, "passphrase_name_rule", KNOWN["passphrase_name_rule"].default)
-    return PassphrasePolicy(min_length=whole_setting(s, "passphrase_min_length", length_default),
-                            refuse_name=rule != "off")
 
 
 def _checked_new(db: Database, name: str, passphrase: str) -> None:

@@ -37,6 +37,7 @@ from prepbook.lab.common import (
 )
 from prepbook.lab.database import Database
 from prepbook.lab.security import check_new_passphrase, hash_passphrase
+from prepbook.lab.settings import passphrase_policy
 from prepbook.store import retry
 from prepbook.store.models import AuditEvent, LoginSession, User
 
@@ -145,8 +146,6 @@ def login(db: Database, *, name: str, passphrase: str | None, os_login: str, hos
     admin reset must give a new one (``new_passphrase``), set in the same transaction
     as the login. A new login from the same account and host ends the earlier one.
     """
-    from prepbook.lab.people import passphrase_policy
-
     stored = proven(db, name, passphrase, RECORDERS, "sign in")
     with db.session(write=False) as s:
         user = user_named(s, name)

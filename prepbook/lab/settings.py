@@ -5,10 +5,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_text, utc_now
-from prepbook.lab.common import acting, iso, signed, write
+from prepbook.lab.common import acting, iso, setting, signed, whole_setting, write
+from prepbook.lab.security import PassphrasePolicy
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Setting
@@ -121,3 +123,12 @@ def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | N
             row.value, row.updated_at, row.updated_by = value, now, admin.name
         write(s, admin.name, "setting.set", row, reason=reason)
         return SettingChange(key=key, value=value, changed_by=admin.name)
+
+
+def passphrase_policy(s: Session) -> PassphrasePolicy:
+    """The lab's passphrase policy (settings ``passphrase_min_length`` and
+    ``passphrase_name_rule``; defaults: at least 12 characters, not containing the name)."""
+    length_default = int(KNOWN["passphrase_min_length"].default)
+    rule = setting(s, "passphrase_name_rule", KNOWN["passphrase_name_rule"].default)
+    return PassphrasePolicy(min_length=whole_setting(s, "passphrase_min_length", length_default),
+                            refuse_name=rule != "off")

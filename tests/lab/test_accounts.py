@@ -39,8 +39,8 @@ def sign(db, name: str, secret: str) -> None:  # type: ignore[no-untyped-def]
 
 def later(monkeypatch: pytest.MonkeyPatch, by: timedelta) -> None:
     """Move prepbook's clock (the lockout's) forward; audit times stay real."""
-    from prepbook.lab import common
     from prepbook.inputs import utc_now
+    from prepbook.lab import common
 
     start = utc_now()
     monkeypatch.setattr(common, "utc_now", lambda: start + by)

@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Static
+
 
 class PassphraseScreen(ModalScreen[str | None]):
     """A passphrase for one signed action: never echoed, never kept after it is used."""
