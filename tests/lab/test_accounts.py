@@ -17,18 +17,23 @@ from tests.conftest import row_counts
 ADA, BEN, EVE = "copper-kettle-91", "quiet-burette-27", "steady-pipette-8"
 
 
-@pytest.fixture
-def db(db_target: Path | str, no_auto_login: None):  # type: ignore[no-untyped-def]
+def ada_and_ben(target: Path | str):  # type: ignore[no-untyped-def]
+    """A new database with ada (admin) and ben (technician), through the services."""
     from prepbook.lab import people, setup
     from prepbook.store.engine import open_database
 
-    setup.initialize(str(db_target), actor="ada")
-    opened = open_database(str(db_target))
+    setup.initialize(str(target), actor="ada")
+    opened = open_database(str(target))
     people.add_user(opened, actor="ada", name="ada", role="admin", passphrase=ADA,
                     actor_passphrase=None)
     people.add_user(opened, actor="ada", name="ben", role="technician", passphrase=BEN,
                     actor_passphrase=ADA)
     return opened
+
+
+@pytest.fixture
+def db(db_target: Path | str, no_auto_login: None):  # type: ignore[no-untyped-def]
+    return ada_and_ben(db_target)
 
 
 def sign(db, name: str, secret: str) -> None:  # type: ignore[no-untyped-def]

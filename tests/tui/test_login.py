@@ -8,25 +8,17 @@ from pathlib import Path
 import pytest
 
 from tests.conftest import row_counts
+from tests.lab.test_accounts import ADA, BEN, ada_and_ben
 
 pytest.importorskip("textual")
 
 SIZE = (120, 40)
-ADA, BEN = "copper-kettle-91", "quiet-burette-27"
 
 
 @pytest.fixture
 def lab(tmp_path: Path, no_auto_login: None) -> Path:
-    from prepbook.lab import people, setup
-    from prepbook.store.engine import open_database
-
     path = tmp_path / "lab.db"
-    setup.initialize(str(path), actor="ada")
-    db = open_database(str(path))
-    people.add_user(db, actor="ada", name="ada", role="admin", passphrase=ADA,
-                    actor_passphrase=None)
-    people.add_user(db, actor="ada", name="ben", role="technician", passphrase=BEN,
-                    actor_passphrase=ADA)
+    ada_and_ben(path)
     return path
 
 
