@@ -185,3 +185,23 @@ def passphrase(
     new = secrets.get(f"New passphrase for {who}", confirm=True)
     user = people.change_passphrase(database(ctx), name=who, old=old, new=new, reason=reason)
     _show(user, as_json, f"changed the passphrase of {user.name}")
+
+
+@app.command("recover")
+def recover(ctx: typer.Context,
+            name: str = typer.Argument(..., metavar="NAME", help="The admin to recover."),
+            reason: str = _REASON,
+            passphrase_stdin: bool = typer.Option(
+                False, "--passphrase-stdin",
+                help="Read the one-time passphrase from standard input."),
+            ) -> None:
+    """When no admin can sign in: the database's owner sets a one-time passphrase for an
+    admin (audited); they choose their own at their next login."""
+    from prepbook.lab import people, sessions
+
+    new = Passphrases(passphrase_stdin).get(f"One-time passphrase for {name}", confirm=True)
+    os_login, host = sessions.os_account()
+    user = people.recover_admin(database(ctx), name=name, new_passphrase=new, reason=reason,
+                                os_login=os_login, host=host)
+    output.console().print(f"recovered {user.name}: they choose their own passphrase at "
+                           "their next login")

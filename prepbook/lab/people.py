@@ -222,3 +222,40 @@ def check_signature(db: Database, *, name: str, passphrase: str | None) -> None:
     """Refuse unless ``passphrase`` is ``name``'s (each failure recorded): the terminal
     app's unlock after its idle time."""
     proven(db, name, passphrase, doing="unlock the screen")
+
+
+def _owns_database(db: Database, s: Session) -> bool:
+    """True when this process could change the database behind prepbook's back anyway:
+    the SQLite file's owner, or the PostgreSQL database's owner."""
+    import os
+
+    if db.path is not None:
+        return os.name != "posix" or db.path.stat().st_uid == os.getuid()
+    from sqlalchemy import text
+
+    return bool(s.scalar(text("SELECT pg_get_userbyid(datdba) = current_user FROM pg_database "
+                              "WHERE datname = current_database()")))
+
+
+@retry.on_conflict
+def recover_admin(db: Database, *, name: str, new_passphrase: str, reason: str | None,
+                  os_login: str, host: str) -> UserInfo:
+    """When no admin can sign in: the database's owner sets a one-time passphrase for the
+    admin ``name`` (audited as "user.reset" by "recovery by LOGIN@HOST", with the reason);
+    the admin chooses their own at their next login. Anyone else is refused."""
+    reason = _reason(reason, "recover an admin")
+    _checked_new(db, name, new_passphrase)
+    new_hash = hash_passphrase(new_passphrase)
+    with db.session() as s:
+        if not _owns_database(db, s):
+            raise Refused("only the owner of the database (its file, or on PostgreSQL the "
+                          "database) may recover an admin")
+        user = user_named(s, name)
+        if user.role != "admin" or not user.active:
+            raise Refused(f"{name} is not an active admin; recover an admin, who then "
+                          "manages the others")
+        user.passphrase_hash = new_hash
+        user.failed_attempts = 0
+        end_sessions(s, user, "recovered")
+        write(s, f"recovery by {os_login}@{host}", "user.reset", user, reason=reason)
+        return _user_info(s, user)

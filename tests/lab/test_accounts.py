@@ -272,3 +272,27 @@ def people_calls(db) -> None:  # type: ignore[no-untyped-def]
                             passphrase=ADA, reason="forgot it")
     people.change_role(db, actor="ada", name="ben", role="reviewer", passphrase=ADA,
                        reason="promoted")
+
+
+def test_the_database_owner_recovers_an_admin_in_the_audit_trail(
+        db, monkeypatch: pytest.MonkeyPatch) -> None:  # type: ignore[no-untyped-def]
+    from prepbook.lab import people, sessions
+
+    for _ in range(5):
+        with pytest.raises(Refused):
+            sign(db, "ada", "not-her-passphrase")
+    with pytest.raises(Refused, match="not an active admin"):
+        people.recover_admin(db, name="ben", new_passphrase="one-time-only-42",
+                             reason="x", os_login="root", host="bench")
+    people.recover_admin(db, name="ada", new_passphrase="one-time-only-42",
+                         reason="the only admin forgot her passphrase", os_login="root",
+                         host="bench")
+    assert _events(db)[-1] == ("user.reset", "the only admin forgot her passphrase")
+    here = sessions.os_account()
+    with pytest.raises(sessions.MustChoose):
+        sessions.login(db, name="ada", passphrase="one-time-only-42", os_login=here[0],
+                       host=here[1])
+    monkeypatch.setattr(people, "_owns_database", lambda _db, _s: False)
+    with pytest.raises(Refused, match="only the owner of the database"):
+        people.recover_admin(db, name="ada", new_passphrase="one-time-only-43",
+                             reason="x", os_login="mallory", host="bench")
