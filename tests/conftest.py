@@ -14,9 +14,11 @@ raw sqlite3 access) are skipped on PostgreSQL, each with its reason: request
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import os
 import sqlite3
+import sys
 import uuid
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -167,8 +169,100 @@ def db_target(tmp_path: Path) -> Iterator[Path | str]:
         yield tmp_path / "lab.db"
 
 
+@pytest.fixture(scope="session", autouse=True)
+def _session_files_of_the_suite(tmp_path_factory: pytest.TempPathFactory) -> Iterator[None]:
+    """Login session files of fixtures built once for a module or the session go under
+    a folder of the suite's own, never the real user's state folder (each test then gets
+    a folder of its own: ``_isolated_env``)."""
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setenv("PREPBOOK_SESSION_DIR", str(tmp_path_factory.mktemp("sessions")))
+        yield
+
+
+# (database identity, user name) -> the passphrase a test gave when it added that user.
+PASSPHRASES: dict[tuple[str, str], str] = {}
+
+
+def remember_passphrase(db: Any, name: str, passphrase: str) -> None:
+    """Note ``name``'s passphrase on ``db`` (a Database or a --db target), so that
+    ``cli(..., user=name)`` can log them in."""
+    PASSPHRASES[(_identity(db), name)] = passphrase
+
+
+def _identity(db: Any) -> str:
+    from prepbook.lab.sessions import database_identity
+    from prepbook.store.engine import Database, resolve_url
+
+    return database_identity(db.url if isinstance(db, Database) else resolve_url(str(db)))
+
+
+def passphrase_of(db: Any, name: str) -> str:
+    """The passphrase a test gave ``name`` on ``db``, else the latest given to that name
+    on any database (a copy of a module's demo lab), else ``NAME-passphrase``."""
+    exact = PASSPHRASES.get((_identity(db), name))
+    if exact is not None:
+        return exact
+    others = [p for (_, who), p in PASSPHRASES.items() if who == name]
+    # else the suite's convention for invented users, which the committed old lab in
+    # tests/fixtures was made with (make_old_lab.py)
+    return others[-1] if others else f"{name}-passphrase"
+
+
+def log_in(db: Any, name: str, passphrase: str) -> None:
+    """A real login through the service, its token kept in this test's session folder,
+    exactly as `prepbook login` keeps it."""
+    from prepbook.cli import session_files
+    from prepbook.lab import sessions
+    from prepbook.store.engine import Database, open_database
+
+    database = db if isinstance(db, Database) else open_database(str(db))
+    os_login, host = sessions.os_account()
+    opened = sessions.login(database, name=name, passphrase=passphrase, os_login=os_login,
+                            host=host)
+    session_files.save(database, name, opened.token)
+
+
+@pytest.fixture(scope="session", autouse=True)
+def _users_log_in_when_added() -> Iterator[None]:
+    """Every user a test adds (through the CLI or the service) is remembered with the
+    passphrase the test gave, and logged in at once, so that ``cli(..., user=NAME)``
+    finds the live session a write needs (row counts taken after the set-up include
+    it)."""
+    from prepbook.lab import people
+
+    real = people.add_user
+
+    def add_and_log_in(db: Any, *args: Any, **kw: Any) -> Any:
+        added = real(db, *args, **kw)
+        remember_passphrase(db, kw["name"], kw["passphrase"])
+        if AUTO_LOGIN:
+            log_in(db, kw["name"], kw["passphrase"])
+        return added
+
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(people, "add_user", add_and_log_in)
+        yield
+
+
+AUTO_LOGIN = True
+
+
+@pytest.fixture
+def no_auto_login(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Users this test adds are not logged in for it (tests of sessions themselves)."""
+    monkeypatch.setattr(sys.modules[__name__], "AUTO_LOGIN", False)
+
+
 @pytest.fixture(autouse=True)
 def _isolated_env(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setenv("PREPBOOK_SESSION_DIR", str(tmp_path / "sessions"))
+    # The invented users of the suite have passphrases such as "ben-passphrase", older
+    # than the rule that a passphrase must not contain the name; the suite's default
+    # lifts that rule (tests of the policy itself restore it: ``strict_passphrases``).
+    from prepbook.lab import settings
+
+    monkeypatch.setitem(settings.KNOWN, "passphrase_name_rule", dataclasses.replace(
+        settings.KNOWN["passphrase_name_rule"], default="off"))
     monkeypatch.delenv("PREPBOOK_DB", raising=False)
     monkeypatch.delenv("PREPBOOK_USER", raising=False)
     monkeypatch.delenv("PREPBOOK_AUDIT_KEY_FILE", raising=False)
@@ -194,8 +288,10 @@ class Cli:
                  db: Path | str | None = None) -> Result:
         from prepbook.cli.app import app
 
-        full = ["--db", str(db or self.db)]
+        target = db or self.db
+        full = ["--db", str(target)]
         if user:
+            self._live(target, user)
             full += ["--user", user]
         full += list(args)
         result = self.runner.invoke(app, full, input=input)
@@ -204,6 +300,27 @@ class Cli:
                                  f"{result.exception!r}\n{result.stdout}\n{result.stderr}") \
                 from result.exception
         return result
+
+    def _live(self, target: Path | str, user: str) -> None:
+        """Log ``user`` in (with the passphrase the test gave when adding them) unless
+        they have a live session here; a user not added yet, or one who cannot log in,
+        is left to the command to refuse."""
+        from prepbook.cli import session_files
+        from prepbook.errors import PrepbookError
+        from prepbook.lab import sessions
+        from prepbook.store.engine import open_database
+
+        passphrase = passphrase_of(target, user)
+        if not AUTO_LOGIN:
+            return
+        try:
+            db = open_database(str(target))
+            token = session_files.held(db).get(user)
+            info = sessions.describe(db, name=user, token=token) if token else None
+            if info is None or not info.live:
+                log_in(db, user, passphrase)
+        except PrepbookError:
+            return
 
     def ok(self, *args: str, **kw: Any) -> Result:
         result = self(*args, **kw)
@@ -231,15 +348,34 @@ def is_url(db: Path | str) -> bool:
     return isinstance(db, str) and "://" in db
 
 
-def row_counts(db: Path | str) -> dict[str, int]:
-    """Rows in every table, read with plain sqlite3 or SQLAlchemy Core (not through prepbook)."""
-    if is_url(db):
-        return _server_row_counts(str(db))
+# Signing in is not the write a test watches: ``row_counts`` leaves it out by default
+# (``cli(..., user=NAME)`` may log NAME in just before the command it runs).
+SIGN_IN_TABLE = "login_sessions"
+SIGN_IN_ACTION = "user.login"
+
+
+def row_counts(db: Path | str, *, sign_ins: bool = False) -> dict[str, int]:
+    """Rows in every table, read with plain sqlite3 or SQLAlchemy Core (not through
+    prepbook); without ``sign_ins``, login sessions and their audit events are not
+    counted."""
+    counts = _server_row_counts(str(db), sign_ins) if is_url(db) else \
+        _file_row_counts(db, sign_ins)
+    if not sign_ins:
+        counts.pop(SIGN_IN_TABLE, None)
+    return counts
+
+
+def _file_row_counts(db: Path | str, sign_ins: bool) -> dict[str, int]:
     con = sqlite3.connect(db)
     try:
         names = [r[0] for r in con.execute(
             "SELECT name FROM sqlite_master WHERE type = 'table' AND name NOT LIKE 'sqlite_%'")]
-        return {n: con.execute(f'SELECT COUNT(*) FROM "{n}"').fetchone()[0] for n in names}
+        counts = {n: con.execute(f'SELECT COUNT(*) FROM "{n}"').fetchone()[0] for n in names}
+        if not sign_ins and "audit_events" in counts:
+            counts["audit_events"] = con.execute(
+                "SELECT COUNT(*) FROM audit_events WHERE action <> ?",
+                (SIGN_IN_ACTION,)).fetchone()[0]
+        return counts
     finally:
         con.close()
 
@@ -271,16 +407,21 @@ def raw_sql(db: Path | str, sql: str, *params: Any) -> None:
         engine.dispose()
 
 
-def _server_row_counts(url: str) -> dict[str, int]:
-    from sqlalchemy import create_engine, func, inspect, select, table
+def _server_row_counts(url: str, sign_ins: bool) -> dict[str, int]:
+    from sqlalchemy import column, create_engine, func, inspect, select, table
     from sqlalchemy.pool import NullPool
 
     engine = create_engine(url, poolclass=NullPool)
     try:
         with engine.connect() as conn:
             names = inspect(conn).get_table_names()
-            return {n: conn.execute(select(func.count()).select_from(table(n))).scalar_one()
-                    for n in names}
+            counts = {n: conn.execute(select(func.count()).select_from(table(n))).scalar_one()
+                      for n in names}
+            if not sign_ins and "audit_events" in counts:
+                counts["audit_events"] = conn.execute(
+                    select(func.count()).select_from(table("audit_events"))
+                    .where(column("action") != SIGN_IN_ACTION)).scalar_one()
+            return counts
     finally:
         engine.dispose()
 

@@ -18,11 +18,21 @@ BATCH = "NaOH-0.1N-260912-1"  # the demo's sodium hydroxide, due, with months of
 READINGS = [("0.8215", "40.41"), ("0.8302", "40.83"), ("0.8177", "40.22")]
 
 
-async def shoot(db_path: Path) -> None:
+def signed_in(db_path: Path, name: str):  # type: ignore[no-untyped-def]
+    """The app with a demo person signed in (their passphrase is in the demo lab's file)."""
+    from prepbook.lab import demo, sessions
     from prepbook.store.engine import open_database
     from prepbook.tui.app import PrepbookApp
 
-    app = PrepbookApp(open_database(str(db_path)), user="ines", poll_seconds=0)
+    db = open_database(str(db_path))
+    secret = next(u["passphrase"] for u in demo.scenario()["user"] if u["name"] == name)
+    here = sessions.os_account()
+    opened = sessions.login(db, name=name, passphrase=secret, os_login=here[0], host=here[1])
+    return PrepbookApp(db, user=name, session=opened, poll_seconds=0)
+
+
+async def shoot(db_path: Path) -> None:
+    app = signed_in(db_path, "ines")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         app.save_screenshot("board.svg", str(HERE))
@@ -46,7 +56,7 @@ async def shoot(db_path: Path) -> None:
         await pilot.press("ctrl+s")
         await pilot.pause(0.3)
 
-    app = PrepbookApp(open_database(str(db_path)), user="priya", poll_seconds=0)
+    app = signed_in(db_path, "priya")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         await pilot.press("r")

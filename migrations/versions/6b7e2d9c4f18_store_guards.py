@@ -1,7 +1,7 @@
 """the store refuses to rewrite the record: guard triggers
 
 Revision ID: 6b7e2d9c4f18
-Revises: b7e4c2a9d160
+Revises: 5e9b1c3d7a42
 Create Date: 2026-12-05 03:50:00
 
 Triggers that refuse UPDATE and DELETE on the audit trail (the head row: only its
@@ -19,7 +19,7 @@ from alembic import op
 from prepbook.store.audit import guards
 
 revision: str = "6b7e2d9c4f18"
-down_revision: str | Sequence[str] | None = "b7e4c2a9d160"
+down_revision: str | Sequence[str] | None = "5e9b1c3d7a42"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 

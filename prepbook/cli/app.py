@@ -39,6 +39,12 @@ COMMANDS: tuple[Entry, ...] = (
           "Create or upgrade the database and load the built-in catalog (safe to repeat)."),
     Entry("demo", "demo", "demo", False,
           "Build the demo lab (an invented scenario) in a fresh database and print its board."),
+    Entry("login", "login", "login", False,
+          "Log in: open a session for this account on this database (asks the passphrase)."),
+    Entry("logout", "login", "logout", False,
+          "Log out: end a session of this account on this database."),
+    Entry("whoami", "login", "whoami", False,
+          "The sessions of this account on this database: person, role, until when."),
     Entry("standardize", "standardize", "standardize", False,
           "Standardize a batch against a primary-standard lot or a standardized batch."),
     Entry("review", "review", "review", False,
@@ -79,7 +85,8 @@ COMMANDS: tuple[Entry, ...] = (
     Entry("backup", "maintenance", "backup", False,
           "Copy a SQLite database consistently, even while it is in use (on PostgreSQL: says "
           "how to use pg_dump)."),
-    Entry("user", "users", "app", True, "Add and list users (technician, reviewer, admin)."),
+    Entry("user", "users", "app", True,
+          "Add and list users (technician, reviewer, admin); passphrases, roles, lockouts."),
     Entry("lot", "lots", "app", True, "Add and list primary-standard lots."),
     Entry("instrument", "instruments", "app", True,
           "Add and list instruments, record their calibration, connect and read balances."),
@@ -285,7 +292,8 @@ def _root(
         "--user",
         metavar="NAME",
         envvar="PREPBOOK_USER",
-        help="Acting user (default: login name).",
+        help="Acting user: one of the people logged in here (`prepbook login`); needed "
+             "only when several are.",
         show_default=False,
     ),
     verbose: bool = typer.Option(

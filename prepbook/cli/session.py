@@ -1,4 +1,12 @@
-"""Opening the database named by the root options, and reading passphrases."""
+"""Opening the database named by the root options, who is acting, and reading
+passphrases.
+
+A command that writes names its actor through :func:`actor`: the person of a live
+login session of this operating-system account on this database (``prepbook login``).
+``--user`` (or PREPBOOK_USER) only chooses among the live sessions here; without it
+the one live session is taken. Without a live session the command is refused in one
+line saying how to log in, before anything is written.
+"""
 
 from __future__ import annotations
 
@@ -8,7 +16,7 @@ from typing import Any
 import typer
 
 from prepbook.cli.context import invocation
-from prepbook.errors import InvalidInput
+from prepbook.errors import InvalidInput, Refused
 
 
 def database(ctx: typer.Context) -> Any:
@@ -19,7 +27,38 @@ def database(ctx: typer.Context) -> Any:
 
 
 def actor(ctx: typer.Context) -> str:
-    return invocation(ctx).user
+    """The person acting in this command: their live session here, or Refused.
+
+    The user's own state speaks first (unknown, disabled, locked out), then the
+    session (missing, of another account, ended, idle, expired). The session's idle
+    clock restarts.
+    """
+    meta = ctx.find_root().meta
+    if "prepbook.actor" in meta:
+        return str(meta["prepbook.actor"])
+    from prepbook.cli import session_files
+    from prepbook.lab import sessions
+
+    db = database(ctx)
+    named = invocation(ctx).user_given
+    held = session_files.held(db)
+    if named is None:
+        if not held:
+            raise Refused("nobody is logged in to this database here: run "
+                          "`prepbook login NAME` first (a write needs a live session)")
+        if len(held) > 1:
+            raise Refused(f"several people are logged in here ({', '.join(sorted(held))}): "
+                          "say which with --user NAME")
+        named = next(iter(held))
+    sessions.check_person(db, named)
+    token = held.get(named)
+    if token is None:
+        raise Refused(f"{named} is not logged in to this database here: run "
+                      f"`prepbook login {named}` first (a write needs a live session)")
+    os_login, host = sessions.os_account()
+    sessions.live(db, name=named, token=token, os_login=os_login, host=host)
+    meta["prepbook.actor"] = named
+    return named
 
 
 class Passphrases:

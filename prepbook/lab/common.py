@@ -9,20 +9,32 @@ from __future__ import annotations
 import difflib
 import functools
 import json
+import weakref
 from collections.abc import Callable
+from dataclasses import dataclass
 from datetime import UTC, date, datetime, timedelta, tzinfo
 from typing import Any, TypeVar
 
-from sqlalchemy import bindparam, inspect, select
+from sqlalchemy import bindparam, func, inspect, select
 from sqlalchemy.orm import Session
 
 from prepbook import clock
 from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import parse_datetime, utc_now
-from prepbook.lab.security import passphrase_matches
+from prepbook.lab.security import lock_period, passphrase_matches
 from prepbook.store import audit
 from prepbook.store.engine import Database
-from prepbook.store.models import Base, Batch, Instrument, Lot, Run, Setting, Spec, User
+from prepbook.store.models import (
+    AuditEvent,
+    Base,
+    Batch,
+    Instrument,
+    Lot,
+    Run,
+    Setting,
+    Spec,
+    User,
+)
 
 T = TypeVar("T", bound=Base)
 T2 = TypeVar("T2", bound=tuple)  # type: ignore[type-arg]
@@ -145,19 +157,51 @@ def user_named(session: Session, name: str) -> User:
     if row is None:
         raise NotFound(
             f"{name!r} is not a prepbook user of this database "
-            "(an admin adds users with `prepbook user add`; pass --user NAME to act as one)"
+            "(an admin adds users with `prepbook user add`)"
         )
     return row
 
 
 DEFAULT_LOCKOUT_AFTER = 5  # wrong passphrases in a row before a lockout: common practice
+DEFAULT_LOCKOUT_MINUTES = 15  # the first lock's length: common practice, no source
+
+
+def whole_setting(session: Session, key: str, default: int) -> int:
+    try:
+        return max(1, int(setting(session, key, str(default))))
+    except ValueError:
+        return default
 
 
 def lockout_after(session: Session) -> int:
-    try:
-        return max(1, int(setting(session, "lockout_after", str(DEFAULT_LOCKOUT_AFTER))))
-    except ValueError:
-        return DEFAULT_LOCKOUT_AFTER
+    return whole_setting(session, "lockout_after", DEFAULT_LOCKOUT_AFTER)
+
+
+def locked_until(session: Session, user: User) -> datetime | None:
+    """Until when ``user`` is locked out by wrong passphrases in a row, or None.
+
+    The lock starts at the last recorded failure (its audit event) and lasts
+    ``lockout_minutes``, doubled by each failure beyond ``lockout_after``, at most a day:
+    it always ends by itself, and an admin may end it early (``user unlock``).
+    """
+    period = lock_period(user.failed_attempts, lockout_after(session),
+                         timedelta(minutes=whole_setting(session, "lockout_minutes",
+                                                          DEFAULT_LOCKOUT_MINUTES)))
+    if period is None:
+        return None
+    last = session.scalar(select(func.max(AuditEvent.at)).where(
+        AuditEvent.record_type == "users", AuditEvent.record_id == user.id,
+        AuditEvent.action == "auth.failed"))
+    if last is None:
+        return None
+    until: datetime = last + period
+    return until if until > utc_now() else None
+
+
+def lockout_line(name: str, failures: int, until: datetime) -> str:
+    return (f"{name} is locked out until {until:%Y-%m-%d %H:%M} UTC after {failures} wrong "
+            f"passphrases in a row; it ends by itself then, or an admin runs "
+            f"`prepbook user unlock {name} --reason TEXT`")
 
 
 def acting(session: Session, name: str, roles: tuple[str, ...] = RECORDERS,
@@ -165,17 +209,49 @@ def acting(session: Session, name: str, roles: tuple[str, ...] = RECORDERS,
     """The active user ``name``, refused unless their role is one of ``roles``.
 
     A disabled user can do nothing; neither can one locked out by wrong passphrases.
+    A signature checked by ``signed`` just before is written here, in the caller's
+    transaction (see ``signed``).
     """
     user = user_named(session, name)
     if not user.active:
         raise Refused(f"user {name!r} is disabled")
-    limit = lockout_after(session)
-    if user.failed_attempts >= limit:
-        raise Refused(f"{name} is locked out after {user.failed_attempts} wrong passphrases; "
-                      f"an admin must run `prepbook user unlock {name}`")
+    until = locked_until(session, user)
+    if until is not None:
+        raise Refused(lockout_line(name, user.failed_attempts, until))
     if user.role not in roles:
         raise Refused(f"{name} is a {user.role}; only a {' or '.join(roles)} may {doing}")
+    _write_pending_signature(session, user)
     return user
+
+
+@dataclass(frozen=True)
+class Signature:
+    """A passphrase checked for a signed action: who, the stored hash it matched, and
+    what the signature means ("reviewed and accepted") and of what ("run R-12")."""
+
+    name: str
+    hash_checked: str
+    meaning: str
+    what: str
+
+
+# Signatures checked and not yet written, per engine and signer: ``signed`` checks the
+# passphrase before the write transaction opens (Argon2 is slow; the writer lock is not
+# held meanwhile) and ``acting`` in that transaction writes the "user.signed" event.
+_PENDING: weakref.WeakKeyDictionary[Any, dict[str, Signature]] = weakref.WeakKeyDictionary()
+
+
+def _write_pending_signature(session: Session, user: User) -> None:
+    bind = session.get_bind()
+    pending = _PENDING.get(bind)
+    signature = pending.pop(user.name, None) if pending else None
+    if signature is None:
+        return
+    if user.passphrase_hash != signature.hash_checked:
+        raise Refused(f"the passphrase of {user.name} changed while signing; sign again")
+    write(session, user.name, "user.signed", user,
+          reason=f"{signature.meaning}: {signature.what}" if signature.what
+          else signature.meaning)
 
 
 def check_passphrase(user: User, passphrase: str | None) -> None:
@@ -184,32 +260,53 @@ def check_passphrase(user: User, passphrase: str | None) -> None:
         raise Refused(f"wrong passphrase for {user.name}")
 
 
-def signed(db: Any, name: str, passphrase: str | None, roles: tuple[str, ...] = RECORDERS,
-           doing: str = "do this") -> None:
-    """Verify a signature in its own transaction, before the signed write.
+def proven(db: Any, name: str, passphrase: str | None, roles: tuple[str, ...] = RECORDERS,
+           doing: str = "do this") -> str:
+    """The stored hash ``passphrase`` matches for ``name``, or Refused; each failure is
+    recorded.
 
-    A wrong passphrase is refused and the failed attempt itself is recorded (with its
-    audit event) even though the action is not; after ``lockout_after`` failures in a
-    row the user is locked out until an admin unlocks them. A right passphrase clears
-    the count.
+    The slow Argon2 check runs outside any write transaction. A wrong passphrase is
+    refused and the failed attempt itself is recorded (``auth.failed``, in a write
+    transaction of its own that re-reads the count, so attempts from several processes
+    at once are each counted); ``lockout_after`` failures in a row lock the user out for
+    a while (``locked_until``). A right passphrase clears the count.
     """
-    locked = False
-    with db.session() as s:
+    with db.session(write=False) as s:
         user = acting(s, name, roles, doing)
-        if passphrase is not None and passphrase_matches(user.passphrase_hash, passphrase):
+        stored = user.passphrase_hash or ""
+    if passphrase is not None and passphrase_matches(stored, passphrase):
+        with db.session() as s:
+            user = user_named(s, name)
             if user.failed_attempts:
                 user.failed_attempts = 0
                 write(s, user.name, "auth.cleared", user, reason="right passphrase")
-            return
+        return stored
+    with db.session() as s:
+        user = user_named(s, name)
         user.failed_attempts += 1
-        locked = user.failed_attempts >= lockout_after(s)
-        write(s, user.name, "auth.failed", user,
-              reason="wrong passphrase" + ("; locked out" if locked else ""))
+        write(s, user.name, "auth.failed", user, reason=f"wrong passphrase ({doing})")
         count = user.failed_attempts
-    if locked:
-        raise Refused(f"wrong passphrase for {name}; {name} is now locked out after {count} "
-                      f"wrong passphrases (an admin must run `prepbook user unlock {name}`)")
+        until = locked_until(s, user)
+    if until is not None:
+        raise Refused(f"wrong passphrase for {name}; " + lockout_line(name, count, until))
     raise Refused(f"wrong passphrase for {name}")
+
+
+def signed(db: Any, name: str, passphrase: str | None, roles: tuple[str, ...] = RECORDERS,
+           doing: str = "do this", *, meaning: str | None = None, what: str = "") -> Signature:
+    """Check a signature before the signed write; the write's own transaction records it.
+
+    The passphrase is checked (and a failure recorded) by ``proven``. The signature is
+    then held for ``name`` until the signed action's transaction calls ``acting`` for
+    them: there it is confirmed (the stored hash is still the one checked) and written
+    as a "user.signed" event whose reason says what it means, "<meaning>: <what>", so
+    it commits or rolls back with the action itself.
+    """
+    stored = proven(db, name, passphrase, roles, doing)
+    signature = Signature(name=name, hash_checked=stored, meaning=meaning or f"signed to {doing}",
+                          what=what)
+    _PENDING.setdefault(db.engine, {})[name] = signature
+    return signature
 
 
 def write(session: Session, actor: str, action: str, row: Base, *, reason: str | None = None,

@@ -306,7 +306,8 @@ def retire(db: Database, *, actor: str, code: str, reason: str | None,
     if not (reason and reason.strip()):
         raise InvalidInput("retiring a batch needs a --reason")
     retired_at = work_time(db, at, "retirement time", reason=reason)
-    signed(db, actor, passphrase, RECORDERS, "retire batches")
+    signed(db, actor, passphrase, RECORDERS, "retire batches", meaning="retired",
+           what=f"batch {code}")
     with db.session() as s:
         user = acting(s, actor, RECORDERS, "retire batches")
         b = by_code(s, Batch, code, "batch")

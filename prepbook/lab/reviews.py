@@ -128,7 +128,8 @@ def review(
     signed_at = work_time(db, at, "review time", reason=late_reason)
     # Every refusal comes before the signature (whose check is itself written down).
     to_sign(db, actor=actor, run=run, accept=accept, reason=reason)
-    signed(db, actor, passphrase, REVIEWERS, "review standardizations")
+    signed(db, actor, passphrase, REVIEWERS, "review standardizations", what=f"run {run}",
+           meaning="reviewed and accepted" if accept else "reviewed and rejected")
     with db.session() as s:
         r = _review_precheck(s, actor, run, accept)
         if signed_at < r.performed_at:

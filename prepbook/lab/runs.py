@@ -406,7 +406,8 @@ def _revise(db: Database, *, actor: str, run: str, position: int, reason: str | 
         raise InvalidInput(f"a {action} needs a --reason")
     if position < 1:
         raise InvalidInput("--replicate counts from 1")
-    signed(db, actor, passphrase, RECORDERS, f"{action} replicates")
+    signed(db, actor, passphrase, RECORDERS, f"{action} replicates",
+           meaning=f"{action.rstrip('e')}ed a replicate", what=f"run {run} #{position}")
     with db.session() as s:
         user = acting(s, actor, RECORDERS, f"{action} replicates")
         r = by_code(s, Run, run, "run")

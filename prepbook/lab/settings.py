@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from prepbook import clock
 from prepbook.clock import LabClock
@@ -16,9 +17,12 @@ from prepbook.lab.common import (
     iso,
     lab_zone,
     late_after,
+    setting,
     signed,
+    whole_setting,
     write,
 )
+from prepbook.lab.security import PassphrasePolicy
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Setting
@@ -52,8 +56,23 @@ KNOWN: dict[str, SettingInfo] = {
                     "hours after the work within which it may be entered without a reason "
                     "(common practice, no source)", integer_range=(1, 8760)),
         SettingInfo("lockout_after", "5",
-                    "wrong passphrases in a row that lock a user out until an admin unlocks "
+                    "wrong passphrases in a row that lock a user out for lockout_minutes "
                     "(common practice, no source)", integer_range=(1, 20)),
+        SettingInfo("lockout_minutes", "15",
+                    "minutes the first lockout lasts; each further wrong passphrase doubles "
+                    "it, up to a day (common practice, no source)", integer_range=(1, 1440)),
+        SettingInfo("passphrase_min_length", "12",
+                    "fewest characters of a new passphrase (common practice, no source)",
+                    integer_range=(8, 128)),
+        SettingInfo("passphrase_name_rule", "on",
+                    "refuse a new passphrase that contains the user's name",
+                    choices=("on", "off")),
+        SettingInfo("session_idle_minutes", "15",
+                    "minutes without a write after which a login session ends (common "
+                    "practice, no source)", integer_range=(1, 480)),
+        SettingInfo("session_max_hours", "12",
+                    "hours after which a login session ends however busy (common practice, "
+                    "no source)", integer_range=(1, 24)),
         SettingInfo("min_burette_fraction_percent", "30",
                     "smallest titrant volume as a percentage of the burette's capacity "
                     "(USP <31>: 30 %)", integer_range=(1, 100)),
@@ -127,7 +146,8 @@ def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | N
     reason = parse_text(reason, "reason", max_len=500)
     if not (reason and reason.strip()):
         raise InvalidInput("changing a setting needs a --reason")
-    signed(db, actor, passphrase, ("admin",), "change settings")
+    signed(db, actor, passphrase, ("admin",), "change settings",
+           meaning="changed a setting", what=f"{key} = {value}")
     with db.session() as s:
         admin = acting(s, actor, ("admin",), "change settings")
         now = utc_now()
@@ -138,3 +158,12 @@ def set_value(db: Database, *, actor: str, key: str, value: str, reason: str | N
             row.value, row.updated_at, row.updated_by = value, now, admin.name
         write(s, admin.name, "setting.set", row, reason=reason)
         return SettingChange(key=key, value=value, changed_by=admin.name)
+
+
+def passphrase_policy(s: Session) -> PassphrasePolicy:
+    """The lab's passphrase policy (settings ``passphrase_min_length`` and
+    ``passphrase_name_rule``; defaults: at least 12 characters, not containing the name)."""
+    length_default = int(KNOWN["passphrase_min_length"].default)
+    rule = setting(s, "passphrase_name_rule", KNOWN["passphrase_name_rule"].default)
+    return PassphrasePolicy(min_length=whole_setting(s, "passphrase_min_length", length_default),
+                            refuse_name=rule != "off")

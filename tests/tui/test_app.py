@@ -59,10 +59,19 @@ def lab(demo_db: Path, tmp_path: Path) -> Path:
 
 
 def make_app(path: Path, user: str | None):
+    """The app on ``path``, ``user`` signed in (with the passphrase the demo gave them)."""
+    from prepbook.lab import sessions
     from prepbook.store.engine import open_database
     from prepbook.tui.app import PrepbookApp
+    from tests.conftest import passphrase_of
 
-    return PrepbookApp(open_database(str(path)), user=user, poll_seconds=0)
+    db = open_database(str(path))
+    opened = None
+    if user is not None:
+        os_login, host = sessions.os_account()
+        opened = sessions.login(db, name=user, passphrase=passphrase_of(path, user),
+                                os_login=os_login, host=host)
+    return PrepbookApp(db, user=user, session=opened, poll_seconds=0)
 
 
 def board_states(app) -> dict[str, str]:
@@ -168,8 +177,8 @@ async def test_recorded_run_awaits_review_then_a_reviewer_signs_it_into_service(
         await pilot.pause()
         secret = app.screen.query_one("#secret")
         assert secret.password is True
-        await pilot.press(*"demo-priya-pass")
-        assert "demo-priya-pass" not in app.export_screenshot()
+        await pilot.press(*"second-look-7731")
+        assert "second-look-7731" not in app.export_screenshot()
         await pilot.press("enter")
         await pilot.pause()
         assert "accepted" in shown(app.screen.query_one("#message"))
@@ -206,15 +215,15 @@ async def test_malformed_reading_is_refused_with_a_message_and_nothing_written(
 async def test_asks_who_is_acting_and_notices_writes_from_another_bench(lab: Path) -> None:
     from prepbook.lab import batches
     from prepbook.store.engine import open_database
-    from prepbook.tui.screens.dialogs import WhoScreen
+    from prepbook.tui.screens.login import LoginScreen
 
     app = make_app(lab, None)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        assert isinstance(app.screen, WhoScreen)
-        who = app.screen.query_one("#who-list")
-        who.highlighted = [o.id for o in who._options].index("tomas")
+        assert isinstance(app.screen, LoginScreen)
+        await type_into(pilot, "login-name", "tomas")
         await pilot.press("enter")
+        await pilot.press(*"drying-oven-1053", "enter")
         await pilot.pause()
         assert (app.actor, app.role) == ("tomas", "technician")
         assert app.check_for_changes() is False  # nothing written: no reload

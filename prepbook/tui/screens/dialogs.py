@@ -1,47 +1,12 @@
-"""Small modal dialogs: who is acting, a passphrase, a few fields, a yes/no, help."""
+"""Small modal dialogs: a passphrase, a few fields, a yes/no, help."""
 
 from __future__ import annotations
-
-from typing import TYPE_CHECKING
 
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
-from textual.widgets import Button, Input, Label, OptionList, Static
-from textual.widgets.option_list import Option
-
-if TYPE_CHECKING:
-    from prepbook.lab.people import UserInfo
-
-
-class WhoScreen(ModalScreen[str]):
-    """Asked at start when no --user was given: who is at the keyboard."""
-
-    BINDINGS = [Binding("q", "app.quit", "Leave")]
-
-    def __init__(self, users: list[UserInfo], note: str = "") -> None:
-        super().__init__()
-        self.users = [u for u in users if u.active]
-        self.note = note
-
-    def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog", id="who"):
-            yield Label("Who is at the keyboard?", classes="dialog-title")
-            if self.note:
-                yield Static(self.note, classes="refusal")
-            yield Static("Pick your name. Anything you sign (reviews and other signed "
-                         "actions) asks for your passphrase each time.", classes="hint")
-            if not self.users:
-                yield Static("This database has no users yet: an admin adds them with "
-                             "`prepbook user add`.", classes="refusal")
-            yield OptionList(*[Option(f"{u.name}  ({u.role})"
-                                      + ("  · locked out" if u.locked else ""),
-                                      id=u.name)
-                               for u in self.users], id="who-list")
-
-    def on_option_list_option_selected(self, event: OptionList.OptionSelected) -> None:
-        self.dismiss(str(event.option.id))
+from textual.widgets import Button, Input, Label, Static
 
 
 class PassphraseScreen(ModalScreen[str | None]):
