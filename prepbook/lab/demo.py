@@ -168,8 +168,8 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
 def _record_assays(db: Any, today: datetime, codes: dict[str, str],
                    users: dict[str, Any]) -> None:
     """The demo's sample titrations, each with the batch's value in force that day; then
-    a burette reading of the silver nitrate standardization is found transposed and
-    corrected after a water sample was titrated with it (``prepbook impact`` shows the
+    a burette reading of the silver nitrate standardization is found misread by one
+    small division and corrected after a water sample was titrated with it (``prepbook impact`` shows the
     chloride result recomputed)."""
     from prepbook.lab import assays, batches, runs
 
@@ -179,8 +179,9 @@ def _record_assays(db: Any, today: datetime, codes: dict[str, str],
                      at=_moment(today, day, clock).isoformat(timespec="minutes"))
     shown = batches.show_batch(db, codes["agno3"])
     run = shown.runs[-1].run
-    runs.correct(db, actor="ines", run=run, replicate=2, volume="35.18",
-                 reason="burette reading transposed on the bench sheet (35.18, typed 35.81)",
+    runs.correct(db, actor="ines", run=run, replicate=2, volume="35.81",
+                 reason="burette misread by one small division (35.81 on the bench sheet, "
+                 "typed 35.86)",
                  passphrase=users["ines"]["passphrase"])
     runs.review(db, actor="priya", run=run, accept=True, reason="reading checked on the sheet",
                 passphrase=users["priya"]["passphrase"])

@@ -14,9 +14,9 @@ from dataclasses import dataclass
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import parse_datetime, parse_text, utc_now
+from prepbook.inputs import parse_text, utc_now
 from prepbook.lab.batch_facts import current_normality, when
-from prepbook.lab.common import REVIEWERS, acting, by_code, not_future, signed, write
+from prepbook.lab.common import REVIEWERS, acting, by_code, signed, work_time, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Review, Run
@@ -60,11 +60,12 @@ def revoke(db: Database, *, actor: str, run: str, reason: str | None,
     reason = parse_text(reason, "reason", max_len=1000)
     if not (reason and reason.strip()):
         raise InvalidInput("a revocation needs a --reason")
-    revoked_at = not_future(parse_datetime(at, "--at") if at else None, "revocation time")
+    revoked_at = work_time(db, at, "revocation time", reason=reason)
     # Every refusal comes before the signature (whose check is itself written down).
     with db.session(write=False) as s:
         _precheck(s, actor, run)
-    signed(db, actor, passphrase, REVIEWERS, "revoke standardizations")
+    signed(db, actor, passphrase, REVIEWERS, "revoke standardizations",
+           meaning="revoked an accepted result", what=f"run {run}")
     with db.session() as s:
         r = _precheck(s, actor, run)
         if revoked_at < r.performed_at:
