@@ -4,7 +4,7 @@ Revision ID: 3c1a5e7d9b20
 Revises: ff8077f934d0
 Create Date: 2026-12-01 21:00:00
 
-Written by hand to match ``LabelPrint`` in prepbook/store/models.py;
+Written by hand to match ``LabelPrint`` in prepbook/store/models/;
 tests/store/test_migrations.py compares the two on a freshly upgraded database.
 """
 

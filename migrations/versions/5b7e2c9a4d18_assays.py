@@ -4,7 +4,7 @@ Revision ID: 5b7e2c9a4d18
 Revises: 5e0b7c3a9d41
 Create Date: 2026-12-05 03:45:00
 
-Written by hand to match ``Assay`` and ``AssayReplicate`` in prepbook/store/models.py;
+Written by hand to match ``Assay`` and ``AssayReplicate`` in prepbook/store/models/;
 tests/store/test_migrations.py compares the two on a freshly upgraded database.
 """
 

@@ -5,7 +5,7 @@ Revises: 5e7a9c1b3d24
 Create Date: 2026-12-05 04:00:00
 
 Written by hand to match ``InstrumentConnection``, ``ReplicateSource`` and
-``ReplicateCurve`` in prepbook/store/models.py; tests/store/test_migrations.py compares
+``ReplicateCurve`` in prepbook/store/models/; tests/store/test_migrations.py compares
 the two on a freshly upgraded database. Replicates recorded before have no source row:
 they were recorded before sources were kept.
 """

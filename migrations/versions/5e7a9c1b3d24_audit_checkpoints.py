@@ -5,7 +5,7 @@ Revises: 8d2f4b6a1c37
 Create Date: 2026-12-05 04:00:00
 
 Written by hand to match ``AuditEvent``, ``AuditKeying`` and ``AuditCheckpoint`` in
-prepbook/store/models.py; tests/store/test_migrations.py compares the two on a freshly
+prepbook/store/models/; tests/store/test_migrations.py compares the two on a freshly
 upgraded database. Events written before this revision keep NULL in the new columns
 and verify as before (the hashed text holds the new fields only when present).
 """

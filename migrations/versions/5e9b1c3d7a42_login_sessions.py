@@ -4,7 +4,7 @@ Revision ID: 5e9b1c3d7a42
 Revises: b7e4c2a9d160
 Create Date: 2026-12-05 03:40:00
 
-Written by hand to match ``LoginSession`` in prepbook/store/models.py. A session row
+Written by hand to match ``LoginSession`` in prepbook/store/models/. A session row
 holds only the SHA-256 of the random token kept in the owner's session file; the
 login itself is an audit event on the user, which names the same hash.
 """

@@ -6,7 +6,7 @@ Create Date: 2026-12-01 21:40:00
 
 The board shows every batch not retired; over years of history most batches are
 retired, so it finds the few current ones through this index instead of reading
-them all. Written by hand to match ``Batch.retired_at`` in prepbook/store/models.py.
+them all. Written by hand to match ``Batch.retired_at`` in prepbook/store/models/.
 """
 
 from collections.abc import Sequence

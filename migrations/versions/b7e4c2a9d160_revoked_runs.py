@@ -7,7 +7,7 @@ Create Date: 2026-12-05 03:50:00
 A run's status may now be "revoked" and a review's decision "revoke" (``prepbook
 revoke``). Only the two CHECK constraints change; batch mode recreates the tables on
 SQLite, PostgreSQL alters them in place. Written by hand to match RUN_STATUSES and
-DECISIONS in prepbook/store/models.py.
+DECISIONS in prepbook/store/models/.
 """
 
 from collections.abc import Sequence

@@ -4,7 +4,7 @@ Revision ID: ff8077f934d0
 Revises:
 Create Date: 2026-12-01 20:30:11
 
-Hand-checked against prepbook/store/models.py; tests/store/test_migrations.py
+Hand-checked against prepbook/store/models/; tests/store/test_migrations.py
 compares the two on a freshly upgraded database.
 """
 

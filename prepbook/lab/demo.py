@@ -169,8 +169,8 @@ def _record_assays(db: Any, today: datetime, codes: dict[str, str],
                    users: dict[str, Any]) -> None:
     """The demo's sample titrations, each with the batch's value in force that day; then
     a burette reading of the silver nitrate standardization is found misread by one
-    small division and corrected after a water sample was titrated with it (``prepbook impact`` shows the
-    chloride result recomputed)."""
+    small division and corrected after a water sample was titrated with it
+    (``prepbook impact`` shows the chloride result recomputed)."""
     from prepbook.lab import assays, batches, runs
 
     for key, day, clock, who, sample, analyte, aliquot, volumes, limit in DEMO_ASSAYS:

@@ -17,12 +17,12 @@ reportlab and qrcode are imported only inside the functions that draw.
 from __future__ import annotations
 
 import io
-import math
 from dataclasses import dataclass, field
 from typing import Any
 
 from prepbook.errors import InvalidInput
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel
+from prepbook.render.numbers import significant
 from prepbook.render.sizes import MM, LabelSize, Sheet, grid
 from prepbook.text import for_pdf
 
@@ -82,15 +82,6 @@ class LabelLayout:
 
 
 # --- formatting (pure) ----------------------------------------------------------------
-
-
-def significant(value: float, digits: int = 5) -> str:
-    """A value with ``digits`` significant figures for reading (the record keeps all)."""
-    if value == 0 or not math.isfinite(value):
-        return str(value)
-    magnitude = math.floor(math.log10(abs(value)))
-    decimals = max(0, digits - 1 - magnitude)
-    return f"{value:.{decimals}f}"
 
 
 def _unit_word(unit: str) -> str:

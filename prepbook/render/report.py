@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING, Any
 from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput
 from prepbook.render import files
-from prepbook.render.labels import significant
+from prepbook.render.numbers import significant
 from prepbook.render.report_chart import control_chart, curve_chart
 from prepbook.text import for_pdf
 

@@ -7,7 +7,7 @@ from __future__ import annotations
 from datetime import date, datetime
 from typing import TYPE_CHECKING, Any
 
-from prepbook.render.labels import significant
+from prepbook.render.numbers import significant
 
 if TYPE_CHECKING:
     from prepbook.devices.records import RecordedCurve
