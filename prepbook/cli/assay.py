@@ -60,7 +60,13 @@ def assay(
         help="The sample's specification limit in the reported unit (LOW:, :HIGH or both)."
     ),
     at: str = typer.Option(
-        None, "--at", metavar="WHEN", help="When titrated (YYYY-MM-DD[THH:MM], UTC), if not now."
+        None, "--at", metavar="WHEN",
+        help="When titrated (YYYY-MM-DD[THH:MM], lab time), if not now."
+    ),
+    late_reason: str = typer.Option(
+        None, "--reason", metavar="TEXT",
+        help="Why it is entered late (needed when --at is more than the lab's "
+        "late_entry_hours ago)."
     ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
@@ -69,7 +75,8 @@ def assay(
 
     res = assays.assay(database(ctx), actor=actor(ctx), batch=batch, sample=sample,
                        analyte=analyte, replicates=list(rep or []), aliquot=aliquot, mass=mass,
-                       reaction=method, blank=blank, temperature=temp, limit=limit, at=at)
+                       reaction=method, blank=blank, temperature=temp, limit=limit, at=at,
+                       late_reason=late_reason)
     if as_json:
         output.emit_json(res)
         return

@@ -13,17 +13,20 @@ from __future__ import annotations
 import json
 from dataclasses import asdict, dataclass, fields
 from datetime import datetime
+from decimal import Decimal
 from typing import TYPE_CHECKING, Any, cast
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session, selectinload
 
+from prepbook.clock import local_date
 from prepbook.errors import InvalidInput, Refused
-from prepbook.inputs import Reading, parse_datetime, parse_number, parse_text, utc_now
+from prepbook.inputs import Reading, parse_number, parse_text, utc_now
 from prepbook.lab import impact as impact_rules
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
-from prepbook.lab.common import acting, by_code, not_future, write
+from prepbook.lab.common import acting, by_code, lab_zone, work_time, write
+from prepbook.lab.volumes import draw
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Assay, AssayReplicate, Batch, Run, Use
@@ -167,7 +170,7 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
           replicates: list[str], aliquot: str | None = None, mass: str | None = None,
           reaction: str | None = None, blank: str | None = None,
           temperature: str | None = None, limit: str | None = None, at: str | None = None,
-          record: bool = True) -> AssayResult:
+          late_reason: str | None = None, record: bool = True) -> AssayResult:
     """Titrate a sample with a batch in service and record the result (and the draw of
     titrant as a use of the batch). With ``record=False`` nothing is written: the result
     is computed as it would be recorded (the terminal's live result)."""
@@ -197,7 +200,8 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
     analyte = analyte.strip()
     if not analyte:
         raise InvalidInput("--analyte needs the analyte's name")
-    performed_at = not_future(parse_datetime(at, "--at") if at else None, "assay time")
+    late_reason = parse_text(late_reason, "reason", max_len=500)
+    performed_at = work_time(db, at, "assay time", reason=late_reason)
 
     with db.session(write=record) as s:
         user = acting(s, actor, doing="record assays")
@@ -231,7 +235,8 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
         use = Use(batch_id=b.id, used_at=performed_at, used_by=user.name,
                   volume_ml_text=_total_text(volumes),
                   purpose=f"assay {code}: {analyte} in sample {sample_id}")
-        write(s, user.name, "batch.use", use, performed_at=performed_at)
+        draw(s, b, Decimal(use.volume_ml_text or "0"), "the assay's titrant")
+        write(s, user.name, "batch.use", use, performed_at=performed_at, reason=late_reason)
         row = Assay(
             code=code, batch_id=b.id, run_id=run.id, use_id=use.id, sample=sample_id,
             analyte=analyte, reaction=reaction,
@@ -245,7 +250,7 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             sd=computed.sd, rsd_percent=computed.rsd_percent, u=computed.u, U=computed.U,
             k=computed.k,
             result_json=json.dumps(asdict(computed), sort_keys=True))
-        write(s, user.name, "assay.record", row, performed_at=performed_at)
+        write(s, user.name, "assay.record", row, performed_at=performed_at, reason=late_reason)
         for pos, v in enumerate(volumes, start=1):
             write(s, user.name, "assay.replicate", AssayReplicate(
                 assay_id=row.id, position=pos, volume_ml_text=v.text),
@@ -274,7 +279,7 @@ def _total_text(volumes: list[Reading]) -> str:
 def _next_code(s: Session, performed_at: datetime) -> str:
     from prepbook.lab.batches import next_code
 
-    return next_code(s, cast(Any, Assay), f"A{performed_at:%y%m%d}")
+    return next_code(s, cast(Any, Assay), f"A{local_date(performed_at, lab_zone(s)):%y%m%d}")
 
 
 @dataclass(frozen=True)

@@ -176,7 +176,8 @@ def _record_assays(db: Any, today: datetime, codes: dict[str, str],
     for key, day, clock, who, sample, analyte, aliquot, volumes, limit in DEMO_ASSAYS:
         assays.assay(db, actor=who, batch=codes[key], sample=sample, analyte=analyte,
                      aliquot=aliquot, replicates=list(volumes), limit=limit,
-                     at=_moment(today, day, clock).isoformat(timespec="minutes"))
+                     at=_moment(today, day, clock).isoformat(timespec="minutes"),
+                     late_reason=INVENTED)
     shown = batches.show_batch(db, codes["agno3"])
     run = shown.runs[-1].run
     runs.correct(db, actor="ines", run=run, replicate=2, volume="35.81",
