@@ -40,7 +40,7 @@ def hand_worked(n_t: float) -> float:
 
 def _standardize(cli: Cli, batch: str, day: int, reps: list[str]) -> str:
     args = ["standardize", batch, "--lot", "KHP-0001", "--balance", "BAL-1", "--burette",
-            "BUR-1", "--at", _at(day)]
+            "BUR-1", "--at", _at(day), "--reason", "from the bench sheet"]
     for r in reps:
         args += ["--rep", r]
     return str(cli.json(*args, user="ben")["run"])
@@ -53,7 +53,8 @@ def _review(cli: Cli, run: str, decision: str = "--accept") -> None:
 
 def _assay(cli: Cli, batch: str, day: int, sample: str, *extra: str) -> dict:
     args = ["assay", batch, "--sample", sample, "--analyte", "HCl", "--aliquot", str(ALIQUOT),
-            "--blank", str(BLANK), "--limit", "3.40:3.56", "--at", _at(day)]
+            "--blank", str(BLANK), "--limit", "3.40:3.56", "--at", _at(day),
+            "--reason", "from the bench sheet"]
     for v in VOLUMES:
         args += ["--rep", v]
     return dict(cli.json(*args, *extra, user="ben"))
@@ -68,7 +69,7 @@ def _n20(cli: Cli, batch: str, run: str) -> float:
 def lab(bench: Cli) -> tuple[Cli, str, list[str], list[dict]]:  # noqa: F811
     """R1 (day -10), assay 1 (day -9), R2 (day -7), assays 2 and 3 (days -6 and -5)."""
     made = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
-                      "--at", _at(-12, "08:30"), user="ben")
+                      "--at", _at(-12, "08:30"), "--reason", "from the bench sheet", user="ben")
     batch = str(made["batch"])
     r1 = _standardize(bench, batch, -10, REPS)
     _review(bench, r1)
@@ -101,7 +102,7 @@ def test_a_correction_recomputes_exactly_the_results_that_used_it(lab) -> None:
     cli, batch, (r1, r2), (a1, a2, a3) = lab
     assert cli.json("impact", batch) == []
     before = row_counts(cli.db)
-    cli.ok("correct", r2, "--replicate", "2", "--volume", "39.60", "--reason", "misread",
+    cli.ok("correct", r2, "--replicate", "2", "--volume", "39.35", "--reason", "misread",
            "--passphrase-stdin", user="ben", input="ben-passphrase\n")
     _review(cli, r2)
     impacted = {row["assay"]: row for row in cli.json("impact", batch)}
@@ -179,7 +180,7 @@ def test_a_run_rejected_after_its_correction_leaves_the_range_of_what_stands(lab
 
 def test_an_assay_is_refused_for_a_batch_not_in_service(bench: Cli, counts) -> None:  # noqa: F811
     made = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass", "4.1",
-                      "--at", _at(-3, "08:30"), user="ben")
+                      "--at", _at(-3, "08:30"), "--reason", "from the bench sheet", user="ben")
     batch = str(made["batch"])
     before = counts(bench.db)
     res = bench.refused("assay", batch, "--sample", "S-1", "--analyte", "HCl", "--aliquot",

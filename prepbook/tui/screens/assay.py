@@ -23,7 +23,7 @@ from textual.widgets import Footer, Input, Label, Select, Static
 from prepbook.errors import PrepbookError
 from prepbook.inputs import parse_number
 from prepbook.tui import words
-from prepbook.tui.screens.common import budget_table
+from prepbook.tui.screens.common import LIVE_DELAY_S, budget_table
 from prepbook.tui.widgets import colour
 
 if TYPE_CHECKING:
@@ -138,7 +138,7 @@ class AssayScreen(Screen[None]):
     def schedule(self) -> None:
         if self._timer is not None:
             self._timer.stop()
-        self._timer = self.set_timer(0.25, self.preview)
+        self._timer = self.set_timer(LIVE_DELAY_S, self.preview)
 
     def _problem(self, title: str, problems: list[str]) -> Text:
         out = Text.assemble((f"{title}\n", "bold"))

@@ -16,6 +16,9 @@ from prepbook.tui.widgets import check_cell, colour, safe_table, shown, status_c
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BudgetRow, RunRecord
 
+# The live result waits this long after the last key (a preview takes about 10 ms; the
+# pause only lets a burst of typing settle): common practice, no source.
+LIVE_DELAY_S = 0.08
 DEFER = ("Follow the substance's safety data sheet, local regulations and the "
          "laboratory's own procedures.")
 

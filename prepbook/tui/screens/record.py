@@ -23,7 +23,7 @@ from textual.widgets import Footer, Input, Label, Select, Static
 from prepbook.errors import PrepbookError
 from prepbook.inputs import parse_number
 from prepbook.tui import words
-from prepbook.tui.screens.common import budget_table, small_table
+from prepbook.tui.screens.common import LIVE_DELAY_S, budget_table, small_table
 from prepbook.tui.widgets import check_cell, colour, state_cell
 
 if TYPE_CHECKING:
@@ -273,7 +273,7 @@ class RecordScreen(Screen[None]):
     def schedule(self) -> None:
         if self._timer is not None:
             self._timer.stop()
-        self._timer = self.set_timer(0.25, self.preview)
+        self._timer = self.set_timer(LIVE_DELAY_S, self.preview)
 
     def preview(self) -> None:
         from prepbook.lab import runs
