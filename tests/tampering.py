@@ -67,3 +67,12 @@ def guarded_again(db: Path | str) -> Iterator[None]:
 
 
 MISSING_GUARD = "is missing: the table is not guarded against changes"
+
+
+def tamper(db: Path | str, sql: str, *params: object) -> None:
+    """One change behind prepbook's back by the careful attacker: the guards dropped, the
+    statement run (``tests.conftest.raw_sql``), the guards put back."""
+    from tests.conftest import raw_sql
+
+    with guarded_again(db):
+        raw_sql(db, sql, *params)

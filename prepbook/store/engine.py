@@ -160,7 +160,7 @@ def make_engine(url: str, *, foreign_keys: bool = True) -> Engine:
         if parsed.get_backend_name() == "sqlite":
             path = sqlite_path(url)
             if path is not None and path.is_file() and not _writable(path):
-                url = f"sqlite:///{_read_only_uri(path)}&uri=true"
+                url = f"sqlite:///{read_only_uri(path)}&uri=true"
             engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT_S})
             _install_sqlite_pragmas(engine, foreign_keys=foreign_keys)
             return engine
@@ -175,7 +175,7 @@ def _writable(path: Path) -> bool:
     return os.access(path, os.W_OK) and os.access(path.parent, os.W_OK)
 
 
-def _read_only_uri(path: Path) -> str:
+def read_only_uri(path: Path) -> str:
     """An SQLite URI opening ``path`` for reading only. In a folder closed to writing
     no -wal or -shm file can be made: a file with no write-ahead log beside it is
     opened as immutable (nobody can change it there either); one with a log is read
@@ -340,7 +340,7 @@ def _init_hint(what: str) -> DatabaseError:
 def _sqlite_revision(path: Path) -> str | None:
     """The schema revision of a SQLite file, read without creating or changing anything."""
     try:
-        con = sqlite3.connect(_read_only_uri(path), uri=True, timeout=BUSY_TIMEOUT_S)
+        con = sqlite3.connect(read_only_uri(path), uri=True, timeout=BUSY_TIMEOUT_S)
     except sqlite3.Error as exc:
         raise DatabaseError(f"cannot open the database {path}: {exc}") from exc
     try:

@@ -12,7 +12,8 @@ from pathlib import Path
 import pytest
 
 from tests.cli.test_bench_flow import _make_batch, bench  # noqa: F401
-from tests.conftest import Cli, raw_sql
+from tests.conftest import Cli
+from tests.tampering import tamper
 
 
 @pytest.fixture
@@ -47,8 +48,8 @@ def test_the_code_read_back_from_a_printed_report_is_accepted_by_verify(
     assert "cannot be ruled out" not in text
     # The trail shortened behind prepbook's back: the paper says so.
     last = verified["events"]
-    raw_sql(bench.db, "DELETE FROM audit_events WHERE seq = ?", last)
-    raw_sql(bench.db, "UPDATE audit_head SET seq = ?, hash = (SELECT hash FROM audit_events "
+    tamper(bench.db, "DELETE FROM audit_events WHERE seq = ?", last)
+    tamper(bench.db, "UPDATE audit_head SET seq = ?, hash = (SELECT hash FROM audit_events "
                       "WHERE seq = ?)", last - 1, last - 1)
     result = bench("audit", "verify", "--checkpoint", code)
     assert result.exit_code == 1

@@ -21,7 +21,8 @@ from prepbook.devices.profiles import find_profile
 from prepbook.devices.simulator import SimulatedBalance, SocketServer
 from prepbook.lab.demo_readings import khp_curve
 from tests.cli.test_bench_flow import _at, _make_batch, bench  # noqa: F401 (fixture)
-from tests.conftest import Cli, is_url, raw_sql, row_counts
+from tests.conftest import Cli, is_url, row_counts
+from tests.tampering import tamper
 
 MASSES = ["0.8085", "0.8116", "0.8596"]
 NORMALITY = 0.1003  # the invented strength the curves are computed for
@@ -100,7 +101,7 @@ def test_masses_read_from_the_balance_are_stored_with_their_raw_line_and_audited
     assert "1.1: mass read from balance BAL-1" in text and "2.1: mass typed" in text
     assert bench.json("audit", "verify")["ok"] is True
 
-    raw_sql(bench.db, "UPDATE replicate_sources SET amount_raw = 'S      +0.8090 g' "
+    tamper(bench.db, "UPDATE replicate_sources SET amount_raw = 'S      +0.8090 g' "
                       "WHERE id = 1")
     verify = json.loads(bench("audit", "verify", "--json").stdout)
     assert verify["ok"] is False
@@ -185,7 +186,7 @@ def test_editing_a_stored_curve_outside_prepbook_is_found(
     _standardize(bench, batch, [f"{MASSES[0]}:@{curves[0]}"])
     assert bench.json("audit", "verify")["ok"] is True
     edited = curves[0].read_bytes().replace(b"Meter", b"Metre")
-    raw_sql(bench.db, "UPDATE replicate_curves SET content = ? WHERE id = 1", edited)
+    tamper(bench.db, "UPDATE replicate_curves SET content = ? WHERE id = 1", edited)
     verify = json.loads(bench("audit", "verify", "--json").stdout)
     assert verify["ok"] is False
     assert any("replicate_curves" in p and "content" in p for p in verify["problems"])
@@ -228,7 +229,7 @@ def test_a_correction_is_checked_against_the_stored_curve(
 def test_the_prompt_reads_a_mass_from_the_balance(
         bench: Cli, balance: SimulatedBalance) -> None:  # noqa: F811
     batch = _make_batch(bench)
-    answers = "b\n39.16\n0.8116\n39.29\n\n"
+    answers = "20\nb\n39.16\n0.8116\n39.29\n\ny\n"  # temperature ... confirmation
     result = bench.ok("standardize", batch, "--lot", "KHP-0001", "--balance", "BAL-1",
                       "--at", _at(-1), user="ben", input=answers)
     assert "read 0.8085 g from balance BAL-1" in result.stdout
@@ -242,7 +243,7 @@ def test_the_prompt_refuses_an_unstable_reading_and_asks_again(
     batch = _make_batch(bench)
     balance.set(mode="unstable")
     result = bench.ok("standardize", batch, "--lot", "KHP-0001", "--balance", "BAL-1",
-                      "--at", _at(-1), user="ben", input="b\n0.8116\n39.29\n\n")
+                      "--at", _at(-1), user="ben", input="20\nb\n0.8116\n39.29\n\ny\n")
     assert "not taken" in result.stdout and "not stable" in result.stdout
     assert _rows(bench.db, "SELECT amount_source FROM replicate_sources") == [("typed",)]
 

@@ -11,7 +11,8 @@ from pathlib import Path
 import pytest
 
 from tests.cli.test_bench_flow import _make_batch, _standardize, bench  # noqa: F401
-from tests.conftest import Cli, raw_sql, row_counts
+from tests.conftest import Cli, row_counts
+from tests.tampering import tamper
 
 MARKUP = "[bold red]ACCEPTED[/] [link=http://x.example]y[/link] x [/]"
 TAGS = '<b>bold</b> <font size="40">BIG</font> <link href="http://x.example">y</link> &amp;'
@@ -49,7 +50,7 @@ def test_escape_sequences_and_control_characters_in_the_record_are_shown_visibly
     """The tool refuses control characters at entry; a record changed behind its back
     (or written by an older version) still cannot move the cursor or clear the screen."""
     batch = _make_batch(bench)
-    raw_sql(bench.db, "UPDATE batches SET notes = ? WHERE code = ?",
+    tamper(bench.db, "UPDATE batches SET notes = ? WHERE code = ?",
             "a\x1b[2J\x1b]8;;http://x\x1b\\b\u202ec\x00d", batch)
     out = bench.ok("batch", "show", batch).stdout
     assert "\x1b" not in out and "\u202e" not in out and "\x00" not in out

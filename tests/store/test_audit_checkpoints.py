@@ -16,13 +16,14 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from sqlalchemy import select, text
+from sqlalchemy import make_url, select, text
 
 from prepbook.errors import InvalidInput, Refused
 from prepbook.store import audit
 from prepbook.store.audit import chain, checkpoints, writing
 from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, AuditHead
+from tests.tampering import guarded_again
 
 from .conftest import add_batch
 from .test_audit import key_file  # noqa: F401  (the lab's audit key, set for the test)
@@ -49,9 +50,16 @@ def _lab(db: Database) -> None:
         add_batch(s, "B-3")
 
 
+def _target(db: Database) -> str:
+    """The database as tests/tampering.py names it (a SQLite file's path, else the URL)."""
+    url = make_url(db.url)
+    return str(url.database) if url.get_backend_name() == "sqlite" else db.url
+
+
 def _sql(db: Database, statement: str, **params: Any) -> None:
-    """Change the database behind prepbook's back, committed at once."""
-    with db.engine.begin() as conn:
+    """Change the database behind prepbook's back, committed at once: the attacker drops
+    the store's guard triggers first and puts them back after (tests/tampering.py)."""
+    with guarded_again(_target(db)), db.engine.begin() as conn:
         conn.execute(text(statement), params)
 
 
@@ -66,7 +74,7 @@ def _rehash(db: Database, key: bytes | None = None, *, keyed_ids: bool = True) -
     documented hashed text (and, when given, the key) can."""
     scheme, digest = chain.hasher(key)
     events = AuditEvent.__table__
-    with db.engine.begin() as conn:
+    with guarded_again(_target(db)), db.engine.begin() as conn:
         rows = list(conn.execute(select(events).order_by(events.c.seq)))
         prev = None
         for r in rows:
@@ -364,7 +372,7 @@ def test_a_bench_clock_set_back_is_refused(db: Database, monkeypatch: pytest.Mon
 def test_an_event_dated_before_its_predecessor_is_named(db: Database) -> None:
     _lab(db)
     earlier = datetime.now(UTC).replace(tzinfo=None) - timedelta(hours=3)
-    with db.engine.begin() as conn:
+    with guarded_again(_target(db)), db.engine.begin() as conn:
         conn.execute(AuditEvent.__table__.update().where(AuditEvent.__table__.c.seq == 3)
                      .values(at=earlier))
     _rehash(db)

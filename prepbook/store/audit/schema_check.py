@@ -49,7 +49,11 @@ def damage_problems(conn: Connection, *, thorough: bool = False) -> list[str]:
     lines: list[str] = []
     # A connection of its own, read-only: SQLite refuses to end a transaction in which a
     # read met a damaged page, and verify's own transaction must end cleanly.
-    own = sqlite3.connect(f"{Path(path).resolve().as_uri()}?mode=ro", uri=True)
+    # (A file opened read-only already names itself as such a URI: see the engine.)
+    from prepbook.store.engine import read_only_uri
+
+    target = path if path.startswith("file:") else read_only_uri(Path(path))
+    own = sqlite3.connect(target, uri=True)
     try:
         for row in own.execute(f"PRAGMA {pragma}"):
             lines.extend(str(row[0]).splitlines())
