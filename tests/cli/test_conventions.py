@@ -5,7 +5,9 @@ from __future__ import annotations
 
 import json
 import logging
+import os
 import sqlite3
+import subprocess
 import sys
 import tomllib
 from importlib.metadata import version
@@ -59,16 +61,23 @@ def test_version_prints_the_installed_distributions_version() -> None:
 
 # Shell completion ----------------------------------------------------------------------
 
+def _own_process(*args: str) -> subprocess.CompletedProcess[str]:
+    """Completion in a process of its own, as a shell runs it: Typer's completion keeps
+    state between in-process runs, which made these tests depend on the ones before."""
+    return subprocess.run([sys.executable, "-m", "prepbook", *args], capture_output=True,
+                          text=True, timeout=120, env=os.environ.copy())
+
+
 def test_completion_script_is_offered_for_bash() -> None:
-    result = run("--show-completion", "bash")
-    assert result.exit_code == 0
+    result = _own_process("--show-completion", "bash")
+    assert result.returncode == 0, result.stderr
     assert "_PREPBOOK_COMPLETE=complete_bash" in result.stdout
     assert "complete " in result.stdout and "prepbook" in result.stdout
 
 
 def test_completion_is_installed_under_home(tmp_path: Path) -> None:
-    result = run("--install-completion", "bash")
-    assert result.exit_code == 0, result.stderr
+    result = _own_process("--install-completion", "bash")
+    assert result.returncode == 0, result.stderr
     home = tmp_path / "home"  # conftest's HOME
     assert "_PREPBOOK_COMPLETE" in (home / ".bash_completions" / "prepbook.sh").read_text()
     assert ".bash_completions/prepbook.sh" in (home / ".bashrc").read_text()
