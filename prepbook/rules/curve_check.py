@@ -3,7 +3,7 @@
 A replicate that carries a curve (a meter's or an automatic titrator's export) is
 checked: the volume entered must lie within the lab's tolerance of an inflection of the
 curve (the nearest one: a two-step curve has an endpoint for each step). A difference
-beyond it is a failed check (a transcription error, or the wrong curve). A volume taken
+beyond it is a failed check (a reading copied wrongly, or the wrong curve). A volume taken
 from the curve itself agrees by construction and is shown as such. Pure: no I/O.
 """
 
