@@ -24,6 +24,7 @@ from prepbook.store import audit, migrate
 from prepbook.store.engine import Database, open_database
 from prepbook.store.models import AuditEvent, Base, Batch, Setting
 from prepbook.store.snapshot import snapshot
+from tests.tampering import guarded_again
 
 from .conftest import add_batch, now
 
@@ -110,7 +111,8 @@ def test_tampering_is_found_on_postgres(pg: Database) -> None:
     with pg.session() as session:
         add_batch(session, "B-1")
         add_batch(session, "B-2")
-    with pg.engine.connect() as conn:  # behind prepbook's back
+    # Behind prepbook's back, the guard triggers dropped first and put back after.
+    with guarded_again(pg.url), pg.engine.connect() as conn:
         conn.execute(text("UPDATE batches SET volume_ml_text = '990' WHERE code = 'B-1'"))
         conn.execute(text("DELETE FROM audit_events WHERE seq = 3"))
         conn.commit()
