@@ -64,19 +64,20 @@ def test_version_prints_the_installed_distributions_version() -> None:
 def _own_process(*args: str) -> subprocess.CompletedProcess[str]:
     """Completion in a process of its own, as a shell runs it: Typer's completion keeps
     state between in-process runs, which made these tests depend on the ones before."""
+    # The shell is named the way a shell names itself to a program it runs: $SHELL.
     return subprocess.run([sys.executable, "-m", "prepbook", *args], capture_output=True,
-                          text=True, timeout=120, env=os.environ.copy())
+                          text=True, timeout=120, env={**os.environ, "SHELL": "/bin/bash"})
 
 
 def test_completion_script_is_offered_for_bash() -> None:
-    result = _own_process("--show-completion", "bash")
+    result = _own_process("--show-completion")
     assert result.returncode == 0, result.stderr
     assert "_PREPBOOK_COMPLETE=complete_bash" in result.stdout
     assert "complete " in result.stdout and "prepbook" in result.stdout
 
 
 def test_completion_is_installed_under_home(tmp_path: Path) -> None:
-    result = _own_process("--install-completion", "bash")
+    result = _own_process("--install-completion")
     assert result.returncode == 0, result.stderr
     home = tmp_path / "home"  # conftest's HOME
     assert "_PREPBOOK_COMPLETE" in (home / ".bash_completions" / "prepbook.sh").read_text()
