@@ -91,9 +91,9 @@ _SERVER_CONNECTIONS: list[Any] = []
 def _hold_server_connections() -> Iterator[None]:
     """On PostgreSQL, keep every server connection the tests open until it is closed here.
 
-    Commands run in-process open a Database and leave it to the garbage collector
-    (a process would simply exit); psycopg then warns that an open connection was
-    collected, which the suite treats as an error. Held here, the connections are
+    A command closes its database when it ends, but a test that calls the services
+    directly may open a Database and leave it to the garbage collector; psycopg then
+    warns that an open connection was collected, which the suite treats as an error. Held here, the connections are
     closed explicitly: those a test opened when it ends, those a module or session
     fixture opened when the session ends. SQLite connections are left alone (a held
     one would keep its WAL from being checkpointed).
@@ -315,12 +315,17 @@ class Cli:
             return
         try:
             db = open_database(str(target))
+        except PrepbookError:
+            return
+        try:
             token = session_files.held(db).get(user)
             info = sessions.describe(db, name=user, token=token) if token else None
             if info is None or not info.live:
                 log_in(db, user, passphrase)
         except PrepbookError:
             return
+        finally:
+            db.dispose()
 
     def ok(self, *args: str, **kw: Any) -> Result:
         result = self(*args, **kw)

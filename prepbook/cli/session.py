@@ -20,10 +20,21 @@ from prepbook.errors import InvalidInput, Refused
 
 
 def database(ctx: typer.Context) -> Any:
-    """The database of this run, which must exist and be current."""
+    """The database of this run, which must exist and be current.
+
+    Opened once per run and closed when the run ends, so a long-lived process that
+    runs many commands (the tests, a shell's completion) keeps no server
+    connections open after each one.
+    """
     from prepbook.lab.database import open_database
 
-    return open_database(invocation(ctx).db)
+    root = ctx.find_root()
+    db = root.meta.get("prepbook.database")
+    if db is None:
+        db = open_database(invocation(ctx).db)
+        root.meta["prepbook.database"] = db
+        root.call_on_close(db.dispose)
+    return db
 
 
 def actor(ctx: typer.Context) -> str:
