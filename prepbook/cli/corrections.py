@@ -17,7 +17,7 @@ if TYPE_CHECKING:
 def correct(
     ctx: typer.Context,
     run: str = typer.Argument(..., metavar="RUN", help="Run code."),
-    replicate: int = typer.Option(
+    replicate_text: str = typer.Option(
         ..., "--replicate", metavar="N", help="Replicate number (from 1)."
     ),
     mass: str = typer.Option(None, "--mass", metavar="G", help="Corrected mass of standard, g."),
@@ -39,6 +39,7 @@ def correct(
     from prepbook.errors import InvalidInput
     from prepbook.lab import runs
 
+    replicate = output.whole(replicate_text, "--replicate", minimum=1)
     if mass is not None and aliquot is not None:
         raise InvalidInput("give --mass (direct) or --aliquot (secondary), not both")
     secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
@@ -51,7 +52,7 @@ def correct(
 def exclude(
     ctx: typer.Context,
     run: str = typer.Argument(..., metavar="RUN", help="Run code."),
-    replicate: int = typer.Option(
+    replicate_text: str = typer.Option(
         ..., "--replicate", metavar="N", help="Replicate number (from 1)."
     ),
     reason: str = typer.Option(..., "--reason", metavar="TEXT", help="Why it is excluded."),
@@ -63,6 +64,7 @@ def exclude(
     """Exclude one replicate (signed, with a reason); the run is recomputed and reviewed again."""
     from prepbook.lab import runs
 
+    replicate = output.whole(replicate_text, "--replicate", minimum=1)
     secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
     res = runs.exclude(database(ctx), actor=actor(ctx), run=run, replicate=replicate,
                        reason=reason, passphrase=secret)

@@ -225,8 +225,8 @@ def simulate_balance(
 def curve(
     ctx: typer.Context,
     run: str = typer.Argument(..., metavar="RUN", help="Run code."),
-    replicate: int = typer.Option(..., "--replicate", metavar="N",
-                                  help="Replicate number (from 1)."),
+    replicate_text: str = typer.Option(..., "--replicate", metavar="N",
+                                       help="Replicate number (from 1)."),
     out: str = typer.Option(..., "-o", "--output", metavar="FILE",
                             help="File to write the stored curve to (not overwritten)."),
 ) -> None:
@@ -236,6 +236,7 @@ def curve(
     from prepbook.errors import InvalidInput
     from prepbook.lab import replicate_curves
 
+    replicate = output.whole(replicate_text, "--replicate", minimum=1)
     content = replicate_curves.load(database(ctx), run, replicate)
     target = Path(out).expanduser()
     try:

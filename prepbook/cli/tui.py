@@ -7,14 +7,16 @@ import typer
 
 def tui(
     ctx: typer.Context,
-    poll: float = typer.Option(
-        3.0, "--poll", metavar="SECONDS", min=0.0,
+    poll_text: str = typer.Option(
+        "3", "--poll", metavar="SECONDS",
         help="Seconds between checks for writes by others (0: never; Ctrl+R reloads)."),
 ) -> None:
     """Open the full-screen app: board, batches, recording, review desk and audit trail."""
     from prepbook.cli.context import invocation
+    from prepbook.inputs import parse_number
     from prepbook.lab.database import open_database
 
+    poll = parse_number(poll_text, "--poll", non_negative=True, maximum=86400).value
     inv = invocation(ctx)
     # Only a --user (or PREPBOOK_USER) actually given is taken; otherwise the app asks.
     given = ctx.find_root().params.get("user")

@@ -25,7 +25,7 @@ from prepbook.inputs import Reading, parse_number, parse_text, utc_now
 from prepbook.lab import impact as impact_rules
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
-from prepbook.lab.common import acting, by_code, lab_zone, work_time, write
+from prepbook.lab.common import acting, by_code, lab_time, lab_zone, work_time, write
 from prepbook.lab.volumes import draw
 from prepbook.store import retry
 from prepbook.store.engine import Database
@@ -266,7 +266,7 @@ def _run_in_force(s: Session, batch: Batch, at: datetime) -> Run:
                     .order_by(Run.performed_at.desc(), Run.id.desc()).limit(1)).first()
     if run is None or run.normality_20c is None:
         raise Refused(f"batch {batch.code} had no accepted standardization before "
-                      f"{at:%Y-%m-%d %H:%M}")
+                      f"{lab_time(s, at)}")
     return run
 
 

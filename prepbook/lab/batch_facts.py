@@ -9,11 +9,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 from datetime import date, datetime
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from prepbook.lab.common import iso
-from prepbook.store.models import Batch, Run, Use
+from prepbook.store.models import Batch, Review, Run, Use
 
 
 def when(value: date | datetime) -> str:
@@ -49,7 +49,10 @@ def impact(s: Session, b: Batch, drift_limit: float) -> tuple[UseNeedingReview, 
     """The uses of ``b`` that need review: made while it was off, or before a drift."""
     from prepbook.rules.impact import RunPoint, UsePoint, uses_needing_review
 
-    runs = [RunPoint(r.code, r.performed_at, r.status, r.normality_20c)
+    revoked = {run_id: at for run_id, at in s.execute(
+        select(Review.run_id, func.max(Review.signed_at)).join(Run)
+        .where(Run.batch_id == b.id, Review.decision == "revoke").group_by(Review.run_id))}
+    runs = [RunPoint(r.code, r.performed_at, r.status, r.normality_20c, revoked.get(r.id))
             for r in s.scalars(select(Run).where(Run.batch_id == b.id))]
     uses = list(s.scalars(select(Use).where(Use.batch_id == b.id).order_by(Use.used_at)))
     flags = uses_needing_review(runs, [UsePoint(u.id, u.used_at) for u in uses], drift_limit)

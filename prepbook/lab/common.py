@@ -371,6 +371,11 @@ def late_after(session: Session) -> timedelta:
     return timedelta(hours=int(setting(session, "late_entry_hours", LATE_AFTER_HOURS)))
 
 
+def lab_time(session: Session, moment: datetime) -> str:
+    """A stored time as the lab reads it in a message: wall-clock time with its offset."""
+    return clock.shown(moment, lab_zone(session))
+
+
 def work_time(db: Database, at: str | None, what: str, *, reason: str | None = None) -> datetime:
     """When the work was done, as the record stores it (naive UTC): ``at`` typed in the
     lab's time zone, else now. Not in the future; entered more than the lab's

@@ -19,6 +19,7 @@ from prepbook.lab.common import (
     acting,
     by_code,
     iso,
+    lab_time,
     signed,
     work_time,
     write,
@@ -312,15 +313,15 @@ def retire(db: Database, *, actor: str, code: str, reason: str | None,
         user = acting(s, actor, RECORDERS, "retire batches")
         b = by_code(s, Batch, code, "batch")
         if b.retired_at is not None:
-            raise Refused(f"batch {b.code} was already retired on {b.retired_at:%Y-%m-%d}")
+            raise Refused(f"batch {b.code} was already retired on {lab_time(s, b.retired_at)}")
         if retired_at < b.made_at:
-            raise InvalidInput(f"the retirement ({retired_at:%Y-%m-%d %H:%M}) cannot be before "
-                               f"the batch was made ({b.made_at:%Y-%m-%d %H:%M})")
+            raise InvalidInput(f"the retirement ({lab_time(s, retired_at)}) cannot be before "
+                               f"the batch was made ({lab_time(s, b.made_at)})")
         last_run = s.scalar(select(func.max(Run.performed_at)).where(Run.batch_id == b.id))
         last_use = s.scalar(select(func.max(Use.used_at)).where(Use.batch_id == b.id))
         for last, what in ((last_run, "standardized"), (last_use, "used")):
             if last is not None and retired_at < last:
-                raise InvalidInput(f"batch {b.code} was {what} on {last:%Y-%m-%d %H:%M}, "
+                raise InvalidInput(f"batch {b.code} was {what} on {lab_time(s, last)}, "
                                    "after that retirement time")
         b.retired_at, b.retired_by, b.retired_reason = retired_at, user.name, reason
         write(s, user.name, "batch.retire", b, reason=reason, performed_at=retired_at)

@@ -24,6 +24,7 @@ from prepbook.lab.common import (
     acting,
     by_code,
     find_by_code,
+    lab_time,
     signed,
     work_time,
     write,
@@ -133,8 +134,8 @@ def review(
     with db.session() as s:
         r = _review_precheck(s, actor, run, accept)
         if signed_at < r.performed_at:
-            raise InvalidInput(f"the review ({signed_at:%Y-%m-%d %H:%M}) cannot be before the "
-                               f"run ({r.performed_at:%Y-%m-%d %H:%M})")
+            raise InvalidInput(f"the review ({lab_time(s, signed_at)}) cannot be before the "
+                               f"run ({lab_time(s, r.performed_at)})")
         decision = "accept" if accept else "reject"
         write(s, actor, f"review.{decision}",
               Review(run_id=r.id, reviewer=actor, decision=decision, reason=reason,

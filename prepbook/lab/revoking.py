@@ -16,7 +16,7 @@ from sqlalchemy.orm import Session
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_text, utc_now
 from prepbook.lab.batch_facts import current_normality, when
-from prepbook.lab.common import REVIEWERS, acting, by_code, signed, work_time, write
+from prepbook.lab.common import REVIEWERS, acting, by_code, lab_time, signed, work_time, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Review, Run
@@ -69,8 +69,8 @@ def revoke(db: Database, *, actor: str, run: str, reason: str | None,
     with db.session() as s:
         r = _precheck(s, actor, run)
         if revoked_at < r.performed_at:
-            raise InvalidInput(f"the revocation ({revoked_at:%Y-%m-%d %H:%M}) cannot be "
-                               f"before the run ({r.performed_at:%Y-%m-%d %H:%M})")
+            raise InvalidInput(f"the revocation ({lab_time(s, revoked_at)}) cannot be "
+                               f"before the run ({lab_time(s, r.performed_at)})")
         write(s, actor, "review.revoke",
               Review(run_id=r.id, reviewer=actor, decision="revoke", reason=reason,
                      signed_at=revoked_at), reason=reason, performed_at=revoked_at)

@@ -39,6 +39,7 @@ from prepbook.lab.common import (
     RECORDERS,
     acting,
     by_code,
+    lab_time,
     lab_zone,
     setting,
     signed,
@@ -319,8 +320,8 @@ def standardize(
         if state in ("expired", "retired"):
             raise Refused(f"batch {b.code} is {state} and cannot be standardized")
         if performed_at < b.made_at:
-            raise InvalidInput(f"the standardization ({performed_at:%Y-%m-%d %H:%M}) cannot be "
-                               f"before the batch was made ({b.made_at:%Y-%m-%d %H:%M})")
+            raise InvalidInput(f"the standardization ({lab_time(s, performed_at)}) cannot be "
+                               f"before the batch was made ({lab_time(s, b.made_at)})")
         balance_row = instrument_of(s, balance, "balance")
         burette_row = instrument_of(s, burette, "burette")
         lot_row: Lot | None = None

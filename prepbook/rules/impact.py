@@ -4,7 +4,8 @@ Pure: plain tuples in, plain tuples out. A use needs review when it was made
 between two accepted standardizations that differ by more than the spec's drift
 limit (the titrant may have been off for any of them), or after the last accepted
 standardization and before a run that was then rejected, or while the result of a
-run that was later revoked stood (from that run to the next accepted one).
+run that was later revoked stood (from that run until it was revoked, or the next
+accepted one if that came first).
 """
 
 from __future__ import annotations
@@ -22,6 +23,7 @@ class RunPoint:
     at: datetime
     status: str  # "accepted" | "rejected" | "awaiting-review" | "revoked"
     normality: float | None
+    revoked_at: datetime | None = None  # when a revoked run's result was withdrawn
 
 
 @dataclass(frozen=True)
@@ -61,8 +63,10 @@ def uses_needing_review(runs: Sequence[RunPoint], uses: Sequence[UsePoint],
             if u.at < rej.at and (since is None or u.at >= since):
                 reasons.setdefault(u.key, why)
     for rev in (r for r in ordered if r.status == "revoked"):
-        after = [a for a in accepted if a.at > rev.at]
-        until = after[0].at if after else None
+        ends = [a.at for a in accepted if a.at > rev.at]
+        if rev.revoked_at is not None:
+            ends.append(rev.revoked_at)
+        until = min(ends) if ends else None
         why = f"made while the result of {rev.code} stood, which was revoked"
         for u in uses:
             if u.at >= rev.at and (until is None or u.at < until):
