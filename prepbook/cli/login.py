@@ -39,9 +39,11 @@ def login(
     if as_json:
         output.emit_json(opened.session)
         return
-    s = opened.session
-    output.console().print(f"logged in as {s.user} ({s.role}) until {s.until} UTC, "
-                           f"or after {s.idle_until} UTC without a write")
+    from prepbook.lab import settings
+
+    s, clk = opened.session, settings.lab_clock(db)
+    output.console().print(f"logged in as {s.user} ({s.role}) until {clk.shown(s.until)}, "
+                           f"or after {clk.shown(s.idle_until)} without a write")
 
 
 def logout(

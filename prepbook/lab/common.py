@@ -198,8 +198,8 @@ def locked_until(session: Session, user: User) -> datetime | None:
     return until if until > utc_now() else None
 
 
-def lockout_line(name: str, failures: int, until: datetime) -> str:
-    return (f"{name} is locked out until {until:%Y-%m-%d %H:%M} UTC after {failures} wrong "
+def lockout_line(session: Session, name: str, failures: int, until: datetime) -> str:
+    return (f"{name} is locked out until {lab_time(session, until)} after {failures} wrong "
             f"passphrases in a row; it ends by itself then, or an admin runs "
             f"`prepbook user unlock {name} --reason TEXT`")
 
@@ -217,7 +217,7 @@ def acting(session: Session, name: str, roles: tuple[str, ...] = RECORDERS,
         raise Refused(f"user {name!r} is disabled")
     until = locked_until(session, user)
     if until is not None:
-        raise Refused(lockout_line(name, user.failed_attempts, until))
+        raise Refused(lockout_line(session, name, user.failed_attempts, until))
     if user.role not in roles:
         raise Refused(f"{name} is a {user.role}; only a {' or '.join(roles)} may {doing}")
     _write_pending_signature(session, user)
@@ -287,8 +287,9 @@ def proven(db: Any, name: str, passphrase: str | None, roles: tuple[str, ...] = 
         write(s, user.name, "auth.failed", user, reason=f"wrong passphrase ({doing})")
         count = user.failed_attempts
         until = locked_until(s, user)
-    if until is not None:
-        raise Refused(f"wrong passphrase for {name}; " + lockout_line(name, count, until))
+        locked = lockout_line(s, name, count, until) if until is not None else None
+    if locked is not None:
+        raise Refused(f"wrong passphrase for {name}; " + locked)
     raise Refused(f"wrong passphrase for {name}")
 
 

@@ -78,3 +78,13 @@ def test_replicate_numbers_take_ascii_digits_only(bench: Cli, counts: Counts) ->
         bench, counts, "instrument", "curve", run, "--replicate", "٢", "-o", "x.csv")
     bench.ok("correct", run, "--replicate", "2", "--volume", "39.30", "--reason", "misread",
              "--passphrase-stdin", user="ben", input="ben-passphrase\n")
+
+
+def test_login_and_lockout_times_are_lab_time(bench: Cli) -> None:  # noqa: F811
+    _set_tokyo(bench)
+    said = bench.ok("login", "ben", "--passphrase-stdin", input="ben-passphrase\n").stdout
+    assert len(TOKYO_TIME.findall(said)) == 2, said
+    for _ in range(5):
+        wrong = bench("login", "ben", "--passphrase-stdin", input="not-bens-passphrase\n")
+        assert wrong.exit_code == 1
+    assert "locked out until" in wrong.stderr and TOKYO_TIME.search(wrong.stderr), wrong.stderr
