@@ -126,7 +126,7 @@ def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings],
         amount = "aliquot (mL)" if run.method == "secondary" else "mass (g)"
         out.print(output.table(None, ["#", "v", amount, "titrant (mL)", "N (eq/L)", ""], rows,
                                right=(0, 1, 2, 3, 4)))
-        render_readings(out, readings.get(run.run))
+        render_readings(out, readings.get(run.run), clk.shown)
         for c in run.checks:
             if not c["passed"]:
                 out.print(f"  {c['severity']}: {output.text(c['message'])}")

@@ -4,6 +4,7 @@ stored titration curve as a plain-text chart with its endpoint marked
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import TYPE_CHECKING, Any
 
 from prepbook.render.curve_text import curve_chart, curve_heading, source_lines
@@ -12,11 +13,13 @@ if TYPE_CHECKING:
     from prepbook.lab.replicate_sources import RunReadings
 
 
-def render_readings(out: Any, readings: RunReadings | None) -> None:
-    """The lines ``batch show`` prints under a run's replicates."""
+def render_readings(out: Any, readings: RunReadings | None,
+                    shown: Callable[[str | None], str]) -> None:
+    """The lines ``batch show`` prints under a run's replicates (``shown``: a stored
+    time in lab time)."""
     if readings is None or not readings.from_instruments:
         return
-    for line in source_lines(readings):
+    for line in source_lines(readings, shown):
         out.print("  " + line, highlight=False, markup=False)
     for c in readings.curves:
         out.print("  " + curve_heading(c), highlight=False, markup=False)

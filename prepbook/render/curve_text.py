@@ -7,6 +7,7 @@ pasted: points are "*", the endpoint's column "|" with "E" on the curve.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
@@ -49,11 +50,12 @@ def curve_chart(curve: RecordedCurve, *, width: int = 60, height: int = 12) -> l
     return lines
 
 
-def source_lines(readings: RunReadings) -> list[str]:
-    """One line per replicate version: where its mass and its volume came from."""
+def source_lines(readings: RunReadings, shown: Callable[[str | None], str]) -> list[str]:
+    """One line per replicate version: where its mass and its volume came from.
+    ``shown`` writes a stored time as the lab reads it (its wall-clock time and offset)."""
     lines = []
     for r in readings.sources:
-        mass = (f"mass read from balance {r.balance} at {r.read_at} UTC, printed as {r.raw!r}"
+        mass = (f"mass read from balance {r.balance} at {shown(r.read_at)}, printed as {r.raw!r}"
                 if r.amount_source == "balance" else "mass typed")
         volume = ("volume from its curve's endpoint" if r.volume_source == "curve"
                   else "volume typed")

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import re
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -99,6 +100,8 @@ def test_masses_read_from_the_balance_are_stored_with_their_raw_line_and_audited
     assert run["status"] == "awaiting-review"
     text = bench.ok("batch", "show", batch).stdout
     assert "1.1: mass read from balance BAL-1" in text and "2.1: mass typed" in text
+    # When it was read, in lab time with its offset, as every other time shown.
+    assert re.search(r"BAL-1 at \d{4}-\d\d-\d\d \d\d:\d\d [+-]\d\d:\d\d, printed as", text), text
     assert bench.json("audit", "verify")["ok"] is True
 
     tamper(bench.db, "UPDATE replicate_sources SET amount_raw = 'S      +0.8090 g' "

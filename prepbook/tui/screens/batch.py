@@ -7,7 +7,7 @@ from typing import TYPE_CHECKING, Any
 
 from rich.console import Group, RenderableType
 from rich.text import Text
-from textual.app import ComposeResult
+from textual.app import App, ComposeResult
 from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.screen import Screen
@@ -24,11 +24,11 @@ if TYPE_CHECKING:
     from prepbook.lab.replicate_sources import RunReadings
 
 
-def readings_block(readings: RunReadings | None) -> list[RenderableType]:
+def readings_block(app: App[Any], readings: RunReadings | None) -> list[RenderableType]:
     """Where a run's readings came from, and its stored curves as text charts."""
     if readings is None or not readings.from_instruments:
         return []
-    lines = ["  " + line for line in source_lines(readings)]
+    lines = ["  " + line for line in source_lines(readings, lambda t: when(app, t))]
     for c in readings.curves:
         lines += ["  " + curve_heading(c), *("    " + line for line in curve_chart(c.curve))]
     return [Text("\n".join(lines))]
@@ -140,7 +140,7 @@ class BatchScreen(Screen[None]):
             parts.append(Text("  none yet: press s to record one"))
         for run in reversed(d.runs):  # newest first
             parts.append(run_block(self.app, run, d.unit))
-            parts.extend(readings_block(self.readings.get(run.run)))
+            parts.extend(readings_block(self.app, self.readings.get(run.run)))
             parts.append(Text(""))
         parts.append(Text(f"uses ({len(d.uses)})", style="bold"))
         if d.uses:
