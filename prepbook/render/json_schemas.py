@@ -105,8 +105,9 @@ DOCUMENTS: dict[str, tuple[str, ...]] = {
     "batch show": (L + "batch_records:BatchRecord",),
     "batch use": (L + "batches:UseRecorded",),
     "batch retire": (L + "history:Retirement",),
-    "audit log": ("list:prepbook.store.audit:LogEntry",),
-    "audit verify": ("prepbook.store.audit:VerifyReport",),
+    # The audit trail's own types, as the service returns them (render reads no storage).
+    "audit log": ("list:" + L + "auditing:audit.LogEntry",),
+    "audit verify": (L + "auditing:audit.VerifyReport",),
     "audit checkpoint": (L + "auditing:CheckpointMade",),
     "settings": ("list:" + L + "settings:SettingValue",),
     "settings show": ("list:" + L + "settings:SettingValue",),
@@ -175,10 +176,14 @@ def commands() -> list[str]:
     return list(DOCUMENTS)
 
 
-def _load(ref: str) -> Any:
+def load(ref: str) -> Any:
+    """The type a ``DOCUMENTS`` reference names: ``module:Name`` (``Name`` may be a
+    dotted path from the module), ``list:module:Name`` for a list of them."""
     many = ref.startswith("list:")
-    module, _, name = ref.removeprefix("list:").partition(":")
-    found = getattr(importlib.import_module(module), name)
+    module, _, path = ref.removeprefix("list:").partition(":")
+    found: Any = importlib.import_module(module)
+    for name in path.split("."):
+        found = getattr(found, name)
     return list[found] if many else found
 
 
@@ -188,12 +193,12 @@ def _bind_checker_names() -> None:
         for ref in refs:
             name = ref.rpartition(":")[2]
             if not hasattr(module, name):
-                setattr(module, name, _load(ref))
+                setattr(module, name, load(ref))
 
 
 def _apply(components: dict[str, Any]) -> None:
     """Every written field required; the ``to_json()`` shapes of ``RESHAPED``."""
-    for name, part in components.items():
+    for part in components.values():
         if "properties" in part:
             part["required"] = list(part["properties"])
     for name, how in RESHAPED.items():
@@ -218,9 +223,9 @@ def schema(command: str) -> dict[str, Any]:
 
     added = ADDED.get(command, {})
     _bind_checker_names()
-    types = [_load(r) for r in (*DOCUMENTS[command], *added.values())]
-    roots, components = msgspec.json.schema_components(types, ref_template="#/$defs/{name}")
-    roots = list(roots)
+    types = [load(r) for r in (*DOCUMENTS[command], *added.values())]
+    made, components = msgspec.json.schema_components(types, ref_template="#/$defs/{name}")
+    roots = list(made)
     if added:
         root = components[roots[0]["$ref"].rsplit("/", 1)[1]]
         extra = roots[-len(added):]
