@@ -18,9 +18,9 @@ def schema(
              "(`batch-show.schema.json`), instead of printing them."),
     replace: bool = typer.Option(False, "--replace", help="Overwrite files that exist."),
 ) -> None:
-    """Print the JSON Schema (draft 2020-12) of a command's --json document; without a
-    command, list the commands that have one. Documents may gain keys in later versions;
-    a key is never renamed or dropped."""
+    """Print the JSON Schema of a command's --json document, or list the commands that
+    have one. The schemas are JSON Schema draft 2020-12; a document may gain keys in a
+    later version, but a key is never renamed or dropped."""
     from pathlib import Path
 
     from prepbook.errors import InvalidInput

@@ -11,7 +11,8 @@ turns the types into JSON Schema; this module then states what the writer adds:
 - a dataclass with a ``to_json()`` writes a different shape: ``RESHAPED`` says how
   (a key renamed, a key left out when empty, a nested document written flat);
 - a few documents are written from a mapping, not a dataclass: their shape is a
-  ``TypedDict`` here (``BatchShown``, ``BalanceRead``, ``ConfigShown``).
+  ``TypedDict`` here (``BalanceRead``, ``ConfigShown``), or the keys added after a
+  dataclass's fields are in ``ADDED`` (`batch show` and its assays).
 
 A document may carry keys a later version adds (new keys are allowed, renames are not:
 DESIGN section 4), so objects are left open to more properties. A number that is not
@@ -21,6 +22,7 @@ finite is written as null (``emit_json``); the services give finite numbers or N
 from __future__ import annotations
 
 import importlib
+import sys
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, TypedDict
@@ -144,8 +146,8 @@ class Reshape:
     dropped: tuple[str, ...] = ()  # fields not written
 
 
-# By component (class) name; tests/cli/test_json_keys_schemas.py validates the documents
-# these classes write against the result.
+# By component (class) name. The documents these classes write are validated against
+# the result wherever the JSON-keys tests read them (tests/cli/conftest.py).
 RESHAPED: dict[str, Reshape] = {
     "Dilution": Reshape(renamed=(("source", "from"),)),
     "Concentration": Reshape(renamed=(("as_formula", "as"),)),
@@ -188,8 +190,11 @@ def load(ref: str) -> Any:
 
 
 def _bind_checker_names() -> None:
+    """Bind the ``CHECKER_NAMES`` of the service modules loaded so far."""
     for module_name, refs in CHECKER_NAMES.items():
-        module = importlib.import_module(module_name)
+        module = sys.modules.get(module_name)
+        if module is None:
+            continue
         for ref in refs:
             name = ref.rpartition(":")[2]
             if not hasattr(module, name):
@@ -222,8 +227,8 @@ def schema(command: str) -> dict[str, Any]:
     import msgspec
 
     added = ADDED.get(command, {})
-    _bind_checker_names()
     types = [load(r) for r in (*DOCUMENTS[command], *added.values())]
+    _bind_checker_names()
     made, components = msgspec.json.schema_components(types, ref_template="#/$defs/{name}")
     roots = list(made)
     if added:
