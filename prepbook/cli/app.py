@@ -80,6 +80,9 @@ COMMANDS: tuple[Entry, ...] = (
     Entry("export", "exports", "export", False,
           "Export one table (units in the column names, ISO 8601 dates, formulas made "
           "inert)."),
+    Entry("schema", "schema", "schema", False,
+          "Print the JSON Schema of a command's --json document, or list the commands "
+          "that have one."),
     Entry("tui", "tui", "tui", False,
           "Open the full-screen app: board, batches, recording, review desk and audit trail."),
     Entry("backup", "maintenance", "backup", False,

@@ -1,23 +1,28 @@
 """Exports: one tidy table per kind of record, for spreadsheets and other tools.
 
-One row per record, one column per field, units in the column names, times in
-ISO 8601 UTC (``...Z``), dates as YYYY-MM-DD. Readings are exported exactly as
-they were typed (text); computed values are the unrounded floats of the record.
+One row per record, one column per field, units in the column names. The rows hold
+typed values for the writer (``prepbook.render.exports``): times as naive UTC
+``datetime`` (written ``...Z`` in CSV; date-time cells in XLSX), dates as ``date``,
+readings as a ``Reading`` (the text exactly as typed, and its number: the text in CSV,
+a number cell shown with the typed decimals in XLSX); computed values are the
+unrounded floats of the record.
 No export holds a credential: the audit export shows a passphrase hash only as its
 fingerprint, as the trail itself keeps it.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
-from datetime import date, datetime, time
+from datetime import datetime, time
+from decimal import Decimal, InvalidOperation
 from typing import Any
 
 from sqlalchemy import select
 from sqlalchemy.orm import aliased
 
 from prepbook.errors import InvalidInput
-from prepbook.inputs import parse_date
+from prepbook.inputs import Reading, parse_date
 from prepbook.store.audit import canonical_json
 from prepbook.store.engine import Database
 from prepbook.store.models import (
@@ -27,6 +32,7 @@ from prepbook.store.models import (
     Instrument,
     Lot,
     Replicate,
+    Review,
     Run,
     Spec,
     Use,
@@ -36,13 +42,16 @@ from prepbook.store.snapshot import decoded_snapshot, secret_columns, without_se
 KINDS = ("batches", "runs", "replicates", "uses", "assays", "audit")
 
 
-def when(value: datetime | None) -> str | None:
-    """A stored (naive UTC) time in ISO 8601 with its zone: 2026-09-12T08:30:00Z."""
-    return None if value is None else value.isoformat() + "Z"
-
-
-def day(value: date | None) -> str | None:
-    return None if value is None else value.isoformat()
+def typed(text: str | None) -> Reading | str | None:
+    """A reading as stored: its text, with the number it reads as (text that is not a
+    plain number, from an older record, stays text)."""
+    if text is None:
+        return None
+    try:
+        value = float(Decimal(text))
+    except (InvalidOperation, ValueError):
+        return text
+    return Reading(text=text, value=value) if math.isfinite(value) else text
 
 
 def _batches(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
@@ -62,15 +71,17 @@ def _batches(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]
             "concentrate_volume_ml", "from_batch", "aliquot_ml", "flask", "balance",
             "theoretical_normality_eq_per_l", "made_at_utc", "recorded_at_utc", "made_by",
             "notes", "expires_date", "retired_at_utc", "retired_by", "retired_reason"]
-    rows = [[b.code, sc, sn, b.method, b.volume_ml_text, b.solute_mass_g_text, lc,
-             b.stock_volume_ml_text, pc, b.aliquot_ml_text, fc, bc, b.theoretical_normality,
-             when(b.made_at), when(b.recorded_at), b.made_by, b.notes, day(b.expires),
-             when(b.retired_at), b.retired_by, b.retired_reason]
+    rows = [[b.code, sc, sn, b.method, typed(b.volume_ml_text), typed(b.solute_mass_g_text),
+             lc, typed(b.stock_volume_ml_text), pc, typed(b.aliquot_ml_text), fc, bc,
+             b.theoretical_normality, b.made_at, b.recorded_at, b.made_by, b.notes, b.expires,
+             b.retired_at, b.retired_by, b.retired_reason]
             for b, sc, sn, lc, pc, fc, bc in s.execute(q)]
     return cols, rows
 
 
 def _runs(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
+    """One row per run; the reviewer, decision and signing time of its latest review
+    (blank while it has none)."""
     ref = aliased(Batch)
     bal = aliased(Instrument)
     bur = aliased(Instrument)
@@ -81,17 +92,26 @@ def _runs(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
          .outerjoin(bal, Run.balance_id == bal.id)
          .outerjoin(bur, Run.burette_id == bur.id)
          .order_by(Run.id))
+    reviews = select(Review).join(Run, Review.run_id == Run.id).order_by(Review.signed_at,
+                                                                           Review.id)
     if since is not None:
         q = q.where(Run.performed_at >= since)
+        reviews = reviews.where(Run.performed_at >= since)
+    latest = {r.run_id: r for r in s.scalars(reviews)}
     cols = ["run", "batch", "method", "status", "lot", "reference_batch", "balance", "burette",
             "temperature_c", "blank_ml", "indicator", "performed_at_utc", "recorded_at_utc",
             "analyst", "normality_eq_per_l", "normality_20c_eq_per_l", "factor",
-            "sd_eq_per_l", "rsd_percent", "u_eq_per_l", "expanded_u_eq_per_l", "k"]
-    rows = [[r.code, bc, r.method, r.status, lc, rc, balc, burc, r.temperature_c_text,
-             r.blank_ml_text, r.indicator, when(r.performed_at), when(r.recorded_at),
-             r.analyst, r.normality, r.normality_20c, r.factor, r.sd, r.rsd_percent, r.u, r.U,
-             r.k]
-            for r, bc, lc, rc, balc, burc in s.execute(q)]
+            "sd_eq_per_l", "rsd_percent", "u_eq_per_l", "expanded_u_eq_per_l", "k",
+            "reviewer", "review_decision", "reviewed_at_utc"]
+    rows = []
+    for r, bc, lc, rc, balc, burc in s.execute(q):
+        review = latest.get(r.id)
+        rows.append([r.code, bc, r.method, r.status, lc, rc, balc, burc,
+                     typed(r.temperature_c_text), typed(r.blank_ml_text), r.indicator,
+                     r.performed_at, r.recorded_at, r.analyst, r.normality, r.normality_20c,
+                     r.factor, r.sd, r.rsd_percent, r.u, r.U, r.k,
+                     review and review.reviewer, review and review.decision,
+                     review and review.signed_at])
     return cols, rows
 
 
@@ -111,9 +131,10 @@ def _replicates(s: Any, since: datetime | None) -> tuple[list[str], list[list[An
             "standard_mass_g", "aliquot_ml", "titrant_volume_ml", "excluded", "reason",
             "supersedes_id", "recorded_at_utc", "recorded_by"]
     rows = [[r.id, rc, bc, r.position, r.version, latest[(r.run_id, r.position)] == r.version,
-             r.amount_text if method == "direct" else None,
-             r.amount_text if method == "secondary" else None, r.volume_ml_text, r.excluded,
-             r.reason, r.supersedes_id, when(r.created_at), r.created_by]
+             typed(r.amount_text) if method == "direct" else None,
+             typed(r.amount_text) if method == "secondary" else None,
+             typed(r.volume_ml_text), r.excluded, r.reason, r.supersedes_id, r.created_at,
+             r.created_by]
             for r, rc, method, bc in found]
     return cols, rows
 
@@ -123,7 +144,7 @@ def _uses(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
     if since is not None:
         q = q.where(Use.used_at >= since)
     cols = ["use_id", "batch", "used_at_utc", "used_by", "volume_ml", "purpose"]
-    rows = [[u.id, bc, when(u.used_at), u.used_by, u.volume_ml_text, u.purpose]
+    rows = [[u.id, bc, u.used_at, u.used_by, typed(u.volume_ml_text), u.purpose]
             for u, bc in s.execute(q)]
     return cols, rows
 
@@ -134,8 +155,8 @@ def _audit(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]:
         q = q.where(AuditEvent.at >= since)
     cols = ["seq", "at_utc", "actor", "action", "record_type", "record_id", "values_json",
             "reason", "performed_at_utc", "prev_hash", "hash"]
-    rows = [[e.seq, when(e.at), e.actor, e.action, e.record_type, e.record_id,
-             _shown_values(e.record_type, e.values), e.reason, when(e.performed_at),
+    rows = [[e.seq, e.at, e.actor, e.action, e.record_type, e.record_id,
+             _shown_values(e.record_type, e.values), e.reason, e.performed_at,
              e.prev_hash, e.hash] for e in s.scalars(q)]
     return cols, rows
 
@@ -157,11 +178,12 @@ def _assays(s: Any, since: datetime | None) -> tuple[list[str], list[list[Any]]]
             "titrant_u_eq_per_l", "result", "result_unit", "sd", "rsd_percent", "u",
             "expanded_u", "k", "limit_low", "limit_high", "performed_at_utc",
             "recorded_at_utc", "analyst", "use_id"]
-    rows = [[a.code, bc, rc, a.sample, a.analyte, a.reaction, a.aliquot_ml_text,
-             a.mass_g_text, ";".join(r.volume_ml_text for r in a.replicates), a.blank_ml_text,
-             a.temperature_c_text, a.titrant_normality_20c, a.titrant_normality, a.titrant_u,
-             a.result, a.result_unit, a.sd, a.rsd_percent, a.u, a.U, a.k, a.limit_low_text,
-             a.limit_high_text, when(a.performed_at), when(a.recorded_at), a.analyst, a.use_id]
+    rows = [[a.code, bc, rc, a.sample, a.analyte, a.reaction, typed(a.aliquot_ml_text),
+             typed(a.mass_g_text), ";".join(r.volume_ml_text for r in a.replicates),
+             typed(a.blank_ml_text), typed(a.temperature_c_text), a.titrant_normality_20c,
+             a.titrant_normality, a.titrant_u, a.result, a.result_unit, a.sd, a.rsd_percent,
+             a.u, a.U, a.k, typed(a.limit_low_text), typed(a.limit_high_text), a.performed_at,
+             a.recorded_at, a.analyst, a.use_id]
             for a, bc, rc in s.execute(q)]
     return cols, rows
 

@@ -10,19 +10,30 @@ Every *text* cell that starts so gets a leading apostrophe in both formats, so
 it is shown as typed and never evaluated; numbers are left as numbers. The
 apostrophe is visible in the cell: the export says exactly what was changed.
 
+Cells keep their type. A reading (``prepbook.inputs.Reading``: a value as typed) is
+its text in CSV and a number in XLSX, shown with as many decimals as were typed
+(``25.10`` is the number 25.1 shown ``25.10``). A time (naive UTC) is ISO 8601 with
+its zone in CSV (``2026-09-12T08:30:00Z``) and a date-time cell in XLSX (the column
+name says ``_utc``); a date is ``YYYY-MM-DD`` in CSV and a date cell in XLSX.
+
 pandas (and openpyxl for XLSX) are imported inside the functions.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
+from datetime import date, datetime
+from decimal import Decimal
 from pathlib import Path
 from typing import Any
 
 from prepbook.errors import InvalidInput
+from prepbook.inputs import Reading
 
 FORMATS = ("csv", "xlsx")
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+XLSX_TIME = "yyyy-mm-dd hh:mm:ss"
+XLSX_DATE = "yyyy-mm-dd"
 
 
 def neutralise(value: Any) -> Any:
@@ -54,7 +65,8 @@ def write_table(path: Path, fmt: str, sheet: str, columns: Sequence[str],
     from prepbook.render import files
 
     check_format(path, fmt)
-    df = frame(columns, rows)
+    df = frame(columns, [[_csv_cell(v) if fmt == "csv" else _xlsx_cell(v) for v in row]
+                         for row in rows])
     with files.staged(path, replace=replace) as (tmp, commit):
         try:
             if fmt == "csv":
@@ -63,7 +75,7 @@ def write_table(path: Path, fmt: str, sheet: str, columns: Sequence[str],
                 exact = df.map(_exact)
                 exact.to_csv(tmp, index=False, encoding="utf-8", lineterminator="\n")
             else:
-                _write_xlsx(df, tmp, sheet)
+                _write_xlsx(df, tmp, sheet, _number_formats(rows))
         except OSError as exc:
             raise InvalidInput(f"cannot write {path}: {exc.strerror or exc}") from None
         commit()
@@ -76,10 +88,41 @@ def _exact(value: Any) -> Any:
     return value
 
 
-def _write_xlsx(df: Any, tmp: Path, sheet: str) -> None:
+def _csv_cell(value: Any) -> Any:
+    if isinstance(value, Reading):
+        return value.text
+    if isinstance(value, datetime):
+        return value.isoformat() + "Z"
+    if isinstance(value, date):
+        return value.isoformat()
+    return value
+
+
+def _xlsx_cell(value: Any) -> Any:
+    return value.value if isinstance(value, Reading) else value
+
+
+def _number_formats(rows: Sequence[Sequence[Any]]) -> dict[tuple[int, int], str]:
+    """The display format of each cell that needs one, by (row, column) from 0: a
+    reading with its typed decimals, a time, a date."""
+    found: dict[tuple[int, int], str] = {}
+    for i, row in enumerate(rows):
+        for j, value in enumerate(row):
+            if isinstance(value, Reading):
+                places = -int(Decimal(value.text).as_tuple().exponent)
+                found[i, j] = "0." + "0" * places if places > 0 else "0"
+            elif isinstance(value, datetime):
+                found[i, j] = XLSX_TIME
+            elif isinstance(value, date):
+                found[i, j] = XLSX_DATE
+    return found
+
+
+def _write_xlsx(df: Any, tmp: Path, sheet: str, formats: dict[tuple[int, int], str]) -> None:
     import pandas as pd
 
-    with pd.ExcelWriter(tmp, engine="openpyxl") as writer:
+    with pd.ExcelWriter(tmp, engine="openpyxl", datetime_format=XLSX_TIME,
+                        date_format=XLSX_DATE) as writer:
         df.to_excel(writer, sheet_name=sheet[:31], index=False)
         ws = writer.sheets[sheet[:31]]
         ws.freeze_panes = "A2"
@@ -89,6 +132,8 @@ def _write_xlsx(df: Any, tmp: Path, sheet: str) -> None:
                 # every string cell is stored as text (neutralise() already made it inert).
                 if isinstance(cell.value, str):
                     cell.data_type = "s"
+        for (i, j), shown in formats.items():
+            ws.cell(row=i + 2, column=j + 1).number_format = shown
         for i, name in enumerate(df.columns, start=1):
             width = max([len(str(name))] + [len(str(v)) for v in df.iloc[:200, i - 1]])
             ws.column_dimensions[ws.cell(row=1, column=i).column_letter].width = \

@@ -73,10 +73,11 @@ def test_runs_export_has_the_database_rows_and_unrounded_values(lab: Cli, tmp_pa
         for column, stored in (("normality_eq_per_l", n), ("factor", f),
                                ("rsd_percent", rsd), ("expanded_u_eq_per_l", big_u)):
             assert float(row[column]) == pytest.approx(stored, rel=rel, abs=0), column
-        # ISO 8601 with the zone: the stored naive UTC time plus "Z".
-        assert str(row["performed_at_utc"]).endswith("Z")
-        assert datetime.fromisoformat(str(row["performed_at_utc"])[:-1]) == \
-            datetime.fromisoformat(at)
+        # CSV: ISO 8601 with the zone, the stored naive UTC time plus "Z"; XLSX: a
+        # date-time cell holding the stored time (tests/render/test_exports_cells.py).
+        stamp = str(row["performed_at_utc"])
+        assert stamp.endswith("Z") if fmt == "csv" else not stamp.endswith("Z")
+        assert datetime.fromisoformat(stamp.removesuffix("Z")) == datetime.fromisoformat(at)
     assert "normality_eq_per_l" in df.columns and "temperature_c" in df.columns
 
 
@@ -102,7 +103,9 @@ def test_every_export_has_one_row_per_record(lab: Cli, tmp_path: Path, fmt: str)
         df = _read(out, fmt)
         assert len(df) == counts[tables[kind]], kind
         stamps = [c for c in df.columns if c.endswith("_utc")]
-        assert stamps and all(v == "" or (v.endswith("Z") and "T" in v)
+        zone = "Z" if fmt == "csv" else ""  # XLSX: date-time cells, UTC by their name
+        assert stamps and all(v == "" or (v.endswith(zone) and "-" in v and ":" in v
+                                          and datetime.fromisoformat(v.removesuffix(zone)))
                               for c in stamps for v in df[c]), kind
 
 
