@@ -414,7 +414,7 @@ def _try(data: LabelContent, size: LabelSize, art: _Art, tier: int, font: float,
                     text_boxes=geo.text_boxes, text_heights_pt=tuple(used),
                     qr_box=(geo.qr_x, sy + sh - geo.qr_side, geo.qr_side, geo.qr_side),
                     side_box=geo.side_box, code_pt=geo.code_pt, code_lines=geo.code_lines,
-                    bar_h=geo.bar_h, pictograms=codes, pictogram_side_mm=art.side / MM,
+                    bar_h=geo.bar_h, pictograms=codes, pictogram_side_mm=round(art.side / MM, 6),
                     place=place, code_top=geo.code_top)
     return None
 
@@ -463,8 +463,11 @@ def layout(data: LabelContent, size: LabelSize) -> LabelLayout:
     everything fits; InvalidInput if nothing does."""
     lay = _fitted(data, size)
     if lay is None:
-        raise InvalidInput(f"the label text for {data.code} does not fit on {size.name} even "
-                           f"at {MIN_FONT_PT} pt; choose a larger --size")
+        _, _, named = hazard_words(data.hazard)
+        marks = (f" and its {len(named)} GHS pictogram{'s' if len(named) > 1 else ''} "
+                 f"({pictograms.SIDES_MM[-1]:g} mm)" if named else "")
+        raise InvalidInput(f"the label text for {data.code}{marks} does not fit on "
+                           f"{size.name} even at {MIN_FONT_PT} pt; choose a larger --size")
     notes: list[str] = []
     full = pictograms.SIDES_MM[0]
     if lay.pictograms and lay.pictogram_side_mm < full - 1e-6:
