@@ -349,8 +349,9 @@ class _Geometry:
 
 
 QR_SHARES = (0.5, 0.42)  # of the label's inner height, tried in turn
-# Where the pictograms go, tried in turn: under the signal word, or left of the QR code
-PLACES = ("under", "beside")
+# Where the pictograms go, tried in turn: under the signal word (in two staggered rows,
+# or in one row), or left of the QR code
+PLACES = ("under", "under in a row", "beside")
 
 
 def _geometry(size: LabelSize, code: str, signal: str | None, font: float,
@@ -365,7 +366,8 @@ def _geometry(size: LabelSize, code: str, signal: str | None, font: float,
     inner_h = h - 2 * margin
     # The QR code stays at least 10 mm across (about 0.4 mm a module for a batch code).
     qr = max(10 * MM, min(26 * MM, inner_h * qr_share, w * 0.28))
-    group_w, group_h, spots = pictograms.places(len(codes), side_pt)
+    group_w, group_h, spots = pictograms.places(len(codes), side_pt,
+                                                one_row=place == "under in a row")
     beside_qr = place == "beside" and bool(codes)
     side_w = qr + group_w + 0.8 * MM if beside_qr else max(qr, group_w)
     code_pt, lines = code_lines(code, side_w, max(MIN_FONT_PT, min(font, 7.0)))

@@ -7,7 +7,7 @@ symbols (exploding bomb, flame, flame over circle, gas cylinder, corrosion, skul
 crossbones, exclamation mark, health hazard, environment), drawn in a unit square so
 they scale to any size.
 
-``places`` groups a label's pictograms (one alone, else two staggered rows); the
+``places`` groups a label's pictograms (in a row, or two staggered rows); the
 label layout puts the group under the signal word and shrinks it, down to
 ``SIDES_MM[-1]``, only when a small stock must.
 
@@ -212,15 +212,17 @@ def draw(canvas: Any, code: str, x: float, y: float, side: float, *,
     canvas.restoreState()
 
 
-def places(count: int, side: float) -> tuple[float, float, list[tuple[float, float]]]:
+def places(count: int, side: float, *,
+           one_row: bool = False) -> tuple[float, float, list[tuple[float, float]]]:
     """Width, height and the lower-left corners (from the group's top left, so y is
-    negative) of ``count`` pictograms of square ``side``: one alone, else two staggered
-    rows, the second nested between the first row's points."""
+    negative) of ``count`` pictograms of square ``side``: in one row, or (from two on,
+    unless ``one_row``) in two staggered rows, the second nested between the first's
+    points."""
     if count == 0:
         return 0.0, 0.0, []
     d = side * math.sqrt(2)
-    if count == 1:
-        return d, d, [(0.0, -d)]
+    if count == 1 or one_row:
+        return count * d, d, [(i * d, -d) for i in range(count)]
     top = math.ceil(count / 2)
     spots = [(i * d, -d) for i in range(top)]
     spots += [(d / 2 + i * d, -1.5 * d) for i in range(count - top)]

@@ -13,6 +13,7 @@ import io
 import math
 import re
 from typing import Any
+from xml.etree import ElementTree
 
 import numpy as np
 import pypdfium2 as pdfium
@@ -119,7 +120,8 @@ def test_a_lot_with_five_pictograms_fits_every_size(size: str) -> None:
     most = max((m for m in loader.materials() if m.hazard),
                key=lambda m: len(m.hazard.pictograms) if m.hazard else 0)
     assert most.hazard is not None
-    lot = replace(LOT, hazard=Hazard(signal_word=most.hazard.signal_word,
+    lot = replace(LOT, name=most.name, material=most.code, formula=most.formula,
+                  hazard=Hazard(signal_word=most.hazard.signal_word,
                                      statements=list(most.hazard.statements),
                                      pictograms=list(most.hazard.pictograms)))
     pdf, lay = labels.label_pdf(lot, sizes.SIZES[size])
@@ -181,11 +183,10 @@ def assert_pdf_a(pdf: bytes, title: str) -> None:
     reader = PdfReader(io.BytesIO(pdf))
     xmp = reader.xmp_metadata
     assert xmp is not None
-    assert xmp.custom_properties.get("pdfaid:part") == "2" or \
-        'pdfaid:part>2<' in xmp.stream.get_data().decode()
-    raw = xmp.stream.get_data().decode()
-    assert "<pdfaid:part>2</pdfaid:part>" in raw
-    assert "<pdfaid:conformance>B</pdfaid:conformance>" in raw
+    pdfaid = "{http://www.aiim.org/pdfa/ns/id/}"
+    root = ElementTree.fromstring(xmp.stream.get_data())
+    assert [e.text for e in root.iter(f"{pdfaid}part")] == ["2"]
+    assert [e.text for e in root.iter(f"{pdfaid}conformance")] == ["B"]
     assert xmp.dc_title == {"x-default": title} and reader.metadata.title == title
     intents = reader.trailer["/Root"]["/OutputIntents"]
     assert len(intents) == 1
