@@ -25,12 +25,12 @@ from typing import Any
 from prepbook.errors import InvalidInput
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel
 from prepbook.render import archival, pictograms
-from prepbook.render.label_side import code_lines, draw_side
+from prepbook.render.label_geometry import MIN_FONT_PT, PLACES, QR_SHARES, Geometry, geometry
+from prepbook.render.label_side import draw_side
 from prepbook.render.numbers import significant
 from prepbook.render.sizes import MM, LabelSize, Sheet, grid
 from prepbook.text import for_pdf
 
-MIN_FONT_PT = 4.25  # smallest body text (a line about 1.75 mm): common practice, no source
 MAX_FONT_PT = 9.0
 STEP_PT = 0.25
 TITLE_SCALE = 1.35
@@ -277,14 +277,6 @@ def _gap_before(line: Line, previous: Line | None, font: float) -> float:
     return 0.0
 
 
-@dataclass(frozen=True)
-class _Art:
-    """How the pictograms are drawn: the side of their square and the border colour."""
-
-    side: float
-    colour: bool = True
-
-
 def _paragraphs(lines: list[Line], font: float, tier: int) -> list[Any]:
     from reportlab.platypus import Spacer
 
@@ -300,7 +292,7 @@ def _paragraphs(lines: list[Line], font: float, tier: int) -> list[Any]:
     return story
 
 
-def _frames(geo: _Geometry) -> list[Any]:
+def _frames(geo: Geometry) -> list[Any]:
     from reportlab.platypus import Frame
 
     return [Frame(x, y, w, h, leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0,
@@ -308,7 +300,7 @@ def _frames(geo: _Geometry) -> list[Any]:
             for x, y, w, h in geo.text_boxes if h > 0.5 and w > 0.5]
 
 
-def _flow(canvas: Any, lines: list[Line], geo: _Geometry, font: float,
+def _flow(canvas: Any, lines: list[Line], geo: Geometry, font: float,
           tier: int) -> list[float] | None:
     """Flow the text into the frames on ``canvas``; the height used in each frame, or
     None when some text is left over (it does not fit)."""
@@ -332,82 +324,18 @@ def _fill(frame: Any, story: list[Any], canvas: Any) -> None:
         return
 
 
-@dataclass(frozen=True)
-class _Geometry:
-    margin: float
-    text_boxes: tuple[tuple[float, float, float, float], ...]  # beside the side column, below
-    side_box: tuple[float, float, float, float]  # QR code, code and signal word
-    qr_side: float
-    code_pt: float
-    code_lines: tuple[str, ...]
-    bar_h: float
-    # Lower left corners of the pictograms, under the side box; and whether all fits
-    spots: tuple[tuple[float, float], ...] = ()
-    fits: bool = True
-    qr_x: float = 0.0
-    code_top: float = 0.0  # the code's lines hang from here (under the QR code or the group)
-
-
-QR_SHARES = (0.5, 0.42)  # of the label's inner height, tried in turn
-# Where the pictograms go, tried in turn: under the signal word (in two staggered rows,
-# or in one row), or left of the QR code
-PLACES = ("under", "under in a row", "beside")
-
-
-def _geometry(size: LabelSize, code: str, signal: str | None, font: float,
-              tier: int = 0, qr_share: float = QR_SHARES[0], codes: tuple[str, ...] = (),
-              side_pt: float = 0.0, place: str = PLACES[0]) -> _Geometry:
-    """Where things go: the side column (QR, code, signal word, the GHS pictograms under
-    them or left of the QR code) at the top right, the text beside it and then across
-    the full width below it."""
-    w, h = size.width_pt, size.height_pt
-    margin = max(1.2 * MM, min(3 * MM, h * 0.05))
-    gutter = max(1.2 * MM, w * 0.02)
-    inner_h = h - 2 * margin
-    # The QR code stays at least 10 mm across (about 0.4 mm a module for a batch code).
-    qr = max(10 * MM, min(26 * MM, inner_h * qr_share, w * 0.28))
-    group_w, group_h, spots = pictograms.places(len(codes), side_pt,
-                                                one_row=place == "under in a row")
-    beside_qr = place == "beside" and bool(codes)
-    side_w = qr + group_w + 0.8 * MM if beside_qr else max(qr, group_w)
-    code_pt, lines = code_lines(code, side_w, max(MIN_FONT_PT, min(font, 7.0)))
-    bar_h = max(font * (1.9 if tier < 2 else 1.6), 6.0) if signal else 0.0
-    bar_h = min(bar_h, 4 * MM)
-    top_h = max(qr, group_h) if beside_qr else qr
-    upper_h = top_h + code_pt * (0.3 + 1.2 * len(lines)) + \
-        (bar_h + code_pt * 0.4 if signal else 0.0)
-    lower_h = group_h + 0.8 * MM if codes and not beside_qr else 0.0
-    side_h = upper_h + lower_h
-    top = h - margin
-    sx = w - margin - side_w
-    side = (sx, top - upper_h, side_w, upper_h)
-    beside = (margin, top - side_h, w - 2 * margin - side_w - gutter, side_h)
-    below_h = inner_h - side_h - gutter * 0.6
-    below = (margin, margin, w - 2 * margin, max(0.0, below_h))
-    if beside_qr:
-        left, group_top, qr_x = sx, top, sx + side_w - qr
-    else:
-        left, group_top, qr_x = sx + (side_w - group_w) / 2, top - upper_h - 0.8 * MM, \
-            sx + (side_w - qr) / 2
-    return _Geometry(margin=margin, text_boxes=(beside, below), side_box=side, qr_side=qr,
-                     code_pt=code_pt, code_lines=lines, bar_h=bar_h,
-                     spots=tuple((left + x, group_top + y) for x, y in spots),
-                     fits=side_h <= inner_h + 1e-6, qr_x=qr_x, code_top=top - top_h)
-
-
 TRADE = 0.85  # larger pictograms are worth at most this share of the text size
 
 
-def _try(data: LabelContent, size: LabelSize, art: _Art, tier: int, font: float,
+def _try(data: LabelContent, size: LabelSize, side: float, tier: int, font: float,
          scratch: Any) -> LabelLayout | None:
-    """The layout at ``font`` and ``tier`` with pictograms of ``art.side``, if it fits."""
+    """The layout at ``font`` and ``tier`` with pictograms of ``side``, if it fits."""
     signal, _, named = hazard_words(data.hazard)
     codes = tuple(pictograms.code_of(p) for p in named)
     lines = lines_for(data, tier)
     for place in PLACES if codes else PLACES[:1]:
         for share in QR_SHARES:
-            geo = _geometry(size, data.code, signal, font, tier, share, codes, art.side,
-                            place)
+            geo = geometry(size, data.code, signal, font, tier, share, codes, side, place)
             used = _flow(scratch, lines, geo, font, tier) if geo.fits else None
             if used is not None:
                 _, sy, _, sh = geo.side_box
@@ -416,24 +344,25 @@ def _try(data: LabelContent, size: LabelSize, art: _Art, tier: int, font: float,
                     text_boxes=geo.text_boxes, text_heights_pt=tuple(used),
                     qr_box=(geo.qr_x, sy + sh - geo.qr_side, geo.qr_side, geo.qr_side),
                     side_box=geo.side_box, code_pt=geo.code_pt, code_lines=geo.code_lines,
-                    bar_h=geo.bar_h, pictograms=codes, pictogram_side_mm=round(art.side / MM, 6),
+                    bar_h=geo.bar_h, pictograms=codes,
+                    pictogram_side_mm=round(side / MM, 6),
                     place=place, code_top=geo.code_top)
     return None
 
 
-def _largest(data: LabelContent, size: LabelSize, art: _Art, tier: int, floor: float,
+def _largest(data: LabelContent, size: LabelSize, side: float, tier: int, floor: float,
              scratch: Any) -> LabelLayout | None:
     """The largest font from ``MAX_FONT_PT`` down to ``floor`` (in steps) that fits, by
     bisection: a smaller font never needs more room."""
     steps = int(round((MAX_FONT_PT - floor) / STEP_PT))
     fonts = [round(MAX_FONT_PT - k * STEP_PT, 4) for k in range(steps + 1)]
-    best = _try(data, size, art, tier, fonts[-1], scratch)
+    best = _try(data, size, side, tier, fonts[-1], scratch)
     if best is None:
         return None
     lo, hi = 0, len(fonts) - 1  # fonts[hi] fits; find the first that fits
     while lo < hi:
         mid = (lo + hi) // 2
-        found = _try(data, size, art, tier, fonts[mid], scratch)
+        found = _try(data, size, side, tier, fonts[mid], scratch)
         if found is not None:
             best, hi = found, mid
         else:
@@ -453,7 +382,7 @@ def _fitted(data: LabelContent, size: LabelSize) -> LabelLayout | None:
     # Pack harder before shrinking the text to its smallest: each tier has a floor.
     for tier, floor in ((0, MIN_FONT_PT + 0.75), (1, MIN_FONT_PT + 0.25), (2, MIN_FONT_PT)):
         found = [lay for side in sides
-                 if (lay := _largest(data, size, _Art(side * MM), tier, floor, scratch))]
+                 if (lay := _largest(data, size, side * MM, tier, floor, scratch))]
         if found:
             top = max(lay.font_pt for lay in found)
             return next(lay for lay in found if lay.font_pt >= TRADE * top - 1e-9)
@@ -497,7 +426,7 @@ def _draw_label(canvas: Any, data: LabelContent, lay: LabelLayout, x: float, y: 
         canvas.setDash()
     signal, _, _ = hazard_words(data.hazard)
     side = lay.pictogram_side_mm * MM
-    geo = _geometry(size, data.code, signal, lay.font_pt, lay.tier, lay.qr_share,
+    geo = geometry(size, data.code, signal, lay.font_pt, lay.tier, lay.qr_share,
                     lay.pictograms, side, lay.place)
     _flow(canvas, lines_for(data, lay.tier), geo, lay.font_pt, lay.tier)
     draw_side(canvas, data.code, signal, qr_box=lay.qr_box, side_box=lay.side_box,

@@ -20,7 +20,6 @@ import math
 from collections.abc import Callable
 from typing import Any
 
-
 # Side of the pictogram's square, tried in turn: 10 mm is the least the EU CLP (Annex I,
 # 1.2.1, table 1.3) asks for packages up to 3 L; smaller only when a small stock must.
 SIDES_MM = (10.0, 8.5, 7.0, 6.0, 5.0)
