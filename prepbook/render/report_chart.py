@@ -9,7 +9,6 @@ from datetime import date, datetime
 from typing import TYPE_CHECKING, Any
 
 from prepbook.render import archival
-from prepbook.render.numbers import significant
 
 if TYPE_CHECKING:
     from prepbook.devices.records import RecordedCurve
@@ -122,9 +121,9 @@ def control_chart(data: ReportData, width: float, *, detail: bool = False) -> An
         lo, hi = plot.yValueAxis.valueMin, plot.yValueAxis.valueMax
         return plot.y + (v - lo) / (hi - lo) * plot.height
 
-    for v, text in ((high, f"upper {significant(high, 4)} (factor {win.factor_high:g})"),
+    for v, text in ((high, f"upper {high:.{places + 1}f} (factor {win.factor_high:g})"),
                     (win.nominal, f"nominal {win.nominal:g}"),
-                    (low, f"lower {significant(low, 4)} (factor {win.factor_low:g})")):
+                    (low, f"lower {low:.{places + 1}f} (factor {win.factor_low:g})")):
         if shown(v):
             drawing.add(String(right, y_of(v) - 2.5, text, fontName=archival.REGULAR, fontSize=6.5))
     caption = (f"detail: the axis spans the results only; concentration at 20 °C ({unit})"
