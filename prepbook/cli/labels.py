@@ -18,14 +18,15 @@ if TYPE_CHECKING:
 
 def print_label(db: Database, *, actor: str, code: str, output: str | None = None,
                 size: str | None = None, copies: int = 1, sheet: str | None = None,
-                lot: bool = False, replace: bool = False) -> LabelPrinted:
+                lot: bool = False, replace: bool = False,
+                colour: bool = True) -> LabelPrinted:
     """Draw the PDF label of a batch (or, with ``lot``, of a lot), write it to ``output``
     (default label-CODE.pdf) and record the print."""
     from prepbook.lab import labels
     from prepbook.render.label_files import label_job
 
     job = label_job(output, labels.default_file_name(code), size=size, copies=copies,
-                    sheet=sheet, replace=replace)
+                    sheet=sheet, replace=replace, colour=colour)
     return labels.print_label(db, actor=actor, code=code, size=job.size.name,
                               sheet=job.sheet_name, copies=copies, file=job.file,
                               deliver=job.deliver, lot=lot)
@@ -50,6 +51,13 @@ def label(
     replace: bool = typer.Option(False, "--replace", help="Overwrite the PDF if it exists."),
     stale: bool = typer.Option(False, "--stale", help="List bottles whose label no longer "
                                "matches the current factor or dates (prints nothing)."),
+    send: bool = typer.Option(False, "--print", help="Also send the PDF to the default "
+                              "printer (lp or lpr; Windows: its print verb)."),
+    printer: str = typer.Option(None, "--printer", metavar="NAME", help="The printer for "
+                                "--print (default: the system's default).", show_default=False),
+    black_border: bool = typer.Option(False, "--black-border", help="Draw the GHS "
+                                      "pictograms with a black border (printers without "
+                                      "colour)."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """Print a bottle label as PDF (recorded), or list outdated labels with --stale."""
@@ -78,9 +86,18 @@ def label(
         return
     if code is None:
         raise InvalidInput("give a batch code (or a lot code with --lot), or --stale")
+    if printer is not None and not send:
+        raise InvalidInput("--printer names the printer for --print; give --print too")
+    from pathlib import Path
+
+    from prepbook.render import printing
+
+    if send:  # no print command: say so before anything is written or recorded
+        printing.check(printer)
     res = print_label(database(ctx), actor=actor(ctx), code=code, output=out_file, size=size,
                       copies=output.whole(copies, "--copies", 1), sheet=sheet, lot=lot,
-                      replace=replace)
+                      replace=replace, colour=not black_border)
+    queued = printing.send(Path(res.file), printer) if send else None
     if as_json:
         output.emit_json(res)
         return
@@ -92,3 +109,5 @@ def label(
               f"{shows}) written to {output.escape(res.file)}")
     for note in res.notes:
         out.print(f"note: {output.escape(note)}")
+    if queued is not None:
+        out.print(f"printing: {output.escape(queued)}")

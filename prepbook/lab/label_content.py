@@ -28,7 +28,9 @@ class Standing:
     normality: float | None
     factor: float | None
     concentration: float | None
-    standardized_on: str | None
+    standardized_on: str | None  # the lab's date of the accepted run
+    standardized_by: str | None  # who recorded the accepted run
+    reviewed_by: str | None  # who accepted it on review (None: accepted without one)
     restandardize_by: str | None
     expires: str | None
 

@@ -125,15 +125,22 @@ def _current(session: Session, batch: Batch, today: date) -> tuple[Standing, int
     n20, run = current_normality(session, batch)
     if run is None:
         return Standing(state=life.state, run=None, normality=n20, factor=None,
-                        concentration=None, standardized_on=None,
-                        restandardize_by=life.restandardize_by,
+                        concentration=None, standardized_on=None, standardized_by=None,
+                        reviewed_by=None, restandardize_by=life.restandardize_by,
                         expires=life.expires), None
     nominal = spec_view.view(batch.spec).nominal
     return Standing(
         state=life.state, run=run.code, normality=n20, factor=run.factor,
         concentration=nominal * run.factor if run.factor else None,
         standardized_on=clock.local_date(run.performed_at, lab_zone(session)).isoformat(),
+        standardized_by=run.analyst, reviewed_by=_accepted_by(run),
         restandardize_by=life.restandardize_by, expires=life.expires), run.id
+
+
+def _accepted_by(run: Run) -> str | None:
+    """Who accepted ``run`` on review: the latest "accept" among its reviews."""
+    accepts = [r.reviewer for r in run.reviews if r.decision == "accept"]
+    return accepts[-1] if accepts else None
 
 
 def _batch_content(batch: Batch, now: Standing, actor: str, today: date,

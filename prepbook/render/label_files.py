@@ -29,6 +29,7 @@ class LabelJob:
     copies: int
     target: Path
     replace: bool
+    colour: bool = True  # False: the pictograms' borders black, for printers without colour
 
     @property
     def file(self) -> str:
@@ -44,7 +45,7 @@ class LabelJob:
         from prepbook.render import labels as drawing
 
         pdf, layout = drawing.label_pdf(content, self.size, copies=self.copies,
-                                        sheet=self.sheet)
+                                        sheet=self.sheet, colour=self.colour)
         with files.staged(self.target, replace=self.replace) as (tmp, commit):
             tmp.write_bytes(pdf)
             record()
@@ -53,7 +54,8 @@ class LabelJob:
 
 
 def label_job(output: str | None, default_name: str, *, size: str | None = None,
-              copies: int = 1, sheet: str | None = None, replace: bool = False) -> LabelJob:
+              copies: int = 1, sheet: str | None = None, replace: bool = False,
+              colour: bool = True) -> LabelJob:
     """Check the stock, sheet and target file of a label print before anything is drawn."""
     target = Path(output) if output else Path(default_name)
     if target.suffix.lower() != ".pdf":
@@ -61,4 +63,4 @@ def label_job(output: str | None, default_name: str, *, size: str | None = None,
     files.check_target(target, replace=replace)
     return LabelJob(size=sizes.find_size(size or sizes.DEFAULT_SIZE),
                     sheet=sizes.find_sheet(sheet) if sheet else None,
-                    copies=copies, target=target, replace=replace)
+                    copies=copies, target=target, replace=replace, colour=colour)

@@ -3,8 +3,9 @@
 The layout is prepbook's own: a text column on the left that carries the identity,
 strength and dates of what is in the bottle, and a narrow column on the right with a QR
 code of the bottle's code, the code in print under it, and the hazard signal word in white
-on a black bar. Everything is black on white so it survives a monochrome thermal or laser
-printer; nothing depends on colour.
+on a black bar. The GHS pictograms are drawn as red-bordered diamonds beside the hazard
+statements (``pictograms``); everything else is black on white, and nothing depends on
+colour (a black border is offered for printers without colour).
 
 The text never overflows its box: the layout tries font sizes from large to
 ``MIN_FONT_PT`` and, if it still does not fit, packs the dates into one running paragraph
@@ -17,16 +18,19 @@ reportlab and qrcode are imported only inside the functions that draw.
 from __future__ import annotations
 
 import io
-from dataclasses import dataclass, field
+import re
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 from prepbook.errors import InvalidInput
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel
+from prepbook.render import archival, pictograms
+from prepbook.render.label_geometry import MIN_FONT_PT, PLACES, QR_SHARES, Geometry, geometry
+from prepbook.render.label_side import draw_side
 from prepbook.render.numbers import significant
 from prepbook.render.sizes import MM, LabelSize, Sheet, grid
 from prepbook.text import for_pdf
 
-MIN_FONT_PT = 4.25  # smallest body text (a line about 1.75 mm): common practice, no source
 MAX_FONT_PT = 9.0
 STEP_PT = 0.25
 TITLE_SCALE = 1.35
@@ -73,6 +77,10 @@ class LabelLayout:
     code_lines: tuple[str, ...]
     bar_h: float
     notes: tuple[str, ...] = field(default_factory=tuple)
+    pictograms: tuple[str, ...] = ()  # the GHS codes drawn
+    pictogram_side_mm: float = 0.0  # side of each pictogram's square
+    place: str = "under"  # the pictograms under the signal word, or beside the QR code
+    code_top: float = 0.0
 
     @property
     def fits(self) -> bool:
@@ -100,10 +108,8 @@ def hazard_words(hazard: Hazard) -> tuple[str | None, list[str], list[str]]:
 
 
 def _hazard_lines(hazard: Hazard, *, by_code: bool) -> list[Line]:
-    signal, statements, pictograms = hazard_words(hazard)
+    signal, statements, _ = hazard_words(hazard)
     lines: list[Line] = []
-    if pictograms:
-        lines.append(Line("hazard", ", ".join(pictograms), lead="GHS pictograms:"))
     if statements:
         if by_code:
             codes = " ".join(s.split(" ", 1)[0] for s in statements)
@@ -136,7 +142,7 @@ def batch_lines(data: BatchLabel, tier: int = 0) -> list[Line]:
     fields = [] if tier >= 2 else [("Batch", data.code, False)]
     fields += [
         ("Made", f"{data.made_on} by {data.made_by}", False),
-        ("Standardized", f"{std} ({data.run})" if std else "not yet", False),
+        ("Standardized", _standardized(data) if std else "not yet", False),
     ]
     if data.restandardize_by:
         fields.append(("Restandardize by", data.restandardize_by, True))
@@ -147,6 +153,14 @@ def batch_lines(data: BatchLabel, tier: int = 0) -> list[Line]:
     lines.extend(_hazard_lines(data.hazard, by_code=tier >= 2))
     lines.append(_footer(data, tier))
     return lines
+
+
+def _standardized(data: BatchLabel) -> str:
+    """The accepted run's lab date, who recorded it and who accepted it on review."""
+    who = f" by {data.standardized_by}" if data.standardized_by else ""
+    review = (f", reviewed by {data.reviewed_by}" if data.reviewed_by
+              else ", no review recorded")
+    return f"{data.standardized_on}{who}{review} ({data.run})"
 
 
 def _field_lines(fields: list[tuple[str, str, bool]], tier: int) -> list[Line]:
@@ -203,7 +217,7 @@ def _styles(font: float, tier: int = 0) -> dict[str, Any]:
 
     def style(name: str, size: float, *, bold: bool = False, after: float = 0.0) -> Any:
         return ParagraphStyle(
-            name, fontName="Helvetica-Bold" if bold else "Helvetica", fontSize=size,
+            name, fontName=archival.BOLD if bold else archival.REGULAR, fontSize=size,
             leading=size * LEADING, alignment=TA_LEFT, spaceAfter=after,
             splitLongWords=1, allowWidows=1, allowOrphans=1)
 
@@ -235,13 +249,23 @@ def _paragraph(line: Line, styles: dict[str, Any]) -> Any:
     if line.parts:
         body = " · ".join(f"<b>{for_pdf(k)} {for_pdf(v)}</b>" if strong else
                           f"{for_pdf(k)} {for_pdf(v)}" for k, v, strong in line.parts)
-        return Paragraph(body, styles[line.role])
+        return Paragraph(_unbroken(body), styles[line.role])
     body = f"<b>{for_pdf(line.text)}</b>" if line.strong else for_pdf(line.text)
     if line.lead:
         body = f"<b>{for_pdf(line.lead)}</b> {body}"
     if line.role == "footer":
         body = f"<i>{body}</i>"
-    return Paragraph(body, styles[line.role])
+    return Paragraph(_unbroken(body), styles[line.role])
+
+
+_VALUE_UNIT = re.compile(r"(\d) (N|mol/L|°C|%)(?![\w/])")
+_NOMINAL = re.compile(r"\b(nominal|Factor) (\d)")
+
+
+def _unbroken(body: str) -> str:
+    """Paragraph markup in which a value and its unit ("0.1 N"), and "nominal" and its
+    value, are joined by a no-break space, so a line never breaks between them."""
+    return _NOMINAL.sub(r"\1&nbsp;\2", _VALUE_UNIT.sub(r"\1&nbsp;\2", body))
 
 
 def _gap_before(line: Line, previous: Line | None, font: float) -> float:
@@ -268,7 +292,7 @@ def _paragraphs(lines: list[Line], font: float, tier: int) -> list[Any]:
     return story
 
 
-def _frames(geo: _Geometry) -> list[Any]:
+def _frames(geo: Geometry) -> list[Any]:
     from reportlab.platypus import Frame
 
     return [Frame(x, y, w, h, leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0,
@@ -276,7 +300,7 @@ def _frames(geo: _Geometry) -> list[Any]:
             for x, y, w, h in geo.text_boxes if h > 0.5 and w > 0.5]
 
 
-def _flow(canvas: Any, lines: list[Line], geo: _Geometry, font: float,
+def _flow(canvas: Any, lines: list[Line], geo: Geometry, font: float,
           tier: int) -> list[float] | None:
     """Flow the text into the frames on ``canvas``; the height used in each frame, or
     None when some text is left over (it does not fit)."""
@@ -300,155 +324,99 @@ def _fill(frame: Any, story: list[Any], canvas: Any) -> None:
         return
 
 
-@dataclass(frozen=True)
-class _Geometry:
-    margin: float
-    text_boxes: tuple[tuple[float, float, float, float], ...]  # beside the side column, below
-    side_box: tuple[float, float, float, float]
-    qr_side: float
-    code_pt: float
-    code_lines: tuple[str, ...]
-    bar_h: float
+TRADE = 0.85  # larger pictograms are worth at most this share of the text size
 
 
-QR_SHARES = (0.5, 0.42)  # of the label's inner height, tried in turn
+def _try(data: LabelContent, size: LabelSize, side: float, tier: int, font: float,
+         scratch: Any) -> LabelLayout | None:
+    """The layout at ``font`` and ``tier`` with pictograms of ``side``, if it fits."""
+    signal, _, named = hazard_words(data.hazard)
+    codes = tuple(pictograms.code_of(p) for p in named)
+    lines = lines_for(data, tier)
+    for place in PLACES if codes else PLACES[:1]:
+        for share in QR_SHARES:
+            geo = geometry(size, data.code, signal, font, tier, share, codes, side, place)
+            used = _flow(scratch, lines, geo, font, tier) if geo.fits else None
+            if used is not None:
+                _, sy, _, sh = geo.side_box
+                return LabelLayout(
+                    size=size.name, font_pt=font, tier=tier, qr_share=share,
+                    text_boxes=geo.text_boxes, text_heights_pt=tuple(used),
+                    qr_box=(geo.qr_x, sy + sh - geo.qr_side, geo.qr_side, geo.qr_side),
+                    side_box=geo.side_box, code_pt=geo.code_pt, code_lines=geo.code_lines,
+                    bar_h=geo.bar_h, pictograms=codes,
+                    pictogram_side_mm=round(side / MM, 6),
+                    place=place, code_top=geo.code_top)
+    return None
 
 
-def _geometry(size: LabelSize, code: str, signal: str | None, font: float,
-              tier: int = 0, qr_share: float = QR_SHARES[0]) -> _Geometry:
-    """Where things go: the side column (QR, code, signal word) at the top right, the text
-    beside it and then across the full width below it."""
-    w, h = size.width_pt, size.height_pt
-    margin = max(1.2 * MM, min(3 * MM, h * 0.05))
-    gutter = max(1.2 * MM, w * 0.02)
-    inner_h = h - 2 * margin
-    # The QR code stays at least 10 mm across (about 0.4 mm a module for a batch code).
-    qr = max(10 * MM, min(26 * MM, inner_h * qr_share, w * 0.28))
-    side_w = qr
-    code_pt, code_lines = _code_lines(code, side_w, max(MIN_FONT_PT, min(font, 7.0)))
-    bar_h = max(font * (1.9 if tier < 2 else 1.6), 6.0) if signal else 0.0
-    bar_h = min(bar_h, 4 * MM)
-    side_h = qr + code_pt * (0.3 + 1.2 * len(code_lines)) + \
-        (bar_h + code_pt * 0.4 if signal else 0.0)
-    side_h = min(side_h, inner_h)
-    top = h - margin
-    side = (w - margin - side_w, top - side_h, side_w, side_h)
-    beside = (margin, top - side_h, w - 2 * margin - side_w - gutter, side_h)
-    below_h = inner_h - side_h - gutter * 0.6
-    below = (margin, margin, w - 2 * margin, max(0.0, below_h))
-    return _Geometry(margin=margin, text_boxes=(beside, below), side_box=side, qr_side=qr,
-                     code_pt=code_pt, code_lines=code_lines, bar_h=bar_h)
+def _largest(data: LabelContent, size: LabelSize, side: float, tier: int, floor: float,
+             scratch: Any) -> LabelLayout | None:
+    """The largest font from ``MAX_FONT_PT`` down to ``floor`` (in steps) that fits, by
+    bisection: a smaller font never needs more room."""
+    steps = int(round((MAX_FONT_PT - floor) / STEP_PT))
+    fonts = [round(MAX_FONT_PT - k * STEP_PT, 4) for k in range(steps + 1)]
+    best = _try(data, size, side, tier, fonts[-1], scratch)
+    if best is None:
+        return None
+    lo, hi = 0, len(fonts) - 1  # fonts[hi] fits; find the first that fits
+    while lo < hi:
+        mid = (lo + hi) // 2
+        found = _try(data, size, side, tier, fonts[mid], scratch)
+        if found is not None:
+            best, hi = found, mid
+        else:
+            lo = mid + 1
+    return best
 
 
-def _code_lines(code: str, width: float, size: float) -> tuple[float, tuple[str, ...]]:
-    """The code under the QR code: one line if it fits at ``size``, else broken after a
-    hyphen into two lines, else (a code with no hyphen) shrunk to the width."""
-    from reportlab.pdfbase.pdfmetrics import stringWidth
+def _fitted(data: LabelContent, size: LabelSize) -> LabelLayout | None:
+    """The least packing (tier) at which the text fits; within it the largest font,
+    traded for larger pictograms down to ``TRADE`` of that font."""
+    from reportlab.pdfgen.canvas import Canvas
 
-    def fits(text: str) -> bool:
-        return stringWidth(text, "Helvetica-Bold", size) <= width
-
-    if fits(code):
-        return size, (code,)
-    cuts = [i + 1 for i, ch in enumerate(code) if ch == "-" and 0 < i < len(code) - 1]
-    two = [(code[:i], code[i:]) for i in cuts if fits(code[:i]) and fits(code[i:])]
-    if two:
-        return size, min(two, key=lambda parts: abs(len(parts[0]) - len(parts[1])))
-    return size * width / stringWidth(code, "Helvetica-Bold", size), (code,)
+    scratch = Canvas(io.BytesIO(), pagesize=(size.width_pt, size.height_pt),
+                     initialFontName=archival.register_fonts())
+    _, _, named = hazard_words(data.hazard)
+    sides = pictograms.SIDES_MM if named else pictograms.SIDES_MM[:1]
+    # Pack harder before shrinking the text to its smallest: each tier has a floor.
+    for tier, floor in ((0, MIN_FONT_PT + 0.75), (1, MIN_FONT_PT + 0.25), (2, MIN_FONT_PT)):
+        found = [lay for side in sides
+                 if (lay := _largest(data, size, side * MM, tier, floor, scratch))]
+        if found:
+            top = max(lay.font_pt for lay in found)
+            return next(lay for lay in found if lay.font_pt >= TRADE * top - 1e-9)
+    return None
 
 
 def layout(data: LabelContent, size: LabelSize) -> LabelLayout:
-    """Choose the largest font (and the least packing) at which the text fits."""
-    from reportlab.pdfgen.canvas import Canvas
-
-    scratch = Canvas(io.BytesIO(), pagesize=(size.width_pt, size.height_pt))
-    signal, _, _ = hazard_words(data.hazard)
+    """Choose the least packing, the largest font and the largest pictograms at which
+    everything fits; InvalidInput if nothing does."""
+    lay = _fitted(data, size)
+    if lay is None:
+        _, _, named = hazard_words(data.hazard)
+        marks = (f" and its {len(named)} GHS pictogram{'s' if len(named) > 1 else ''} "
+                 f"({pictograms.SIDES_MM[-1]:g} mm)" if named else "")
+        raise InvalidInput(f"the label text for {data.code}{marks} does not fit on "
+                           f"{size.name} even at {MIN_FONT_PT} pt; choose a larger --size")
     notes: list[str] = []
-    # Pack harder before shrinking the text to its smallest: each tier has a floor.
-    for tier, floor in ((0, MIN_FONT_PT + 0.75), (1, MIN_FONT_PT + 0.25), (2, MIN_FONT_PT)):
-        lines = lines_for(data, tier)
-        font = MAX_FONT_PT
-        while font >= floor - 1e-9:
-            for share in QR_SHARES:
-                geo = _geometry(size, data.code, signal, font, tier, share)
-                used = _flow(scratch, lines, geo, font, tier)
-                if used is not None:
-                    break
-            if used is not None:
-                if tier >= 1:
-                    notes.append("the dates are run together on one line to fit")
-                if tier >= 2:
-                    notes.append("hazard statements are printed by code (H-numbers) to fit "
-                                 f"{size.name}; a larger label carries their full text")
-                    notes.append("the code is printed only under the QR code, and who "
-                                 "printed the label only in the record")
-                sx, sy, sw, sh = geo.side_box
-                qr_box = (sx, sy + sh - geo.qr_side, geo.qr_side, geo.qr_side)
-                return LabelLayout(size=size.name, font_pt=font, tier=tier, qr_share=share,
-                                   text_boxes=geo.text_boxes, text_heights_pt=tuple(used),
-                                   qr_box=qr_box, side_box=geo.side_box, code_pt=geo.code_pt,
-                                   code_lines=geo.code_lines,
-                                   bar_h=geo.bar_h, notes=tuple(notes))
-            font = round(font - STEP_PT, 4)
-    raise InvalidInput(f"the label text for {data.code} does not fit on {size.name} even at "
-                       f"{MIN_FONT_PT} pt; choose a larger --size")
-
-
-def _qr_matrix(text: str) -> list[list[bool]]:
-    import qrcode
-    from qrcode.constants import ERROR_CORRECT_M
-
-    code = qrcode.QRCode(error_correction=ERROR_CORRECT_M, border=0)
-    code.add_data(text)
-    code.make(fit=True)
-    return [list(row) for row in code.get_matrix()]
-
-
-def _draw_side(canvas: Any, data: LabelContent, lay: LabelLayout) -> None:
-    from reportlab.pdfbase.pdfmetrics import stringWidth
-
-    qx, qy, qs, _ = lay.qr_box
-    matrix = _qr_matrix(data.code)
-    n = len(matrix)
-    module = qs / n
-    canvas.setFillColorRGB(0, 0, 0)
-    for r, row in enumerate(matrix):
-        c = 0
-        while c < n:  # one rectangle per run of dark modules: crisp and small
-            if row[c]:
-                start = c
-                while c < n and row[c]:
-                    c += 1
-                canvas.rect(qx + start * module, qy + qs - (r + 1) * module,
-                            (c - start) * module, module, stroke=0, fill=1)
-            else:
-                c += 1
-    sx, sy, sw, sh = lay.side_box
-    canvas.setFont("Helvetica-Bold", lay.code_pt)
-    for i, part in enumerate(lay.code_lines):
-        canvas.drawCentredString(sx + sw / 2, qy - lay.code_pt * (1.2 * i + 1.05), part)
-    signal, _, _ = hazard_words(data.hazard)
-    if signal and lay.bar_h:
-        word = signal.upper()
-        bar_y = sy
-        size = min(lay.bar_h * 0.62, _fit(word, "Helvetica-Bold", lay.bar_h * 0.62, sw * 0.9))
-        canvas.rect(sx, bar_y, sw, lay.bar_h, stroke=0, fill=1)
-        canvas.setFillColorRGB(1, 1, 1)
-        canvas.setFont("Helvetica-Bold", size)
-        text_w = stringWidth(word, "Helvetica-Bold", size)
-        canvas.drawString(sx + (sw - text_w) / 2, bar_y + (lay.bar_h - size * 0.72) / 2, word)
-        canvas.setFillColorRGB(0, 0, 0)
-
-
-def _fit(text: str, font: str, size: float, width: float) -> float:
-    from reportlab.pdfbase.pdfmetrics import stringWidth
-
-    w = stringWidth(text, font, size)
-    return size if w <= width else size * width / w
+    full = pictograms.SIDES_MM[0]
+    if lay.pictograms and lay.pictogram_side_mm < full - 1e-6:
+        notes.append(f"the GHS pictograms are {lay.pictogram_side_mm:.3g} mm across their "
+                     f"square to fit {size.name}, under the {full:g} mm asked for "
+                     "containers up to 3 L; a larger label carries them larger")
+    if lay.tier >= 1:
+        notes.append("the dates are run together on one line to fit")
+    if lay.tier >= 2:
+        notes.append("hazard statements are printed by code (H-numbers) to fit "
+                     f"{size.name}; a larger label carries their full text")
+        notes.append("the code is printed only under the QR code, and who "
+                     "printed the label only in the record")
+    return replace(lay, notes=tuple(notes))
 
 
 def _draw_label(canvas: Any, data: LabelContent, lay: LabelLayout, x: float, y: float,
-                size: LabelSize, *, outline: bool) -> None:
+                size: LabelSize, *, outline: bool, colour: bool) -> None:
     canvas.saveState()
     canvas.translate(x, y)
     if outline:  # on a plain sheet, a dotted hairline shows where to cut
@@ -457,38 +425,49 @@ def _draw_label(canvas: Any, data: LabelContent, lay: LabelLayout, x: float, y: 
         canvas.rect(0, 0, size.width_pt, size.height_pt, stroke=1, fill=0)
         canvas.setDash()
     signal, _, _ = hazard_words(data.hazard)
-    geo = _geometry(size, data.code, signal, lay.font_pt, lay.tier, lay.qr_share)
+    side = lay.pictogram_side_mm * MM
+    geo = geometry(size, data.code, signal, lay.font_pt, lay.tier, lay.qr_share,
+                    lay.pictograms, side, lay.place)
     _flow(canvas, lines_for(data, lay.tier), geo, lay.font_pt, lay.tier)
-    _draw_side(canvas, data, lay)
+    draw_side(canvas, data.code, signal, qr_box=lay.qr_box, side_box=lay.side_box,
+              code_pt=lay.code_pt, lines=lay.code_lines, bar_h=lay.bar_h,
+              code_top=lay.code_top)
+    for code, (px, py) in zip(lay.pictograms, geo.spots, strict=True):
+        pictograms.draw(canvas, code, px, py, side, colour=colour)
     canvas.restoreState()
 
 
 def label_pdf(data: LabelContent, size: LabelSize, *, copies: int = 1,
-              sheet: Sheet | None = None, outline: bool = False) -> tuple[bytes, LabelLayout]:
-    """The PDF of ``copies`` labels: one per page of the label's size, or in a grid on
-    ``sheet`` pages. Returns the bytes and the layout used."""
+              sheet: Sheet | None = None, outline: bool = False,
+              colour: bool = True) -> tuple[bytes, LabelLayout]:
+    """The PDF/A-2b of ``copies`` labels: one per page of the label's size, or in a grid
+    on ``sheet`` pages; ``colour`` False draws the pictograms' borders black. Returns
+    the bytes and the layout used."""
     from reportlab.pdfgen.canvas import Canvas
 
     if copies < 1:
         raise InvalidInput("--copies must be at least 1")
     lay = layout(data, size)
     buffer = io.BytesIO()
+    page = (size.width_pt, size.height_pt) if sheet is None else (sheet.width_pt,
+                                                                  sheet.height_pt)
+    canvas = Canvas(buffer, pagesize=page, invariant=1,
+                    initialFontName=archival.register_fonts())
     if sheet is None:
-        canvas = Canvas(buffer, pagesize=(size.width_pt, size.height_pt), invariant=1)
         for _ in range(copies):
-            _draw_label(canvas, data, lay, 0, 0, size, outline=outline)
+            _draw_label(canvas, data, lay, 0, 0, size, outline=outline, colour=colour)
             canvas.showPage()
     else:
-        canvas = Canvas(buffer, pagesize=(sheet.width_pt, sheet.height_pt), invariant=1)
         g = grid(sheet, size)
         left = copies
         while left > 0:
             for ox, oy in g.origins[: min(left, g.per_sheet)]:
-                _draw_label(canvas, data, lay, ox, oy, size, outline=True)
+                _draw_label(canvas, data, lay, ox, oy, size, outline=True, colour=colour)
             left -= g.per_sheet
             canvas.showPage()
-    canvas.setTitle(f"prepbook label {data.code}")
+    title = f"prepbook label {data.code}"
+    canvas.setTitle(title)
     canvas.setSubject(f"{data.kind} label")
     canvas.setCreator("prepbook")
     canvas.save()
-    return buffer.getvalue(), lay
+    return archival.pdf_a(buffer.getvalue(), title=title, subject=f"{data.kind} label"), lay

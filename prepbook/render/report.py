@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING, Any
 
 from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput
-from prepbook.render import files
+from prepbook.render import archival, files
 from prepbook.render.numbers import significant
 from prepbook.render.report_chart import control_chart, curve_chart
 from prepbook.text import for_pdf
@@ -83,19 +83,20 @@ class _Styles:
     def __init__(self) -> None:
         from reportlab.lib.styles import ParagraphStyle
 
-        base = dict(fontName="Helvetica", fontSize=8.5, leading=10.5)
+        archival.register_fonts()
+        base = dict(fontName=archival.REGULAR, fontSize=8.5, leading=10.5)
         self.body = ParagraphStyle("body", **base)
-        self.small = ParagraphStyle("small", fontName="Helvetica", fontSize=7.5, leading=9)
-        self.cell = ParagraphStyle("cell", fontName="Helvetica", fontSize=7.5, leading=9)
-        self.cell_bold = ParagraphStyle("cellb", fontName="Helvetica-Bold", fontSize=7.5,
+        self.small = ParagraphStyle("small", fontName=archival.REGULAR, fontSize=7.5, leading=9)
+        self.cell = ParagraphStyle("cell", fontName=archival.REGULAR, fontSize=7.5, leading=9)
+        self.cell_bold = ParagraphStyle("cellb", fontName=archival.BOLD, fontSize=7.5,
                                         leading=9)
-        self.title = ParagraphStyle("title", fontName="Helvetica-Bold", fontSize=16,
+        self.title = ParagraphStyle("title", fontName=archival.BOLD, fontSize=16,
                                     leading=19, spaceAfter=2)
-        self.subtitle = ParagraphStyle("subtitle", fontName="Helvetica", fontSize=10.5,
+        self.subtitle = ParagraphStyle("subtitle", fontName=archival.REGULAR, fontSize=10.5,
                                        leading=13, spaceAfter=6)
-        self.h1 = ParagraphStyle("h1", fontName="Helvetica-Bold", fontSize=11.5, leading=14,
+        self.h1 = ParagraphStyle("h1", fontName=archival.BOLD, fontSize=11.5, leading=14,
                                  spaceBefore=10, spaceAfter=4)
-        self.h2 = ParagraphStyle("h2", fontName="Helvetica-Bold", fontSize=9.5, leading=12,
+        self.h2 = ParagraphStyle("h2", fontName=archival.BOLD, fontSize=9.5, leading=12,
                                  spaceBefore=7, spaceAfter=3)
 
 
@@ -118,6 +119,7 @@ def _table(header: list[str], rows: list[list[Any]], widths: list[float], st: _S
     table = Table(data, colWidths=widths, repeatRows=1, hAlign="LEFT")
     style = [
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("FONTNAME", (0, 0), (-1, -1), archival.REGULAR),  # the embedded font, even unused
         ("LEFTPADDING", (0, 0), (-1, -1), 3),
         ("RIGHTPADDING", (0, 0), (-1, -1), 3),
         ("TOPPADDING", (0, 0), (-1, -1), 1.5),
@@ -142,6 +144,7 @@ def _pairs(rows: list[list[Any]], width: float, st: _Styles) -> Any:
     table = Table(data, colWidths=[0.2 * width, 0.8 * width], hAlign="LEFT")
     table.setStyle(TableStyle([
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("FONTNAME", (0, 0), (-1, -1), archival.REGULAR),  # the embedded font, even unused
         ("LEFTPADDING", (0, 0), (-1, -1), 3),
         ("RIGHTPADDING", (0, 0), (-1, -1), 3),
         ("TOPPADDING", (0, 0), (-1, -1), 1.5),
@@ -256,7 +259,9 @@ def _readings_section(readings: RunReadings | None, st: _Styles, width: float,
         out.append(Spacer(1, 4))
         out.append(KeepTogether([_p("Recorded titration curves: dashed, the endpoint "
                                     "prepbook found; dotted, a volume typed instead", st.small),
-                                 Table(pairs, colWidths=[width * 0.5] * 2, hAlign="LEFT")]))
+                                 Table(pairs, colWidths=[width * 0.5] * 2, hAlign="LEFT",
+                                       style=[("FONTNAME", (0, 0), (-1, -1),
+                                               archival.REGULAR)])]))
     return out
 
 
@@ -443,7 +448,7 @@ def _build(data: ReportData, make_story: Any, pagesize: tuple[float, float],
 
     def decorate(canvas: Any, doc: Any) -> None:
         canvas.saveState()
-        canvas.setFont("Helvetica", 7)
+        canvas.setFont(archival.REGULAR, 7)
         top = pagesize[1] - margin + 6
         canvas.drawString(margin, top, header)
         canvas.drawRightString(pagesize[0] - margin, top, f"page {doc.page} of {doc.total}")
@@ -454,12 +459,14 @@ def _build(data: ReportData, make_story: Any, pagesize: tuple[float, float],
         canvas.drawRightString(pagesize[0] - margin, margin - 15, footer_right)
         canvas.restoreState()
 
+    title = f"prepbook batch record {b.batch}"
+
     def build(total: int) -> tuple[bytes, int]:
         buffer = io.BytesIO()
         doc = _Doc(buffer, pagesize=pagesize, leftMargin=margin, rightMargin=margin,
                    topMargin=margin + 4, bottomMargin=margin + 4, invariant=1,
-                   title=f"prepbook batch record {b.batch}", author="prepbook",
-                   creator="prepbook")
+                   title=title, author="prepbook", creator="prepbook",
+                   initialFontName=archival.register_fonts())
         doc.total = total  # type: ignore[attr-defined]
         doc.build(make_story(), onFirstPage=decorate, onLaterPages=decorate)
         return buffer.getvalue(), doc.page
@@ -467,4 +474,4 @@ def _build(data: ReportData, make_story: Any, pagesize: tuple[float, float],
     # Two passes: the first counts the pages so each can say "page n of N".
     _, pages = build(0)
     pdf, pages2 = build(pages)
-    return pdf, pages2
+    return archival.pdf_a(pdf, title=title, subject="batch traceability report"), pages2

@@ -4,10 +4,11 @@ and each stored titration curve with its endpoint marked."""
 
 from __future__ import annotations
 
+import math
 from datetime import date, datetime
 from typing import TYPE_CHECKING, Any
 
-from prepbook.render.numbers import significant
+from prepbook.render import archival
 
 if TYPE_CHECKING:
     from prepbook.devices.records import RecordedCurve
@@ -44,6 +45,7 @@ def control_chart(data: ReportData, width: float, *, detail: bool = False) -> An
 
     height = 110.0 if detail else 150.0
     drawing = Drawing(width, height + 30)
+    drawing.initialFontName = archival.REGULAR  # the embedded font from the start
     plot = LinePlot()
     plot.x, plot.y = 52, 28
     plot.width, plot.height = width - 150, height - 10
@@ -54,11 +56,7 @@ def control_chart(data: ReportData, width: float, *, detail: bool = False) -> An
 
     made = day(data.batch.preparation.made_at)
     xs = [day(p.at) for p in points] or [made]
-    x0 = max(1.0, min([made, *xs]) - 2)  # day 1 is the first the calendar has
-    x1 = max([*xs, made]) + 2
-    expires = data.batch.expires
-    if expires:
-        x1 = max(x1, date.fromisoformat(expires).toordinal() + 1)
+    x0, x1 = time_span([made, *xs])
     series: list[list[tuple[float, float]]] = []
     styles: list[dict[str, Any]] = []
 
@@ -100,15 +98,18 @@ def control_chart(data: ReportData, width: float, *, detail: bool = False) -> An
             line.symbol = marker
             line.strokeWidth = 0
             line.strokeColor = None
+    step = nice_step(y_max - y_min)
+    places = decimals(step)
     plot.yValueAxis.valueMin = y_min
     plot.yValueAxis.valueMax = y_max
-    plot.yValueAxis.labelTextFormat = lambda v: significant(v, 5 if detail else 4)
-    plot.yValueAxis.labels.fontName = "Helvetica"
+    plot.yValueAxis.valueStep = step
+    plot.yValueAxis.labelTextFormat = lambda v: f"{v:.{places}f}"
+    plot.yValueAxis.labels.fontName = archival.REGULAR
     plot.yValueAxis.labels.fontSize = 7
     plot.xValueAxis.valueMin = x0
     plot.xValueAxis.valueMax = x1
     plot.xValueAxis.labelTextFormat = lambda v: date.fromordinal(int(v)).isoformat()
-    plot.xValueAxis.labels.fontName = "Helvetica"
+    plot.xValueAxis.labels.fontName = archival.REGULAR
     plot.xValueAxis.labels.fontSize = 7
     plot.xValueAxis.labels.angle = 0
     plot.xValueAxis.maximumTicks = 5
@@ -120,18 +121,38 @@ def control_chart(data: ReportData, width: float, *, detail: bool = False) -> An
         lo, hi = plot.yValueAxis.valueMin, plot.yValueAxis.valueMax
         return plot.y + (v - lo) / (hi - lo) * plot.height
 
-    for v, text in ((high, f"upper {significant(high, 4)} (factor {win.factor_high:g})"),
+    for v, text in ((high, f"upper {high:.{places + 1}f} (factor {win.factor_high:g})"),
                     (win.nominal, f"nominal {win.nominal:g}"),
-                    (low, f"lower {significant(low, 4)} (factor {win.factor_low:g})")):
+                    (low, f"lower {low:.{places + 1}f} (factor {win.factor_low:g})")):
         if shown(v):
-            drawing.add(String(right, y_of(v) - 2.5, text, fontName="Helvetica", fontSize=6.5))
+            drawing.add(String(right, y_of(v) - 2.5, text, fontName=archival.REGULAR, fontSize=6.5))
     caption = (f"detail: the axis spans the results only; concentration at 20 °C ({unit})"
                if detail else
                f"concentration at 20 °C ({unit}); dashed: acceptance window; bars: U; "
                "filled: accepted, square: to review, cross: rejected")
-    drawing.add(String(plot.x, plot.y + plot.height + 8, caption, fontName="Helvetica",
+    drawing.add(String(plot.x, plot.y + plot.height + 8, caption, fontName=archival.REGULAR,
                        fontSize=7))
     return drawing
+
+
+def time_span(days: list[float]) -> tuple[float, float]:
+    """The time axis (in days) fitted to ``days``: their span and a margin of a tenth of
+    it each side, at least two days; never before day 1, the calendar's first."""
+    low, high = min(days), max(days)
+    pad = max(2.0, (high - low) * 0.1)
+    return max(1.0, low - pad), high + pad
+
+
+def nice_step(span: float, ticks: int = 5) -> float:
+    """A tick step of 1, 2 or 5 times a power of ten giving about ``ticks`` ticks."""
+    raw = span / ticks if span > 0 else 1.0
+    power = 10.0 ** math.floor(math.log10(raw))
+    return next(m * power for m in (1, 2, 5, 10) if m * power >= raw)
+
+
+def decimals(step: float) -> int:
+    """Decimal places that show every multiple of ``step`` (1, 2 or 5 x 10^k) exactly."""
+    return max(0, -math.floor(math.log10(step) + 1e-9))
 
 
 def curve_chart(curve: RecordedCurve, width: float, caption: str,
@@ -145,6 +166,7 @@ def curve_chart(curve: RecordedCurve, width: float, caption: str,
 
     height = 95.0
     drawing = Drawing(width, height + 30)
+    drawing.initialFontName = archival.REGULAR  # the embedded font from the start
     plot = LinePlot()
     plot.x, plot.y = 30, 28
     plot.width, plot.height = width - 40, height - 12
@@ -158,7 +180,7 @@ def curve_chart(curve: RecordedCurve, width: float, caption: str,
     plot.xValueAxis.valueMin = curve.volumes_ml[0]
     plot.xValueAxis.valueMax = curve.volumes_ml[-1]
     for axis in (plot.xValueAxis, plot.yValueAxis):
-        axis.labels.fontName = "Helvetica"
+        axis.labels.fontName = archival.REGULAR
         axis.labels.fontSize = 7
     plot.xValueAxis.labelTextFormat = lambda v: f"{v:g}"
     plot.yValueAxis.labelTextFormat = lambda v: f"{v:.1f}" if curve.kind == "pH" else f"{v:.0f}"
@@ -173,11 +195,11 @@ def curve_chart(curve: RecordedCurve, width: float, caption: str,
         drawing.add(Line(x, plot.y, x, plot.y + plot.height, strokeColor=colors.black,
                          strokeWidth=0.6, strokeDashArray=dash))
         drawing.add(String(x - 3, plot.y + plot.height * height_share, text,
-                           fontName="Helvetica", fontSize=6.5, textAnchor="end"))
-    drawing.add(String(4, plot.y + plot.height + 8, caption, fontName="Helvetica",
+                           fontName=archival.REGULAR, fontSize=6.5, textAnchor="end"))
+    drawing.add(String(4, plot.y + plot.height + 8, caption, fontName=archival.REGULAR,
                        fontSize=6.5))
     drawing.add(String(plot.x + plot.width, plot.y - 18, "titrant (mL)",
-                       fontName="Helvetica", fontSize=6.5, textAnchor="end"))
+                       fontName=archival.REGULAR, fontSize=6.5, textAnchor="end"))
     drawing.add(String(plot.x - 4, plot.y + plot.height - 2, curve.kind,
-                       fontName="Helvetica", fontSize=6.5, textAnchor="end"))
+                       fontName=archival.REGULAR, fontSize=6.5, textAnchor="end"))
     return drawing
