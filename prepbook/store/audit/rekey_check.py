@@ -122,8 +122,8 @@ def checked(conn: Connection, kept: Keying | None, key: bytes | None,
         return Keys((Stretch(1, key),),
                     (SigningSpan(kept.public_key if kept else None, 0, None),))
     wanted = {c.after_seq for c in kept.changes}
-    heads = dict(conn.execute(select(_EVENTS.c.seq, _EVENTS.c.hash)
-                              .where(_EVENTS.c.seq.in_(wanted))).tuples().all())
+    heads = {seq: hash_ for seq, hash_ in conn.execute(
+        select(_EVENTS.c.seq, _EVENTS.c.hash).where(_EVENTS.c.seq.in_(wanted)))}
     needs_ring = any(c.kind == rekeying.AUDIT for c in kept.changes)
     ring = _keyring(key, folder if folder is not None else keyring_folder(), add) \
         if needs_ring else {}
