@@ -11,12 +11,15 @@ does not stop a write; verify lists the checkpoints it lacks.
 
 from __future__ import annotations
 
+import re
 import sqlite3
+import uuid
 from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
-from sqlalchemy import create_engine, select
+from sqlalchemy import create_engine, make_url, select, text
+from sqlalchemy.exc import DBAPIError
 from sqlalchemy.pool import NullPool
 
 from prepbook.store import audit
@@ -188,3 +191,59 @@ def test_a_sqlite_witness_refuses_to_change_or_delete_a_checkpoint(
                           "DELETE FROM prepbook_witness_checkpoints"):
             with pytest.raises(sqlite3.DatabaseError, match="prepbook: prepbook_witness"):
                 conn.execute(statement)
+
+
+README = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+
+
+def _witness_grants() -> str:
+    match = re.search(r"<!-- postgresql witness roles[^>]*-->\s*```sql\n(.*?)```", README,
+                      re.S)
+    assert match, "README has no PostgreSQL witness role block"
+    return match.group(1)
+
+
+@pytest.mark.skipif(not on_postgres(), reason="PostgreSQL accounts and grants")
+def test_the_readme_witness_grants_let_a_bench_only_add_rows(
+        db: Database, witness_url: str, tmp_path: Path,
+        monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> None:
+    # Attack: the benches' account, used from a SQL console, takes back or rewrites a
+    # witnessed checkpoint. The README's grants let it add rows and nothing else.
+    witness_db.create(witness_url)  # as the witness database's owner
+    role = f"prepbook_bench_{uuid.uuid4().hex[:12]}"
+    secret = uuid.uuid4().hex
+    owner = create_engine(witness_url, poolclass=NullPool)
+    bench_url = make_url(witness_url).set(username=role, password=secret) \
+        .render_as_string(hide_password=False)
+    try:
+        with owner.begin() as conn:
+            conn.execute(text(f"CREATE ROLE {role} LOGIN PASSWORD '{secret}'"))
+            for statement in filter(str.strip, _witness_grants().split(";")):
+                conn.execute(text(statement.replace("prepbook_bench", role)))
+        (tmp_path / "qa").mkdir(exist_ok=True)
+        audit.new_signing_key(tmp_path / "qa" / "lab.pem")
+        monkeypatch.setenv("PREPBOOK_SIGNING_KEY_FILE", str(tmp_path / "qa" / "lab.pem"))
+        monkeypatch.setenv("PREPBOOK_WITNESS_DATABASE", bench_url)
+        _lab(db)  # the benches witness through their own account
+        assert "NOT witnessed" not in capsys.readouterr().err
+        assert [events for events, _ in _witnessed_rows(witness_url)] == [2, 3, 4]
+        bench = create_engine(bench_url, poolclass=NullPool)
+        try:
+            for sql in ("UPDATE prepbook_witness_checkpoints SET events = 9",
+                        "DELETE FROM prepbook_witness_checkpoints",
+                        "TRUNCATE prepbook_witness_checkpoints",
+                        "SELECT * FROM prepbook_witness_checkpoints",
+                        "DROP TABLE prepbook_witness_checkpoints"):
+                with pytest.raises(DBAPIError) as caught, bench.begin() as conn:
+                    conn.execute(text(sql))
+                assert "permission denied" in str(caught.value.orig) or \
+                    "must be owner" in str(caught.value.orig), sql
+        finally:
+            bench.dispose()
+        rep = _verify(db, witness_url)  # QA reads with the owner's account
+        assert rep.ok and rep.witnessed_events == 4, rep.problems
+    finally:
+        with owner.begin() as conn:
+            conn.execute(text(f"DROP OWNED BY {role}"))
+            conn.execute(text(f"DROP ROLE IF EXISTS {role}"))
+        owner.dispose()
