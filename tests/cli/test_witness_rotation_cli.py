@@ -16,6 +16,7 @@ import pytest
 
 from tests.cli.test_bench_flow import _make_batch, bench  # noqa: F401
 from tests.conftest import Cli, row_counts
+from tests.store.test_key_rotation import _key
 from tests.tampering import tamper
 
 
@@ -71,18 +72,10 @@ def test_a_witness_database_names_a_shortened_trail_and_lists_a_gap(
     assert "the trail was shortened or rolled back" in named.stdout
 
 
-def _audit_key(folder: Path, name: str, secret: str) -> Path:
-    folder.mkdir(parents=True, exist_ok=True)
-    path = folder / name
-    path.write_text(secret)
-    path.chmod(0o600)
-    return path
-
-
 @pytest.fixture
 def keyed(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
     """The lab's audit key, set before the lab's first write (list it before bench)."""
-    old = _audit_key(tmp_path / "keyring", "2026.key", "the first invented lab secret")
+    old = _key(tmp_path / "keyring", "2026.key", b"the first invented lab secret")
     monkeypatch.setenv("PREPBOOK_AUDIT_KEY_FILE", str(old))
     return old
 
@@ -90,7 +83,7 @@ def keyed(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
 def test_rotate_key_hands_the_audit_key_over_and_verify_checks_both_stretches(
         keyed: Path, bench: Cli, tmp_path: Path,  # noqa: F811
         monkeypatch: pytest.MonkeyPatch) -> None:
-    new = _audit_key(tmp_path / "bench", "2027.key", "the second invented lab secret")
+    new = _key(tmp_path / "bench", "2027.key", b"the second invented lab secret")
     _make_batch(bench)
     # Only an admin may, signed; nothing changes otherwise.
     bench.refused("audit", "rotate-key", "--audit-key", str(new), "--reason", "yearly",

@@ -108,9 +108,9 @@ def test_a_bench_that_keeps_the_old_key_refuses_to_write(
         db: Database, keys: dict[str, Path]) -> None:
     _lab(db)
     _change_audit_key(db, OLD, NEW)
-    with pytest.raises(Refused, match=r"the audit key set here \(key .*\) is not this lab's"):
-        with db.session() as s:
-            add_batch(s, "B-5")
+    refused = r"the audit key set here \(key .*\) is not this lab's"
+    with pytest.raises(Refused, match=refused), db.session() as s:
+        add_batch(s, "B-5")
     with db.engine.connect() as conn:
         assert conn.execute(text("SELECT count(*) FROM audit_events")).scalar() == 5
 
@@ -226,9 +226,8 @@ def test_a_bench_that_keeps_the_old_signing_key_refuses_to_write(
         db: Database, signing: dict[str, Path]) -> None:
     _lab(db)
     _change_signing_key(db, signing["first"], signing["second"])
-    with pytest.raises(Refused, match="is not this lab's"):
-        with db.session() as s:
-            add_batch(s, "B-5")
+    with pytest.raises(Refused, match="is not this lab's"), db.session() as s:
+        add_batch(s, "B-5")
     with db.engine.connect() as conn:
         assert conn.execute(text("SELECT count(*) FROM audit_events")).scalar() == 5
 
