@@ -99,6 +99,8 @@ SPECS: dict[str, _Spec] = {
     "timezone": _Spec("PREPBOOK_TIMEZONE", _timezone, None),
     "witness_folder": _Spec("PREPBOOK_WITNESS_FOLDER", _text, None, path=True),
     "signing_key_file": _Spec("PREPBOOK_SIGNING_KEY_FILE", _text, None, path=True),
+    "witness_database": _Spec("PREPBOOK_WITNESS_DATABASE", _text, None),
+    "audit_keyring": _Spec("PREPBOOK_AUDIT_KEYRING", _text, None, path=True),
     "display.width": _Spec("PREPBOOK_DISPLAY_WIDTH", _width, None),
     "display.color": _Spec("PREPBOOK_DISPLAY_COLOR", _flag, None),
     "balance_profiles": _Spec("PREPBOOK_BALANCE_PROFILES", _text, None, path=True),

@@ -270,6 +270,7 @@ def _isolated_env(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     # The configuration file: a path under tmp_path, never the user's own (on every OS).
     monkeypatch.setenv("PREPBOOK_CONFIG", str(tmp_path / "home" / "prepbook-config.toml"))
     for name in ("PREPBOOK_TIMEZONE", "PREPBOOK_WITNESS_FOLDER", "PREPBOOK_SIGNING_KEY_FILE",
+                 "PREPBOOK_WITNESS_DATABASE", "PREPBOOK_AUDIT_KEYRING",
                  "PREPBOOK_DISPLAY_WIDTH",
                  "PREPBOOK_DISPLAY_COLOR", "XDG_CONFIG_HOME"):
         monkeypatch.delenv(name, raising=False)

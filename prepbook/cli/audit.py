@@ -5,7 +5,7 @@ from __future__ import annotations
 import typer
 
 from prepbook.cli import output
-from prepbook.cli.session import database
+from prepbook.cli.session import Passphrases, actor, database
 
 app = typer.Typer(
     help="Read and verify the audit trail.",
@@ -60,13 +60,20 @@ def verify(
     thorough: bool = typer.Option(False, "--thorough",
                                   help="Read every page of the file (SQLite integrity_check)."),
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
+    witness_db: str = typer.Option(
+        None, "--witness-db", metavar="URL",
+        help="The witness database (default: witness_database of the configuration)."),
+    keyring: str = typer.Option(
+        None, "--keyring", metavar="DIR",
+        help="The folder of old audit keys (default: audit_keyring of the configuration)."),
 ) -> None:
     """Check the hash chain, every row against its last audited state, and the trail
     against every checkpoint in sight."""
     from prepbook.lab import auditing
 
     rep = auditing.verify_against(database(ctx), codes=codes or (), witness=witness,
-                                  thorough=thorough)
+                                  thorough=thorough, witness_database=witness_db,
+                                  keyring=keyring)
     if as_json:
         output.emit_json(rep)
     else:
@@ -117,3 +124,54 @@ def signing_key(
         f"signing key written to {made.file} (readable by its owner only); public key "
         f"{made.public_key}. Name it in signing_key_file of the configuration or in "
         "PREPBOOK_SIGNING_KEY_FILE; its public key is recorded at the first checkpoint.")
+
+
+@app.command("witness-db")
+def witness_db(
+    url: str = typer.Argument(..., metavar="URL",
+                              help="The witness database: a PostgreSQL URL or a SQLite file."),
+) -> None:
+    """Make the checkpoint table of a witness database (run as its owner, once)."""
+    from prepbook.lab import auditing
+
+    shown = auditing.make_witness_database(url)
+    output.console().print(
+        f"witness table prepbook_witness_checkpoints ready in {shown}. Name it in "
+        "witness_database of the configuration or in PREPBOOK_WITNESS_DATABASE; give the "
+        "benches' account INSERT on it only (see the README).")
+
+
+@app.command("rotate-key")
+def rotate_key(
+    ctx: typer.Context,
+    audit_key: str = typer.Option(None, "--audit-key", metavar="FILE",
+                                  help="The new audit key file."),
+    signing_key: str = typer.Option(None, "--signing-key", metavar="FILE",
+                                    help="The new signing key file (`audit signing-key`)."),
+    reason: str = typer.Option(..., "--reason", metavar="TEXT",
+                               help="Why the key changes (kept in the audit trail)."),
+    passphrase_stdin: bool = typer.Option(
+        False, "--passphrase-stdin", help="Read your passphrase from standard input."),
+    as_json: bool = typer.Option(False, "--json", help="Print JSON."),
+) -> None:
+    """Hand the lab's audit key or signing key over to a new one (admin; signed with
+    your passphrase, on a bench that holds the key in use)."""
+    from prepbook.lab import auditing
+
+    secret = Passphrases(passphrase_stdin).get(f"Passphrase of {actor(ctx)}")
+    changed = auditing.rotate_key(database(ctx), actor=actor(ctx), passphrase=secret,
+                                  reason=reason, audit_key=audit_key, signing_key=signing_key)
+    if as_json:
+        output.emit_json(changed)
+        return
+    out = output.console()
+    for c in changed:
+        out.print(f"the {c.kind} key is now {c.new_key[:16]} (was {c.old_key[:16]}) from "
+                  f"event #{c.after_event + 1} on, by {c.made_by}")
+        if c.kind == "audit":
+            out.print("  set PREPBOOK_AUDIT_KEY_FILE to the new key on every bench, and keep "
+                      "the old key's file in the audit keyring folder (audit_keyring) for "
+                      "`audit verify`")
+        else:
+            out.print(f"  first checkpoint of the new key: {c.checkpoint}; set "
+                      "signing_key_file to the new key where checkpoints are made")

@@ -8,9 +8,12 @@ from pathlib import Path
 
 from sqlalchemy.exc import DBAPIError
 
-from prepbook.errors import IntegrityError, InvalidInput
-from prepbook.inputs import parse_date, parse_whole
-from prepbook.store import audit
+from prepbook.errors import IntegrityError, InvalidInput, Refused
+from prepbook.inputs import parse_date, parse_text, parse_whole
+from prepbook.lab.common import acting, signed
+from prepbook.store import audit, retry
+from prepbook.store.audit import rekey_check, rotating, witness_db
+from prepbook.store.audit.chain import read_key_file
 from prepbook.store.engine import Database
 from prepbook.store.models import AUDITED_TABLES
 
@@ -67,13 +70,19 @@ class SigningKeyMade:
 
 
 def verify_against(db: Database, *, codes: Sequence[str] = (), witness: str | None = None,
-                   thorough: bool = False) -> audit.VerifyReport:
-    """``verify``, held also against checkpoint ``codes`` typed from paper and the
-    ``witness`` folder (default: the configured one)."""
+                   thorough: bool = False, witness_database: str | None = None,
+                   keyring: str | None = None) -> audit.VerifyReport:
+    """``verify``, held also against checkpoint ``codes`` typed from paper, the
+    ``witness`` folder and the ``witness_database`` (default: the configured ones), each
+    stretch of the chain checked with its audit key (old ones from the ``keyring``
+    folder, default: the configured one)."""
     folder = Path(witness).expanduser() if witness else audit.witness_folder()
+    url = witness_database or witness_db.witness_database()
+    ring = Path(keyring).expanduser() if keyring else rekey_check.keyring_folder()
     try:
         with db.session(write=False) as s:
-            return audit.verify(s, codes=codes, witness=folder, thorough=thorough)
+            return audit.verify(s, codes=codes, witness=folder, thorough=thorough,
+                                witness_db=url, keyring=ring)
     except DBAPIError as exc:  # pages that cannot be read: one line, never a traceback
         raise IntegrityError(f"the database cannot be read to the end ({exc.orig}): restore "
                              "it from a backup; `prepbook audit verify --thorough` on a "
@@ -106,3 +115,68 @@ def checkpoint_code(db: Database) -> str | None:
     """The code of the trail as it stands, for a printed page (None while empty)."""
     with db.session(write=False) as s:
         return audit.head_code(s)
+
+
+@dataclass(frozen=True)
+class KeyChanged:
+    """A key of the lab handed over to a new one by ``rotate_key``."""
+
+    kind: str  # "audit" (fingerprints) or "signing" (public keys, hex)
+    old_key: str
+    new_key: str
+    after_event: int  # the last event of the old key
+    made_at: str
+    made_by: str
+    checkpoint: str | None  # the new signing key's first checkpoint
+
+
+def make_witness_database(url: str) -> str:
+    """Make the checkpoint table of a witness database (run as its owner); its URL as
+    shown (password hidden)."""
+    return witness_db.create(url)
+
+
+@retry.on_conflict
+def rotate_key(db: Database, *, actor: str, passphrase: str | None, reason: str | None,
+               audit_key: str | None = None, signing_key: str | None = None
+               ) -> list[KeyChanged]:
+    """Hand the lab's audit key and/or signing key over to the key in the file given
+    (admin, signed): the change is proven with the key in use (this bench's) and the
+    new one, and recorded after the trail's head."""
+    if not audit_key and not signing_key:
+        raise InvalidInput("name the new key: --audit-key FILE and/or --signing-key FILE")
+    reason = parse_text(reason, "reason", max_len=500)
+    if not (reason and reason.strip()):
+        raise InvalidInput("changing a key needs a --reason")
+    old_audit = new_audit = old_signing = new_signing = None
+    if audit_key:
+        old_audit = audit.read_key()
+        if old_audit is None:
+            raise Refused(f"no audit key is set here: set {audit.KEY_ENV} to the key in use "
+                          "to hand it over; nothing was changed")
+        target = Path(audit_key).expanduser()
+        new_audit = read_key_file(target, f"the new audit key file {target}")
+    if signing_key:
+        path = audit.signing_key_path()
+        if path is None:
+            raise Refused("no signing key is set here: set signing_key_file to the key in use "
+                          "to hand it over; nothing was changed")
+        old_signing = audit.load_signing_key(path)
+        new_signing = audit.load_signing_key(Path(signing_key).expanduser())
+    kinds = " and ".join(k for k, given in (("audit", audit_key), ("signing", signing_key))
+                         if given)
+    signed(db, actor, passphrase, ("admin",), "change the lab's keys",
+           meaning="changed the lab's keys", what=f"the {kinds} key ({reason})")
+    changed: list[KeyChanged] = []
+    with db.session() as s:
+        admin = acting(s, actor, ("admin",), "change the lab's keys")
+        if new_audit is not None:
+            change = rotating.change_audit_key(s, old_audit, new_audit, admin.name)
+            changed.append(KeyChanged(change.kind, change.old_key, change.new_key,
+                                      change.after_seq, change.made_at, change.made_by, None))
+        if old_signing is not None and new_signing is not None:
+            change, cp = rotating.change_signing_key(s, old_signing, new_signing, admin.name)
+            changed.append(KeyChanged(change.kind, change.old_key, change.new_key,
+                                      change.after_seq, change.made_at, change.made_by,
+                                      cp.code))
+    return changed

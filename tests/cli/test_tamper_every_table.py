@@ -90,7 +90,7 @@ def _copy_of_last_row(name: str) -> str:
 # The checkpoints and the keying belong to the trail (verify holds the chain against
 # them); a login session is a credential, not a record (its login is an audit event).
 NOT_RECORD = {"alembic_version", "audit_events", "audit_head", "audit_checkpoints",
-              "audit_keying", "login_sessions"}
+              "audit_keying", "audit_rekeyings", "login_sessions"}
 
 
 def record_tables(db: Path | str) -> list[str]:

@@ -86,8 +86,12 @@ def read_key() -> bytes | None:
     name = os.environ.get(KEY_ENV)
     if not name:
         return None
-    path = Path(name).expanduser()
-    where = f"the audit key file named by {KEY_ENV} ({name})"
+    return read_key_file(Path(name).expanduser(),
+                         f"the audit key file named by {KEY_ENV} ({name})")
+
+
+def read_key_file(path: Path, where: str) -> bytes:
+    """An audit secret from ``path`` (``where`` names it in messages), as ``read_key``."""
     try:
         if not stat.S_ISREG(os.stat(path).st_mode):
             raise InvalidInput(f"{where} is not a regular file")
@@ -102,7 +106,7 @@ def read_key() -> bytes | None:
                                    f"{KEY_MIN_BYTES} to {KEY_MAX_BYTES}")
             key = handle.read(KEY_MAX_BYTES + 1).strip()
     except OSError as exc:
-        raise InvalidInput(f"cannot read the audit key file named by {KEY_ENV}: {exc}") from exc
+        raise InvalidInput(f"cannot read {where}: {exc}") from exc
     if not key:
         raise InvalidInput(f"{where} is empty")
     if len(key) < KEY_MIN_BYTES:

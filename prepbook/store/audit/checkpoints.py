@@ -26,6 +26,7 @@ import json
 import os
 import re
 import uuid
+from collections.abc import Mapping
 from dataclasses import asdict, dataclass
 from datetime import UTC, datetime
 from pathlib import Path
@@ -35,6 +36,7 @@ from sqlalchemy import Connection, event, insert, select, update
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
+from prepbook.store.audit import rekeying
 from prepbook.store.audit.chain import canonical_json, iso
 from prepbook.store.models import AuditCheckpoint, AuditHead, AuditKeying, table_of
 
@@ -55,12 +57,20 @@ _HEAD = table_of(AuditHead)
 
 @dataclass(frozen=True)
 class Keying:
-    """How this trail is kept (the ``audit_keying`` row)."""
+    """How this trail is kept (the ``audit_keying`` row, and the keys changed since).
+
+    ``key_fingerprint`` and ``public_key`` are the keys in use now (after the
+    ``changes``); ``first_fingerprint`` and ``first_public_key`` the ones recorded
+    first.
+    """
 
     lab_id: str
     scheme: str
     key_fingerprint: str | None
     public_key: str | None
+    changes: tuple[rekeying.Rekeying, ...] = ()
+    first_fingerprint: str | None = None
+    first_public_key: str | None = None
 
 
 @dataclass(frozen=True)
@@ -118,11 +128,16 @@ def head_code(session: Session) -> str | None:
 
 
 def keying(conn: Connection) -> Keying | None:
-    """The trail's keying row, if it was recorded."""
+    """The trail's keying row, if it was recorded, with the keys changed since applied."""
     row = conn.execute(select(_KEYING.c.lab_id, _KEYING.c.scheme, _KEYING.c.key_fingerprint,
                               _KEYING.c.public_key).where(_KEYING.c.id == 1)).first()
-    return None if row is None else Keying(row.lab_id, row.scheme, row.key_fingerprint,
-                                          row.public_key)
+    if row is None:
+        return None
+    changes = rekeying.recorded(conn)
+    return Keying(row.lab_id, row.scheme,
+                  rekeying.current(row.key_fingerprint, changes, rekeying.AUDIT),
+                  rekeying.current(row.public_key, changes, rekeying.SIGNING),
+                  changes, row.key_fingerprint, row.public_key)
 
 
 def record_keying(conn: Connection, scheme: str, fingerprint: str | None) -> Keying:
@@ -204,13 +219,19 @@ def message(lab_id: str, events: int, head_hash: str, made_at: str) -> bytes:
 
 def signature_ok(cp: Checkpoint) -> bool:
     """True when ``cp.signature`` is its public key's signature of its fields."""
+    return signature_verifies(cp.public_key, cp.signature,
+                              message(cp.lab_id, cp.events, cp.head_hash, cp.made_at))
+
+
+def signature_verifies(public_key: str, signature: str, text: bytes) -> bool:
+    """True when ``signature`` (hex) is the Ed25519 signature of ``text`` by the public
+    key ``public_key`` (raw, hex)."""
     from cryptography.exceptions import InvalidSignature
     from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
 
     try:
-        public = Ed25519PublicKey.from_public_bytes(bytes.fromhex(cp.public_key))
-        public.verify(bytes.fromhex(cp.signature),
-                      message(cp.lab_id, cp.events, cp.head_hash, cp.made_at))
+        public = Ed25519PublicKey.from_public_bytes(bytes.fromhex(public_key))
+        public.verify(bytes.fromhex(signature), text)
     except (InvalidSignature, ValueError, TypeError):
         return False
     return True
@@ -304,7 +325,7 @@ def read_witness(folder: Path, lab_id: str) -> tuple[list[Checkpoint], list[str]
         if not line.strip():
             continue
         try:
-            found.append(_from_json(json.loads(line)))
+            found.append(checkpoint_of(json.loads(line)))
         except (ValueError, TypeError, KeyError):
             faults.append(f"line {number} of the witness file {path} is not a checkpoint")
     return found, faults
@@ -319,7 +340,9 @@ def other_trails(folder: Path, lab_id: str) -> list[str]:
                   if p != witness_file(folder, lab_id))
 
 
-def _from_json(data: dict[str, Any]) -> Checkpoint:
+def checkpoint_of(data: Mapping[str, Any]) -> Checkpoint:
+    """A checkpoint from its fields as written outside the database (ValueError, TypeError
+    or KeyError when they are not one)."""
     cp = Checkpoint(lab_id=str(data["lab_id"]), events=int(data["events"]),
                     head_hash=str(data["head_hash"]), made_at=str(data["made_at"]),
                     public_key=str(data["public_key"]), signature=str(data["signature"]))
@@ -343,8 +366,13 @@ def _before_commit(session: Session) -> None:
 
 
 def witness(cp: Checkpoint) -> Path | None:
-    """Append a committed checkpoint to the configured witness folder (if one is set);
-    the file it went to."""
+    """Append a committed checkpoint to the configured witness database and witness
+    folder (each if set); the file it went to in the folder."""
+    from prepbook.store.audit import witness_db
+
+    url = witness_db.witness_database()
+    if url is not None:
+        witness_db.witness(url, asdict(cp), cp.code)
     folder = witness_folder()
     if folder is None:
         return None
@@ -353,6 +381,14 @@ def witness(cp: Checkpoint) -> Path | None:
     except InvalidInput as exc:
         raise InvalidInput(f"recorded, and checkpoint {cp.code} kept in the database, but "
                            f"not witnessed: {exc}") from exc
+
+
+def made_here(session: Session, cp: Checkpoint) -> None:
+    """``cp`` is this transaction's checkpoint, made by its caller: witnessed after the
+    commit, and no other made before it (a change of the signing key, whose old key
+    no longer signs)."""
+    session.info.pop(HEAD_KEY, None)
+    session.info[_PENDING] = cp
 
 
 @event.listens_for(Session, "after_commit")

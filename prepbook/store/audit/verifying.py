@@ -37,7 +37,7 @@ from sqlalchemy import Connection, Date, DateTime, Table, select
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput
-from prepbook.store.audit import witnessing
+from prepbook.store.audit import rekey_check, witnessing
 from prepbook.store.audit.chain import (
     CLOCK_TOLERANCE,
     KEY_ENV,
@@ -128,11 +128,13 @@ class _Problems:
 
 
 def verify(session: Session, *, codes: Sequence[str] = (), witness: Path | None = None,
-           thorough: bool = False) -> VerifyReport:
+           thorough: bool = False, witness_db: str | None = None,
+           keyring: Path | None = None) -> VerifyReport:
     """Recompute the whole chain, hold it against every checkpoint in sight (the
-    database's, the ``witness`` folder's, ``codes`` typed from paper) and check every
-    audited row against its last event; the schema, the file (``thorough``: every page)
-    and the credentials too."""
+    database's, the ``witness`` folder's and the ``witness_db``'s, ``codes`` typed from
+    paper) and check every audited row against its last event; the schema, the file
+    (``thorough``: every page) and the credentials too. Each stretch of the chain is
+    checked with the audit key of its time (old keys from the ``keyring`` folder)."""
     problems = _Problems()
     try:
         key = read_key()
@@ -145,27 +147,32 @@ def verify(session: Session, *, codes: Sequence[str] = (), witness: Path | None 
         problems.add(kind, problem)
     kept = keying(conn)
     _check_keying(kept, key, problems)
-    seen = witnessing.gather(conn, kept, codes, witness, problems.add)
-    chain = _check_chain(conn, key, problems, {a.events for a in seen})
+    keys = rekey_check.checked(conn, kept, key, keyring, problems.add)
+    witnesses = witnessing.sources(witness, witness_db)
+    seen = witnessing.gather(conn, kept, codes, witnesses, problems.add)
+    chain = _check_chain(conn, keys.stretches, problems, {a.events for a in seen})
     removed = _check_head(conn, chain, problems)
-    found = witnessing.compare(seen, chain.last_seq, chain.hashes_at, kept, problems.add)
+    found = witnessing.compare(seen, chain.last_seq, chain.hashes_at, kept, keys, witnesses,
+                               problems.add)
     _check_rows(conn, chain.last_events, problems, removed or found.shortened)
     listed = problems.as_tuple()
     return VerifyReport(
         ok=not listed, events=chain.events, head_hash=chain.last_hash, problems=listed,
         checkpoint=code_of(chain.last_seq, chain.last_hash) if chain.last_hash else None,
         checkpoints_checked=len(seen), witnessed_events=found.witnessed_events,
-        notes=_notes(chain, found, witness))
+        notes=(*_notes(chain, found, witnesses), *found.gaps))
 
 
-def _notes(chain: _Chain, found: witnessing.Findings, witness: Path | None) -> tuple[str, ...]:
+def _notes(chain: _Chain, found: witnessing.Findings,
+           witnesses: Sequence[witnessing.Source]) -> tuple[str, ...]:
     """What the checks could not rule out, said plainly."""
     if found.witnessed_events is None:
-        where = ("no witness outside the database was checked" if witness is None else
-                 f"no checkpoint of the witness folder {witness} matched this trail")
+        where = ("no witness outside the database was checked" if not witnesses else
+                 " or ".join(f"no checkpoint of the {w.name} {w.where}" for w in witnesses)
+                 + " matched this trail")
         return (f"{where}: a shortened trail (its last events removed) or a rollback to an "
-                "older copy cannot be ruled out; set witness_folder or give --checkpoint "
-                "CODE from a printed report",)
+                "older copy cannot be ruled out; set witness_folder or witness_database, or "
+                "give --checkpoint CODE from a printed report",)
     if found.witnessed_events < chain.last_seq:
         return (f"events up to #{found.witnessed_events} are attested by a witness outside "
                 f"the database; the {chain.last_seq - found.witnessed_events} after it only "
@@ -211,14 +218,18 @@ _EVENT_COLUMNS = ("seq", "at", "actor", "action", "record_type", "record_id", "v
                   "reason", "performed_at", "prev_hash", "hash", "os_login", "host", "key_id")
 
 
-def _check_chain(conn: Connection, key: bytes | None, problems: _Problems,
-                 wanted: set[int]) -> _Chain:
-    """One pass over the events: each hash recomputed, each link to the one before, each
-    time no earlier than the one before; the hashes of the ``wanted`` events kept."""
+def _check_chain(conn: Connection, stretches: Sequence[rekey_check.Stretch],
+                 problems: _Problems, wanted: set[int]) -> _Chain:
+    """One pass over the events: each hash recomputed (with the audit key of its
+    stretch), each link to the one before, each time no earlier than the one before;
+    the hashes of the ``wanted`` events kept."""
+    later = list(stretches[1:])
+    key = stretches[0].key
     scheme, digest = hasher(key)
     prefix = f"{scheme}:"
     other_prefix = f"{KEYED if scheme == PLAIN else PLAIN}:"
     our_key = key_fingerprint(key)
+    switch_at = later[0].first_seq if later else None
     last_events: LastEvents = {}
     hashes_at: dict[int, str] = {}
     count = prev_seq = other_scheme = 0
@@ -230,6 +241,12 @@ def _check_chain(conn: Connection, key: bytes | None, problems: _Problems,
              login, host, key_id) in rows:
             if seq != prev_seq + 1 or linked != prev_hash:
                 _not_linked(problems, seq, prev_seq)
+            while switch_at is not None and seq >= switch_at:  # the audit key was changed
+                key = later.pop(0).key
+                scheme, digest = hasher(key)
+                prefix, our_key = f"{scheme}:", key_fingerprint(key)
+                other_prefix = f"{KEYED if scheme == PLAIN else PLAIN}:"
+                switch_at = later[0].first_seq if later else None
             last_events[(rtype, rid)] = (seq, values)
             if seq in wanted:
                 hashes_at[seq] = stored

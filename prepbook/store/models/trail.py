@@ -109,3 +109,29 @@ class LoginSession(Base):
     last_seen_at: Mapped[datetime]
     ended_at: Mapped[datetime | None]
     ended_reason: Mapped[str | None]
+
+
+class AuditRekeying(Base):
+    """A change of the lab's audit key or signing key, made by ``audit rotate-key``.
+
+    ``kind`` is "audit" (the HMAC key: ``old_key``/``new_key`` are fingerprints) or
+    "signing" (the Ed25519 key: public keys, hex). The change takes effect after event
+    ``after_seq``, whose hash is ``after_hash``; ``old_proof`` and ``new_proof`` are the
+    HMAC (audit) or signature (signing) of ``prepbook.store.audit.rekeying.statement``
+    with the old and the new key, so a change not made with the key of its time is
+    found by ``audit verify``. Rows are only ever added.
+    """
+
+    __tablename__ = "audit_rekeyings"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    lab_id: Mapped[str]
+    kind: Mapped[str]
+    after_seq: Mapped[int]
+    after_hash: Mapped[str]
+    old_key: Mapped[str]
+    new_key: Mapped[str]
+    made_at: Mapped[datetime]
+    made_by: Mapped[str]
+    old_proof: Mapped[str]
+    new_proof: Mapped[str]
