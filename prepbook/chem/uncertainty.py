@@ -293,7 +293,8 @@ def repeatability_term(u_rel_validated: float | None,
 
 
 REFERENCE_U_MISSING_REASON = (
-    "the reference solution's record holds no uncertainty: what it passes on is unknown")
+    "no uncertainty of the reference's normality is on record or given: what it passes "
+    "on is unknown")
 
 
 def secondary_budget(

@@ -139,6 +139,12 @@ def normality(
         help="Validated repeatability, relative SD of one result in % (e.g. from the "
              "method validation); used in the budget instead of the replicates' scatter."
     ),
+    reaction: str = typer.Option(
+        None, "--reaction", metavar="NAME",
+        help="The standard's reaction, by name, where it has more than one (sodium "
+             "carbonate: acid-base-first, n = 1, to the first endpoint); default: the one "
+             "that pairs with the titrant."
+    ),
     as_json: bool = JSON,
 ) -> None:
     """Normality of a titrant from replicate titrations of a weighed primary standard."""
@@ -157,6 +163,7 @@ def normality(
         burette_capacity_ml=burette_capacity,
         temperature_range_c=temp_range,
         repeatability_percent=repeatability,
+        reaction=reaction,
     )
     if as_json:
         output.emit_json(result)
@@ -191,14 +198,20 @@ def normality(
     out.print(line)
     if result.molarity is not None:
         out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
-    gaps = [line.quantity for line in result.budget if line.missing is not None]
-    out.print(
-        f"u = {output.sig(result.u, 2)} eq/L, U = {output.sig(result.U, 2)} eq/L "
-        f"(k = {result.k:g})" + (f", incomplete: {', '.join(gaps)} missing" if gaps else "")
-    )
-    out.print(_budget_table(result.budget))
-    _notes(out, result.uncertainty_notes)
+    _uncertainty(out, result.u, result.U, result.k, result.budget, result.uncertainty_notes)
     output.warn_lines(output.console(stderr=True), result.warnings)  # one line each
+
+
+def _uncertainty(out: Any, u: float | None, big_u: float | None, k: float | None,
+                 budget: Sequence[BudgetLine], notes: Sequence[str]) -> None:
+    """The combined and expanded uncertainty, the gaps named, the budget and its notes."""
+    gaps = [line.quantity for line in budget if line.missing is not None]
+    out.print(
+        f"u = {output.sig(u, 2)} eq/L, U = {output.sig(big_u, 2)} eq/L "
+        f"(k = {k:g})" + (f", incomplete: {', '.join(gaps)} missing" if gaps else "")
+    )
+    out.print(_budget_table(budget))
+    _notes(out, notes)
 
 
 @app.command("secondary")
@@ -215,13 +228,38 @@ def secondary(
         help="mL of the solution being standardized at each endpoint. Repeat."
     ),
     blank: str = typer.Option("0", "--blank", metavar="ML", help="Blank titration volume, mL."),
+    reference_u: str = typer.Option(
+        None, "--reference-u", metavar="EQ/L",
+        help="Standard uncertainty of the reference's normality, eq/L (its record's u); "
+             "without it the budget names it missing."
+    ),
+    pipette_tolerance: str = typer.Option(
+        "0.03", "--pipette-tolerance", metavar="ML",
+        help="Pipette tolerance, +/- mL (Class A 25 mL: 0.03)."
+    ),
+    burette_tolerance: str = typer.Option(
+        "0.05", "--burette-tolerance", metavar="ML",
+        help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
+    ),
+    temp_range: str = typer.Option(
+        "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
+    ),
+    repeatability: str = typer.Option(
+        None, "--repeatability", metavar="RSD%",
+        help="Validated repeatability, relative SD of one result in %; used in the budget "
+             "instead of the replicates' scatter."
+    ),
     as_json: bool = JSON,
 ) -> None:
-    """Normality against an already standardized solution (N1 V1 = N2 V2)."""
+    """Normality against an already standardized solution (N1 V1 = N2 V2), with the
+    reference's uncertainty, the pipette, the burette and repeatability in its budget."""
     from prepbook.lab import calcs
 
     result = calcs.secondary(
-        reference_normality=reference_normality, aliquot_ml=aliquot, volumes=rep, blank_ml=blank
+        reference_normality=reference_normality, aliquot_ml=aliquot, volumes=rep,
+        blank_ml=blank, reference_u=reference_u, pipette_tolerance_ml=pipette_tolerance,
+        burette_tolerance_ml=burette_tolerance, temperature_range_c=temp_range,
+        repeatability_percent=repeatability,
     )
     if as_json:
         output.emit_json(result)
@@ -238,6 +276,7 @@ def secondary(
         f"[bold]N = {output.sig(result.normality, 5)} eq/L[/bold]  "
         f"(SD = {output.sig(result.sd, 2)}, RSD = {output.fixed(result.rsd_percent, 3)} %)"
     )
+    _uncertainty(out, result.u, result.U, result.k, result.budget, result.uncertainty_notes)
     output.warn_lines(out, result.warnings)
 
 
