@@ -106,6 +106,11 @@ class RunRecord:
     budget: tuple[BudgetRow, ...]
     reviews: tuple[ReviewRow, ...]
     replicates: tuple[ReplicateRow, ...] | None
+    # what the budget rests on (``chain_facts``); None for runs recorded before they were kept
+    reference: dict[str, Any] | None  # secondary: batch, run, normality_20c, u (at 20 C)
+    repeatability: str | None  # given, spec, estimated or missing
+    repeatability_rsd_percent: float | None  # the validated value used, if any
+    reaction: str | None  # direct: the standard's reaction
 
     def to_json(self) -> dict[str, Any]:
         """The run as plain data for JSON; without replicates when they were not read."""
@@ -113,6 +118,14 @@ class RunRecord:
         if self.replicates is None:
             del out["replicates"]
         return out
+
+
+def chain_facts(result: dict[str, Any]) -> dict[str, Any]:
+    """The ``RunRecord`` fields a run's stored result keeps about what its budget rests
+    on: the reference it inherits from, the repeatability's source, the reaction."""
+    return {"reference": result.get("reference"), "repeatability": result.get("repeatability"),
+            "repeatability_rsd_percent": result.get("repeatability_rsd_percent"),
+            "reaction": result.get("reaction")}
 
 
 @dataclass(frozen=True)
