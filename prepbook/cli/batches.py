@@ -119,13 +119,9 @@ def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings],
                   f" U = {output.sig(run.U, 2)} (k = {run.k or '-'}), verdict "
                   f"{run.verdict}")
         if run.repeatability is not None:
-            from prepbook.cli.standardize import uncertainty_source
-
             gaps = [row["quantity"] for row in run.budget if row.get("missing")]
-            source = uncertainty_source(run.reference, run.repeatability,
-                                        run.repeatability_rsd_percent)
-            out.print(f"  {source}" + (f"; uncertainty incomplete: {', '.join(gaps)} missing"
-                                       if gaps else ""))
+            out.print(f"  {output.escape(run.budget_basis())}"
+                      + (f"; uncertainty incomplete: {', '.join(gaps)} missing" if gaps else ""))
         rows = [(r.position, r.version, r.amount, r.volume_ml,
                  output.sig(r.normality, 5) if r.normality is not None else "",
                  ("superseded" if not r.current else "")

@@ -31,36 +31,13 @@ def render_result(out: Any, res: RunResult) -> None:
     gaps = [line.quantity for line in res.budget if line.missing is not None]
     if gaps:
         out.print(f"  uncertainty incomplete: {', '.join(gaps)} missing")
-    out.print("  " + uncertainty_source(res.reference, res.repeatability,
-                                        res.repeatability_rsd_percent))
+    from prepbook.lab.batch_records import budget_basis
+
+    basis = budget_basis(res.reference, res.repeatability, res.repeatability_rsd_percent)
+    out.print("  " + output.escape(basis))
     for c in res.checks:
         mark = "ok  " if c.passed else ("FAIL" if c.severity == "fail" else "warn")
         out.print(f"  {mark} {c.name}: {c.message}")
-
-
-REPEATABILITY_WORDS = {
-    "given": "the validated {rsd:g} % given for this run",
-    "spec": "the spec's validated {rsd:g} %",
-    "estimated": "estimated from the replicates",
-    "missing": "cannot be estimated from one replicate (none given, none in the spec)",
-}
-
-
-def uncertainty_source(reference: Any, repeatability: str | None,
-                       rsd_percent: float | None) -> str:
-    """Where a run's budget took its repeatability and, for a secondary run, the
-    uncertainty its reference passes on."""
-    words = REPEATABILITY_WORDS.get(repeatability or "", "not recorded")
-    text = "repeatability: " + words.format(rsd=rsd_percent or 0.0)
-    if reference is not None:
-        ref = reference if isinstance(reference, dict) else vars(reference)
-        u = ref.get("u")
-        inherited = ("no uncertainty on record" if u is None else
-                     f"u = {output.sig(u, 2)} eq/L "
-                     f"({100 * u / ref['normality_20c']:.3f} %)")
-        text += (f"; inherits from {ref['batch']} (run {ref['run']}, "
-                 f"{output.sig(ref['normality_20c'], 5)} eq/L at 20 C, {inherited})")
-    return output.escape(text)
 
 
 def standardize(

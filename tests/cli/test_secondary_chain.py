@@ -10,9 +10,12 @@ CG4 Example A3 carries the NaOH of Example A2 into the HCl result the same way).
 
 from __future__ import annotations
 
+import io
 import math
+from pathlib import Path
 
 import pytest
+from pypdf import PdfReader
 
 from tests.cli.test_bench_flow import _at, _make_batch, _standardize, bench  # noqa: F401
 from tests.conftest import Cli
@@ -42,7 +45,8 @@ def _secondary(bench: Cli, hcl: str, naoh: str, *extra: str, reps: list[str] = H
     return bench.json(*args, *extra, user="ben")
 
 
-def test_secondary_run_inherits_the_references_recorded_uncertainty(bench: Cli) -> None:  # noqa: F811
+def test_secondary_run_inherits_the_references_recorded_uncertainty(  # noqa: F811
+        bench: Cli, tmp_path: Path) -> None:
     naoh, ref_run = _accepted_naoh(bench)
     hcl = _hcl(bench)
     res = _secondary(bench, hcl, naoh)
@@ -71,6 +75,14 @@ def test_secondary_run_inherits_the_references_recorded_uncertainty(bench: Cli) 
     assert run["repeatability"] == "estimated"
     text = bench.ok("batch", "show", hcl).stdout
     assert f"inherits from {naoh} (run {ref_run['run']}" in " ".join(text.split())
+
+    # and the report, where a primary run shows its budget
+    pdf = tmp_path / "hcl.pdf"
+    bench.ok("report", hcl, "--output", str(pdf))
+    reader = PdfReader(io.BytesIO(pdf.read_bytes()))
+    page_text = " ".join(" ".join((p.extract_text() or "").split()) for p in reader.pages)
+    assert "reference normality (N_ref)" in page_text
+    assert f"inherits from {naoh} (run {ref_run['run']}" in page_text
 
 
 def test_one_replicate_names_the_missing_repeatability_until_one_is_given(bench: Cli) -> None:  # noqa: F811
