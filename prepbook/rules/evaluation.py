@@ -209,7 +209,7 @@ def evaluate(s: Standardization) -> Evaluation:
     indicator = s.judgement.indicator if s.judgement else None
     if s.standard is not None:
         std_mat = loader.find_material(s.standard.material)
-        std_rx, titrant_rx = _reactions(std_mat, solute, s.reaction)
+        std_rx, titrant_rx = reactions_for(std_mat, solute, s.reaction)
         standard, facts = _primary(std_mat, std_rx, s.standard, notes)
         linearity = s.balance_linearity_g
         if linearity is None:
@@ -315,7 +315,7 @@ def _repeatability_source(s: Standardization, included: int) -> RepeatabilitySou
     return "estimated" if included > 1 else "missing"
 
 
-def _reactions(standard: Material, titrant: Material | None,
+def reactions_for(standard: Material, titrant: Material | None,
                name: str | None) -> tuple[Reaction, Reaction | None]:
     """The standard's reaction (the one named, else the pair's) and the titrant's.
 
