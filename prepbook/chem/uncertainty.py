@@ -306,27 +306,20 @@ def secondary_budget(
     pipette_tolerance_ml: float,
     burette_tolerance_ml: float,
     temperature_range_c: float = 3.0,
-    u_rel_repeatability: float | None = None,
-    replicate_normalities: Sequence[float] = (),
-    blank_ml: float = 0.0,
-    u_blank_ml: float = 0.0,
-    k: float = COVERAGE_FACTOR,
-    report_value: float | None = None,
-    notes: Sequence[str] = (),
+    **rest: Any,
 ) -> UncertaintyResult:
     """Budget of a secondary standardization from the glassware's tolerances: the
     pipette that delivers the aliquot and the burette that measures the titrant each
     count their tolerance (triangular) and the temperature range (rectangular, dilute
     aqueous expansion), as ``volume_u_from_burette`` does after CG4 Example A2; the
-    rest is ``secondary_budget_from_u``'s."""
+    rest (``rest``: its keyword arguments) is ``secondary_budget_from_u``'s."""
     for name, number in (("aliquot (mL)", aliquot_ml), ("titrant volume (mL)", volume_ml)):
         _check_positive(name, number)
     return secondary_budget_from_u(
         reference_normality, u_reference_normality, aliquot_ml,
         volume_u_from_burette(pipette_tolerance_ml, aliquot_ml, temperature_range_c),
         volume_ml, volume_u_from_burette(burette_tolerance_ml, volume_ml, temperature_range_c),
-        u_rel_repeatability=u_rel_repeatability, replicate_normalities=replicate_normalities,
-        blank_ml=blank_ml, u_blank_ml=u_blank_ml, k=k, report_value=report_value, notes=notes)
+        **rest)
 
 
 def _check_positive(name: str, number: float) -> float:

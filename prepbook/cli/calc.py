@@ -64,6 +64,18 @@ app = typer.Typer(
 )
 
 JSON = typer.Option(False, "--json", help="Print one JSON document instead of a table.")
+BURETTE_TOLERANCE = typer.Option(
+    "0.05", "--burette-tolerance", metavar="ML",
+    help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
+)
+TEMP_RANGE = typer.Option(
+    "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
+)
+REPEATABILITY = typer.Option(
+    None, "--repeatability", metavar="RSD%",
+    help="Validated repeatability, relative SD of one result in % (e.g. from the method "
+         "validation); used in the budget instead of the replicates' scatter."
+)
 
 
 def _budget_row(line: BudgetLine) -> tuple[str, ...]:
@@ -123,22 +135,13 @@ def normality(
     linearity: str = typer.Option(
         "0.15", "--linearity", metavar="MG", help="Balance linearity, +/- mg (each weighing)."
     ),
-    burette_tolerance: str = typer.Option(
-        "0.05", "--burette-tolerance", metavar="ML",
-        help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
-    ),
+    burette_tolerance: str = BURETTE_TOLERANCE,
     burette_capacity: str = typer.Option(
         None, "--burette-capacity", metavar="ML",
         help="Burette capacity, mL: warns below 30 % of it."
     ),
-    temp_range: str = typer.Option(
-        "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
-    ),
-    repeatability: str = typer.Option(
-        None, "--repeatability", metavar="RSD%",
-        help="Validated repeatability, relative SD of one result in % (e.g. from the "
-             "method validation); used in the budget instead of the replicates' scatter."
-    ),
+    temp_range: str = TEMP_RANGE,
+    repeatability: str = REPEATABILITY,
     reaction: str = typer.Option(
         None, "--reaction", metavar="NAME",
         help="The standard's reaction, by name, where it has more than one (sodium "
@@ -237,18 +240,9 @@ def secondary(
         "0.03", "--pipette-tolerance", metavar="ML",
         help="Pipette tolerance, +/- mL (Class A 25 mL: 0.03)."
     ),
-    burette_tolerance: str = typer.Option(
-        "0.05", "--burette-tolerance", metavar="ML",
-        help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
-    ),
-    temp_range: str = typer.Option(
-        "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
-    ),
-    repeatability: str = typer.Option(
-        None, "--repeatability", metavar="RSD%",
-        help="Validated repeatability, relative SD of one result in %; used in the budget "
-             "instead of the replicates' scatter."
-    ),
+    burette_tolerance: str = BURETTE_TOLERANCE,
+    temp_range: str = TEMP_RANGE,
+    repeatability: str = REPEATABILITY,
     as_json: bool = JSON,
 ) -> None:
     """Normality against an already standardized solution (N1 V1 = N2 V2), with the
