@@ -9,15 +9,12 @@ from __future__ import annotations
 
 from collections.abc import Iterator, MutableMapping, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import typer
 from typer.core import TyperGroup
 
 from prepbook.cli import output
-
-if TYPE_CHECKING:
-    from prepbook.chem.uncertainty import BudgetLine
 
 #: Commands of this group defined in prepbook.cli.calc_sample, imported on first use.
 LATER = ("sample", "eqpoint", "salt")
@@ -78,32 +75,9 @@ REPEATABILITY = typer.Option(
 )
 
 
-def _budget_row(line: BudgetLine) -> tuple[str, ...]:
-    value = f"{output.sig(line.value, 6)} {'' if line.unit == '1' else line.unit}".strip()
-    if line.missing is not None:  # a term that belongs here but was not evaluated
-        return (line.quantity, value, "missing", "missing", "missing", "-")
-    return (
-        line.quantity,
-        value,
-        output.sig(line.u, 2),
-        "-" if line.u_relative is None else f"{line.u_relative * 100:.3f} %",
-        output.sig(line.contribution, 2),
-        f"{line.share_percent:.1f} %",
-    )
-
-
 def _notes(out: Any, notes: Sequence[str]) -> None:
     for note in notes:
         out.print(f"note: {note}", markup=False)
-
-
-def _budget_table(budget: Sequence[BudgetLine], unit: str = "eq/L") -> object:
-    return output.table(
-        "Uncertainty budget (GUM)",
-        ["quantity", "value", "u", "u (rel.)", f"contrib. ({unit})", "share"],
-        [_budget_row(line) for line in budget],
-        right=(1, 2, 3, 4, 5),
-    )
 
 
 @app.command("normality")
@@ -201,20 +175,11 @@ def normality(
     out.print(line)
     if result.molarity is not None:
         out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
-    _uncertainty(out, result.u, result.U, result.k, result.budget, result.uncertainty_notes)
+    from prepbook.cli.budget_view import uncertainty
+
+    uncertainty(out, result.u, result.U, result.k, result.budget)
+    _notes(out, result.uncertainty_notes)
     output.warn_lines(output.console(stderr=True), result.warnings)  # one line each
-
-
-def _uncertainty(out: Any, u: float | None, big_u: float | None, k: float | None,
-                 budget: Sequence[BudgetLine], notes: Sequence[str]) -> None:
-    """The combined and expanded uncertainty, the gaps named, the budget and its notes."""
-    gaps = [line.quantity for line in budget if line.missing is not None]
-    out.print(
-        f"u = {output.sig(u, 2)} eq/L, U = {output.sig(big_u, 2)} eq/L "
-        f"(k = {k:g})" + (f", incomplete: {', '.join(gaps)} missing" if gaps else "")
-    )
-    out.print(_budget_table(budget))
-    _notes(out, notes)
 
 
 @app.command("secondary")
@@ -270,7 +235,10 @@ def secondary(
         f"[bold]N = {output.sig(result.normality, 5)} eq/L[/bold]  "
         f"(SD = {output.sig(result.sd, 2)}, RSD = {output.fixed(result.rsd_percent, 3)} %)"
     )
-    _uncertainty(out, result.u, result.U, result.k, result.budget, result.uncertainty_notes)
+    from prepbook.cli.budget_view import uncertainty
+
+    uncertainty(out, result.u, result.U, result.k, result.budget)
+    _notes(out, result.uncertainty_notes)
     output.warn_lines(out, result.warnings)
 
 

@@ -13,7 +13,8 @@ from typing import Any
 import typer
 
 from prepbook.cli import output
-from prepbook.cli.calc import JSON, _budget_table, _notes
+from prepbook.cli.budget_view import budget_table as _budget_table
+from prepbook.cli.calc import JSON, _notes
 
 
 def sample(

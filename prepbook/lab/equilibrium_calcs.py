@@ -60,7 +60,8 @@ class AnalyteEqpoint:
     notes: tuple[str, ...]
 
 
-def acid_base_system(analyte: Analyte | Material, protons: int) -> tuple[tuple[float, ...], int, int]:
+def acid_base_system(analyte: Analyte | Material,
+                     protons: int) -> tuple[tuple[float, ...], int, int]:
     """(pKa values, protons carried, units per formula) of the analyte for the model; a
     strong acid or base without pKa values gets ``protons`` strong steps."""
     if analyte.acid_base is None or analyte.initial_protons is None:

@@ -37,16 +37,17 @@ def _hcl(bench: Cli) -> str:  # noqa: F811
     return str(made["batch"])
 
 
-def _secondary(bench: Cli, hcl: str, naoh: str, *extra: str, reps: list[str] = HCL_REPS,
-               ) -> dict:
-    args = ["standardize", hcl, "--against", naoh, "--burette", "BUR-1", "--at", _at(-1, "11:00")]
+def _secondary(bench: Cli, hcl: str, naoh: str, *extra: str,  # noqa: F811
+               reps: list[str] = HCL_REPS) -> dict:
+    args = ["standardize", hcl, "--against", naoh, "--burette", "BUR-1", "--at",
+            _at(-1, "11:00")]
     for r in reps:
         args += ["--rep", r]
     return bench.json(*args, *extra, user="ben")
 
 
-def test_secondary_run_inherits_the_references_recorded_uncertainty(  # noqa: F811
-        bench: Cli, tmp_path: Path) -> None:
+def test_secondary_run_inherits_the_references_recorded_uncertainty(
+        bench: Cli, tmp_path: Path) -> None:  # noqa: F811
     naoh, ref_run = _accepted_naoh(bench)
     hcl = _hcl(bench)
     res = _secondary(bench, hcl, naoh)
