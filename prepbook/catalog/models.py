@@ -258,6 +258,9 @@ class SpecDefaults:
     preparation_stock_spec: str | None = None
     preparation_stock_ml_per_l: float | None = None
     sources: tuple[tuple[str, str], ...] = ()
+    #: A validated repeatability: relative SD of one result, %, from the method's
+    #: validation; a run's uncertainty budget uses it unless the run gives its own.
+    repeatability_rsd_percent: float | None = None
 
     @property
     def lookup_names(self) -> tuple[str, ...]:

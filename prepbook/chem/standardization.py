@@ -52,6 +52,7 @@ from prepbook.chem.uncertainty import (
     mass_u_from_balance,
     propagate,
     repeatability_term,
+    secondary_budget_from_u,
     volume_u_from_burette,
 )
 from prepbook.errors import InvalidInput
@@ -347,16 +348,21 @@ def direct(
 
 def secondary(
     reference_normality: float,
-    u_reference_normality: float,
+    u_reference_normality: float | None,
     replicates: Sequence[tuple[float, float]],
     *,
     blank_ml: float = 0.0,
     uncertainty: UncertaintyInputs | None = None,
     excluded: Collection[int] = (),
 ) -> StandardizationResult:
-    """Standardize against a standardized titrant from (aliquot_ml, volume_ml) pairs."""
+    """Standardize against a standardized titrant from (aliquot_ml, volume_ml) pairs.
+
+    ``u_reference_normality`` is the reference's own standard uncertainty (eq/L), as its
+    record gives it; None when the record holds none (the budget then names it missing).
+    """
     n_ref = _positive(reference_normality, "reference normality")
-    u_ref = _non_negative(u_reference_normality, "reference normality uncertainty")
+    u_ref = (None if u_reference_normality is None else
+             _non_negative(u_reference_normality, "reference normality uncertainty"))
     blank = _non_negative(blank_ml, "blank (mL)")
     pairs = _pairs(replicates, "aliquot (mL)", blank)
     skip = check_excluded(len(pairs), excluded)
@@ -367,29 +373,18 @@ def secondary(
     budget = None
     if uncertainty is not None:
         kept = [i - 1 for i in range(1, len(pairs) + 1) if i not in skip]
-        mean_aliquot = statistics.fmean(pairs[i][0] for i in kept)
-        mean_volume = statistics.fmean(pairs[i][1] for i in kept)
-        rep = repeatability_term(uncertainty.u_rel_repeatability, stats.values)
-        rep_line, notes = rep.line, rep.notes
-        inputs = [
-            InputQuantity("reference normality", "N_ref", n_ref, "eq/L", u_ref),
-            InputQuantity("aliquot", "V_aliquot", mean_aliquot, "mL",
-                          _non_negative(uncertainty.u_aliquot_ml, "aliquot uncertainty (mL)")),
-            InputQuantity("titrant volume", "V", mean_volume, "mL",
-                          _non_negative(uncertainty.u_volume_ml, "volume uncertainty (mL)")),
-        ]
-        extra_lines, split = _blank_and_repeatability(
-            blank, _non_negative(uncertainty.u_blank_ml, "blank uncertainty (mL)"), rep_line)
-        inputs += extra_lines
-
-        def model(nr, va, v, *rest):  # type: ignore[no-untyped-def]
-            vb, f = split(rest)
-            return nr * va * f / (v - vb)
-
+        notes: tuple[str, ...] = ()
         if len(kept) > 1:
             notes = ("evaluated at the mean aliquot and mean titrant volume of the "
-                     f"{len(kept)} included replicates",) + notes
-        budget = propagate(model, inputs, report_value=stats.mean, notes=notes,
-                           missing=rep.missing)
+                     f"{len(kept)} included replicates",)
+        budget = secondary_budget_from_u(
+            n_ref, u_ref, statistics.fmean(pairs[i][0] for i in kept),
+            _non_negative(uncertainty.u_aliquot_ml, "aliquot uncertainty (mL)"),
+            statistics.fmean(pairs[i][1] for i in kept),
+            _non_negative(uncertainty.u_volume_ml, "volume uncertainty (mL)"),
+            u_rel_repeatability=uncertainty.u_rel_repeatability,
+            replicate_normalities=stats.values, blank_ml=blank,
+            u_blank_ml=_non_negative(uncertainty.u_blank_ml, "blank uncertainty (mL)"),
+            report_value=stats.mean, notes=notes)
     return StandardizationResult(normality=stats.mean, replicates=reps, stats=stats,
                                  uncertainty=budget)

@@ -28,6 +28,7 @@ combining, prints 0.13 mg), 0.012 mL for calibration and 0.0069 mL for temperatu
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import statistics
 from collections.abc import Callable, Sequence
@@ -291,61 +292,112 @@ def repeatability_term(u_rel_validated: float | None,
 # ----------------------------------------------------------------------------- secondary
 
 
+REFERENCE_U_MISSING_REASON = (
+    "no uncertainty of the reference's normality is on record or given: what it passes "
+    "on is unknown")
+
+
 def secondary_budget(
     reference_normality: float,
-    u_reference_normality: float,
+    u_reference_normality: float | None,
     aliquot_ml: float,
     volume_ml: float,
     *,
     pipette_tolerance_ml: float,
     burette_tolerance_ml: float,
     temperature_range_c: float = 3.0,
+    **rest: Any,
+) -> UncertaintyResult:
+    """Budget of a secondary standardization from the glassware's tolerances: the
+    pipette that delivers the aliquot and the burette that measures the titrant each
+    count their tolerance (triangular) and the temperature range (rectangular, dilute
+    aqueous expansion), as ``volume_u_from_burette`` does after CG4 Example A2; the
+    rest (``rest``: its keyword arguments) is ``secondary_budget_from_u``'s."""
+    for name, number in (("aliquot (mL)", aliquot_ml), ("titrant volume (mL)", volume_ml)):
+        _check_positive(name, number)
+    return secondary_budget_from_u(
+        reference_normality, u_reference_normality, aliquot_ml,
+        volume_u_from_burette(pipette_tolerance_ml, aliquot_ml, temperature_range_c),
+        volume_ml, volume_u_from_burette(burette_tolerance_ml, volume_ml, temperature_range_c),
+        **rest)
+
+
+def _check_positive(name: str, number: float) -> float:
+    if isinstance(number, bool) or not isinstance(number, (int, float)) or not (
+            math.isfinite(number) and number > 0):
+        raise InvalidInput(f"{name} {number!r} must be a positive number")
+    return float(number)
+
+
+def secondary_budget_from_u(
+    reference_normality: float,
+    u_reference_normality: float | None,
+    aliquot_ml: float,
+    u_aliquot_ml: float,
+    volume_ml: float,
+    u_volume_ml: float,
+    *,
     u_rel_repeatability: float | None = None,
     replicate_normalities: Sequence[float] = (),
     blank_ml: float = 0.0,
     u_blank_ml: float = 0.0,
     k: float = COVERAGE_FACTOR,
+    report_value: float | None = None,
+    notes: Sequence[str] = (),
 ) -> UncertaintyResult:
-    """Budget of a secondary standardization, N = N_ref V_aliquot f_rep / (V - V_blank).
+    """Budget of a secondary standardization, N = N_ref V_aliquot f_rep / (V - V_blank),
+    from the standard uncertainty of each input.
 
     The reference solution's normality carries its own standard uncertainty
-    ``u_reference_normality`` (from its record) into the result; the pipette that
-    delivers the aliquot and the burette that measures the titrant each count their
-    tolerance (triangular) and the temperature range (rectangular, dilute aqueous
-    expansion), as ``volume_u_from_burette`` does after CG4 Example A2; repeatability
-    is ``repeatability_term``'s (missing with one replicate and no validated value).
-    ``aliquot_ml`` and ``volume_ml`` are the (mean) aliquot and titrant volumes.
+    ``u_reference_normality`` (from its record) into the result; None (a record without
+    one) keeps it as a missing line instead of a zero. Repeatability is
+    ``repeatability_term``'s (missing with one replicate and no validated value).
+    ``aliquot_ml`` and ``volume_ml`` are the (mean) aliquot and titrant volumes;
+    ``report_value`` and ``notes`` are ``propagate``'s.
 
     Because the model is a product, the reference's relative uncertainty enters the
     result's in quadrature with sensitivity one: the inherited relative uncertainty is
     never below the reference's.
     """
-    for name, number in (("reference normality", reference_normality),
-                         ("aliquot (mL)", aliquot_ml), ("titrant volume (mL)", volume_ml)):
-        if isinstance(number, bool) or not isinstance(number, (int, float)) or not (
-                math.isfinite(number) and number > 0):
-            raise InvalidInput(f"{name} {number!r} must be a positive number")
+    n_ref = _check_positive("reference normality", reference_normality)
+    aliquot = _check_positive("aliquot (mL)", aliquot_ml)
+    volume = _check_positive("titrant volume (mL)", volume_ml)
     blank = _check_u("blank (mL)", blank_ml)
-    if volume_ml <= blank:
-        raise InvalidInput(f"titrant volume {volume_ml:g} mL is not greater than the blank "
+    u_blank = _check_u("blank", u_blank_ml)
+    if volume <= blank:
+        raise InvalidInput(f"titrant volume {volume:g} mL is not greater than the blank "
                            f"{blank:g} mL")
+    missing: list[MissingTerm] = []
+    u_ref = 0.0
+    if u_reference_normality is None:
+        missing.append(MissingTerm("reference normality", "N_ref", n_ref, "eq/L",
+                                   REFERENCE_U_MISSING_REASON))
+    else:
+        u_ref = _check_u("reference normality", u_reference_normality)
     inputs = [
-        InputQuantity("reference normality", "N_ref", float(reference_normality), "eq/L",
-                      _check_u("reference normality", u_reference_normality)),
-        InputQuantity("aliquot (pipette)", "V_aliquot", float(aliquot_ml), "mL",
-                      volume_u_from_burette(pipette_tolerance_ml, aliquot_ml,
-                                            temperature_range_c)),
-        InputQuantity("titrant volume (burette)", "V", float(volume_ml), "mL",
-                      volume_u_from_burette(burette_tolerance_ml, volume_ml,
-                                            temperature_range_c)),
-        InputQuantity("blank", "V_blank", blank, "mL", _check_u("blank", u_blank_ml)),
+        InputQuantity("reference normality", "N_ref", n_ref, "eq/L", u_ref),
+        InputQuantity("aliquot (pipette)", "V_aliquot", aliquot, "mL",
+                      _check_u("aliquot (mL)", u_aliquot_ml)),
+        InputQuantity("titrant volume (burette)", "V", volume, "mL",
+                      _check_u("titrant volume (mL)", u_volume_ml)),
     ]
+    with_blank = bool(blank or u_blank)
+    if with_blank:
+        inputs.append(InputQuantity("blank", "V_blank", blank, "mL", u_blank))
     term = repeatability_term(u_rel_repeatability, replicate_normalities)
     if term.line is not None:
         inputs.append(term.line)
 
-    def model(n_ref: Any, v_aliquot: Any, v: Any, v_blank: Any, *rest: Any) -> Any:
-        factor = rest[0] if rest else 1.0
-        return n_ref * v_aliquot * factor / (v - v_blank)
+    def model(n: Any, v_aliquot: Any, v: Any, *rest: Any) -> Any:
+        extra = list(rest)
+        v_blank = extra.pop(0) if with_blank else 0.0
+        factor = extra.pop(0) if extra else 1.0
+        return n * v_aliquot * factor / (v - v_blank)
 
-    return propagate(model, inputs, k=k, notes=term.notes, missing=term.missing)
+    result = propagate(model, inputs, k=k, report_value=report_value,
+                       notes=(*notes, *term.notes), missing=(*missing, *term.missing))
+    if u_reference_normality is None:  # N_ref shows once: as its missing line
+        result = dataclasses.replace(
+            result, budget=tuple(line for line in result.budget
+                                 if not (line.symbol == "N_ref" and line.missing is None)))
+    return result

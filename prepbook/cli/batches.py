@@ -118,6 +118,10 @@ def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings],
                   f"{output.fixed(run.factor, 4)}, RSD {output.fixed(run.rsd_percent, 3)} %,"
                   f" U = {output.sig(run.U, 2)} (k = {run.k or '-'}), verdict "
                   f"{run.verdict}")
+        if run.repeatability is not None:
+            gaps = [row["quantity"] for row in run.budget if row.get("missing")]
+            out.print(f"  {output.escape(run.budget_basis())}"
+                      + (f"; uncertainty incomplete: {', '.join(gaps)} missing" if gaps else ""))
         rows = [(r.position, r.version, r.amount, r.volume_ml,
                  output.sig(r.normality, 5) if r.normality is not None else "",
                  ("superseded" if not r.current else "")

@@ -9,15 +9,12 @@ from __future__ import annotations
 
 from collections.abc import Iterator, MutableMapping, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import typer
 from typer.core import TyperGroup
 
 from prepbook.cli import output
-
-if TYPE_CHECKING:
-    from prepbook.chem.uncertainty import BudgetLine
 
 #: Commands of this group defined in prepbook.cli.calc_sample, imported on first use.
 LATER = ("sample", "eqpoint", "salt")
@@ -64,34 +61,23 @@ app = typer.Typer(
 )
 
 JSON = typer.Option(False, "--json", help="Print one JSON document instead of a table.")
-
-
-def _budget_row(line: BudgetLine) -> tuple[str, ...]:
-    value = f"{output.sig(line.value, 6)} {'' if line.unit == '1' else line.unit}".strip()
-    if line.missing is not None:  # a term that belongs here but was not evaluated
-        return (line.quantity, value, "missing", "missing", "missing", "-")
-    return (
-        line.quantity,
-        value,
-        output.sig(line.u, 2),
-        "-" if line.u_relative is None else f"{line.u_relative * 100:.3f} %",
-        output.sig(line.contribution, 2),
-        f"{line.share_percent:.1f} %",
-    )
+BURETTE_TOLERANCE = typer.Option(
+    "0.05", "--burette-tolerance", metavar="ML",
+    help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
+)
+TEMP_RANGE = typer.Option(
+    "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
+)
+REPEATABILITY = typer.Option(
+    None, "--repeatability", metavar="RSD%",
+    help="Validated repeatability, relative SD of one result in % (e.g. from the method "
+         "validation); used in the budget instead of the replicates' scatter."
+)
 
 
 def _notes(out: Any, notes: Sequence[str]) -> None:
     for note in notes:
         out.print(f"note: {note}", markup=False)
-
-
-def _budget_table(budget: Sequence[BudgetLine], unit: str = "eq/L") -> object:
-    return output.table(
-        "Uncertainty budget (GUM)",
-        ["quantity", "value", "u", "u (rel.)", f"contrib. ({unit})", "share"],
-        [_budget_row(line) for line in budget],
-        right=(1, 2, 3, 4, 5),
-    )
 
 
 @app.command("normality")
@@ -123,21 +109,18 @@ def normality(
     linearity: str = typer.Option(
         "0.15", "--linearity", metavar="MG", help="Balance linearity, +/- mg (each weighing)."
     ),
-    burette_tolerance: str = typer.Option(
-        "0.05", "--burette-tolerance", metavar="ML",
-        help="Burette tolerance, +/- mL (Class A 50 mL: 0.05)."
-    ),
+    burette_tolerance: str = BURETTE_TOLERANCE,
     burette_capacity: str = typer.Option(
         None, "--burette-capacity", metavar="ML",
         help="Burette capacity, mL: warns below 30 % of it."
     ),
-    temp_range: str = typer.Option(
-        "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
-    ),
-    repeatability: str = typer.Option(
-        None, "--repeatability", metavar="RSD%",
-        help="Validated repeatability, relative SD of one result in % (e.g. from the "
-             "method validation); used in the budget instead of the replicates' scatter."
+    temp_range: str = TEMP_RANGE,
+    repeatability: str = REPEATABILITY,
+    reaction: str = typer.Option(
+        None, "--reaction", metavar="NAME",
+        help="The standard's reaction, by name, where it has more than one (sodium "
+             "carbonate: acid-base-first, n = 1, to the first endpoint); default: the one "
+             "that pairs with the titrant."
     ),
     as_json: bool = JSON,
 ) -> None:
@@ -157,6 +140,7 @@ def normality(
         burette_capacity_ml=burette_capacity,
         temperature_range_c=temp_range,
         repeatability_percent=repeatability,
+        reaction=reaction,
     )
     if as_json:
         output.emit_json(result)
@@ -191,12 +175,9 @@ def normality(
     out.print(line)
     if result.molarity is not None:
         out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
-    gaps = [line.quantity for line in result.budget if line.missing is not None]
-    out.print(
-        f"u = {output.sig(result.u, 2)} eq/L, U = {output.sig(result.U, 2)} eq/L "
-        f"(k = {result.k:g})" + (f", incomplete: {', '.join(gaps)} missing" if gaps else "")
-    )
-    out.print(_budget_table(result.budget))
+    from prepbook.cli.budget_view import uncertainty
+
+    uncertainty(out, result.u, result.U, result.k, result.budget)
     _notes(out, result.uncertainty_notes)
     output.warn_lines(output.console(stderr=True), result.warnings)  # one line each
 
@@ -215,13 +196,29 @@ def secondary(
         help="mL of the solution being standardized at each endpoint. Repeat."
     ),
     blank: str = typer.Option("0", "--blank", metavar="ML", help="Blank titration volume, mL."),
+    reference_u: str = typer.Option(
+        None, "--reference-u", metavar="EQ/L",
+        help="Standard uncertainty of the reference's normality, eq/L (its record's u); "
+             "without it the budget names it missing."
+    ),
+    pipette_tolerance: str = typer.Option(
+        "0.03", "--pipette-tolerance", metavar="ML",
+        help="Pipette tolerance, +/- mL (Class A 25 mL: 0.03)."
+    ),
+    burette_tolerance: str = BURETTE_TOLERANCE,
+    temp_range: str = TEMP_RANGE,
+    repeatability: str = REPEATABILITY,
     as_json: bool = JSON,
 ) -> None:
-    """Normality against an already standardized solution (N1 V1 = N2 V2)."""
+    """Normality against an already standardized solution (N1 V1 = N2 V2), with the
+    reference's uncertainty, the pipette, the burette and repeatability in its budget."""
     from prepbook.lab import calcs
 
     result = calcs.secondary(
-        reference_normality=reference_normality, aliquot_ml=aliquot, volumes=rep, blank_ml=blank
+        reference_normality=reference_normality, aliquot_ml=aliquot, volumes=rep,
+        blank_ml=blank, reference_u=reference_u, pipette_tolerance_ml=pipette_tolerance,
+        burette_tolerance_ml=burette_tolerance, temperature_range_c=temp_range,
+        repeatability_percent=repeatability,
     )
     if as_json:
         output.emit_json(result)
@@ -238,6 +235,10 @@ def secondary(
         f"[bold]N = {output.sig(result.normality, 5)} eq/L[/bold]  "
         f"(SD = {output.sig(result.sd, 2)}, RSD = {output.fixed(result.rsd_percent, 3)} %)"
     )
+    from prepbook.cli.budget_view import uncertainty
+
+    uncertainty(out, result.u, result.U, result.k, result.budget)
+    _notes(out, result.uncertainty_notes)
     output.warn_lines(out, result.warnings)
 
 

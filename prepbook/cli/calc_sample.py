@@ -13,7 +13,8 @@ from typing import Any
 import typer
 
 from prepbook.cli import output
-from prepbook.cli.calc import JSON, _budget_table, _notes
+from prepbook.cli.budget_view import budget_table as _budget_table
+from prepbook.cli.calc import JSON, _notes
 
 
 def sample(
@@ -142,6 +143,11 @@ def eqpoint(
         help="Titration error, % of the equivalence volume, within which an indicator is "
              "advised (default 0.1)."
     ),
+    reaction: str = typer.Option(
+        None, "--reaction", metavar="NAME",
+        help="With --standard: its reaction where it has more than one (sodium carbonate: "
+             "acid-base-first, to the first endpoint)."
+    ),
     as_json: bool = JSON,
 ) -> None:
     """pH at the equivalence point, and each indicator judged by its titration error."""
@@ -149,6 +155,8 @@ def eqpoint(
 
     if (standard is None) == (analyte is None):
         raise InvalidInput("give --standard SUBSTANCE or --analyte NAME (one of them)")
+    if reaction is not None and analyte is not None:
+        raise InvalidInput("--reaction goes with --standard (an analyte takes --method)")
     if analyte is not None:
         from prepbook.lab import equilibrium_calcs
 
@@ -165,7 +173,8 @@ def eqpoint(
         result = curves.eqpoint(standard=standard, titrant=titrant,
                                 concentration_text=concentration,
                                 titrant_concentration_text=titrant_concentration,
-                                co2_removed=co2_removed, tolerance_text=tolerance)
+                                co2_removed=co2_removed, tolerance_text=tolerance,
+                                reaction=reaction)
         what = result.reaction
     if as_json:
         output.emit_json(result)

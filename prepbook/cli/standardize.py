@@ -28,6 +28,13 @@ def render_result(out: Any, res: RunResult) -> None:
         if res.U is not None else
         f"[bold]N = {output.sig(res.normality, 5)} eq/L[/bold], factor {res.factor:.4f}"
     )
+    gaps = [line.quantity for line in res.budget if line.missing is not None]
+    if gaps:
+        out.print(f"  uncertainty incomplete: {', '.join(gaps)} missing")
+    from prepbook.lab.batch_records import budget_basis
+
+    basis = budget_basis(res.reference, res.repeatability, res.repeatability_rsd_percent)
+    out.print("  " + output.escape(basis))
     for c in res.checks:
         mark = "ok  " if c.passed else ("FAIL" if c.severity == "fail" else "warn")
         out.print(f"  {mark} {c.name}: {c.message}")
@@ -70,6 +77,16 @@ def standardize(
         help="Why it is entered late (needed when --at is more than the lab's "
         "late_entry_hours ago)."
     ),
+    repeatability: str = typer.Option(
+        None, "--repeatability", metavar="RSD%",
+        help="Validated repeatability, relative SD of one result in %, for this run's "
+             "uncertainty budget (over the spec's; without either, the replicates' scatter)."
+    ),
+    reaction: str = typer.Option(
+        None, "--reaction", metavar="NAME",
+        help="With --lot: the standard's reaction where it has more than one (sodium "
+             "carbonate: acid-base-first, n = 1); default: the one that pairs with the titrant."
+    ),
     as_json: bool = typer.Option(False, "--json", help="Print the result as JSON."),
 ) -> None:
     """Standardize a batch against a primary-standard lot or a standardized batch."""
@@ -78,7 +95,8 @@ def standardize(
     db = database(ctx)
     args: dict[str, Any] = dict(actor=actor(ctx), batch=batch, lot=lot, against=against,
                                 balance=balance, burette=burette, temperature=temp, blank=blank,
-                                indicator=indicator, at=at, late_reason=late_reason)
+                                indicator=indicator, at=at, late_reason=late_reason,
+                                repeatability=repeatability, reaction=reaction)
     replicates: list[Any] = list(rep or [])
     if not replicates:
         replicates = _ask(db, args, runs, secondary=against is not None, quiet=as_json)

@@ -106,6 +106,15 @@ class RunRecord:
     budget: tuple[BudgetRow, ...]
     reviews: tuple[ReviewRow, ...]
     replicates: tuple[ReplicateRow, ...] | None
+    # what the budget rests on (``chain_facts``); None for runs recorded before they were kept
+    reference: dict[str, Any] | None  # secondary: batch, run, normality_20c, u (at 20 C)
+    repeatability: str | None  # given, spec, estimated or missing
+    repeatability_rsd_percent: float | None  # the validated value used, if any
+    reaction: str | None  # direct: the standard's reaction
+
+    def budget_basis(self) -> str:
+        """What its budget rests on, in words (``budget_basis``)."""
+        return budget_basis(self.reference, self.repeatability, self.repeatability_rsd_percent)
 
     def to_json(self) -> dict[str, Any]:
         """The run as plain data for JSON; without replicates when they were not read."""
@@ -113,6 +122,39 @@ class RunRecord:
         if self.replicates is None:
             del out["replicates"]
         return out
+
+
+REPEATABILITY_WORDS = {
+    "given": "the validated {rsd:g} % given for this run",
+    "spec": "the spec's validated {rsd:g} %",
+    "estimated": "estimated from the replicates",
+    "missing": "cannot be estimated from one replicate (none given, none in the spec)",
+}
+
+
+def budget_basis(reference: Any, repeatability: str | None,
+                 rsd_percent: float | None) -> str:
+    """In words, what a run's budget rests on: where its repeatability came from and,
+    for a secondary run, the reference and the uncertainty it passes on (``reference``:
+    an ``evaluation.Reference`` or its stored mapping)."""
+    text = "repeatability: " + REPEATABILITY_WORDS.get(repeatability or "", "not recorded") \
+        .format(rsd=rsd_percent or 0.0)
+    if reference is None:
+        return text
+    ref = reference if isinstance(reference, dict) else asdict(reference)
+    u, n20 = ref.get("u"), ref["normality_20c"]
+    inherited = ("no uncertainty on record" if u is None
+                 else f"u = {u:.6f} eq/L ({100 * u / n20:.3f} %)")
+    return (text + f"; inherits from {ref['batch']} (run {ref['run']}, {n20:.5f} eq/L at "
+            f"20 C, {inherited})")
+
+
+def chain_facts(result: dict[str, Any]) -> dict[str, Any]:
+    """The ``RunRecord`` fields a run's stored result keeps about what its budget rests
+    on: the reference it inherits from, the repeatability's source, the reaction."""
+    return {"reference": result.get("reference"), "repeatability": result.get("repeatability"),
+            "repeatability_rsd_percent": result.get("repeatability_rsd_percent"),
+            "reaction": result.get("reaction")}
 
 
 @dataclass(frozen=True)

@@ -28,6 +28,7 @@ from prepbook.lab.batch_records import (
     RunRecord,
     UseRecorded,
     UseRow,
+    chain_facts,
 )
 from prepbook.lab.common import acting, by_code, lab_zone, work_time, write
 from prepbook.lab.volumes import draw, remaining_ml
@@ -260,7 +261,8 @@ def run_dict(session: Session, run: Run, *, with_replicates: bool = True,
         budget=tuple(cast(list[BudgetRow], result.get("budget", []))),
         reviews=tuple(ReviewRow(reviewer=r.reviewer, decision=r.decision, reason=r.reason,
                                 signed_at=when(r.signed_at)) for r in reviews),
-        replicates=_replicate_rows(session, run, replicates) if with_replicates else None)
+        replicates=_replicate_rows(session, run, replicates) if with_replicates else None,
+        **chain_facts(result))
 
 
 def _run_dicts(session: Session, runs: list[Run]) -> tuple[RunRecord, ...]:

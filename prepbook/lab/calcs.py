@@ -14,7 +14,13 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 from prepbook.errors import InvalidInput
-from prepbook.inputs import ReplicateEntry, parse_number, parse_percent, parse_replicates
+from prepbook.inputs import (
+    ReplicateEntry,
+    parse_number,
+    parse_percent,
+    parse_replicates,
+    parse_text,
+)
 
 if TYPE_CHECKING:
     from prepbook.chem.stats import OutlierFlag
@@ -71,10 +77,13 @@ class NormalityResult:
     warnings: tuple[str, ...]
     repeatability_rsd_percent: float | None  # the validated value given, if any
     uncertainty_notes: tuple[str, ...]  # what the budget assumed or left out
+    repeatability: str  # given, or estimated from the replicates, or missing (one)
 
 
 @dataclass(frozen=True)
 class SecondaryResult:
+    """``calc secondary``: its fields are the keys of the command's JSON."""
+
     reference_normality: float
     aliquot_ml: float
     blank_ml: float
@@ -83,6 +92,14 @@ class SecondaryResult:
     sd: float | None
     rsd_percent: float | None
     warnings: tuple[str, ...]
+    reference_u: float | None  # the reference's standard uncertainty as given, eq/L
+    u: float | None
+    U: float | None
+    k: float | None
+    budget: tuple[BudgetLine, ...]
+    repeatability_rsd_percent: float | None
+    repeatability: str
+    uncertainty_notes: tuple[str, ...]
 
 
 def _stat_warnings(n: int, rsd_percent: float | None, outlier: OutlierFlag | None) -> list[str]:
@@ -118,13 +135,16 @@ def normality(
     burette_capacity_ml: str | None = None,
     temperature_range_c: str = "3",
     repeatability_percent: str | None = None,
+    reaction: str | None = None,
 ) -> NormalityResult:
     """Normality of a titrant from weighed primary standard: the one evaluation of a
     standardization (``prepbook.rules.evaluation``), with the calculator's advice.
 
     ``repeatability_percent``: a validated repeatability (relative SD of one result, %,
     e.g. from the method's validation), used in the budget instead of the replicates'
-    scatter; without it one replicate leaves the repeatability term missing."""
+    scatter; without it one replicate leaves the repeatability term missing.
+    ``reaction``: the standard's reaction by name (carbonate's first endpoint), else
+    the one that pairs with the titrant."""
     from prepbook.rules import evaluation as ev
     from prepbook.rules import plausibility as plaus
 
@@ -145,8 +165,7 @@ def normality(
         if burette_capacity_ml is not None
         else None
     )
-    rsd = (parse_percent(repeatability_percent, "repeatability RSD (%)").value
-           if repeatability_percent is not None else None)
+    rsd = _repeatability(repeatability_percent)
     linearity_text = parse_number(linearity_mg, "balance linearity (mg)").text
     tol_text = parse_number(burette_tolerance_ml, "burette tolerance (mL)").text
     # What cannot be right is refused; what is unusual becomes a warning.
@@ -173,6 +192,7 @@ def normality(
         burette_tolerance_ml=tol,
         burette_capacity_ml=capacity,
         u_rel_repeatability=None if rsd is None else rsd / 100,
+        reaction=parse_text(reaction, "reaction", max_len=60),
     ))
     std, reaction = e.standard, e.reaction
     assert std is not None and reaction is not None, "a weighed standard has a reaction"
@@ -207,7 +227,15 @@ def normality(
         warnings=tuple(warnings),
         repeatability_rsd_percent=rsd,
         uncertainty_notes=e.uncertainty_notes,
+        repeatability=e.repeatability,
     )
+
+
+def _repeatability(text: str | None) -> float | None:
+    """A validated repeatability as typed (relative SD of one result, %), or None."""
+    if text is None:
+        return None
+    return parse_percent(text, "repeatability RSD (%)").value
 
 
 def readings_of(entries: Iterable[ReplicateEntry]) -> tuple[Reading, ...]:
@@ -220,31 +248,61 @@ def readings_of(entries: Iterable[ReplicateEntry]) -> tuple[Reading, ...]:
 
 
 def secondary(
-    *, reference_normality: str, aliquot_ml: str, volumes: list[str], blank_ml: str = "0"
+    *,
+    reference_normality: str,
+    aliquot_ml: str,
+    volumes: list[str],
+    blank_ml: str = "0",
+    reference_u: str | None = None,
+    pipette_tolerance_ml: str = "0.03",
+    burette_tolerance_ml: str = "0.05",
+    temperature_range_c: str = "3",
+    repeatability_percent: str | None = None,
 ) -> SecondaryResult:
-    from prepbook.chem import standardization as st
+    """Normality against a standardized solution, with its budget: the reference's own
+    standard uncertainty (``reference_u``, eq/L; without it the budget names it
+    missing), the pipette, the burette and the repeatability, as a recorded secondary
+    run computes them (``prepbook.rules.evaluation``)."""
+    from prepbook.rules import evaluation as ev
 
     ref = parse_number(reference_normality, "reference normality", positive=True)
     aliquot = parse_number(aliquot_ml, "aliquot (mL)", positive=True)
-    blank = parse_number(blank_ml, "blank (mL)", non_negative=True).value
+    blank = parse_number(blank_ml, "blank (mL)", non_negative=True)
+    u_ref = (parse_number(reference_u, "reference uncertainty (eq/L)", non_negative=True).value
+             if reference_u is not None else None)
+    pipette = parse_number(pipette_tolerance_ml, "pipette tolerance (mL)", non_negative=True)
+    tol = parse_number(burette_tolerance_ml, "burette tolerance (mL)", non_negative=True)
+    t_range = parse_number(temperature_range_c, "temperature range (C)", non_negative=True)
+    rsd = _repeatability(repeatability_percent)
     if not volumes:
         raise InvalidInput("at least one replicate (--rep VOLUME) is required")
     entries = parse_replicates([f"{aliquot.text}:{v}" for v in volumes], amount_name="aliquot (mL)")
-    result = st.secondary(
-        ref.value, 0.0, [(e.amount.value, e.volume.value) for e in entries], blank_ml=blank
-    )
-    stats = result.stats
+    e = ev.evaluate(ev.Standardization(
+        readings=readings_of(entries), titrant=None,
+        reference=ev.Reference(batch="the reference", run=None, normality_20c=ref.value,
+                               u=u_ref),
+        blank_ml=blank.value, blank_text=blank.text, temperature_range_c=t_range.value,
+        burette_tolerance_ml=tol.value, pipette_tolerance_ml=pipette.value,
+        u_rel_repeatability=None if rsd is None else rsd / 100))
     return SecondaryResult(
         reference_normality=ref.value,
         aliquot_ml=aliquot.value,
-        blank_ml=blank,
-        normality=result.normality,
+        blank_ml=blank.value,
+        normality=e.normality,
         replicates=tuple(
             PipettedReplicate(index=r.index, aliquot_ml=entry.amount.text,
                               volume_ml=entry.volume.text, normality=r.normality,
                               true_mass_g=r.true_mass_g, outlier=r.outlier, excluded=r.excluded)
-            for r, entry in zip(result.replicates, entries, strict=True)),
-        sd=stats.sd,
-        rsd_percent=stats.rsd_percent,
-        warnings=tuple(_stat_warnings(stats.n, stats.rsd_percent, stats.outlier)),
+            for r, entry in zip(e.replicates, entries, strict=True)),
+        sd=e.sd,
+        rsd_percent=e.rsd_percent,
+        warnings=tuple(_stat_warnings(e.n, e.rsd_percent, e.outlier)),
+        reference_u=u_ref,
+        u=e.u,
+        U=e.U,
+        k=e.k,
+        budget=e.budget,
+        repeatability_rsd_percent=rsd,
+        repeatability=e.repeatability,
+        uncertainty_notes=e.uncertainty_notes,
     )

@@ -145,24 +145,23 @@ do not depend on it, only on the concentrations."""
 
 def eqpoint(*, standard: str, titrant: str, concentration_text: str,
             titrant_concentration_text: str | None = None, co2_removed: bool = False,
-            tolerance_text: str | None = None) -> EqpointResult:
+            tolerance_text: str | None = None, reaction: str | None = None) -> EqpointResult:
     """The equivalence pH of a standard with a titrant at the stated concentration (of
     the product at equivalence), and each catalog indicator judged by the titration
     error it would cause (``prepbook.chem.indicators``), optionally with the carbon
     dioxide boiled off near the end."""
     from prepbook.catalog import loader
     from prepbook.chem import equilibria, indicators
+    from prepbook.lab.equilibrium_calcs import standard_system
+    from prepbook.rules.evaluation import reactions_for
 
     std = loader.find_material(standard)
     tit = loader.find_material(titrant)
-    std_rx, _ = loader.reaction_for_pair(std, tit)
-    if (std_rx.kind != "acid-base" or not std.pka or std.initial_protons is None
-            or std.acid_units is None or std_rx.protons is None):
-        raise InvalidInput(f"{std.name} with {tit.name} is not an acid-base titration with "
-                           "known pKa values; no equivalence pH to compute")
+    std_rx, _ = reactions_for(std, tit, reaction)
+    system = standard_system(std, tit, std_rx)  # any catalog pair the aqueous model takes
     conc = parse_number(concentration_text, "concentration (mol/L)", positive=True).value
-    k = int(std_rx.protons)
-    notes: list[str] = []
+    k = system.protons
+    notes: list[str] = list(system.notes)
     if titrant_concentration_text is None:
         # Sample volume equal to the equivalence volume: c_t = 2 k C, c_s = 2 C.
         c_titrant = 2.0 * k * conc
@@ -179,16 +178,18 @@ def eqpoint(*, standard: str, titrant: str, concentration_text: str,
     tolerance = (parse_number(tolerance_text, "tolerance (%)", positive=True).value
                  if tolerance_text is not None else indicators.DEFAULT_TOLERANCE_PERCENT)
     titration = indicators.Titration(
-        pkas=tuple(std.pka), sample_mol_per_l=c_sample, sample_ml=SAMPLE_ML,
-        titrant_mol_per_l=c_titrant, initial_protons=std.initial_protons,
-        protons_transferred=k, titrant_is_base=std.acid_base == "acid",
-        units_per_formula=std.acid_units, co2_removed=co2_removed)
+        pkas=system.pkas, sample_mol_per_l=c_sample, sample_ml=SAMPLE_ML,
+        titrant_mol_per_l=c_titrant, initial_protons=system.initial_protons,
+        protons_transferred=k, titrant_is_base=system.is_acid,
+        units_per_formula=system.units_per_formula, co2_removed=co2_removed)
     if co2_removed:
         ph = equilibria.PKW_25C / 2.0  # the sample acts as a strong base once CO2 is gone
         notes.append("carbon dioxide boiled off near the endpoint: the sample counts as "
                      "its equivalents of strong base")
     else:
-        ph = equilibria.equivalence_ph_for(std, std_rx, conc)
+        ph = equilibria.equivalence_ph(system.pkas, k, conc, system.is_acid,
+                                      initial_protons=system.initial_protons,
+                                      units_per_formula=system.units_per_formula)
     table = [(i.name, i.low_ph, i.high_ph) for i in loader.indicators()
              if i.low_ph is not None and i.high_ph is not None]
     advice = indicators.indicator_advice(titration, table, tolerance_percent=tolerance)

@@ -15,6 +15,7 @@ from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_number
 
 if TYPE_CHECKING:
+    from prepbook.catalog.models import Material, Reaction
     from prepbook.catalog.sample_models import Analyte
     from prepbook.chem.indicators import IndicatorAdvice
     from prepbook.chem.salts import Strength
@@ -59,7 +60,8 @@ class AnalyteEqpoint:
     notes: tuple[str, ...]
 
 
-def acid_base_system(analyte: Analyte, protons: int) -> tuple[tuple[float, ...], int, int]:
+def acid_base_system(analyte: Analyte | Material,
+                     protons: int) -> tuple[tuple[float, ...], int, int]:
     """(pKa values, protons carried, units per formula) of the analyte for the model; a
     strong acid or base without pKa values gets ``protons`` strong steps."""
     if analyte.acid_base is None or analyte.initial_protons is None:
@@ -71,6 +73,43 @@ def acid_base_system(analyte: Analyte, protons: int) -> tuple[tuple[float, ...],
     if analyte.acid_base == "acid":
         return (STRONG_ACID_PKA,) * analyte.initial_protons, analyte.initial_protons, units
     return (STRONG_BASE_PKA,) * protons, analyte.initial_protons, units
+
+
+@dataclass(frozen=True)
+class AcidBaseSystem:
+    """A weighed standard as the equilibrium model takes it, with a strong titrant."""
+
+    pkas: tuple[float, ...]
+    initial_protons: int
+    units_per_formula: int
+    is_acid: bool  # the standard gives protons (titrated with a base)
+    protons: int  # exchanged per formula unit in the reaction
+    notes: tuple[str, ...]
+
+
+def standard_system(standard: Material, titrant: Material,
+                    reaction: Reaction) -> AcidBaseSystem:
+    """Any catalog standard (or titrant solute) with any catalog titrant, for the
+    aqueous model: an acid-base reaction between an acid and a base, the titrant strong;
+    a strong standard without pKa values gets strong steps (``acid_base_system``).
+    What the model cannot describe is refused in one line, saying why."""
+    if reaction.kind != "acid-base" or reaction.protons is None:
+        raise InvalidInput(f"{standard.name} with {titrant.name} is a {reaction.kind} "
+                           "titration: no equivalence pH to compute")
+    if standard.acid_base is None or titrant.acid_base is None \
+            or standard.acid_base == titrant.acid_base:
+        raise InvalidInput(f"{standard.name} ({standard.acid_base or 'neither acid nor base'}"
+                           f") with {titrant.name} ({titrant.acid_base or 'neither'}) by "
+                           f"{reaction.name} is not an acid with a base in water (a "
+                           "non-aqueous titration?): the aqueous model does not apply")
+    if titrant.pka:
+        raise InvalidInput(f"{titrant.name} is a weak titrant; the model takes a strong acid "
+                           "or base")
+    k = int(reaction.protons)
+    pkas, p0, units = acid_base_system(standard, k)
+    notes = () if standard.pka else (f"{standard.name} is strong: modelled as fully "
+                                     "dissociated",)
+    return AcidBaseSystem(pkas, p0, units, standard.acid_base == "acid", k, notes)
 
 
 def eqpoint(*, analyte: str, titrant: str, concentration_text: str,

@@ -11,9 +11,8 @@ decision.
 from __future__ import annotations
 
 import json
-import math
 from collections.abc import Sequence
-from dataclasses import asdict, dataclass, replace
+from dataclasses import asdict, dataclass
 from datetime import datetime
 from decimal import Decimal
 from typing import Any
@@ -28,32 +27,39 @@ from prepbook.inputs import (
     Reading,
     ReplicateEntry,
     parse_number,
+    parse_percent,
     parse_text,
     utc_now,
 )
 from prepbook.lab import replicate_sources as sources
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batches import current_normality, instrument_of, next_code
-from prepbook.lab.calcs import readings_of
 from prepbook.lab.common import (
     RECORDERS,
     acting,
     by_code,
     lab_time,
     lab_zone,
-    setting,
     signed,
     work_time,
     write,
 )
 from prepbook.lab.reviews import QueuedRun, review, runs_awaiting_review
+from prepbook.lab.run_conditions import (
+    NO_TEMPERATURE_NOTE,
+    REFERENCE_TEMPERATURE_C,
+    Conditions,
+    plausible_readings,
+    standardization,
+    validated_repeatability,
+)
 from prepbook.lab.volumes import draw
 from prepbook.rules import evaluation as ev
 from prepbook.rules import plausibility as plaus
 from prepbook.rules.acceptance import Check
 from prepbook.store import retry
 from prepbook.store.engine import Database
-from prepbook.store.models import Batch, Instrument, Lot, Replicate, Run
+from prepbook.store.models import Batch, Lot, Replicate, Run
 
 __all__ = ["QueuedRun", "RunResult", "correct", "exclude", "review", "runs_awaiting_review",
            "standardize"]
@@ -86,6 +92,10 @@ class RunResult:
     replicates: tuple[ev.EvaluatedReplicate, ...]
     budget: tuple[BudgetLine, ...]
     status: str | None
+    reference: ev.Reference | None  # secondary: the reference and the u it passes on
+    repeatability: str  # given (for the run), spec, estimated (replicates) or missing
+    repeatability_rsd_percent: float | None  # the validated value used, given or the spec's
+    reaction: str | None  # direct: the standard's reaction used
 
     def to_json(self) -> dict[str, Any]:
         """The JSON of the command: a new run has no ``previous_status`` key."""
@@ -95,121 +105,18 @@ class RunResult:
         return data
 
 
-def _float(text: str | None) -> float | None:
-    return float(text) if text is not None else None
-
-
 def _batch_state(session: Session, batch: Batch, when: datetime) -> str:
     from prepbook.lab.board import batch_life
 
     return str(batch_life(session, batch, when.date()).state)
 
 
-@dataclass(frozen=True)
-class _Conditions:
-    """Everything a run is computed from, except its replicates."""
-
-    batch: Batch
-    view: spec_view.SpecView
-    performed_at: datetime
-    temperature: Reading
-    blank: Reading
-    indicator: str | None
-    lot: Lot | None = None
-    balance: Instrument | None = None
-    burette: Instrument | None = None
-    reference: ev.Reference | None = None  # secondary: the reference used, as recorded
-    entered_at: datetime | None = None  # when the run was entered (recorded_at)
-
-    @property
-    def secondary(self) -> bool:
-        return self.reference is not None
-
-
-# The instruments a standardization must name unless its spec says otherwise (a spec's
-# "required_instruments" list): what its calibration and capacity checks need.
-REQUIRED_INSTRUMENTS = {"direct": ("balance", "burette"), "secondary": ("burette",)}
-# A run entered without a temperature is computed at the reference temperature, and says so.
-REFERENCE_TEMPERATURE_C = "20"
-NO_TEMPERATURE_NOTE = ("no temperature given: computed at the reference temperature 20 C "
-                       "(European Pharmacopoeia 4.2.2: prepared, standardized and used at "
-                       "20 C); give --temp C as measured")
-
-
-def required_instruments(view: spec_view.SpecView, secondary: bool) -> tuple[str, ...]:
-    """The instrument kinds a run of this spec must name (the spec's, else the default)."""
-    own = view.data.get("required_instruments")
-    if isinstance(own, list) and all(isinstance(k, str) for k in own):
-        return tuple(own)
-    return REQUIRED_INSTRUMENTS["secondary" if secondary else "direct"]
-
-
-def plausible_readings(entries: list[ReplicateEntry], *, secondary: bool,
-                       burette: Instrument | None,
-                       first: int = 1) -> tuple[str, ...]:
-    """Refuse replicates that cannot be right (``rules.plausibility``); the warnings."""
-    readings = [plaus.Replicate(position=i, amount=e.amount.value, volume_ml=e.volume.value,
-                                amount_text=e.amount.text, volume_text=e.volume.text)
-                for i, e in enumerate(entries, start=first)]
-    capacity = _float(burette.capacity_text) if burette is not None else None
-    return plaus.replicates(readings, weighed=not secondary, burette_capacity_ml=capacity)
-
-
-def _setting_number(session: Session, key: str, default: float) -> float:
-    try:
-        return float(setting(session, key, str(default)))
-    except ValueError:
-        return default
-
-
-def _standardization(s: Session, c: _Conditions, entries: list[ReplicateEntry],
-                     excluded: frozenset[int]) -> ev.Standardization:
-    """A run's records and the lab's settings, in the terms of the one evaluation."""
-    view, lot, balance, burette = c.view, c.lot, c.balance, c.burette
-    weighed = None
-    if lot is not None:
-        weighed = ev.Weighed(
-            material=lot.material_code, purity_fraction=float(lot.purity_text) / 100,
-            u_purity_fraction=float(lot.purity_u_text) / 100 / math.sqrt(3)
-            if lot.purity_u_text else None)
-    rules = replace(view.rules(), min_burette_fraction=_setting_number(
-        s, "min_burette_fraction_percent", 30.0) / 100)
-    return ev.Standardization(
-        readings=readings_of(entries),
-        titrant=view.solute,
-        standard=weighed,
-        reference=c.reference,
-        titrant_reaction=view.reaction,
-        blank_ml=c.blank.value,
-        blank_text=c.blank.text,
-        temperature_c=c.temperature.value,
-        temperature_range_c=_setting_number(s, "temperature_range_c", 3.0),
-        excluded=excluded,
-        buoyancy="if-known" if setting(s, "buoyancy", "off") == "on" else "off",
-        balance_linearity_g=(_float(balance.tolerance_text) or _float(balance.readability_text))
-        if balance is not None else None,
-        burette_tolerance_ml=_float(burette.tolerance_text) if burette else None,
-        burette_capacity_ml=_float(burette.capacity_text) if burette else None,
-        burette=burette.code if burette else None,
-        judgement=ev.Judgement(
-            rules=rules, nominal=view.nominal, unit=view.unit, run_date=c.performed_at.date(),
-            lot_expires=lot.expires if lot else None,
-            lot_dried_on=lot.dried_on if lot else None,
-            instruments=tuple((i.code, i.kind, i.due) for i in (balance, burette)
-                              if i is not None),
-            balance_readability_g=_float(balance.readability_text) if balance else None,
-            indicator=c.indicator or view.indicator, curves=sources.evidence(s, entries),
-            entered_on=(c.entered_at or utc_now()).date(),
-            required_instruments=required_instruments(view, c.secondary)),
-    )
-
-
-def _evaluate(s: Session, c: _Conditions, entries: list[ReplicateEntry],
+def _evaluate(s: Session, c: Conditions, entries: list[ReplicateEntry],
               excluded: frozenset[int] = frozenset(), notes: list[str] | None = None
               ) -> tuple[ev.Evaluation, dict[str, Any]]:
     """Compute a run: the evaluation, and the columns of the run that store it
     (``notes``: what the service itself assumed, kept with the result)."""
-    e = ev.evaluate(_standardization(s, c, entries, excluded))
+    e = ev.evaluate(standardization(s, c, entries, excluded))
     payload = {
         "verdict": e.verdict,
         "checks": [asdict(ch) for ch in e.checks],
@@ -219,6 +126,11 @@ def _evaluate(s: Session, c: _Conditions, entries: list[ReplicateEntry],
         "titrant_n_eq_per_mol": e.titrant_n_eq_per_mol,
         "reference": asdict(c.reference) if c.reference else None,
         "replicates": [asdict(r) for r in e.replicates],
+        "repeatability": e.repeatability,
+        "repeatability_rsd_percent": validated_repeatability(c)[0],
+        "repeatability_given": c.repeatability.text if c.repeatability else None,
+        "reaction": e.reaction,
+        "reaction_given": c.reaction,
     }
     columns = {
         "indicator": e.indicator, "normality": e.normality, "normality_20c": e.normality_20c,
@@ -228,7 +140,7 @@ def _evaluate(s: Session, c: _Conditions, entries: list[ReplicateEntry],
     return e, columns
 
 
-def _result(c: _Conditions, e: ev.Evaluation, *, run: str | None, status: str | None,
+def _result(c: Conditions, e: ev.Evaluation, *, run: str | None, status: str | None,
             previous_status: str | None = None, notes: list[str] | None = None) -> RunResult:
     assert e.factor is not None and e.verdict is not None, "a recorded run is judged"
     warnings = [*(notes or []), *(ch.message for ch in e.checks if not ch.passed), *e.notes]
@@ -237,7 +149,8 @@ def _result(c: _Conditions, e: ev.Evaluation, *, run: str | None, status: str | 
         normality_20c=e.normality_20c, temperature_c=c.temperature.value, factor=e.factor,
         unit=c.view.unit, sd=e.sd, rsd_percent=e.rsd_percent, u=e.u, U=e.U, k=e.k,
         verdict=e.verdict, checks=e.checks, warnings=tuple(warnings), replicates=e.replicates,
-        budget=e.budget, status=status)
+        budget=e.budget, status=status, reference=c.reference, repeatability=e.repeatability,
+        repeatability_rsd_percent=validated_repeatability(c)[0], reaction=e.reaction)
 
 
 def _reference(s: Session, ref_batch: Batch, batch: Batch, performed_at: datetime,
@@ -251,7 +164,11 @@ def _reference(s: Session, ref_batch: Batch, batch: Batch, performed_at: datetim
         notes.append(f"reference batch {ref_batch.code} is due for restandardization")
     n20, ref_run = current_normality(s, ref_batch)
     assert n20 is not None and ref_run is not None
-    return ev.Reference(batch=ref_batch.code, run=ref_run.code, normality_20c=n20, u=ref_run.u)
+    # its run's u belongs to its normality at its own temperature: the relative
+    # uncertainty carries to 20 C unchanged
+    u20 = (ref_run.u * n20 / ref_run.normality
+           if ref_run.u is not None and ref_run.normality else None)
+    return ev.Reference(batch=ref_batch.code, run=ref_run.code, normality_20c=n20, u=u20)
 
 
 def parse_temperature(text: str) -> Reading:
@@ -293,8 +210,13 @@ def standardize(
     at: str | None = None,
     record: bool = True,
     late_reason: str | None = None,
+    repeatability: str | None = None,
+    reaction: str | None = None,
 ) -> RunResult:
     """Record and compute one standardization; it then awaits a second person's review.
+
+    ``repeatability``: a validated relative SD of one result (%) for this run's budget,
+    over the spec's; ``reaction``: the standard's reaction by name (direct only).
 
     With ``record=False`` nothing is written: the result is computed and returned
     (``run`` is None), which is how the terminal shows the running result while
@@ -312,6 +234,11 @@ def standardize(
     blank_r = parse_number(blank or "0", "blank (mL)", non_negative=True)
     indicator = parse_text(indicator, "indicator", max_len=60)
     performed_at = work_time(db, at, "standardization time", reason=late_reason)
+    rsd = (parse_percent(repeatability, "repeatability RSD (%)")
+           if repeatability is not None else None)
+    reaction = parse_text(reaction, "reaction", max_len=60)
+    if reaction is not None and secondary:
+        raise InvalidInput("--reaction goes with --lot: it names the standard's reaction")
 
     with db.session(write=record) as s:
         user = acting(s, actor, doing="standardize")
@@ -340,10 +267,10 @@ def standardize(
             lot_row = by_code(s, Lot, lot, "lot")
             if lot_row.expires < performed_at.date():
                 raise Refused(f"lot {lot_row.code} expired on {lot_row.expires.isoformat()}")
-        cond = _Conditions(batch=b, view=spec_view.view(b.spec), performed_at=performed_at,
+        cond = Conditions(batch=b, view=spec_view.view(b.spec), performed_at=performed_at,
                            temperature=temp, blank=blank_r, indicator=indicator, lot=lot_row,
                            balance=balance_row, burette=burette_row, reference=reference,
-                           entered_at=utc_now())
+                           entered_at=utc_now(), repeatability=rsd, reaction=reaction)
         plausible_readings(entries, secondary=secondary, burette=burette_row)
         draw(s, b, sum((Decimal(e.volume.text) for e in entries), Decimal(0)), "the titrant")
         if ref_batch is not None:
@@ -385,16 +312,19 @@ def _current_replicates(s: Session, run: Run) -> dict[int, Replicate]:
     return latest
 
 
-def _conditions_of(run: Run) -> _Conditions:
+def _conditions_of(run: Run) -> Conditions:
     payload = json.loads(run.result_json) if run.result_json else {}
     reference = payload.get("reference")
-    return _Conditions(
+    return Conditions(
         batch=run.batch, view=spec_view.view(run.batch.spec), performed_at=run.performed_at,
         temperature=parse_number(run.temperature_c_text or "20", "temperature (C)"),
         blank=parse_number(run.blank_ml_text or "0", "blank (mL)", non_negative=True),
         indicator=run.indicator, lot=run.lot, balance=run.balance, burette=run.burette,
         reference=ev.Reference(**reference) if reference else None,
-        entered_at=run.recorded_at)
+        entered_at=run.recorded_at,
+        repeatability=parse_percent(payload["repeatability_given"], "repeatability RSD (%)")
+        if payload.get("repeatability_given") is not None else None,
+        reaction=payload.get("reaction_given"))
 
 
 @retry.on_conflict

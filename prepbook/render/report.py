@@ -211,7 +211,8 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
     if run.budget:
         out.append(Spacer(1, 3))
         budget = [[f"{b['quantity']} ({b['symbol']})", _num(b["value"], 6), b["unit"],
-                   _num(b["u"], 3), _num(b["u_relative"], 3), _num(b["contribution"], 3),
+                   "missing" if b.get("missing") else _num(b["u"], 3),
+                   _num(b["u_relative"], 3), _num(b["contribution"], 3),
                    _fixed(b["share_percent"], 1)] for b in run.budget]
         out.append(KeepTogether([
             _p("Uncertainty budget (GUM first-order propagation, EURACHEM/CITAC CG4)",
@@ -219,6 +220,8 @@ def _run_section(run: RunRecord, unit_word: str, st: _Styles, width: float,
             _table(["quantity", "value", "unit", "u", "u relative", "contribution (eq/L)",
                     "share %"], budget,
                    [w * width for w in (0.3, 0.13, 0.08, 0.12, 0.12, 0.15, 0.1)], st)]))
+        if run.repeatability is not None:
+            out.append(_p(run.budget_basis(), st.small))
     reviews = [[rv.decision, rv.reviewer, clk.shown(rv.signed_at), _text(rv.reason)]
                for rv in run.reviews]
     out.append(Spacer(1, 3))

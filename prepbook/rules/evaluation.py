@@ -40,6 +40,9 @@ DEFAULT_PURITY_HALF_WIDTH = 0.0005  # +/-0.05 %, CG4 Example A2's certificate (r
 DISSOLVING_WATER_ML = 50.0
 
 BuoyancyMode = Literal["off", "on", "if-known"]
+# Where the repeatability of a budget came from: a validated value given for the run or
+# held by the spec, the included replicates' scatter, or nowhere (one replicate).
+RepeatabilitySource = Literal["given", "spec", "estimated", "missing"]
 
 
 @dataclass(frozen=True)
@@ -67,9 +70,9 @@ class Reference:
     """A standardized solution pipetted (secondary standardization), as recorded."""
 
     batch: str
-    run: str
+    run: str | None  # None: a value typed (``calc secondary``), not a recorded run
     normality_20c: float
-    u: float | None
+    u: float | None  # its standard uncertainty at 20 C, eq/L; None: its record holds none
 
 
 @dataclass(frozen=True)
@@ -112,6 +115,9 @@ class Standardization:
     burette: str | None = None  # the burette's code, for messages
     judgement: Judgement | None = None
     u_rel_repeatability: float | None = None  # validated relative SD; None: the replicates'
+    repeatability_from: RepeatabilitySource = "given"  # where a validated value came from
+    reaction: str | None = None  # a named reaction of the standard; None: the pair's
+    pipette_tolerance_ml: float | None = None  # secondary: the pipette's; None: the default
 
 
 @dataclass(frozen=True)
@@ -162,6 +168,7 @@ class Evaluation:
     titrant_n_eq_per_mol: float | None
     standard: StandardFacts | None  # direct standardizations only
     reaction: str | None  # the standard's reaction with the titrant (direct only)
+    repeatability: RepeatabilitySource  # where the budget's repeatability came from
 
 
 def _check_readings(s: Standardization) -> None:
@@ -202,7 +209,7 @@ def evaluate(s: Standardization) -> Evaluation:
     indicator = s.judgement.indicator if s.judgement else None
     if s.standard is not None:
         std_mat = loader.find_material(s.standard.material)
-        std_rx, titrant_rx = loader.reaction_for_pair(std_mat, solute)
+        std_rx, titrant_rx = reactions_for(std_mat, solute, s.reaction)
         standard, facts = _primary(std_mat, std_rx, s.standard, notes)
         linearity = s.balance_linearity_g
         if linearity is None:
@@ -222,16 +229,25 @@ def evaluate(s: Standardization) -> Evaluation:
         assert ref is not None
         titrant_rx = solute.reaction(name=s.titrant_reaction) if solute is not None else None
         n_ref = corrections.normality_at_temperature(ref.normality_20c, 20.0, s.temperature_c)
-        u_ref = (ref.u or 0.0) * n_ref / ref.normality_20c
-        u_aliquot = st.volume_u_from_burette(DEFAULT_PIPETTE_TOLERANCE_ML, kept[0].amount,
+        # the reference's relative uncertainty carries to the run's temperature unchanged
+        u_ref = None if ref.u is None else ref.u * n_ref / ref.normality_20c
+        pipette = s.pipette_tolerance_ml
+        if pipette is None:
+            pipette = DEFAULT_PIPETTE_TOLERANCE_ML
+            notes.append("no pipette tolerance on record: +/-0.03 mL (Class A 25 mL) assumed")
+        u_aliquot = st.volume_u_from_burette(pipette,
+                                             sum(r.amount for r in kept) / len(kept),
                                              temperature_range_c=s.temperature_range_c)
         result = st.secondary(
             n_ref, u_ref, pairs, blank_ml=s.blank_ml, excluded=s.excluded,
             uncertainty=st.UncertaintyInputs(u_mass_g=0.0, u_volume_ml=u_volume,
                                              u_aliquot_ml=u_aliquot,
                                              u_rel_repeatability=s.u_rel_repeatability))
-        notes.append(f"reference {ref.batch} at {ref.normality_20c:.5f} eq/L (20 C), "
-                     f"from its run {ref.run}")
+        if ref.run is not None:
+            inherited = "no uncertainty on record" if ref.u is None else (
+                f"u = {ref.u:.6f} eq/L ({100 * ref.u / ref.normality_20c:.3f} %)")
+            notes.append(f"reference {ref.batch} at {ref.normality_20c:.5f} eq/L (20 C), "
+                         f"{inherited}, from its run {ref.run}")
     normality_20c = corrections.normality_at_temperature(result.normality, s.temperature_c,
                                                          20.0)
     factor: float | None = None
@@ -289,7 +305,33 @@ def evaluate(s: Standardization) -> Evaluation:
         titrant_n_eq_per_mol=titrant_rx.n if titrant_rx else None,
         standard=facts,
         reaction=std_rx.name if std_rx else None,
+        repeatability=_repeatability_source(s, result.stats.n),
     )
+
+
+def _repeatability_source(s: Standardization, included: int) -> RepeatabilitySource:
+    if s.u_rel_repeatability is not None:
+        return s.repeatability_from
+    return "estimated" if included > 1 else "missing"
+
+
+def reactions_for(standard: Material, titrant: Material | None,
+               name: str | None) -> tuple[Reaction, Reaction | None]:
+    """The standard's reaction (the one named, else the pair's) and the titrant's.
+
+    A named reaction must be of the kind the titrant titrates by; an unknown name is
+    refused with the standard's reactions listed (``Material.reaction``)."""
+    std_rx, titrant_rx = loader.reaction_for_pair(standard, titrant)
+    if name is None:
+        return std_rx, titrant_rx
+    chosen = standard.reaction(name=name)
+    if titrant_rx is not None and chosen.kind != titrant_rx.kind:
+        raise InvalidInput(f"reaction {chosen.name} of {standard.code} is {chosen.kind}; "
+                           f"{titrant.code if titrant else 'the titrant'} titrates by "
+                           f"{titrant_rx.kind}")
+    if titrant is not None and chosen.titrant_reaction:
+        titrant_rx = titrant.reaction(name=chosen.titrant_reaction)
+    return chosen, titrant_rx
 
 
 def _primary(material: Material, reaction: Reaction, w: Weighed,

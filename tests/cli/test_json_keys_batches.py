@@ -23,7 +23,8 @@ PREPARATION = ["method", "volume_ml", "solute_mass_g", "solute_lot", "concentrat
 RUN = ["run", "method", "status", "performed_at", "recorded_at", "analyst", "lot",
        "lot_certificate", "reference_batch", "balance", "burette", "temperature_c", "blank_ml",
        "indicator", "normality", "normality_20c", "factor", "sd", "rsd_percent", "u", "U", "k",
-       "verdict", "checks", "budget", "reviews", "replicates"]
+       "verdict", "checks", "budget", "reviews", "replicates", "reference", "repeatability",
+       "repeatability_rsd_percent", "reaction"]
 REPLICATE = ["position", "version", "current", "amount", "volume_ml", "excluded", "reason",
              "normality", "outlier", "recorded_by", "recorded_at"]
 REVIEW = ["reviewer", "decision", "reason", "signed_at"]

@@ -22,7 +22,8 @@ BUDGET = ["quantity", "symbol", "value", "unit", "u", "u_relative", "contributio
 CHECK = ["name", "passed", "severity", "message"]
 RUN_RESULT = ["run", "batch", "normality", "normality_20c", "temperature_c", "factor", "unit",
               "sd", "rsd_percent", "u", "U", "k", "verdict", "checks", "warnings", "replicates",
-              "budget", "status"]
+              "budget", "status", "reference", "repeatability", "repeatability_rsd_percent",
+              "reaction"]
 RUN_REPLICATE = ["index", "normality", "outlier", "excluded", "true_mass_g"]
 
 CALC = {
@@ -30,11 +31,12 @@ CALC = {
      "--rep", "0.8085:39.16", "--rep", "0.8116:39.29", "--rep", "0.8596:41.67"):
         ["standard", "titrant", "reaction", "titrant_n_eq_per_mol", "blank_ml", "buoyancy",
          "normality", "molarity", "replicates", "sd", "rsd_percent", "u", "U", "k", "budget",
-         "warnings", "repeatability_rsd_percent", "uncertainty_notes"],
+         "warnings", "repeatability_rsd_percent", "uncertainty_notes", "repeatability"],
     ("secondary", "--reference-normality", "0.1", "--aliquot", "25", "--rep", "24.9",
      "--rep", "25.1"):
         ["reference_normality", "aliquot_ml", "blank_ml", "normality", "replicates", "sd",
-         "rsd_percent", "warnings"],
+         "rsd_percent", "warnings", "reference_u", "u", "U", "k", "budget",
+         "repeatability_rsd_percent", "repeatability", "uncertainty_notes"],
     ("solid", "NaOH", "--normality", "0.1", "--volume", "1000"):
         ["solute", "name", "formula", "molar_mass_g_per_mol", "n_eq_per_mol", "reaction",
          "normality", "volume_ml", "purity_percent", "mass_g", "cautions"],
@@ -153,7 +155,8 @@ def test_standardize_correct_exclude_review_json_keys(lab: Cli) -> None:
         "run", "method", "status", "performed_at", "recorded_at", "analyst", "lot",
         "lot_certificate", "reference_batch", "balance", "burette", "temperature_c",
         "blank_ml", "indicator", "normality", "normality_20c", "factor", "sd", "rsd_percent",
-        "u", "U", "k", "verdict", "checks", "budget", "reviews", "batch"]
+        "u", "U", "k", "verdict", "checks", "budget", "reviews", "reference", "repeatability",
+        "repeatability_rsd_percent", "reaction", "batch"]
     assert list(reviewed["reviews"][0]) == ["reviewer", "decision", "reason", "signed_at"]
     assert set(reviewed["checks"][0]) == set(CHECK)
     assert set(reviewed["budget"][0]) == set(BUDGET)

@@ -199,7 +199,9 @@ def test_secondary_against_a_reference() -> None:
     e = evaluate(s)
     assert round(e.normality, 5) == 0.10204
     assert e.standard is None and e.equivalence_ph is None
-    assert e.notes == ("reference NAOH-0001 at 0.10000 eq/L (20 C), from its run R261201-1",)
+    assert e.notes == ("no pipette tolerance on record: +/-0.03 mL (Class A 25 mL) assumed",
+                       "reference NAOH-0001 at 0.10000 eq/L (20 C), u = 0.000080 eq/L "
+                       "(0.080 %), from its run R261201-1")
     assert "min-weight" not in {c.name for c in e.checks}
     # the reference's own uncertainty is in the budget: u_rel 0.0008 (hand-worked)
     assert any(line.u_relative == pytest.approx(0.0008) for line in e.budget)
