@@ -33,10 +33,11 @@ def render_board(out: Any, items: list[BatchLife]) -> None:
              "-" if it.remaining_ml is None else f"{it.remaining_ml:g}",
              str(len(it.warnings)) if it.warnings else "")
             for it in items]
-    out.print(output.table(f"Board: {len(items)} batches in use",
-                           ["batch", "state", "N 20 C", "factor", "restd. by", "expires",
-                            "left mL", "!"],
-                           rows, right=(2, 3, 6, 7), no_wrap=range(8)))
+    # Every column but the state (words) is kept whole: codes, values and dates.
+    output.show(out, output.table(f"Board: {len(items)} batches in use",
+                                  ["batch", "state", "N 20 C", "factor", "restd. by",
+                                   "expires", "left mL", "!"],
+                                  rows, right=(2, 3, 6, 7), no_wrap=(0, 2, 3, 4, 5, 6, 7)))
     flagged = [it for it in items if it.warnings]
     if flagged:
         out.print("[bold]Warnings[/bold]")

@@ -91,6 +91,10 @@ def text(value: object) -> str:
 
 def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any]],
           *, right: Iterable[int] = (), no_wrap: Iterable[int] = ()) -> Any:
+    """A table of ``rows``. A column in ``no_wrap`` (a code, a date, a number: what a
+    user types or reads whole) is never broken; the others wrap at spaces and fold a
+    word too long for them, so a narrow terminal cuts nothing off with "…". Print it
+    with :func:`show`, which closes the columns up when the terminal is narrow."""
     from rich import box
     from rich.table import Table
     from rich.text import Text
@@ -101,10 +105,27 @@ def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any
                 show_lines=False, box=box.SIMPLE_HEAD, pad_edge=False,
                 collapse_padding=True)
     for i, name in enumerate(columns):
-        tab.add_column(name, justify="right" if i in right_set else "left", no_wrap=i in keep)
+        tab.add_column(name, justify="right" if i in right_set else "left", no_wrap=i in keep,
+                       overflow="fold")
     for row in rows:
         tab.add_row(*(Text("" if cell is None else plain(cell)) for cell in row))
     return tab
+
+
+def too_wide(out: Any, tab: Any) -> bool:
+    """Whether ``tab`` at its natural width (every cell on one line) is wider than the
+    console ``out``."""
+    unbounded = out.options.update_width(10**6)  # the table's own width, not the console's
+    return bool(out.measure(tab, options=unbounded).maximum > out.width)
+
+
+def show(out: Any, tab: Any) -> None:
+    """Print ``tab``; when it is wider than the console, with one space between columns
+    instead of two, so the columns kept whole (``no_wrap``) still fit before Rich would
+    shorten one of them."""
+    if too_wide(out, tab):
+        tab.padding = (0, 0)
+    out.print(tab)
 
 
 def whole(text: str, what: str, minimum: int = 0) -> int:

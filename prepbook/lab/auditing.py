@@ -2,23 +2,120 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-from dataclasses import dataclass
+from collections import defaultdict
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, fields
 from pathlib import Path
+from typing import Any
 
+from sqlalchemy import select
 from sqlalchemy.exc import DBAPIError
+from sqlalchemy.orm import Session
 
 from prepbook.errors import IntegrityError, InvalidInput
 from prepbook.inputs import parse_date, parse_whole
 from prepbook.store import audit
 from prepbook.store.engine import Database
-from prepbook.store.models import AUDITED_TABLES
+from prepbook.store.models import (
+    AUDITED_TABLES,
+    Assay,
+    AssayReplicate,
+    Batch,
+    Instrument,
+    InstrumentConnection,
+    LabelPrint,
+    Lot,
+    Material,
+    Replicate,
+    ReplicateCurve,
+    ReplicateSource,
+    Review,
+    Run,
+    Setting,
+    Spec,
+    Use,
+    User,
+)
+
+
+@dataclass(frozen=True)
+class AuditEntry(audit.LogEntry):
+    """An audit event with its record named as a person types it (``code``): the
+    record's own code (a batch, run, lot, instrument, spec, material or assay code, a
+    user's name, a setting's key), or for a part of a record the code of the whole:
+    ``R260520-1/2`` replicate 2 of run R260520-1 (``v2`` its second version), a
+    review by its run, a use by its batch. None for a record no longer found."""
+
+    code: str | None = None
+
+
+def _versioned(code: str, position: int | None, version: int | None) -> str:
+    part = code if position is None else f"{code}/{position}"
+    return part if not version or version == 1 else f"{part} v{version}"
+
+
+# table -> the statement giving (id, code, position, version) of its rows.
+_NAMED: dict[str, Callable[[], Any]] = {
+    **{m.__tablename__: (lambda m=m: select(m.id, m.code, None, None))
+       for m in (Material, Spec, Lot, Instrument, Batch, Run, Assay)},
+    "users": lambda: select(User.id, User.name, None, None),
+    "settings": lambda: select(Setting.id, Setting.key, None, None),
+    "replicates": lambda: select(Replicate.id, Run.code, Replicate.position,
+                                 Replicate.version).join(Run, Replicate.run_id == Run.id),
+    "replicate_sources": lambda: (
+        select(ReplicateSource.id, Run.code, Replicate.position, Replicate.version)
+        .join(Replicate, ReplicateSource.replicate_id == Replicate.id)
+        .join(Run, Replicate.run_id == Run.id)),
+    "replicate_curves": lambda: select(ReplicateCurve.id, Run.code, ReplicateCurve.position,
+                                       None).join(Run, ReplicateCurve.run_id == Run.id),
+    "reviews": lambda: select(Review.id, Run.code, None, None).join(
+        Run, Review.run_id == Run.id),
+    "uses": lambda: select(Use.id, Batch.code, None, None).join(Batch, Use.batch_id == Batch.id),
+    "assay_replicates": lambda: select(AssayReplicate.id, Assay.code, AssayReplicate.position,
+                                       None).join(Assay, AssayReplicate.assay_id == Assay.id),
+    "instrument_connections": lambda: select(
+        InstrumentConnection.id, Instrument.code, None, InstrumentConnection.version).join(
+        Instrument, InstrumentConnection.instrument_id == Instrument.id),
+    "label_prints": lambda: select(LabelPrint.id, Batch.code, None, None).join(
+        Batch, LabelPrint.batch_id == Batch.id).union_all(
+        select(LabelPrint.id, Lot.code, None, None).join(Lot, LabelPrint.lot_id == Lot.id)),
+}
+
+_CHUNK = 500  # ids per query, far below any backend's limit on bound parameters
+
+
+def _codes(session: Session, events: Sequence[audit.LogEntry]) -> dict[tuple[str, int], str]:
+    """(table, id) -> code of every record the events name: one query per table named
+    (per 500 records), whatever the number of events."""
+    wanted: dict[str, set[int]] = defaultdict(set)
+    for e in events:
+        wanted[e.record_type].add(e.record_id)
+    named: dict[tuple[str, int], str] = {}
+    for table, id_set in wanted.items():
+        if table not in _NAMED:
+            continue
+        stmt = _NAMED[table]().subquery()
+        key = stmt.c[0]
+        ids = sorted(id_set)
+        for start in range(0, len(ids), _CHUNK):
+            rows = session.execute(select(stmt).where(key.in_(ids[start:start + _CHUNK])))
+            for rid, code, position, version in rows:
+                named[(table, rid)] = _versioned(code, position, version)
+    return named
+
+
+def named(session: Session, events: Sequence[audit.LogEntry]) -> list[AuditEntry]:
+    """``events`` with the code of each one's record (``AuditEntry.code``)."""
+    codes = _codes(session, events)
+    return [AuditEntry(**{f.name: getattr(e, f.name) for f in fields(e)},
+                       code=codes.get((e.record_type, e.record_id))) for e in events]
 
 
 def log(db: Database, *, record: str | None = None, actor: str | None = None,
         since: str | None = None, until: str | None = None,
-        limit: int | None = None) -> list[audit.LogEntry]:
-    """Audit events, filtered; ``record`` is TABLE or TABLE#ID."""
+        limit: int | None = None) -> list[AuditEntry]:
+    """Audit events, filtered, each with its record's code; ``record`` is TABLE or
+    TABLE#ID."""
     record_type = record_id = None
     if record:
         name, _, rid = record.partition("#")
@@ -35,8 +132,8 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
     if since_d and until_d and since_d > until_d:
         raise InvalidInput("--since is after --until")
     with db.session(write=False) as s:
-        return audit.log(s, record_type=record_type, record_id=record_id, actor=actor,
-                         since=since_d, until=until_d, limit=limit)
+        return named(s, audit.log(s, record_type=record_type, record_id=record_id,
+                                  actor=actor, since=since_d, until=until_d, limit=limit))
 
 
 def verify(db: Database, *, thorough: bool = False) -> audit.VerifyReport:
