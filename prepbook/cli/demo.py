@@ -58,5 +58,5 @@ def demo(
               f"{res.events} audit events)")
     for line in res.story:
         out.print(f"  {line}")
-    render_board(out, list(res.board))
+    render_board(out, list(res.board), res.instruments)
     out.print(f"\nTry: prepbook --db {res.database} batch show {res.example_batch}")

@@ -8,7 +8,7 @@ from dataclasses import dataclass, fields
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import null, select
 from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
@@ -54,12 +54,17 @@ def _versioned(code: str, position: int | None, version: int | None) -> str:
     return part if not version or version == 1 else f"{part} v{version}"
 
 
-# table -> the statement giving (id, code, position, version) of its rows.
+def _own_code(model: Any) -> Callable[[], Any]:
+    return lambda: select(model.id, model.code, null(), null())
+
+
+# table -> the statement giving (id, code, position, version) of its rows (built when
+# first asked for).
 _NAMED: dict[str, Callable[[], Any]] = {
-    **{m.__tablename__: (lambda m=m: select(m.id, m.code, None, None))
+    **{m.__tablename__: _own_code(m)
        for m in (Material, Spec, Lot, Instrument, Batch, Run, Assay)},
-    "users": lambda: select(User.id, User.name, None, None),
-    "settings": lambda: select(Setting.id, Setting.key, None, None),
+    "users": lambda: select(User.id, User.name, null(), null()),
+    "settings": lambda: select(Setting.id, Setting.key, null(), null()),
     "replicates": lambda: select(Replicate.id, Run.code, Replicate.position,
                                  Replicate.version).join(Run, Replicate.run_id == Run.id),
     "replicate_sources": lambda: (
@@ -67,18 +72,18 @@ _NAMED: dict[str, Callable[[], Any]] = {
         .join(Replicate, ReplicateSource.replicate_id == Replicate.id)
         .join(Run, Replicate.run_id == Run.id)),
     "replicate_curves": lambda: select(ReplicateCurve.id, Run.code, ReplicateCurve.position,
-                                       None).join(Run, ReplicateCurve.run_id == Run.id),
-    "reviews": lambda: select(Review.id, Run.code, None, None).join(
+                                       null()).join(Run, ReplicateCurve.run_id == Run.id),
+    "reviews": lambda: select(Review.id, Run.code, null(), null()).join(
         Run, Review.run_id == Run.id),
-    "uses": lambda: select(Use.id, Batch.code, None, None).join(Batch, Use.batch_id == Batch.id),
+    "uses": lambda: select(Use.id, Batch.code, null(), null()).join(Batch, Use.batch_id == Batch.id),
     "assay_replicates": lambda: select(AssayReplicate.id, Assay.code, AssayReplicate.position,
-                                       None).join(Assay, AssayReplicate.assay_id == Assay.id),
+                                       null()).join(Assay, AssayReplicate.assay_id == Assay.id),
     "instrument_connections": lambda: select(
-        InstrumentConnection.id, Instrument.code, None, InstrumentConnection.version).join(
+        InstrumentConnection.id, Instrument.code, null(), InstrumentConnection.version).join(
         Instrument, InstrumentConnection.instrument_id == Instrument.id),
-    "label_prints": lambda: select(LabelPrint.id, Batch.code, None, None).join(
+    "label_prints": lambda: select(LabelPrint.id, Batch.code, null(), null()).join(
         Batch, LabelPrint.batch_id == Batch.id).union_all(
-        select(LabelPrint.id, Lot.code, None, None).join(Lot, LabelPrint.lot_id == Lot.id)),
+        select(LabelPrint.id, Lot.code, null(), null()).join(Lot, LabelPrint.lot_id == Lot.id)),
 }
 
 _CHUNK = 500  # ids per query, far below any backend's limit on bound parameters

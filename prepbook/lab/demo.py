@@ -11,7 +11,7 @@ from pathlib import Path
 from typing import Any
 
 from prepbook.errors import Refused
-from prepbook.lab.board import BatchLife
+from prepbook.lab.board import BatchLife, InstrumentWarning
 
 DEMO_FILE = "lab.toml"
 
@@ -45,6 +45,7 @@ class DemoLab:
     story: tuple[str, ...]
     board: tuple[BatchLife, ...]
     example_batch: str
+    instruments: tuple[InstrumentWarning, ...] = ()  # the board's, once each
 
 # The demo writes weeks of invented history at once: each entry says so (a late entry).
 INVENTED = "demo lab: invented history, entered all at once"
@@ -142,7 +143,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
     codes["naoh_weighed"] = weighed
     run_count += 1
     verified = auditing.verify(db)
-    items = board.board(db)
+    view = board.board_view(db)
     story = [
         "users (demo passphrases): " + ", ".join(
             f"{u['name']} ({u['role']}, {u['passphrase']})" for u in data["user"]),
@@ -162,7 +163,8 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
     ]
     return DemoLab(lab=data["lab"], database=target, batches=len(codes), runs=run_count,
                    events=verified.events, verified=verified.ok, story=tuple(story),
-                   board=tuple(items), example_batch=codes["naoh_a"])
+                   board=view.batches, example_batch=codes["naoh_a"],
+                   instruments=view.instruments)
 
 
 def _record_assays(db: Any, today: datetime, codes: dict[str, str],
