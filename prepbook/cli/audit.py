@@ -100,8 +100,12 @@ def verify(
     against every checkpoint in sight."""
     from prepbook.lab import auditing
 
-    rep = auditing.verify_against(database(ctx), codes=codes or (), witness=witness,
-                                  thorough=thorough)
+    db = database(ctx)
+    silent = as_json or output.quiet(ctx)
+    with output.progress("verifying the audit trail (events, then rows)",
+                         None if silent else auditing.verify_size(db), silent=silent) as step:
+        rep = auditing.verify_against(db, codes=codes or (), witness=witness,
+                                      thorough=thorough, advance=step)
     if as_json:
         output.emit_json(rep)
     else:

@@ -48,7 +48,9 @@ def demo(
     from prepbook.lab import demo as demo_lab
 
     target = Path(_target(ctx, db))
-    res = demo_lab.build(target, replace=replace)
+    with output.progress("building the demo lab", demo_lab.steps(),
+                         silent=as_json or output.quiet(ctx)) as advance:
+        res = demo_lab.build(target, replace=replace, advance=advance)
     if as_json:
         output.emit_json(list(res.board))
         return

@@ -16,7 +16,8 @@ import json
 import math
 import os
 import sys
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import asdict, fields, is_dataclass
 from datetime import date, datetime
 from typing import Any
@@ -76,6 +77,36 @@ def console(stderr: bool = False) -> Any:
     if os.environ.get("COLUMNS", "").isdigit():
         width = int(os.environ["COLUMNS"])
     return _Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
+
+
+def quiet(ctx: Any) -> bool:
+    """Whether the root was given ``-q`` (say nothing on stderr but errors)."""
+    return bool(getattr(ctx.obj, "verbosity", 0) < 0)
+
+
+@contextmanager
+def progress(what: str, total: int | None, *,
+             silent: bool = False) -> Iterator[Callable[[int], None]]:
+    """A progress bar for a long command, on stderr, with ``advance(n)`` to move it; a
+    spinner when ``total`` is None. Nothing is drawn when stderr is not a terminal or
+    when ``silent`` (``-q``, ``--json``), and the bar is gone when the work is done, so
+    stdout and the command's own lines stay as they are."""
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        SpinnerColumn,
+        TextColumn,
+        TimeElapsedColumn,
+    )
+
+    err = console(stderr=True)
+    bar = Progress(SpinnerColumn(), TextColumn("{task.description}"), BarColumn(),
+                   MofNCompleteColumn(), TimeElapsedColumn(), console=err, transient=True,
+                   disable=silent or not err.is_terminal)
+    with bar:
+        task = bar.add_task(what, total=total)
+        yield lambda n: bar.advance(task, n)
 
 
 def plain(value: object) -> str:

@@ -8,7 +8,7 @@ from dataclasses import dataclass, fields
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import null, select
+from sqlalchemy import func, null, select
 from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
@@ -20,6 +20,7 @@ from prepbook.store.models import (
     AUDITED_TABLES,
     Assay,
     AssayReplicate,
+    AuditEvent,
     Batch,
     Instrument,
     InstrumentConnection,
@@ -168,14 +169,25 @@ class SigningKeyMade:
     public_key: str
 
 
+def verify_size(db: Database) -> int:
+    """How many events and audited rows ``verify`` reads (its ``advance`` adds up to it
+    on an unchanged database)."""
+    with db.session(write=False) as s:
+        return sum(int(s.scalar(select(func.count()).select_from(table)) or 0)
+                   for table in (AuditEvent.__table__, *AUDITED_TABLES.values()))
+
+
 def verify_against(db: Database, *, codes: Sequence[str] = (), witness: str | None = None,
-                   thorough: bool = False) -> audit.VerifyReport:
+                   thorough: bool = False,
+                   advance: Callable[[int], None] | None = None) -> audit.VerifyReport:
     """``verify``, held also against checkpoint ``codes`` typed from paper and the
-    ``witness`` folder (default: the configured one)."""
+    ``witness`` folder (default: the configured one); ``advance(n)`` after every n
+    events and rows read."""
     folder = Path(witness).expanduser() if witness else audit.witness_folder()
     try:
         with db.session(write=False) as s:
-            return audit.verify(s, codes=codes, witness=folder, thorough=thorough)
+            return audit.verify(s, codes=codes, witness=folder, thorough=thorough,
+                                advance=advance)
     except DBAPIError as exc:  # pages that cannot be read: one line, never a traceback
         raise IntegrityError(f"the database cannot be read to the end ({exc.orig}): restore "
                              "it from a backup; `prepbook audit verify --thorough` on a "

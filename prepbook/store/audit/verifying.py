@@ -128,11 +128,11 @@ class _Problems:
 
 
 def verify(session: Session, *, codes: Sequence[str] = (), witness: Path | None = None,
-           thorough: bool = False) -> VerifyReport:
+           thorough: bool = False, advance: Callable[[int], None] | None = None) -> VerifyReport:
     """Recompute the whole chain, hold it against every checkpoint in sight (the
     database's, the ``witness`` folder's, ``codes`` typed from paper) and check every
     audited row against its last event; the schema, the file (``thorough``: every page)
-    and the credentials too."""
+    and the credentials too. ``advance(n)`` is told of every n events and rows read."""
     problems = _Problems()
     try:
         key = read_key()
@@ -146,10 +146,10 @@ def verify(session: Session, *, codes: Sequence[str] = (), witness: Path | None 
     kept = keying(conn)
     _check_keying(kept, key, problems)
     seen = witnessing.gather(conn, kept, codes, witness, problems.add)
-    chain = _check_chain(conn, key, problems, {a.events for a in seen})
+    chain = _check_chain(conn, key, problems, {a.events for a in seen}, advance)
     removed = _check_head(conn, chain, problems)
     found = witnessing.compare(seen, chain.last_seq, chain.hashes_at, kept, problems.add)
-    _check_rows(conn, chain.last_events, problems, removed or found.shortened)
+    _check_rows(conn, chain.last_events, problems, removed or found.shortened, advance)
     listed = problems.as_tuple()
     return VerifyReport(
         ok=not listed, events=chain.events, head_hash=chain.last_hash, problems=listed,
@@ -186,7 +186,8 @@ def _check_keying(kept: Keying | None, key: bytes | None, problems: _Problems) -
                      "be verified with it")
 
 
-def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Sequence[Any]]:
+def _pages(conn: Connection, table: Table, names: Sequence[str],
+           advance: Callable[[int], None] | None = None) -> Iterator[Sequence[Any]]:
     """Every row of ``table`` (these columns), in key order, a page at a time.
 
     Read through the driver's own cursor: plain tuples of the values as stored (SQLite
@@ -202,6 +203,8 @@ def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Seq
         cursor.execute(str(stmt.compile(dialect=conn.dialect)))
         while rows := cursor.fetchmany(_PAGE):
             yield rows
+            if advance is not None:
+                advance(len(rows))
     finally:
         cursor.close()
 
@@ -212,7 +215,7 @@ _EVENT_COLUMNS = ("seq", "at", "actor", "action", "record_type", "record_id", "v
 
 
 def _check_chain(conn: Connection, key: bytes | None, problems: _Problems,
-                 wanted: set[int]) -> _Chain:
+                 wanted: set[int], advance: Callable[[int], None] | None = None) -> _Chain:
     """One pass over the events: each hash recomputed, each link to the one before, each
     time no earlier than the one before; the hashes of the ``wanted`` events kept."""
     scheme, digest = hasher(key)
@@ -224,7 +227,7 @@ def _check_chain(conn: Connection, key: bytes | None, problems: _Problems,
     count = prev_seq = other_scheme = 0
     prev_hash: str | None = None
     prev_at = ""
-    for rows in _pages(conn, _EVENT_TABLE, _EVENT_COLUMNS):
+    for rows in _pages(conn, _EVENT_TABLE, _EVENT_COLUMNS, advance):
         count += len(rows)
         for (seq, at, actor, action, rtype, rid, values, reason, pat, linked, stored,
              login, host, key_id) in rows:
@@ -340,7 +343,7 @@ def _converters(table: Table) -> tuple[tuple[str, Converter, type | None], ...]:
 
 
 def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems,
-                shortened: bool) -> None:
+                shortened: bool, advance: Callable[[int], None] | None = None) -> None:
     """Every audited row must equal the snapshot of its last event, and vice versa (a
     row with no event, in a trail known to be ``shortened``: its event was removed)."""
     no_event = ("its audit event was removed from the end of the trail" if shortened
@@ -349,7 +352,7 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems,
         converters = _converters(table)
         names = [n for n, _, _ in converters]
         id_at = names.index("id")
-        for rows in _pages(conn, table, names):
+        for rows in _pages(conn, table, names, advance):
             for row in rows:
                 last = last_events.pop((name, row[id_at]), None)
                 try:
