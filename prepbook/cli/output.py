@@ -144,10 +144,11 @@ def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any
 
 
 def too_wide(out: Any, tab: Any) -> bool:
-    """Whether ``tab`` at its natural width (every cell on one line) is wider than the
-    console ``out``."""
+    """Whether ``tab`` is wider than the console ``out`` even with its wrapping columns
+    at their narrowest (their longest word): Rich would then have to cut a column kept
+    whole."""
     unbounded = out.options.update_width(10**6)  # the table's own width, not the console's
-    return bool(out.measure(tab, options=unbounded).maximum > out.width)
+    return bool(out.measure(tab, options=unbounded).minimum > out.width)
 
 
 def show(out: Any, tab: Any) -> None:
