@@ -50,7 +50,7 @@ def log(
     # two lines (date, then hour), the record's code above its row id: nothing is cut.
     clk = settings.lab_clock(db)
     tab = _log_table(title, events, clk, narrow=False)
-    if output.too_wide(out, tab):
+    if output.too_wide(out, tab, wrapped=True):
         tab = _log_table(title, events, clk, narrow=True)
     output.show(out, tab)
 

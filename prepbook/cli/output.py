@@ -143,20 +143,22 @@ def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any
     return tab
 
 
-def too_wide(out: Any, tab: Any) -> bool:
-    """Whether ``tab`` is wider than the console ``out`` even with its wrapping columns
-    at their narrowest (their longest word): Rich would then have to cut a column kept
-    whole."""
+def too_wide(out: Any, tab: Any, *, wrapped: bool = False) -> bool:
+    """Whether ``tab`` is wider than the console ``out`` with every cell on one line, or
+    (``wrapped``) even with its wrapping columns at their narrowest (their longest word),
+    when Rich would have to cut a column kept whole."""
     unbounded = out.options.update_width(10**6)  # the table's own width, not the console's
-    return bool(out.measure(tab, options=unbounded).minimum > out.width)
+    needs = out.measure(tab, options=unbounded)
+    return bool((needs.minimum if wrapped else needs.maximum) > out.width)
 
 
 def show(out: Any, tab: Any) -> None:
-    """Print ``tab``; when it is wider than the console, with one space between columns
-    instead of two, so the columns kept whole (``no_wrap``) still fit before Rich would
-    shorten one of them."""
+    """Print ``tab``; when it does not fit the console on one line a row, with one space
+    between columns instead of two and no margin at its edges, so that the columns kept
+    whole (``no_wrap``) still fit and the others wrap as little as they can."""
     if too_wide(out, tab):
         tab.padding = (0, 0)
+        tab.show_edge = False
     out.print(tab)
 
 
