@@ -66,6 +66,15 @@ def test_what_a_user_types_is_whole_at_80_columns(narrow: Cli, command: tuple[st
     assert sorted(v for v in wanted if v not in text) == []
 
 
+def test_trend_keeps_its_run_codes_whole_at_80_columns(narrow: Cli, demo_db: Path) -> None:
+    batch = max(narrow.json("status"), key=lambda b: b["standardized_on"] or "")["batch"]
+    runs = [h["run"] for h in narrow.json("trend", batch)["history"]]
+    assert runs
+    text = narrow.ok("trend", batch).stdout
+    _fits(text)
+    assert [r for r in runs if r not in text] == []
+
+
 def test_audit_log_times_are_whole_at_80_columns(narrow: Cli, demo_db: Path) -> None:
     from prepbook.lab import settings
     from prepbook.store.engine import open_database
