@@ -2,10 +2,10 @@
 where a ``PrepbookError`` becomes a message on stderr and an exit status.
 
 The root is lazy. ``COMMANDS`` names every command and group with the module that
-defines it and its short help (listed whole, wrapped to the terminal); a command module is imported, and Typer converts its
-commands, only when that command is invoked (or its own ``--help`` is asked for).
-``prepbook --help`` lists the table's short help and imports none of the modules.
-``tests/cli/test_lazy_root.py`` checks the table against the real commands, so it
+defines it and its short help (listed whole, wrapped to the terminal); a command
+module is imported, and Typer converts its commands, only when that command is
+invoked (or its own ``--help`` is asked for). ``prepbook --help`` lists the table's
+short help and imports none of the modules. ``tests/cli/test_lazy_root.py`` checks the table against the real commands, so it
 cannot drift from them.
 """
 

@@ -76,7 +76,8 @@ _NAMED: dict[str, Callable[[], Any]] = {
                                        null()).join(Run, ReplicateCurve.run_id == Run.id),
     "reviews": lambda: select(Review.id, Run.code, null(), null()).join(
         Run, Review.run_id == Run.id),
-    "uses": lambda: select(Use.id, Batch.code, null(), null()).join(Batch, Use.batch_id == Batch.id),
+    "uses": lambda: select(Use.id, Batch.code, null(), null()).join(
+        Batch, Use.batch_id == Batch.id),
     "assay_replicates": lambda: select(AssayReplicate.id, Assay.code, AssayReplicate.position,
                                        null()).join(Assay, AssayReplicate.assay_id == Assay.id),
     "instrument_connections": lambda: select(
