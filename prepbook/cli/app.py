@@ -5,8 +5,8 @@ The root is lazy. ``COMMANDS`` names every command and group with the module tha
 defines it and its short help (listed whole, wrapped to the terminal); a command
 module is imported, and Typer converts its commands, only when that command is
 invoked (or its own ``--help`` is asked for). ``prepbook --help`` lists the table's
-short help and imports none of the modules. ``tests/cli/test_lazy_root.py`` checks the table against the real commands, so it
-cannot drift from them.
+short help and imports none of the modules. ``tests/cli/test_lazy_root.py`` checks
+the table against the real commands, so it cannot drift from them.
 """
 
 from __future__ import annotations
