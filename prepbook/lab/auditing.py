@@ -88,33 +88,36 @@ _NAMED: dict[str, Callable[[], Any]] = {
         select(LabelPrint.id, Lot.code, null(), null()).join(Lot, LabelPrint.lot_id == Lot.id)),
 }
 
-_CHUNK = 500  # ids per query, far below any backend's limit on bound parameters
+_CHUNK = 500  # ids asked for by list, far below any backend's limit on bound parameters
 
 
 def _codes(session: Session, events: Sequence[audit.LogEntry]) -> dict[tuple[str, int], str]:
-    """(table, id) -> code of every record the events name: one query per table named
-    (per 500 records), whatever the number of events."""
+    """(table, id) -> code of every record the events name: one query per table named,
+    whatever the number of events (by their ids when they are few, else the table's
+    every row)."""
     wanted: dict[str, set[int]] = defaultdict(set)
     for e in events:
         wanted[e.record_type].add(e.record_id)
     named: dict[tuple[str, int], str] = {}
-    for table, id_set in wanted.items():
+    for table, ids in wanted.items():
         if table not in _NAMED:
             continue
         stmt = _NAMED[table]().subquery()
-        key = stmt.c[0]
-        ids = sorted(id_set)
-        for start in range(0, len(ids), _CHUNK):
-            rows = session.execute(select(stmt).where(key.in_(ids[start:start + _CHUNK])))
-            for rid, code, position, version in rows:
-                named[(table, rid)] = _versioned(code, position, version)
+        query = select(stmt)
+        if len(ids) <= _CHUNK:
+            query = query.where(stmt.c[0].in_(sorted(ids)))
+        for rid, code, position, version in session.execute(query):
+            named[(table, rid)] = _versioned(code, position, version)
     return named
+
+
+_LOG_FIELDS = tuple(f.name for f in fields(audit.LogEntry))
 
 
 def named(session: Session, events: Sequence[audit.LogEntry]) -> list[AuditEntry]:
     """``events`` with the code of each one's record (``AuditEntry.code``)."""
     codes = _codes(session, events)
-    return [AuditEntry(**{f.name: getattr(e, f.name) for f in fields(e)},
+    return [AuditEntry(*(getattr(e, name) for name in _LOG_FIELDS),
                        code=codes.get((e.record_type, e.record_id))) for e in events]
 
 
