@@ -117,7 +117,7 @@ _LOG_FIELDS = tuple(f.name for f in fields(audit.LogEntry))
 def named(session: Session, events: Sequence[audit.LogEntry]) -> list[AuditEntry]:
     """``events`` with the code of each one's record (``AuditEntry.code``)."""
     codes = _codes(session, events)
-    return [AuditEntry(*(getattr(e, name) for name in _LOG_FIELDS),
+    return [AuditEntry(**{name: getattr(e, name) for name in _LOG_FIELDS},
                        code=codes.get((e.record_type, e.record_id))) for e in events]
 
 
