@@ -10,6 +10,7 @@ from typing import Any
 import pytest
 
 from tests.conftest import Cli
+from tests.lab.test_demo import demo_db  # noqa: F401  (the demo lab, built once here)
 
 WIDTH = 80
 
@@ -24,17 +25,8 @@ WHOLE: dict[tuple[str, ...], tuple[str, ...]] = {
 }
 
 
-@pytest.fixture(scope="module")
-def demo_db(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    from prepbook.lab import demo
-
-    path = tmp_path_factory.mktemp("narrow") / "demo-lab.db"
-    demo.build(path)
-    return path
-
-
 @pytest.fixture
-def narrow(demo_db: Path, monkeypatch: pytest.MonkeyPatch) -> Cli:
+def narrow(demo_db: Path, monkeypatch: pytest.MonkeyPatch) -> Cli:  # noqa: F811
     monkeypatch.setenv("COLUMNS", str(WIDTH))
     return Cli(demo_db)
 
@@ -66,7 +58,7 @@ def test_what_a_user_types_is_whole_at_80_columns(narrow: Cli, command: tuple[st
     assert sorted(v for v in wanted if v not in text) == []
 
 
-def test_trend_keeps_its_run_codes_whole_at_80_columns(narrow: Cli, demo_db: Path) -> None:
+def test_trend_keeps_its_run_codes_whole_at_80_columns(narrow: Cli) -> None:
     batch = max(narrow.json("status"), key=lambda b: b["standardized_on"] or "")["batch"]
     runs = [h["run"] for h in narrow.json("trend", batch)["history"]]
     assert runs
@@ -75,7 +67,8 @@ def test_trend_keeps_its_run_codes_whole_at_80_columns(narrow: Cli, demo_db: Pat
     assert [r for r in runs if r not in text] == []
 
 
-def test_audit_log_times_are_whole_at_80_columns(narrow: Cli, demo_db: Path) -> None:
+def test_audit_log_times_are_whole_at_80_columns(narrow: Cli,
+                                                 demo_db: Path) -> None:  # noqa: F811
     from prepbook.lab import settings
     from prepbook.store.engine import open_database
 
@@ -98,7 +91,7 @@ def test_audit_log_times_are_whole_at_80_columns(narrow: Cli, demo_db: Path) -> 
 
 
 def test_the_board_and_the_log_keep_one_line_a_row_when_wide(
-        demo_db: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+        demo_db: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
     """At 160 columns nothing is folded: the narrow forms are for narrow terminals."""
     monkeypatch.setenv("COLUMNS", "160")
     cli = Cli(demo_db)
