@@ -2,11 +2,11 @@
 where a ``PrepbookError`` becomes a message on stderr and an exit status.
 
 The root is lazy. ``COMMANDS`` names every command and group with the module that
-defines it and its short help; a command module is imported, and Typer converts its
-commands, only when that command is invoked (or its own ``--help`` is asked for).
-``prepbook --help`` lists the table's short help and imports none of the modules.
-``tests/cli/test_lazy_root.py`` checks the table against the real commands, so it
-cannot drift from them.
+defines it and its short help (listed whole, wrapped to the terminal); a command
+module is imported, and Typer converts its commands, only when that command is
+invoked (or its own ``--help`` is asked for). ``prepbook --help`` lists the table's
+short help and imports none of the modules. ``tests/cli/test_lazy_root.py`` checks
+the table against the real commands, so it cannot drift from them.
 """
 
 from __future__ import annotations
@@ -164,11 +164,9 @@ class _Root(TyperGroup):
         return list(self.commands)  # the names alone: TyperGroup's would load every command
 
     def format_commands(self, ctx: Any, formatter: Any) -> None:
-        # The listing shows each command's short help: take it from the table, through
-        # stand-ins that shorten it to the width exactly as the real commands would.
-        stand_ins = {e.name: TyperCommand(name=e.name, help=e.short_help) for e in COMMANDS}
-        limit = formatter.width - 6 - max(len(name) for name in stand_ins)
-        rows = [(name, cmd.get_short_help_str(limit)) for name, cmd in stand_ins.items()]
+        # The listing shows each command's short help from the table, whole: the
+        # formatter wraps it to the width (Click's own listing would cut it with "...").
+        rows = [(e.name, e.short_help) for e in COMMANDS]
         with formatter.section("Commands"):
             formatter.write_dl(rows)
 

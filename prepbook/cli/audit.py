@@ -2,10 +2,16 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING, Any
+
 import typer
 
 from prepbook.cli import output
 from prepbook.cli.session import Passphrases, actor, database
+
+if TYPE_CHECKING:
+    from prepbook.clock import LabClock
+    from prepbook.lab.auditing import AuditEntry
 
 app = typer.Typer(
     help="Read and verify the audit trail.",
@@ -38,14 +44,43 @@ def log(
     if as_json:
         output.emit_json(events)
         return
+    out = output.console()
+    title = f"Audit trail (lab time, {clock.zone_name(settings.lab_clock(db).zone)})"
+    # When the table does not fit, the narrow form: both times in one column, each on
+    # two lines (date, then hour), the record's code above its row id: nothing is cut.
     clk = settings.lab_clock(db)
-    output.console().print(output.table(
-        f"Audit trail (lab time, {clock.zone_name(clk.zone)})",
-        ["seq", "entered", "work done", "actor", "action", "record", "reason"],
-        [(e.seq, clk.shown(e.at),
-          (clk.shown(e.performed_at) + (" LATE" if clk.late(e.performed_at, e.at) else ""))
-          if e.performed_at else "", e.actor, e.action, e.record, e.reason or "")
-         for e in events], right=(0,)))
+    tab = _log_table(title, events, clk, narrow=False)
+    if output.too_wide(out, tab, wrapped=True):
+        tab = _log_table(title, events, clk, narrow=True)
+    output.show(out, tab)
+
+
+def _log_table(title: str, events: list[AuditEntry], clk: LabClock, *, narrow: bool) -> Any:
+    sep = "\n" if narrow else " "
+
+    def when(at: str | None) -> str:
+        return sep.join(clk.shown(at).split(" ", 1))
+
+    def done(e: AuditEntry) -> str:
+        if not e.performed_at:
+            return ""
+        late = clk.late(e.performed_at, e.at)
+        if narrow:
+            return f"\ndone{' LATE' if late else ''}\n{when(e.performed_at)}"
+        return when(e.performed_at) + (" LATE" if late else "")
+
+    def record(e: AuditEntry) -> str:
+        return f"{e.code}{sep}({e.record})" if e.code else e.record
+
+    if narrow:
+        return output.table(
+            title, ["seq", "entered, done", "actor", "action", "record", "reason"],
+            [(e.seq, when(e.at) + done(e), e.actor, e.action, record(e), e.reason or "")
+             for e in events], right=(0,), no_wrap=(0, 1, 2, 3, 4))
+    return output.table(
+        title, ["seq", "entered", "work done", "actor", "action", "record", "reason"],
+        [(e.seq, when(e.at), done(e), e.actor, e.action, record(e), e.reason or "")
+         for e in events], right=(0,), no_wrap=(0, 1, 2, 3, 4, 5))
 
 
 @app.command("verify")
@@ -71,9 +106,13 @@ def verify(
     against every checkpoint in sight."""
     from prepbook.lab import auditing
 
-    rep = auditing.verify_against(database(ctx), codes=codes or (), witness=witness,
-                                  thorough=thorough, witness_database=witness_db,
-                                  keyring=keyring)
+    db = database(ctx)
+    silent = as_json or output.quiet(ctx)
+    with output.progress("verifying the audit trail (events, then rows)",
+                         None if silent else auditing.verify_size(db), silent=silent) as step:
+        rep = auditing.verify_against(db, codes=codes or (), witness=witness,
+                                      thorough=thorough, witness_database=witness_db,
+                                      keyring=keyring, advance=step)
     if as_json:
         output.emit_json(rep)
     else:

@@ -48,7 +48,9 @@ def demo(
     from prepbook.lab import demo as demo_lab
 
     target = Path(_target(ctx, db))
-    res = demo_lab.build(target, replace=replace)
+    with output.progress("building the demo lab", demo_lab.steps(),
+                         silent=as_json or output.quiet(ctx)) as advance:
+        res = demo_lab.build(target, replace=replace, advance=advance)
     if as_json:
         output.emit_json(list(res.board))
         return
@@ -58,5 +60,5 @@ def demo(
               f"{res.events} audit events)")
     for line in res.story:
         out.print(f"  {line}")
-    render_board(out, list(res.board))
+    render_board(out, list(res.board), res.instruments)
     out.print(f"\nTry: prepbook --db {res.database} batch show {res.example_batch}")

@@ -32,8 +32,9 @@ def trend(
              "" if h.change_percent is None else f"{h.change_percent:+.3f} %"
              + (" BEYOND LIMIT" if h.beyond_drift_limit else ""))
             for h in t.history]
-    out.print(output.table("Accepted standardizations", ["run", "when", "N 20 C", "factor",
-                                                         "change"], rows, right=(2, 3, 4)))
+    output.show(out, output.table("Accepted standardizations",
+                                  ["run", "when", "N 20 C", "factor", "change"], rows,
+                                  right=(2, 3, 4), no_wrap=range(5)))
     if t.slope_percent_per_30d is not None and t.slope_ci_percent_per_30d is not None:
         lo, hi = t.slope_ci_percent_per_30d
         out.print(f"slope {t.slope_percent_per_30d:+.3f} % per 30 days "

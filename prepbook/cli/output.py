@@ -16,7 +16,8 @@ import json
 import math
 import os
 import sys
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import asdict, fields, is_dataclass
 from datetime import date, datetime
 from typing import Any
@@ -78,6 +79,36 @@ def console(stderr: bool = False) -> Any:
     return _Console(stderr=stderr, width=width, highlight=False, soft_wrap=False)
 
 
+def quiet(ctx: Any) -> bool:
+    """Whether the root was given ``-q`` (say nothing on stderr but errors)."""
+    return bool(getattr(ctx.obj, "verbosity", 0) < 0)
+
+
+@contextmanager
+def progress(what: str, total: int | None, *,
+             silent: bool = False) -> Iterator[Callable[[int], None]]:
+    """A progress bar for a long command, on stderr, with ``advance(n)`` to move it; a
+    spinner when ``total`` is None. Nothing is drawn when stderr is not a terminal or
+    when ``silent`` (``-q``, ``--json``), and the bar is gone when the work is done, so
+    stdout and the command's own lines stay as they are."""
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        SpinnerColumn,
+        TextColumn,
+        TimeElapsedColumn,
+    )
+
+    err = console(stderr=True)
+    bar = Progress(SpinnerColumn(), TextColumn("{task.description}"), BarColumn(),
+                   MofNCompleteColumn(), TimeElapsedColumn(), console=err, transient=True,
+                   disable=silent or not err.is_terminal)
+    with bar:
+        task = bar.add_task(what, total=total)
+        yield lambda n: bar.advance(task, n)
+
+
 def plain(value: object) -> str:
     """``value`` with its control and format characters shown visibly (``\\x1b``)."""
     return visible(value)
@@ -91,6 +122,10 @@ def text(value: object) -> str:
 
 def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any]],
           *, right: Iterable[int] = (), no_wrap: Iterable[int] = ()) -> Any:
+    """A table of ``rows``. A column in ``no_wrap`` (a code, a date, a number: what a
+    user types or reads whole) is never broken; the others wrap at spaces and fold a
+    word too long for them, so a narrow terminal cuts nothing off with "…". Print it
+    with :func:`show`, which closes the columns up when the terminal is narrow."""
     from rich import box
     from rich.table import Table
     from rich.text import Text
@@ -101,10 +136,30 @@ def table(title: str | None, columns: Sequence[str], rows: Iterable[Sequence[Any
                 show_lines=False, box=box.SIMPLE_HEAD, pad_edge=False,
                 collapse_padding=True)
     for i, name in enumerate(columns):
-        tab.add_column(name, justify="right" if i in right_set else "left", no_wrap=i in keep)
+        tab.add_column(name, justify="right" if i in right_set else "left", no_wrap=i in keep,
+                       overflow="fold")
     for row in rows:
         tab.add_row(*(Text("" if cell is None else plain(cell)) for cell in row))
     return tab
+
+
+def too_wide(out: Any, tab: Any, *, wrapped: bool = False) -> bool:
+    """Whether ``tab`` is wider than the console ``out`` with every cell on one line, or
+    (``wrapped``) even with its wrapping columns at their narrowest (their longest word),
+    when Rich would have to cut a column kept whole."""
+    unbounded = out.options.update_width(10**6)  # the table's own width, not the console's
+    needs = out.measure(tab, options=unbounded)
+    return bool((needs.minimum if wrapped else needs.maximum) > out.width)
+
+
+def show(out: Any, tab: Any) -> None:
+    """Print ``tab``; when it does not fit the console on one line a row, with one space
+    between columns instead of two and no margin at its edges, so that the columns kept
+    whole (``no_wrap``) still fit and the others wrap as little as they can."""
+    if too_wide(out, tab):
+        tab.padding = (0, 0)
+        tab.show_edge = False
+    out.print(tab)
 
 
 def whole(text: str, what: str, minimum: int = 0) -> int:

@@ -24,14 +24,17 @@ def list_(ctx: typer.Context,
     if as_json:
         output.emit_json(rows)
         return
-    output.console().print(output.table(
-        "Solution specs",
-        ["code", "name", "standard", "indicator", "RSD max %", "factor window",
-         "restandardize (d)", "shelf life (d)"],
+    # The code (typed in other commands), the standard and the numbers stay whole; the
+    # name and indicator wrap. Short headings, so the whole columns fit in 80.
+    out = output.console()
+    output.show(out, output.table(
+        "Solution specs (RSD: largest %; restd., shelf: days)",
+        ["code", "name", "standard", "indicator", "RSD", "factor window", "restd.",
+         "shelf"],
         [(r.code, r.name, r.standard or "-", r.indicator or "-",
           f"{r.max_rsd_percent:g}", f"{r.factor_low:.3f}-{r.factor_high:.3f}",
           r.restandardize_days, r.shelf_life_days) for r in rows],
-        right=(4, 6, 7)))
+        right=(4, 6, 7), no_wrap=(0, 2, 4, 5, 6, 7)))
 
 
 @app.command("add")

@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-from dataclasses import dataclass
+from collections import defaultdict
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, fields
 from pathlib import Path
+from typing import Any
 
+from sqlalchemy import func, null, select
 from sqlalchemy.exc import DBAPIError
+from sqlalchemy.orm import Session
 
 from prepbook.errors import IntegrityError, InvalidInput, Refused
 from prepbook.inputs import parse_date, parse_text, parse_whole
@@ -15,13 +19,116 @@ from prepbook.store import audit, retry
 from prepbook.store.audit import rekey_check, rotating, witness_db
 from prepbook.store.audit.chain import read_key_file
 from prepbook.store.engine import Database
-from prepbook.store.models import AUDITED_TABLES
+from prepbook.store.models import (
+    AUDITED_TABLES,
+    Assay,
+    AssayReplicate,
+    AuditEvent,
+    Batch,
+    Instrument,
+    InstrumentConnection,
+    LabelPrint,
+    Lot,
+    Material,
+    Replicate,
+    ReplicateCurve,
+    ReplicateSource,
+    Review,
+    Run,
+    Setting,
+    Spec,
+    Use,
+    User,
+)
+
+
+@dataclass(frozen=True)
+class AuditEntry(audit.LogEntry):
+    """An audit event with its record named as a person types it (``code``): the
+    record's own code (a batch, run, lot, instrument, spec, material or assay code, a
+    user's name, a setting's key), or for a part of a record the code of the whole:
+    ``R260520-1/2`` replicate 2 of run R260520-1 (``v2`` its second version), a
+    review by its run, a use by its batch. None for a record no longer found."""
+
+    code: str | None = None
+
+
+def _versioned(code: str, position: int | None, version: int | None) -> str:
+    part = code if position is None else f"{code}/{position}"
+    return part if not version or version == 1 else f"{part} v{version}"
+
+
+def _own_code(model: Any) -> Callable[[], Any]:
+    return lambda: select(model.id, model.code, null(), null())
+
+
+# table -> the statement giving (id, code, position, version) of its rows (built when
+# first asked for).
+_NAMED: dict[str, Callable[[], Any]] = {
+    **{m.__tablename__: _own_code(m)
+       for m in (Material, Spec, Lot, Instrument, Batch, Run, Assay)},
+    "users": lambda: select(User.id, User.name, null(), null()),
+    "settings": lambda: select(Setting.id, Setting.key, null(), null()),
+    "replicates": lambda: select(Replicate.id, Run.code, Replicate.position,
+                                 Replicate.version).join(Run, Replicate.run_id == Run.id),
+    "replicate_sources": lambda: (
+        select(ReplicateSource.id, Run.code, Replicate.position, Replicate.version)
+        .join(Replicate, ReplicateSource.replicate_id == Replicate.id)
+        .join(Run, Replicate.run_id == Run.id)),
+    "replicate_curves": lambda: select(ReplicateCurve.id, Run.code, ReplicateCurve.position,
+                                       null()).join(Run, ReplicateCurve.run_id == Run.id),
+    "reviews": lambda: select(Review.id, Run.code, null(), null()).join(
+        Run, Review.run_id == Run.id),
+    "uses": lambda: select(Use.id, Batch.code, null(), null()).join(
+        Batch, Use.batch_id == Batch.id),
+    "assay_replicates": lambda: select(AssayReplicate.id, Assay.code, AssayReplicate.position,
+                                       null()).join(Assay, AssayReplicate.assay_id == Assay.id),
+    "instrument_connections": lambda: select(
+        InstrumentConnection.id, Instrument.code, null(), InstrumentConnection.version).join(
+        Instrument, InstrumentConnection.instrument_id == Instrument.id),
+    "label_prints": lambda: select(LabelPrint.id, Batch.code, null(), null()).join(
+        Batch, LabelPrint.batch_id == Batch.id).union_all(
+        select(LabelPrint.id, Lot.code, null(), null()).join(Lot, LabelPrint.lot_id == Lot.id)),
+}
+
+_CHUNK = 500  # ids asked for by list, far below any backend's limit on bound parameters
+
+
+def _codes(session: Session, events: Sequence[audit.LogEntry]) -> dict[tuple[str, int], str]:
+    """(table, id) -> code of every record the events name: one query per table named,
+    whatever the number of events (by their ids when they are few, else the table's
+    every row)."""
+    wanted: dict[str, set[int]] = defaultdict(set)
+    for e in events:
+        wanted[e.record_type].add(e.record_id)
+    named: dict[tuple[str, int], str] = {}
+    for table, ids in wanted.items():
+        if table not in _NAMED:
+            continue
+        stmt = _NAMED[table]().subquery()
+        query = select(stmt)
+        if len(ids) <= _CHUNK:
+            query = query.where(stmt.c[0].in_(sorted(ids)))
+        for rid, code, position, version in session.execute(query):
+            named[(table, rid)] = _versioned(code, position, version)
+    return named
+
+
+_LOG_FIELDS = tuple(f.name for f in fields(audit.LogEntry))
+
+
+def named(session: Session, events: Sequence[audit.LogEntry]) -> list[AuditEntry]:
+    """``events`` with the code of each one's record (``AuditEntry.code``)."""
+    codes = _codes(session, events)
+    return [AuditEntry(**{name: getattr(e, name) for name in _LOG_FIELDS},
+                       code=codes.get((e.record_type, e.record_id))) for e in events]
 
 
 def log(db: Database, *, record: str | None = None, actor: str | None = None,
         since: str | None = None, until: str | None = None,
-        limit: int | None = None) -> list[audit.LogEntry]:
-    """Audit events, filtered; ``record`` is TABLE or TABLE#ID."""
+        limit: int | None = None) -> list[AuditEntry]:
+    """Audit events, filtered, each with its record's code; ``record`` is TABLE or
+    TABLE#ID."""
     record_type = record_id = None
     if record:
         name, _, rid = record.partition("#")
@@ -38,8 +145,8 @@ def log(db: Database, *, record: str | None = None, actor: str | None = None,
     if since_d and until_d and since_d > until_d:
         raise InvalidInput("--since is after --until")
     with db.session(write=False) as s:
-        return audit.log(s, record_type=record_type, record_id=record_id, actor=actor,
-                         since=since_d, until=until_d, limit=limit)
+        return named(s, audit.log(s, record_type=record_type, record_id=record_id,
+                                  actor=actor, since=since_d, until=until_d, limit=limit))
 
 
 def verify(db: Database, *, thorough: bool = False) -> audit.VerifyReport:
@@ -69,20 +176,30 @@ class SigningKeyMade:
     public_key: str
 
 
+def verify_size(db: Database) -> int:
+    """How many events and audited rows ``verify`` reads (its ``advance`` adds up to it
+    on an unchanged database)."""
+    with db.session(write=False) as s:
+        return sum(int(s.scalar(select(func.count()).select_from(table)) or 0)
+                   for table in (AuditEvent.__table__, *AUDITED_TABLES.values()))
+
+
 def verify_against(db: Database, *, codes: Sequence[str] = (), witness: str | None = None,
                    thorough: bool = False, witness_database: str | None = None,
-                   keyring: str | None = None) -> audit.VerifyReport:
+                   keyring: str | None = None,
+                   advance: Callable[[int], None] | None = None) -> audit.VerifyReport:
     """``verify``, held also against checkpoint ``codes`` typed from paper, the
     ``witness`` folder and the ``witness_database`` (default: the configured ones), each
     stretch of the chain checked with its audit key (old ones from the ``keyring``
-    folder, default: the configured one)."""
+    folder, default: the configured one); ``advance(n)`` after every n events and rows
+    read."""
     folder = Path(witness).expanduser() if witness else audit.witness_folder()
     url = witness_database or witness_db.witness_database()
     ring = Path(keyring).expanduser() if keyring else rekey_check.keyring_folder()
     try:
         with db.session(write=False) as s:
             return audit.verify(s, codes=codes, witness=folder, thorough=thorough,
-                                witness_db=url, keyring=ring)
+                                witness_db=url, keyring=ring, advance=advance)
     except DBAPIError as exc:  # pages that cannot be read: one line, never a traceback
         raise IntegrityError(f"the database cannot be read to the end ({exc.orig}): restore "
                              "it from a backup; `prepbook audit verify --thorough` on a "

@@ -21,6 +21,7 @@ from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
 from prepbook.lab.common import iso, life_facts, life_result, setting
 from prepbook.lab.volumes import remaining_volumes
+from prepbook.rules import life
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Spec
 
@@ -47,6 +48,34 @@ class BatchLife:
     expires: str
     warnings: tuple[str, ...]
     remaining_ml: float | None = None  # made less every recorded draw (``lab.volumes``)
+    # On the board: the instruments it depends on whose calibration is overdue or due
+    # soon, by code; their warnings are then in ``Board.instruments``, once each, not
+    # in ``warnings``. Elsewhere (one batch's life) they are in ``warnings`` too.
+    instruments: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class InstrumentWarning:
+    """One instrument's calibration warning on the board, and the batches it concerns."""
+
+    instrument: str
+    warning: str
+    batches: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Board:
+    """The board: the batches, and each instrument warning once (not under every batch
+    that used the instrument)."""
+
+    batches: tuple[BatchLife, ...]
+    instruments: tuple[InstrumentWarning, ...]
+
+    def warnings_of(self, item: BatchLife) -> tuple[str, ...]:
+        """Every warning of one batch of the board, its instruments' included (for a
+        view of that batch alone)."""
+        texts = {w.instrument: w.warning for w in self.instruments}
+        return (*item.warnings, *(texts[code] for code in item.instruments))
 
 
 @dataclass(frozen=True)
@@ -71,9 +100,10 @@ def _life(
     today: date,
     lead_days: int,
     remaining_ml: Decimal | None = None,
+    grouped: bool = False,
 ) -> BatchLife:
-    from prepbook.rules import life
-
+    """One batch's life; ``grouped`` (the board): its instruments' calibration warnings
+    left out of ``warnings`` and named in ``instruments``."""
     view = spec_view.view(spec)
     # A revoked result no longer counts: the batch stands on the runs before it.
     revoked = [r for r in runs if r.status == "revoked"]
@@ -91,9 +121,7 @@ def _life(
         last_accepted_on=last.performed_on if last else None,
         restandardize_by=restd,
     )
-    instruments = list(batch_instruments)
-    if last is not None:
-        instruments.extend(last.instrument_dues)
+    flagged = life.instrument_warnings(_instruments(batch_instruments, runs), today, lead_days)
     lots: list[tuple[str, date]] = []
     if last is not None and last.lot_code is not None and last.lot_expires is not None:
         lots.append((last.lot_code, last.lot_expires))
@@ -104,7 +132,6 @@ def _life(
         lead_days=lead_days,
         expires=batch.expires,
         restandardize_by=restd,
-        instruments=instruments,
         lots=lots,
         # At 20 C, as the trend compares them: two runs at different temperatures
         # differ by the solution's expansion alone, which is no drift.
@@ -112,6 +139,8 @@ def _life(
         drift_limit_percent=view.drift_limit_percent,
         latest_status=latest.status if latest else None,
     )
+    if not grouped:
+        warnings = (*warnings, *(text for _, text in flagged))
     warnings = (*warnings, *(
         f"an accepted result of {batch.code} (standardized {r.performed_on}) was revoked: "
         f"the uses made while it stood need review (prepbook trace {batch.code})"
@@ -127,7 +156,17 @@ def _life(
         expires=when(batch.expires),
         warnings=tuple(warnings),
         remaining_ml=float(remaining_ml) if remaining_ml is not None else None,
+        instruments=tuple(code for code, _ in flagged),
     )
+
+
+def _instruments(batch_instruments: list[tuple[str, str, date]],
+                 runs: list[_RunFacts]) -> list[tuple[str, str, date]]:
+    """(code, kind, calibration due) of the instruments a batch depends on: its own (flask,
+    balance) and those of its latest accepted standardization (a revoked one no longer
+    counts)."""
+    accepted = [r for r in runs if r.status == "accepted"]
+    return [*batch_instruments, *(accepted[-1].instrument_dues if accepted else ())]
 
 
 # Aliases and statements are built once: building them is most of a small query's cost.
@@ -229,6 +268,12 @@ def batch_life(session: Session, batch: Batch, today: date) -> BatchLife:
 
 def board(db: Database, today: date | None = None) -> list[BatchLife]:
     """Every batch not retired, those needing action first."""
+    return list(board_view(db, today).batches)
+
+
+def board_view(db: Database, today: date | None = None) -> Board:
+    """Every batch not retired, those needing action first, and the calibration
+    warnings of the instruments they depend on, once per instrument."""
     today = today or utc_now().date()
     with db.session(write=False) as s:
         lead = _lead_days(s)
@@ -240,13 +285,22 @@ def board(db: Database, today: date | None = None) -> list[BatchLife]:
         left = remaining_volumes(s, shown)
         items = [
             _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=ins,
-                  solute_lot=lot, today=today, lead_days=lead, remaining_ml=left.get(b.id))
+                  solute_lot=lot, today=today, lead_days=lead, remaining_ml=left.get(b.id),
+                  grouped=True)
             for b, spec, ins, lot in rows
         ]
+        texts = dict(pair for b, _, ins, _ in rows for pair in life.instrument_warnings(
+            _instruments(ins, facts.get(b.id, [])), today, lead))
         items = _mark_impacted(s, rows, items)
     items.sort(key=lambda it: (_ORDER.get(it.state, 9), it.restandardize_by or "9999",
                                it.expires, it.batch))
-    return items
+    users: dict[str, list[str]] = defaultdict(list)  # in the board's order
+    for it in items:
+        for code in it.instruments:
+            users[code].append(it.batch)
+    return Board(batches=tuple(items), instruments=tuple(
+        InstrumentWarning(instrument=code, warning=texts[code], batches=tuple(batches))
+        for code, batches in sorted(users.items(), key=lambda kv: texts[kv[0]])))
 
 
 def _mark_impacted(session: Session, rows: list[tuple[Batch, Spec, list, Any]],

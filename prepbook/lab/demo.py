@@ -4,6 +4,7 @@ a bench would use, with its dates counted back from today."""
 from __future__ import annotations
 
 import tomllib
+from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 from importlib import resources
@@ -11,7 +12,7 @@ from pathlib import Path
 from typing import Any
 
 from prepbook.errors import Refused
-from prepbook.lab.board import BatchLife
+from prepbook.lab.board import BatchLife, InstrumentWarning
 
 DEMO_FILE = "lab.toml"
 
@@ -45,6 +46,7 @@ class DemoLab:
     story: tuple[str, ...]
     board: tuple[BatchLife, ...]
     example_batch: str
+    instruments: tuple[InstrumentWarning, ...] = ()  # the board's, once each
 
 # The demo writes weeks of invented history at once: each entry says so (a late entry).
 INVENTED = "demo lab: invented history, entered all at once"
@@ -52,6 +54,15 @@ INVENTED = "demo lab: invented history, entered all at once"
 def scenario() -> dict[str, Any]:
     text = resources.files("prepbook.demo_lab").joinpath(DEMO_FILE).read_text(encoding="utf-8")
     return tomllib.loads(text)
+
+
+def steps() -> int:
+    """How many steps ``build`` reports to its ``advance``: one per user, instrument, lot,
+    batch, standardization and sample titration, and three to finish (the weighed batch,
+    the verification of the trail, the board)."""
+    data = scenario()
+    return (len(data["user"]) + len(data["instrument"]) + len(data["lot"])
+            + sum(1 + len(b.get("run", [])) for b in data["batch"]) + len(DEMO_ASSAYS) + 3)
 
 
 def _moment(today: datetime, day: int, clock: str = "09:00") -> datetime:
@@ -72,8 +83,10 @@ def _move_aside(path: Path, replace: bool) -> None:
                 old.rename(f"{path}.old-{stamp}{suffix}")
 
 
-def build(path: Path, *, replace: bool = False) -> DemoLab:
-    """Build the demo lab into a new SQLite file at ``path`` and return its board."""
+def build(path: Path, *, replace: bool = False,
+          advance: Callable[[int], None] = lambda n: None) -> DemoLab:
+    """Build the demo lab into a new SQLite file at ``path`` and return its board;
+    ``advance(1)`` after each of its ``steps()`` (for a progress bar)."""
     from prepbook.lab import batches, board, instruments, lots, people, runs, setup
     from prepbook.store.engine import open_database
 
@@ -90,12 +103,14 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
     for u in data["user"]:
         people.add_user(db, actor=admin["name"], name=u["name"], role=u["role"],
                         passphrase=u["passphrase"], actor_passphrase=admin["passphrase"])
+        advance(1)
     for ins in data["instrument"]:
         instruments.add_instrument(
             db, actor=admin["name"], code=ins["code"], kind=ins["kind"],
             due=(today + timedelta(days=ins["due_day"])).date().isoformat(),
             capacity=ins.get("capacity"), tolerance=ins.get("tolerance"),
             readability=ins.get("readability"))
+        advance(1)
     for lot in data["lot"]:
         lots.add_lot(
             db, actor=admin["name"], material=lot["material"], code=lot["code"],
@@ -104,6 +119,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
             certificate=lot.get("certificate"),
             dried=((today + timedelta(days=lot["dried_day"])).date().isoformat()
                    if "dried_day" in lot else None))
+        advance(1)
     codes: dict[str, str] = {}
     run_count = 0
     for b in data["batch"]:
@@ -116,6 +132,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
             notes=b.get("notes"), at=made.isoformat(timespec="minutes"),
             late_reason=INVENTED)
         codes[b["key"]] = res.batch
+        advance(1)
         for r in b.get("run", []):
             when = _moment(today, r["day"], r.get("time", "10:00"))
             out = runs.standardize(
@@ -125,6 +142,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
                 blank=r.get("blank"), indicator=r.get("indicator"),
                 at=when.isoformat(timespec="minutes"), late_reason=INVENTED)
             run_count += 1
+            advance(1)
             rv = r.get("review")
             if rv and out.run is not None:
                 signed = min(when + timedelta(hours=5), now)
@@ -132,7 +150,7 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
                             accept=rv["decision"] == "accept", reason=rv.get("reason"),
                             passphrase=users[rv["by"]]["passphrase"],
                             at=signed.isoformat(timespec="minutes"), late_reason=INVENTED)
-    _record_assays(db, today, codes, users)
+    _record_assays(db, today, codes, users, advance)
     from prepbook.lab import auditing, demo_readings
 
     weighed, weighed_run = demo_readings.weighed_batch(
@@ -141,8 +159,11 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
         titrated_at=_moment(today, -2, "10:15"))
     codes["naoh_weighed"] = weighed
     run_count += 1
+    advance(1)
     verified = auditing.verify(db)
-    items = board.board(db)
+    advance(1)
+    view = board.board_view(db)
+    advance(1)
     story = [
         "users (demo passphrases): " + ", ".join(
             f"{u['name']} ({u['role']}, {u['passphrase']})" for u in data["user"]),
@@ -162,11 +183,12 @@ def build(path: Path, *, replace: bool = False) -> DemoLab:
     ]
     return DemoLab(lab=data["lab"], database=target, batches=len(codes), runs=run_count,
                    events=verified.events, verified=verified.ok, story=tuple(story),
-                   board=tuple(items), example_batch=codes["naoh_a"])
+                   board=view.batches, example_batch=codes["naoh_a"],
+                   instruments=view.instruments)
 
 
 def _record_assays(db: Any, today: datetime, codes: dict[str, str],
-                   users: dict[str, Any]) -> None:
+                   users: dict[str, Any], advance: Callable[[int], None]) -> None:
     """The demo's sample titrations, each with the batch's value in force that day; then
     a burette reading of the silver nitrate standardization is found misread by one
     small division and corrected after a water sample was titrated with it
@@ -178,6 +200,7 @@ def _record_assays(db: Any, today: datetime, codes: dict[str, str],
                      aliquot=aliquot, replicates=list(volumes), limit=limit,
                      at=_moment(today, day, clock).isoformat(timespec="minutes"),
                      late_reason=INVENTED)
+        advance(1)
     shown = batches.show_batch(db, codes["agno3"])
     run = shown.runs[-1].run
     runs.correct(db, actor="ines", run=run, replicate=2, volume="35.81",

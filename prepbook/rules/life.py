@@ -138,6 +138,23 @@ def _when(d: date, today: date) -> str:
     return f"in {days} day{'s' if days != 1 else ''}"
 
 
+def instrument_warnings(instruments: Sequence[tuple[str, str, date]], today: date,
+                        lead_days: int = DEFAULT_LEAD_DAYS) -> tuple[tuple[str, str], ...]:
+    """(code, warning) of each instrument of ``instruments`` (code, kind, calibration due)
+    whose calibration is overdue or due within ``lead_days``; an instrument named twice
+    is warned of once."""
+    lead = _days(lead_days, "lead time", 0)
+    out: dict[str, str] = {}
+    for code, kind, due in instruments:
+        if code in out:
+            continue
+        if today > due:
+            out[code] = f"{kind} {code} calibration overdue since {due.isoformat()}"
+        elif (due - today).days <= lead:
+            out[code] = f"{kind} {code} calibration due {due.isoformat()} ({_when(due, today)})"
+    return tuple(out.items())
+
+
 def batch_warnings(
     *,
     today: date,
@@ -176,11 +193,7 @@ def batch_warnings(
                 f"restandardize by {restandardize_by.isoformat()} "
                 f"({_when(restandardize_by, today)})"
             )
-    for code, kind, due in instruments:
-        if today > due:
-            out.append(f"{kind} {code} calibration overdue since {due.isoformat()}")
-        elif (due - today).days <= lead:
-            out.append(f"{kind} {code} calibration due {due.isoformat()} ({_when(due, today)})")
+    out.extend(text for _, text in instrument_warnings(instruments, today, lead))
     for code, lot_expires in lots:
         if today > lot_expires:
             out.append(f"lot {code} expired on {lot_expires.isoformat()}")

@@ -35,7 +35,7 @@ USE = ["at", "by", "volume_ml", "purpose"]
 RETIRED = ["at", "by", "reason"]
 DOUBTFUL_USE = ["used_at", "used_by", "volume_ml", "purpose", "why"]
 STATUS = ["batch", "spec", "state", "normality", "factor", "standardized_on",
-          "restandardize_by", "expires", "warnings", "remaining_ml"]
+          "restandardize_by", "expires", "warnings", "remaining_ml", "instruments"]
 TREND = ["batch", "spec", "nominal", "unit", "window", "drift_limit_percent", "history",
          "slope_percent_per_30d", "slope_ci_percent_per_30d", "forecast_leaves_window", "note"]
 TREND_POINT = ["run", "performed_at", "normality", "normality_20c", "factor", "change_percent",

@@ -16,7 +16,7 @@ VERIFY = ["ok", "events", "head_hash", "problems", "checkpoint", "checkpoints_ch
           "witnessed_events", "notes"]
 CHECKPOINT = ["checkpoint", "events", "head_hash", "made_at", "lab", "witness_file"]
 LOG = ["seq", "at", "actor", "action", "record", "record_type", "record_id", "reason",
-       "performed_at", "os_login", "host"]
+       "performed_at", "os_login", "host", "code"]
 
 
 def test_audit_verify_and_checkpoint_keys(bench: Cli, tmp_path: Path,  # noqa: F811

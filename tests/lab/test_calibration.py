@@ -39,7 +39,9 @@ def overdue_lab(bench: Cli, monkeypatch: pytest.MonkeyPatch) -> Cli:  # noqa: F8
 
 
 def _warnings(db: object) -> list[str]:
-    return [w for item in board.board(db) for w in item.warnings]  # type: ignore[arg-type]
+    """Every warning of every batch on the board, its instruments' included."""
+    view = board.board_view(db)  # type: ignore[arg-type]
+    return [w for item in view.batches for w in view.warnings_of(item)]
 
 
 def test_calibration_moves_the_due_date_and_clears_the_warning(overdue_lab: Cli) -> None:

@@ -129,12 +129,14 @@ class _Problems:
 
 def verify(session: Session, *, codes: Sequence[str] = (), witness: Path | None = None,
            thorough: bool = False, witness_db: str | None = None,
-           keyring: Path | None = None) -> VerifyReport:
+           keyring: Path | None = None,
+           advance: Callable[[int], None] | None = None) -> VerifyReport:
     """Recompute the whole chain, hold it against every checkpoint in sight (the
     database's, the ``witness`` folder's and the ``witness_db``'s, ``codes`` typed from
     paper) and check every audited row against its last event; the schema, the file
     (``thorough``: every page) and the credentials too. Each stretch of the chain is
-    checked with the audit key of its time (old keys from the ``keyring`` folder)."""
+    checked with the audit key of its time (old keys from the ``keyring`` folder).
+    ``advance(n)`` is told of every n events and rows read."""
     problems = _Problems()
     try:
         key = read_key()
@@ -150,11 +152,11 @@ def verify(session: Session, *, codes: Sequence[str] = (), witness: Path | None 
     keys = rekey_check.checked(conn, kept, key, keyring, problems.add)
     witnesses = witnessing.sources(witness, witness_db)
     seen = witnessing.gather(conn, kept, codes, witnesses, problems.add)
-    chain = _check_chain(conn, keys.stretches, problems, {a.events for a in seen})
+    chain = _check_chain(conn, keys.stretches, problems, {a.events for a in seen}, advance)
     removed = _check_head(conn, chain, problems)
     found = witnessing.compare(seen, chain.last_seq, chain.hashes_at, kept, keys, witnesses,
                                problems.add)
-    _check_rows(conn, chain.last_events, problems, removed or found.shortened)
+    _check_rows(conn, chain.last_events, problems, removed or found.shortened, advance)
     listed = problems.as_tuple()
     return VerifyReport(
         ok=not listed, events=chain.events, head_hash=chain.last_hash, problems=listed,
@@ -193,7 +195,8 @@ def _check_keying(kept: Keying | None, key: bytes | None, problems: _Problems) -
                      "be verified with it")
 
 
-def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Sequence[Any]]:
+def _pages(conn: Connection, table: Table, names: Sequence[str],
+           advance: Callable[[int], None] | None = None) -> Iterator[Sequence[Any]]:
     """Every row of ``table`` (these columns), in key order, a page at a time.
 
     Read through the driver's own cursor: plain tuples of the values as stored (SQLite
@@ -209,6 +212,8 @@ def _pages(conn: Connection, table: Table, names: Sequence[str]) -> Iterator[Seq
         cursor.execute(str(stmt.compile(dialect=conn.dialect)))
         while rows := cursor.fetchmany(_PAGE):
             yield rows
+            if advance is not None:
+                advance(len(rows))
     finally:
         cursor.close()
 
@@ -219,7 +224,8 @@ _EVENT_COLUMNS = ("seq", "at", "actor", "action", "record_type", "record_id", "v
 
 
 def _check_chain(conn: Connection, stretches: Sequence[rekey_check.Stretch],
-                 problems: _Problems, wanted: set[int]) -> _Chain:
+                 problems: _Problems, wanted: set[int],
+                 advance: Callable[[int], None] | None = None) -> _Chain:
     """One pass over the events: each hash recomputed (with the audit key of its
     stretch), each link to the one before, each time no earlier than the one before;
     the hashes of the ``wanted`` events kept."""
@@ -235,7 +241,7 @@ def _check_chain(conn: Connection, stretches: Sequence[rekey_check.Stretch],
     count = prev_seq = other_scheme = 0
     prev_hash: str | None = None
     prev_at = ""
-    for rows in _pages(conn, _EVENT_TABLE, _EVENT_COLUMNS):
+    for rows in _pages(conn, _EVENT_TABLE, _EVENT_COLUMNS, advance):
         count += len(rows)
         for (seq, at, actor, action, rtype, rid, values, reason, pat, linked, stored,
              login, host, key_id) in rows:
@@ -357,7 +363,7 @@ def _converters(table: Table) -> tuple[tuple[str, Converter, type | None], ...]:
 
 
 def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems,
-                shortened: bool) -> None:
+                shortened: bool, advance: Callable[[int], None] | None = None) -> None:
     """Every audited row must equal the snapshot of its last event, and vice versa (a
     row with no event, in a trail known to be ``shortened``: its event was removed)."""
     no_event = ("its audit event was removed from the end of the trail" if shortened
@@ -366,7 +372,7 @@ def _check_rows(conn: Connection, last_events: LastEvents, problems: _Problems,
         converters = _converters(table)
         names = [n for n, _, _ in converters]
         id_at = names.index("id")
-        for rows in _pages(conn, table, names):
+        for rows in _pages(conn, table, names, advance):
             for row in rows:
                 last = last_events.pop((name, row[id_at]), None)
                 try:

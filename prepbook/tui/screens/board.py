@@ -16,7 +16,7 @@ from prepbook.tui import words
 from prepbook.tui.widgets import SafeTable, colour, state_cell
 
 if TYPE_CHECKING:
-    from prepbook.lab.board import BatchLife
+    from prepbook.lab.board import BatchLife, Board
 
 ALL = "*"
 
@@ -35,6 +35,7 @@ class BoardScreen(Screen[None]):
 
     def __init__(self) -> None:
         super().__init__()
+        self.view: Board | None = None  # the board as last read: batches, instruments
         self.items: list[BatchLife] = []
         self.shown: list[BatchLife] = []
         self._typing: Any = None
@@ -66,7 +67,8 @@ class BoardScreen(Screen[None]):
     def reload(self) -> None:
         from prepbook.lab import board
 
-        self.items = board.board(self.app.db)  # type: ignore[attr-defined]
+        self.view = board.board_view(self.app.db)  # type: ignore[attr-defined]
+        self.items = list(self.view.batches)
         spec = self.query_one("#spec", Select)
         specs = sorted({it.spec for it in self.items})
         current = spec.value
@@ -88,7 +90,7 @@ class BoardScreen(Screen[None]):
         table.clear()
         warn = colour(self.app, "warning")
         for it in self.shown:
-            ws = it.warnings
+            ws = self.warnings_of(it)
             note = Text(ws[0] + (f"  (+{len(ws) - 1} more)" if len(ws) > 1 else ""),
                         style=warn) if ws else Text("")
             table.add_row(it.batch, state_cell(self.app, it.state),
@@ -104,6 +106,10 @@ class BoardScreen(Screen[None]):
             f"{len(self.items)} batches in use, {act} need action{filt}  ·  ",
             f"acting as {self.app.who()}"))  # type: ignore[attr-defined]
         self.show_detail()
+
+    def warnings_of(self, it: BatchLife) -> tuple[str, ...]:
+        """A batch's warnings, the calibration of its instruments included."""
+        return self.view.warnings_of(it) if self.view is not None else it.warnings
 
     def selected(self) -> str | None:
         table = self.query_one("#board", DataTable)
@@ -126,7 +132,7 @@ class BoardScreen(Screen[None]):
         lines = Text.assemble((it.batch, "bold"), f"  {it.spec}  ",
                               state_cell(self.app, it.state),
                               f"  last standardized {it.standardized_on or 'never'}")
-        for w in it.warnings:
+        for w in self.warnings_of(it):
             lines.append(f"\n  ! {w}")
         detail.update(lines)
 
