@@ -94,8 +94,8 @@ def _hold_server_connections() -> Iterator[None]:
     A command closes its database when it ends, but a test that calls the services
     directly may open a Database and leave it to the garbage collector; psycopg then
     warns that an open connection was collected, which the suite treats as an error.
-    Held here, the connections are closed explicitly: those a test opened when it ends, those a module or session
-    fixture opened when the session ends. SQLite connections are left alone (a held
+    Held here, the connections are closed explicitly: those a test opened when it
+    ends, those a module or session fixture opened when the session ends. SQLite connections are left alone (a held
     one would keep its WAL from being checkpointed).
     """
     if not on_postgres():
