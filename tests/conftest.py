@@ -95,8 +95,8 @@ def _hold_server_connections() -> Iterator[None]:
     directly may open a Database and leave it to the garbage collector; psycopg then
     warns that an open connection was collected, which the suite treats as an error.
     Held here, the connections are closed explicitly: those a test opened when it
-    ends, those a module or session fixture opened when the session ends. SQLite connections are left alone (a held
-    one would keep its WAL from being checkpointed).
+    ends, those a module or session fixture opened when the session ends. SQLite
+    connections are left alone (a held one would keep its WAL from being checkpointed).
     """
     if not on_postgres():
         yield
