@@ -58,7 +58,7 @@ def test_row_text_is_the_plain_text_or_both_refuse(name: str, data: st.DataObjec
 def test_a_row_as_stored_on_sqlite_gives_its_snapshot_text() -> None:
     """A worked case written out by hand: times as SQLite stores them, a flag as 0/1."""
     writer = RowText(AUDITED_TABLES["replicates"])
-    stored = dict(zip(writer.names, (None,) * len(writer.names), strict=True))
+    stored: dict[str, Any] = dict.fromkeys(writer.names)
     stored.update(id=7, run_id=3, position=1, version=2, amount_text="0.2041",
                   volume_ml_text="20.05", excluded=0, reason='said "no"\x00',
                   created_at="2024-03-01 09:15:00.000000", created_by="ada")
@@ -77,7 +77,7 @@ def test_a_value_its_canonicaliser_refuses_is_refused(column: str, bad: Any) -> 
     """A fraction in a whole-number column, a flag other than 0/1, a time that is no
     time: refused, not coerced."""
     writer = RowText(AUDITED_TABLES["replicates"])
-    row = [None] * len(writer.names)
+    row: list[Any] = [None] * len(writer.names)
     row[writer.names.index(column)] = bad
     with pytest.raises((ValueError, TypeError)):
         writer.text(writer.values(row))
@@ -87,7 +87,7 @@ def test_a_date_of_another_type_takes_its_canonical_form() -> None:
     """A date read as a date object (PostgreSQL) and as text (SQLite) give one text."""
     writer = RowText(AUDITED_TABLES["lots"])
     at = writer.names.index("expires")
-    as_text = [None] * len(writer.names)
+    as_text: list[Any] = [None] * len(writer.names)
     as_text[at] = "2030-01-31"
     as_date = list(as_text)
     as_date[at] = date(2030, 1, 31)
