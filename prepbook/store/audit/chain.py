@@ -36,9 +36,6 @@ CLOCK_TOLERANCE = timedelta(seconds=60)
 _canonical = json.JSONEncoder(
     sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
 ).encode
-_unsorted = json.JSONEncoder(
-    separators=(",", ":"), ensure_ascii=False, allow_nan=False
-).encode
 _fields = json.JSONEncoder(separators=(",", ":"), ensure_ascii=False, allow_nan=False).encode
 
 Hasher = Callable[[bytes], str]
@@ -47,12 +44,6 @@ Hasher = Callable[[bytes], str]
 def canonical_json(value: Any) -> str:
     """The one JSON spelling of a value: sorted keys, no spaces, UTF-8, no NaN."""
     return _canonical(value)
-
-
-def canonical_json_of_sorted(row: dict[str, Any]) -> str:
-    """``canonical_json`` of a flat mapping whose keys are in sorted order already (a
-    row read column by column in name order): the same text, without sorting again."""
-    return _unsorted(row)
 
 
 def payload(seq: Any, at: Any, actor: Any, action: Any, record_type: Any, record_id: Any,
