@@ -8,6 +8,8 @@ from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Static
 
+from prepbook.tui.work_time import WorkTime
+
 
 class PassphraseScreen(ModalScreen[str | None]):
     """A passphrase for one signed action: never echoed, never kept after it is used."""
@@ -37,14 +39,17 @@ class PassphraseScreen(ModalScreen[str | None]):
 
 
 class FieldsScreen(ModalScreen[dict[str, str] | None]):
-    """A few labelled text fields (a reason, a volume used ...)."""
+    """A few labelled text fields (a reason, a volume used ...). With ``when`` (a label and
+    what the time is called), also when the work was done and, for a late entry, why:
+    the values then hold "at" and "late_reason" (blank: now, or not late)."""
 
     BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "done", "Done")]
 
     def __init__(self, title: str, fields: list[tuple[str, str, str]], note: str = "",
-                 required: tuple[str, ...] = ()) -> None:
+                 required: tuple[str, ...] = (), when: tuple[str, str] | None = None) -> None:
         super().__init__()
         self.title_text, self.fields, self.note, self.required = title, fields, note, required
+        self.when = when
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
@@ -54,22 +59,30 @@ class FieldsScreen(ModalScreen[dict[str, str] | None]):
             for key, label, placeholder in self.fields:
                 yield Label(label)
                 yield Input(placeholder=placeholder, id=f"f-{key}")
+            if self.when is not None:
+                yield WorkTime(*self.when, wid="f-at", stacked=True)
             yield Static("", id="fields-message", classes="refusal")
             yield Static("Enter in the last field or Ctrl+S: done; Escape: cancel.",
                          classes="hint")
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
-        if event.input.id == f"f-{self.fields[-1][0]}":
+        shown = [w for w in self.focus_chain if isinstance(w, Input)]
+        if shown and event.input is shown[-1]:
             self.action_done()
         else:
             self.focus_next()
 
     def action_done(self) -> None:
         values = {k: self.query_one(f"#f-{k}", Input).value for k, _, _ in self.fields}
-        missing = [label for k, label, _ in self.fields if k in self.required
-                   and not values[k].strip()]
+        missing = [f"{label} is required" for k, label, _ in self.fields
+                   if k in self.required and not values[k].strip()]
+        if self.when is not None:
+            when = self.query_one(WorkTime)
+            late = when.check()
+            missing += [late] if late else []
+            values |= {"at": when.at or "", "late_reason": when.reason or ""}
         if missing:
-            self.query_one("#fields-message", Static).update(f"{missing[0]} is required")
+            self.query_one("#fields-message", Static).update(missing[0])
             return
         self.dismiss(values)
 
