@@ -30,6 +30,7 @@ class WorkTime(Vertical):
 
     DEFAULT_CSS = """
     WorkTime { height: auto; }
+    WorkTime .stacked { height: auto; }
     WorkTime .late-reason { display: none; }
     WorkTime.late .late-reason { display: block; }
     WorkTime .work-note { height: auto; color: $foreground-muted; text-style: italic; }
@@ -43,9 +44,10 @@ class WorkTime(Vertical):
         self.is_late = False
 
     def compose(self) -> ComposeResult:
-        rows = ((self.label, Input(placeholder=PLACEHOLDER, id=self.wid, compact=True), ""),
+        compact = not self.stacked  # a dialog's fields have their borders
+        rows = ((self.label, Input(placeholder=PLACEHOLDER, id=self.wid, compact=compact), ""),
                 ("why entered late", Input(placeholder="required for a late entry",
-                                           id=f"{self.wid}-reason", compact=True),
+                                           id=f"{self.wid}-reason", compact=compact),
                  "late-reason"))
         for label, field, kind in rows:
             if self.stacked:

@@ -52,7 +52,7 @@ class FieldsScreen(ModalScreen[dict[str, str] | None]):
         self.when = when
 
     def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog"):
+        with VerticalScroll(classes="dialog"):  # scrolls on a small terminal
             yield Label(self.title_text, classes="dialog-title")
             if self.note:
                 yield Static(self.note, classes="hint")

@@ -79,6 +79,8 @@ class InstrumentRows(Screen[None]):
         line = self.query_one("#reading", Static)
         line.set_class(bad, "refusal")
         line.update(shown(text, colour(self.app, "error") if bad else ""))
+        if bad:  # the form may be scrolled to its top on a small terminal
+            line.scroll_visible()
 
     def mark(self, i: int) -> None:
         """The row's source marks, and the volume the curve gives as its placeholder."""
