@@ -14,17 +14,16 @@ from pathlib import Path
 import pytest
 
 from tests.conftest import row_counts
-from tests.tui.test_app import (  # noqa: F401 (fixtures)
+from tests.tui.test_app import (
     READINGS,
     SIZE,
-    demo_db,
-    demo_lab,
-    due_naoh,
-    lab,
     make_app,
+    on_board,
+    record_confirmed,
     shown,
     type_into,
 )
+from tests.tui.test_assay_screen import _in_service_naoh
 
 pytest.importorskip("textual")
 
@@ -57,16 +56,13 @@ def _reason_shown(screen, wid: str = "at") -> bool:
 
 
 @pytest.mark.asyncio
-async def test_a_late_run_needs_a_reason_and_keeps_it(lab: Path, due_naoh: str) -> None:  # noqa: F811
+async def test_a_late_run_needs_a_reason_and_keeps_it(lab: Path, due_naoh: str) -> None:
     typed, stored = _lab_time(lab, 24 * 5)
     app = make_app(lab, "ines")
     before = row_counts(lab)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        table = app.screen.query_one("#board")
-        table.move_cursor(row=table.get_row_index(due_naoh))
-        await pilot.press("s")
-        await pilot.pause()
+        await on_board(pilot, due_naoh, "s")
         form = app.screen
         await type_into(pilot, "temp", "21.0")
         for i, (mass, volume) in enumerate(READINGS, start=1):
@@ -88,11 +84,7 @@ async def test_a_late_run_needs_a_reason_and_keeps_it(lab: Path, due_naoh: str) 
         assert row_counts(lab) == before
         await type_into(pilot, "at-reason", REASON)
         await pilot.pause(0.3)
-        await pilot.press("ctrl+s")
-        await pilot.pause()
-        await pilot.press("y")
-        await pilot.pause()
-        run = form.recorded
+        run = await record_confirmed(pilot)
         assert run is not None
     made = [e for e in _events(lab, due_naoh, "run.record") if e.reason == REASON]
     assert len(made) == 1
@@ -100,7 +92,7 @@ async def test_a_late_run_needs_a_reason_and_keeps_it(lab: Path, due_naoh: str) 
 
 
 @pytest.mark.asyncio
-async def test_a_late_batch_is_refused_without_a_reason(lab: Path) -> None:  # noqa: F811
+async def test_a_late_batch_is_refused_without_a_reason(lab: Path) -> None:
     typed, stored = _lab_time(lab, 24 * 4)
     app = make_app(lab, "ines")
     before = row_counts(lab)
@@ -130,16 +122,8 @@ async def test_a_late_batch_is_refused_without_a_reason(lab: Path) -> None:  # n
     assert made[0].performed_at is not None and made[0].performed_at.startswith(stored)
 
 
-def _in_service_naoh(path: Path) -> str:
-    from prepbook.lab import board
-    from prepbook.store.engine import open_database
-
-    return next(b.batch for b in board.board(open_database(str(path)))
-                if b.spec == "NaOH-0.1N" and b.state == "in-service")
-
-
 @pytest.mark.asyncio
-async def test_a_late_use_is_refused_in_its_dialog_without_a_reason(lab: Path) -> None:  # noqa: F811
+async def test_a_late_use_is_refused_in_its_dialog_without_a_reason(lab: Path) -> None:
     from prepbook.tui.screens.batch import BatchScreen
     from prepbook.tui.screens.dialogs import FieldsScreen
 
@@ -176,17 +160,14 @@ async def test_a_late_use_is_refused_in_its_dialog_without_a_reason(lab: Path) -
 
 
 @pytest.mark.asyncio
-async def test_a_late_assay_is_refused_without_a_reason(lab: Path) -> None:  # noqa: F811
+async def test_a_late_assay_is_refused_without_a_reason(lab: Path) -> None:
     batch = _in_service_naoh(lab)
     typed, _ = _lab_time(lab, 24 * 10)
     app = make_app(lab, "ines")
     before = row_counts(lab)
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
-        table = app.screen.query_one("#board")
-        table.move_cursor(row=table.get_row_index(batch))
-        await pilot.press("enter")
-        await pilot.pause()
+        await on_board(pilot, batch, "enter")
         await pilot.press("a")
         await pilot.pause()
         for wid, text in (("sample", "VIN-LATE-1"), ("analyte", "acetic-acid"),

@@ -16,16 +16,7 @@ from pathlib import Path
 import pytest
 
 from tests.conftest import row_counts
-from tests.tui.test_app import (  # noqa: F401 (fixtures)
-    SIZE,
-    demo_db,
-    demo_lab,
-    due_naoh,
-    lab,
-    make_app,
-    shown,
-    type_into,
-)
+from tests.tui.test_app import SIZE, make_app, on_board, record_confirmed, shown, type_into
 
 pytest.importorskip("textual")
 
@@ -35,7 +26,7 @@ BALANCE = "BAL-A2"
 
 
 @pytest.fixture
-def simulated(lab: Path) -> Iterator:  # noqa: F811
+def simulated(lab: Path) -> Iterator:
     """The demo's balance connected to a simulated balance on a loopback socket."""
     from prepbook.devices.profiles import find_profile
     from prepbook.devices.simulator import SimulatedBalance, SocketServer
@@ -67,10 +58,7 @@ def _ve(mass: str, purity: float) -> float:
 
 
 async def _open_form(pilot, batch: str) -> None:
-    table = pilot.app.screen.query_one("#board")
-    table.move_cursor(row=table.get_row_index(batch))
-    await pilot.press("s")
-    await pilot.pause()
+    await on_board(pilot, batch, "s")
     pilot.app.screen.query_one("#balance").value = BALANCE
     await pilot.pause()
 
@@ -93,7 +81,7 @@ async def _attach(pilot, row: int, path: Path) -> None:
 
 @pytest.mark.asyncio
 async def test_masses_from_the_balance_and_volumes_from_curves_are_recorded_as_such(
-        lab: Path, due_naoh: str, simulated, tmp_path: Path) -> None:  # noqa: F811
+        lab: Path, due_naoh: str, simulated, tmp_path: Path) -> None:
     from prepbook.lab import replicate_curves, replicate_sources
     from prepbook.lab.demo_readings import khp_curve
     from prepbook.store.engine import open_database
@@ -126,11 +114,7 @@ async def test_masses_from_the_balance_and_volumes_from_curves_are_recorded_as_s
         assert form.last is not None and len(form.last.replicates) == 2
         curve_check = [c for c in form.last.checks if "curve" in c.name]
         assert curve_check and all(c.passed for c in curve_check)
-        await pilot.press("ctrl+s")
-        await pilot.pause()
-        await pilot.press("y")
-        await pilot.pause()
-        run = form.recorded
+        run = await record_confirmed(pilot)
         assert run is not None
 
     db = open_database(str(lab))
@@ -147,7 +131,7 @@ async def test_masses_from_the_balance_and_volumes_from_curves_are_recorded_as_s
 
 @pytest.mark.asyncio
 async def test_a_typed_volume_far_from_the_curve_fails_the_curve_check(
-        lab: Path, due_naoh: str, tmp_path: Path) -> None:  # noqa: F811
+        lab: Path, due_naoh: str, tmp_path: Path) -> None:
     from prepbook.lab.demo_readings import khp_curve
 
     app = make_app(lab, "ines")
@@ -173,7 +157,7 @@ async def test_a_typed_volume_far_from_the_curve_fails_the_curve_check(
 @pytest.mark.parametrize(("mode", "said"), [
     ("unstable", "not stable"), ("wrong-unit", "not grams"), ("overload", "overload")])
 async def test_a_reading_that_cannot_be_taken_is_one_line_and_nothing_is_read(
-        lab: Path, due_naoh: str, simulated, mode: str, said: str) -> None:  # noqa: F811
+        lab: Path, due_naoh: str, simulated, mode: str, said: str) -> None:
     simulated.set(mode=mode)
     app = make_app(lab, "ines")
     before = row_counts(lab)
@@ -191,7 +175,7 @@ async def test_a_reading_that_cannot_be_taken_is_one_line_and_nothing_is_read(
 
 @pytest.mark.asyncio
 async def test_a_balance_that_does_not_answer_is_one_line(
-        lab: Path, due_naoh: str, simulated) -> None:  # noqa: F811
+        lab: Path, due_naoh: str, simulated) -> None:
     from prepbook.lab import settings
     from prepbook.store.engine import open_database
     from tests.conftest import passphrase_of
@@ -212,7 +196,7 @@ async def test_a_balance_that_does_not_answer_is_one_line(
 
 @pytest.mark.asyncio
 async def test_a_mass_read_then_changed_by_hand_is_typed(
-        lab: Path, due_naoh: str, simulated) -> None:  # noqa: F811
+        lab: Path, due_naoh: str, simulated) -> None:
     app = make_app(lab, "ines")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()

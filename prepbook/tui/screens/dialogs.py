@@ -44,6 +44,7 @@ class FieldsScreen(ModalScreen[dict[str, str] | None]):
     the values then hold "at" and "late_reason" (blank: now, or not late)."""
 
     BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "done", "Done")]
+    AUTO_FOCUS = "Input"  # the first field, not the scrolling frame around them
 
     def __init__(self, title: str, fields: list[tuple[str, str, str]], note: str = "",
                  required: tuple[str, ...] = (), when: tuple[str, str] | None = None) -> None:
@@ -130,8 +131,15 @@ HELP = """\
 [b]Recording a standardization[/b]  type each replicate's mass (g) of primary
         standard, or aliquot (mL), and titrant volume (mL); each is checked as
         typed and the result, RSD, uncertainty and every acceptance check follow.
+        Ctrl+B reads the row's mass from the run's balance (a stable net reading;
+        its printed line is kept), Ctrl+T attaches the row's titration curve file
+        (no volume typed: the curve's endpoint; one typed: checked against it).
         Ctrl+N adds a replicate row, Ctrl+S records the run (it then awaits a
         second person's review).
+
+[b]Time of the work[/b]  blank means now, else YYYY-MM-DDTHH:MM in lab time.
+        Entered more than the lab's late-entry hours after the work, it needs
+        a reason: the field for it appears, and nothing is recorded without it.
 
 [b]Preparing a batch[/b]  the calculator shows what to weigh, measure or dilute;
         Ctrl+S records the batch.
