@@ -116,6 +116,9 @@ async def test_masses_from_the_balance_and_volumes_from_curves_are_recorded_as_s
         assert curve_check and all(c.passed for c in curve_check)
         run = await record_confirmed(pilot)
         assert run is not None
+        await pilot.press("ctrl+b")  # a recorded run takes no more readings
+        await pilot.pause()
+        assert "a recorded run takes no more" in shown(form.query_one("#reading"))
 
     db = open_database(str(lab))
     readings = replicate_sources.of_batch(db, due_naoh)[run]

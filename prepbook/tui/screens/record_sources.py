@@ -59,7 +59,10 @@ class InstrumentRows(Screen[None]):
 
     def _row_for(self, has: str) -> int | None:
         """The focused replicate's row, else the first row without ``has`` (a mass, "m",
-        or a curve, "c")."""
+        or a curve, "c"); None when there is none, or the run is recorded (its fields are
+        closed)."""
+        if self.query_one("#m1", Input).disabled:
+            return None
         row = self._focused_row()
         if row is not None:
             return row
@@ -108,7 +111,8 @@ class InstrumentRows(Screen[None]):
             return
         i = self._row_for("m")
         if i is None:
-            self.tell("every row has a mass; Ctrl+N adds a row for the next one", bad=True)
+            self.tell("no open row without a mass (Ctrl+N adds one; a recorded run takes no "
+                      "more readings)", bad=True)
             return
         if self.mass(i):
             self.tell(f"replicate {i} already has a mass; clear it first (nothing is "
@@ -157,8 +161,8 @@ class InstrumentRows(Screen[None]):
 
         i = self._row_for("c")
         if i is None:
-            self.tell("every row has a curve; put the cursor in a row to change its curve",
-                      bad=True)
+            self.tell("no open row without a curve (put the cursor in a row to change its "
+                      "curve; a recorded run takes no more)", bad=True)
             return
         had = self.curves.get(i)
         note = ("The file is stored with the replicate byte for byte. With no volume typed "
