@@ -23,6 +23,7 @@ from dataclasses import dataclass, replace
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from prepbook.devices.records import RecordedCurve
 from prepbook.errors import InvalidInput
 from prepbook.inputs import Reading, ReplicateEntry, parse_number, parse_replicate, utc_now
 from prepbook.lab import replicate_curves
@@ -70,14 +71,23 @@ def weighed(db: Database, balance: str | None, position: int) -> ReplicateEntry:
     return ReplicateEntry(amount=amount, volume=Reading("0", 0.0), weighing=w)
 
 
-def with_volume(entry: ReplicateEntry, volume_text: str, position: int) -> ReplicateEntry:
-    """``entry`` with its volume: typed (``VOL``), from a curve (``@FILE``) or typed and
-    checked against a curve (``VOL@FILE``)."""
+def typed_amount(text: str, position: int, amount_name: str) -> ReplicateEntry:
+    """A replicate's amount as typed (its volume still to come)."""
+    amount = parse_number(text, f"replicate {position} {amount_name}", positive=True)
+    return ReplicateEntry(amount=amount, volume=Reading("0", 0.0))
+
+
+def with_volume(entry: ReplicateEntry, volume_text: str, position: int,
+                curve: RecordedCurve | None = None) -> ReplicateEntry:
+    """``entry`` with its volume: typed (``VOL``), from a curve (``@FILE``, or ``curve``
+    already read with no volume typed) or typed and checked against a curve (``VOL@FILE``,
+    or ``VOL`` with ``curve``)."""
     what = f"replicate {position} titrant volume (mL)"
     typed, at, path = volume_text.strip().partition("@")
-    if not at:
+    if at:
+        curve = replicate_curves.read_file(path.strip())
+    if curve is None:
         return replace(entry, volume=parse_number(typed, what, positive=True))
-    curve = replicate_curves.read_file(path.strip())
     if typed.strip():
         return replace(entry, volume=parse_number(typed, what, positive=True), curve=curve)
     return replace(entry, volume=volume_from_curve(what, curve.endpoint_ml), curve=curve,
@@ -104,9 +114,7 @@ def entries(db: Database, items: Sequence[str | ReplicateEntry], *, amount_name:
                                    "nothing; type the aliquot (mL)")
             out.append(with_volume(weighed(db, balance, position), volume_text, position))
         else:
-            amount = parse_number(amount_text, f"replicate {position} {amount_name}",
-                                  positive=True)
-            out.append(with_volume(ReplicateEntry(amount=amount, volume=Reading("0", 0.0)),
+            out.append(with_volume(typed_amount(amount_text, position, amount_name),
                                    volume_text, position))
     return out
 

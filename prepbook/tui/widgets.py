@@ -39,18 +39,23 @@ def shown(value: object, style: str = "") -> Text:
 _CLOCKS: WeakKeyDictionary[App[Any], LabClock] = WeakKeyDictionary()
 
 
-def when(app: App[Any], value: str | None) -> str:
-    """A stored time in the lab's wall-clock time with its offset (the lab's zone is
-    read once per running app)."""
+def lab_clock(app: App[Any]) -> LabClock:
+    """The lab's zone and late-entry limit, read once per running app (no database, a
+    screen drawn alone: UTC and the default limit)."""
     clk = _CLOCKS.get(app)
     if clk is None:
         db = getattr(app, "db", None)
-        if db is None:  # no database (a screen drawn alone): UTC, as stored
-            return LabClock().shown(value)
+        if db is None:
+            return LabClock()
         from prepbook.lab import settings
 
         clk = _CLOCKS[app] = settings.lab_clock(db)
-    return clk.shown(value)
+    return clk
+
+
+def when(app: App[Any], value: str | None) -> str:
+    """A stored time in the lab's wall-clock time with its offset."""
+    return lab_clock(app).shown(value)
 
 
 def _cells(cells: Sequence[Any]) -> list[Any]:

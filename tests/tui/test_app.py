@@ -94,6 +94,23 @@ def shown(widget) -> str:
     return console.export_text()
 
 
+async def on_board(pilot, batch: str, key: str) -> None:
+    """Put the board's cursor on ``batch`` and press ``key`` (s: standardize, enter: open)."""
+    table = pilot.app.screen.query_one("#board")
+    table.move_cursor(row=table.get_row_index(batch))
+    await pilot.press(key)
+    await pilot.pause()
+
+
+async def record_confirmed(pilot) -> str | None:
+    """Ctrl+S on a recording form, then yes to its question: the run recorded, if any."""
+    await pilot.press("ctrl+s")
+    await pilot.pause()
+    await pilot.press("y")
+    await pilot.pause()
+    return pilot.app.screen.recorded
+
+
 async def type_into(pilot, widget_id: str, text: str) -> None:
     pilot.app.screen.query_one(f"#{widget_id}").focus()
     await pilot.press(*text)

@@ -24,7 +24,9 @@ from prepbook.errors import PrepbookError
 from prepbook.inputs import parse_number
 from prepbook.tui import words
 from prepbook.tui.screens.common import LIVE_DELAY_S, budget_table
+from prepbook.tui.screens.record_view import problems_text
 from prepbook.tui.widgets import colour
+from prepbook.tui.work_time import WorkTime
 
 if TYPE_CHECKING:
     from prepbook.lab.assays import AssayResult
@@ -37,8 +39,7 @@ FIELDS = (("sample", "sample ID", "as on the sample's container"),
           ("amount", "amount", "mL of sample, or g with 'weighed'"),
           ("blank", "blank mL", "0"),
           ("temp", "temperature °C", "20"),
-          ("limit", "limit", "LOW:HIGH in the reported unit (optional)"),
-          ("at", "performed", "now, or YYYY-MM-DDTHH:MM (UTC)"))
+          ("limit", "limit", "LOW:HIGH in the reported unit (optional)"))
 
 
 class AssayScreen(Screen[None]):
@@ -70,6 +71,7 @@ class AssayScreen(Screen[None]):
                                          value="aliquot", allow_blank=False, id="kind",
                                          compact=True)
                         yield Input(placeholder=hint, id=wid, compact=True)
+                yield WorkTime("performed", "assay time")
                 yield Label("titrant volumes at the endpoint", classes="section")
                 with Vertical(id="grid"):
                     for _ in range(START_ROWS):
@@ -121,13 +123,14 @@ class AssayScreen(Screen[None]):
         value = {wid: self.query_one(f"#{wid}", Input).value.strip() or None
                  for wid, _, _ in FIELDS}
         kind = self.query_one("#kind", Select).value
+        when = self.query_one(WorkTime)
         return {"actor": self.app.actor or "", "batch": self.code,  # type: ignore[attr-defined]
                 "sample": value["sample"] or "", "analyte": value["analyte"] or "",
                 "reaction": value["method"], "replicates": reps,
                 "aliquot": value["amount"] if kind == "aliquot" else None,
                 "mass": value["amount"] if kind == "mass" else None,
                 "blank": value["blank"], "temperature": value["temp"],
-                "limit": value["limit"], "at": value["at"]}
+                "limit": value["limit"], "at": when.at, "late_reason": when.reason}
 
     def on_input_changed(self, event: Input.Changed) -> None:
         self.schedule()
@@ -140,12 +143,6 @@ class AssayScreen(Screen[None]):
             self._timer.stop()
         self._timer = self.set_timer(LIVE_DELAY_S, self.preview)
 
-    def _problem(self, title: str, problems: list[str]) -> Text:
-        out = Text.assemble((f"{title}\n", "bold"))
-        for p in problems:
-            out.append(f"  ✖ {p}\n", style=colour(self.app, "error"))
-        return out
-
     def preview(self) -> None:
         from prepbook.lab import assays
 
@@ -154,8 +151,12 @@ class AssayScreen(Screen[None]):
         reps, problems = self.volumes()
         live = self.query_one("#live", Static)
         self.last = None
+        late = self.query_one(WorkTime).check()
+        if late:
+            live.update(problems_text(self.app, "cannot compute yet", [*problems, late]))
+            return
         if not reps:
-            live.update(self._problem("the volumes need attention", problems) if problems
+            live.update(problems_text(self.app, "the volumes need attention", problems) if problems
                         else Text("Name the sample, the analyte and the amount, then type "
                                   "the titrant volumes: the running result, its uncertainty "
                                   "and the limit appear here.", style="italic"))
@@ -163,10 +164,11 @@ class AssayScreen(Screen[None]):
         try:
             res = assays.assay(self.app.db, **self.kwargs(reps), record=False)  # type: ignore[attr-defined]
         except PrepbookError as exc:
-            live.update(self._problem("cannot compute yet", [*problems, str(exc)]))
+            live.update(problems_text(self.app, "cannot compute yet", [*problems, str(exc)]))
             return
         self.last = res
-        parts = [self._problem("the volumes need attention", problems)] if problems else []
+        parts = [problems_text(self.app, "the volumes need attention", problems)] \
+            if problems else []
         live.update(Group(*parts, self._result(res, "running result (not recorded yet)")))
 
     def _result(self, res: AssayResult, title: str) -> Group:
@@ -199,14 +201,18 @@ class AssayScreen(Screen[None]):
             live.update(Text(f"already recorded as assay {self.recorded}; Escape goes back"))
             return
         reps, problems = self.volumes()
-        if problems or not reps:
-            live.update(self._problem("not recorded: nothing was written",
-                                      problems or ["type at least one titrant volume"]))
+        if not reps and not problems:
+            problems = ["type at least one titrant volume"]
+        late = self.query_one(WorkTime).check()
+        if late:
+            problems.append(late)
+        if problems:
+            live.update(problems_text(self.app, "not recorded: nothing was written", problems))
             return
         try:
             res = assays.assay(self.app.db, **self.kwargs(reps), record=True)  # type: ignore[attr-defined]
         except PrepbookError as exc:
-            live.update(self._problem("not recorded: nothing was written", [str(exc)]))
+            live.update(problems_text(self.app, "not recorded: nothing was written", [str(exc)]))
             return
         self.recorded = res.assay
         for field in self.query(Input):

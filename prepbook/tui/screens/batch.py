@@ -200,7 +200,9 @@ class BatchScreen(Screen[None]):
             try:
                 batches.use_batch(self.app.db, actor=self.app.actor or "",  # type: ignore[attr-defined]
                                   code=self.code, volume=values["volume"].strip() or None,
-                                  purpose=values["purpose"].strip() or None)
+                                  purpose=values["purpose"].strip() or None,
+                                  at=values["at"] or None,
+                                  late_reason=values["late_reason"] or None)
             except PrepbookError as exc:
                 self.say(f"not recorded: {exc}", bad=True)
                 return
@@ -210,7 +212,8 @@ class BatchScreen(Screen[None]):
         self.app.push_screen(FieldsScreen(
             f"Record a use of {self.code}",
             [("volume", "volume taken (mL, optional)", "e.g. 50"),
-             ("purpose", "purpose (optional)", "what it was used for")]), done)
+             ("purpose", "purpose", "the sample or method it served")],
+            required=("purpose",), when=("used", "time of use")), done)
 
     def _to_file(self, title: str, default: str, work: Callable[[str], str]) -> None:
         """Ask for a file name, then ``work(name)`` writes it and says where."""

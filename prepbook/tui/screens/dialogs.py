@@ -8,6 +8,8 @@ from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Static
 
+from prepbook.tui.work_time import WorkTime
+
 
 class PassphraseScreen(ModalScreen[str | None]):
     """A passphrase for one signed action: never echoed, never kept after it is used."""
@@ -37,39 +39,51 @@ class PassphraseScreen(ModalScreen[str | None]):
 
 
 class FieldsScreen(ModalScreen[dict[str, str] | None]):
-    """A few labelled text fields (a reason, a volume used ...)."""
+    """A few labelled text fields (a reason, a volume used ...). With ``when`` (a label and
+    what the time is called), also when the work was done and, for a late entry, why:
+    the values then hold "at" and "late_reason" (blank: now, or not late)."""
 
     BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "done", "Done")]
+    AUTO_FOCUS = "Input"  # the first field, not the scrolling frame around them
 
     def __init__(self, title: str, fields: list[tuple[str, str, str]], note: str = "",
-                 required: tuple[str, ...] = ()) -> None:
+                 required: tuple[str, ...] = (), when: tuple[str, str] | None = None) -> None:
         super().__init__()
         self.title_text, self.fields, self.note, self.required = title, fields, note, required
+        self.when = when
 
     def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog"):
+        with VerticalScroll(classes="dialog"):  # scrolls on a small terminal
             yield Label(self.title_text, classes="dialog-title")
             if self.note:
                 yield Static(self.note, classes="hint")
             for key, label, placeholder in self.fields:
                 yield Label(label)
                 yield Input(placeholder=placeholder, id=f"f-{key}")
+            if self.when is not None:
+                yield WorkTime(*self.when, wid="f-at", stacked=True)
             yield Static("", id="fields-message", classes="refusal")
             yield Static("Enter in the last field or Ctrl+S: done; Escape: cancel.",
                          classes="hint")
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
-        if event.input.id == f"f-{self.fields[-1][0]}":
+        shown = [w for w in self.focus_chain if isinstance(w, Input)]
+        if shown and event.input is shown[-1]:
             self.action_done()
         else:
             self.focus_next()
 
     def action_done(self) -> None:
         values = {k: self.query_one(f"#f-{k}", Input).value for k, _, _ in self.fields}
-        missing = [label for k, label, _ in self.fields if k in self.required
-                   and not values[k].strip()]
+        missing = [f"{label} is required" for k, label, _ in self.fields
+                   if k in self.required and not values[k].strip()]
+        if self.when is not None:
+            when = self.query_one(WorkTime)
+            late = when.check()
+            missing += [late] if late else []
+            values |= {"at": when.at or "", "late_reason": when.reason or ""}
         if missing:
-            self.query_one("#fields-message", Static).update(f"{missing[0]} is required")
+            self.query_one("#fields-message", Static).update(missing[0])
             return
         self.dismiss(values)
 
@@ -117,8 +131,15 @@ HELP = """\
 [b]Recording a standardization[/b]  type each replicate's mass (g) of primary
         standard, or aliquot (mL), and titrant volume (mL); each is checked as
         typed and the result, RSD, uncertainty and every acceptance check follow.
+        Ctrl+B reads the row's mass from the run's balance (a stable net reading;
+        its printed line is kept), Ctrl+T attaches the row's titration curve file
+        (no volume typed: the curve's endpoint; one typed: checked against it).
         Ctrl+N adds a replicate row, Ctrl+S records the run (it then awaits a
         second person's review).
+
+[b]Time of the work[/b]  blank means now, else YYYY-MM-DDTHH:MM in lab time.
+        Entered more than the lab's late-entry hours after the work, it needs
+        a reason: the field for it appears, and nothing is recorded without it.
 
 [b]Preparing a batch[/b]  the calculator shows what to weigh, measure or dilute;
         Ctrl+S records the batch.

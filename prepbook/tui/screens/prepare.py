@@ -20,6 +20,7 @@ from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import safety
 from prepbook.tui.widgets import colour
+from prepbook.tui.work_time import WorkTime
 
 if TYPE_CHECKING:
     from prepbook.lab.board import BatchLife
@@ -66,8 +67,7 @@ class PrepareScreen(Screen[None]):
                 yield from f("balance", Select([], prompt="none named", id="balance",
                                                compact=True), "f-balance")
                 yield from f("notes", Input(id="notes", compact=True))
-                yield from f("made", Input(placeholder="now, or YYYY-MM-DDTHH:MM (lab time)",
-                                           id="at", compact=True))
+                yield WorkTime("made", "preparation time")
             with VerticalScroll(id="record-live"):
                 yield Static("", id="live")
         yield Footer()
@@ -215,9 +215,15 @@ class PrepareScreen(Screen[None]):
         if code is None:
             live.update(Text("not recorded: choose the solution spec", style=err))
             return
+        when = self.query_one(WorkTime)
+        late = when.check()
+        if late:
+            live.update(Text(f"not recorded, nothing was written: {late}", style=err))
+            return
         kw: dict[str, Any] = {"actor": self.app.actor or "", "spec": code,  # type: ignore[attr-defined]
                               "volume": self.value("volume") or "", "flask": self.value("flask"),
-                              "notes": self.value("notes"), "at": self.value("at")}
+                              "notes": self.value("notes"), "at": when.at,
+                              "late_reason": when.reason}
         if method == "solid":
             kw |= {"solute_mass": self.value("mass") or "", "solute_lot": self.value("lot"),
                    "balance": self.value("balance")}

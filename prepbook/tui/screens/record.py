@@ -8,7 +8,6 @@ through the same call with ``record=True``.
 
 from __future__ import annotations
 
-from dataclasses import asdict
 from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
@@ -16,24 +15,27 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
-from textual.screen import Screen
 from textual.timer import Timer
 from textual.widgets import Footer, Input, Label, Select, Static
 
 from prepbook.errors import PrepbookError
 from prepbook.inputs import parse_number
 from prepbook.tui import words
-from prepbook.tui.screens.common import LIVE_DELAY_S, budget_table, small_table
-from prepbook.tui.widgets import check_cell, colour, state_cell
+from prepbook.tui.screens.common import LIVE_DELAY_S
+from prepbook.tui.screens.record_sources import MARK_HELP, InstrumentRows
+from prepbook.tui.screens.record_view import problems_text, result_view, short
+from prepbook.tui.widgets import colour, state_cell
+from prepbook.tui.work_time import WorkTime
 
 if TYPE_CHECKING:
+    from prepbook.inputs import ReplicateEntry
     from prepbook.lab.batch_records import BatchRecord
     from prepbook.lab.runs import RunResult
 
 START_ROWS = 3
 
 
-class RecordScreen(Screen[None]):
+class RecordScreen(InstrumentRows):
     BINDINGS = [
         Binding("escape", "back", "Back"),
         Binding("ctrl+s", "submit", "Record run"),
@@ -44,7 +46,6 @@ class RecordScreen(Screen[None]):
     def __init__(self, code: str) -> None:
         super().__init__()
         self.code = code
-        self.rows = 0
         self.recorded: str | None = None
         self.last: RunResult | None = None
         self._timer: Timer | None = None
@@ -66,11 +67,11 @@ class RecordScreen(Screen[None]):
                     placeholder="as measured (required)", id="temp", compact=True))
                 yield from self._field("blank mL", Input(placeholder="0", id="blank", compact=True))
                 yield from self._field("indicator", Input(id="indicator", compact=True))
-                yield from self._field("performed", Input(
-                    placeholder="now, or YYYY-MM-DDTHH:MM (lab time)", id="at", compact=True))
+                yield WorkTime("performed", "standardization time")
                 yield Label("replicates", classes="section")
                 with Horizontal(classes="grid-head"):
                     yield Label("#", classes="rep-n")
+                    yield Label("src", classes="rep-src")
                     yield Label("mass g", id="amount-head", classes="rep-cell")
                     yield Label("titrant mL", classes="rep-cell")
                     yield Label("N (eq/L) or what is wrong", classes="rep-note")
@@ -78,7 +79,9 @@ class RecordScreen(Screen[None]):
                     for _ in range(START_ROWS):
                         self.rows += 1
                         yield self._row(self.rows)
-                yield Static("Ctrl+N adds a row; Tab moves on; Ctrl+S records.",
+                yield Static("", id="reading", classes="hint")
+                yield Static("Ctrl+B reads the balance into a row, Ctrl+T attaches a curve "
+                             f"file; Ctrl+N adds a row; Ctrl+S records. {MARK_HELP}",
                              classes="hint")
             with VerticalScroll(id="record-live"):
                 yield Static("", id="live")
@@ -145,6 +148,7 @@ class RecordScreen(Screen[None]):
     # -- the grid -------------------------------------------------------------------------------
     def _row(self, i: int) -> Horizontal:
         return Horizontal(Label(str(i), classes="rep-n"),
+                          Static("", id=f"src{i}", classes="rep-src"),
                           Input(placeholder=self._amount_name(), id=f"m{i}",
                                 classes="rep-cell", compact=True),
                           Input(placeholder="mL", id=f"v{i}", classes="rep-cell",
@@ -160,9 +164,9 @@ class RecordScreen(Screen[None]):
         if self.rows <= 1:
             return
         i = self.rows
-        if self.query_one(f"#m{i}", Input).value or self.query_one(f"#v{i}", Input).value:
-            self.say("the last row has readings; clear them first (nothing is dropped "
-                     "silently)")
+        if self.mass(i) or self.volume(i) or i in self.curves:
+            self.say("the last row has readings or a curve; clear them first (nothing is "
+                     "dropped silently)")
             return
         self.query_one(f"#row{i}").remove()
         self.rows -= 1
@@ -201,34 +205,34 @@ class RecordScreen(Screen[None]):
         widget.remove_class("bad")
         return None
 
-    def entries(self) -> tuple[list[str], list[str], list[str]]:
-        """Replicates as typed ('MASS:VOL'), what is wrong, and rows still half typed."""
-        reps: list[str] = []
+    def entries(self) -> tuple[list[str | ReplicateEntry], list[str], list[str]]:
+        """Replicates as the service takes them ('MASS:VOL' when typed, an entry with its
+        weighing or curve), what is wrong, and rows still half typed."""
+        reps: list[str | ReplicateEntry] = []
         problems: list[str] = []
         waiting: list[str] = []
+        amount_name = "aliquot (mL)" if self._secondary() else "mass (g)"
         for i in range(1, self.rows + 1):
             m, v = self.query_one(f"#m{i}", Input), self.query_one(f"#v{i}", Input)
             bad = [p for p in (self.check_cell(m), self.check_cell(v)) if p]
-            self.query_one(f"#note{i}", Static).update(self._short(bad[0]) if bad else "")
+            note = self.query_one(f"#note{i}", Static)
+            note.update(short(self.app, bad[0]) if bad else "")
             problems += bad
-            if not bad:
-                if m.value.strip() and v.value.strip():
-                    reps.append(f"{m.value.strip()}:{v.value.strip()}")
-                elif m.value.strip() or v.value.strip():
-                    missing = "titrant volume" if m.value.strip() else "amount"
-                    waiting.append(f"replicate {i} has no {missing} yet")
-                    self.query_one(f"#note{i}", Static).update(
-                        Text(f"waiting for the {missing}", style="italic"))
+            if bad:
+                continue
+            if self._complete(i):
+                try:
+                    reps.append(self.item(i, amount_name))
+                except PrepbookError as exc:
+                    problems.append(str(exc))
+                    note.update(short(self.app, str(exc)))
+            elif self.mass(i) or self.volume(i) or i in self.curves:
+                missing = "titrant volume" if self.mass(i) else "amount"
+                waiting.append(f"replicate {i} has no {missing} yet")
+                note.update(Text(f"waiting for the {missing}", style="italic"))
         return reps, problems, waiting
 
-    def _short(self, message: str) -> Text:
-        """A refusal shortened to fit its row (the whole message is on the right)."""
-        head, sep, rest = message.partition(": ")
-        text = rest if sep and head.startswith("replicate") else message
-        return Text(f"✖ {text}", style=colour(self.app, "error"), no_wrap=True,
-                    overflow="ellipsis")
-
-    def kwargs(self, reps: list[str]) -> dict[str, Any]:
+    def kwargs(self, reps: list[str | ReplicateEntry]) -> dict[str, Any]:
         src = self.query_one("#source", Select).value
         kw: dict[str, Any] = {"actor": self.app.actor or "",  # type: ignore[attr-defined]
                               "batch": self.code, "replicates": reps}
@@ -241,9 +245,11 @@ class RecordScreen(Screen[None]):
         if kw.get("against"):
             kw["balance"] = None  # a secondary standardization weighs nothing
         for key, wid in (("temperature", "temp"), ("blank", "blank"),
-                         ("indicator", "indicator"), ("at", "at")):
+                         ("indicator", "indicator")):
             val = self.query_one(f"#{wid}", Input).value.strip()
             kw[key] = val or None
+        when = self.query_one(WorkTime)
+        kw["at"], kw["late_reason"] = when.at, when.reason
         return kw
 
     # -- live result ----------------------------------------------------------------------------
@@ -251,9 +257,11 @@ class RecordScreen(Screen[None]):
         wid = event.input.id or ""
         if wid[:1] in "mv" and wid[1:].isdigit():
             i = wid[1:]  # the row's note tells what is wrong with either of its readings
+            if wid[0] == "m":
+                self.typed_over(int(i))
             bad = [p for p in (self.check_cell(self.query_one(f"#m{i}", Input)),
                                self.check_cell(self.query_one(f"#v{i}", Input))) if p]
-            self.query_one(f"#note{i}", Static).update(self._short(bad[0]) if bad else "")
+            self.query_one(f"#note{i}", Static).update(short(self.app, bad[0]) if bad else "")
         self.schedule()
 
     def on_select_changed(self, event: Select.Changed) -> None:
@@ -281,11 +289,17 @@ class RecordScreen(Screen[None]):
         if self.recorded or self.chain is None:
             return
         reps, problems, waiting = self.entries()
+        late = self.query_one(WorkTime).check()
         live = self.query_one("#live", Static)
         self.last = None
+        if late:
+            live.update(problems_text(self.app, "cannot compute yet",
+                                      problems + waiting + [late]))
+            return
         if not reps:
             if problems or waiting:
-                live.update(self._problem("the readings need attention", problems + waiting))
+                live.update(problems_text(self.app, "the readings need attention",
+                                          problems + waiting))
             else:
                 live.update(Text("Type the first replicate: the running normality, RSD, "
                                  "uncertainty and every acceptance check appear here.",
@@ -294,7 +308,7 @@ class RecordScreen(Screen[None]):
         try:
             res = runs.standardize(self.app.db, **self.kwargs(reps), record=False)  # type: ignore[attr-defined]
         except PrepbookError as exc:
-            live.update(self._problem("cannot compute yet", problems + [str(exc)]))
+            live.update(problems_text(self.app, "cannot compute yet", problems + [str(exc)]))
             return
         self.last = res
         # The result's replicates are the complete, readable rows, in grid order.
@@ -305,41 +319,15 @@ class RecordScreen(Screen[None]):
         title = "running result (not recorded yet)"
         if problems or waiting:
             title += f" of replicates {', '.join(map(str, complete))} only"
-        parts = [self._problem("the readings need attention", problems + waiting)] \
+        parts = [problems_text(self.app, "the readings need attention", problems + waiting)] \
             if problems or waiting else []
-        live.update(Group(*parts, self._result(res, title)))
+        live.update(Group(*parts, result_view(self.app, res, title)))
 
     def _complete(self, i: int) -> bool:
+        """A mass and a volume (typed, or the attached curve's), both reading well."""
         m, v = self.query_one(f"#m{i}", Input), self.query_one(f"#v{i}", Input)
-        return bool(m.value.strip() and v.value.strip()) and not m.has_class("bad") \
-            and not v.has_class("bad")
-
-    def _problem(self, title: str, problems: list[str]) -> Text:
-        out = Text.assemble((f"{title}\n", "bold"))
-        for p in problems:
-            out.append(f"  ✖ {p}\n", style=colour(self.app, "error"))
-        return out
-
-    def _result(self, res: RunResult, title: str) -> Group:
-        verdict = res.verdict
-        v_style = colour(self.app, {"pass": "success", "fail": "error"}.get(verdict, "warning"))
-        head = Text.assemble(
-            (f"{title}\n", "bold"),
-            f"  N = {words.sig(res.normality)} eq/L at {res.temperature_c:g} °C"
-            + ("" if res.temperature_c == 20 else
-               f";  {words.sig(res.normality_20c)} eq/L at 20 °C") + "\n",
-            f"  factor {words.fixed(res.factor)}   SD {words.sig(res.sd, 2)}   "
-            f"RSD {words.sig(res.rsd_percent, 3)} %   n = {len(res.replicates)}\n",
-            f"  u = {words.sig(res.u, 2)}   U = {words.sig(res.U, 2)} eq/L "
-            f"(k = {words.sig(res.k, 2)})\n",
-            ("  verdict: ", "bold"), (verdict.upper(), f"bold {v_style}".strip()))
-        checks = small_table("check", "outcome", "why")
-        for c in res.checks:
-            checks.add_row(c.name, check_cell(self.app, asdict(c)), c.message)
-        extra = [n for n in res.warnings if n not in {c.message for c in res.checks}]
-        notes = Text("".join(f"  note: {n}\n" for n in extra))
-        return Group(head, Text(""), checks, notes, Text("uncertainty budget", style="bold"),
-                     budget_table([asdict(line) for line in res.budget]))
+        return bool(self.mass(i) and (self.volume(i) or i in self.curves)) \
+            and not m.has_class("bad") and not v.has_class("bad")
 
     # -- recording ----------------------------------------------------------------------------
     def say(self, text: str) -> None:
@@ -360,18 +348,21 @@ class RecordScreen(Screen[None]):
             problems = ["type at least one replicate"]
         if not self.query_one("#temp", Input).value.strip():
             problems.append("type the titrant's temperature (°C) as measured")
+        late = self.query_one(WorkTime).check()
+        if late:
+            problems.append(late)
         live = self.query_one("#live", Static)
         if problems:
-            live.update(self._problem("not recorded: nothing was written", problems))
+            live.update(problems_text(self.app, "not recorded: nothing was written", problems))
             return
         from prepbook.tui.screens.dialogs import ConfirmScreen
 
         try:  # the whole result with its checks, then a confirmation, then the record
             res = runs.standardize(self.app.db, **self.kwargs(reps), record=False)  # type: ignore[attr-defined]
         except PrepbookError as exc:
-            live.update(self._problem("not recorded: nothing was written", [str(exc)]))
+            live.update(problems_text(self.app, "not recorded: nothing was written", [str(exc)]))
             return
-        live.update(self._result(res, "to be recorded: check the result and every check"))
+        live.update(result_view(self.app, res, "to be recorded: check the result and every check"))
         failed = [c.name for c in res.checks if not c.passed and c.severity == "fail"]
         question = (f"Record this run of {self.code}: {len(reps)} replicate(s), N = "
                     f"{words.sig(res.normality)} eq/L at {res.temperature_c:g} °C, factor "
@@ -384,7 +375,7 @@ class RecordScreen(Screen[None]):
 
         self.app.push_screen(ConfirmScreen(question), answer)
 
-    def record(self, reps: list[str]) -> None:
+    def record(self, reps: list[str | ReplicateEntry]) -> None:
         """Record the run as confirmed (the same service call, with ``record=True``)."""
         from prepbook.lab import runs
 
@@ -392,14 +383,14 @@ class RecordScreen(Screen[None]):
         try:
             res = runs.standardize(self.app.db, **self.kwargs(reps), record=True)  # type: ignore[attr-defined]
         except PrepbookError as exc:
-            live.update(self._problem("not recorded: nothing was written", [str(exc)]))
+            live.update(problems_text(self.app, "not recorded: nothing was written", [str(exc)]))
             return
         self.recorded = res.run
         for field in self.query(Input):
             field.disabled = True
         for choice in self.query(Select):
             choice.disabled = True
-        live.update(self._result(res, f"recorded as run {res.run}: awaiting review by a "
+        live.update(result_view(self.app, res, f"recorded as run {res.run}: awaiting review by a "
                                       "second person"))
         self.app.notify(f"run {res.run} recorded; it awaits review", title="recorded")
         self.app.wrote()  # type: ignore[attr-defined]
@@ -407,8 +398,8 @@ class RecordScreen(Screen[None]):
     def unsaved(self) -> bool:
         if self.recorded or not self.rows:
             return False
-        return any(self.query_one(f"#{k}{i}", Input).value.strip()
-                   for i in range(1, self.rows + 1) for k in "mv")
+        return bool(self.curves) or any(self.mass(i) or self.volume(i)
+                                        for i in range(1, self.rows + 1))
 
     def action_back(self) -> None:
         from prepbook.tui.screens.dialogs import ConfirmScreen
