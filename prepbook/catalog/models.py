@@ -227,7 +227,9 @@ class SpecDefaults:
     primary standards that pair with the solute; ``reference_spec`` (a spec code) is the
     standardized solution to use instead for a secondary standardization. Acceptance
     numbers are plain fields so a lab can change them. ``sources`` maps every default to
-    its origin (a publication, or "common practice, no source").
+    its origin (a publication, or "common practice, no source"). A titrant in a solvent
+    other than water states the solvent's ``expansion_per_c``, which carries its normality
+    between temperatures.
     """
 
     code: str
@@ -258,6 +260,9 @@ class SpecDefaults:
     preparation_stock_spec: str | None = None
     preparation_stock_ml_per_l: float | None = None
     sources: tuple[tuple[str, str], ...] = ()
+    #: The solvent's cubic expansion coefficient (per C) when it is not water (whose
+    #: density formula serves aqueous titrants); its source is ``sources["expansion_per_c"]``.
+    expansion_per_c: float | None = None
 
     @property
     def lookup_names(self) -> tuple[str, ...]:

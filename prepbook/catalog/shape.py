@@ -247,12 +247,14 @@ _SPEC_FIELDS: dict[str, Field] = {
     "preparation_reagent_ml_per_l": Field(NUMBER, None),
     "preparation_stock_spec": Field(TEXT, None, "a stronger spec of the same solute"),
     "preparation_stock_ml_per_l": Field(NUMBER, None),
+    "expansion_per_c": Field(NUMBER, None, "the solvent's cubic expansion coefficient per C; "
+                             "required when the solvent is not water"),
 }
 #: A spec's fields whose value must name its source (optional ones only when set).
 SPEC_SOURCED = ("min_replicates", "max_rsd_percent", "factor_low", "factor_high",
                 "drift_limit_percent", "restandardize_days", "shelf_life_days", "storage",
                 "preparation")
-SPEC_SOURCED_IF_SET = ("standard", "reference_spec", "solvent")
+SPEC_SOURCED_IF_SET = ("standard", "reference_spec", "solvent", "expansion_per_c")
 
 #: A spec as built: its own keys over ``[defaults]``.
 SPEC = Table("solution spec", {

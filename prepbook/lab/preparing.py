@@ -9,11 +9,15 @@ normality``, the command a bench runs most, does not build these types at start-
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from prepbook.errors import InvalidInput, NotFound
 from prepbook.inputs import parse_number, parse_percent
+
+if TYPE_CHECKING:
+    from prepbook.chem.corrections import Expansion
 
 
 @dataclass(frozen=True)
@@ -82,6 +86,9 @@ class TemperatureResult:
     to_c: float
     normality: float
     ratio: float
+    solvent: str
+    expansion_per_c: float | None  # None: water's density formula
+    expansion_source: str
 
 
 @dataclass(frozen=True)
@@ -210,18 +217,62 @@ def buoyancy(*, mass_text: str, density_text: str, air_text: str = "0.0012",
                           weights_density_g_per_cm3=weights)
 
 
-def temperature(*, normality_text: str, from_text: str, to_text: str) -> TemperatureResult:
+def spec_expansion(data: Mapping[str, Any]) -> Expansion | None:
+    """How a spec's titrant is carried between temperatures: its solvent's cubic
+    expansion (``expansion_per_c`` and its source), or None for an aqueous titrant
+    (water's density formula). ``data`` is the spec's fields (a stored spec's JSON or a
+    catalog spec's); a built-in spec stored before the coefficient existed takes it from
+    the catalog's spec of the same code, and a non-aqueous spec without one is refused
+    rather than corrected as water."""
+    from prepbook.chem.corrections import Expansion
+
+    solvent = str(data.get("solvent") or "water")
+    if solvent.strip().casefold() == "water":
+        return None
+    gamma, sources = data.get("expansion_per_c"), data.get("sources") or {}
+    if gamma is None and data.get("code"):
+        from prepbook.catalog import loader
+
+        try:
+            spec = loader.find_spec(str(data["code"]))
+        except NotFound:
+            spec = None
+        if spec is not None and spec.solvent == solvent:
+            gamma, sources = spec.expansion_per_c, dict(spec.sources)
+    if not isinstance(gamma, (int, float)) or isinstance(gamma, bool):
+        raise InvalidInput(f"spec {data.get('code')} is in {solvent}, but states no cubic "
+                           "expansion coefficient to carry it between temperatures")
+    source = dict(sources).get("expansion_per_c") or "no source recorded"
+    return Expansion(per_c=float(gamma), solvent=solvent, source=str(source))
+
+
+def temperature(*, normality_text: str, from_text: str, to_text: str,
+                spec: str | None = None) -> TemperatureResult:
+    """Normality at another temperature; with ``spec`` (a catalog spec's code) the
+    titrant is carried with its solvent's expansion, else as a dilute aqueous one."""
+    from dataclasses import asdict
+
     from prepbook.chem import corrections
 
     n1 = parse_number(normality_text, "normality", positive=True).value
     t1 = parse_number(from_text, "temperature from (C)").value
     t2 = parse_number(to_text, "temperature to (C)").value
+    expansion = None
+    if spec is not None:
+        from prepbook.catalog import loader
+
+        expansion = spec_expansion(asdict(loader.find_spec(spec)))
     for t in (t1, t2):
         if not 0 <= t <= 40:
-            raise InvalidInput(f"temperature {t:g} C is outside 0-40 C, where the CIPM water "
-                               "density formula applies")
-    n2 = corrections.normality_at_temperature(n1, t1, t2)
-    return TemperatureResult(normality_from=n1, from_c=t1, to_c=t2, normality=n2, ratio=n2 / n1)
+            where = ("where the CIPM water density formula applies" if expansion is None
+                     else "where a titrant's temperature correction is applied")
+            raise InvalidInput(f"temperature {t:g} C is outside 0-40 C, {where}")
+    n2 = corrections.normality_at_temperature(n1, t1, t2, expansion)
+    return TemperatureResult(
+        normality_from=n1, from_c=t1, to_c=t2, normality=n2, ratio=n2 / n1,
+        solvent=expansion.solvent if expansion else "water",
+        expansion_per_c=expansion.per_c if expansion else None,
+        expansion_source=expansion.source if expansion else corrections.WATER_EXPANSION_TEXT)
 
 
 def titer(*, titrant: str, normality_text: str, analyte: str) -> TiterResult:

@@ -45,6 +45,7 @@ from prepbook.lab.common import (
     work_time,
     write,
 )
+from prepbook.lab.preparing import spec_expansion
 from prepbook.lab.reviews import QueuedRun, review, runs_awaiting_review
 from prepbook.lab.volumes import draw
 from prepbook.rules import evaluation as ev
@@ -200,6 +201,7 @@ def _standardization(s: Session, c: _Conditions, entries: list[ReplicateEntry],
             indicator=c.indicator or view.indicator, curves=sources.evidence(s, entries),
             entered_on=(c.entered_at or utc_now()).date(),
             required_instruments=required_instruments(view, c.secondary)),
+        expansion=spec_expansion(view.data),
     )
 
 

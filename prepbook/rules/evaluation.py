@@ -112,6 +112,7 @@ class Standardization:
     burette: str | None = None  # the burette's code, for messages
     judgement: Judgement | None = None
     u_rel_repeatability: float | None = None  # validated relative SD; None: the replicates'
+    expansion: corrections.Expansion | None = None  # a non-aqueous titrant's solvent; None: water
 
 
 @dataclass(frozen=True)
@@ -221,7 +222,8 @@ def evaluate(s: Standardization) -> Evaluation:
         ref = s.reference
         assert ref is not None
         titrant_rx = solute.reaction(name=s.titrant_reaction) if solute is not None else None
-        n_ref = corrections.normality_at_temperature(ref.normality_20c, 20.0, s.temperature_c)
+        n_ref = corrections.normality_at_temperature(ref.normality_20c, 20.0, s.temperature_c,
+                                                     s.expansion)
         u_ref = (ref.u or 0.0) * n_ref / ref.normality_20c
         u_aliquot = st.volume_u_from_burette(DEFAULT_PIPETTE_TOLERANCE_ML, kept[0].amount,
                                              temperature_range_c=s.temperature_range_c)
@@ -233,7 +235,9 @@ def evaluate(s: Standardization) -> Evaluation:
         notes.append(f"reference {ref.batch} at {ref.normality_20c:.5f} eq/L (20 C), "
                      f"from its run {ref.run}")
     normality_20c = corrections.normality_at_temperature(result.normality, s.temperature_c,
-                                                         20.0)
+                                                         20.0, s.expansion)
+    if s.expansion is not None:
+        notes.append(f"carried to 20 C with {s.expansion.describe()}")
     factor: float | None = None
     checks: tuple[Check, ...] = ()
     if s.judgement is not None:

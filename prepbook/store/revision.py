@@ -7,4 +7,4 @@ not import each other. tests/store/test_migrations.py keeps it equal to the newe
 revision shipped.
 """
 
-HEAD_REVISION = "6b7e2d9c4f18"
+HEAD_REVISION = "c4d8e1f2a735"
