@@ -147,6 +147,10 @@ def _check_reagent(g: Reagent) -> list[str]:
         out.append(f"{w}: acid_base must be 'acid' or 'base'")
     if list(g.pka) != sorted(g.pka):
         out.append(f"{w}: pka values must be in increasing order")
+    n = g.n_eq_per_mol
+    if n is not None and (g.acid_base is None or n not in (1, 2, 3)):
+        out.append(f"{w}: n_eq_per_mol (protons given or taken) must be 1, 2 or 3, for an "
+                   "acid or a base")
     if not any(SDS_DEFERRAL in c for c in g.cautions):
         out.append(f"{w}: cautions must defer to the {SDS_DEFERRAL}")
     return out + _check_hazard(g.hazard, w)

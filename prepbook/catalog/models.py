@@ -174,6 +174,11 @@ class Reagent:
     acid_base: str | None = None
     pka: tuple[float, ...] = ()
     note: str = ""
+    #: Equivalents per mole in its acid-base use: protons given (an acid) or taken (a
+    #: base) per formula unit, from the balanced neutralization; None where it depends
+    #: on the endpoint chosen (phosphoric acid), so the user must say.
+    n_eq_per_mol: float | None = None
+
     @property
     def lookup_names(self) -> tuple[str, ...]:
         """What finds it: code, formula, name and aliases."""

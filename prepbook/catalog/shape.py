@@ -206,6 +206,8 @@ REAGENT = Table("concentrated reagent", {
     "acid_base": Field(TEXT, None, choices=ACID_BASE),
     "pka": Field(NUMBERS, ()),
     "note": Field(TEXT, ""),
+    "n_eq_per_mol": Field(NUMBER, None, "equivalents per mole in its acid-base use (protons "
+                          "given or taken); leave out where it depends on the endpoint"),
 })
 
 INDICATOR = Table("endpoint indicator", {

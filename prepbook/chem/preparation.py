@@ -93,6 +93,23 @@ def liquid_volume_ml(
     return solute_g / w / rho
 
 
+def concentrate_normality(
+    concentrate_ml: float,
+    volume_ml: float,
+    molar_mass: float,
+    n: float,
+    mass_fraction: float,
+    density_g_per_ml: float,
+) -> float:
+    """Normality of ``concentrate_ml`` of a concentrated reagent made up to ``volume_ml``:
+    N = 1000 V_c rho w n / (M V), the inverse of :func:`liquid_volume_ml`."""
+    vc = _positive(concentrate_ml, "concentrate volume (mL)")
+    v = _positive(volume_ml, "volume (mL)")
+    eq = _positive(n, "n (eq/mol)")
+    molarity = reagent_molarity_mol_per_l(mass_fraction, density_g_per_ml, molar_mass)
+    return molarity * eq * vc / v
+
+
 def dilution(stock_n: float, target_n: float, volume_ml: float) -> Dilution:
     """Stock volume and water for ``volume_ml`` of ``target_n`` (N1 V1 = N2 V2)."""
     s = _positive(stock_n, "stock normality")

@@ -11,9 +11,10 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
+from datetime import date
 from typing import TYPE_CHECKING, Any
 
-from prepbook.errors import InvalidInput, NotFound
+from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import parse_number, parse_percent
 
 if TYPE_CHECKING:
@@ -129,6 +130,19 @@ def solid(solute: str, *, normality_text: str, volume_text: str,
                        purity_percent=purity * 100, mass_g=mass, cautions=_cautions(mat))
 
 
+def supplied_as_concentrate(solute: str) -> bool:
+    """Whether a titrant's solute is taken as a concentrated liquid (the catalog has a
+    reagent for it: hydrochloric, sulfuric, perchloric acid), so it is measured, not
+    weighed."""
+    from prepbook.catalog import loader
+
+    try:
+        loader.find_reagent(solute)
+    except NotFound:
+        return False
+    return True
+
+
 def liquid(
     reagent: str,
     *,
@@ -157,13 +171,15 @@ def liquid(
     mm = formula.molar_mass(rg.formula)
     if n_text is not None:
         n_eq = parse_number(n_text, "equivalents per mole", positive=True).value
+    elif rg.n_eq_per_mol is not None:
+        n_eq = rg.n_eq_per_mol
     else:
         try:
             n_eq = loader.find_material(rg.formula).reaction().n
         except NotFound:
             raise InvalidInput(
-                f"the catalog has no titration reaction for {rg.name}: give its equivalents "
-                "per mole with --n"
+                f"the catalog gives no equivalents per mole for {rg.name} (they depend on "
+                "the endpoint): give them with --n"
             ) from None
     v_conc = preparation.liquid_volume_ml(
         n_target, volume, mm.value_g_per_mol, n_eq, fraction, density
@@ -174,6 +190,65 @@ def liquid(
                         molarity_mol_per_l=molarity, n_eq_per_mol=n_eq, normality=n_target,
                         final_volume_ml=volume, volume_ml=v_conc, cautions=tuple(rg.cautions),
                         source=rg.source)
+
+
+@dataclass(frozen=True)
+class ConcentrateLot:
+    """A concentrate's lot as recorded: its assay (% w/w) and density (g/mL) as typed
+    from the certificate."""
+
+    code: str
+    reagent: str
+    assay_percent_text: str
+    density_text: str | None
+    expires: date
+
+
+@dataclass(frozen=True)
+class ConcentrateMade:
+    normality: float
+    reagent: str
+    mass_fraction: float
+    density_g_per_ml: float
+    warnings: tuple[str, ...]
+    cautions: tuple[str, ...]  # the concentrate's own (the reagent's, from the catalog)
+
+
+def concentrate_normality(solute: str, n: float, concentrate_ml: float, volume_ml: float,
+                          made_on: date, *, lot: ConcentrateLot | None = None
+                          ) -> ConcentrateMade:
+    """A batch made by diluting ``concentrate_ml`` of the solute's concentrate to
+    ``volume_ml``: its normality from the lot's certified assay and density, or, with no
+    lot named, from the catalog's typical values (said in a warning, since the batch
+    then cannot be traced to an assay)."""
+    from prepbook.catalog import loader
+    from prepbook.chem import formula, preparation
+
+    reagent = loader.find_reagent(solute)
+    warnings: list[str] = []
+    if lot is None:
+        fraction, density = reagent.mass_fraction, reagent.density_g_per_ml
+        warnings.append(
+            f"no concentrate lot named: the catalog's typical {fraction * 100:g} % w/w and "
+            f"{density:g} g/mL for {reagent.name} were used ({reagent.source}); name the "
+            "lot with --solute-lot to compute from its certificate")
+    else:
+        if lot.reagent != reagent.code:
+            raise InvalidInput(f"lot {lot.code} is {lot.reagent}, but this batch is made "
+                               f"from {reagent.code}")
+        if lot.density_text is None:
+            raise InvalidInput(f"lot {lot.code} records no density: it is not a concentrate "
+                               "lot (lot add ... --assay PERCENT --density G/ML)")
+        if lot.expires < made_on:
+            raise Refused(f"lot {lot.code} expired on {lot.expires.isoformat()}")
+        fraction = float(lot.assay_percent_text) / 100
+        density = float(lot.density_text)
+    mm = formula.molar_mass(reagent.formula).value_g_per_mol
+    normality = preparation.concentrate_normality(concentrate_ml, volume_ml, mm, n, fraction,
+                                                  density)
+    return ConcentrateMade(normality=normality, reagent=reagent.code, mass_fraction=fraction,
+                           density_g_per_ml=density, warnings=tuple(warnings),
+                           cautions=tuple(reagent.cautions))
 
 
 def dilute(*, stock_text: str, normality_text: str, volume_text: str) -> DilutionResult:
