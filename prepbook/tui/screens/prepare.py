@@ -143,6 +143,7 @@ class PrepareScreen(Screen[None]):
 
     # -- calculators ----------------------------------------------------------------------
     def calculate(self) -> None:
+        from prepbook.catalog import loader
         from prepbook.lab import preparing
 
         if self.made:
@@ -201,6 +202,10 @@ class PrepareScreen(Screen[None]):
                              else f"typical values, {liquid.source}; choose the lot to use "
                              "its certificate")
                     out.append(f"  assay and density: {where}\n", style="dim")
+                    concentrate = loader.find_reagent(liquid.reagent).hazard
+                    if concentrate.classified:
+                        out.append(f"  the concentrate itself: {concentrate.signal_word or ''} "
+                                   f"{' '.join(concentrate.statements)}\n", style=err)
                     found = liquid.cautions
                 else:
                     parent = self.value("parent")
