@@ -93,8 +93,8 @@ def test_an_expired_concentrate_lot_is_refused(lab: Cli) -> None:
     assert "expired" in result.stderr
 
 
-@pytest.mark.parametrize(("density", "words"), [("0", "greater than zero"), ("11.8", "not a liquid"),
-                                                ("abc", "density")])
+@pytest.mark.parametrize(("density", "words"), [
+    ("0", "greater than zero"), ("11.8", "not a liquid"), ("abc", "density")])
 def test_an_impossible_density_is_refused(lab: Cli, density: str, words: str) -> None:
     result = lab.refused("lot", "add", "HCl-conc", "--code", "HCL-X", "--assay", "37",
                          "--density", density, "--expires", _days(300), user="ada")
