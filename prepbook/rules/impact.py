@@ -13,7 +13,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
 
-from prepbook.rules.life import drift_beyond, drift_between
+from prepbook.rules.life import drift_between, drift_beyond
 
 
 @dataclass(frozen=True)
