@@ -93,21 +93,14 @@ def liquid_volume_ml(
     return solute_g / w / rho
 
 
-def concentrate_normality(
-    concentrate_ml: float,
-    volume_ml: float,
-    molar_mass: float,
-    n: float,
-    mass_fraction: float,
-    density_g_per_ml: float,
-) -> float:
-    """Normality of ``concentrate_ml`` of a concentrated reagent made up to ``volume_ml``:
-    N = 1000 V_c rho w n / (M V), the inverse of :func:`liquid_volume_ml`."""
+def concentrate_normality(concentrate_ml: float, volume_ml: float, *,
+                          molarity_mol_per_l: float, n: float) -> float:
+    """Normality of ``concentrate_ml`` of a concentrate of ``molarity_mol_per_l`` (see
+    :func:`reagent_molarity_mol_per_l`) made up to ``volume_ml``: N = c n V_c / V."""
     vc = _positive(concentrate_ml, "concentrate volume (mL)")
     v = _positive(volume_ml, "volume (mL)")
-    eq = _positive(n, "n (eq/mol)")
-    molarity = reagent_molarity_mol_per_l(mass_fraction, density_g_per_ml, molar_mass)
-    return molarity * eq * vc / v
+    c = _positive(molarity_mol_per_l, "molarity of the concentrate (mol/L)")
+    return c * _positive(n, "n (eq/mol)") * vc / v
 
 
 def dilution(stock_n: float, target_n: float, volume_ml: float) -> Dilution:

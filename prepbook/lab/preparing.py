@@ -244,8 +244,9 @@ def concentrate_normality(solute: str, n: float, concentrate_ml: float, volume_m
         fraction = float(lot.assay_percent_text) / 100
         density = float(lot.density_text)
     mm = formula.molar_mass(reagent.formula).value_g_per_mol
-    normality = preparation.concentrate_normality(concentrate_ml, volume_ml, mm, n, fraction,
-                                                  density)
+    molarity = preparation.reagent_molarity_mol_per_l(fraction, density, mm)
+    normality = preparation.concentrate_normality(concentrate_ml, volume_ml,
+                                                  molarity_mol_per_l=molarity, n=n)
     return ConcentrateMade(normality=normality, reagent=reagent.code, mass_fraction=fraction,
                            density_g_per_ml=density, warnings=tuple(warnings),
                            cautions=tuple(reagent.cautions))
