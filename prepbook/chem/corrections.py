@@ -56,8 +56,8 @@ class Expansion:
                 f"({self.source})")
 
 
-#: What an aqueous titrant's correction uses, in words (for output).
-WATER_EXPANSION_TEXT = "water's density (CIPM formula, Tanaka et al. 2001)"
+#: Where an aqueous titrant's correction (water's density) comes from, for output.
+WATER_DENSITY_SOURCE = "CIPM formula, Tanaka et al., Metrologia 38 (2001) 301"
 
 
 def _number(name: str, value: float) -> float:

@@ -400,14 +400,11 @@ def temperature(
         ..., "--from", metavar="C", help="Temperature of standardization, C."
     ),
     to_c: str = typer.Option(..., "--to", metavar="C", help="Temperature of use, C."),
-    spec: str = typer.Option(
-        None, "--spec", metavar="SPEC",
-        help="The titrant's spec (e.g. HClO4-0.1N): a non-aqueous one expands like its solvent."
-    ),
+    spec: str = typer.Option(None, "--spec", metavar="SPEC", help="The titrant's spec "
+                             "(e.g. HClO4-0.1N): a non-aqueous one expands like its solvent."),
     as_json: bool = JSON,
 ) -> None:
-    """Normality at another temperature: a dilute aqueous solution with water's density
-    (CIPM), a spec's titrant in another solvent with that solvent's expansion."""
+    """Normality at another temperature (water's density, or the spec's solvent's)."""
     from prepbook.lab import preparing
 
     result = preparing.temperature(normality_text=normality, from_text=from_c, to_text=to_c,
@@ -466,8 +463,7 @@ def endpoint(
     search: str = typer.Option(None, "--between", metavar="ML:ML",
                                help="The window as one option, e.g. 5:15."),
     smoothing: str = typer.Option(None, "--smoothing", metavar="ML",
-                                  help="Derivative filter span, mL (default about 1 mL, "
-                                  "5 to 7 median steps)."),
+                                  help="Derivative filter span, mL (default about 1 mL)."),
     as_json: bool = JSON,
 ) -> None:
     """Every endpoint (inflection) of a recorded titration curve, with its uncertainty,

@@ -348,7 +348,7 @@ def temperature(*, normality_text: str, from_text: str, to_text: str,
         normality_from=n1, from_c=t1, to_c=t2, normality=n2, ratio=n2 / n1,
         solvent=expansion.solvent if expansion else "water",
         expansion_per_c=expansion.per_c if expansion else None,
-        expansion_source=expansion.source if expansion else corrections.WATER_EXPANSION_TEXT)
+        expansion_source=expansion.source if expansion else corrections.WATER_DENSITY_SOURCE)
 
 
 def titer(*, titrant: str, normality_text: str, analyte: str) -> TiterResult:
