@@ -10,12 +10,12 @@ How, in two passes:
 1. **Detection.** The readings are put on an even volume grid (linear interpolation
    between recorded points, ``numpy.interp``) and differentiated by a Savitzky-Golay
    filter (``scipy.signal.savgol_filter``, quadratic, over ``smoothing_ml``: by default
-   about a millilitre, five to seven median volume steps, ``default_span_ml``). The
-   peaks of |dE/dV| are found with ``scipy.signal.find_peaks``; a peak counts when its
-   prominence stands clear of the noise of that derivative (``NOISE_FACTOR`` times its
-   standard deviation, the reading noise being estimated from the second differences
-   of the readings) and of the filter's own ripple (``MIN_RELATIVE_PROMINENCE`` of the
-   steepest peak), and has ``EDGE_POINTS`` recorded points beyond it on either side.
+   seven median volume steps). The peaks of |dE/dV| are found with
+   ``scipy.signal.find_peaks``; a peak counts when its prominence stands clear of the
+   noise of that derivative (``NOISE_FACTOR`` times its standard deviation, the reading
+   noise being estimated from the second differences of the readings) and of the
+   filter's own ripple (``MIN_RELATIVE_PROMINENCE`` of the steepest peak), and lies at
+   least half a span from either end of the curve.
 2. **Refinement** on the recorded points, not the grid: a cubic is fitted by least
    squares (``numpy.polyfit``) to the points within the peak's full width at half
    height on either side of it (at least the seven nearest points); the inflection is where
@@ -57,18 +57,6 @@ makes peaks of five or more (a choice of this program, no source)."""
 MIN_RELATIVE_PROMINENCE = 0.05
 """...and at least this share of the steepest peak, so the ripple that interpolation and
 filtering leave on a noise-free curve is not an endpoint (a choice of this program)."""
-
-SPAN_ML = 1.0
-SPAN_STEPS_MIN = 5.0
-SPAN_STEPS_MAX = 7.0
-"""The default span of the derivative filter (``default_span_ml``): about a millilitre,
-the width of a titration's jump at the usual 0.1 N, kept between five and seven median
-steps (a choice of this program, no source; tests/benchmarks/endpoint_bench.py measures
-it on modelled curves)."""
-
-EDGE_POINTS = 2
-"""Recorded points a peak of the derivative needs beyond it on either side to count (so
-it is a peak of the curve, not of the filter's one-sided fit at an end)."""
 
 REFINE_PASSES = 3
 """Times the cubic's window is re-centred on the inflection it found."""
@@ -131,16 +119,6 @@ def _window(v: Any, e: Any, window_ml: tuple[float, float] | None) -> tuple[Any,
     return v[keep], e[keep]
 
 
-def default_span_ml(median_step_ml: float) -> float:
-    """The derivative filter's span when none is given: about ``SPAN_ML`` of titrant,
-    and from ``SPAN_STEPS_MIN`` to ``SPAN_STEPS_MAX`` median steps: seven steps on a
-    fine curve (0.7 mL at 0.1 mL steps), five on a coarse one (2.5 mL at 0.5 mL steps,
-    where seven would smear an endpoint recorded a few steps before the end into its
-    flank)."""
-    step = float(median_step_ml)
-    return max(SPAN_STEPS_MIN * step, min(SPAN_STEPS_MAX * step, SPAN_ML))
-
-
 def reading_noise(readings: Sequence[float]) -> float:
     """Standard deviation of the noise on a smooth series, from its second differences:
     for independent noise of SD s they have SD s sqrt(6); the median absolute value
@@ -194,7 +172,7 @@ def find_endpoints(
     """Every inflection of a titration curve (volume against pH or mV), in order.
 
     ``window_ml`` (low, high) limits the search to those volumes. ``smoothing_ml``
-    sets the span of the derivative filter (default ``default_span_ml``): wider
+    sets the span of the derivative filter (default seven median volume steps): wider
     for noisier curves, narrower to separate close endpoints. ``sample_ml`` (the volume
     in the vessel before titrant) lets Gran's method be applied after the last
     endpoint. Rising and falling curves, pH or mV, are handled alike.
@@ -209,7 +187,7 @@ def find_endpoints(
     v, e = _window(np.asarray(volumes), np.asarray(values), window_ml)
     steps = np.diff(v)
     median_step = float(np.median(steps))
-    span = default_span_ml(median_step) if smoothing_ml is None else float(smoothing_ml)
+    span = 7.0 * median_step if smoothing_ml is None else float(smoothing_ml)
     if not math.isfinite(span) or span <= 0:
         raise InvalidInput(f"smoothing span {smoothing_ml!r} mL must be a positive number")
     grid_step = max(float(np.percentile(steps, 25)), (v[-1] - v[0]) / _MAX_GRID)
@@ -227,17 +205,12 @@ def find_endpoints(
     slope_noise = noise / (math.sqrt(raw_in_span / 12.0) * span)
     prominence = max(NOISE_FACTOR * slope_noise,
                      MIN_RELATIVE_PROMINENCE * float(steepness.max()))
-    # At either end the filter fits its polynomial to a one-sided window: a peak is
-    # sought only where at least EDGE_POINTS recorded points lie beyond it on each side
-    # (not half a span in, which on a coarse curve would hide an endpoint recorded a
-    # few steps before the end).
-    low_edge = float(v[min(EDGE_POINTS, len(v) - 1)])
-    high_edge = float(v[max(len(v) - 1 - EDGE_POINTS, 0)])
-    # Rounding in the filter leaves ripples of about 1e-15 on a flat curve: a floor far
-    # below any real slope keeps them from counting.
-    floor = 1e-9 * (max(float(e.max() - e.min()), 1.0) / float(v[-1] - v[0]))
-    peaks, _ = find_peaks(steepness, prominence=max(prominence, floor))
-    peaks = peaks[(grid[peaks] > low_edge) & (grid[peaks] < high_edge)]
+    # Within half a span of either end the filter extrapolates: peaks are sought, and
+    # their prominence judged, only inside.
+    margin = length // 2
+    inner = steepness[margin:len(steepness) - margin]
+    peaks, _ = find_peaks(inner, prominence=prominence if prominence > 0 else None)
+    peaks = peaks + margin
     where = ("the recorded range" if window_ml is None
              else f"the window {float(window_ml[0]):g}-{float(window_ml[1]):g} mL")
     if len(peaks) == 0 or float(steepness.max()) == 0.0:

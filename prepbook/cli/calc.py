@@ -463,7 +463,7 @@ def endpoint(
     search: str = typer.Option(None, "--between", metavar="ML:ML",
                                help="The window as one option, e.g. 5:15."),
     smoothing: str = typer.Option(None, "--smoothing", metavar="ML",
-                                  help="Derivative filter span, mL (default about 1 mL)."),
+                                  help="Derivative filter span, mL (default 7 median steps)."),
     as_json: bool = JSON,
 ) -> None:
     """Every endpoint (inflection) of a recorded titration curve, with its uncertainty,

@@ -19,15 +19,12 @@ from tests.chem.model_curves import (
     ACETIC,
     CARBONATE,
     CASES,
-    COARSE_PATTERNS,
     STEP_PATTERNS,
     STRONG,
-    Case,
     curve,
 )
 
 EVEN, UNEVEN = STEP_PATTERNS
-COARSE, COARSE_UNEVEN = COARSE_PATTERNS
 
 
 @pytest.mark.parametrize("case", CASES, ids=lambda c: c.name)
@@ -51,42 +48,6 @@ def test_uneven_steps_within_three_stated_uncertainties(case, seed) -> None:  # 
     for item, true in zip(report.inflections, case.equivalence_ml, strict=True):
         assert 0 < item.u_ml < 0.15
         assert abs(item.volume_ml - true) <= 3 * item.u_ml
-
-
-@pytest.mark.parametrize("case", CASES, ids=lambda c: c.name)
-@pytest.mark.parametrize("pattern", COARSE_PATTERNS)
-@pytest.mark.parametrize("seed", range(4))
-def test_coarse_curves_need_no_smoothing_option(case, pattern, seed) -> None:  # type: ignore[no-untyped-def]
-    """0.5 mL steps (or 0.2-0.8 mL) with 0.01 pH of noise, the default span: every
-    endpoint of the modelled curve is found, each within three of its own stated
-    uncertainties (which the coarse steps dominate: step / sqrt(12), about 0.14 mL)."""
-    v, ph = curve(case, pattern, 0.01, seed)
-    report = find_endpoints(v, ph, sample_ml=case.sample_ml)
-    assert len(report.inflections) == len(case.equivalence_ml)
-    for item, true in zip(report.inflections, case.equivalence_ml, strict=True):
-        assert abs(item.volume_ml - true) <= 3 * item.u_ml
-        if pattern == COARSE:
-            assert abs(item.volume_ml - true) <= 0.1  # a fifth of a step
-
-
-@pytest.mark.parametrize("case", [ACETIC, STRONG], ids=lambda c: c.name)
-def test_an_endpoint_two_millilitres_before_the_end_of_a_coarse_curve(case: Case) -> None:
-    """Recorded at 0.5 mL steps to 2 mL past the equivalence volume: the old default
-    (seven steps, peaks sought half a span from the ends) found nothing here."""
-    import dataclasses
-
-    short = dataclasses.replace(case, end_ml=case.equivalence_ml[0] + 2.0)
-    v, ph = curve(short, COARSE, 0.005, 1)
-    (item,) = find_endpoints(v, ph).inflections
-    assert abs(item.volume_ml - case.equivalence_ml[0]) <= 0.1
-
-
-def test_default_span_is_about_a_millilitre_in_five_to_seven_steps() -> None:
-    from prepbook.chem.inflections import default_span_ml
-
-    assert default_span_ml(0.1) == pytest.approx(0.7)  # seven fine steps
-    assert default_span_ml(0.2) == pytest.approx(1.0)
-    assert default_span_ml(0.5) == pytest.approx(2.5)  # five coarse steps
 
 
 def test_old_derivative_misses_carbonate_first_endpoint_where_the_new_one_holds() -> None:
