@@ -8,7 +8,7 @@ from prepbook.cli import output
 from prepbook.cli.session import actor, database
 
 app = typer.Typer(
-    help="Add and list lots of primary standards, solutes and concentrates.",
+    help="Add and list primary-standard lots.",
     no_args_is_help=True,
     rich_markup_mode=None,
 )
