@@ -147,6 +147,10 @@ def _check_reagent(g: Reagent) -> list[str]:
         out.append(f"{w}: acid_base must be 'acid' or 'base'")
     if list(g.pka) != sorted(g.pka):
         out.append(f"{w}: pka values must be in increasing order")
+    n = g.n_eq_per_mol
+    if n is not None and (g.acid_base is None or n not in (1, 2, 3)):
+        out.append(f"{w}: n_eq_per_mol (protons given or taken) must be 1, 2 or 3, for an "
+                   "acid or a base")
     if not any(SDS_DEFERRAL in c for c in g.cautions):
         out.append(f"{w}: cautions must defer to the {SDS_DEFERRAL}")
     return out + _check_hazard(g.hazard, w)
@@ -256,7 +260,28 @@ def _check_spec(s: SpecDefaults, cat: Catalog) -> list[str]:
             )
     if not any(SDS_DEFERRAL in c for c in s.cautions):
         out.append(f"{w}: cautions must defer to the {SDS_DEFERRAL}")
-    return out + _check_hazard(s.hazard, w)
+    return out + _check_expansion(s) + _check_hazard(s.hazard, w)
+
+
+def _check_expansion(s: SpecDefaults) -> list[str]:
+    """A titrant in a solvent other than water carries its solvent's cubic expansion
+    coefficient, with its source; an aqueous one uses water's density formula, none."""
+    w = f"spec {s.code}"
+    gamma = s.expansion_per_c
+    if lookup_key(s.solvent) == "water":
+        if gamma is not None:
+            return [f"{w}: an aqueous titrant follows water's density; leave expansion_per_c "
+                    "unset"]
+        return []
+    if gamma is None:
+        return [f"{w}: solvent {s.solvent!r} is not water: give its cubic expansion "
+                "coefficient (expansion_per_c, per C) and its source"]
+    if not (math.isfinite(gamma) and 0 < gamma < 0.01):
+        return [f"{w}: expansion_per_c {gamma!r} is not a liquid's cubic expansion "
+                "coefficient (between 0 and 0.01 per C)"]
+    if not s.source_of("expansion_per_c"):
+        return [f"{w}: no source named for 'expansion_per_c'"]
+    return []
 
 
 def _check_acid_base(w: str, acid_base: str | None, pka: Sequence[float],

@@ -174,6 +174,11 @@ class Reagent:
     acid_base: str | None = None
     pka: tuple[float, ...] = ()
     note: str = ""
+    #: Equivalents per mole in its acid-base use: protons given (an acid) or taken (a
+    #: base) per formula unit, from the balanced neutralization; None where it depends
+    #: on the endpoint chosen (phosphoric acid), so the user must say.
+    n_eq_per_mol: float | None = None
+
     @property
     def lookup_names(self) -> tuple[str, ...]:
         """What finds it: code, formula, name and aliases."""
@@ -227,7 +232,9 @@ class SpecDefaults:
     primary standards that pair with the solute; ``reference_spec`` (a spec code) is the
     standardized solution to use instead for a secondary standardization. Acceptance
     numbers are plain fields so a lab can change them. ``sources`` maps every default to
-    its origin (a publication, or "common practice, no source").
+    its origin (a publication, or "common practice, no source"). A titrant in a solvent
+    other than water states the solvent's ``expansion_per_c``, which carries its normality
+    between temperatures.
     """
 
     code: str
@@ -261,6 +268,9 @@ class SpecDefaults:
     #: A validated repeatability: relative SD of one result, %, from the method's
     #: validation; a run's uncertainty budget uses it unless the run gives its own.
     repeatability_rsd_percent: float | None = None
+    #: The solvent's cubic expansion coefficient (per C) when it is not water (whose
+    #: density formula serves aqueous titrants); its source is ``sources["expansion_per_c"]``.
+    expansion_per_c: float | None = None
 
     @property
     def lookup_names(self) -> tuple[str, ...]:

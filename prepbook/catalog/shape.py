@@ -206,6 +206,8 @@ REAGENT = Table("concentrated reagent", {
     "acid_base": Field(TEXT, None, choices=ACID_BASE),
     "pka": Field(NUMBERS, ()),
     "note": Field(TEXT, ""),
+    "n_eq_per_mol": Field(NUMBER, None, "equivalents per mole in its acid-base use (protons "
+                          "given or taken); leave out where it depends on the endpoint"),
 })
 
 INDICATOR = Table("endpoint indicator", {
@@ -248,12 +250,15 @@ _SPEC_FIELDS: dict[str, Field] = {
     "preparation_stock_spec": Field(TEXT, None, "a stronger spec of the same solute"),
     "preparation_stock_ml_per_l": Field(NUMBER, None),
     "repeatability_rsd_percent": Field(NUMBER, None, "validated RSD of one result, %"),
+    "expansion_per_c": Field(NUMBER, None, "the solvent's cubic expansion coefficient per C; "
+                             "required when the solvent is not water"),
 }
 #: A spec's fields whose value must name its source (optional ones only when set).
 SPEC_SOURCED = ("min_replicates", "max_rsd_percent", "factor_low", "factor_high",
                 "drift_limit_percent", "restandardize_days", "shelf_life_days", "storage",
                 "preparation")
-SPEC_SOURCED_IF_SET = ("standard", "reference_spec", "solvent", "repeatability_rsd_percent")
+SPEC_SOURCED_IF_SET = ("standard", "reference_spec", "solvent", "repeatability_rsd_percent",
+                       "expansion_per_c")
 
 #: A spec as built: its own keys over ``[defaults]``.
 SPEC = Table("solution spec", {

@@ -13,11 +13,17 @@ Appendix I B).
 - Temperature: a dilute aqueous titrant is taken to expand like water, so its
   normality scales with the water density, N(t2) = N(t1) rho(t2)/rho(t1). (EURACHEM CG4
   uses the linear coefficient 2.1e-4 /C, :data:`EXPANSION_PER_C`, for the same effect.)
+  A titrant in another solvent expands like that solvent, with the cubic coefficient
+  its spec states (:class:`Expansion`): the pharmacopoeias correct the volume of
+  perchloric acid in glacial acetic acid as Vc = V [1 + 0.0011 (t1 - t2)] (British
+  Pharmacopoeia, Appendix I B, Perchloric Acid VS), so N(t2) = N(t1) [1 + gamma (t1 - t2)]:
+  the same amount of acid in the volume the solvent takes at t2.
 """
 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 from prepbook.errors import InvalidInput
 
@@ -32,6 +38,26 @@ WATER_FORMULA_RANGE_C = (0.0, 40.0)
 AIR_G_PER_CM3 = 0.0012  # NIST IR 6969 SOP 2, nominal air density
 WEIGHTS_G_PER_CM3 = 8.0  # conventional density of stainless-steel weights
 EXPANSION_PER_C = 2.1e-4  # EURACHEM/CITAC CG4 Example A2, dilute aqueous solutions
+CORRECTION_RANGE_C = (0.0, 40.0)  # where a titrant's temperature correction is applied
+
+
+@dataclass(frozen=True)
+class Expansion:
+    """A non-aqueous titrant's cubic expansion: the coefficient (per C) of its solvent,
+    as its spec states it, and where the value comes from."""
+
+    per_c: float
+    solvent: str
+    source: str
+
+    def describe(self) -> str:
+        """One line for output: which coefficient was used, and its source."""
+        return (f"{self.solvent}'s cubic expansion {self.per_c:g} per C "
+                f"({self.source})")
+
+
+#: Where an aqueous titrant's correction (water's density) comes from, for output.
+WATER_DENSITY_SOURCE = "CIPM formula, Tanaka et al., Metrologia 38 (2001) 301"
 
 
 def _number(name: str, value: float) -> float:
@@ -78,9 +104,24 @@ def buoyancy_true_mass(
     return w * (1.0 - rho_a / rho_w) / (1.0 - rho_a / rho_s)
 
 
-def normality_at_temperature(n: float, from_c: float, to_c: float) -> float:
-    """Normality at ``to_c`` of a dilute aqueous titrant known at ``from_c``."""
+def normality_at_temperature(n: float, from_c: float, to_c: float,
+                             expansion: Expansion | None = None) -> float:
+    """Normality at ``to_c`` of a titrant known at ``from_c``: a dilute aqueous one
+    (``expansion`` None) scales with water's density; one in another solvent with
+    N(t2) = N(t1) [1 + gamma (t1 - t2)], gamma its solvent's cubic coefficient."""
     normality = _number("normality", n)
     if normality <= 0:
         raise InvalidInput(f"normality {normality:g} must be positive")
-    return normality * water_density_kg_per_m3(to_c) / water_density_kg_per_m3(from_c)
+    if expansion is None:
+        return normality * water_density_kg_per_m3(to_c) / water_density_kg_per_m3(from_c)
+    gamma = _number("expansion coefficient (per C)", expansion.per_c)
+    if not 0 < gamma < 0.01:
+        raise InvalidInput(f"expansion coefficient {gamma:g} per C is not a liquid's "
+                           "(expected between 0 and 0.01)")
+    t1, t2 = _number("temperature (C)", from_c), _number("temperature (C)", to_c)
+    low, high = CORRECTION_RANGE_C
+    for t in (t1, t2):
+        if not low <= t <= high:
+            raise InvalidInput(f"temperature {t:g} C is outside {low:g}-{high:g} C, where "
+                               "a titrant's temperature correction is applied")
+    return normality * (1.0 + gamma * (t1 - t2))

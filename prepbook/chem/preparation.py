@@ -93,6 +93,16 @@ def liquid_volume_ml(
     return solute_g / w / rho
 
 
+def concentrate_normality(concentrate_ml: float, volume_ml: float, *,
+                          molarity_mol_per_l: float, n: float) -> float:
+    """Normality of ``concentrate_ml`` of a concentrate of ``molarity_mol_per_l`` (see
+    :func:`reagent_molarity_mol_per_l`) made up to ``volume_ml``: N = c n V_c / V."""
+    vc = _positive(concentrate_ml, "concentrate volume (mL)")
+    v = _positive(volume_ml, "volume (mL)")
+    c = _positive(molarity_mol_per_l, "molarity of the concentrate (mol/L)")
+    return c * _positive(n, "n (eq/mol)") * vc / v
+
+
 def dilution(stock_n: float, target_n: float, volume_ml: float) -> Dilution:
     """Stock volume and water for ``volume_ml`` of ``target_n`` (N1 V1 = N2 V2)."""
     s = _positive(stock_n, "stock normality")

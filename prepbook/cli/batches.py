@@ -31,7 +31,10 @@ def make(
     solute_mass: str = typer.Option(
         None, "--solute-mass", metavar="G", help="Mass of solid dissolved, g."
     ),
-    solute_lot: str = typer.Option(None, "--solute-lot", metavar="LOT", help="Lot of the solid."),
+    solute_lot: str = typer.Option(
+        None, "--solute-lot", metavar="LOT",
+        help="Lot of the solid, or of the concentrate (its certified assay and density are used)."
+    ),
     stock_volume: str = typer.Option(
         None, "--stock-volume", metavar="ML", help="Volume of concentrated reagent taken, mL."
     ),
@@ -92,7 +95,8 @@ def _render_show(out: Any, b: BatchRecord, readings: dict[str, RunReadings],
     how = {
         "solid": f"{p.solute_mass_g} g of solute" + (f" from lot {p.solute_lot}"
                                                     if p.solute_lot else ""),
-        "concentrate": f"{p.concentrate_volume_ml} mL of concentrate",
+        "concentrate": f"{p.concentrate_volume_ml} mL of concentrate"
+        + (f" from lot {p.solute_lot}" if p.solute_lot else ""),
         "dilution": f"{p.aliquot_ml} mL of batch {p.from_batch}",
     }[p.method]
     out.print(f"made {clk.shown(p.made_at)}{clk.entered(p.made_at, p.recorded_at)} by "

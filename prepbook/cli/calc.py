@@ -401,19 +401,26 @@ def temperature(
         ..., "--from", metavar="C", help="Temperature of standardization, C."
     ),
     to_c: str = typer.Option(..., "--to", metavar="C", help="Temperature of use, C."),
+    spec: str = typer.Option(None, "--spec", metavar="SPEC", help="The titrant's spec "
+                             "(e.g. HClO4-0.1N): a non-aqueous one expands like its solvent."),
     as_json: bool = JSON,
 ) -> None:
-    """Normality at another temperature (dilute aqueous solution, CIPM water density)."""
+    """Normality at another temperature (water's density, or the spec's solvent's)."""
     from prepbook.lab import preparing
 
-    result = preparing.temperature(normality_text=normality, from_text=from_c, to_text=to_c)
+    result = preparing.temperature(normality_text=normality, from_text=from_c, to_text=to_c,
+                                   spec=spec)
     if as_json:
         output.emit_json(result)
         return
-    output.console().print(
+    out = output.console()
+    out.print(
         f"N = [bold]{output.sig(result.normality, 6)} eq/L[/bold] at {result.to_c:g} C "
         f"(factor {result.ratio:.6f} from {result.from_c:g} C)"
     )
+    used = (f"{result.solvent}'s cubic expansion {result.expansion_per_c:g} per C"
+            if result.expansion_per_c is not None else "water's density")
+    out.print(f"carried with {used} ({output.text(result.expansion_source)})")
 
 
 @app.command("titer")

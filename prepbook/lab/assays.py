@@ -149,9 +149,11 @@ def normality_in_use(run: Run, temperature_c: float) -> tuple[float, float | Non
     """A run's normality (at 20 C) brought to the temperature of use, and its standard
     uncertainty scaled with it (as the labels and the board read the run: at 20 C)."""
     from prepbook.chem.corrections import normality_at_temperature
+    from prepbook.lab.preparing import spec_expansion
 
     assert run.normality_20c is not None, "an accepted run has a normality"
-    n = normality_at_temperature(run.normality_20c, 20.0, temperature_c)
+    expansion = spec_expansion(spec_view.view(run.batch.spec).data)
+    n = normality_at_temperature(run.normality_20c, 20.0, temperature_c, expansion)
     u = run.u * n / run.normality if run.u is not None and run.normality else None
     return n, u
 

@@ -31,6 +31,7 @@ from prepbook.lab.batch_records import (
     chain_facts,
 )
 from prepbook.lab.common import acting, by_code, lab_zone, work_time, write
+from prepbook.lab.preparing import ConcentrateLot, concentrate_normality
 from prepbook.lab.volumes import draw, remaining_ml
 from prepbook.store import retry
 from prepbook.store.engine import Database
@@ -104,8 +105,8 @@ def make_batch(
         raise InvalidInput("--from-batch needs --aliquot ML (the volume of stock taken)")
     if method != "dilution" and aliquot is not None:
         raise InvalidInput("--aliquot goes with --from-batch")
-    if solute_lot is not None and method != "solid":
-        raise InvalidInput("--solute-lot goes with --solute-mass")
+    if solute_lot is not None and method == "dilution":
+        raise InvalidInput("--solute-lot goes with --solute-mass or --stock-volume")
     vol = parse_number(volume, "final volume (mL)", positive=True)
     mass = parse_number(solute_mass, "solute mass (g)", positive=True) if solute_mass else None
     stock = parse_number(stock_volume, "concentrate volume (mL)", positive=True) \
@@ -130,6 +131,7 @@ def make_batch(
         solute = loader.find_material(view.solute)
         rx = solute.reaction(name=view.reaction) if view.reaction else solute.reaction()
         warnings: list[str] = []
+        handling: tuple[str, ...] = ()  # a concentrate's own cautions, before the spec's
         parents: list[date] = []
         lot_row: Lot | None = None
         parent: Batch | None = None
@@ -149,10 +151,17 @@ def make_batch(
             theoretical = 1000 * mass.value * purity * rx.n / (mm.value_g_per_mol * vol.value)
         elif method == "concentrate":
             assert stock is not None
-            reagent = loader.find_reagent(solute.code)
-            mm = formula.molar_mass(reagent.formula)
-            theoretical = (stock.value * reagent.density_g_per_ml * reagent.mass_fraction
-                           * rx.n * 1000 / (mm.value_g_per_mol * vol.value))
+            lot_row = by_code(s, Lot, solute_lot, "lot") if solute_lot is not None else None
+            made = concentrate_normality(
+                solute.code, rx.n, stock.value, vol.value, made_on,
+                lot=ConcentrateLot(lot_row.code, lot_row.material_code, lot_row.purity_text,
+                                   lot_row.density_text, lot_row.expires)
+                if lot_row is not None else None)
+            theoretical = made.normality
+            warnings.extend(made.warnings)
+            handling = made.cautions
+            if lot_row is not None:
+                parents.append(lot_row.expires)
         else:
             assert from_batch is not None and ali is not None
             parent = by_code(s, Batch, from_batch, "batch")
@@ -208,7 +217,8 @@ def make_batch(
         return MadeBatch(
             batch=code, spec=sp.code, method=method, theoretical_normality=theoretical,
             theoretical_factor=nominal_value / view.nominal, unit=view.unit,
-            made_at=when(made_at), expires=when(expires), cautions=tuple(view.cautions),
+            made_at=when(made_at), expires=when(expires),
+            cautions=tuple(dict.fromkeys((*handling, *view.cautions))),
             warnings=tuple(warnings))
 
 

@@ -1,4 +1,10 @@
-"""Primary-standard (and solute) lots with their certificate values."""
+"""Primary-standard, solute and concentrate lots with their certificate values.
+
+A concentrate's lot (hydrochloric acid 37 %, ...) names a reagent of the catalog and
+records its assay (% w/w, kept as the purity) and its density (g/mL) as the
+certificate states them: a batch made from it is computed from those, not from the
+catalog's typical values.
+"""
 
 from __future__ import annotations
 
@@ -29,6 +35,7 @@ class LotInfo:
     dried_on: str | None
     opened_on: str | None
     created_by: str
+    density_g_per_ml: str | None = None  # a concentrate's, from its certificate
 
 
 def lot_info(lot: Lot, today: date | None = None) -> LotInfo:
@@ -37,22 +44,36 @@ def lot_info(lot: Lot, today: date | None = None) -> LotInfo:
                    purity_u_percent=lot.purity_u_text, expires=lot.expires.isoformat(),
                    expired=lot.expires < today, certificate=lot.certificate,
                    dried_on=iso(lot.dried_on), opened_on=iso(lot.opened_on),
-                   created_by=lot.created_by)
+                   created_by=lot.created_by, density_g_per_ml=lot.density_text)
 
 
 @retry.on_conflict
 def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
             purity_u: str | None, expires: str, certificate: str | None,
-            dried: str | None, opened: str | None = None) -> LotInfo:
+            dried: str | None, opened: str | None = None,
+            density: str | None = None) -> LotInfo:
+    """Record a lot. With ``density`` the lot is a concentrate's: ``material`` names a
+    reagent of the catalog and ``purity`` is its assay (% w/w)."""
     from prepbook.catalog import loader
 
-    mat = loader.find_material(material)
     code = parse_code(code, "lot code")
-    purity_r = parse_percent(purity, "purity")
-    if mat.is_primary_standard:  # a certified purity that cannot be right is refused
-        from prepbook.rules.plausibility import primary_purity
+    density_r = None
+    if density is not None:
+        reagent = loader.find_reagent(material)
+        material_code = reagent.code
+        purity_r = parse_percent(purity, "assay (% w/w)")
+        density_r = parse_number(density, "density (g/mL)", positive=True)
+        if not 0.5 <= density_r.value <= 2.5:
+            raise InvalidInput(f"density {density_r.text} g/mL is not a liquid reagent's "
+                               "(expected 0.5 to 2.5 g/mL)")
+    else:
+        mat = loader.find_material(material)
+        material_code = mat.code
+        purity_r = parse_percent(purity, "purity")
+        if mat.is_primary_standard:  # a certified purity that cannot be right is refused
+            from prepbook.rules.plausibility import primary_purity
 
-        primary_purity(purity_r.value, purity_r.text)
+            primary_purity(purity_r.value, purity_r.text)
     purity_u_r = (parse_number(purity_u, "purity uncertainty (%)", non_negative=True)
                   if purity_u is not None else None)
     if purity_u_r is not None and purity_u_r.value >= purity_r.value:
@@ -72,10 +93,11 @@ def add_lot(db: Database, *, actor: str, material: str, code: str, purity: str,
         user = acting(s, actor, doing="add lots")
         if s.scalars(select(Lot).where(Lot.code == code)).first() is not None:
             raise Refused(f"lot {code!r} already exists")
-        lot = Lot(code=code, material_code=mat.code, purity_text=purity_r.text,
+        lot = Lot(code=code, material_code=material_code, purity_text=purity_r.text,
                   purity_u_text=purity_u_r.text if purity_u_r else None, expires=expires_d,
                   certificate=certificate, dried_on=dried_d, opened_on=opened_d,
-                  created_at=utc_now(), created_by=user.name)
+                  created_at=utc_now(), created_by=user.name,
+                  density_text=density_r.text if density_r else None)
         write(s, user.name, "lot.add", lot)
         return lot_info(lot, today)
 

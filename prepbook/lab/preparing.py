@@ -9,11 +9,16 @@ normality``, the command a bench runs most, does not build these types at start-
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from datetime import date
+from typing import TYPE_CHECKING, Any
 
-from prepbook.errors import InvalidInput, NotFound
+from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import parse_number, parse_percent
+
+if TYPE_CHECKING:
+    from prepbook.chem.corrections import Expansion
 
 
 @dataclass(frozen=True)
@@ -82,6 +87,9 @@ class TemperatureResult:
     to_c: float
     normality: float
     ratio: float
+    solvent: str
+    expansion_per_c: float | None  # None: water's density formula
+    expansion_source: str
 
 
 @dataclass(frozen=True)
@@ -122,6 +130,19 @@ def solid(solute: str, *, normality_text: str, volume_text: str,
                        purity_percent=purity * 100, mass_g=mass, cautions=_cautions(mat))
 
 
+def supplied_as_concentrate(solute: str) -> bool:
+    """Whether a titrant's solute is taken as a concentrated liquid (the catalog has a
+    reagent for it: hydrochloric, sulfuric, perchloric acid), so it is measured, not
+    weighed."""
+    from prepbook.catalog import loader
+
+    try:
+        loader.find_reagent(solute)
+    except NotFound:
+        return False
+    return True
+
+
 def liquid(
     reagent: str,
     *,
@@ -150,13 +171,15 @@ def liquid(
     mm = formula.molar_mass(rg.formula)
     if n_text is not None:
         n_eq = parse_number(n_text, "equivalents per mole", positive=True).value
+    elif rg.n_eq_per_mol is not None:
+        n_eq = rg.n_eq_per_mol
     else:
         try:
             n_eq = loader.find_material(rg.formula).reaction().n
         except NotFound:
             raise InvalidInput(
-                f"the catalog has no titration reaction for {rg.name}: give its equivalents "
-                "per mole with --n"
+                f"the catalog gives no equivalents per mole for {rg.name} (they depend on "
+                "the endpoint): give them with --n"
             ) from None
     v_conc = preparation.liquid_volume_ml(
         n_target, volume, mm.value_g_per_mol, n_eq, fraction, density
@@ -167,6 +190,66 @@ def liquid(
                         molarity_mol_per_l=molarity, n_eq_per_mol=n_eq, normality=n_target,
                         final_volume_ml=volume, volume_ml=v_conc, cautions=tuple(rg.cautions),
                         source=rg.source)
+
+
+@dataclass(frozen=True)
+class ConcentrateLot:
+    """A concentrate's lot as recorded: its assay (% w/w) and density (g/mL) as typed
+    from the certificate."""
+
+    code: str
+    reagent: str
+    assay_percent_text: str
+    density_text: str | None
+    expires: date
+
+
+@dataclass(frozen=True)
+class ConcentrateMade:
+    normality: float
+    reagent: str
+    mass_fraction: float
+    density_g_per_ml: float
+    warnings: tuple[str, ...]
+    cautions: tuple[str, ...]  # the concentrate's own (the reagent's, from the catalog)
+
+
+def concentrate_normality(solute: str, n: float, concentrate_ml: float, volume_ml: float,
+                          made_on: date, *, lot: ConcentrateLot | None = None
+                          ) -> ConcentrateMade:
+    """A batch made by diluting ``concentrate_ml`` of the solute's concentrate to
+    ``volume_ml``: its normality from the lot's certified assay and density, or, with no
+    lot named, from the catalog's typical values (said in a warning, since the batch
+    then cannot be traced to an assay)."""
+    from prepbook.catalog import loader
+    from prepbook.chem import formula, preparation
+
+    reagent = loader.find_reagent(solute)
+    warnings: list[str] = []
+    if lot is None:
+        fraction, density = reagent.mass_fraction, reagent.density_g_per_ml
+        warnings.append(
+            f"no concentrate lot named: the catalog's typical {fraction * 100:g} % w/w and "
+            f"{density:g} g/mL for {reagent.name} were used ({reagent.source}); name the "
+            "lot with --solute-lot to compute from its certificate")
+    else:
+        if lot.reagent != reagent.code:
+            raise InvalidInput(f"lot {lot.code} is {lot.reagent}, but this batch is made "
+                               f"from {reagent.code}")
+        if lot.density_text is None:
+            raise InvalidInput(f"lot {lot.code} records no density: it is not a concentrate "
+                               "lot (lot add ... --assay PERCENT --density G/ML)")
+        if lot.expires < made_on:
+            raise Refused(f"lot {lot.code} expired on {lot.expires.isoformat()}")
+        fraction = float(lot.assay_percent_text) / 100
+        density = float(lot.density_text)
+    mm = formula.molar_mass(reagent.formula).value_g_per_mol
+    molarity = preparation.reagent_molarity_mol_per_l(fraction, density, mm)
+    normality = preparation.concentrate_normality(concentrate_ml, volume_ml,
+                                                  molarity_mol_per_l=molarity, n=n)
+    return ConcentrateMade(normality=normality, reagent=reagent.code, mass_fraction=fraction,
+                           density_g_per_ml=density, warnings=tuple(warnings),
+                           cautions=tuple(reagent.cautions))
 
 
 def dilute(*, stock_text: str, normality_text: str, volume_text: str) -> DilutionResult:
@@ -210,18 +293,62 @@ def buoyancy(*, mass_text: str, density_text: str, air_text: str = "0.0012",
                           weights_density_g_per_cm3=weights)
 
 
-def temperature(*, normality_text: str, from_text: str, to_text: str) -> TemperatureResult:
+def spec_expansion(data: Mapping[str, Any]) -> Expansion | None:
+    """How a spec's titrant is carried between temperatures: its solvent's cubic
+    expansion (``expansion_per_c`` and its source), or None for an aqueous titrant
+    (water's density formula). ``data`` is the spec's fields (a stored spec's JSON or a
+    catalog spec's); a built-in spec stored before the coefficient existed takes it from
+    the catalog's spec of the same code, and a non-aqueous spec without one is refused
+    rather than corrected as water."""
+    from prepbook.chem.corrections import Expansion
+
+    solvent = str(data.get("solvent") or "water")
+    if solvent.strip().casefold() == "water":
+        return None
+    gamma, sources = data.get("expansion_per_c"), data.get("sources") or {}
+    if gamma is None and data.get("code"):
+        from prepbook.catalog import loader
+
+        try:
+            spec = loader.find_spec(str(data["code"]))
+        except NotFound:
+            spec = None
+        if spec is not None and spec.solvent == solvent:
+            gamma, sources = spec.expansion_per_c, dict(spec.sources)
+    if not isinstance(gamma, (int, float)) or isinstance(gamma, bool):
+        raise InvalidInput(f"spec {data.get('code')} is in {solvent}, but states no cubic "
+                           "expansion coefficient to carry it between temperatures")
+    source = dict(sources).get("expansion_per_c") or "no source recorded"
+    return Expansion(per_c=float(gamma), solvent=solvent, source=str(source))
+
+
+def temperature(*, normality_text: str, from_text: str, to_text: str,
+                spec: str | None = None) -> TemperatureResult:
+    """Normality at another temperature; with ``spec`` (a catalog spec's code) the
+    titrant is carried with its solvent's expansion, else as a dilute aqueous one."""
+    from dataclasses import asdict
+
     from prepbook.chem import corrections
 
     n1 = parse_number(normality_text, "normality", positive=True).value
     t1 = parse_number(from_text, "temperature from (C)").value
     t2 = parse_number(to_text, "temperature to (C)").value
+    expansion = None
+    if spec is not None:
+        from prepbook.catalog import loader
+
+        expansion = spec_expansion(asdict(loader.find_spec(spec)))
     for t in (t1, t2):
         if not 0 <= t <= 40:
-            raise InvalidInput(f"temperature {t:g} C is outside 0-40 C, where the CIPM water "
-                               "density formula applies")
-    n2 = corrections.normality_at_temperature(n1, t1, t2)
-    return TemperatureResult(normality_from=n1, from_c=t1, to_c=t2, normality=n2, ratio=n2 / n1)
+            where = ("where the CIPM water density formula applies" if expansion is None
+                     else "where a titrant's temperature correction is applied")
+            raise InvalidInput(f"temperature {t:g} C is outside 0-40 C, {where}")
+    n2 = corrections.normality_at_temperature(n1, t1, t2, expansion)
+    return TemperatureResult(
+        normality_from=n1, from_c=t1, to_c=t2, normality=n2, ratio=n2 / n1,
+        solvent=expansion.solvent if expansion else "water",
+        expansion_per_c=expansion.per_c if expansion else None,
+        expansion_source=expansion.source if expansion else corrections.WATER_DENSITY_SOURCE)
 
 
 def titer(*, titrant: str, normality_text: str, analyte: str) -> TiterResult:

@@ -19,6 +19,7 @@ from prepbook.lab import replicate_sources as sources
 from prepbook.lab import specs as spec_view
 from prepbook.lab.calcs import readings_of
 from prepbook.lab.common import setting
+from prepbook.lab.preparing import spec_expansion
 from prepbook.rules import evaluation as ev
 from prepbook.rules import plausibility as plaus
 from prepbook.store.models import Batch, Instrument, Lot
@@ -130,6 +131,7 @@ def standardization(s: Session, c: Conditions, entries: list[ReplicateEntry],
         u_rel_repeatability=None if rsd is None else rsd / 100,
         repeatability_from=rsd_from,
         reaction=c.reaction,
+        expansion=spec_expansion(view.data),
     )
 
 

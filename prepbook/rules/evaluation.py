@@ -118,6 +118,7 @@ class Standardization:
     repeatability_from: RepeatabilitySource = "given"  # where a validated value came from
     reaction: str | None = None  # a named reaction of the standard; None: the pair's
     pipette_tolerance_ml: float | None = None  # secondary: the pipette's; None: the default
+    expansion: corrections.Expansion | None = None  # a non-aqueous titrant's solvent; None: water
 
 
 @dataclass(frozen=True)
@@ -228,7 +229,8 @@ def evaluate(s: Standardization) -> Evaluation:
         ref = s.reference
         assert ref is not None
         titrant_rx = solute.reaction(name=s.titrant_reaction) if solute is not None else None
-        n_ref = corrections.normality_at_temperature(ref.normality_20c, 20.0, s.temperature_c)
+        n_ref = corrections.normality_at_temperature(ref.normality_20c, 20.0, s.temperature_c,
+                                                     s.expansion)
         # the reference's relative uncertainty carries to the run's temperature unchanged
         u_ref = None if ref.u is None else ref.u * n_ref / ref.normality_20c
         pipette = s.pipette_tolerance_ml
@@ -249,7 +251,9 @@ def evaluate(s: Standardization) -> Evaluation:
             notes.append(f"reference {ref.batch} at {ref.normality_20c:.5f} eq/L (20 C), "
                          f"{inherited}, from its run {ref.run}")
     normality_20c = corrections.normality_at_temperature(result.normality, s.temperature_c,
-                                                         20.0)
+                                                         20.0, s.expansion)
+    if s.expansion is not None:
+        notes.append(f"carried to 20 C with {s.expansion.describe()}")
     factor: float | None = None
     checks: tuple[Check, ...] = ()
     if s.judgement is not None:

@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import datetime
 
-from prepbook.rules.life import drift_between
+from prepbook.rules.life import drift_between, drift_beyond
 
 
 @dataclass(frozen=True)
@@ -47,7 +47,7 @@ def uses_needing_review(runs: Sequence[RunPoint], uses: Sequence[UsePoint],
     for prev, cur in zip(accepted, accepted[1:], strict=False):
         assert prev.normality is not None and cur.normality is not None
         drift = drift_between(prev.normality, cur.normality)
-        if abs(drift) <= drift_limit_percent:
+        if not drift_beyond(drift, drift_limit_percent):
             continue
         why = (f"made between {prev.code} and {cur.code}, whose normalities differ by "
                f"{drift:+.2f} % (limit {drift_limit_percent:g} %)")

@@ -93,6 +93,14 @@ def drift_between(previous_n: float, current_n: float) -> float:
     return drift_percent(previous_n, current_n)
 
 
+def drift_beyond(drift_percent: float, limit_percent: float) -> bool:
+    """Whether a drift lies beyond its limit. A drift at the limit is within it, also
+    when the subtraction lands a last binary digit above it (0.1 -> 0.1005 N computes as
+    0.5000000000000004 %)."""
+    size = abs(drift_percent)
+    return size > limit_percent and not math.isclose(size, limit_percent, rel_tol=1e-9)
+
+
 def batch_state(
     *,
     retired: bool,
@@ -201,7 +209,7 @@ def batch_warnings(
         if not drift_limit_percent > 0:
             raise InvalidInput(f"drift limit must be positive, not {drift_limit_percent}")
         d = drift_between(accepted_normalities[-2], accepted_normalities[-1])
-        if abs(d) > drift_limit_percent:
+        if drift_beyond(d, drift_limit_percent):
             out.append(
                 f"drift {d:+.3g} % between the last two accepted standardizations exceeds "
                 f"the {drift_limit_percent:g} % limit"

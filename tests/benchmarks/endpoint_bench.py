@@ -1,7 +1,10 @@
 """Endpoint error on modelled titration curves: the old derivative method against the
-new finder, at three noise levels and two step patterns.
+new finder, at three noise levels and two step patterns, fine and coarse.
 
-Run: python tests/benchmarks/endpoint_bench.py [--seeds N]
+Run: python tests/benchmarks/endpoint_bench.py [--seeds N] [--steps fine|coarse|all]
+
+"fine" is every 0.1 mL and uneven 0.03-0.3 mL; "coarse" every 0.5 mL and uneven
+0.2-0.8 mL (a manual titration logged by hand), both with the finder's default span.
 
 The curves are computed from the equilibrium model with known equivalence volumes
 (tests/chem/model_curves.py): sodium carbonate titrated with HCl (two endpoints),
@@ -27,7 +30,14 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 from prepbook.chem.curves import endpoint  # noqa: E402
 from prepbook.chem.inflections import find_endpoints  # noqa: E402
 from prepbook.errors import InvalidInput  # noqa: E402
-from tests.chem.model_curves import CASES, NOISE_LEVELS, STEP_PATTERNS, Case, curve  # noqa: E402
+from tests.chem.model_curves import (  # noqa: E402
+    CASES,
+    COARSE_PATTERNS,
+    NOISE_LEVELS,
+    STEP_PATTERNS,
+    Case,
+    curve,
+)
 
 
 def _old(case: Case, v: list[float], ph: list[float]) -> list[float | None]:
@@ -59,7 +69,11 @@ def _new(case: Case, v: list[float], ph: list[float]) -> list[float | None]:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--seeds", type=int, default=30)
-    seeds = parser.parse_args().seeds
+    parser.add_argument("--steps", choices=("fine", "coarse", "all"), default="all")
+    args = parser.parse_args()
+    seeds = args.seeds
+    patterns = {"fine": STEP_PATTERNS, "coarse": COARSE_PATTERNS,
+                "all": STEP_PATTERNS + COARSE_PATTERNS}[args.steps]
     print(f"endpoint error, mL (|found - Ve|), {seeds} seeded curves per row")
     header = (f"{'curve':<20} {'steps':<19} {'noise pH':>8} | {'old median':>10} "
               f"{'old worst':>9} {'missed':>6} | {'new median':>10} {'new worst':>9} "
@@ -68,7 +82,7 @@ def main() -> None:
     print("-" * len(header))
     started = time.perf_counter()
     for case in CASES:
-        for pattern in STEP_PATTERNS:
+        for pattern in patterns:
             for noise in NOISE_LEVELS:
                 cells = []
                 for method in (_old, _new):

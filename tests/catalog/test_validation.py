@@ -93,6 +93,12 @@ def test_unaltered_copy_loads(data_dir: Path) -> None:
             "without naming its source",
         ),
         ("specs.toml", 'max_rsd_percent = "European', 'max_rsd_pct = "European', "unknown key"),
+        # issue 17: a non-aqueous titrant states its solvent's expansion, with a source
+        ("specs.toml", "expansion_per_c = 0.0011\n", "", "cubic expansion coefficient"),
+        ("specs.toml", "expansion_per_c = 0.0011", "expansion_per_c = 0.11",
+         "not a liquid's cubic expansion"),
+        ("specs.toml", "expansion_per_c = \"British", "expansion_per_cc = \"British",
+         "no source named for 'expansion_per_c'"),
         (
             "specs.toml",
             'preparation_stock_spec = "H2SO4-0.1N"',

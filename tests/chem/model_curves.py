@@ -45,15 +45,21 @@ STRONG = Case("HCl + NaOH", (-6.0,), 0.10431, 20.0, 0.1, 1, True,
 CASES = (CARBONATE, ACETIC, STRONG)
 
 STEP_PATTERNS = ("even 0.1 mL", "uneven 0.03-0.3 mL")
+# Coarse recording, as a manual titration with a pH meter is often logged.
+COARSE_PATTERNS = ("even 0.5 mL", "uneven 0.2-0.8 mL")
 NOISE_LEVELS = (0.0, 0.005, 0.01)
 
 
 def volumes(case: Case, pattern: str, seed: int) -> np.ndarray:
-    """Recorded volumes: every 0.1 mL, or steps drawn evenly between 0.03 and 0.3 mL."""
-    if pattern == STEP_PATTERNS[0]:
-        return np.round(np.arange(0.0, case.end_ml + 1e-9, 0.1), 10)
-    rng = np.random.default_rng(10_000 + seed)
-    steps = rng.uniform(0.03, 0.3, size=int(case.end_ml / 0.03) + 2)
+    """Recorded volumes: every 0.1 (0.5) mL, or steps drawn evenly between 0.03 and
+    0.3 (0.2 and 0.8) mL."""
+    even = {STEP_PATTERNS[0]: 0.1, COARSE_PATTERNS[0]: 0.5}
+    if pattern in even:
+        return np.round(np.arange(0.0, case.end_ml + 1e-9, even[pattern]), 10)
+    low, high, offset = ((0.03, 0.3, 10_000) if pattern == STEP_PATTERNS[1]
+                         else (0.2, 0.8, 20_000))
+    rng = np.random.default_rng(offset + seed)
+    steps = rng.uniform(low, high, size=int(case.end_ml / low) + 2)
     points = np.concatenate([[0.0], np.cumsum(steps)])
     return np.round(points[points <= case.end_ml], 4)
 

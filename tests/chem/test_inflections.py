@@ -15,7 +15,14 @@ import pytest
 from prepbook.chem.curves import endpoint
 from prepbook.chem.inflections import compare_tolerance_ml, find_endpoints, reading_noise
 from prepbook.errors import InvalidInput
-from tests.chem.model_curves import ACETIC, CARBONATE, CASES, STEP_PATTERNS, STRONG, curve
+from tests.chem.model_curves import (
+    ACETIC,
+    CARBONATE,
+    CASES,
+    STEP_PATTERNS,
+    STRONG,
+    curve,
+)
 
 EVEN, UNEVEN = STEP_PATTERNS
 

@@ -144,3 +144,16 @@ def test_bad_input_is_refused(call) -> None:
     """Owner's rule: non-positive values, fractions over 1 (36 instead of 0.36) refused."""
     with pytest.raises(InvalidInput):
         call()
+
+
+def test_concentrate_normality_openstax_hydrochloric_acid() -> None:
+    """OpenStax Chemistry 2e, Appendix F: HCl 36 %, 1.18 g/mL, 11.6 M. By hand, 85.0 mL of
+    it made up to 1000 mL: 11.6 x 1 x 85.0 / 1000 = 0.986 eq/L (n = 1), with the
+    published molarity; sulfuric acid (18.0 M, n = 2), 27.8 mL to 1000 mL:
+    18.0 x 2 x 27.8 / 1000 = 1.0008 eq/L."""
+    assert prep.concentrate_normality(85.0, 1000.0, molarity_mol_per_l=11.6, n=1) == \
+        pytest.approx(0.986, rel=1e-12)
+    assert prep.concentrate_normality(27.8, 1000.0, molarity_mol_per_l=18.0, n=2) == \
+        pytest.approx(1.0008, rel=1e-12)
+    with pytest.raises(InvalidInput, match="n \\(eq/mol\\)"):
+        prep.concentrate_normality(27.8, 1000.0, molarity_mol_per_l=18.0, n=0)

@@ -41,9 +41,14 @@ def test_mean_of_replicates_and_per_replicate_values() -> None:
     """The result is the mean of each replicate's own normality (definition)."""
     reps = [(0.3888, 18.64), (0.4102, 19.70), (0.3711, 17.75)]
     result = st.direct(KHP, reps)
-    each = [st.direct_normality(m, 1.0, 204.2212, v) for m, v in reps]
-    assert [r.normality for r in result.replicates] == pytest.approx(each)
-    assert result.normality == pytest.approx(statistics.fmean(each))
+    # N = 1000 m / (M V), M = 204.2212 g/mol (CG4 A2), worked by hand:
+    #   388.8 / (204.2212 x 18.64 = 3806.6832) = 0.1021362
+    #   410.2 / (204.2212 x 19.70 = 4023.1576) = 0.1019597
+    #   371.1 / (204.2212 x 17.75 = 3624.9263) = 0.1023745
+    each = [0.1021362, 0.1019597, 0.1023745]
+    assert [r.normality for r in result.replicates] == pytest.approx(each, abs=1e-7)
+    # mean by hand: (0.1021362 + 0.1019597 + 0.1023745) / 3 = 0.3064704 / 3 = 0.1021568
+    assert result.normality == pytest.approx(0.1021568, abs=1e-7)
     assert [r.index for r in result.replicates] == [1, 2, 3]
     assert result.uncertainty is None and result.stats.n == 3
 
@@ -53,9 +58,11 @@ def test_buoyancy_correction_uses_the_standard_density() -> None:
     result = st.direct(KHP, [(0.3888, 18.64)], buoyancy=st.Buoyancy())
     rep = result.replicates[0]
     assert rep.amount == 0.3888
+    # By hand (SOP 2): 0.3888 x (1 - 0.0012/8.0 = 0.99985) / (1 - 0.0012/1.636 = 0.99926650)
+    # = 0.3888 x 1.00058392 = 0.3890270 g; N = 389.0270 / 3806.6832 = 0.1021958 eq/L
+    assert rep.true_mass_g == pytest.approx(0.3890270, abs=1e-7)
     assert rep.true_mass_g == pytest.approx(buoyancy_true_mass(0.3888, 1.636))
-    assert rep.normality == pytest.approx(st.direct_normality(rep.true_mass_g, 1, 204.2212,
-                                                              18.64))
+    assert rep.normality == pytest.approx(0.1021958, abs=1e-7)
 
 
 def test_buoyancy_without_density_is_refused() -> None:

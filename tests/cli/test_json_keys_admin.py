@@ -23,7 +23,7 @@ SPEC = ["code", "name", "solute", "reaction", "nominal", "unit", "standard", "in
         "drift_limit_percent", "restandardize_days", "shelf_life_days", "storage", "hazard",
         "cautions", "builtin"]
 LOT = ["code", "material", "purity_percent", "purity_u_percent", "expires", "expired",
-       "certificate", "dried_on", "opened_on", "created_by"]
+       "certificate", "dried_on", "opened_on", "created_by", "density_g_per_ml"]
 INSTRUMENT = ["code", "kind", "unit", "due", "overdue", "capacity", "tolerance",
               "readability"]
 CALIBRATION = [*INSTRUMENT, "calibrated", "certificate", "previous_due"]

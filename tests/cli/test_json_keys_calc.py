@@ -52,7 +52,8 @@ CALC = {
         ["reading_g", "mass_g", "correction_g", "density_g_per_cm3", "air_density_g_per_cm3",
          "weights_density_g_per_cm3"],
     ("temperature", "--normality", "0.10214", "--from", "25", "--to", "20"):
-        ["normality_from", "from_c", "to_c", "normality", "ratio"],
+        ["normality_from", "from_c", "to_c", "normality", "ratio", "solvent", "expansion_per_c",
+         "expansion_source"],
     ("titer", "--titrant", "NaOH", "--normality", "0.1", "--analyte", "KHP"):
         ["titrant", "normality", "analyte", "analyte_formula", "analyte_n_eq_per_mol",
          "reaction", "mg_per_ml"],

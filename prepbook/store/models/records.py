@@ -89,6 +89,8 @@ class Lot(Base):
     opened_on: Mapped[date | None]
     created_at: Mapped[datetime]
     created_by: Mapped[str]
+    # A concentrate's density (g/mL) from its certificate; its assay (% w/w) is purity_text.
+    density_text: Mapped[str | None] = mapped_column(default=None)
 
 
 class Instrument(Base):

@@ -24,12 +24,14 @@ from prepbook.tui.work_time import WorkTime
 
 if TYPE_CHECKING:
     from prepbook.lab.board import BatchLife
+    from prepbook.lab.lots import LotInfo
     from prepbook.lab.specs import SpecInfo
 
 METHODS = [("weighed solid", "solid"), ("concentrated reagent", "concentrate"),
            ("dilution of a stock batch", "dilution")]
 # field id -> methods it belongs to
-ONLY = {"mass": ("solid",), "lot": ("solid",), "purity": ("solid",), "balance": ("solid",),
+ONLY = {"mass": ("solid",), "lot": ("solid", "concentrate"), "purity": ("solid",),
+        "balance": ("solid",),
         "stock": ("concentrate",), "parent": ("dilution",), "aliquot": ("dilution",)}
 
 
@@ -41,6 +43,7 @@ class PrepareScreen(Screen[None]):
         super().__init__()
         self.specs: dict[str, SpecInfo] = {}
         self.board: list[BatchLife] = []
+        self.lots: dict[str, LotInfo] = {}
         self.made: str | None = None
 
     def compose(self) -> ComposeResult:
@@ -86,9 +89,11 @@ class PrepareScreen(Screen[None]):
         self.board = board.board(db)
         self.query_one("#spec", Select).set_options([(f"{c} · {s.name}", c)
                                                      for c, s in self.specs.items()])
+        self.lots = {lt.code: lt for lt in lots.list_lots(db) if not lt.expired}
         self.query_one("#lot", Select).set_options(
-            [(f"{lt.code} · {lt.material} {lt.purity_percent} %", lt.code)
-             for lt in lots.list_lots(db) if not lt.expired])
+            [(f"{lt.code} · {lt.material} {lt.purity_percent} %"
+              + (f" w/w, {lt.density_g_per_ml} g/mL" if lt.density_g_per_ml else ""), lt.code)
+             for lt in self.lots.values()])
         ins = instruments.list_instruments(db)
         for kind in ("flask", "balance"):
             self.query_one(f"#{kind}", Select).set_options(
@@ -108,7 +113,11 @@ class PrepareScreen(Screen[None]):
     # -- events -------------------------------------------------------------------------
     def on_select_changed(self, event: Select.Changed) -> None:
         if event.select.id == "spec" and isinstance(event.value, str):
+            from prepbook.lab import preparing
+
             spec = self.specs[event.value]
+            if preparing.supplied_as_concentrate(spec.solute):
+                self.query_one("#method", Select).value = "concentrate"
             self.query_one("#target", Input).value = (
                 f"{spec.nominal:g}" if spec.unit == "N" else "")
             parents = [it for it in self.board if it.state in ("in-service", "due")
@@ -134,6 +143,7 @@ class PrepareScreen(Screen[None]):
 
     # -- calculators ----------------------------------------------------------------------
     def calculate(self) -> None:
+        from prepbook.catalog import loader
         from prepbook.lab import preparing
 
         if self.made:
@@ -162,7 +172,10 @@ class PrepareScreen(Screen[None]):
         else:
             found: tuple[str, ...] = ()  # the calculator's cautions for what it names
             try:
-                if method == "solid":
+                if method == "solid" and preparing.supplied_as_concentrate(spec.solute):
+                    out.append(f"  {spec.solute} is supplied as a concentrated liquid, not "
+                               "weighed: choose made from concentrated reagent\n")
+                elif method == "solid":
                     solid = preparing.solid(spec.solute, normality_text=target,
                                         volume_text=volume,
                                         purity_text=self.value("purity") or "100")
@@ -173,14 +186,26 @@ class PrepareScreen(Screen[None]):
                                f"{solid.purity_percent:g} %) for {target} N in {volume} mL\n")
                     found = solid.cautions
                 elif method == "concentrate":
-                    liquid = preparing.liquid(spec.solute, normality_text=target,
-                                          volume_text=volume)
-                    out.append(f"  measure {words.sig(liquid.volume_ml, 4)} mL of {liquid.name} "
-                               f"({liquid.mass_fraction_percent:g} % m/m, "
+                    lot = self.lots.get(self.value("lot") or "")
+                    certified = lot is not None and lot.density_g_per_ml is not None
+                    liquid = preparing.liquid(
+                        spec.solute, normality_text=target, volume_text=volume,
+                        fraction_text=lot.purity_percent if lot and certified else None,
+                        density_text=lot.density_g_per_ml if lot and certified else None)
+                    out.append(f"  measure {words.sig(liquid.volume_ml, 4)} mL of the "
+                               f"concentrate ({liquid.name}, "
+                               f"{liquid.mass_fraction_percent:g} % w/w, "
                                f"{liquid.density_g_per_ml:g} g/mL, about "
                                f"{words.sig(liquid.molarity_mol_per_l, 3)} mol/L) and make up "
                                f"to {volume} mL\n")
-                    out.append(f"  reagent data: {liquid.source}\n", style="dim")
+                    where = (f"lot {lot.code}'s certificate" if lot and certified
+                             else f"typical values, {liquid.source}; choose the lot to use "
+                             "its certificate")
+                    out.append(f"  assay and density: {where}\n", style="dim")
+                    concentrate = loader.find_reagent(liquid.reagent).hazard
+                    if concentrate.classified:
+                        out.append(f"  the concentrate itself: {concentrate.signal_word or ''} "
+                                   f"{' '.join(concentrate.statements)}\n", style=err)
                     found = liquid.cautions
                 else:
                     parent = self.value("parent")
@@ -228,7 +253,7 @@ class PrepareScreen(Screen[None]):
             kw |= {"solute_mass": self.value("mass") or "", "solute_lot": self.value("lot"),
                    "balance": self.value("balance")}
         elif method == "concentrate":
-            kw["stock_volume"] = self.value("stock") or ""
+            kw |= {"stock_volume": self.value("stock") or "", "solute_lot": self.value("lot")}
         else:
             kw |= {"from_batch": self.value("parent") or "", "aliquot": self.value("aliquot")
                    or ""}
