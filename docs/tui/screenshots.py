@@ -14,7 +14,7 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 SIZE = (132, 42)
-BATCH = "NaOH-0.1N-260912-1"  # the demo's sodium hydroxide, due, with months of history
+SPEC = "NaOH-0.1N"  # the demo's oldest sodium hydroxide batch in use: months of history
 READINGS = [("0.8215", "40.41"), ("0.8302", "40.83"), ("0.8177", "40.22")]
 
 
@@ -31,13 +31,24 @@ def signed_in(db_path: Path, name: str):  # type: ignore[no-untyped-def]
     return PrepbookApp(db, user=name, session=opened, poll_seconds=0)
 
 
+def oldest_batch(db_path: Path) -> str:
+    """The oldest batch of SPEC on the board (the demo's codes carry its build date)."""
+    from prepbook.lab import board
+    from prepbook.store.engine import open_database
+
+    rows = board.board(open_database(str(db_path)))
+    return min((r.batch for r in rows if r.batch.startswith(SPEC + "-")),
+               key=lambda code: code.split("-")[-2])
+
+
 async def shoot(db_path: Path) -> None:
+    batch = oldest_batch(db_path)
     app = signed_in(db_path, "ines")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.pause()
         app.save_screenshot("board.svg", str(HERE))
         table = app.screen.query_one("#board")
-        table.move_cursor(row=table.get_row_index(BATCH))
+        table.move_cursor(row=table.get_row_index(batch))
         await pilot.press("enter")
         await pilot.pause(0.3)
         app.save_screenshot("batch.svg", str(HERE))

@@ -57,6 +57,11 @@ _PURPOSES = ("alkalinity", "acidity", "chloride", "hardness", "dissolved oxygen"
              "oxidizability", "free chlorine", "assay", "sulfite", "ammonium")
 
 
+def _titrant_ml(reps: list[str]) -> float:
+    """The titrant the replicates ("AMOUNT:VOLUME") draw from the batch, mL."""
+    return sum(float(r.split(":")[1]) for r in reps)
+
+
 def _passphrase(name: str) -> str:
     return f"synthetic-{'-'.join(name)}"  # never containing the name (the policy)
 
@@ -261,24 +266,27 @@ class _History:
             temp = f"{self.rng.uniform(19.5, 23.5):.1f}"
             if kind.standard is not None:
                 lot = f"SY-{kind.standard}-{self.period_year}"
-                purity = self.purity[lot]
+                reps = self.direct_reps(bottle, at, self.purity[lot], spoil)
+                if _titrant_ml(reps) > bottle.left_ml - 5:
+                    return  # too little left: the bottle is replaced on a later day
                 out = runs.standardize(
                     self.db, actor=analyst, batch=bottle.code, lot=lot, balance=balance,
-                    burette=burette, temperature=temp, blank=kind.blank,
-                    replicates=self.direct_reps(bottle, at, purity, spoil),
+                    burette=burette, temperature=temp, blank=kind.blank, replicates=reps,
                     at=at.isoformat(timespec="minutes"), late_reason=HISTORY)
             else:
                 ref = self.in_service_bottle(kind.against or "", at)
                 if ref is None:
                     return
+                reps = self.secondary_reps(bottle, ref, at, spoil)
+                if _titrant_ml(reps) > bottle.left_ml - 5 or ref.left_ml < 80:
+                    return
                 out = runs.standardize(
                     self.db, actor=analyst, batch=bottle.code, against=ref.code,
-                    burette=burette, temperature=temp,
-                    replicates=self.secondary_reps(bottle, ref, at, spoil),
+                    burette=burette, temperature=temp, replicates=reps,
                     at=at.isoformat(timespec="minutes"), late_reason=HISTORY)
-                ref.left_ml -= 75
+                ref.left_ml -= 75  # the three 25 mL aliquots of the reference
             self.counts["runs"] += 1
-            bottle.left_ml -= 3 * 40
+            bottle.left_ml -= _titrant_ml(reps)
             reviewer = self.rng.choice(_REVIEWERS)
             accept = out.verdict == "pass"
             reason = None if accept else "; ".join(
@@ -301,8 +309,10 @@ class _History:
         self.counts["retired"] += 1
 
     def use(self, bottle: _Bottle, when: datetime) -> None:
-        self.sample_no += 1
         ml = self.rng.uniform(5, 30)
+        if ml > bottle.left_ml - 5:
+            return  # the bottle is nearly empty: it is replaced on the next day
+        self.sample_no += 1
         batches.use_batch(self.db, actor=self.rng.choice(_TECHNICIANS), code=bottle.code,
                           volume=f"{ml:.1f}",
                           purpose=f"{self.rng.choice(_PURPOSES)}, sample "

@@ -15,8 +15,9 @@ from tests.conftest import Cli
 @pytest.fixture(scope="module")
 def history(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, dict[str, int]]:
     path = tmp_path_factory.mktemp("history") / "history.db"
-    # A quarter of a year of a lab a third the default size: a few seconds.
-    return path, synthetic.build(path, years=0.25, scale=0.3)
+    # A year of a lab a third the default size (about 25 s): long enough for bottles to
+    # run low and be replaced, which the volume each use and run draws must allow for.
+    return path, synthetic.build(path, years=1.0, scale=0.3)
 
 
 def _count(path: Path, sql: str) -> int:
