@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+import re
 from collections import defaultdict
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, fields, replace
 from pathlib import Path
 from typing import Any
 
@@ -95,12 +96,17 @@ _CHUNK = 500  # ids asked for by list, far below any backend's limit on bound pa
 
 
 def _codes(session: Session, events: Sequence[audit.LogEntry]) -> dict[tuple[str, int], str]:
-    """(table, id) -> code of every record the events name: one query per table named,
-    whatever the number of events (by their ids when they are few, else the table's
-    every row)."""
+    """(table, id) -> code of every record the events name."""
     wanted: dict[str, set[int]] = defaultdict(set)
     for e in events:
         wanted[e.record_type].add(e.record_id)
+    return _codes_of(session, wanted)
+
+
+def _codes_of(session: Session, wanted: dict[str, set[int]]) -> dict[tuple[str, int], str]:
+    """(table, id) -> code of the ``wanted`` rows that exist: one query per table named,
+    whatever the number of rows (by their ids when they are few, else the table's every
+    row)."""
     named: dict[tuple[str, int], str] = {}
     for table, ids in wanted.items():
         if table not in _NAMED:
@@ -115,6 +121,29 @@ def _codes(session: Session, events: Sequence[audit.LogEntry]) -> dict[tuple[str
 
 
 _LOG_FIELDS = tuple(f.name for f in fields(audit.LogEntry))
+
+
+# "replicates #17" in a problem of verify, not already followed by its own key ("(code ...")
+_ROW_IN_TEXT = re.compile(r"\b([a-z_]+) #(\d+)\b(?! \()")
+
+
+def _problems_by_code(session: Session, problems: tuple[str, ...]) -> tuple[str, ...]:
+    """Verify's problems with each record they name shown by its code as well, the row
+    id beside it ("R261203-2/2 (replicates #17)"), where the row is still there."""
+    wanted: dict[str, set[int]] = defaultdict(set)
+    for problem in problems:
+        for table, rid in _ROW_IN_TEXT.findall(problem):
+            if table in _NAMED:
+                wanted[table].add(int(rid))
+    if not wanted:
+        return problems
+    codes = _codes_of(session, wanted)
+
+    def shown(match: re.Match[str]) -> str:
+        code = codes.get((match[1], int(match[2])))
+        return f"{code} ({match[0]})" if code else match[0]
+
+    return tuple(_ROW_IN_TEXT.sub(shown, problem) for problem in problems)
 
 
 def named(session: Session, events: Sequence[audit.LogEntry]) -> list[AuditEntry]:
@@ -198,8 +227,13 @@ def verify_against(db: Database, *, codes: Sequence[str] = (), witness: str | No
     ring = Path(keyring).expanduser() if keyring else rekey_check.keyring_folder()
     try:
         with db.session(write=False) as s:
-            return audit.verify(s, codes=codes, witness=folder, thorough=thorough,
-                                witness_db=url, keyring=ring, advance=advance)
+            report = audit.verify(s, codes=codes, witness=folder, thorough=thorough,
+                                  witness_db=url, keyring=ring, advance=advance)
+            try:
+                problems = _problems_by_code(s, report.problems)
+            except DBAPIError:  # a table verify found damaged: the problems as they are
+                return report
+            return replace(report, problems=problems)
     except DBAPIError as exc:  # pages that cannot be read: one line, never a traceback
         raise IntegrityError(f"the database cannot be read to the end ({exc.orig}): restore "
                              "it from a backup; `prepbook audit verify --thorough` on a "
