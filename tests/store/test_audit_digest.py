@@ -257,6 +257,30 @@ def test_an_upgraded_old_lab_verifies_and_still_finds_a_result_edit(tmp_path: Pa
     ]
 
 
+def test_a_column_added_since_an_event_matches_while_empty_and_is_named_once_set(
+        tmp_path: Path) -> None:
+    # The old lab's lots were audited before lots had a density column (revision
+    # c4d8e1f2a735): empty, the column matches; a value slipped in is named.
+    path = tmp_path / "lab.db"
+    shutil.copyfile(OLD_LAB, path)
+    cli = Cli(path)
+    cli.ok("init", user="ada")
+    assert cli.json("audit", "verify")["ok"] is True
+    con = sqlite3.connect(path)
+    try:
+        lot_id, code = con.execute("SELECT id, code FROM lots ORDER BY id LIMIT 1").fetchone()
+    finally:
+        con.close()
+    drop_guards(path, ["lots"])
+    raw_sql(path, "UPDATE lots SET density_text = '1.18' WHERE id = ?", lot_id)
+    result = cli("audit", "verify", "--json")
+    assert result.exit_code == 1
+    assert json.loads(result.stdout)["problems"] == [
+        *missing_guards(path, "lots"),
+        f"lots #{lot_id} (code {code}) differs from its last audited state in: density_text",
+    ]
+
+
 # --- through the command line -----------------------------------------------------------------
 
 

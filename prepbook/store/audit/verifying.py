@@ -381,16 +381,21 @@ def _compare_again(table: Table, current: dict[str, Any], text: str, event_value
 
     An event written before a column was digested holds that column's full text; in
     today's form (``legacy_to_digest``) its canonical text is exactly the row's when
-    nothing else changed.
+    nothing else changed. An event written before a column was added (a later
+    migration) does not name it: the row matches while that column is still empty
+    (NULL), and a value put there since is named.
     """
     audited = legacy_to_digest(table, _decoded(event_values))
     if audited and canonical_json(audited) == text:
         return
     differ = sorted(
         column for column in current.keys() | audited.keys()
-        if column not in current or column not in audited
-        or canonical_json(current[column]) != canonical_json(audited[column])
+        if not (column not in audited and current[column] is None)
+        and (column not in current or column not in audited
+             or canonical_json(current[column]) != canonical_json(audited[column]))
     )
+    if audited and not differ:
+        return
     problems.add("differs", f"{label(table.name, current['id'], current)} differs from its "
                  f"last audited state in: {', '.join(differ)}")
 
