@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -16,8 +17,10 @@ if TYPE_CHECKING:
 
 
 def export_table(db: Database, *, kind: str, fmt: str, output: str, since: str | None = None,
-                 replace: bool = False) -> Exported:
-    """Write one export to ``output`` whole (never over a file unless ``replace``)."""
+                 replace: bool = False,
+                 advance: Callable[[int], None] | None = None) -> Exported:
+    """Write one export to ``output`` whole (never over a file unless ``replace``);
+    ``advance(1)`` once the table is read and once it is written."""
     from prepbook.lab import exports
     from prepbook.render import exports as writing
     from prepbook.render import files
@@ -26,9 +29,12 @@ def export_table(db: Database, *, kind: str, fmt: str, output: str, since: str |
     target = Path(output)
     writing.check_format(target, fmt)
     files.check_target(target, replace=replace)  # before reading: a refusal reads nothing
+    step = advance or (lambda _n: None)
     tab = exports.table(db, kind, since=since)
+    step(1)
     neutralised = sum(1 for row in tab.rows for v in row if writing.neutralise(v) is not v)
     path = writing.write_table(target, fmt, kind, tab.columns, tab.rows, replace=replace)
+    step(1)
     return exports.Exported(export=kind, format=fmt, file=str(path), rows=len(tab.rows),
                             columns=tab.columns, neutralised_cells=neutralised, since=since)
 
@@ -46,8 +52,10 @@ def export(
     as_json: bool = typer.Option(False, "--json", help="Print JSON."),
 ) -> None:
     """Export one table (units in the column names, ISO 8601 dates, formulas made inert)."""
-    res = export_table(database(ctx), kind=kind, fmt=fmt, output=out_file, since=since,
-                       replace=replace)
+    with output.progress(f"exporting {kind} (read, then write)", 2,
+                         silent=as_json or output.quiet(ctx)) as step:
+        res = export_table(database(ctx), kind=kind, fmt=fmt, output=out_file, since=since,
+                           replace=replace, advance=step)
     if as_json:
         output.emit_json(res)
         return

@@ -24,8 +24,13 @@ def report(
     paper = paper.lower()
     target = drawn.checked_target(out_file, paper=paper, replace=replace)
     db = database(ctx)
-    res = drawn.write_report(reports.gather(db, code), target, paper=paper,
-                             replace=replace, clk=settings.lab_clock(db))
+    with output.progress(f"report for {code} (gather, then draw)", 2,
+                         silent=as_json or output.quiet(ctx)) as step:
+        gathered = reports.gather(db, code)
+        step(1)
+        res = drawn.write_report(gathered, target, paper=paper, replace=replace,
+                                 clk=settings.lab_clock(db))
+        step(1)
     if as_json:
         output.emit_json(res)
         return

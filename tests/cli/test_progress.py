@@ -1,5 +1,6 @@
-"""Long commands (the demo build, `audit verify`) show a progress bar on stderr when it
-is a terminal; nothing with --json or -q, and stdout stays the command's own."""
+"""Long commands (the demo build, `audit verify`, exports, reports) show a progress bar
+on stderr when it is a terminal; nothing with --json or -q, and stdout stays the
+command's own."""
 
 from __future__ import annotations
 
@@ -63,3 +64,22 @@ def test_no_progress_when_stderr_is_not_a_terminal(tmp_path: Path) -> None:
     result = CliRunner().invoke(app, ["demo", "--db", str(tmp_path / "demo.db")])
     assert result.exit_code == 0 and result.stderr == ""
     assert "demo lab built" in result.stdout
+
+
+def test_export_and_report_show_their_steps_on_a_terminal(tmp_path: Path,
+                                                          terminal: None) -> None:
+    path = tmp_path / "demo.db"
+    assert _demo(path)[0] == 0
+    batch = json.loads(CliRunner().invoke(app, ["--db", str(path), "status", "--json"])
+                       .stdout)[0]["batch"]
+    for args, said in (
+            (["export", "runs", "--format", "xlsx", "-o", str(tmp_path / "runs.xlsx")],
+             "exporting runs"),
+            (["report", batch, "-o", str(tmp_path / "r.pdf")], f"report for {batch}")):
+        result = CliRunner().invoke(app, ["--db", str(path), *args])
+        assert result.exit_code == 0, result.stderr
+        assert said in result.stderr and "2/2" in result.stderr, result.stderr
+        assert said not in result.stdout
+        quiet = CliRunner().invoke(app, ["--db", str(path), *args, "--replace", "--json"])
+        assert quiet.exit_code == 0 and quiet.stderr == "", quiet.stderr
+        json.loads(quiet.stdout)
