@@ -70,9 +70,10 @@ def list_(ctx: typer.Context,
     if as_json:
         output.emit_json(rows)
         return
-    output.console().print(output.table(
-        "Lots", ["code", "material", "purity %", "u %", "density g/mL", "expires", "dried",
-                 "certificate"],
+    output.show(output.console(), output.table(
+        "Lots (density g/mL of a concentrate)",
+        ["code", "material", "purity %", "u %", "density", "expires", "dried", "certificate"],
         [(r.code, r.material, r.purity_percent, r.purity_u_percent, r.density_g_per_ml,
           r.expires + (" (expired)" if r.expired else ""), r.dried_on,
-          r.certificate) for r in rows]))
+          r.certificate) for r in rows],
+        right=(2, 3, 4), no_wrap=(0, 2, 3, 4, 5, 6)))

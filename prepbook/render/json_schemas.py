@@ -25,7 +25,7 @@ import importlib
 import sys
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, TypedDict
+from typing import Any, TypedDict, cast
 
 from prepbook import __version__
 
@@ -108,9 +108,10 @@ DOCUMENTS: dict[str, tuple[str, ...]] = {
     "batch use": (L + "batches:UseRecorded",),
     "batch retire": (L + "history:Retirement",),
     # The audit trail's own types, as the service returns them (render reads no storage).
-    "audit log": ("list:" + L + "auditing:audit.LogEntry",),
+    "audit log": ("list:" + L + "auditing:AuditEntry",),
     "audit verify": (L + "auditing:audit.VerifyReport",),
     "audit checkpoint": (L + "auditing:CheckpointMade",),
+    "audit rotate-key": ("list:" + L + "auditing:KeyChanged",),
     "settings": ("list:" + L + "settings:SettingValue",),
     "settings show": ("list:" + L + "settings:SettingValue",),
     "config show": (__name__ + ":ConfigShown",),
@@ -239,9 +240,11 @@ def schema(command: str) -> dict[str, Any]:
     _apply(components)
     body: dict[str, Any] = roots[0] if len(roots) == 1 else {"anyOf": roots}
     slug = command.replace(" ", "-")
-    return {"$schema": DRAFT, "$id": f"urn:prepbook:{VERSION}:json:{slug}",
-            "title": f"prepbook {command} --json", "version": VERSION, **body,
-            "$defs": dict(sorted(components.items()))}
+    made_schema = {"$schema": DRAFT, "$id": f"urn:prepbook:{VERSION}:json:{slug}",
+                   "title": f"prepbook {command} --json", "version": VERSION, **body,
+                   "$defs": dict(sorted(components.items()))}
+    # As JSON has it (a field's default of () is the list []), the same as the file.
+    return cast(dict[str, Any], msgspec.json.decode(msgspec.json.encode(made_schema)))
 
 
 def file_name(command: str) -> str:
