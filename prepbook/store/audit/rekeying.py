@@ -17,6 +17,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 from sqlalchemy import Connection, select
 
@@ -60,15 +61,24 @@ def statement(change: Rekeying) -> bytes:
     return f"prepbook key change v1\n{body}".encode()
 
 
+TABLE = _TABLE
+# The columns a change is read from, in the order ``of_row`` takes them.
+COLUMNS = tuple(_TABLE.c[name] for name in (
+    "lab_id", "kind", "after_seq", "after_hash", "old_key", "new_key", "made_at", "made_by",
+    "old_proof", "new_proof"))
+
+
+def of_row(values: Sequence[Any]) -> Rekeying:
+    """A change from the values of ``COLUMNS``."""
+    lab_id, kind, after_seq, after_hash, old_key, new_key, made_at, made_by, old_proof, \
+        new_proof = values
+    return Rekeying(lab_id, kind, int(after_seq), after_hash, old_key, new_key,
+                    iso(made_at) or "", made_by, old_proof, new_proof)
+
+
 def recorded(conn: Connection) -> tuple[Rekeying, ...]:
     """Every recorded change, in the order made."""
-    c = _TABLE.c
-    rows = conn.execute(select(c.lab_id, c.kind, c.after_seq, c.after_hash, c.old_key,
-                               c.new_key, c.made_at, c.made_by, c.old_proof, c.new_proof)
-                        .order_by(c.id))
-    return tuple(Rekeying(r.lab_id, r.kind, int(r.after_seq), r.after_hash, r.old_key,
-                          r.new_key, iso(r.made_at) or "", r.made_by, r.old_proof,
-                          r.new_proof) for r in rows)
+    return tuple(of_row(tuple(r)) for r in conn.execute(select(*COLUMNS).order_by(_TABLE.c.id)))
 
 
 def current(first: str | None, changes: Sequence[Rekeying], kind: str) -> str | None:
