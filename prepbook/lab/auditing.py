@@ -128,8 +128,9 @@ _ROW_IN_TEXT = re.compile(r"\b([a-z_]+) #(\d+)\b(?! \()")
 
 
 def _problems_by_code(session: Session, problems: tuple[str, ...]) -> tuple[str, ...]:
-    """Verify's problems with each record they name shown by its code as well, the row
-    id beside it ("R261203-2/2 (replicates #17)"), where the row is still there."""
+    """Verify's problems with each record they name shown by its code as well, beside
+    the row id ("replicates #17 (R261203-2/2)", as "batches #3 (code B-1)"), where the
+    row is still there."""
     wanted: dict[str, set[int]] = defaultdict(set)
     for problem in problems:
         for table, rid in _ROW_IN_TEXT.findall(problem):
@@ -141,7 +142,7 @@ def _problems_by_code(session: Session, problems: tuple[str, ...]) -> tuple[str,
 
     def shown(match: re.Match[str]) -> str:
         code = codes.get((match[1], int(match[2])))
-        return f"{code} ({match[0]})" if code else match[0]
+        return f"{match[0]} ({code})" if code else match[0]
 
     return tuple(_ROW_IN_TEXT.sub(shown, problem) for problem in problems)
 

@@ -1,5 +1,5 @@
-"""`audit verify` names each record it finds wrong by its code, with the row id beside
-it, as the audit log does: a replicate by its run and position, a review by its run."""
+"""`audit verify` names each record it finds wrong by its code beside the row id, as
+the audit log does: a replicate by its run and position, a review by its run."""
 
 from __future__ import annotations
 
@@ -19,7 +19,7 @@ def test_verify_names_a_tampered_replicate_and_review_by_their_run(bench: Cli) -
     report = json.loads(bench("audit", "verify", "--json").stdout)
     assert report["ok"] is False
     problems = "\n".join(report["problems"])
-    assert f"{run}/2 (replicates #2)" in problems, problems
-    assert f"{run} (reviews #1)" in problems, problems
+    assert f"replicates #2 ({run}/2)" in problems, problems
+    assert f"reviews #1 ({run})" in problems, problems
     text = bench("audit", "verify").stdout
-    assert f"{run}/2 (replicates #2)" in text
+    assert f"replicates #2 ({run}/2)" in text
