@@ -156,7 +156,7 @@ def build(path: Path, *, replace: bool = False,
     weighed, weighed_run = demo_readings.weighed_batch(
         db, actor=admin["name"], analyst="ines", lot="FH-KHP-2291", balance="BAL-A2",
         burette="BUR-50-07", made_at=_moment(today, -3, "08:40"),
-        titrated_at=_moment(today, -2, "10:15"))
+        titrated_at=_moment(today, -2, "10:15"), late_reason=INVENTED)
     codes["naoh_weighed"] = weighed
     run_count += 1
     advance(1)

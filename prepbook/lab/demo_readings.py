@@ -46,9 +46,12 @@ def khp_curve(mass_g: float, purity: float, normality: float, *, seed: int) -> b
 
 
 def weighed_batch(db: Database, *, actor: str, analyst: str, lot: str, balance: str,
-                  burette: str, made_at: datetime, titrated_at: datetime) -> tuple[str, str]:
+                  burette: str, made_at: datetime, titrated_at: datetime,
+                  late_reason: str) -> tuple[str, str]:
     """Make a sodium hydroxide batch and standardize it with masses read from the
-    simulated balance and volumes from stored curves; (batch code, run code)."""
+    simulated balance and volumes from stored curves; (batch code, run code). The
+    demo enters invented history at once: ``late_reason`` says so for any entry more
+    than the lab's late-entry hours after its time."""
     from prepbook.devices.profiles import find_profile
     from prepbook.devices.simulator import SimulatedBalance, SocketServer
     from prepbook.lab import balances, batches, runs
@@ -63,7 +66,8 @@ def weighed_batch(db: Database, *, actor: str, analyst: str, lot: str, balance: 
                                   notes="Weighed on the balance's serial line (simulated); "
                                   "endpoints from the meter's curves.",
                                   at=made_at.isoformat(timespec="minutes"),
-                                  from_batch=None, aliquot=None, stock_volume=None)
+                                  from_batch=None, aliquot=None, stock_volume=None,
+                                  late_reason=late_reason)
         with tempfile.TemporaryDirectory() as folder:
             reps = []
             for i, mass in enumerate(masses, start=1):
@@ -74,7 +78,8 @@ def weighed_batch(db: Database, *, actor: str, analyst: str, lot: str, balance: 
             out = runs.standardize(db, actor=analyst, batch=made.batch, replicates=reps,
                                    lot=lot, balance=balance, burette=burette,
                                    temperature="20.5",
-                                   at=titrated_at.isoformat(timespec="minutes"))
+                                   at=titrated_at.isoformat(timespec="minutes"),
+                                   late_reason=late_reason)
     finally:
         server.stop()
     balances.connect(db, actor=actor, code=balance, port=f"socket://127.0.0.1:{TRY_PORT}",
