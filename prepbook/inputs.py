@@ -17,7 +17,6 @@ from datetime import UTC, date, datetime, time, tzinfo
 from decimal import Decimal, InvalidOperation
 from typing import TYPE_CHECKING
 
-from prepbook.clock import in_range, to_utc
 from prepbook.errors import InvalidInput
 
 if TYPE_CHECKING:
@@ -168,6 +167,8 @@ def parse_replicates(texts: list[str], *, amount_name: str = "mass (g)") -> list
 
 def parse_date(text: str, what: str) -> date:
     """An ISO 8601 calendar date (2026-03-31), within the dates the record accepts."""
+    from prepbook.clock import in_range  # the clock loads zoneinfo; only dates need it
+
     raw = text.strip()
     try:
         day = date.fromisoformat(raw) if len(raw) == 10 else None
@@ -185,6 +186,8 @@ def parse_datetime(text: str, what: str, zone: tzinfo = UTC) -> datetime:
     Returned as a naive UTC datetime, the form the record stores. A time that does not
     exist in ``zone`` or occurs twice there (a daylight-saving change) is refused.
     """
+    from prepbook.clock import to_utc  # the clock loads zoneinfo; only dates need it
+
     raw = text.strip()
     try:
         if len(raw) == 10:
