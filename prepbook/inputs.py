@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 import re
 import sys
-import unicodedata
 from dataclasses import dataclass
 from datetime import UTC, date, datetime, time, tzinfo
 from decimal import Decimal, InvalidOperation
@@ -54,6 +53,8 @@ def _foreign_character(raw: str) -> str | None:
     """The first non-ASCII character of ``raw``, named (e.g. a digit of another script)."""
     for ch in raw:
         if not ch.isascii():
+            import unicodedata  # only on the failure path
+
             name = unicodedata.name(ch, "unnamed character")
             return f"'{ch}' (U+{ord(ch):04X} {name})"
     return None
