@@ -10,8 +10,8 @@ import pytest
 
 import prepbook.catalog.loader as loader
 from prepbook.catalog import CatalogDataError, find_material, load_catalog
-from prepbook.catalog.samples import analyte_titration, analytes, find_analyte, load_samples
 from prepbook.catalog.sample_models import method_for
+from prepbook.catalog.samples import analyte_titration, analytes, find_analyte, load_samples
 from prepbook.errors import NotFound
 from tests.catalog.test_reactions import _coefficient, _parse, total
 

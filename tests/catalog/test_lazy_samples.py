@@ -11,7 +11,8 @@ import sys
 
 def _loaded_after(code: str) -> list[str]:
     watched = ["prepbook.catalog.sample_models", "prepbook.catalog.samples"]
-    script = f"import json, sys\n{code}\nprint(json.dumps([m for m in {watched!r} if m in sys.modules]))"
+    script = (f"import json, sys\n{code}\n"
+              f"print(json.dumps([m for m in {watched!r} if m in sys.modules]))")
     out = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
                          check=True).stdout
     return json.loads(out.strip().splitlines()[-1])
