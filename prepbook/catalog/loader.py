@@ -35,6 +35,7 @@ from prepbook.catalog.models import (
     Reagent,
     SpecDefaults,
     reaction_for_pair,
+    refuse_if_any,
 )
 from prepbook.catalog.parsed_copy import PARSED_COPY, data_directory, parse_files, read_files
 
@@ -77,10 +78,7 @@ def load_catalog(directory: Path | None = None) -> Catalog:
     catalog, problems = build_catalog(read_files(directory))
     if not problems:
         problems = check_catalog(catalog)
-    if problems:
-        raise CatalogDataError(
-            f"the catalog data has {len(problems)} problem(s):\n  " + "\n  ".join(problems)
-        )
+    refuse_if_any(problems)
     return catalog
 
 

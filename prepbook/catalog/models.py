@@ -33,6 +33,15 @@ class CatalogDataError(PrepbookError, ValueError):
     """The catalog's data files are inconsistent (a packaging defect or a bad local edit)."""
 
 
+def refuse_if_any(problems: Iterable[str]) -> None:
+    """Raise CatalogDataError listing every problem, when there is any."""
+    found = list(problems)
+    if found:
+        raise CatalogDataError(
+            f"the catalog data has {len(found)} problem(s):\n  " + "\n  ".join(found)
+        )
+
+
 # --------------------------------------------------------------------------- values
 
 

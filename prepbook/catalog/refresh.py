@@ -31,7 +31,7 @@ import sys
 from pathlib import Path
 
 from prepbook.catalog.build import build_catalog
-from prepbook.catalog.models import CatalogDataError
+from prepbook.catalog.models import refuse_if_any
 from prepbook.catalog.parsed_copy import (
     FILES,
     PARSED_COPY,
@@ -60,9 +60,7 @@ def catalog_formulas() -> tuple[str, ...]:
     files = read_files()  # not validated: validation reads the table
     cat, problems = build_catalog(files)
     built, sample_problems = build_samples(files)
-    problems += sample_problems
-    if problems:
-        raise CatalogDataError("the catalog data has problems:\n  " + "\n  ".join(problems))
+    refuse_if_any([*problems, *sample_problems])
     return tuple(dict.fromkeys([*(m.formula for m in cat.materials),
                                 *(g.formula for g in cat.reagents),
                                 *(a.formula for a in built.analytes)]))

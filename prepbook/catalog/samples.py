@@ -17,7 +17,7 @@ from typing import Any
 
 from prepbook.catalog.checks import check_samples
 from prepbook.catalog.loader import catalog, load_catalog
-from prepbook.catalog.models import Catalog, CatalogDataError
+from prepbook.catalog.models import Catalog, refuse_if_any
 from prepbook.catalog.parsed_copy import read_files
 from prepbook.catalog.sample_models import (
     Analyte,
@@ -56,10 +56,7 @@ def load_samples(directory: Path | None = None, cat: Catalog | None = None) -> S
     built, problems = build_samples(read_files(directory))
     if not problems:
         problems = check_samples(built, cat)
-    if problems:
-        raise CatalogDataError(
-            f"the catalog data has {len(problems)} problem(s):\n  " + "\n  ".join(problems)
-        )
+    refuse_if_any(problems)
     return built
 
 
