@@ -8,9 +8,14 @@ wanted.
 How, in two passes:
 
 1. **Detection.** The readings are put on an even volume grid (linear interpolation
-   between recorded points, ``numpy.interp``) and differentiated by a Savitzky-Golay
-   filter (``scipy.signal.savgol_filter``, quadratic, over ``smoothing_ml``: by default
-   seven median volume steps). The peaks of |dE/dV| are found with
+   between recorded points, ``numpy.interp``, on a grid as fine as the lower quartile
+   of the recorded steps) and differentiated by a Savitzky-Golay filter
+   (``scipy.signal.savgol_filter``, quadratic, over ``smoothing_ml``: by default
+   ``DEFAULT_SPAN_STEPS`` of the steps as recorded where the reading changes, the
+   median of the steps weighted by the change of reading across each. A meter doses
+   finely where the curve is steep: the plain median step of a curve logged every
+   0.5 mL with 0.05 mL around its jump made the span wider than the jump's
+   surroundings, and a curve stopped soon after its jump was refused). The peaks of |dE/dV| are found with
    ``scipy.signal.find_peaks``; a peak counts when its prominence stands clear of the
    noise of that derivative (``NOISE_FACTOR`` times its standard deviation, the reading
    noise being estimated from the second differences of the readings) and of the
@@ -62,9 +67,9 @@ MIN_CURVE_POINTS = 9
 inflection, and one on each side beyond it."""
 
 DEFAULT_SPAN_STEPS = 7
-"""Default span of the derivative filter, in median volume steps: it sets which peaks
-stand clear of the noise, not the width of the fit that places them (a choice of this
-program)."""
+"""Default span of the derivative filter, in recorded volume steps where the reading
+changes (for even steps, the step): it sets which peaks stand clear of the noise, not
+the width of the fit that places them (a choice of this program)."""
 
 FIT_POINTS = 8
 """Fewest recorded points with weight in the cubic's window: a cubic and four degrees
@@ -190,6 +195,19 @@ def _cubic_inflection(v: Any, e: Any, centre: float, half_width: float
     return centre, math.sqrt(max(var, 0.0)), int(len(x))
 
 
+def _step_where_it_changes(steps: Any, changes: Any, fallback: float) -> float:
+    """The recorded volume step typical of where the reading changes: the median of the
+    steps weighted by the change of reading across each (``fallback`` on a flat curve).
+    A meter doses finely where the curve is steep, and a hand-logged curve is even."""
+    import numpy as np
+
+    order = np.argsort(steps, kind="stable")
+    cumulative = np.cumsum(changes[order])
+    if not cumulative[-1] > 0:
+        return fallback
+    return float(steps[order][int(np.searchsorted(cumulative, cumulative[-1] / 2.0))])
+
+
 def find_endpoints(
     volumes_ml: Sequence[float],
     readings: Sequence[float],
@@ -204,7 +222,7 @@ def find_endpoints(
 
     ``window_ml`` (low, high) limits the search to those volumes. ``smoothing_ml``
     sets the span of the derivative filter that finds the inflections (default
-    ``DEFAULT_SPAN_STEPS`` median volume steps): wider for noisier curves, narrower to
+    ``DEFAULT_SPAN_STEPS`` volume steps as recorded where the reading changes): wider for noisier curves, narrower to
     separate close endpoints; the fit that places each one follows the jump's own
     width whatever the span. ``sample_ml`` (the volume
     in the vessel before titrant) lets Gran's method be applied after the last
@@ -220,10 +238,12 @@ def find_endpoints(
     v, e = _window(np.asarray(volumes), np.asarray(values), window_ml)
     steps = np.diff(v)
     median_step = float(np.median(steps))
-    span = DEFAULT_SPAN_STEPS * median_step if smoothing_ml is None else float(smoothing_ml)
+    jump_step = _step_where_it_changes(steps, np.abs(np.diff(e)), median_step)
+    span = DEFAULT_SPAN_STEPS * jump_step if smoothing_ml is None else float(smoothing_ml)
     if not math.isfinite(span) or span <= 0:
         raise InvalidInput(f"smoothing span {smoothing_ml!r} mL must be a positive number")
-    grid_step = max(float(np.percentile(steps, 25)), (v[-1] - v[0]) / _MAX_GRID)
+    grid_step = max(min(float(np.percentile(steps, 25)), jump_step),
+                    (v[-1] - v[0]) / _MAX_GRID)
     grid = np.arange(v[0], v[-1] + grid_step / 2, grid_step)
     on_grid = np.interp(grid, v, e)
     length = max(5, int(round(span / grid_step)) | 1)
