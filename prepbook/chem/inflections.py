@@ -15,12 +15,12 @@ How, in two passes:
    median of the steps weighted by the change of reading across each. A meter doses
    finely where the curve is steep: the plain median step of a curve logged every
    0.5 mL with 0.05 mL around its jump made the span wider than the jump's
-   surroundings, and a curve stopped soon after its jump was refused). The peaks of |dE/dV| are found with
-   ``scipy.signal.find_peaks``; a peak counts when its prominence stands clear of the
-   noise of that derivative (``NOISE_FACTOR`` times its standard deviation, the reading
-   noise being estimated from the second differences of the readings) and of the
-   filter's own ripple (``MIN_RELATIVE_PROMINENCE`` of the steepest peak), and lies at
-   least half a span from either end of the curve.
+   surroundings, and a curve stopped soon after its jump was refused). The peaks of
+   |dE/dV| are found with ``scipy.signal.find_peaks``; a peak counts when its
+   prominence stands clear of the noise of that derivative (``NOISE_FACTOR`` times its
+   standard deviation, the reading noise being estimated from the second differences
+   of the readings) and of the filter's own ripple (``MIN_RELATIVE_PROMINENCE`` of the
+   steepest peak), and lies at least half a span from either end of the curve.
 2. **Refinement** on the recorded points, not the grid: a cubic is fitted by weighted
    least squares (``numpy.polyfit``) around the peak, and the inflection is where its
    second derivative is zero, -c2 / (3 c3). The window is re-centred on the result and
@@ -31,10 +31,10 @@ How, in two passes:
    The window follows the jump, not the filter. Its half-width is the jump's own width:
    the peak's full width at half height with the filter's share taken out (a quadratic
    Savitzky-Golay slope over a span L answers a sharp step with a peak L / sqrt(2)
-   wide, so the widths are subtracted in quadrature), and at least the distance that
-   brings ``FIT_POINTS`` recorded points in. The points are weighted by the tricube of
-   locally weighted regression (LOESS), 1 at the centre falling smoothly to 0 at the
-   edges, so a point entering or leaving the window as it is re-centred moves the
+   wide; the widths are subtracted in quadrature, an approximation), and at least the
+   distance that brings ``FIT_POINTS`` recorded points in. The points are weighted by
+   the tricube of locally weighted regression (LOESS), 1 at the centre falling smoothly
+   to 0 at the edges, so a point entering or leaving the window as it is re-centred moves the
    result by little rather than by a step. Why: at 0.5 mL steps a sharp jump lies
    between two readings and the smoothed peak is as wide as the span; a window of that
    width with hard edges put the result wherever the edges happened to fall among the
@@ -222,11 +222,11 @@ def find_endpoints(
 
     ``window_ml`` (low, high) limits the search to those volumes. ``smoothing_ml``
     sets the span of the derivative filter that finds the inflections (default
-    ``DEFAULT_SPAN_STEPS`` volume steps as recorded where the reading changes): wider for noisier curves, narrower to
-    separate close endpoints; the fit that places each one follows the jump's own
-    width whatever the span. ``sample_ml`` (the volume
-    in the vessel before titrant) lets Gran's method be applied after the last
-    endpoint. Rising and falling curves, pH or mV, are handled alike.
+    ``DEFAULT_SPAN_STEPS`` volume steps as recorded where the reading changes): wider
+    for noisier curves, narrower to separate close endpoints; the fit that places each
+    one follows the jump's own width whatever the span. ``sample_ml`` (the volume in
+    the vessel before titrant) lets Gran's method be applied after the last endpoint.
+    Rising and falling curves, pH or mV, are handled alike.
 
     Refused (InvalidInput): fewer than ``MIN_CURVE_POINTS`` points (in the window),
     volumes not strictly increasing, non-finite values, and a curve with no inflection.

@@ -100,7 +100,8 @@ def main() -> None:
         for pattern in patterns:
             for noise in NOISE_LEVELS:
                 count = len(base.equivalence_ml)
-                errors = {m: [[] for _ in range(count)] for m in ("old", "new")}
+                errors: dict[str, list[list[float]]] = {
+                    m: [[] for _ in range(count)] for m in ("old", "new")}
                 missed = {m: [0] * count for m in ("old", "new")}
                 for seed in range(seeds):
                     case = moved(base, seed) if args.move else base
