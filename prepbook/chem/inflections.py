@@ -34,11 +34,11 @@ How, in two passes:
    wide; the widths are subtracted in quadrature, an approximation), and at least the
    distance that brings ``FIT_POINTS`` recorded points in. The points are weighted by
    the tricube of locally weighted regression (LOESS), 1 at the centre falling smoothly
-   to 0 at the edges, so a point entering or leaving the window as it is re-centred moves the
-   result by little rather than by a step. Why: at 0.5 mL steps a sharp jump lies
-   between two readings and the smoothed peak is as wide as the span; a window of that
-   width with hard edges put the result wherever the edges happened to fall among the
-   readings (0.1-0.2 mL off on modelled curves; tests/benchmarks/endpoint_bench.py).
+   to 0 at the edges, so a point entering or leaving the window as it is re-centred
+   moves the result by little rather than by a step. Why: at 0.5 mL steps a sharp jump
+   lies between two readings and the smoothed peak is as wide as the span; a window of
+   that width with hard edges put the result wherever the edges happened to fall among
+   the readings (0.1-0.2 mL off on modelled curves; tests/benchmarks/endpoint_bench.py).
    The span therefore decides which peaks are found, hardly where they lie.
 
 The inflection is the equivalence point for symmetric jumps (strong-strong) and lies
