@@ -8,21 +8,38 @@ wanted.
 How, in two passes:
 
 1. **Detection.** The readings are put on an even volume grid (linear interpolation
-   between recorded points, ``numpy.interp``) and differentiated by a Savitzky-Golay
-   filter (``scipy.signal.savgol_filter``, quadratic, over ``smoothing_ml``: by default
-   seven median volume steps). The peaks of |dE/dV| are found with
-   ``scipy.signal.find_peaks``; a peak counts when its prominence stands clear of the
-   noise of that derivative (``NOISE_FACTOR`` times its standard deviation, the reading
-   noise being estimated from the second differences of the readings) and of the
-   filter's own ripple (``MIN_RELATIVE_PROMINENCE`` of the steepest peak), and lies at
-   least half a span from either end of the curve.
-2. **Refinement** on the recorded points, not the grid: a cubic is fitted by least
-   squares (``numpy.polyfit``) to the points within the peak's full width at half
-   height on either side of it (at least the seven nearest points); the inflection is where
-   its second derivative is zero, -c2 / (3 c3). The window is re-centred on the result
-   and the fit repeated (``REFINE_PASSES`` times). Its standard uncertainty combines
-   the fit's (the covariance of c2 and c3 carried through -c2/(3 c3) to first order)
-   with the resolution of the recorded steps there (the local step / sqrt(12)).
+   between recorded points, ``numpy.interp``, on a grid as fine as the lower quartile
+   of the recorded steps) and differentiated by a Savitzky-Golay filter
+   (``scipy.signal.savgol_filter``, quadratic, over ``smoothing_ml``: by default
+   ``DEFAULT_SPAN_STEPS`` of the steps as recorded where the reading changes, the
+   median of the steps weighted by the change of reading across each. A meter doses
+   finely where the curve is steep: the plain median step of a curve logged every
+   0.5 mL with 0.05 mL around its jump made the span wider than the jump's
+   surroundings, and a curve stopped soon after its jump was refused). The peaks of
+   |dE/dV| are found with ``scipy.signal.find_peaks``; a peak counts when its
+   prominence stands clear of the noise of that derivative (``NOISE_FACTOR`` times its
+   standard deviation, the reading noise being estimated from the second differences
+   of the readings) and of the filter's own ripple (``MIN_RELATIVE_PROMINENCE`` of the
+   steepest peak), and lies at least half a span from either end of the curve.
+2. **Refinement** on the recorded points, not the grid: a cubic is fitted by weighted
+   least squares (``numpy.polyfit``) around the peak, and the inflection is where its
+   second derivative is zero, -c2 / (3 c3). The window is re-centred on the result and
+   the fit repeated (``REFINE_PASSES`` times). Its standard uncertainty combines the
+   fit's (the covariance of c2 and c3 carried through -c2/(3 c3) to first order) with
+   the resolution of the recorded steps there (the local step / sqrt(12)).
+
+   The window follows the jump, not the filter. Its half-width is the jump's own width:
+   the peak's full width at half height with the filter's share taken out (a quadratic
+   Savitzky-Golay slope over a span L answers a sharp step with a peak L / sqrt(2)
+   wide; the widths are subtracted in quadrature, an approximation), and at least the
+   distance that brings ``FIT_POINTS`` recorded points in. The points are weighted by
+   the tricube of locally weighted regression (LOESS), 1 at the centre falling smoothly
+   to 0 at the edges, so a point entering or leaving the window as it is re-centred
+   moves the result by little rather than by a step. Why: at 0.5 mL steps a sharp jump
+   lies between two readings and the smoothed peak is as wide as the span; a window of
+   that width with hard edges put the result wherever the edges happened to fall among
+   the readings (0.1-0.2 mL off on modelled curves; tests/benchmarks/endpoint_bench.py).
+   The span therefore decides which peaks are found, hardly where they lie.
 
 The inflection is the equivalence point for symmetric jumps (strong-strong) and lies
 close to it for the usual weak acid and base standards; the benchmark in
@@ -48,6 +65,22 @@ from prepbook.errors import InvalidInput
 MIN_CURVE_POINTS = 9
 """Fewest points ``find_endpoints`` accepts: a cubic through at least seven around the
 inflection, and one on each side beyond it."""
+
+DEFAULT_SPAN_STEPS = 7
+"""Default span of the derivative filter, in recorded volume steps where the reading
+changes (for even steps, the step): it sets which peaks stand clear of the noise, not
+the width of the fit that places them (a choice of this program)."""
+
+FIT_POINTS = 8
+"""Fewest recorded points with weight in the cubic's window: a cubic and four degrees
+of freedom for its residual, about four readings on each side of the inflection (a
+choice of this program, from the benchmark's modelled curves)."""
+
+FILTER_PEAK_WIDTH = 1.0 / math.sqrt(2.0)
+"""Full width at half height of the smoothed slope of a sharp step, per span: the
+quadratic Savitzky-Golay slope is the least-squares line's, whose response to a unit
+step at c within the span L is (L^2/4 - c^2)/2, half its top at c = L/(2 sqrt 2)
+(worked by hand)."""
 
 NOISE_FACTOR = 12.0
 """A peak of |dE/dV| counts when its prominence is at least this many standard
@@ -134,16 +167,19 @@ def reading_noise(readings: Sequence[float]) -> float:
 
 def _cubic_inflection(v: Any, e: Any, centre: float, half_width: float
                       ) -> tuple[float, float, int] | None:
-    """(inflection, its fit uncertainty, points) of a cubic fitted within
-    centre +/- half_width, or None when the cubic has none inside its window."""
+    """(inflection, its fit uncertainty, points with weight) of a cubic fitted within
+    centre +/- half_width with tricube weights, or None when the cubic has none inside
+    its window."""
     import numpy as np
 
     for _ in range(REFINE_PASSES):
-        keep = np.abs(v - centre) <= half_width
+        keep = np.abs(v - centre) < half_width
         x, y = v[keep] - centre, e[keep]
         if len(x) < 7:
             return None
-        coeffs, cov = np.polyfit(x, y, 3, cov="unscaled")
+        weight = (1.0 - (np.abs(x) / half_width) ** 3) ** 3
+        # polyfit's w multiplies the residuals: the square root of the weight.
+        coeffs, cov = np.polyfit(x, y, 3, w=np.sqrt(weight), cov="unscaled")
         c3, c2 = float(coeffs[0]), float(coeffs[1])
         if c3 == 0.0:
             return None
@@ -152,11 +188,24 @@ def _cubic_inflection(v: Any, e: Any, centre: float, half_width: float
             return None
         residual = y - np.polyval(coeffs, x)
         dof = len(x) - 4
-        s2 = float(residual @ residual) / dof if dof > 0 else 0.0
+        s2 = float(weight @ residual ** 2) / dof if dof > 0 else 0.0
         grad = np.array([c2 / (3.0 * c3 * c3), -1.0 / (3.0 * c3)])
         var = float(grad @ (np.asarray(cov)[:2, :2] * s2) @ grad)
         centre = centre + at
     return centre, math.sqrt(max(var, 0.0)), int(len(x))
+
+
+def _step_where_it_changes(steps: Any, changes: Any, fallback: float) -> float:
+    """The recorded volume step typical of where the reading changes: the median of the
+    steps weighted by the change of reading across each (``fallback`` on a flat curve).
+    A meter doses finely where the curve is steep, and a hand-logged curve is even."""
+    import numpy as np
+
+    order = np.argsort(steps, kind="stable")
+    cumulative = np.cumsum(changes[order])
+    if not cumulative[-1] > 0:
+        return fallback
+    return float(steps[order][int(np.searchsorted(cumulative, cumulative[-1] / 2.0))])
 
 
 def find_endpoints(
@@ -172,10 +221,12 @@ def find_endpoints(
     """Every inflection of a titration curve (volume against pH or mV), in order.
 
     ``window_ml`` (low, high) limits the search to those volumes. ``smoothing_ml``
-    sets the span of the derivative filter (default seven median volume steps): wider
-    for noisier curves, narrower to separate close endpoints. ``sample_ml`` (the volume
-    in the vessel before titrant) lets Gran's method be applied after the last
-    endpoint. Rising and falling curves, pH or mV, are handled alike.
+    sets the span of the derivative filter that finds the inflections (default
+    ``DEFAULT_SPAN_STEPS`` volume steps as recorded where the reading changes): wider
+    for noisier curves, narrower to separate close endpoints; the fit that places each
+    one follows the jump's own width whatever the span. ``sample_ml`` (the volume in
+    the vessel before titrant) lets Gran's method be applied after the last endpoint.
+    Rising and falling curves, pH or mV, are handled alike.
 
     Refused (InvalidInput): fewer than ``MIN_CURVE_POINTS`` points (in the window),
     volumes not strictly increasing, non-finite values, and a curve with no inflection.
@@ -187,10 +238,12 @@ def find_endpoints(
     v, e = _window(np.asarray(volumes), np.asarray(values), window_ml)
     steps = np.diff(v)
     median_step = float(np.median(steps))
-    span = 7.0 * median_step if smoothing_ml is None else float(smoothing_ml)
+    jump_step = _step_where_it_changes(steps, np.abs(np.diff(e)), median_step)
+    span = DEFAULT_SPAN_STEPS * jump_step if smoothing_ml is None else float(smoothing_ml)
     if not math.isfinite(span) or span <= 0:
         raise InvalidInput(f"smoothing span {smoothing_ml!r} mL must be a positive number")
-    grid_step = max(float(np.percentile(steps, 25)), (v[-1] - v[0]) / _MAX_GRID)
+    grid_step = max(min(float(np.percentile(steps, 25)), jump_step),
+                    (v[-1] - v[0]) / _MAX_GRID)
     grid = np.arange(v[0], v[-1] + grid_step / 2, grid_step)
     on_grid = np.interp(grid, v, e)
     length = max(5, int(round(span / grid_step)) | 1)
@@ -217,13 +270,16 @@ def find_endpoints(
         raise InvalidInput(f"no inflection over {where}: the curve has no step that stands "
                            f"clear of its noise ({noise:.3g} {kind})")
     widths = peak_widths(steepness, peaks, rel_height=0.5)[0] * grid_step
+    filter_width = FILTER_PEAK_WIDTH * length * grid_step
 
     found: list[Inflection] = []
     notes: list[str] = []
     for peak, width in zip(peaks, widths, strict=True):
         centre = float(grid[peak])
+        own_width = math.sqrt(max(float(width) ** 2 - filter_width ** 2, 0.0))
+        # Strictly inside the window carry weight: out to the next point beyond them.
         nearby = np.sort(np.abs(v - centre))
-        half_width = max(float(width), float(nearby[min(6, len(nearby) - 1)]))
+        half_width = max(own_width, float(nearby[min(FIT_POINTS, len(nearby) - 1)]))
         fitted = _cubic_inflection(v, e, centre, half_width)
         local_step = float(steps[min(int(np.searchsorted(v, centre)), len(steps) - 1)])
         if fitted is None:

@@ -464,7 +464,9 @@ def endpoint(
     search: str = typer.Option(None, "--between", metavar="ML:ML",
                                help="The window as one option, e.g. 5:15."),
     smoothing: str = typer.Option(None, "--smoothing", metavar="ML",
-                                  help="Derivative filter span, mL (default 7 median steps)."),
+                                  help="Span of the derivative filter that finds the "
+                                       "endpoints, mL (default 7 steps as recorded on "
+                                       "the jump)."),
     as_json: bool = JSON,
 ) -> None:
     """Every endpoint (inflection) of a recorded titration curve, with its uncertainty,

@@ -2,17 +2,21 @@
 new finder, at three noise levels and two step patterns, fine and coarse.
 
 Run: python tests/benchmarks/endpoint_bench.py [--seeds N] [--steps fine|coarse|all]
+     [--move]
 
 "fine" is every 0.1 mL and uneven 0.03-0.3 mL; "coarse" every 0.5 mL and uneven
 0.2-0.8 mL (a manual titration logged by hand), both with the finder's default span.
 
 The curves are computed from the equilibrium model with known equivalence volumes
-(tests/chem/model_curves.py): sodium carbonate titrated with HCl (two endpoints),
-acetic acid and a strong acid titrated with NaOH. For each condition the absolute
-error |found - Ve| in mL over N seeded curves (and every endpoint) is summarised by its
-median and its worst. "old" is ``prepbook.chem.curves.endpoint`` (one inflection per
-call: for carbonate's first endpoint it is given the search window 0 mL .. midway
-between the two endpoints, the help a user would have to give it); "new" is
+(tests/chem/model_curves.py): sodium carbonate titrated with HCl (two endpoints, a row
+each), acetic acid and a strong acid titrated with NaOH. For each condition the
+absolute error |found - Ve| in mL over N seeded curves is summarised by its median and
+its worst. With ``--move`` each seed also moves the equivalence volumes across half a
+millilitre (``model_curves.moved``), so where an endpoint falls between two readings
+varies as well as the noise: an error that only looks small for one placing shows.
+"old" is ``prepbook.chem.curves.endpoint`` (one inflection per call: for carbonate's
+first endpoint it is given the search window 0 mL .. midway between the two endpoints,
+the help a user would have to give it); "new" is
 ``prepbook.chem.inflections.find_endpoints`` over the whole curve, which must find
 every endpoint by itself (a curve where it finds another count is counted as "missed").
 """
@@ -37,6 +41,7 @@ from tests.chem.model_curves import (  # noqa: E402
     STEP_PATTERNS,
     Case,
     curve,
+    moved,
 )
 
 
@@ -66,40 +71,53 @@ def _new(case: Case, v: list[float], ph: list[float]) -> list[float | None]:
     return [item.volume_ml for item in report.inflections]
 
 
+def _cells(errors: list[float], missed: int) -> str:
+    median = f"{statistics.median(errors):.4f}" if errors else "-"
+    worst = f"{max(errors):.4f}" if errors else "-"
+    return f"{median:>10} {worst:>9} {missed:>6}"
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--seeds", type=int, default=30)
     parser.add_argument("--steps", choices=("fine", "coarse", "all"), default="all")
+    parser.add_argument("--move", action="store_true",
+                        help="move the equivalence volumes across 0.5 mL with the seed")
     args = parser.parse_args()
     seeds = args.seeds
     patterns = {"fine": STEP_PATTERNS, "coarse": COARSE_PATTERNS,
                 "all": STEP_PATTERNS + COARSE_PATTERNS}[args.steps]
-    print(f"endpoint error, mL (|found - Ve|), {seeds} seeded curves per row")
-    header = (f"{'curve':<20} {'steps':<19} {'noise pH':>8} | {'old median':>10} "
+    placing = "moved across 0.5 mL" if args.move else "fixed"
+    print(f"endpoint error, mL (|found - Ve|), {seeds} seeded curves per row, "
+          f"equivalence volumes {placing}")
+    header = (f"{'curve':<22} {'steps':<19} {'noise pH':>8} | {'old median':>10} "
               f"{'old worst':>9} {'missed':>6} | {'new median':>10} {'new worst':>9} "
               f"{'missed':>6}")
     print(header)
     print("-" * len(header))
     started = time.perf_counter()
-    for case in CASES:
+    for base in CASES:
         for pattern in patterns:
             for noise in NOISE_LEVELS:
-                cells = []
-                for method in (_old, _new):
-                    errors: list[float] = []
-                    missed = 0
-                    for seed in range(seeds):
-                        v, ph = curve(case, pattern, noise, seed)
-                        for found, true in zip(method(case, v, ph), case.equivalence_ml,
-                                               strict=True):
+                count = len(base.equivalence_ml)
+                errors: dict[str, list[list[float]]] = {
+                    m: [[] for _ in range(count)] for m in ("old", "new")}
+                missed = {m: [0] * count for m in ("old", "new")}
+                for seed in range(seeds):
+                    case = moved(base, seed) if args.move else base
+                    v, ph = curve(case, pattern, noise, seed)
+                    for name, method in (("old", _old), ("new", _new)):
+                        for i, (found, true) in enumerate(zip(
+                                method(case, v, ph), case.equivalence_ml, strict=True)):
                             if found is None:
-                                missed += 1
+                                missed[name][i] += 1
                             else:
-                                errors.append(abs(found - true))
-                    median = f"{statistics.median(errors):.4f}" if errors else "-"
-                    worst = f"{max(errors):.4f}" if errors else "-"
-                    cells.append(f"{median:>10} {worst:>9} {missed:>6}")
-                print(f"{case.name:<20} {pattern:<19} {noise:>8.3f} | {cells[0]} | {cells[1]}")
+                                errors[name][i].append(abs(found - true))
+                for i in range(count):
+                    label = base.name if count == 1 else f"{base.name} #{i + 1}"
+                    print(f"{label:<22} {pattern:<19} {noise:>8.3f} | "
+                          f"{_cells(errors['old'][i], missed['old'][i])} | "
+                          f"{_cells(errors['new'][i], missed['new'][i])}")
     print(f"({time.perf_counter() - started:.1f} s)")
 
 

@@ -9,7 +9,7 @@ Concentrations are invented, chosen so no endpoint falls on a 0.1 mL mark.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -48,6 +48,17 @@ STEP_PATTERNS = ("even 0.1 mL", "uneven 0.03-0.3 mL")
 # Coarse recording, as a manual titration with a pH meter is often logged.
 COARSE_PATTERNS = ("even 0.5 mL", "uneven 0.2-0.8 mL")
 NOISE_LEVELS = (0.0, 0.005, 0.01)
+
+
+def moved(case: Case, seed: int, across_ml: float = 0.5) -> Case:
+    """The case with its sample concentration scaled so that its last equivalence volume
+    moves by a seeded share of ``across_ml`` (0 to 0.95 of it, in twentieths): where an
+    endpoint falls between two recorded volumes is then varied too, not only the noise.
+    The equivalence volumes still follow from stoichiometry alone."""
+    shift = across_ml * (seed % 20) / 20.0 - across_ml / 2.0
+    factor = (case.equivalence_ml[-1] + shift) / case.equivalence_ml[-1]
+    return replace(case, sample_mol_per_l=case.sample_mol_per_l * factor,
+                   equivalence_ml=tuple(ve * factor for ve in case.equivalence_ml))
 
 
 def volumes(case: Case, pattern: str, seed: int) -> np.ndarray:
