@@ -82,10 +82,7 @@ def _objects(doc: pikepdf.Pdf) -> list[str]:
         if isinstance(obj, pikepdf.Stream):
             if {"/F", "/FFilter", "/FDecodeParms"} & set(obj.keys()):
                 found.append("a stream held in an external file (6.1.7.1)")
-            filters = obj.get("/Filter")
-            names = [str(f) for f in filters] if isinstance(filters, pikepdf.Array) else \
-                [str(filters)] if filters is not None else []
-            if "/LZWDecode" in names:
+            if "/LZWDecode" in _names(obj.get("/Filter")):
                 found.append("an LZW-compressed stream (6.1.7.2)")
         kind = obj.get("/Type")
         if kind == "/Font" and obj.get("/Subtype") not in ("/Type0", "/Type3"):
@@ -105,17 +102,22 @@ def _objects(doc: pikepdf.Pdf) -> list[str]:
             found.append("a PostScript XObject or OPI (6.2.9)")
         if obj.get("/Interpolate") is True:
             found.append("an image with /Interpolate true (6.2.8)")
-        mode = obj.get("/BM")
-        modes = [str(m) for m in mode] if isinstance(mode, pikepdf.Array) else \
-            [str(mode)] if mode is not None else []
+        modes = _names(obj.get("/BM"))
         if any(m not in BLEND_MODES for m in modes):
             found.append(f"a blend mode outside ISO 32000-1: {modes} (6.2.10)")
-    names = doc.Root.get("/Names")
-    if names is not None and ("/EmbeddedFiles" in names or "/JavaScript" in names):
+    tree = doc.Root.get("/Names")
+    if tree is not None and ("/EmbeddedFiles" in tree or "/JavaScript" in tree):
         found.append("embedded files or document JavaScript in the name tree (6.8, 6.5.1)")
     if "/OpenAction" in doc.Root and doc.Root.OpenAction.get("/S") in FORBIDDEN_ACTIONS:
         found.append("a forbidden open action (6.5.1)")
     return found
+
+
+def _names(value: Any) -> list[str]:
+    """A name, or an array of names (a stream's filters, a blend mode), as a list."""
+    if value is None:
+        return []
+    return [str(v) for v in value] if isinstance(value, pikepdf.Array) else [str(value)]
 
 
 def _xmp_value(root: ElementTree.Element, prefix: str, local: str) -> str | None:
@@ -159,12 +161,13 @@ def metadata_problems(doc: pikepdf.Pdf) -> list[str]:
             if uri not in PREDEFINED:
                 found.append(f"XMP schema {uri} has no extension schema (6.6.2.3.1)")
     for key, value in doc.docinfo.items():
-        prop = DOCINFO_XMP.get(str(key))
-        if prop is None:
+        wanted = DOCINFO_XMP.get(str(key))
+        if wanted is None:
             continue
-        xmp = _xmp_value(root, *prop.split(":"))
+        prefix, local = wanted.split(":")
+        xmp = _xmp_value(root, prefix, local)
         if xmp is None or not _same(str(value), xmp, str(key)):
-            found.append(f"docinfo {key} {str(value)!r} and XMP {prop} {xmp!r} differ "
+            found.append(f"docinfo {key} {str(value)!r} and XMP {wanted} {xmp!r} differ "
                          "(6.6.3)")
     return found
 
@@ -203,7 +206,7 @@ def _content(doc: pikepdf.Pdf) -> list[str]:
     streams += [o for o in doc.objects
                 if isinstance(o, pikepdf.Stream) and o.get("/Subtype") == "/Form"]
     for stream in streams:
-        ops = {str(op) for _, op in pikepdf.parse_content_stream(stream)}
+        ops = {str(i.operator) for i in pikepdf.parse_content_stream(stream)}
         if ops & {"k", "K"}:
             found.append("content painted in DeviceCMYK (k/K) under an RGB output intent "
                          "(6.2.4.3)")

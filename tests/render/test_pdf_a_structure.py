@@ -20,8 +20,9 @@ from tests.render.pdf_a_check import metadata_problems, problems
 from tests.render.test_labels import LOT, batch_data, longest_spec
 
 
-def _label(**kw: object) -> bytes:
-    pdf, _ = labels.label_pdf(batch_data(longest_spec()), sizes.SIZES["70x37mm"], **kw)
+def _label(colour: bool = True) -> bytes:
+    pdf, _ = labels.label_pdf(batch_data(longest_spec()), sizes.SIZES["70x37mm"],
+                              colour=colour)
     return pdf
 
 
