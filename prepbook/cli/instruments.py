@@ -118,7 +118,7 @@ def connect(
     output.console().print(
         f"balance [bold]{c.balance}[/bold] on {c.port}, profile {c.profile} "
         f"({c.speed} baud, {c.data_bits} data bits, parity {c.parity}, "
-        f"{c.stop_bits:g} stop bit(s)); connection {c.version}")
+        f"{c.stop_bits:g} stop bit(s)); connection {c.connection_version}")
 
 
 @app.command("profiles")

@@ -53,8 +53,27 @@ def _finite(value: Any) -> Any:
 
 
 def emit_json(data: Any) -> None:
-    """Print one JSON document on stdout and nothing else."""
-    text = json.dumps(_finite(data), default=_default, indent=2, ensure_ascii=False)
+    """Print a command's ``--json`` document on stdout and nothing else. A document that
+    is an object begins with ``version``, the version of prepbook that wrote it (the
+    version of its published schema); a list (``status``) is written as it is."""
+    from prepbook import __version__
+
+    document = _finite(data)
+    if isinstance(document, dict):
+        if "version" in document:  # a field of that name would be overwritten: rename it
+            raise TypeError("a --json document has a key 'version' of its own")
+        document = {"version": __version__, **document}
+    _write(document)
+
+
+def print_json(data: Any) -> None:
+    """Print ``data`` as one JSON document on stdout and nothing else, as it is (no
+    ``version`` added: a JSON Schema, which states its own version)."""
+    _write(_finite(data))
+
+
+def _write(document: Any) -> None:
+    text = json.dumps(document, default=_default, indent=2, ensure_ascii=False)
     sys.stdout.write(text + "\n")
 
 

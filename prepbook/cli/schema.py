@@ -44,6 +44,6 @@ def schema(
         typer.echo(f"wrote {len(written)} schema{'s' * (len(written) != 1)} to {out_dir}")
         return
     if every:
-        output.emit_json({c: json_schemas.schema(c) for c in chosen})
+        output.print_json({c: json_schemas.schema(c) for c in chosen})
     else:
-        output.emit_json(json_schemas.schema(command))
+        output.print_json(json_schemas.schema(command))

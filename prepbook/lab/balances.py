@@ -31,7 +31,7 @@ class Connection:
     balance: str
     port: str
     profile: str
-    version: int
+    connection_version: int  # the connection record's number: 1, then 2 when changed
     speed: int
     data_bits: int
     parity: str
@@ -80,7 +80,8 @@ def _latest(s: Session, instrument: Instrument) -> InstrumentConnection | None:
 
 
 def _info(ins: Instrument, c: InstrumentConnection, p: BalanceProfile) -> Connection:
-    return Connection(balance=ins.code, port=c.port, profile=c.profile, version=c.version,
+    return Connection(balance=ins.code, port=c.port, profile=c.profile,
+                      connection_version=c.version,
                       speed=p.speed, data_bits=p.data_bits, parity=p.parity,
                       stop_bits=p.stop_bits, connected_at=iso(c.created_at) or "",
                       connected_by=c.created_by)

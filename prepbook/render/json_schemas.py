@@ -12,7 +12,10 @@ turns the types into JSON Schema; this module then states what the writer adds:
   (a key renamed, a key left out when empty, a nested document written flat);
 - a few documents are written from a mapping, not a dataclass: their shape is a
   ``TypedDict`` here (``BalanceRead``, ``ConfigShown``), or the keys added after a
-  dataclass's fields are in ``ADDED`` (`batch show` and its assays).
+  dataclass's fields are in ``ADDED`` (`batch show` and its assays);
+- a document that is an object begins with ``version``, the version of prepbook that
+  wrote it (so no type a document is written from may have a field of that name); a
+  document that is a list (``status``) has none.
 
 A document may carry keys a later version adds (new keys are allowed, renames are not:
 DESIGN section 4), so objects are left open to more properties. A number that is not
@@ -22,6 +25,7 @@ finite is written as null (``emit_json``); the services give finite numbers or N
 from __future__ import annotations
 
 import importlib
+import json
 import sys
 from dataclasses import dataclass
 from pathlib import Path
@@ -32,6 +36,9 @@ from prepbook import __version__
 DRAFT = "https://json-schema.org/draft/2020-12/schema"
 # The version of the schemas: the version of prepbook that writes the documents.
 VERSION = __version__
+# The key every document that is an object begins with (``emit_json`` writes it).
+VERSION_KEY = {"type": "string",
+               "description": "The version of prepbook that wrote the document."}
 
 
 class BalanceRead(TypedDict):
@@ -223,6 +230,23 @@ def _apply(components: dict[str, Any]) -> None:
         part["required"] = [k for k in props if k not in how.optional]
 
 
+def _versioned(root: dict[str, Any], components: dict[str, Any]) -> dict[str, Any]:
+    """A document that is an object, as ``emit_json`` writes it: its type's keys after
+    ``version`` (the version of prepbook that wrote it), written out in place; its type
+    stays in ``$defs`` only where another type holds it. A list is left as it is."""
+    if "$ref" not in root:
+        return root
+    name = root["$ref"].rsplit("/", 1)[1]
+    part = components[name]
+    if "version" in part["properties"]:
+        raise TypeError(f"{name} has a field 'version', the key every --json object "
+                        "document begins with: rename the field")
+    if f'"#/$defs/{name}"' not in json.dumps(components):
+        del components[name]
+    return {**part, "properties": {"version": VERSION_KEY, **part["properties"]},
+            "required": ["version", *part["required"]]}
+
+
 def schema(command: str) -> dict[str, Any]:
     """The JSON Schema of ``command``'s ``--json`` document (a KeyError if it has none)."""
     import msgspec
@@ -238,11 +262,13 @@ def schema(command: str) -> dict[str, Any]:
         del roots[-len(added):]
         root["properties"] = {**root["properties"], **dict(zip(added, extra, strict=True))}
     _apply(components)
+    roots = [_versioned(root, components) for root in roots]
     body: dict[str, Any] = roots[0] if len(roots) == 1 else {"anyOf": roots}
     slug = command.replace(" ", "-")
     made_schema = {"$schema": DRAFT, "$id": f"urn:prepbook:{VERSION}:json:{slug}",
-                   "title": f"prepbook {command} --json", "version": VERSION, **body,
-                   "$defs": dict(sorted(components.items()))}
+                   **body, "title": f"prepbook {command} --json", "version": VERSION}
+    if components:
+        made_schema["$defs"] = dict(sorted(components.items()))
     # As JSON has it (a field's default of () is the list []), the same as the file.
     return cast(dict[str, Any], msgspec.json.decode(msgspec.json.encode(made_schema)))
 
@@ -253,8 +279,6 @@ def file_name(command: str) -> str:
 
 
 def as_text(document: dict[str, Any]) -> str:
-    import json
-
     return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
 
 

@@ -19,6 +19,11 @@ from prepbook.errors import InvalidInput
 TIMEOUT_S = 60  # a print spooler answers in well under a minute: common practice, no source
 
 
+def windows() -> bool:
+    """Whether the label goes through the Windows shell's "print" verb (not lp/lpr)."""
+    return sys.platform == "win32"
+
+
 def command(file: Path, printer: str | None = None) -> list[str]:
     """The command that queues ``file`` on ``printer`` (default: the system's default
     printer); InvalidInput with one line if the system has no print command."""
@@ -34,10 +39,11 @@ def command(file: Path, printer: str | None = None) -> list[str]:
 
 def check(printer: str | None = None) -> None:
     """InvalidInput with one line, before anything is written, if printing cannot work."""
-    if sys.platform == "win32":
-        if printer:
-            raise InvalidInput("--printer is not supported on Windows; the label goes to "
-                               "the default printer")
+    if windows():
+        if printer:  # the print verb has no printer to name: refuse rather than misprint
+            raise InvalidInput("--printer cannot choose a printer on Windows, where the "
+                               "label goes to the default printer: leave out --printer, or "
+                               "make that printer the default")
         return
     if not (shutil.which("lp") or shutil.which("lpr")):
         raise InvalidInput("no print command found (lp or lpr): install CUPS, or leave out "
@@ -47,7 +53,7 @@ def check(printer: str | None = None) -> None:
 def send(file: Path, printer: str | None = None) -> str:
     """Queue ``file`` for printing; returns what the print system said (its job line)."""
     check(printer)
-    if sys.platform == "win32":
+    if windows():
         try:
             os.startfile(file, "print")  # type: ignore[attr-defined]  # Windows only
         except OSError as exc:

@@ -9,6 +9,7 @@ from collections.abc import Sequence
 from functools import cache
 from typing import Any
 
+from prepbook import __version__
 from prepbook.render import json_schemas
 
 
@@ -49,5 +50,10 @@ def validator(command: str) -> Any:
 
 
 def validate_document(args: Sequence[str], document: Any) -> None:
-    """Raise ``jsonschema.ValidationError`` unless ``document`` fits its command's schema."""
+    """Raise ``jsonschema.ValidationError`` unless ``document`` fits its command's schema;
+    a document that is an object must begin with ``version``, the version of prepbook
+    that wrote it."""
     validator(command_of(args)).validate(document)
+    if isinstance(document, dict):
+        assert next(iter(document)) == "version", list(document)
+        assert document["version"] == __version__, document["version"]

@@ -51,44 +51,44 @@ def each(docs: Any) -> list[list[str]]:
 
 def test_users_specs_lots_instruments_settings_init_keep_their_keys(
         bench: Cli, tmp_path: Path) -> None:  # noqa: F811
-    assert keys(bench.json("init", user="ada")) == INIT
+    assert keys(bench.json("init", user="ada")) == ["version", *INIT]
     assert each(bench.json("user", "list")) == [USER] * 3
     added = bench.json("user", "add", "eve", "--role", "admin", "--passphrase-stdin",
                        user="ada", input="eve-passphrase-1\nada-passphrase\n")
-    assert keys(added) == USER and added["role"] == "admin"
+    assert keys(added) == ["version", *USER] and added["role"] == "admin"
     for verb in ("disable", "enable"):
         done = bench.json("user", verb, "eve", "--reason", "test", "--passphrase-stdin",
                           user="ada", input="ada-passphrase\n")
-        assert keys(done) == USER and done["active"] is (verb == "enable")
+        assert keys(done) == ["version", *USER] and done["active"] is (verb == "enable")
     bench.refused("settings", "set", "lockout_after", "4", "--reason", "x",
                   "--passphrase-stdin", user="eve", input="not-her-passphrase\n")
     unlocked = bench.json("user", "unlock", "eve", "--reason", "typo", "--passphrase-stdin",
                           user="ada", input="ada-passphrase\n")
-    assert keys(unlocked) == USER and unlocked["failed_attempts"] == 0
+    assert keys(unlocked) == ["version", *USER] and unlocked["failed_attempts"] == 0
 
     assert set(map(tuple, each(bench.json("spec", "list")))) == {tuple(SPEC)}
     spec = bench.json("spec", "add", "NaOH-0.2N", "--solute", "NaOH", "--nominal", "0.2",
                       user="cleo")
-    assert keys(spec) == SPEC and spec["builtin"] is False
+    assert keys(spec) == ["version", *SPEC] and spec["builtin"] is False
 
     lot = bench.json("lot", "add", "KHP", "--code", "KHP-0002", "--purity", "99.95",
                      "--expires", _days(300), user="ben")
-    assert keys(lot) == LOT
+    assert keys(lot) == ["version", *LOT]
     assert each(bench.json("lot", "list")) == [LOT] * 3
 
     assert keys(bench.json("instrument", "add", "PIP-1", "--kind", "pipette", "--due",
-                           _days(90), user="ben")) == INSTRUMENT
+                           _days(90), user="ben")) == ["version", *INSTRUMENT]
     assert each(bench.json("instrument", "list")) == [INSTRUMENT] * 3
     cal = bench.json("instrument", "calibrate", "BUR-1", "--calibrated", _days(0), "--due",
                      _days(365), "--certificate", "CAL-1 (invented)", user="ben")
-    assert keys(cal) == CALIBRATION and cal["previous_due"] == _days(200)
+    assert keys(cal) == ["version", *CALIBRATION] and cal["previous_due"] == _days(200)
 
     assert set(map(tuple, each(bench.json("settings")))) == {tuple(SETTING)}
     assert bench.json("settings", "show") == bench.json("settings")
 
     if not is_url(bench.db):
         copy = bench.json("backup", "-o", str(tmp_path / "copy.db"))
-        assert keys(copy) == BACKUP and copy["events"] > 0
+        assert keys(copy) == ["version", *BACKUP] and copy["events"] > 0
 
 
 def test_labels_and_exports_keep_their_keys(bench: Cli, tmp_path: Path) -> None:  # noqa: F811
@@ -97,10 +97,10 @@ def test_labels_and_exports_keep_their_keys(bench: Cli, tmp_path: Path) -> None:
     bench.ok("review", first, "--accept", "--passphrase-stdin", user="cleo",
              input="cleo-passphrase\n")
     printed = bench.json("label", batch, "-o", str(tmp_path / "b.pdf"), user="ben")
-    assert keys(printed) == LABEL and printed["run"] == first
+    assert keys(printed) == ["version", *LABEL] and printed["run"] == first
     lot = bench.json("label", "KHP-0001", "--lot", "-o", str(tmp_path / "l.pdf"), "--sheet",
                      "a4", "--copies", "3", user="ben")
-    assert keys(lot) == LABEL and (lot["kind"], lot["sheet"]) == ("lot", "a4")
+    assert keys(lot) == ["version", *LABEL] and (lot["kind"], lot["sheet"]) == ("lot", "a4")
     assert bench.json("label", "--stale") == []
     second = _standardize(bench, batch)["run"]
     bench.ok("review", second, "--accept", "--passphrase-stdin", user="cleo",
@@ -114,5 +114,6 @@ def test_labels_and_exports_keep_their_keys(bench: Cli, tmp_path: Path) -> None:
     for kind, fmt in (("runs", "csv"), ("audit", "xlsx")):
         res = bench.json("export", kind, "--format", fmt, "-o", str(tmp_path / f"x.{fmt}"),
                          "--since", _days(-30))
-        assert keys(res) == EXPORT and res["export"] == kind and res["rows"] >= 1
+        assert keys(res) == ["version", *EXPORT]
+        assert res["export"] == kind and res["rows"] >= 1
         assert isinstance(res["columns"], list) and res["since"] == _days(-30)

@@ -21,6 +21,7 @@ IMPACT = ["assay", "sample", "batch", "run", "performed_at", "unit", "before", "
 def test_assay_and_impact_json_keys(lab) -> None:  # noqa: F811
     cli, batch, (_, r2), (a1, _, _) = lab
     keys = list(a1)
+    assert keys[0] == "version"
     assert set(keys[:-len(ASSAY_OWN)]) >= CALC_SAMPLE
     assert keys[-len(ASSAY_OWN):] == ASSAY_OWN
     assert {"value", "unit", "as"} <= set(a1["concentration"])

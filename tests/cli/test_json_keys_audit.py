@@ -27,7 +27,8 @@ BOARD_ITEM = ["batch", "spec", "state", "normality", "factor", "restandardize_by
 def test_audit_verify_and_log_keys(bench: Cli) -> None:  # noqa: F811
     _make_batch(bench)
     verified = bench.json("audit", "verify")
-    assert list(verified)[:len(VERIFY)] == VERIFY  # more in test_json_keys_checkpoints
+    # more keys in test_json_keys_checkpoints
+    assert list(verified)[:len(VERIFY) + 1] == ["version", *VERIFY]
     assert verified["ok"] is True and verified["problems"] == []
     events = bench.json("audit", "log")
     assert events and all(list(e)[:len(LOG)] == LOG for e in events)  # + checkpoints file
@@ -53,7 +54,7 @@ def test_config_show_keys(tmp_path: Path) -> None:
     result = CliRunner().invoke(app, ["config", "show", "--json"], env=env)
     assert result.exit_code == 0, result.output
     shown = json.loads(result.stdout)
-    assert list(shown) == ["file", "file_exists", "settings"]
+    assert list(shown) == ["version", "file", "file_exists", "settings"]
     assert shown["settings"] and all(list(s) == ["name", "value", "source", "origin"]
                                      for s in shown["settings"])
 

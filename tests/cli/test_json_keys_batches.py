@@ -75,14 +75,14 @@ def lab(bench: Cli) -> tuple[Cli, str, str]:  # noqa: F811 (fixture)
     _accept(bench, bench.json(*args, user="ben")["run"])
     dilution = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--from-batch",
                           stock, "--aliquot", "100", "--at", _at(-1, "17:00"), user="ben")
-    assert list(dilution) == MADE
+    assert list(dilution) == ["version", *MADE]
     return bench, stock, dilution["batch"]
 
 
 def test_batch_show_keys(lab: tuple[Cli, str, str]) -> None:
     cli, stock, _ = lab
     shown = cli.json("batch", "show", stock)
-    assert list(shown) == SHOW
+    assert list(shown) == ["version", *SHOW]
     assert list(shown["preparation"]) == PREPARATION
     assert len(shown["runs"]) == 2
     for run in shown["runs"]:
@@ -102,11 +102,11 @@ def test_status_trend_and_trace_keys(lab: tuple[Cli, str, str]) -> None:
     board = cli.json("status")
     assert board and all(list(item) == STATUS for item in board)
     trend = cli.json("trend", stock)
-    assert list(trend) == TREND
+    assert list(trend) == ["version", *TREND]
     assert [list(h) for h in trend["history"]] == [TREND_POINT] * 2
     assert len(trend["window"]) == 2
     trace = cli.json("trace", stock)
-    assert list(trace) == TRACE
+    assert list(trace) == ["version", *TRACE]
     assert list(trace["upward"]) == ["preparation", "stock_chain", "standardizations"]
     assert list(trace["upward"]["preparation"]) == ["method", "made_at", "made_by",
                                                     "solute_lot", "flask", "balance"]
@@ -130,14 +130,15 @@ def test_status_trend_and_trace_keys(lab: tuple[Cli, str, str]) -> None:
 
 def test_use_retire_and_report_keys(lab: tuple[Cli, str, str], tmp_path: Path) -> None:
     cli, stock, dilution = lab
+    used = ["version", *USED]
     assert list(cli.json("batch", "use", stock, "--volume", "5", "--purpose", "assay",
-                              user="ben")) == USED
-    assert list(cli.json("use", stock, "--purpose", "assay", user="ben")) == USED
+                              user="ben")) == used
+    assert list(cli.json("use", stock, "--purpose", "assay", user="ben")) == used
     retired = cli.json("batch", "retire", dilution, "--reason", "spilled",
                        "--passphrase-stdin", user="ben", input="ben-passphrase\n")
-    assert list(retired) == RETIREMENT
+    assert list(retired) == ["version", *RETIREMENT]
     shown = cli.json("batch", "show", dilution)
     assert list(shown["retired"]) == RETIRED
     report = cli.json("report", stock, "-o", str(tmp_path / "r.pdf"))
-    assert list(report) == REPORT
+    assert list(report) == ["version", *REPORT]
     assert report["runs"] == 2 and report["audit_ok"] is True

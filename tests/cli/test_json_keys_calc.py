@@ -68,7 +68,7 @@ CALC = {
 @pytest.mark.parametrize("args", list(CALC), ids=[a[0] for a in CALC])
 def test_calc_json_keys(cli: Cli, args: tuple[str, ...]) -> None:
     out = cli.json("calc", *args)
-    assert list(out) == CALC[args]
+    assert list(out) == ["version", *CALC[args]]
 
 
 def test_calc_normality_nested_keys(cli: Cli) -> None:
@@ -100,9 +100,9 @@ def test_calc_endpoint_json_keys(cli: Cli, tmp_path: Path) -> None:
     f.write_text("volume_ml,pH\n" + "".join(f"{v},{3 + 8 / (1 + 10 ** (10 - v))}\n"
                                             for v in range(0, 21)))
     out = cli.json("calc", "endpoint", str(f))
-    assert list(out) == ["equivalence_ml", "method", "kind", "reading_at_endpoint", "gran_ml",
-                         "gran_points", "points", "notes", "u_ml", "endpoints", "window_ml",
-                         "smoothing_ml", "noise", "gran_agrees", "gran_tolerance_ml",
+    assert list(out) == ["version", "equivalence_ml", "method", "kind", "reading_at_endpoint",
+                         "gran_ml", "gran_points", "points", "notes", "u_ml", "endpoints",
+                         "window_ml", "smoothing_ml", "noise", "gran_agrees", "gran_tolerance_ml",
                          "volume_column", "reading_column", "preamble_lines"]
     assert [list(e) for e in out["endpoints"]] == [
         ["index", "volume_ml", "u_ml", "reading", "slope", "points_fitted"]]
@@ -134,11 +134,11 @@ def test_standardize_correct_exclude_review_json_keys(lab: Cli) -> None:
                    "--burette", "BUR-1", "--temp", "21.0", "--rep", "0.8085:39.16",
                    "--rep", "0.8116:39.29", "--rep", "0.8596:41.67", "--at", "2026-12-01T09:00",
                    "--reason", "from the bench log", user="ben")
-    assert list(run) == RUN_RESULT
+    assert list(run) == ["version", *RUN_RESULT]
     assert [list(c) for c in run["checks"]] == [CHECK] * len(run["checks"])
     assert [list(r) for r in run["replicates"]] == [RUN_REPLICATE] * 3
     assert [list(line) for line in run["budget"]] == [BUDGET] * len(run["budget"])
-    revised = RUN_RESULT[:1] + ["previous_status"] + RUN_RESULT[1:]
+    revised = ["version", *RUN_RESULT[:1], "previous_status", *RUN_RESULT[1:]]
     corrected = lab.json("correct", run["run"], "--replicate", "2", "--volume", "39.30",
                          "--reason", "misread", "--passphrase-stdin", user="ben",
                          input="ben-passphrase\n")
@@ -153,7 +153,7 @@ def test_standardize_correct_exclude_review_json_keys(lab: Cli) -> None:
                         "--passphrase-stdin", "--at", "2026-12-01T10:00", user="cleo",
                         input="cleo-passphrase\n")
     assert list(reviewed) == [
-        "run", "method", "status", "performed_at", "recorded_at", "analyst", "lot",
+        "version", "run", "method", "status", "performed_at", "recorded_at", "analyst", "lot",
         "lot_certificate", "reference_batch", "balance", "burette", "temperature_c",
         "blank_ml", "indicator", "normality", "normality_20c", "factor", "sd", "rsd_percent",
         "u", "U", "k", "verdict", "checks", "budget", "reviews", "reference", "repeatability",
@@ -171,4 +171,4 @@ def test_standardize_preview_has_the_same_keys(lab: Cli) -> None:
                  input="20\n0.8085\n39.16\n0.8116\n39.29\n\ny\n")
     assert result.exit_code == 0, result.stderr
     out = json.loads(result.stdout[result.stdout.index("{"):])
-    assert list(out) == RUN_RESULT
+    assert list(out) == ["version", *RUN_RESULT]

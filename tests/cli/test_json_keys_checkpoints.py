@@ -26,7 +26,7 @@ def test_audit_verify_and_checkpoint_keys(bench: Cli, tmp_path: Path,  # noqa: F
     assert events and all(list(e) == LOG for e in events)
     assert all(e["os_login"] and e["host"] for e in events)
     unwitnessed = bench.json("audit", "verify")
-    assert list(unwitnessed) == VERIFY
+    assert list(unwitnessed) == ["version", *VERIFY]
     assert unwitnessed["witnessed_events"] is None and len(unwitnessed["notes"]) == 1
     key = tmp_path / "lab-signing.pem"
     assert bench("audit", "signing-key", str(key)).exit_code == 0
@@ -35,9 +35,9 @@ def test_audit_verify_and_checkpoint_keys(bench: Cli, tmp_path: Path,  # noqa: F
     monkeypatch.setenv("PREPBOOK_SIGNING_KEY_FILE", str(key))
     monkeypatch.setenv("PREPBOOK_WITNESS_FOLDER", str(folder))
     made = bench.json("audit", "checkpoint")
-    assert list(made) == CHECKPOINT
+    assert list(made) == ["version", *CHECKPOINT]
     assert made["checkpoint"] == unwitnessed["checkpoint"]
     witnessed = bench.json("audit", "verify")
-    assert list(witnessed) == VERIFY
+    assert list(witnessed) == ["version", *VERIFY]
     assert witnessed["witnessed_events"] == witnessed["events"] == made["events"]
     assert witnessed["notes"] == [] and witnessed["ok"] is True

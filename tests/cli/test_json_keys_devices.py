@@ -13,9 +13,10 @@ from tests.conftest import Cli
 
 # The commands whose --json keys this file pins (test_json_keys_audit checks the union).
 PINNED = {"instrument read", "instrument connect", "instrument profiles"}
-READ = ["balance", "mass_g", "mass_text", "unit", "raw", "read_at", "port", "profile"]
-CONNECT = ["balance", "port", "profile", "version", "speed", "data_bits", "parity",
-           "stop_bits", "connected_at", "connected_by"]
+READ = ["version", "balance", "mass_g", "mass_text", "unit", "raw", "read_at", "port",
+        "profile"]
+CONNECT = ["version", "balance", "port", "profile", "connection_version", "speed", "data_bits",
+           "parity", "stop_bits", "connected_at", "connected_by"]
 PROFILE = ["name", "description", "speed", "data_bits", "parity", "stop_bits", "source"]
 
 

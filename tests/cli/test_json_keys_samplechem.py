@@ -29,7 +29,7 @@ def test_calc_sample_keys(cli: Cli) -> None:
     out = cli.json("calc", "sample", "--analyte", "hardness", "--titrant", "EDTA",
                    "--molarity", "0.01", "--normality-u", "0.00004", "--aliquot", "50",
                    "--rep", "12.30", "--rep", "12.35")
-    assert list(out) == SAMPLE
+    assert list(out) == ["version", *SAMPLE]
     assert list(out["concentration"]) == ["value", "unit", "as"]  # DESIGN section 7
     assert out["concentration"]["as"] == "CaCO3" and out["concentration"]["unit"] == "mg/L"
     assert [list(r) for r in out["replicates"]] == [SAMPLE_REPLICATE] * 2
@@ -37,7 +37,7 @@ def test_calc_sample_keys(cli: Cli) -> None:
     weighed = cli.json("calc", "sample", "--analyte", "chloride", "--titrant", "NH4SCN",
                        "--normality", "0.1", "--mass", "0.5", "--rep", "10",
                        "--excess-volume", "50", "--excess-normality", "0.1")
-    assert list(weighed) == SAMPLE
+    assert list(weighed) == ["version", *SAMPLE]
     assert weighed["concentration"] is None and weighed["mass_fraction_percent"] > 0
     assert list(weighed["excess_reagent"]) == ["reagent", "normality", "U", "volume_ml"]
 
@@ -45,9 +45,9 @@ def test_calc_sample_keys(cli: Cli) -> None:
 def test_calc_eqpoint_analyte_and_salt_keys(cli: Cli) -> None:
     out = cli.json("calc", "eqpoint", "--analyte", "H3PO4", "--titrant", "NaOH",
                    "--concentration", "0.05")
-    assert list(out) == EQPOINT_ANALYTE
+    assert list(out) == ["version", *EQPOINT_ANALYTE]
     assert [list(p) for p in out["points"]] == [["protons", "concentration_mol_per_l",
                                                  "ph"]] * 3
     salt = cli.json("calc", "salt", "NH4+", "acetate")
-    assert list(salt) == SALT
+    assert list(salt) == ["version", *SALT]
     assert [list(s) for s in salt["strengths"]] == [["ion", "acts_as", "pk"]] * 2

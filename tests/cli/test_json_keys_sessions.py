@@ -15,14 +15,14 @@ SESSION = ["user", "role", "os_login", "host", "started_at", "last_seen_at", "id
 def test_session_and_account_commands_keep_their_keys(lab: Cli) -> None:  # noqa: F811
     assert lab.json("whoami") == []
     opened = lab.json("login", "ada", "--passphrase-stdin", input=f"{ADA}\n")
-    assert keys(opened) == SESSION and opened["live"] is True
+    assert keys(opened) == ["version", *SESSION] and opened["live"] is True
     assert [keys(s) for s in lab.json("whoami")] == [SESSION]
     role = lab.json("user", "role", "ben", "reviewer", "--reason", "promoted",
                     "--passphrase-stdin", input=f"{ADA}\n")
-    assert keys(role) == USER and role["role"] == "reviewer"
+    assert keys(role) == ["version", *USER] and role["role"] == "reviewer"
     reset = lab.json("user", "reset", "ben", "--reason", "forgot it", "--passphrase-stdin",
                      input=f"{ADA}\nonce-only-temporary-1\n")
-    assert keys(reset) == USER
+    assert keys(reset) == ["version", *USER]
     changed = lab.json("user", "passphrase", "ben", "--passphrase-stdin",
                        input=f"once-only-temporary-1\n{BEN}\n")
-    assert keys(changed) == USER and changed["name"] == "ben"
+    assert keys(changed) == ["version", *USER] and changed["name"] == "ben"

@@ -37,9 +37,68 @@ def test_a_command_prints_its_schema(cli: Cli) -> None:
     assert shown["$schema"] == "https://json-schema.org/draft/2020-12/schema"
     assert shown["$id"] == f"urn:prepbook:{__version__}:json:batch-show"
     assert shown["version"] == __version__
-    record = shown["$defs"]["BatchRecord"]
-    assert {"batch", "runs", "assays"} <= set(record["required"])
-    assert record["properties"]["runs"]["items"] == {"$ref": "#/$defs/RunRecord"}
+    # The document is an object: its keys are written out in place, `version` first.
+    assert shown["type"] == "object" and "BatchRecord" not in shown["$defs"]
+    assert shown["required"][0] == "version"
+    assert {"batch", "runs", "assays"} <= set(shown["required"])
+    assert shown["properties"]["runs"]["items"] == {"$ref": "#/$defs/RunRecord"}
+
+
+def _roots(schema: dict[str, Any]) -> list[dict[str, Any]]:
+    """The document shapes a schema allows (one, or the branches of its anyOf)."""
+    return list(schema["anyOf"]) if "anyOf" in schema else [schema]
+
+
+@pytest.mark.parametrize("command", json_schemas.commands())
+def test_every_object_document_requires_the_version_that_wrote_it(command: str) -> None:
+    schema = json_schemas.schema(command)
+    roots = _roots(schema)
+    for root in roots:
+        assert root["type"] in ("object", "array"), root
+        if root["type"] == "object":
+            assert root["required"][0] == "version" and list(root["properties"])[0] == "version"
+            assert root["properties"]["version"]["type"] == "string"
+            # An object document without `version`, or with a number there, fails.
+            validator = Draft202012Validator({**schema, **root})
+            assert "'version' is a required property" in \
+                [e.message for e in validator.iter_errors({})]
+            assert "1 is not of type 'string'" in \
+                [e.message for e in validator.iter_errors({"version": 1})]
+        else:  # `status` and the other lists stay lists: no version inside
+            assert "version" not in json.dumps(root.get("items", {}).get("properties", {}))
+
+
+def test_a_field_named_version_is_refused_rather_than_overwritten(
+        monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> None:
+    """The instrument connection's record number was `version` before 0.1.0 was released:
+    it is `connection_version`, and a document field of that name cannot come back."""
+    from prepbook.cli import output
+
+    with pytest.raises(TypeError, match="version"):
+        output.emit_json({"balance": "BAL-1", "version": 2})
+    assert capsys.readouterr().out == ""
+
+    @dataclasses.dataclass(frozen=True)
+    class Versioned:
+        balance: str
+        version: int
+
+    monkeypatch.setitem(json_schemas.DOCUMENTS, "instrument connect",
+                        (__name__ + ":Versioned",))
+    monkeypatch.setattr(sys.modules[__name__], "Versioned", Versioned, raising=False)
+    with pytest.raises(TypeError, match="Versioned has a field 'version'"):
+        json_schemas.schema("instrument connect")
+
+
+def test_emit_json_puts_version_first_in_objects_only(
+        capsys: pytest.CaptureFixture[str]) -> None:
+    from prepbook.cli import output
+
+    output.emit_json({"b": 1, "a": float("nan")})
+    assert capsys.readouterr().out == \
+        f'{{\n  "version": "{__version__}",\n  "b": 1,\n  "a": null\n}}\n'
+    output.emit_json([{"b": 1}])
+    assert json.loads(capsys.readouterr().out) == [{"b": 1}]
 
 
 @pytest.mark.parametrize("command", json_schemas.commands())
