@@ -106,7 +106,7 @@ def set_up_lab(url: str, benches: int) -> dict[str, str]:
 
 
 def bench(url: str, number: int, batch: str, seconds: float, review_share: float,
-          start_at: float, out: Any) -> None:
+          ready: Any, out: Any) -> None:
     from prepbook.lab.database import open_database
 
     db = open_database(url)
@@ -121,10 +121,9 @@ def bench(url: str, number: int, batch: str, seconds: float, review_share: float
 
     loader.find_spec("NaOH-0.1N")
     reviews.runs_awaiting_review(db)
-    while time.time() < start_at:
-        time.sleep(0.01)
+    ready.wait()  # every bench warmed up: all start together, however long that took
     try:
-        _work(db, rng, log, me, reviewer, batch, start_at + seconds, review_share)
+        _work(db, rng, log, me, reviewer, batch, time.time() + seconds, review_share)
     except Exception as exc:  # reported in the table, never hidden
         log.crashed = f"{type(exc).__name__}: {exc}"
     out.put(log)
@@ -216,12 +215,15 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     mine = set_up_lab(url, benches)
     ctx = mp.get_context("spawn")
     out = ctx.Queue()
-    start_at = time.time() + 3.0 + 0.3 * benches  # every process imported and connected
+    # The clock starts when every process has imported and connected (on a busy machine
+    # that takes far longer than on an idle one).
+    ready = ctx.Barrier(benches + 1)
     procs = [ctx.Process(target=bench, args=(url, b, mine[technician(b)], seconds,
-                                             review_share, start_at, out))
+                                             review_share, ready, out))
              for b in range(benches)]
     for p in procs:
         p.start()
+    ready.wait(timeout=600)
     logs = [out.get(timeout=seconds + 600) for _ in procs]
     for p in procs:
         p.join()
