@@ -365,7 +365,9 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
     used_at = work_time(db, at, "time of use", reason=late_reason)
     with db.session() as s:
         user = acting(s, actor, doing="use batches")
-        b = by_code(s, Batch, code, "batch")
+        # The batch and what its life needs in one query (``by_code`` names close codes
+        # when there is none).
+        b = board.batch_of_code(s, code) or by_code(s, Batch, code, "batch")
         life_row = board.batch_life(s, b, used_at.date())
         if life_row.state != "in-service":
             raise Refused(f"batch {b.code} is {life_row.state} and may not be used")
