@@ -11,13 +11,11 @@ from __future__ import annotations
 import math
 import re
 import sys
-import unicodedata
 from dataclasses import dataclass
 from datetime import UTC, date, datetime, time, tzinfo
 from decimal import Decimal, InvalidOperation
 from typing import TYPE_CHECKING
 
-from prepbook.clock import in_range, to_utc
 from prepbook.errors import InvalidInput
 
 if TYPE_CHECKING:
@@ -55,6 +53,8 @@ def _foreign_character(raw: str) -> str | None:
     """The first non-ASCII character of ``raw``, named (e.g. a digit of another script)."""
     for ch in raw:
         if not ch.isascii():
+            import unicodedata  # only on the failure path
+
             name = unicodedata.name(ch, "unnamed character")
             return f"'{ch}' (U+{ord(ch):04X} {name})"
     return None
@@ -168,6 +168,8 @@ def parse_replicates(texts: list[str], *, amount_name: str = "mass (g)") -> list
 
 def parse_date(text: str, what: str) -> date:
     """An ISO 8601 calendar date (2026-03-31), within the dates the record accepts."""
+    from prepbook.clock import in_range  # the clock loads zoneinfo; only dates need it
+
     raw = text.strip()
     try:
         day = date.fromisoformat(raw) if len(raw) == 10 else None
@@ -185,6 +187,8 @@ def parse_datetime(text: str, what: str, zone: tzinfo = UTC) -> datetime:
     Returned as a naive UTC datetime, the form the record stores. A time that does not
     exist in ``zone`` or occurs twice there (a daylight-saving change) is refused.
     """
+    from prepbook.clock import to_utc  # the clock loads zoneinfo; only dates need it
+
     raw = text.strip()
     try:
         if len(raw) == 10:

@@ -86,6 +86,27 @@ def test_calc_normality_imports_only_its_own_command_module_and_no_periodictable
     assert not {"platformdirs", "tomllib"} & loaded  # no setting needed, no file read
 
 
+def test_calc_normality_builds_no_sample_model_and_reads_no_clock() -> None:
+    """What a standardization does not use stays unloaded: the analytes and ions of sample
+    titrations (built when first asked for, ``catalog.samples``), the lab's clock with its
+    time zones (needed only to parse a date) and the Unicode names (only for an error)."""
+    loaded, out = _run(["calc", "normality", "--standard", "KHP", "--titrant", "NaOH",
+                        "--rep", "0.8123:39.80", "--json"])
+    assert json.loads(out)["normality"] > 0
+    assert "prepbook.catalog.loader" in loaded  # the catalog was loaded, so this means something
+    unused = {"prepbook.catalog.sample_models", "prepbook.catalog.samples", "prepbook.clock",
+              "zoneinfo", "unicodedata"}  # unicodedata names a foreign digit in an error
+    assert sorted(unused & loaded) == []
+
+
+def test_the_check_sees_the_sample_models_of_a_sample_command() -> None:
+    # A sample titration builds them (or the check above could never fail).
+    loaded, out = _run(["calc", "sample", "--analyte", "chloride", "--titrant", "AgNO3",
+                        "--normality", "0.1", "--rep", "12.5", "--aliquot", "25", "--json"])
+    assert json.loads(out)
+    assert "prepbook.catalog.sample_models" in loaded
+
+
 def test_the_check_sees_a_command_module() -> None:
     # Running a group's command loads that group's module (or the checks above prove nothing).
     loaded, _ = _run(["--db", "/nonexistent/prepbook-test.db", "lot", "list"])

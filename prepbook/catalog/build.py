@@ -20,8 +20,7 @@ from prepbook.catalog.models import (
     Reagent,
     SpecDefaults,
 )
-from prepbook.catalog.sample_models import Analyte, AnalyteMethod, Ion
-from prepbook.catalog.shape import FILES, SPEC, SPEC_SOURCED, SPEC_SOURCED_IF_SET
+from prepbook.catalog.shape import FILES, SAMPLE_FILES, SPEC, SPEC_SOURCED, SPEC_SOURCED_IF_SET
 
 
 class _Ghs:
@@ -78,20 +77,15 @@ def _spec(own: Mapping[str, Any], defaults: Mapping[str, Any], where: str, ghs: 
     return SpecDefaults(**fields)
 
 
-def _analyte(a: Mapping[str, Any]) -> Analyte:
-    fields = {k: v for k, v in a.items() if k != "method"}
-    fields["methods"] = tuple(AnalyteMethod(**m) for m in a["method"])
-    fields["sources"] = tuple(sorted(a["sources"].items()))
-    return Analyte(**fields)
-
-
 def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:
-    """Turn the parsed files (keyed by file name) into a Catalog and its shape problems.
+    """Turn the parsed files (keyed by file name) into a Catalog and its shape problems;
+    the analytes and ions (``SAMPLE_FILES``) are left to ``samples.build_samples``.
 
     Kept separate from reading so tests can feed altered data and see it refused.
     """
     problems: list[str] = []
-    read = {name: table.read(data.get(name, {}), name, problems) for name, table in FILES.items()}
+    read = {name: table.read(data.get(name, {}), name, problems)
+            for name, table in FILES.items() if name not in SAMPLE_FILES}
     ghs = _Ghs(read["ghs.toml"]["statements"], read["ghs.toml"]["pictograms"])
     materials = tuple(_material(m, f"materials.toml.material[{i}]", ghs, problems)
                       for i, m in enumerate(read["materials.toml"]["material"]))
@@ -101,8 +95,5 @@ def build_catalog(data: Mapping[str, Any]) -> tuple[Catalog, tuple[str, ...]]:
     specs_file = read["specs.toml"]
     specs = tuple(_spec(own, specs_file["defaults"], f"specs.toml.spec[{i}]", ghs, problems)
                   for i, own in enumerate(specs_file["spec"]))
-    analytes = tuple(_analyte(a) for a in read["analytes.toml"]["analyte"])
-    ions = tuple(Ion(**i) for i in read["ions.toml"]["ion"])
-    catalog = Catalog(materials, reagents, indicators, specs, ghs.statements, ghs.pictograms,
-                      analytes, ions)
+    catalog = Catalog(materials, reagents, indicators, specs, ghs.statements, ghs.pictograms)
     return catalog, tuple(problems)

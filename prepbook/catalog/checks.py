@@ -12,10 +12,11 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from prepbook.catalog.models import (
     ACID_BASE,
+    CONCENTRATION_UNITS,
     INDICATOR_KINDS,
     REACTION_KINDS,
     ROLES,
@@ -31,8 +32,10 @@ from prepbook.catalog.models import (
     lookup_key,
     reaction_for_pair,
 )
-from prepbook.catalog.sample_models import CONCENTRATION_UNITS, Analyte, Ion
 from prepbook.errors import InvalidInput, NotFound
+
+if TYPE_CHECKING:
+    from prepbook.catalog.sample_models import Analyte, Ion, Samples
 
 
 def _formula_problem(formula: str) -> str | None:
@@ -386,12 +389,18 @@ def check_catalog(cat: Catalog) -> tuple[str, ...]:
         out += _check_indicator(i)
     for s in cat.specs:
         out += _check_spec(s, cat)
-    out += _unique(cat.analytes, "analyte")
+    return tuple(out)
+
+
+def check_samples(samples: Samples, cat: Catalog) -> tuple[str, ...]:
+    """Every consistency problem of the analytes and ions (empty when they are sound),
+    their methods judged against the materials and indicators of ``cat``."""
+    out = _unique(samples.analytes, "analyte")
     mats = {m.code: m for m in cat.materials}
     indicator_names = {lookup_key(i.name) for i in cat.indicators}
-    for a in cat.analytes:
+    for a in samples.analytes:
         out += _check_analyte(a, mats, indicator_names)
-    out += _unique(cat.ions, "ion")
-    for ion in cat.ions:
+    out += _unique(samples.ions, "ion")
+    for ion in samples.ions:
         out += _check_ion(ion)
     return tuple(out)

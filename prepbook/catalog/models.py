@@ -11,18 +11,17 @@ from __future__ import annotations
 import functools
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from prepbook.errors import NotFound, PrepbookError
-
-if TYPE_CHECKING:
-    from prepbook.catalog.sample_models import Analyte, Ion
 
 REACTION_KINDS = ("acid-base", "redox", "precipitation", "complexation")
 ROLES = ("primary-standard", "titrant-solute")
 INDICATOR_KINDS = ("acid-base", "redox", "precipitation", "complexation", "self", "instrumental")
 SIGNAL_WORDS = ("Danger", "Warning")
 UNITS = ("N", "M")
+#: How a liquid sample's result is reported: mass of analyte per volume of sample.
+CONCENTRATION_UNITS = ("g/L", "mg/L", "g/100 mL")
 ACID_BASE = ("acid", "base")
 
 #: Words every reagent's and spec's cautions must contain: the owner's safety rule says to
@@ -32,6 +31,15 @@ SDS_DEFERRAL = "safety data sheet"
 
 class CatalogDataError(PrepbookError, ValueError):
     """The catalog's data files are inconsistent (a packaging defect or a bad local edit)."""
+
+
+def refuse_if_any(problems: Iterable[str]) -> None:
+    """Raise CatalogDataError listing every problem, when there is any."""
+    found = list(problems)
+    if found:
+        raise CatalogDataError(
+            f"the catalog data has {len(found)} problem(s):\n  " + "\n  ".join(found)
+        )
 
 
 # --------------------------------------------------------------------------- values
@@ -290,7 +298,8 @@ def lookup_key(text: str) -> str:
     return squashed.replace("·", ".").replace("•", ".").replace("*", ".")
 
 
-def _index(items: Iterable[Any]) -> dict[str, Any]:
+def lookup_index(items: Iterable[Any]) -> dict[str, Any]:
+    """Each entry under the lookup key of each of its ``lookup_names`` (the first wins)."""
     index: dict[str, Any] = {}
     for item in items:
         for k in item.lookup_names:
@@ -298,7 +307,7 @@ def _index(items: Iterable[Any]) -> dict[str, Any]:
     return index
 
 
-def _lookup(index: Mapping[str, Any], label: Callable[[Any], str], what: str, query: str) -> Any:
+def lookup(index: Mapping[str, Any], label: Callable[[Any], str], what: str, query: str) -> Any:
     """Find ``query`` in ``index`` or raise NotFound naming the closest spellings."""
     hit = index.get(lookup_key(query))
     if hit is not None:
@@ -316,7 +325,9 @@ def _lookup(index: Mapping[str, Any], label: Callable[[Any], str], what: str, qu
 
 @dataclass(frozen=True)
 class Catalog:
-    """All built-in reference data, indexed for lookup by code, formula, name or alias."""
+    """The built-in reference data of preparing and standardizing, indexed for lookup by
+    code, formula, name or alias. The analytes and ions of sample titrations are loaded
+    apart, when first asked for (``samples``)."""
 
     materials: tuple[Material, ...]
     reagents: tuple[Reagent, ...]
@@ -324,50 +335,34 @@ class Catalog:
     specs: tuple[SpecDefaults, ...]
     hazard_statements: Mapping[str, str]
     pictogram_names: Mapping[str, str]
-    analytes: tuple[Analyte, ...] = ()
-    ions: tuple[Ion, ...] = ()
 
     @functools.cached_property
     def _material_index(self) -> dict[str, Material]:
-        return _index(self.materials)
+        return lookup_index(self.materials)
 
     @functools.cached_property
     def _reagent_index(self) -> dict[str, Reagent]:
-        return _index(self.reagents)
+        return lookup_index(self.reagents)
 
     @functools.cached_property
     def _indicator_index(self) -> dict[str, Indicator]:
-        return _index(self.indicators)
+        return lookup_index(self.indicators)
 
     @functools.cached_property
     def _spec_index(self) -> dict[str, SpecDefaults]:
-        return _index(self.specs)
+        return lookup_index(self.specs)
 
     def find_material(self, query: str) -> Material:
-        return _lookup(self._material_index, lambda m: m.code, "material", query)
+        return lookup(self._material_index, lambda m: m.code, "material", query)
 
     def find_reagent(self, query: str) -> Reagent:
-        return _lookup(self._reagent_index, lambda r: r.code, "reagent", query)
+        return lookup(self._reagent_index, lambda r: r.code, "reagent", query)
 
     def find_indicator(self, query: str) -> Indicator:
-        return _lookup(self._indicator_index, lambda i: i.name, "indicator", query)
+        return lookup(self._indicator_index, lambda i: i.name, "indicator", query)
 
     def find_spec(self, code: str) -> SpecDefaults:
-        return _lookup(self._spec_index, lambda s: s.code, "solution spec", code)
-
-    @functools.cached_property
-    def _analyte_index(self) -> dict[str, Analyte]:
-        return _index(self.analytes)
-
-    def find_analyte(self, query: str) -> Analyte:
-        return _lookup(self._analyte_index, lambda a: a.code, "analyte", query)
-
-    @functools.cached_property
-    def _ion_index(self) -> dict[str, Ion]:
-        return _index(self.ions)
-
-    def find_ion(self, query: str) -> Ion:
-        return _lookup(self._ion_index, lambda i: i.name, "ion", query)
+        return lookup(self._spec_index, lambda s: s.code, "solution spec", code)
 
 
 # --------------------------------------------------------------------------- pairing

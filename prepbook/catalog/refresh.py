@@ -31,7 +31,7 @@ import sys
 from pathlib import Path
 
 from prepbook.catalog.build import build_catalog
-from prepbook.catalog.models import CatalogDataError
+from prepbook.catalog.models import refuse_if_any
 from prepbook.catalog.parsed_copy import (
     FILES,
     PARSED_COPY,
@@ -41,6 +41,7 @@ from prepbook.catalog.parsed_copy import (
     read_files,
     read_raw,
 )
+from prepbook.catalog.samples import build_samples
 from prepbook.catalog.shape import json_schema
 from prepbook.chem.formula import PRECOMPUTED, molar_mass_live
 
@@ -56,12 +57,13 @@ ABOUT = [
 
 def catalog_formulas() -> tuple[str, ...]:
     """Every formula of the packaged materials and reagents, in file order, once each."""
-    cat, problems = build_catalog(read_files())  # not validated: validation reads the table
-    if problems:
-        raise CatalogDataError("the catalog data has problems:\n  " + "\n  ".join(problems))
+    files = read_files()  # not validated: validation reads the table
+    cat, problems = build_catalog(files)
+    built, sample_problems = build_samples(files)
+    refuse_if_any([*problems, *sample_problems])
     return tuple(dict.fromkeys([*(m.formula for m in cat.materials),
                                 *(g.formula for g in cat.reagents),
-                                *(a.formula for a in cat.analytes)]))
+                                *(a.formula for a in built.analytes)]))
 
 
 def render() -> str:

@@ -2,19 +2,32 @@
 
 ``Analyte`` is what a sample is titrated for, with the ways of titrating it
 (``AnalyteMethod``, one per titrant and endpoint); ``method_for`` picks the method for a
-titrant. ``Ion`` carries an ion's charge and acid/base system for a salt's pH. Nothing
-here reads a file (``shape`` and ``build`` do); ``checks`` judges them.
+titrant. ``Ion`` carries an ion's charge and acid/base system for a salt's pH.
+``Samples`` holds them all, indexed for lookup; ``AnalyteTitration`` is an analyte with
+one titrant as the computation takes it. Nothing here reads a file (``samples`` loads
+them); ``checks`` judges them.
 """
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-from prepbook.catalog.models import Material, lookup_key
+from prepbook.catalog.models import (
+    CONCENTRATION_UNITS,
+    Material,
+    lookup,
+    lookup_index,
+    lookup_key,
+)
 from prepbook.errors import NotFound
 
-#: How a liquid sample's result is reported: mass of analyte per volume of sample.
-CONCENTRATION_UNITS = ("g/L", "mg/L", "g/100 mL")
+if TYPE_CHECKING:
+    from prepbook.chem.sample import Analyte as SampleAnalyte
+
+__all__ = ["CONCENTRATION_UNITS", "Analyte", "AnalyteMethod", "AnalyteTitration", "Ion",
+           "Samples", "method_for"]
 
 
 @dataclass(frozen=True)
@@ -121,3 +134,45 @@ class Ion:
     def lookup_names(self) -> tuple[str, ...]:
         """What finds it: name, formula and aliases."""
         return (self.name, self.formula, *self.aliases)
+
+
+@dataclass(frozen=True)
+class Samples:
+    """The built-in analytes and ions, indexed for lookup by code, name, formula or alias."""
+
+    analytes: tuple[Analyte, ...]
+    ions: tuple[Ion, ...]
+
+    @functools.cached_property
+    def _analyte_index(self) -> dict[str, Analyte]:
+        return lookup_index(self.analytes)
+
+    def find_analyte(self, query: str) -> Analyte:
+        return lookup(self._analyte_index, lambda a: a.code, "analyte", query)
+
+    @functools.cached_property
+    def _ion_index(self) -> dict[str, Ion]:
+        return lookup_index(self.ions)
+
+    def find_ion(self, query: str) -> Ion:
+        return lookup(self._ion_index, lambda i: i.name, "ion", query)
+
+
+@dataclass(frozen=True)
+class AnalyteTitration:
+    """An analyte with one titrant, as ``prepbook.chem.sample`` computes it.
+
+    ``analyte``/``method``: the catalog's entries; ``titrant`` the titrant's material and
+    ``titrant_n_eq_per_mol`` its n in the reaction the method pairs with (to turn a
+    molarity into a normality); ``excess_reagent`` and its n for a back-titration (else
+    None); ``computed``: the analyte in the terms of the computation, molar masses
+    included (with their atomic-weight uncertainty).
+    """
+
+    analyte: Analyte
+    method: AnalyteMethod
+    titrant: Material
+    titrant_n_eq_per_mol: float
+    excess_reagent: Material | None
+    excess_reagent_n_eq_per_mol: float | None
+    computed: SampleAnalyte

@@ -23,13 +23,13 @@ from typing import Any
 
 from prepbook.catalog.models import (
     ACID_BASE,
+    CONCENTRATION_UNITS,
     INDICATOR_KINDS,
     REACTION_KINDS,
     ROLES,
     SIGNAL_WORDS,
     UNITS,
 )
-from prepbook.catalog.sample_models import CONCENTRATION_UNITS
 
 TEXT, NUMBER, WHOLE, TEXTS, NUMBERS, TEXT_MAP, TABLE, TABLES = (
     "text", "number", "whole", "texts", "numbers", "text map", "table", "tables")
@@ -331,6 +331,9 @@ FILES: dict[str, Table] = {
     "analytes.toml": Table("analytes", {"analyte": Field(TABLES, (), table=ANALYTE)}),
     "ions.toml": Table("ions", {"ion": Field(TABLES, (), table=ION)}),
 }
+
+#: The files of sample titrations, built apart and only when asked for (``samples``).
+SAMPLE_FILES = ("analytes.toml", "ions.toml")
 
 
 # --------------------------------------------------------------------------- JSON Schema

@@ -70,11 +70,11 @@ def compute(inputs: SampleInputs, normality: float, normality_u: float | None
             ) -> SampleCalc:
     """The sample's result with this titrant normality (eq/L) and its standard
     uncertainty, by the same path as `prepbook calc sample` (``lab.sample_calcs``)."""
-    from prepbook.catalog import loader
+    from prepbook.catalog import samples
     from prepbook.chem.uncertainty import COVERAGE_FACTOR
     from prepbook.lab import sample_calcs
 
-    way = loader.analyte_titration(inputs.analyte, inputs.titrant, inputs.reaction)
+    way = samples.analyte_titration(inputs.analyte, inputs.titrant, inputs.reaction)
     if way.excess_reagent is not None:
         raise InvalidInput(f"{way.analyte.name} by {way.method.name} is a back-titration; "
                            "an assay records direct titrations only")

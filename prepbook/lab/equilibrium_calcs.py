@@ -118,10 +118,10 @@ def eqpoint(*, analyte: str, titrant: str, concentration_text: str,
     """The pH at the equivalence point of an analyte's acid-base titration with a strong
     titrant, at ``concentration_text`` formula units per litre there; each catalog
     indicator judged by its titration error; and the pH at each equivalence point."""
-    from prepbook.catalog import loader
+    from prepbook.catalog import loader, samples
     from prepbook.chem import equilibria, indicators
 
-    found = loader.analyte_titration(analyte, titrant, method)
+    found = samples.analyte_titration(analyte, titrant, method)
     a, way = found.analyte, found.method
     if way.kind != "acid-base" or way.is_back_titration:
         raise InvalidInput(f"{a.name} by {way.name} is not a direct acid-base titration: "
@@ -197,12 +197,12 @@ class SaltCalc:
 
 def salt(*, cation: str, anion: str, concentration_text: str) -> SaltCalc:
     """The pH of a salt's solution from its ions' constants (``chem.salts``)."""
-    from prepbook.catalog import loader
+    from prepbook.catalog import samples
     from prepbook.chem import salts
 
     ions = []
     for query, sign, what in ((cation, 1, "cation"), (anion, -1, "anion")):
-        ion = loader.find_ion(query)
+        ion = samples.find_ion(query)
         if ion.charge * sign <= 0:
             raise InvalidInput(f"{ion.name} ({ion.formula}) is not a {what}")
         ions.append(ion)

@@ -1,7 +1,7 @@
 """The database-free sample calculation behind ``prepbook calc sample``.
 
 Takes the values as typed (strings), finds the analyte, its method and the titrant in the
-built-in catalog (``catalog.loader.analyte_titration``), computes with
+built-in catalog (``catalog.samples.analyte_titration``), computes with
 ``prepbook.chem.sample`` and returns a frozen dataclass whose fields are the keys of the
 command's JSON. No SQLAlchemy here.
 """
@@ -15,7 +15,7 @@ from prepbook.errors import InvalidInput
 from prepbook.inputs import Reading, parse_number, parse_percent
 
 if TYPE_CHECKING:
-    from prepbook.catalog.loader import AnalyteTitration
+    from prepbook.catalog.sample_models import AnalyteTitration
     from prepbook.chem.sample import SampleResult
     from prepbook.chem.uncertainty import BudgetLine
 
@@ -162,7 +162,7 @@ def sample(
     burette_capacity_ml: str | None = None,
 ) -> SampleCalc:
     """The analyte in a sample titrated with a standardized titrant (see chem.sample)."""
-    from prepbook.catalog.loader import analyte_titration
+    from prepbook.catalog.samples import analyte_titration
     from prepbook.chem import sample as chem
 
     found = analyte_titration(analyte, titrant, method)

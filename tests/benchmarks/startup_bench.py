@@ -76,8 +76,11 @@ def measure(repeat: int = 20) -> dict[str, float]:
 
 def report(repeat: int) -> None:
     """Print the start-up figures side by side with their targets."""
+    load = os.getloadavg()  # other work on the machine: the wall times suffer most
     m = measure(repeat)
-    print(f"start-up: median of {repeat} runs each; Python {sys.version.split()[0]}")
+    after = os.getloadavg()
+    print(f"start-up: median of {repeat} runs each; Python {sys.version.split()[0]}; "
+          f"{os.cpu_count()} CPUs, load average {load[0]:.2f} before, {after[0]:.2f} after")
     print(f"  {'':31} {'wall':<15}  {'processor':<15}")
     label = "python -c 'import typer'"
     print(f"  {label:31} {m['typer']:6.1f} ms {'':5}  {m['typer_cpu']:6.1f} ms")

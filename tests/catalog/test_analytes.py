@@ -10,8 +10,8 @@ import pytest
 
 import prepbook.catalog.loader as loader
 from prepbook.catalog import CatalogDataError, find_material, load_catalog
-from prepbook.catalog.loader import analyte_titration, analytes, find_analyte
 from prepbook.catalog.sample_models import method_for
+from prepbook.catalog.samples import analyte_titration, analytes, find_analyte, load_samples
 from prepbook.errors import NotFound
 from tests.catalog.test_reactions import _coefficient, _parse, total
 
@@ -121,8 +121,9 @@ def test_bad_analyte_entries_are_refused(data_dir: Path, old: str, new: str,
     text = path.read_text(encoding="utf-8")
     assert old in text, old
     path.write_text(text.replace(old, new, 1), encoding="utf-8")
+    assert load_catalog(data_dir).materials  # preparing and standardizing read no analyte
     with pytest.raises(CatalogDataError, match=problem):
-        load_catalog(data_dir)
+        load_samples(data_dir)
 
 
 @pytest.mark.parametrize(("old", "new", "problem"), [
@@ -137,5 +138,6 @@ def test_bad_ion_entries_are_refused(data_dir: Path, old: str, new: str, problem
     text = path.read_text(encoding="utf-8")
     assert old in text, old
     path.write_text(text.replace(old, new, 1), encoding="utf-8")
+    assert load_catalog(data_dir).materials  # preparing and standardizing read no analyte
     with pytest.raises(CatalogDataError, match=problem):
-        load_catalog(data_dir)
+        load_samples(data_dir)

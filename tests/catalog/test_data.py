@@ -24,6 +24,8 @@ from prepbook.catalog import (
     reagents,
     specs,
 )
+from prepbook.catalog.checks import check_samples
+from prepbook.catalog.samples import load_samples, samples
 from prepbook.errors import NotFound
 
 # The spec codes the project brief requires to exist (exact spelling).
@@ -47,6 +49,8 @@ def test_packaged_catalog_passes_its_own_validation() -> None:
     assert check_catalog(catalog()) == ()
     fresh = load_catalog()  # uncached path, same data
     assert [m.code for m in fresh.materials] == [m.code for m in materials()]
+    assert check_samples(samples(), catalog()) == ()
+    assert load_samples() == samples()  # uncached path, same data
 
 
 @pytest.mark.parametrize("code", REQUIRED_SPECS)

@@ -18,7 +18,7 @@ from pathlib import Path
 import pytest
 
 from prepbook.catalog import materials, reagents, refresh
-from prepbook.catalog.loader import analytes
+from prepbook.catalog.samples import analytes
 from prepbook.chem import formula
 
 

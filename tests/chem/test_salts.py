@@ -18,7 +18,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as s
 
-from prepbook.catalog.loader import find_ion
+from prepbook.catalog.samples import find_ion
 from prepbook.chem.salts import Ion, salt_ph
 
 KW = 1e-14

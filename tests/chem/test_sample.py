@@ -13,7 +13,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as s
 
-from prepbook.catalog.loader import analyte_titration
+from prepbook.catalog.samples import analyte_titration
 from prepbook.chem.sample import (
     Analyte,
     ExcessReagent,
