@@ -11,6 +11,7 @@ from __future__ import annotations
 from alembic import context
 from sqlalchemy import Connection, create_engine, pool
 
+from prepbook.store.audit.schema_check import comparing
 from prepbook.store.models import Base
 
 config = context.config
@@ -24,10 +25,10 @@ def _url() -> str:
     return str(url)
 
 
-def _configure(**kwargs: object) -> None:
+def _configure(backend: str, **kwargs: object) -> None:
     context.configure(
         target_metadata=target_metadata,
-        compare_type=True,
+        **comparing(backend),
         **kwargs,  # type: ignore[arg-type]
     )
 
@@ -36,6 +37,7 @@ def run_migrations_offline() -> None:
     """Emit SQL to stdout instead of running it (``--sql`` mode)."""
     url = _url()
     _configure(
+        url.partition(":")[0].partition("+")[0],
         url=url,
         literal_binds=True,
         dialect_opts={"paramstyle": "named"},
@@ -46,7 +48,8 @@ def run_migrations_offline() -> None:
 
 
 def _run(connection: Connection) -> None:
-    _configure(connection=connection, render_as_batch=connection.dialect.name == "sqlite")
+    backend = connection.dialect.name
+    _configure(backend, connection=connection, render_as_batch=backend == "sqlite")
     with context.begin_transaction():
         context.run_migrations()
 

@@ -40,7 +40,10 @@ from prepbook.store.models import Batch, Instrument, Lot, Replicate, Review, Run
 
 def next_code(session: Session, model: type[Batch] | type[Run], prefix: str) -> str:
     """The next free code ``prefix-N`` (N counts up per prefix)."""
-    taken = set(session.scalars(_codes_like(model), {"like": f"{prefix}-%"}))
+    query = _codes_from(model, session.get_bind().dialect.name)
+    # Every code starting ``prefix-``: from ``prefix-`` up to ``prefix.`` ("." follows
+    # "-"), compared byte by byte, so the index on the codes serves it (see ``_codes_from``).
+    taken = set(session.scalars(query, {"low": f"{prefix}-", "high": f"{prefix}."}))
     n = len(taken) + 1
     while f"{prefix}-{n}" in taken:
         n += 1
@@ -48,8 +51,13 @@ def next_code(session: Session, model: type[Batch] | type[Run], prefix: str) -> 
 
 
 @functools.cache
-def _codes_like(model: type[Batch] | type[Run]) -> Any:
-    return select(model.code).where(model.code.like(bindparam("like")))
+def _codes_from(model: type[Batch] | type[Run], dialect: str) -> Any:
+    """The codes in a range compared byte by byte, found through an index under any
+    collation: PostgreSQL's index on ``code COLLATE "C"`` (the database's own collation,
+    en_US.UTF-8 say, orders "-" and "." by other rules, and LIKE 'P-%' uses no index
+    under it); SQLite's own index on the codes (BINARY, byte by byte already)."""
+    code = model.code.collate("C") if dialect == "postgresql" else model.code
+    return select(model.code).where(code >= bindparam("low"), code < bindparam("high"))
 
 
 @functools.cache
@@ -357,7 +365,9 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
     used_at = work_time(db, at, "time of use", reason=late_reason)
     with db.session() as s:
         user = acting(s, actor, doing="use batches")
-        b = by_code(s, Batch, code, "batch")
+        # The batch and what its life needs in one query (``by_code`` names close codes
+        # when there is none).
+        b = board.batch_of_code(s, code) or by_code(s, Batch, code, "batch")
         life_row = board.batch_life(s, b, used_at.date())
         if life_row.state != "in-service":
             raise Refused(f"batch {b.code} is {life_row.state} and may not be used")

@@ -19,7 +19,14 @@ from sqlalchemy.orm import Session, aliased
 from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
-from prepbook.lab.common import iso, life_facts, life_result, setting
+from prepbook.lab.common import (
+    iso,
+    life_facts,
+    life_result,
+    remember_batch,
+    remembered,
+    setting,
+)
 from prepbook.lab.volumes import remaining_volumes
 from prepbook.rules import life
 from prepbook.store.engine import Database
@@ -243,6 +250,17 @@ def _lead_days(session: Session) -> int:
         return int(setting(session, "warning_lead_days", str(DEFAULT_LEAD_DAYS)))
     except ValueError:
         return DEFAULT_LEAD_DAYS
+
+
+def batch_of_code(session: Session, code: str) -> Batch | None:
+    """The batch with this code, read with what its life is computed from (one query)."""
+    known = remembered(session, Batch, code)
+    if known is not None:
+        return known
+    rows = _batch_rows(session, Batch.code == code)
+    if rows:
+        remember_batch(session, rows[0][0], rows[0])
+    return rows[0][0] if rows else None
 
 
 def batch_life(session: Session, batch: Batch, today: date) -> BatchLife:

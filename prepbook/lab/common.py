@@ -106,6 +106,22 @@ def life_facts(session: Session, batch_id: int, read_batch: Callable[[], T2],
     return held, runs
 
 
+def remembered(session: Session, model: type[T], code: str) -> T | None:
+    """The row of ``model`` with this code if this transaction already looked it up."""
+    return _remembered(session, (model, code))  # type: ignore[no-any-return]
+
+
+def remember_batch(session: Session, batch: Batch, facts: tuple[Any, ...]) -> None:
+    """Keep a batch read by its code together with its part of ``life_facts`` (one query
+    where a lookup by code and then by id took two): later lookups of either in this
+    transaction need no query."""
+    memo = _memo(session)
+    memo[(Batch, batch.code)] = batch
+    memo.setdefault(_LIFE, {})[batch.id] = facts
+    for key in (_LIFE_RUNS, _LIFE_DONE):
+        memo.setdefault(key, {}).pop(batch.id, None)
+
+
 def life_result(session: Session, batch_id: int, key: Any, compute: Callable[[], T3]) -> T3:
     """A batch's life for ``key`` (the day and lead time), computed once from the facts
     ``life_facts`` holds and dropped with them."""
@@ -117,13 +133,12 @@ def life_result(session: Session, batch_id: int, key: Any, compute: Callable[[],
 
 def find_by_code(session: Session, model: type[T], code: str) -> T | None:
     """The row of ``model`` with this code, or None (looked up once per transaction)."""
-    key = (model, code)
-    row = _remembered(session, key)
+    row = remembered(session, model, code)
     if row is not None:
-        return row  # type: ignore[no-any-return]
+        return row
     row = session.scalars(_by_code_query(model), {"code": code}).first()
     if row is not None:
-        _memo(session)[key] = row
+        _memo(session)[(model, code)] = row
     return row
 
 

@@ -130,11 +130,6 @@ def _install_sqlite_pragmas(engine: Engine, *, foreign_keys: bool) -> None:
             with suppress(sqlite3.OperationalError):
                 cursor.execute("PRAGMA journal_mode = WAL")
             cursor.execute(f"PRAGMA foreign_keys = {'ON' if foreign_keys else 'OFF'}")
-            # LIKE as PostgreSQL has it, case-sensitive (codes are): then SQLite finds
-            # ``code LIKE 'prefix-%'`` (the next free code) through the index on code
-            # instead of reading every code, which on ten years of runs costs a scan
-            # of 25,000 codes per standardization.
-            cursor.execute("PRAGMA case_sensitive_like = ON")
         finally:
             cursor.close()
 

@@ -14,6 +14,7 @@ from alembic.runtime.migration import MigrationContext
 from sqlalchemy import inspect
 
 from prepbook.store import migrate
+from prepbook.store.audit.schema_check import comparing
 from prepbook.store.engine import Database, open_database
 from prepbook.store.models import Base
 
@@ -26,7 +27,7 @@ def test_head_constant_matches_the_shipped_revisions() -> None:
 
 def test_upgraded_schema_has_no_difference_from_the_models(db: Database) -> None:
     with db.engine.connect() as conn:
-        context = MigrationContext.configure(conn, opts={"compare_type": True})
+        context = MigrationContext.configure(conn, opts=comparing(conn.dialect.name))
         assert compare_metadata(context, Base.metadata) == []
 
 

@@ -21,6 +21,7 @@ from sqlalchemy.engine import make_url
 
 from prepbook.errors import DatabaseError
 from prepbook.store import audit, migrate
+from prepbook.store.audit.schema_check import comparing
 from prepbook.store.engine import Database, open_database
 from prepbook.store.models import AuditEvent, Base, Batch, Setting
 from prepbook.store.snapshot import snapshot
@@ -84,7 +85,7 @@ def test_schema_matches_the_models(pg: Database) -> None:
     from alembic.runtime.migration import MigrationContext
 
     with pg.engine.connect() as conn:
-        context = MigrationContext.configure(conn, opts={"compare_type": True})
+        context = MigrationContext.configure(conn, opts=comparing(conn.dialect.name))
         assert compare_metadata(context, Base.metadata) == []
         inspector = inspect(conn)
         for table in Base.metadata.sorted_tables:

@@ -128,21 +128,30 @@ def head_code(session: Session) -> str | None:
 
 
 def keying(conn: Connection) -> Keying | None:
-    """The trail's keying row, if it was recorded, with the keys changed since applied
-    (one statement on the write path: the row joined with every change)."""
-    rows = conn.execute(
-        select(_KEYING.c.lab_id, _KEYING.c.scheme, _KEYING.c.key_fingerprint,
-               _KEYING.c.public_key, rekeying.TABLE.c.id, *rekeying.COLUMNS)
-        .select_from(_KEYING.outerjoin(rekeying.TABLE, true()))
-        .where(_KEYING.c.id == 1).order_by(rekeying.TABLE.c.id)).all()
-    if not rows:
+    """The trail's keying row, if it was recorded, with the keys changed since applied."""
+    return keying_of(conn.execute(
+        select(*KEYING_COLUMNS).select_from(_KEYING.outerjoin(rekeying.TABLE, true()))
+        .where(_KEYING.c.id == 1).order_by(rekeying.TABLE.c.id)).all())
+
+
+# The keying row's columns, then a change of key's (one row per change, or one row of
+# the keying alone): ``keying_of`` reads them from the end of each row, so a query may
+# put columns of its own before them (the writer reads the head in the same statement).
+KEYING_COLUMNS = (_KEYING.c.lab_id, _KEYING.c.scheme, _KEYING.c.key_fingerprint,
+                  _KEYING.c.public_key, rekeying.TABLE.c.id, *rekeying.COLUMNS)
+
+
+def keying_of(rows: Any) -> Keying | None:
+    """The keying from rows ending in ``KEYING_COLUMNS`` (None: no keying recorded)."""
+    tails = [tuple(r)[-len(KEYING_COLUMNS):] for r in rows]
+    if not tails or tails[0][0] is None:
         return None
-    row = rows[0]
-    changes = tuple(rekeying.of_row(tuple(r)[5:]) for r in rows if r[4] is not None)
-    return Keying(row.lab_id, row.scheme,
-                  rekeying.current(row.key_fingerprint, changes, rekeying.AUDIT),
-                  rekeying.current(row.public_key, changes, rekeying.SIGNING),
-                  changes, row.key_fingerprint, row.public_key)
+    lab_id, scheme, fingerprint, public_key = tails[0][:4]
+    changes = tuple(rekeying.of_row(t[5:]) for t in tails if t[4] is not None)
+    return Keying(lab_id, scheme,
+                  rekeying.current(fingerprint, changes, rekeying.AUDIT),
+                  rekeying.current(public_key, changes, rekeying.SIGNING),
+                  changes, fingerprint, public_key)
 
 
 def record_keying(conn: Connection, scheme: str, fingerprint: str | None) -> Keying:

@@ -29,13 +29,24 @@ def schema_problems(conn: Connection) -> list[str]:
 
     from prepbook.store.models import Base
 
-    context = MigrationContext.configure(conn, opts={"compare_type": True})
+    context = MigrationContext.configure(conn, opts=comparing(conn.dialect.name))
     problems = [_described(diff) for diff in _flat(compare_metadata(context, Base.metadata))]
     if conn.dialect.name == "sqlite":
         problems += _sqlite_extras(conn)
     else:
         problems += _postgresql_extras(conn)
     return problems
+
+
+def comparing(backend: str) -> dict[str, Any]:
+    """Alembic's options for comparing a live ``backend`` ("sqlite", "postgresql") schema
+    with the models: column types too, and an index the models mark for one backend
+    only (``info={"backend": ...}``) only there."""
+    def include(obj: Any, _name: Any, kind: str, _reflected: bool, _compare_to: Any) -> bool:
+        only = obj.info.get("backend") if kind == "index" else None
+        return only is None or only == backend
+
+    return {"compare_type": True, "include_object": include}
 
 
 def damage_problems(conn: Connection, *, thorough: bool = False) -> list[str]:

@@ -13,11 +13,11 @@ import os
 import socket
 from datetime import UTC, datetime
 
-from sqlalchemy import Connection, Table, bindparam, insert, select, update
+from sqlalchemy import Connection, Table, bindparam, insert, select, true, update
 from sqlalchemy.orm import Session
 
 from prepbook.errors import IntegrityError, InvalidInput, Refused
-from prepbook.store.audit import checkpoints
+from prepbook.store.audit import checkpoints, rekeying
 from prepbook.store.audit.chain import (
     CLOCK_TOLERANCE,
     KEY_ENV,
@@ -30,7 +30,14 @@ from prepbook.store.audit.chain import (
     read_key,
     utc_naive,
 )
-from prepbook.store.models import AUDITED_TABLES, AuditEvent, AuditHead, Base, table_of
+from prepbook.store.models import (
+    AUDITED_TABLES,
+    AuditEvent,
+    AuditHead,
+    AuditKeying,
+    Base,
+    table_of,
+)
 from prepbook.store.snapshot import snapshot
 
 _EVENTS = table_of(AuditEvent)
@@ -39,6 +46,17 @@ _HEAD = table_of(AuditHead)
 _ADD_EVENT = insert(_EVENTS)
 _MOVE_HEAD = (update(_HEAD).where(_HEAD.c.id == 1)
               .values(seq=bindparam("new_seq"), hash=bindparam("new_hash")))
+_KEYING = table_of(AuditKeying)
+# What a transaction's first event needs, in one statement (one round trip under the
+# writer lock): the head (locked), the time of its event, and the trail's keying with
+# every change of key (one row per change; ``checkpoints.keying_of``).
+_HEAD_AND_KEYING = (
+    select(_HEAD.c.seq, _HEAD.c.hash,
+           select(_EVENTS.c.at).where(_EVENTS.c.seq == _HEAD.c.seq).scalar_subquery(),
+           *checkpoints.KEYING_COLUMNS)
+    .select_from(_HEAD.outerjoin(_KEYING, _KEYING.c.id == 1)
+                 .outerjoin(rekeying.TABLE, true()))
+    .where(_HEAD.c.id == 1).order_by(rekeying.TABLE.c.id).with_for_update(of=_HEAD))
 
 
 @functools.cache
@@ -51,14 +69,13 @@ def writer() -> tuple[str, str]:
     return login, socket.gethostname() or "unknown"
 
 
-def _check_keying(conn: Connection, head_hash: str | None, scheme: str,
-                  fingerprint: str | None) -> None:
-    """Refuse a bench whose audit key is not the one the trail is kept with.
+def _check_keying(conn: Connection, kept: checkpoints.Keying | None, head_hash: str | None,
+                  scheme: str, fingerprint: str | None) -> None:
+    """Refuse a bench whose audit key is not the one the trail is kept with (``kept``).
 
     The keying is recorded at the first write (an older trail: at its first write
     since, from the scheme of its head).
     """
-    kept = checkpoints.keying(conn)
     if kept is None:
         if head_hash is not None and not head_hash.startswith(f"{scheme}:"):
             kept = checkpoints.Keying("", head_hash.partition(":")[0], None, None)
@@ -80,7 +97,8 @@ def _check_keying(conn: Connection, head_hash: str | None, scheme: str,
 def _locked_head(session: Session, scheme: str,
                  fingerprint: str | None) -> tuple[int, str | None, datetime | None]:
     """The chain's head (seq, hash, time of its event), read and locked once per
-    transaction, with the writer's key checked against the trail's.
+    transaction, with the writer's key checked against the trail's (read in the same
+    statement).
 
     The first event of a transaction reads the head FOR UPDATE (on SQLite the
     BEGIN IMMEDIATE write lock already excludes other writers); until that
@@ -92,18 +110,18 @@ def _locked_head(session: Session, scheme: str,
     if held is not None and held[0] is transaction:
         return held[1], held[2], held[3]
     conn = session.connection()
-    row = conn.execute(select(_HEAD.c.seq, _HEAD.c.hash).where(_HEAD.c.id == 1)
-                       .with_for_update()).first()
-    if row is None:
+    rows = conn.execute(_HEAD_AND_KEYING).all()
+    if not rows:
         # Only a schema built without the migration lacks the seeded head row.
         if conn.execute(select(_EVENTS.c.seq).limit(1)).first() is not None:
             raise IntegrityError("the audit head row is missing: run `prepbook audit verify`")
         conn.execute(insert(_HEAD).values(id=1, seq=0, hash=None))
-        row_seq, row_hash = 0, None
+        row_seq, row_hash, last_at = 0, None, None
+        kept = checkpoints.keying(conn)
     else:
-        row_seq, row_hash = int(row.seq), row.hash
-    _check_keying(conn, row_hash, scheme, fingerprint)
-    last_at = conn.execute(select(_EVENTS.c.at).where(_EVENTS.c.seq == row_seq)).scalar()
+        row_seq, row_hash, last_at = int(rows[0][0]), rows[0][1], rows[0][2]
+        kept = checkpoints.keying_of(rows)
+    _check_keying(conn, kept, row_hash, scheme, fingerprint)
     return row_seq, row_hash, last_at
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from datetime import datetime
 
-from sqlalchemy import CheckConstraint, ForeignKey, Text, UniqueConstraint
+from sqlalchemy import CheckConstraint, ForeignKey, Index, Text, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from prepbook.store.models.base import Base
@@ -79,3 +79,13 @@ class AssayReplicate(Base):
 
 
 # Every table whose rows the audit trail vouches for (all but the trail itself).
+
+
+# The next free code (``lab.batches.next_code``) is looked up as a range of codes compared
+# byte by byte. SQLite's own index on each code column is BINARY (byte by byte) and serves
+# it; on PostgreSQL the column's index follows the database's collation (en_US.UTF-8,
+# say), so revision d3f5a7c9e1b2 adds these there, on ``code COLLATE "C"``. Declared on
+# the column (Alembic compares an index's columns, not their collation) and marked for
+# PostgreSQL only (``store.audit.schema_check.comparing``).
+for _model in (Batch, Run, Assay):
+    Index(f"ix_{_model.__tablename__}_code_bytes", _model.code, info={"backend": "postgresql"})
