@@ -62,11 +62,14 @@ def test_at_is_wall_clock_time_in_the_lab_zone_and_stored_in_utc(bench: Cli, zon
 def test_the_batch_code_takes_the_lab_date_east_and_west_of_utc(bench: Cli) -> None:  # noqa: F811
     """08:00 in Tokyo is 23:00 UTC the day before; 20:00 in Chicago is 01:00 or 02:00 UTC
     the day after: each code carries the date on the lab's own calendar."""
-    day = (datetime.now(UTC) - timedelta(days=1)).date()
+    # Two days back, so that 20:00 in Chicago is past at any hour the tests run; with a
+    # reason, as 08:00 in Tokyo two days back can be more than 72 h ago.
+    day = (datetime.now(UTC) - timedelta(days=2)).date()
     for zone, clock in ((EAST, "08:00"), (WEST, "20:00")):
         _set_zone(bench, zone)
         made = bench.json("batch", "make", "NaOH-0.1N", "--volume", "1000", "--solute-mass",
-                          "4.1", "--at", f"{day.isoformat()}T{clock}", user="ben")
+                          "4.1", "--at", f"{day.isoformat()}T{clock}",
+                          "--reason", "from the bench log", user="ben")
         utc_day = datetime.fromisoformat(_last_event(bench)["performed_at"]).date()
         assert utc_day != day  # the two calendars differ at this hour
         assert made["batch"].startswith(f"NaOH-0.1N-{day:%y%m%d}-")
