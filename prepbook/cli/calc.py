@@ -68,11 +68,31 @@ BURETTE_TOLERANCE = typer.Option(
 TEMP_RANGE = typer.Option(
     "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
 )
+SOLVENT = typer.Option(
+    None, "--solvent", metavar="NAME",
+    help="The titrant's solvent: water, or one the catalog knows (glacial acetic acid), "
+         "carried with its stated cubic expansion; another needs --expansion."
+)
+EXPANSION = typer.Option(
+    None, "--expansion", metavar="PER_C",
+    help="The solvent's cubic expansion coefficient per C (with --solvent and "
+         "--expansion-source)."
+)
+EXPANSION_SOURCE = typer.Option(
+    None, "--expansion-source", metavar="TEXT",
+    help="Where the expansion coefficient comes from (required with --expansion)."
+)
 REPEATABILITY = typer.Option(
     None, "--repeatability", metavar="RSD%",
     help="Validated repeatability, relative SD of one result in % (e.g. from the method "
          "validation); used in the budget instead of the replicates' scatter."
 )
+
+
+def _expansion_used(solvent: str | None, per_c: float | None) -> str:
+    """How a normality was carried between temperatures, in words."""
+    return (f"{output.text(solvent or '')}'s cubic expansion {per_c:g} per C"
+            if per_c is not None else "water's density")
 
 
 def _notes(out: Any, notes: Sequence[str]) -> None:
@@ -122,6 +142,17 @@ def normality(
              "carbonate: acid-base-first, n = 1, to the first endpoint); default: the one "
              "that pairs with the titrant."
     ),
+    temp: str = typer.Option(
+        None, "--temp", metavar="C",
+        help="Temperature of the standardization, C: the normality is also carried to "
+             "20 C with the titrant's solvent (--spec or --solvent; default water, "
+             "refused for a titrant the catalog makes only in another solvent)."
+    ),
+    spec: str = typer.Option(None, "--spec", metavar="SPEC", help="The titrant's spec "
+                             "(e.g. HClO4-0.1N): a non-aqueous one expands like its solvent."),
+    solvent: str = SOLVENT,
+    expansion: str = EXPANSION,
+    expansion_source: str = EXPANSION_SOURCE,
     as_json: bool = JSON,
 ) -> None:
     """Normality of a titrant from replicate titrations of a weighed primary standard."""
@@ -141,6 +172,11 @@ def normality(
         temperature_range_c=temp_range,
         repeatability_percent=repeatability,
         reaction=reaction,
+        temperature_c=temp,
+        spec=spec,
+        solvent=solvent,
+        expansion_per_c=expansion,
+        expansion_source=expansion_source,
     )
     if as_json:
         output.emit_json(result)
@@ -175,6 +211,11 @@ def normality(
     out.print(line)
     if result.molarity is not None:
         out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
+    if result.normality_20c is not None and result.temperature_c is not None:
+        out.print(f"N(20 C) = [bold]{output.sig(result.normality_20c, 5)} eq/L[/bold], "
+                  f"carried from {result.temperature_c:g} C with "
+                  f"{_expansion_used(result.solvent, result.expansion_per_c)} "
+                  f"({output.text(result.expansion_source or '')})")
     from prepbook.cli.budget_view import uncertainty
 
     uncertainty(out, result.u, result.U, result.k, result.budget)
@@ -403,13 +444,17 @@ def temperature(
     to_c: str = typer.Option(..., "--to", metavar="C", help="Temperature of use, C."),
     spec: str = typer.Option(None, "--spec", metavar="SPEC", help="The titrant's spec "
                              "(e.g. HClO4-0.1N): a non-aqueous one expands like its solvent."),
+    solvent: str = SOLVENT,
+    expansion: str = EXPANSION,
+    expansion_source: str = EXPANSION_SOURCE,
     as_json: bool = JSON,
 ) -> None:
-    """Normality at another temperature (water's density, or the spec's solvent's)."""
+    """Normality at another temperature (water's density, or the solvent's expansion)."""
     from prepbook.lab import preparing
 
     result = preparing.temperature(normality_text=normality, from_text=from_c, to_text=to_c,
-                                   spec=spec)
+                                   spec=spec, solvent=solvent, expansion_text=expansion,
+                                   expansion_source=expansion_source)
     if as_json:
         output.emit_json(result)
         return
@@ -418,8 +463,7 @@ def temperature(
         f"N = [bold]{output.sig(result.normality, 6)} eq/L[/bold] at {result.to_c:g} C "
         f"(factor {result.ratio:.6f} from {result.from_c:g} C)"
     )
-    used = (f"{result.solvent}'s cubic expansion {result.expansion_per_c:g} per C"
-            if result.expansion_per_c is not None else "water's density")
+    used = _expansion_used(result.solvent, result.expansion_per_c)
     out.print(f"carried with {used} ({output.text(result.expansion_source)})")
 
 
