@@ -15,7 +15,7 @@ from datetime import date
 from typing import TYPE_CHECKING, Any
 
 from prepbook.errors import InvalidInput, NotFound, Refused
-from prepbook.inputs import parse_number, parse_percent
+from prepbook.inputs import parse_number, parse_percent, parse_text
 
 #: A liquid's cubic expansion coefficient, per C, lies in this open range (as the
 #: chemistry core and the catalog's checks require); water's is about 2.1e-4.
@@ -389,9 +389,9 @@ def titrant_expansion(*, spec: str | None = None, solvent: str | None = None,
                 f"{', '.join(found[1])}), not water: say the titrant's solvent with "
                 f"--solvent (e.g. --solvent '{found[0]}', or --solvent water)")
         return None
-    name = " ".join(solvent.split())
-    if not name or len(name) > 60:
-        raise InvalidInput("--solvent must name the solvent (at most 60 characters)")
+    name = " ".join((parse_text(solvent, "solvent", max_len=60) or "").split())
+    if not name:
+        raise InvalidInput("--solvent must name the solvent")
     if name.casefold() == "water":
         if per_c is not None:
             raise InvalidInput("an aqueous titrant is carried with water's density: "
@@ -409,11 +409,9 @@ def titrant_expansion(*, spec: str | None = None, solvent: str | None = None,
     if not low < gamma.value < high:
         raise InvalidInput(f"expansion coefficient {gamma.text} per C is not a liquid's cubic "
                            f"expansion (expected between {low:g} and {high:g} per C)")
-    assert source is not None
-    text = " ".join(source.split())
-    if not text or len(text) > 300:
-        raise InvalidInput("--expansion-source must name where the coefficient comes from "
-                           "(at most 300 characters)")
+    text = (parse_text(source, "expansion source", max_len=300) or "").strip()
+    if not text:
+        raise InvalidInput("--expansion-source must name where the coefficient comes from")
     return Expansion(per_c=gamma.value, solvent=name, source=text)
 
 
