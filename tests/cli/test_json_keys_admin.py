@@ -15,8 +15,9 @@ from tests.conftest import Cli, is_url
 
 # The commands whose --json keys this file pins (test_json_keys_audit checks the union).
 PINNED = {"init", "user list", "user add", "user disable", "user enable", "user unlock",
-          "spec list", "spec add", "spec show", "lot add", "lot list", "instrument add", "instrument list",
-          "instrument calibrate", "settings", "settings show", "backup", "label", "export"}
+          "spec list", "spec add", "spec show", "lot add", "lot list", "instrument add",
+          "instrument list", "instrument calibrate", "settings", "settings show", "backup",
+          "label", "export"}
 USER = ["name", "role", "active", "failed_attempts", "locked", "created_at", "created_by"]
 SPEC = ["code", "name", "solute", "reaction", "nominal", "unit", "standard", "indicator",
         "min_replicates", "max_rsd_percent", "factor_low", "factor_high",
