@@ -337,7 +337,8 @@ def test_drift_beyond_the_limit_flags_the_uses_since_the_previous_standardizatio
     _accept(bench, first)
     bench.ok("use", batch, "--volume", "20", "--purpose", "sample 17", "--at", _at(-4),
              "--reason", "from the bench log", user="ben")
-    bench.ok("use", batch, "--volume", "20", "--purpose", "sample 18", "--at", _at(-3), user="ben")
+    bench.ok("use", batch, "--volume", "20", "--purpose", "sample 18", "--at", _at(-3),
+             "--reason", "from the bench log", user="ben")
     # About 1 % weaker: beyond the 0.5 % drift limit of NaOH-0.1N.
     weaker = ["0.8085:39.56", "0.8116:39.69", "0.8596:42.09"]
     second = bench.json("standardize", batch, "--lot", "KHP-0001", *INSTRUMENTS,
