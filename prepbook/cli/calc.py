@@ -16,8 +16,11 @@ from typer.core import TyperGroup
 
 from prepbook.cli import output
 
-#: Commands of this group defined in prepbook.cli.calc_sample, imported on first use.
-LATER = ("sample", "eqpoint", "salt")
+#: Commands of this group defined in another module (under prepbook.cli), imported on
+#: first use, listed in this order after those defined here.
+LATER = {"solid": "calc_prepare", "liquid": "calc_prepare", "dilute": "calc_prepare",
+         "adjust": "calc_prepare", "buoyancy": "calc_prepare", "sample": "calc_sample",
+         "eqpoint": "calc_sample", "salt": "calc_sample"}
 
 
 class _Later(MutableMapping[str, Any]):
@@ -31,7 +34,7 @@ class _Later(MutableMapping[str, Any]):
         if name not in self._commands and name in LATER:
             from prepbook.cli.app import Entry, load
 
-            self._commands[name] = load(Entry(name, "calc_sample", name, False, ""))
+            self._commands[name] = load(Entry(name, LATER[name], name, False, ""))
         return self._commands[name]
 
     def __setitem__(self, name: str, command: Any) -> None:
@@ -68,11 +71,31 @@ BURETTE_TOLERANCE = typer.Option(
 TEMP_RANGE = typer.Option(
     "3", "--temp-range", metavar="C", help="Laboratory temperature variation, +/- degrees C."
 )
+SOLVENT = typer.Option(
+    None, "--solvent", metavar="NAME",
+    help="The titrant's solvent: water, or one the catalog knows (glacial acetic acid), "
+         "carried with its stated cubic expansion; another needs --expansion."
+)
+EXPANSION = typer.Option(
+    None, "--expansion", metavar="PER_C",
+    help="The solvent's cubic expansion coefficient per C (with --solvent and "
+         "--expansion-source)."
+)
+EXPANSION_SOURCE = typer.Option(
+    None, "--expansion-source", metavar="TEXT",
+    help="Where the expansion coefficient comes from (required with --expansion)."
+)
 REPEATABILITY = typer.Option(
     None, "--repeatability", metavar="RSD%",
     help="Validated repeatability, relative SD of one result in % (e.g. from the method "
          "validation); used in the budget instead of the replicates' scatter."
 )
+
+
+def _expansion_used(solvent: str | None, per_c: float | None) -> str:
+    """How a normality was carried between temperatures, in words."""
+    return (f"{output.text(solvent or '')}'s cubic expansion {per_c:g} per C"
+            if per_c is not None else "water's density")
 
 
 def _notes(out: Any, notes: Sequence[str]) -> None:
@@ -122,6 +145,17 @@ def normality(
              "carbonate: acid-base-first, n = 1, to the first endpoint); default: the one "
              "that pairs with the titrant."
     ),
+    temp: str = typer.Option(
+        None, "--temp", metavar="C",
+        help="Temperature of the standardization, C: the normality is also carried to "
+             "20 C with the titrant's solvent (--spec or --solvent; default water, "
+             "refused for a titrant the catalog makes only in another solvent)."
+    ),
+    spec: str = typer.Option(None, "--spec", metavar="SPEC", help="The titrant's spec "
+                             "(e.g. HClO4-0.1N): a non-aqueous one expands like its solvent."),
+    solvent: str = SOLVENT,
+    expansion: str = EXPANSION,
+    expansion_source: str = EXPANSION_SOURCE,
     as_json: bool = JSON,
 ) -> None:
     """Normality of a titrant from replicate titrations of a weighed primary standard."""
@@ -141,6 +175,11 @@ def normality(
         temperature_range_c=temp_range,
         repeatability_percent=repeatability,
         reaction=reaction,
+        temperature_c=temp,
+        spec=spec,
+        solvent=solvent,
+        expansion_per_c=expansion,
+        expansion_source=expansion_source,
     )
     if as_json:
         output.emit_json(result)
@@ -175,6 +214,11 @@ def normality(
     out.print(line)
     if result.molarity is not None:
         out.print(f"molarity of the titrant: {output.sig(result.molarity, 5)} mol/L")
+    if result.normality_20c is not None and result.temperature_c is not None:
+        out.print(f"N(20 C) = [bold]{output.sig(result.normality_20c, 5)} eq/L[/bold], "
+                  f"carried from {result.temperature_c:g} C with "
+                  f"{_expansion_used(result.solvent, result.expansion_per_c)} "
+                  f"({output.text(result.expansion_source or '')})")
     from prepbook.cli.budget_view import uncertainty
 
     uncertainty(out, result.u, result.U, result.k, result.budget)
@@ -242,156 +286,6 @@ def secondary(
     output.warn_lines(out, result.warnings)
 
 
-@app.command("solid")
-def solid(
-    solute: str = typer.Argument(
-        ..., metavar="SUBSTANCE", help="Solute to weigh: code, name or formula."
-    ),
-    normality: str = typer.Option(
-        ..., "--normality", metavar="EQ/L", help="Wanted normality, eq/L."
-    ),
-    volume: str = typer.Option(..., "--volume", metavar="ML", help="Final volume, mL."),
-    purity: str = typer.Option("100", "--purity", metavar="PERCENT", help="Assay of the solid, %."),
-    as_json: bool = JSON,
-) -> None:
-    """Mass of solid to weigh for a volume of a given normality."""
-    from prepbook.lab import preparing
-
-    result = preparing.solid(solute, normality_text=normality, volume_text=volume,
-                             purity_text=purity)
-    if as_json:
-        output.emit_json(result)
-        return
-    out = output.console()
-    out.print(
-        f"Weigh [bold]{output.fixed(result.mass_g, 4)} g[/bold] of {result.name} "
-        f"({result.formula}, M = {result.molar_mass_g_per_mol:.4f} g/mol, "
-        f"n = {result.n_eq_per_mol:g}) and make up to {result.volume_ml:g} mL."
-    )
-    output.caution_lines(out, result.cautions)
-
-
-@app.command("liquid")
-def liquid(
-    reagent: str = typer.Argument(
-        ..., metavar="REAGENT", help="Concentrated reagent: HCl, H2SO4, HNO3, ..."
-    ),
-    normality: str = typer.Option(
-        ..., "--normality", metavar="EQ/L", help="Wanted normality, eq/L."
-    ),
-    volume: str = typer.Option(..., "--volume", metavar="ML", help="Final volume, mL."),
-    fraction: str = typer.Option(
-        None, "--fraction", metavar="PERCENT", help="Mass fraction, % (default: catalog)."
-    ),
-    density: str = typer.Option(
-        None, "--density", metavar="G/ML", help="Density, g/mL (default: catalog)."
-    ),
-    n: str = typer.Option(
-        None, "--n", metavar="NUMBER",
-        help="Equivalents per mole (default: the catalog's reaction)."
-    ),
-    as_json: bool = JSON,
-) -> None:
-    """Volume of a concentrated liquid reagent for a volume of a given normality."""
-    from prepbook.lab import preparing
-
-    result = preparing.liquid(reagent, normality_text=normality, volume_text=volume,
-                          fraction_text=fraction, density_text=density, n_text=n)
-    if as_json:
-        output.emit_json(result)
-        return
-    out = output.console()
-    out.print(
-        f"Measure [bold]{output.fixed(result.volume_ml, 2)} mL[/bold] of {result.name} "
-        f"({result.mass_fraction_percent:g} %, {result.density_g_per_ml:g} g/mL, "
-        f"{output.sig(result.molarity_mol_per_l, 3)} mol/L) and make up to "
-        f"{result.final_volume_ml:g} mL."
-    )
-    output.caution_lines(out, result.cautions)
-
-
-@app.command("dilute")
-def dilute(
-    stock: str = typer.Option(
-        ..., "--stock", metavar="EQ/L", help="Normality of the stock solution, eq/L."
-    ),
-    normality: str = typer.Option(
-        ..., "--normality", metavar="EQ/L", help="Wanted normality, eq/L."
-    ),
-    volume: str = typer.Option(..., "--volume", metavar="ML", help="Final volume, mL."),
-    as_json: bool = JSON,
-) -> None:
-    """Volumes of stock and water for a dilution (N1 V1 = N2 V2)."""
-    from prepbook.lab import preparing
-
-    result = preparing.dilute(stock_text=stock, normality_text=normality, volume_text=volume)
-    if as_json:
-        output.emit_json(result)
-        return
-    out = output.console()
-    out.print(
-        f"Take [bold]{output.fixed(result.stock_ml, 2)} mL[/bold] of stock and make up to "
-        f"{result.volume_ml:g} mL (about {output.fixed(result.water_ml, 2)} mL of water)."
-    )
-
-
-@app.command("adjust")
-def adjust(
-    normality: str = typer.Option(
-        ..., "--normality", metavar="EQ/L", help="Normality found, eq/L."
-    ),
-    target: str = typer.Option(
-        ..., "--target", metavar="EQ/L", help="Nominal normality wanted, eq/L."
-    ),
-    volume: str = typer.Option(..., "--volume", metavar="ML", help="Volume of the batch now, mL."),
-    stock: str = typer.Option(
-        None, "--stock", metavar="EQ/L",
-        help="Normality of a stronger stock, when the batch is too weak."
-    ),
-    as_json: bool = JSON,
-) -> None:
-    """Water (or stronger stock) to add to bring a standardized batch to nominal."""
-    from prepbook.lab import preparing
-
-    result = preparing.adjust(normality_text=normality, target_text=target, volume_text=volume,
-                          stock_text=stock)
-    if as_json:
-        output.emit_json(result)
-        return
-    out = output.console()
-    what = "water" if result.add == "water" else "stock"
-    out.print(f"Add [bold]{output.fixed(result.volume_ml, 2)} mL of {what}[/bold], mix, "
-              "and standardize again.")
-
-
-@app.command("buoyancy")
-def buoyancy(
-    mass: str = typer.Option(..., "--mass", metavar="G", help="Balance reading, g."),
-    density: str = typer.Option(
-        ..., "--density", metavar="G/CM3", help="Density of the sample, g/cm3."
-    ),
-    air_density: str = typer.Option(
-        "0.0012", "--air-density", metavar="G/CM3", help="Air density, g/cm3."
-    ),
-    weights_density: str = typer.Option(
-        "8.0", "--weights-density", metavar="G/CM3", help="Reference weights' density, g/cm3."
-    ),
-    as_json: bool = JSON,
-) -> None:
-    """True mass of a weighed sample, corrected for air buoyancy (NIST IR 6969 SOP 2)."""
-    from prepbook.lab import preparing
-
-    result = preparing.buoyancy(mass_text=mass, density_text=density, air_text=air_density,
-                            weights_text=weights_density)
-    if as_json:
-        output.emit_json(result)
-        return
-    output.console().print(
-        f"true mass [bold]{output.fixed(result.mass_g, 5)} g[/bold] "
-        f"(correction {result.correction_g * 1000:+.3f} mg)"
-    )
-
-
 @app.command("temperature")
 def temperature(
     normality: str = typer.Option(
@@ -403,13 +297,17 @@ def temperature(
     to_c: str = typer.Option(..., "--to", metavar="C", help="Temperature of use, C."),
     spec: str = typer.Option(None, "--spec", metavar="SPEC", help="The titrant's spec "
                              "(e.g. HClO4-0.1N): a non-aqueous one expands like its solvent."),
+    solvent: str = SOLVENT,
+    expansion: str = EXPANSION,
+    expansion_source: str = EXPANSION_SOURCE,
     as_json: bool = JSON,
 ) -> None:
-    """Normality at another temperature (water's density, or the spec's solvent's)."""
+    """Normality at another temperature (water's density, or the solvent's expansion)."""
     from prepbook.lab import preparing
 
     result = preparing.temperature(normality_text=normality, from_text=from_c, to_text=to_c,
-                                   spec=spec)
+                                   spec=spec, solvent=solvent, expansion_text=expansion,
+                                   expansion_source=expansion_source)
     if as_json:
         output.emit_json(result)
         return
@@ -418,8 +316,7 @@ def temperature(
         f"N = [bold]{output.sig(result.normality, 6)} eq/L[/bold] at {result.to_c:g} C "
         f"(factor {result.ratio:.6f} from {result.from_c:g} C)"
     )
-    used = (f"{result.solvent}'s cubic expansion {result.expansion_per_c:g} per C"
-            if result.expansion_per_c is not None else "water's density")
+    used = _expansion_used(result.solvent, result.expansion_per_c)
     out.print(f"carried with {used} ({output.text(result.expansion_source)})")
 
 

@@ -76,6 +76,29 @@ def add(
         "180", "--shelf-life-days", metavar="DAYS", help="Shelf life, days."
     ),
     storage: str = typer.Option(None, "--storage", metavar="TEXT", help="How to store it."),
+    solvent: str = typer.Option(
+        None, "--solvent", metavar="NAME",
+        help="The solvent, if not water: one the catalog knows (glacial acetic acid) brings "
+             "its cubic expansion; another needs --expansion."
+    ),
+    expansion: str = typer.Option(
+        None, "--expansion", metavar="PER_C",
+        help="The solvent's cubic expansion coefficient per C, carrying runs to 20 C "
+             "(with --expansion-source)."
+    ),
+    expansion_source: str = typer.Option(
+        None, "--expansion-source", metavar="TEXT",
+        help="Where the expansion coefficient comes from."
+    ),
+    repeatability: str = typer.Option(
+        None, "--repeatability", metavar="RSD%",
+        help="Validated repeatability, relative SD of one result in %, used in the budget "
+             "of each run on this spec that gives none (with --repeatability-source)."
+    ),
+    repeatability_source: str = typer.Option(
+        None, "--repeatability-source", metavar="TEXT",
+        help="The validation the repeatability comes from."
+    ),
     as_json: bool = typer.Option(False, "--json", help="Print the spec as JSON."),
 ) -> None:
     """Add the lab's own solution spec (reviewer or admin)."""
@@ -90,8 +113,44 @@ def add(
                         restandardize_days=output.whole(restandardize_days,
                                                         "--restandardize-days"),
                         shelf_life_days=output.whole(shelf_life_days, "--shelf-life-days"),
-                        storage=storage)
+                        storage=storage, solvent=solvent, expansion_per_c=expansion,
+                        expansion_source=expansion_source, repeatability=repeatability,
+                        repeatability_source=repeatability_source)
     if as_json:
         output.emit_json(sp)
     else:
         output.console().print(f"added spec [bold]{sp.code}[/bold] ({output.text(sp.name)})")
+
+
+@app.command("show")
+def show(ctx: typer.Context,
+         code: str = typer.Argument(..., metavar="CODE", help="The spec's code."),
+         as_json: bool = typer.Option(False, "--json", help="Print JSON.")) -> None:
+    """One spec: its rules, solvent and validated repeatability, with their sources."""
+    from prepbook.lab import specs
+
+    sp = specs.show_spec(database(ctx), code)
+    if as_json:
+        output.emit_json(sp)
+        return
+    out = output.console()
+    t = output.text
+    whose = "built-in" if sp.builtin else "the lab's own"
+    out.print(f"[bold]{t(sp.code)}[/bold]  {t(sp.name)} ({whose})")
+    out.print(f"solute {t(sp.solute)}, {sp.nominal:g} {sp.unit}, standard "
+              f"{t(sp.standard or '-')}, indicator {t(sp.indicator or '-')}")
+    out.print(f"replicates >= {sp.min_replicates}, RSD <= {sp.max_rsd_percent:g} %, factor "
+              f"{sp.factor_low:.3f}-{sp.factor_high:.3f}, drift <= {sp.drift_limit_percent:g} %")
+    out.print(f"restandardize every {sp.restandardize_days} days, shelf life "
+              f"{sp.shelf_life_days} days")
+    carried = (f"{t(sp.solvent)}'s cubic expansion {sp.expansion_per_c:g} per C "
+               f"({t(sp.expansion_source or 'no source recorded')})"
+               if sp.expansion_per_c is not None else f"{t(sp.solvent)} (water's density)")
+    out.print(f"solvent: {carried}")
+    rsd = (f"{sp.repeatability_rsd_percent:g} % "
+           f"({t(sp.repeatability_source or 'no source recorded')})"
+           if sp.repeatability_rsd_percent is not None
+           else "none (runs use their replicates' scatter)")
+    out.print(f"validated repeatability: {rsd}")
+    if sp.storage:
+        out.print(f"storage: {t(sp.storage)}")

@@ -23,6 +23,7 @@ from prepbook.inputs import (
 )
 
 if TYPE_CHECKING:
+    from prepbook.chem.corrections import Expansion
     from prepbook.chem.stats import OutlierFlag
     from prepbook.chem.uncertainty import BudgetLine
     from prepbook.rules.evaluation import Reading, StandardFacts
@@ -78,6 +79,11 @@ class NormalityResult:
     repeatability_rsd_percent: float | None  # the validated value given, if any
     uncertainty_notes: tuple[str, ...]  # what the budget assumed or left out
     repeatability: str  # given, or estimated from the replicates, or missing (one)
+    temperature_c: float | None  # of the standardization, as given; None: not given
+    normality_20c: float | None  # carried to 20 C; None without a temperature
+    solvent: str | None  # the titrant's, as carried; None without a temperature
+    expansion_per_c: float | None  # the solvent's cubic expansion; None: water's density
+    expansion_source: str | None  # where the coefficient (or water's density) comes from
 
 
 @dataclass(frozen=True)
@@ -136,6 +142,11 @@ def normality(
     temperature_range_c: str = "3",
     repeatability_percent: str | None = None,
     reaction: str | None = None,
+    temperature_c: str | None = None,
+    spec: str | None = None,
+    solvent: str | None = None,
+    expansion_per_c: str | None = None,
+    expansion_source: str | None = None,
 ) -> NormalityResult:
     """Normality of a titrant from weighed primary standard: the one evaluation of a
     standardization (``prepbook.rules.evaluation``), with the calculator's advice.
@@ -144,7 +155,12 @@ def normality(
     e.g. from the method's validation), used in the budget instead of the replicates'
     scatter; without it one replicate leaves the repeatability term missing.
     ``reaction``: the standard's reaction by name (carbonate's first endpoint), else
-    the one that pairs with the titrant."""
+    the one that pairs with the titrant.
+    ``temperature_c``: the temperature of the standardization; the normality is then
+    carried to 20 C with the titrant's solvent, as ``spec``, ``solvent`` or
+    ``expansion_per_c`` (with ``expansion_source``) state it (``lab.preparing.
+    titrant_expansion``): a titrant the catalog makes only in another solvent is refused
+    without one, any other is carried with water's density."""
     from prepbook.rules import evaluation as ev
     from prepbook.rules import plausibility as plaus
 
@@ -166,6 +182,10 @@ def normality(
         else None
     )
     rsd = _repeatability(repeatability_percent)
+    reaction = parse_text(reaction, "reaction", max_len=60)
+    carried = _carried(temperature_c, standard=standard, titrant=titrant,
+                       reaction=reaction, spec=spec, solvent=solvent,
+                       per_c=expansion_per_c, source=expansion_source)
     linearity_text = parse_number(linearity_mg, "balance linearity (mg)").text
     tol_text = parse_number(burette_tolerance_ml, "burette tolerance (mL)").text
     # What cannot be right is refused; what is unusual becomes a warning.
@@ -192,7 +212,9 @@ def normality(
         burette_tolerance_ml=tol,
         burette_capacity_ml=capacity,
         u_rel_repeatability=None if rsd is None else rsd / 100,
-        reaction=parse_text(reaction, "reaction", max_len=60),
+        reaction=reaction,
+        temperature_c=20.0 if carried is None else carried[0],
+        expansion=None if carried is None else carried[1],
     ))
     std, reaction = e.standard, e.reaction
     assert std is not None and reaction is not None, "a weighed standard has a reaction"
@@ -204,6 +226,7 @@ def normality(
             for entry in entries if entry.volume.value < BURETTE_FRACTION * capacity
         ]
     n_titrant = e.titrant_n_eq_per_mol
+    solvent_used, per_c_used, source_used = _expansion_keys(carried)
     return NormalityResult(
         standard=std,
         titrant=e.titrant,
@@ -228,7 +251,63 @@ def normality(
         repeatability_rsd_percent=rsd,
         uncertainty_notes=e.uncertainty_notes,
         repeatability=e.repeatability,
+        temperature_c=None if carried is None else carried[0],
+        normality_20c=None if carried is None else e.normality_20c,
+        solvent=solvent_used,
+        expansion_per_c=per_c_used,
+        expansion_source=source_used,
     )
+
+
+def _carried(temperature_c: str | None, *, standard: str, titrant: str | None,
+             reaction: str | None, spec: str | None, solvent: str | None,
+             per_c: str | None, source: str | None
+             ) -> tuple[float, Expansion | None] | None:
+    """The temperature of standardization and the titrant's expansion (None: water's
+    density), or None when no temperature is given (nothing is carried, and a solvent
+    stated would be used for nothing, so it is refused)."""
+    if temperature_c is None:
+        if any(v is not None for v in (spec, solvent, per_c, source)):
+            raise InvalidInput("--spec, --solvent and --expansion say how the normality is "
+                               "carried to 20 C: give the temperature of standardization "
+                               "with --temp C")
+        return None
+    from prepbook.chem.corrections import CORRECTION_RANGE_C
+    from prepbook.lab.preparing import titrant_expansion
+
+    t = parse_number(temperature_c, "temperature (C)")
+    low, high = CORRECTION_RANGE_C
+    if not low <= t.value <= high:
+        raise InvalidInput(f"temperature {t.text} C is outside {low:g}-{high:g} C, where a "
+                           "titrant's temperature correction is applied")
+    expansion = titrant_expansion(spec=spec, solvent=solvent, per_c=per_c, source=source,
+                                  solute=_titrant_code(standard, titrant, reaction))
+    return t.value, expansion
+
+
+def _titrant_code(standard: str, titrant: str | None, reaction: str | None) -> str | None:
+    """The titrant's catalog code: the one named, else the one the standard's reaction
+    (named, or its first) pairs with; None when neither says."""
+    from prepbook.catalog import loader
+    from prepbook.rules.evaluation import reactions_for
+
+    if titrant is not None:
+        return loader.find_material(titrant).code
+    chosen, _ = reactions_for(loader.find_material(standard), None, reaction)
+    return chosen.titrant
+
+
+def _expansion_keys(carried: tuple[float, Expansion | None] | None
+                    ) -> tuple[str | None, float | None, str | None]:
+    """The output's ``solvent``, ``expansion_per_c`` and ``expansion_source``."""
+    if carried is None:
+        return None, None, None
+    from prepbook.chem.corrections import WATER_DENSITY_SOURCE
+
+    expansion = carried[1]
+    if expansion is None:
+        return "water", None, WATER_DENSITY_SOURCE
+    return expansion.solvent, expansion.per_c, expansion.source
 
 
 def _repeatability(text: str | None) -> float | None:

@@ -15,7 +15,11 @@ from datetime import date
 from typing import TYPE_CHECKING, Any
 
 from prepbook.errors import InvalidInput, NotFound, Refused
-from prepbook.inputs import parse_number, parse_percent
+from prepbook.inputs import parse_number, parse_percent, parse_text
+
+#: A liquid's cubic expansion coefficient, per C, lies in this open range (as the
+#: chemistry core and the catalog's checks require); water's is about 2.1e-4.
+EXPANSION_RANGE_PER_C = (0.0, 0.01)
 
 if TYPE_CHECKING:
     from prepbook.chem.corrections import Expansion
@@ -322,22 +326,109 @@ def spec_expansion(data: Mapping[str, Any]) -> Expansion | None:
     return Expansion(per_c=float(gamma), solvent=solvent, source=str(source))
 
 
-def temperature(*, normality_text: str, from_text: str, to_text: str,
-                spec: str | None = None) -> TemperatureResult:
-    """Normality at another temperature; with ``spec`` (a catalog spec's code) the
-    titrant is carried with its solvent's expansion, else as a dilute aqueous one."""
+def known_solvents() -> dict[str, Expansion]:
+    """The non-aqueous solvents the catalog's specs name, each with the cubic expansion
+    coefficient and source its spec states (keyed by the name, case-folded)."""
     from dataclasses import asdict
 
+    from prepbook.catalog import loader
+
+    known: dict[str, Expansion] = {}
+    for sp in loader.specs():
+        expansion = spec_expansion(asdict(sp))
+        if expansion is not None:
+            known.setdefault(expansion.solvent.casefold(), expansion)
+    return known
+
+
+def catalog_solvent(solute: str) -> tuple[str, tuple[str, ...]] | None:
+    """The solvent other than water that every catalog spec of a titrant's ``solute``
+    (a material code) is made in, with those specs' codes; None when the catalog has an
+    aqueous spec of it, or none at all."""
+    from prepbook.catalog import loader
+
+    specs = [sp for sp in loader.specs() if sp.solute == solute]
+    solvents = {sp.solvent.strip().casefold() for sp in specs}
+    if len(solvents) != 1 or solvents == {"water"}:
+        return None
+    return specs[0].solvent, tuple(sp.code for sp in specs)
+
+
+def titrant_expansion(*, spec: str | None = None, solvent: str | None = None,
+                      per_c: str | None = None, source: str | None = None,
+                      solute: str | None = None) -> Expansion | None:
+    """How a titrant is carried between temperatures, as the user states it: a catalog
+    ``spec``'s solvent, or a ``solvent`` (water, one the catalog knows with its
+    coefficient, or any other with ``per_c`` and its ``source``). None: water's density.
+
+    With nothing stated, a titrant whose ``solute`` the catalog makes only in another
+    solvent (perchloric acid in glacial acetic acid) is refused rather than carried as
+    water; any other is aqueous."""
+    from prepbook.chem.corrections import Expansion
+
+    if spec is not None:
+        if solvent is not None or per_c is not None or source is not None:
+            raise InvalidInput("give the titrant's --spec or its --solvent (and "
+                               "--expansion), not both")
+        from dataclasses import asdict
+
+        from prepbook.catalog import loader
+
+        return spec_expansion(asdict(loader.find_spec(spec)))
+    if (per_c is None) != (source is None):
+        raise InvalidInput("--expansion PER_C and --expansion-source TEXT go together: a "
+                           "coefficient is used only with its source")
+    if solvent is None:
+        if per_c is not None:
+            raise InvalidInput("--expansion needs --solvent NAME: the solvent it is the "
+                               "coefficient of")
+        found = catalog_solvent(solute) if solute is not None else None
+        if found is not None:
+            raise InvalidInput(
+                f"{solute} titrants are made in {found[0]} (catalog spec "
+                f"{', '.join(found[1])}), not water: say the titrant's solvent with "
+                f"--solvent (e.g. --solvent '{found[0]}', or --solvent water)")
+        return None
+    name = " ".join((parse_text(solvent, "solvent", max_len=60) or "").split())
+    if not name:
+        raise InvalidInput("--solvent must name the solvent")
+    if name.casefold() == "water":
+        if per_c is not None:
+            raise InvalidInput("an aqueous titrant is carried with water's density: "
+                               "--expansion is for a solvent other than water")
+        return None
+    if per_c is None:
+        known = known_solvents()
+        if name.casefold() not in known:
+            names = ", ".join(["water", *(e.solvent for e in known.values())])
+            raise InvalidInput(f"solvent {name!r} is not in the catalog ({names}): give its "
+                               "cubic expansion with --expansion PER_C --expansion-source TEXT")
+        return known[name.casefold()]
+    gamma = parse_number(per_c, "expansion coefficient (per C)", positive=True)
+    low, high = EXPANSION_RANGE_PER_C
+    if not low < gamma.value < high:
+        raise InvalidInput(f"expansion coefficient {gamma.text} per C is not a liquid's cubic "
+                           f"expansion (expected between {low:g} and {high:g} per C)")
+    text = (parse_text(source, "expansion source", max_len=300) or "").strip()
+    if not text:
+        raise InvalidInput("--expansion-source must name where the coefficient comes from")
+    return Expansion(per_c=gamma.value, solvent=name, source=text)
+
+
+def temperature(*, normality_text: str, from_text: str, to_text: str,
+                spec: str | None = None, solvent: str | None = None,
+                expansion_text: str | None = None,
+                expansion_source: str | None = None) -> TemperatureResult:
+    """Normality at another temperature; with ``spec`` (a catalog spec's code) or a
+    ``solvent`` (with its coefficient) the titrant is carried with its solvent's
+    expansion, else as a dilute aqueous one (``titrant_expansion``)."""
     from prepbook.chem import corrections
 
     n1 = parse_number(normality_text, "normality", positive=True).value
     t1 = parse_number(from_text, "temperature from (C)").value
     t2 = parse_number(to_text, "temperature to (C)").value
-    expansion = None
-    if spec is not None:
-        from prepbook.catalog import loader
-
-        expansion = spec_expansion(asdict(loader.find_spec(spec)))
+    expansion = titrant_expansion(spec=spec, solvent=solvent, per_c=expansion_text,
+                                  source=expansion_source)
     for t in (t1, t2):
         if not 0 <= t <= 40:
             where = ("where the CIPM water density formula applies" if expansion is None

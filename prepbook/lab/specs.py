@@ -9,7 +9,7 @@ from typing import Any
 
 from sqlalchemy import select
 
-from prepbook.errors import InvalidInput, Refused
+from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import parse_number, parse_text, utc_now
 from prepbook.lab.common import acting, write
 from prepbook.store import retry
@@ -100,12 +100,40 @@ class SpecInfo(SpecFields):
     """A solution spec as the commands show it (the fields are the JSON keys)."""
 
     builtin: bool
+    solvent: str
+    expansion_per_c: float | None  # the solvent's cubic expansion; None: water's density
+    expansion_source: str | None
+    repeatability_rsd_percent: float | None  # validated RSD of one result, %; runs use it
+    repeatability_source: str | None
 
 
 def spec_info(spec: Spec) -> SpecInfo:
+    from prepbook.lab.preparing import spec_expansion
+
     v = view(spec)
     shared = {f.name: getattr(v, f.name) for f in fields(SpecFields)}
-    return SpecInfo(**shared, builtin=spec.builtin)
+    try:
+        expansion = spec_expansion(v.data)
+    except InvalidInput:  # a non-aqueous spec without a coefficient: its runs are refused
+        expansion = None
+    sources = dict(v.data.get("sources") or {})
+    rsd = _get(v.data, "repeatability_rsd_percent")
+    return SpecInfo(**shared, builtin=spec.builtin,
+                    solvent=str(_get(v.data, "solvent", default="water")),
+                    expansion_per_c=expansion.per_c if expansion else None,
+                    expansion_source=expansion.source if expansion else None,
+                    repeatability_rsd_percent=None if rsd is None else float(rsd),
+                    repeatability_source=sources.get("repeatability_rsd_percent")
+                    if rsd is not None else None)
+
+
+def show_spec(db: Database, code: str) -> SpecInfo:
+    """One spec, built-in or the lab's own, by its code."""
+    with db.session(write=False) as s:
+        sp = s.scalars(select(Spec).where(Spec.code == code)).first()
+        if sp is None:
+            raise NotFound(f"no spec {code!r} (spec list shows them)")
+        return spec_info(sp)
 
 
 def list_specs(db: Database) -> list[SpecInfo]:
@@ -137,9 +165,21 @@ def add_spec(
     restandardize_days: int = 30,
     shelf_life_days: int = 180,
     storage: str | None = None,
+    solvent: str | None = None,
+    expansion_per_c: str | None = None,
+    expansion_source: str | None = None,
+    repeatability: str | None = None,
+    repeatability_source: str | None = None,
 ) -> SpecInfo:
-    """Add a lab's own solution spec (the built-in ones come from the catalog)."""
+    """Add a lab's own solution spec (the built-in ones come from the catalog).
+
+    ``solvent`` (with ``expansion_per_c`` and its source unless the catalog knows it)
+    carries its runs between temperatures, as ``lab.preparing.titrant_expansion`` reads
+    it; a solute the catalog makes only in another solvent is refused without one.
+    ``repeatability``: a validated RSD of one result (%), with its source, used in the
+    budget of every run on the spec that gives none of its own."""
     from prepbook.catalog import loader
+    from prepbook.lab.preparing import titrant_expansion
 
     if not _SPEC_CODE.match(code) or len(code) > 40:
         raise InvalidInput(f"spec code {code!r} should be the solute and strength, "
@@ -164,6 +204,14 @@ def add_spec(
     if restandardize_days > shelf_life_days:
         raise InvalidInput("the restandardization interval cannot be longer than the shelf life")
     storage = parse_text(storage, "storage", max_len=300)
+    expansion = titrant_expansion(solvent=solvent, per_c=expansion_per_c,
+                                  source=expansion_source, solute=sol.code)
+    rsd_valid = _validated_repeatability(repeatability, repeatability_source)
+    sources = {"all": "set by the laboratory"}
+    if expansion is not None:
+        sources["expansion_per_c"] = expansion.source
+    if rsd_valid is not None:
+        sources["repeatability_rsd_percent"] = rsd_valid[1]
     data = {
         "code": code, "name": name or f"{sol.name} {nom.text} {unit}", "solute": sol.code,
         "reaction": rx.name, "nominal": nom.value, "unit": unit,
@@ -173,7 +221,10 @@ def add_spec(
         "drift_limit_percent": drift.value, "restandardize_days": restandardize_days,
         "shelf_life_days": shelf_life_days, "storage": storage,
         "hazard": {}, "cautions": list(getattr(sol, "cautions", ()) or ()),
-        "sources": {"all": "set by the laboratory"},
+        "sources": sources,
+        "solvent": expansion.solvent if expansion else "water",
+        "expansion_per_c": expansion.per_c if expansion else None,
+        "repeatability_rsd_percent": rsd_valid[0] if rsd_valid else None,
     }
     with db.session() as s:
         user = acting(s, actor, ("reviewer", "admin"), "add solution specs")
@@ -184,3 +235,26 @@ def add_spec(
                   created_at=utc_now(), created_by=user.name)
         write(s, user.name, "spec.add", sp)
         return spec_info(sp)
+
+
+#: A validated repeatability (RSD of one result, %) above this is not a volumetric
+#: standardization's (common practice, no source; Ph. Eur. 4.2.2 accepts 0.2 %).
+MAX_REPEATABILITY_RSD_PERCENT = 5.0
+
+
+def _validated_repeatability(text: str | None, source: str | None
+                             ) -> tuple[float, str] | None:
+    """A spec's validated repeatability as typed, with its source, or None."""
+    if text is None and source is None:
+        return None
+    if text is None or source is None:
+        raise InvalidInput("--repeatability RSD% and --repeatability-source TEXT go "
+                           "together: a validated value is kept only with its source")
+    rsd = parse_number(text, "repeatability RSD (%)", positive=True)
+    if rsd.value > MAX_REPEATABILITY_RSD_PERCENT:
+        raise InvalidInput(f"repeatability RSD {rsd.text} % is not a volumetric "
+                           f"standardization's (at most {MAX_REPEATABILITY_RSD_PERCENT:g} %)")
+    where = parse_text(source, "repeatability source", max_len=300)
+    if where is None or not where.strip():
+        raise InvalidInput("--repeatability-source must name the validation it comes from")
+    return rsd.value, where

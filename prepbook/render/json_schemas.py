@@ -110,6 +110,7 @@ DOCUMENTS: dict[str, tuple[str, ...]] = {
     "instrument read": (__name__ + ":BalanceRead",),
     "spec list": ("list:" + L + "specs:SpecInfo",),
     "spec add": (L + "specs:SpecInfo",),
+    "spec show": (L + "specs:SpecInfo",),
     "batch make": (L + "batches:MadeBatch",),
     "batch show": (L + "batch_records:BatchRecord",),
     "batch use": (L + "batches:UseRecorded",),

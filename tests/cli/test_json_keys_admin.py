@@ -15,13 +15,15 @@ from tests.conftest import Cli, is_url
 
 # The commands whose --json keys this file pins (test_json_keys_audit checks the union).
 PINNED = {"init", "user list", "user add", "user disable", "user enable", "user unlock",
-          "spec list", "spec add", "lot add", "lot list", "instrument add", "instrument list",
-          "instrument calibrate", "settings", "settings show", "backup", "label", "export"}
+          "spec list", "spec add", "spec show", "lot add", "lot list", "instrument add",
+          "instrument list", "instrument calibrate", "settings", "settings show", "backup",
+          "label", "export"}
 USER = ["name", "role", "active", "failed_attempts", "locked", "created_at", "created_by"]
 SPEC = ["code", "name", "solute", "reaction", "nominal", "unit", "standard", "indicator",
         "min_replicates", "max_rsd_percent", "factor_low", "factor_high",
         "drift_limit_percent", "restandardize_days", "shelf_life_days", "storage", "hazard",
-        "cautions", "builtin"]
+        "cautions", "builtin", "solvent", "expansion_per_c", "expansion_source",
+        "repeatability_rsd_percent", "repeatability_source"]
 LOT = ["code", "material", "purity_percent", "purity_u_percent", "expires", "expired",
        "certificate", "dried_on", "opened_on", "created_by", "density_g_per_ml"]
 INSTRUMENT = ["code", "kind", "unit", "due", "overdue", "capacity", "tolerance",
@@ -70,6 +72,7 @@ def test_users_specs_lots_instruments_settings_init_keep_their_keys(
     spec = bench.json("spec", "add", "NaOH-0.2N", "--solute", "NaOH", "--nominal", "0.2",
                       user="cleo")
     assert keys(spec) == ["version", *SPEC] and spec["builtin"] is False
+    assert keys(bench.json("spec", "show", "NaOH-0.2N")) == ["version", *SPEC]
 
     lot = bench.json("lot", "add", "KHP", "--code", "KHP-0002", "--purity", "99.95",
                      "--expires", _days(300), user="ben")

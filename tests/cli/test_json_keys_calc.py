@@ -31,7 +31,8 @@ CALC = {
      "--rep", "0.8085:39.16", "--rep", "0.8116:39.29", "--rep", "0.8596:41.67"):
         ["standard", "titrant", "reaction", "titrant_n_eq_per_mol", "blank_ml", "buoyancy",
          "normality", "molarity", "replicates", "sd", "rsd_percent", "u", "U", "k", "budget",
-         "warnings", "repeatability_rsd_percent", "uncertainty_notes", "repeatability"],
+         "warnings", "repeatability_rsd_percent", "uncertainty_notes", "repeatability",
+         "temperature_c", "normality_20c", "solvent", "expansion_per_c", "expansion_source"],
     ("secondary", "--reference-normality", "0.1", "--aliquot", "25", "--rep", "24.9",
      "--rep", "25.1"):
         ["reference_normality", "aliquot_ml", "blank_ml", "normality", "replicates", "sd",
