@@ -279,9 +279,11 @@ def _check_expansion(s: SpecDefaults) -> list[str]:
     if gamma is None:
         return [f"{w}: solvent {s.solvent!r} is not water: give its cubic expansion "
                 "coefficient (expansion_per_c, per C) and its source"]
-    if not (math.isfinite(gamma) and 0 < gamma < 0.01):
+    from prepbook.chem.corrections import EXPANSION_RANGE_PER_C, plausible_expansion
+    if not plausible_expansion(gamma):
+        low, high = EXPANSION_RANGE_PER_C
         return [f"{w}: expansion_per_c {gamma!r} is not a liquid's cubic expansion "
-                "coefficient (between 0 and 0.01 per C)"]
+                f"coefficient (between {low:g} and {high:g} per C)"]
     if not s.source_of("expansion_per_c"):
         return [f"{w}: no source named for 'expansion_per_c'"]
     return []

@@ -38,6 +38,16 @@ WATER_FORMULA_RANGE_C = (0.0, 40.0)
 AIR_G_PER_CM3 = 0.0012  # NIST IR 6969 SOP 2, nominal air density
 WEIGHTS_G_PER_CM3 = 8.0  # conventional density of stainless-steel weights
 EXPANSION_PER_C = 2.1e-4  # EURACHEM/CITAC CG4 Example A2, dilute aqueous solutions
+
+#: A liquid's cubic expansion coefficient, per C, lies in this open range: water's is
+#: about 2.1e-4, organic solvents' about 1e-3 (common practice, no source).
+EXPANSION_RANGE_PER_C = (0.0, 0.01)
+
+
+def plausible_expansion(gamma: float) -> bool:
+    """Whether ``gamma`` (per C) can be a liquid's cubic expansion coefficient."""
+    low, high = EXPANSION_RANGE_PER_C
+    return math.isfinite(gamma) and low < gamma < high
 CORRECTION_RANGE_C = (0.0, 40.0)  # where a titrant's temperature correction is applied
 
 
@@ -115,9 +125,10 @@ def normality_at_temperature(n: float, from_c: float, to_c: float,
     if expansion is None:
         return normality * water_density_kg_per_m3(to_c) / water_density_kg_per_m3(from_c)
     gamma = _number("expansion coefficient (per C)", expansion.per_c)
-    if not 0 < gamma < 0.01:
+    if not plausible_expansion(gamma):
+        low, high = EXPANSION_RANGE_PER_C
         raise InvalidInput(f"expansion coefficient {gamma:g} per C is not a liquid's "
-                           "(expected between 0 and 0.01)")
+                           f"(expected between {low:g} and {high:g})")
     t1, t2 = _number("temperature (C)", from_c), _number("temperature (C)", to_c)
     low, high = CORRECTION_RANGE_C
     for t in (t1, t2):

@@ -17,10 +17,6 @@ from typing import TYPE_CHECKING, Any
 from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import parse_number, parse_percent, parse_text
 
-#: A liquid's cubic expansion coefficient, per C, lies in this open range (as the
-#: chemistry core and the catalog's checks require); water's is about 2.1e-4.
-EXPANSION_RANGE_PER_C = (0.0, 0.01)
-
 if TYPE_CHECKING:
     from prepbook.chem.corrections import Expansion
 
@@ -405,8 +401,9 @@ def titrant_expansion(*, spec: str | None = None, solvent: str | None = None,
                                "cubic expansion with --expansion PER_C --expansion-source TEXT")
         return known[name.casefold()]
     gamma = parse_number(per_c, "expansion coefficient (per C)", positive=True)
+    from prepbook.chem.corrections import EXPANSION_RANGE_PER_C, plausible_expansion
     low, high = EXPANSION_RANGE_PER_C
-    if not low < gamma.value < high:
+    if not plausible_expansion(gamma.value):
         raise InvalidInput(f"expansion coefficient {gamma.text} per C is not a liquid's cubic "
                            f"expansion (expected between {low:g} and {high:g} per C)")
     text = (parse_text(source, "expansion source", max_len=300) or "").strip()
