@@ -7,6 +7,7 @@ standardizations); ``draw`` refuses taking more than remains.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from decimal import Decimal
 from typing import Any
 
@@ -17,22 +18,26 @@ from prepbook.errors import Refused
 from prepbook.store.models import Batch, Replicate, Run, Use
 
 
-def remaining_volumes(session: Session, batch_ids: Any) -> dict[int, Decimal]:
+def remaining_volumes(session: Session, batch_ids: Any,
+                      made: Mapping[int, str] | None = None) -> dict[int, Decimal]:
     """mL left in each of the given batches (a list of ids, or a subquery selecting them):
     the volume made, less every recorded draw: uses (the assays' too), aliquots taken to
     make other batches, the titrant of its standardizations and the aliquots pipetted
     from it to standardize others (the latest version of each replicate). Exact decimal
     arithmetic on the readings as entered; a fixed number of queries for any number of
-    batches. The one place the remaining volume is computed."""
-    left: dict[int, Decimal] = {
-        bid: Decimal(text) for bid, text in session.execute(
-            select(Batch.id, Batch.volume_ml_text).where(Batch.id.in_(batch_ids)))}
-    drawn = [
-        *session.execute(select(Use.batch_id, Use.volume_ml_text)
-                         .where(Use.batch_id.in_(batch_ids), Use.volume_ml_text.is_not(None))),
-        *session.execute(select(Batch.parent_batch_id, Batch.aliquot_ml_text)
-                         .where(Batch.parent_batch_id.in_(batch_ids),
-                                Batch.aliquot_ml_text.is_not(None)))]
+    batches. The one place the remaining volume is computed. ``made`` gives the volumes
+    made (id -> mL as typed) of batches the caller already holds, which are then not read
+    again."""
+    if made is None:
+        made = dict(session.execute(
+            select(Batch.id, Batch.volume_ml_text).where(Batch.id.in_(batch_ids))).all())
+    left: dict[int, Decimal] = {bid: Decimal(text) for bid, text in made.items()}
+    drawn: Any = session.execute(  # the NULLs are filtered out: every text is a volume
+        select(Use.batch_id, Use.volume_ml_text)
+        .where(Use.batch_id.in_(batch_ids), Use.volume_ml_text.is_not(None))
+        .union_all(select(Batch.parent_batch_id, Batch.aliquot_ml_text)
+                   .where(Batch.parent_batch_id.in_(batch_ids),
+                          Batch.aliquot_ml_text.is_not(None))))
     for bid, text in drawn:  # uses, and aliquots taken to make other batches
         left[bid] -= Decimal(text)
     latest: dict[tuple[int, int], tuple[int, int | None, str, str]] = {}
@@ -54,7 +59,7 @@ def remaining_volumes(session: Session, batch_ids: Any) -> dict[int, Decimal]:
 
 def remaining_ml(session: Session, batch: Batch) -> Decimal:
     """mL left in one batch (``remaining_volumes``)."""
-    return remaining_volumes(session, [batch.id])[batch.id]
+    return remaining_volumes(session, [batch.id], {batch.id: batch.volume_ml_text})[batch.id]
 
 
 def draw(session: Session, batch: Batch, volume_ml: Decimal, what: str) -> None:

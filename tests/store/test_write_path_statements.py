@@ -19,10 +19,12 @@ from tests.conftest import Cli
 # Counted on the write path as of this pin (SQLite; PostgreSQL adds no statement: its
 # advisory lock takes the place of BEGIN IMMEDIATE): the writer's user, the settings,
 # the batch by code with its spec, instruments and lot (one query), its runs, the
-# volumes drawn so far (four reads), the use, the audit head with its event's time and
-# the trail's keying (one query), the event, the head moved on. It was 15 before the
-# batch was read once and the head, its time and the keying in one statement.
-PINNED_USE_STATEMENTS = 12
+# volumes drawn so far (two reads: uses and aliquots in one, replicates in the other; the
+# volume made comes with the batch in hand), the use, the audit head with its event's
+# time and the trail's keying (one query), the event, the head moved on. It was 15
+# before the batch was read once and the head, its time and the keying in one
+# statement, then 12 before the volumes drawn took two reads instead of four.
+PINNED_USE_STATEMENTS = 10
 
 
 def _statements_under_the_lock(db: Any, work: Any) -> list[str]:
