@@ -135,6 +135,23 @@ def parse_percent(text: str, what: str) -> Reading:
     return reading
 
 
+#: A validated repeatability (RSD of one result, %) above this is not a volumetric
+#: standardization's (common practice, no source; Ph. Eur. 4.2.2 accepts 0.2 %).
+MAX_REPEATABILITY_RSD_PERCENT = 5.0
+
+
+def parse_repeatability(text: str) -> Reading:
+    """A standardization's validated repeatability as typed: the relative SD of one
+    result, in (0, 5] %. The one reading of it for `standardize`, `calc normality`,
+    `calc secondary` and `spec add`."""
+    what = "repeatability RSD (%)"
+    reading = parse_number(text, what, positive=True)
+    if reading.value > MAX_REPEATABILITY_RSD_PERCENT:
+        raise InvalidInput(f"{what} {reading.text} is not a volumetric standardization's "
+                           f"(at most {MAX_REPEATABILITY_RSD_PERCENT:g} %)")
+    return reading
+
+
 @dataclass(frozen=True)
 class ReplicateEntry:
     """One replicate as typed: ``MASS:VOL`` (or ``ALIQUOT:VOL``); a mass read from a

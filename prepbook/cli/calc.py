@@ -87,8 +87,8 @@ EXPANSION_SOURCE = typer.Option(
 )
 REPEATABILITY = typer.Option(
     None, "--repeatability", metavar="RSD%",
-    help="Validated repeatability, relative SD of one result in % (e.g. from the method "
-         "validation); used in the budget instead of the replicates' scatter."
+    help="Validated repeatability, relative SD of one result in % (at most 5; e.g. from the "
+         "method validation); used in the budget instead of the replicates' scatter."
 )
 
 

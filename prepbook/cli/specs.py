@@ -2,10 +2,15 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import typer
 
 from prepbook.cli import output
 from prepbook.cli.session import actor, database
+
+if TYPE_CHECKING:
+    from prepbook.lab.specs import SpecInfo
 
 app = typer.Typer(
     help="List solution specs and add the lab's own.",
@@ -92,8 +97,8 @@ def add(
     ),
     repeatability: str = typer.Option(
         None, "--repeatability", metavar="RSD%",
-        help="Validated repeatability, relative SD of one result in %, used in the budget "
-             "of each run on this spec that gives none (with --repeatability-source)."
+        help="Validated repeatability, relative SD of one result in % (at most 5), used in "
+             "the budget of each run on this spec that gives none (with --repeatability-source)."
     ),
     repeatability_source: str = typer.Option(
         None, "--repeatability-source", metavar="TEXT",
@@ -143,10 +148,7 @@ def show(ctx: typer.Context,
               f"{sp.factor_low:.3f}-{sp.factor_high:.3f}, drift <= {sp.drift_limit_percent:g} %")
     out.print(f"restandardize every {sp.restandardize_days} days, shelf life "
               f"{sp.shelf_life_days} days")
-    carried = (f"{t(sp.solvent)}'s cubic expansion {sp.expansion_per_c:g} per C "
-               f"({t(sp.expansion_source or 'no source recorded')})"
-               if sp.expansion_per_c is not None else f"{t(sp.solvent)} (water's density)")
-    out.print(f"solvent: {carried}")
+    out.print(f"solvent: {solvent_line(sp)}")
     rsd = (f"{sp.repeatability_rsd_percent:g} % "
            f"({t(sp.repeatability_source or 'no source recorded')})"
            if sp.repeatability_rsd_percent is not None
@@ -154,3 +156,18 @@ def show(ctx: typer.Context,
     out.print(f"validated repeatability: {rsd}")
     if sp.storage:
         out.print(f"storage: {t(sp.storage)}")
+
+
+def solvent_line(sp: SpecInfo) -> str:
+    """How the spec's titrant is carried between temperatures, as `spec show` says it:
+    a non-aqueous spec without a coefficient says that its runs are refused, never
+    that it is carried as water."""
+    t = output.text
+    if sp.expansion_per_c is not None:
+        return (f"{t(sp.solvent)}'s cubic expansion {sp.expansion_per_c:g} per C "
+                f"({t(sp.expansion_source or 'no source recorded')})")
+    if sp.solvent.strip().casefold() == "water":
+        return f"{t(sp.solvent)} (water's density)"
+    return (f"[yellow]{t(sp.solvent)}, with no cubic expansion coefficient stated: "
+            "standardizations on this spec are refused (a new spec can state one with "
+            "--expansion)[/yellow]")

@@ -79,7 +79,7 @@ def standardize(
     ),
     repeatability: str = typer.Option(
         None, "--repeatability", metavar="RSD%",
-        help="Validated repeatability, relative SD of one result in %, for this run's "
+        help="Validated repeatability, relative SD of one result in % (at most 5), for this run's "
              "uncertainty budget (over the spec's; without either, the replicates' scatter)."
     ),
     reaction: str = typer.Option(

@@ -18,6 +18,7 @@ from prepbook.inputs import (
     ReplicateEntry,
     parse_number,
     parse_percent,
+    parse_repeatability,
     parse_replicates,
     parse_text,
 )
@@ -314,7 +315,7 @@ def _repeatability(text: str | None) -> float | None:
     """A validated repeatability as typed (relative SD of one result, %), or None."""
     if text is None:
         return None
-    return parse_percent(text, "repeatability RSD (%)").value
+    return parse_repeatability(text).value
 
 
 def readings_of(entries: Iterable[ReplicateEntry]) -> tuple[Reading, ...]:

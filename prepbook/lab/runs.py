@@ -28,6 +28,7 @@ from prepbook.inputs import (
     ReplicateEntry,
     parse_number,
     parse_percent,
+    parse_repeatability,
     parse_text,
     utc_now,
 )
@@ -234,8 +235,7 @@ def standardize(
     blank_r = parse_number(blank or "0", "blank (mL)", non_negative=True)
     indicator = parse_text(indicator, "indicator", max_len=60)
     performed_at = work_time(db, at, "standardization time", reason=late_reason)
-    rsd = (parse_percent(repeatability, "repeatability RSD (%)")
-           if repeatability is not None else None)
+    rsd = parse_repeatability(repeatability) if repeatability is not None else None
     reaction = parse_text(reaction, "reaction", max_len=60)
     if reaction is not None and secondary:
         raise InvalidInput("--reaction goes with --lot: it names the standard's reaction")
@@ -322,6 +322,8 @@ def _conditions_of(run: Run) -> Conditions:
         indicator=run.indicator, lot=run.lot, balance=run.balance, burette=run.burette,
         reference=ev.Reference(**reference) if reference else None,
         entered_at=run.recorded_at,
+        # What was recorded is read back as it was accepted then (any % up to 100),
+        # so a run recorded before the 5 % bound still re-evaluates.
         repeatability=parse_percent(payload["repeatability_given"], "repeatability RSD (%)")
         if payload.get("repeatability_given") is not None else None,
         reaction=payload.get("reaction_given"))

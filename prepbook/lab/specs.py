@@ -10,7 +10,7 @@ from typing import Any
 from sqlalchemy import select
 
 from prepbook.errors import InvalidInput, NotFound, Refused
-from prepbook.inputs import parse_number, parse_text, utc_now
+from prepbook.inputs import parse_number, parse_repeatability, parse_text, utc_now
 from prepbook.lab.common import acting, write
 from prepbook.store import retry
 from prepbook.store.engine import Database
@@ -237,11 +237,6 @@ def add_spec(
         return spec_info(sp)
 
 
-#: A validated repeatability (RSD of one result, %) above this is not a volumetric
-#: standardization's (common practice, no source; Ph. Eur. 4.2.2 accepts 0.2 %).
-MAX_REPEATABILITY_RSD_PERCENT = 5.0
-
-
 def _validated_repeatability(text: str | None, source: str | None
                              ) -> tuple[float, str] | None:
     """A spec's validated repeatability as typed, with its source, or None."""
@@ -250,10 +245,7 @@ def _validated_repeatability(text: str | None, source: str | None
     if text is None or source is None:
         raise InvalidInput("--repeatability RSD% and --repeatability-source TEXT go "
                            "together: a validated value is kept only with its source")
-    rsd = parse_number(text, "repeatability RSD (%)", positive=True)
-    if rsd.value > MAX_REPEATABILITY_RSD_PERCENT:
-        raise InvalidInput(f"repeatability RSD {rsd.text} % is not a volumetric "
-                           f"standardization's (at most {MAX_REPEATABILITY_RSD_PERCENT:g} %)")
+    rsd = parse_repeatability(text)
     where = parse_text(source, "repeatability source", max_len=300)
     if where is None or not where.strip():
         raise InvalidInput("--repeatability-source must name the validation it comes from")

@@ -122,6 +122,7 @@ def _refusal_cases(batch: str, run: str) -> list[tuple[str | None, list[str], st
         ("ben", [*std, "--rep", "0.8085"], None, "AMOUNT:VOLUME"),
         ("ben", [*std, "--rep", "0.8085:0"], None, "greater than zero"),
         ("ben", [*std, "--rep", "0.8085:55.00"], None, "capacity"),
+        ("ben", [*std, "--rep", "0.8085:40.00", "--repeatability", "8"], None, "at most 5 %"),
         ("ben", ["standardize", "NO-SUCH-BATCH", "--lot", "KHP-0001", "--rep", "0.8:40"], None,
          "no batch"),
         ("ben", ["standardize", batch, "--lot", "NOPE", "--rep", "0.8:40"], None, "no lot"),

@@ -49,7 +49,8 @@ def test_a_validated_repeatability_gives_the_guides_combined_uncertainty(cli: Cl
 
 
 @pytest.mark.parametrize(("typed", "word"), [("0", "greater than zero"), ("-1", "zero"),
-                                             ("abc", "not a plain decimal"), ("101", "100")])
+                                             ("abc", "not a plain decimal"),
+                                             ("101", "at most 5 %"), ("5.1", "at most 5 %")])
 def test_a_bad_repeatability_is_refused(cli: Cli, typed: str, word: str) -> None:
     refused = cli.refused(*A2, "--repeatability", typed)
     assert "repeatability" in refused.stderr and word in refused.stderr

@@ -14,10 +14,13 @@ Hand-worked values:
 
 from __future__ import annotations
 
+import json
 from datetime import UTC, datetime, timedelta
 
 import pytest
 
+from prepbook.lab.specs import SpecInfo, spec_info
+from prepbook.store.models import Spec
 from tests.conftest import Cli, row_counts
 
 KHP_N_25 = 0.3502 / (204.2223 * 0.01714)  # by hand, above
@@ -188,3 +191,27 @@ def test_spec_add_refuses_in_one_line_and_writes_nothing(
     assert "HClO4-0.05N" not in [s["code"] for s in lab.json("spec", "list")]
     assert row_counts(lab.db) == before
     lab.refused("spec", "show", "HClO4-0.05N")
+
+
+def _stored_spec(data: dict[str, object]) -> SpecInfo:
+    """A spec row as an older database may hold it (never written here)."""
+    return spec_info(Spec(code="X-0.1N", name="X 0.1 N", solute_code="NaOH", nominal=0.1,
+                          unit="N", data=json.dumps(data), builtin=False,
+                          created_at=datetime.now(UTC), created_by="ada"))
+
+
+def test_spec_show_says_a_non_aqueous_spec_without_a_coefficient_is_refused() -> None:
+    """Before, `spec show` said such a spec was carried with water's density, while its
+    standardizations were in fact refused (lab.preparing.spec_expansion)."""
+    from prepbook.cli.specs import solvent_line
+
+    methanol = solvent_line(_stored_spec({"solvent": "methanol"}))
+    assert "water" not in methanol
+    assert "methanol, with no cubic expansion coefficient stated" in methanol
+    assert "refused" in methanol
+    water = solvent_line(_stored_spec({}))
+    assert water == "water (water's density)"
+    stated = solvent_line(_stored_spec(
+        {"solvent": "methanol", "expansion_per_c": 0.0012,
+         "sources": {"expansion_per_c": "from memory"}}))
+    assert stated == "methanol's cubic expansion 0.0012 per C (from memory)"
