@@ -159,15 +159,14 @@ def show(ctx: typer.Context,
 
 
 def solvent_line(sp: SpecInfo) -> str:
-    """How the spec's titrant is carried between temperatures, as `spec show` says it:
-    a non-aqueous spec without a coefficient says that its runs are refused, never
-    that it is carried as water."""
+    """How the spec's titrant is carried between temperatures, as `spec show` says it: a
+    spec whose runs are refused for want of its solvent's expansion says so and why,
+    never that it is carried as water."""
     t = output.text
     if sp.expansion_per_c is not None:
         return (f"{t(sp.solvent)}'s cubic expansion {sp.expansion_per_c:g} per C "
                 f"({t(sp.expansion_source or 'no source recorded')})")
-    if sp.solvent.strip().casefold() == "water":
-        return f"{t(sp.solvent)} (water's density)"
-    return (f"[yellow]{t(sp.solvent)}, with no cubic expansion coefficient stated: "
-            "standardizations on this spec are refused (a new spec can state one with "
-            "--expansion)[/yellow]")
+    if sp.expansion_refused is not None:
+        return (f"[yellow]{t(sp.solvent)}: standardizations on this spec are refused: "
+                f"{t(sp.expansion_refused)}[/yellow]")
+    return f"{t(sp.solvent)} (water's density)"

@@ -18,6 +18,7 @@ from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import parse_number, parse_percent, parse_text
 
 if TYPE_CHECKING:
+    from prepbook.catalog.models import SpecDefaults
     from prepbook.chem.corrections import Expansion
 
 
@@ -297,29 +298,47 @@ def spec_expansion(data: Mapping[str, Any]) -> Expansion | None:
     """How a spec's titrant is carried between temperatures: its solvent's cubic
     expansion (``expansion_per_c`` and its source), or None for an aqueous titrant
     (water's density formula). ``data`` is the spec's fields (a stored spec's JSON or a
-    catalog spec's); a built-in spec stored before the coefficient existed takes it from
-    the catalog's spec of the same code, and a non-aqueous spec without one is refused
-    rather than corrected as water."""
+    catalog spec's); a built-in spec stored before the solvent or the coefficient existed
+    takes them from the catalog's spec of the same code. A non-aqueous spec without a
+    coefficient is refused rather than corrected as water, and so is a lab's spec stored
+    without a solvent whose titrant the catalog makes only in another solvent."""
     from prepbook.chem.corrections import Expansion
 
+    spec = _catalog_spec(data.get("code"))
+    if not data.get("solvent"):  # stored before specs stated their solvent
+        if spec is not None:
+            from dataclasses import asdict
+
+            return spec_expansion(asdict(spec))
+        unstated = catalog_solvent(str(data["solute"])) if data.get("solute") else None
+        if unstated is not None:
+            raise InvalidInput(
+                f"spec {data.get('code')} states no solvent, and the catalog makes "
+                f"{data['solute']} titrants only in {unstated[0]} (spec "
+                f"{', '.join(unstated[1])}): add a spec that states its --solvent")
     solvent = str(data.get("solvent") or "water")
     if solvent.strip().casefold() == "water":
         return None
     gamma, sources = data.get("expansion_per_c"), data.get("sources") or {}
-    if gamma is None and data.get("code"):
-        from prepbook.catalog import loader
-
-        try:
-            spec = loader.find_spec(str(data["code"]))
-        except NotFound:
-            spec = None
-        if spec is not None and spec.solvent == solvent:
-            gamma, sources = spec.expansion_per_c, dict(spec.sources)
+    if gamma is None and spec is not None and spec.solvent == solvent:
+        gamma, sources = spec.expansion_per_c, dict(spec.sources)
     if not isinstance(gamma, (int, float)) or isinstance(gamma, bool):
         raise InvalidInput(f"spec {data.get('code')} is in {solvent}, but states no cubic "
                            "expansion coefficient to carry it between temperatures")
     source = dict(sources).get("expansion_per_c") or "no source recorded"
     return Expansion(per_c=float(gamma), solvent=solvent, source=str(source))
+
+
+def _catalog_spec(code: object) -> SpecDefaults | None:
+    """The catalog's spec of a stored spec's code, if the catalog has one."""
+    from prepbook.catalog import loader
+
+    if not code:
+        return None
+    try:
+        return loader.find_spec(str(code))
+    except NotFound:
+        return None
 
 
 def known_solvents() -> dict[str, Expansion]:

@@ -103,6 +103,7 @@ class SpecInfo(SpecFields):
     solvent: str
     expansion_per_c: float | None  # the solvent's cubic expansion; None: water's density
     expansion_source: str | None
+    expansion_refused: str | None  # why runs on it are refused: its solvent is not carried
     repeatability_rsd_percent: float | None  # validated RSD of one result, %; runs use it
     repeatability_source: str | None
 
@@ -112,16 +113,19 @@ def spec_info(spec: Spec) -> SpecInfo:
 
     v = view(spec)
     shared = {f.name: getattr(v, f.name) for f in fields(SpecFields)}
+    refused = None
     try:
         expansion = spec_expansion(v.data)
-    except InvalidInput:  # a non-aqueous spec without a coefficient: its runs are refused
-        expansion = None
+    except InvalidInput as e:  # its runs are refused for the same reason
+        expansion, refused = None, str(e)
     sources = dict(v.data.get("sources") or {})
     rsd = _get(v.data, "repeatability_rsd_percent")
     return SpecInfo(**shared, builtin=spec.builtin,
-                    solvent=str(_get(v.data, "solvent", default="water")),
+                    solvent=expansion.solvent if expansion else str(
+                        v.data.get("solvent") or ("not stated" if refused else "water")),
                     expansion_per_c=expansion.per_c if expansion else None,
                     expansion_source=expansion.source if expansion else None,
+                    expansion_refused=refused,
                     repeatability_rsd_percent=None if rsd is None else float(rsd),
                     repeatability_source=sources.get("repeatability_rsd_percent")
                     if rsd is not None else None)

@@ -104,3 +104,20 @@ def test_an_aqueous_spec_with_a_coefficient_is_a_catalog_problem() -> None:
     broken = dataclasses.replace(cat, specs=tuple(bad if s is naoh else s for s in cat.specs))
     assert any("NaOH-0.1N" in p and "leave expansion_per_c" in p
                for p in check_catalog(broken))
+
+
+def test_a_builtin_spec_stored_before_the_solvent_takes_the_catalogs() -> None:
+    data = asdict(catalog().find_spec("HClO4-0.1N"))
+    del data["solvent"], data["expansion_per_c"]
+    found = spec_expansion(data)
+    assert found is not None and found.per_c == 0.0011
+    assert found.solvent == "glacial acetic acid"
+
+
+def test_a_labs_spec_stored_without_a_solvent_is_not_carried_as_water() -> None:
+    """A lab's perchloric acid spec from before `spec add --solvent`: the catalog makes
+    perchloric acid titrants only in glacial acetic acid, so the run is refused; an
+    aqueous titrant's old spec stays aqueous."""
+    with pytest.raises(InvalidInput, match="states no solvent.*glacial acetic acid"):
+        spec_expansion({"code": "HClO4-0.05N-LAB", "solute": "HClO4"})
+    assert spec_expansion({"code": "NaOH-0.5N-LAB", "solute": "NaOH"}) is None

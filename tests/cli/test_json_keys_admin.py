@@ -23,7 +23,7 @@ SPEC = ["code", "name", "solute", "reaction", "nominal", "unit", "standard", "in
         "min_replicates", "max_rsd_percent", "factor_low", "factor_high",
         "drift_limit_percent", "restandardize_days", "shelf_life_days", "storage", "hazard",
         "cautions", "builtin", "solvent", "expansion_per_c", "expansion_source",
-        "repeatability_rsd_percent", "repeatability_source"]
+        "expansion_refused", "repeatability_rsd_percent", "repeatability_source"]
 LOT = ["code", "material", "purity_percent", "purity_u_percent", "expires", "expired",
        "certificate", "dried_on", "opened_on", "created_by", "density_g_per_ml"]
 INSTRUMENT = ["code", "kind", "unit", "due", "overdue", "capacity", "tolerance",

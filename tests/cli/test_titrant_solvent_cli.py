@@ -195,23 +195,35 @@ def test_spec_add_refuses_in_one_line_and_writes_nothing(
 
 def _stored_spec(data: dict[str, object]) -> SpecInfo:
     """A spec row as an older database may hold it (never written here)."""
-    return spec_info(Spec(code="X-0.1N", name="X 0.1 N", solute_code="NaOH", nominal=0.1,
+    return spec_info(Spec(code=str(data["code"]), name="X 0.1 N", solute_code="NaOH", nominal=0.1,
                           unit="N", data=json.dumps(data), builtin=False,
                           created_at=datetime.now(UTC), created_by="ada"))
 
 
-def test_spec_show_says_a_non_aqueous_spec_without_a_coefficient_is_refused() -> None:
-    """Before, `spec show` said such a spec was carried with water's density, while its
-    standardizations were in fact refused (lab.preparing.spec_expansion)."""
+def test_spec_show_says_why_a_specs_runs_are_refused() -> None:
+    """Before, `spec show` said a non-aqueous spec without a coefficient was carried with
+    water's density, while its standardizations were in fact refused
+    (lab.preparing.spec_expansion); a lab's perchloric acid spec stored before specs
+    stated their solvent was both shown and carried as water."""
     from prepbook.cli.specs import solvent_line
 
-    methanol = solvent_line(_stored_spec({"solvent": "methanol"}))
-    assert "water" not in methanol
-    assert "methanol, with no cubic expansion coefficient stated" in methanol
-    assert "refused" in methanol
-    water = solvent_line(_stored_spec({}))
-    assert water == "water (water's density)"
-    stated = solvent_line(_stored_spec(
-        {"solvent": "methanol", "expansion_per_c": 0.0012,
-         "sources": {"expansion_per_c": "from memory"}}))
-    assert stated == "methanol's cubic expansion 0.0012 per C (from memory)"
+    methanol = _stored_spec({"code": "X-0.1N", "solvent": "methanol"})
+    assert methanol.expansion_per_c is None
+    assert methanol.expansion_refused is not None
+    assert "no cubic expansion coefficient" in methanol.expansion_refused
+    shown = solvent_line(methanol)
+    assert "water" not in shown and shown.startswith("[yellow]methanol: ")
+    assert "standardizations on this spec are refused" in shown
+
+    old = _stored_spec({"code": "HClO4-0.05N-LAB", "solute": "HClO4"})
+    assert old.solvent == "not stated"
+    assert old.expansion_refused is not None
+    assert "glacial acetic acid" in old.expansion_refused
+    assert "--solvent" in old.expansion_refused
+
+    water = _stored_spec({"code": "X-0.1N"})
+    assert water.expansion_refused is None
+    assert solvent_line(water) == "water (water's density)"
+    stated = _stored_spec({"code": "X-0.1N", "solvent": "methanol", "expansion_per_c": 0.0012,
+                           "sources": {"expansion_per_c": "from memory"}})
+    assert solvent_line(stated) == "methanol's cubic expansion 0.0012 per C (from memory)"
