@@ -10,8 +10,9 @@ No SQLAlchemy here: ``prepbook calc`` must start fast.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import (
@@ -34,8 +35,7 @@ MIN_REPLICATES = 3  # common practice, no source
 BURETTE_FRACTION = 0.30  # USP <31>
 
 
-@dataclass(frozen=True)
-class WeighedReplicate:
+class WeighedReplicate(msgspec.Struct, frozen=True):
     index: int
     mass_g: str  # as typed
     volume_ml: str  # as typed
@@ -45,8 +45,7 @@ class WeighedReplicate:
     excluded: bool
 
 
-@dataclass(frozen=True)
-class PipettedReplicate:
+class PipettedReplicate(msgspec.Struct, frozen=True):
     index: int
     aliquot_ml: str  # as typed
     volume_ml: str  # as typed
@@ -56,8 +55,7 @@ class PipettedReplicate:
     excluded: bool
 
 
-@dataclass(frozen=True)
-class NormalityResult:
+class NormalityResult(msgspec.Struct, frozen=True):
     """``calc normality``: its fields are the keys of the command's JSON."""
 
     standard: StandardFacts
@@ -86,8 +84,7 @@ class NormalityResult:
     expansion_source: str | None  # where the coefficient (or water's density) comes from
 
 
-@dataclass(frozen=True)
-class SecondaryResult:
+class SecondaryResult(msgspec.Struct, frozen=True):
     """``calc secondary``: its fields are the keys of the command's JSON."""
 
     reference_normality: float
