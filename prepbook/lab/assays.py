@@ -255,7 +255,7 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             write(s, user.name, "assay.replicate", AssayReplicate(
                 assay_id=row.id, position=pos, volume_ml_text=v.text),
                 performed_at=performed_at)
-        return AssayResult(**{**result.__dict__, "assay": code})
+        return msgspec.structs.replace(result, assay=code)
 
 
 def _run_in_force(s: Session, batch: Batch, at: datetime) -> Run:
