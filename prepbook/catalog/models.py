@@ -1,4 +1,4 @@
-"""The catalog's data model: frozen dataclasses for each kind of entry, and lookup.
+"""The catalog's data model: frozen records for each kind of entry, and lookup.
 
 ``Catalog`` holds every entry and finds one by code, formula, name or alias (case- and
 whitespace-insensitive, one spelling of the hydrate dot); ``reaction_for_pair`` picks the

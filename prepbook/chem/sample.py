@@ -32,7 +32,7 @@ factor f_rep = 1, as ``chem.standardization`` does for a standardization:
 - repeatability: a validated relative SD when given, else s/(mean sqrt(n)) of the
   replicate results, missing with one replicate.
 
-Pure computation: numbers in, a frozen dataclass out.
+Pure computation: numbers in, a frozen record out.
 """
 
 from __future__ import annotations

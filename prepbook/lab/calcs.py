@@ -2,7 +2,7 @@
 (``normality``, ``secondary``); the preparation calculators are in ``lab.preparing``.
 
 Each function takes the values as typed (strings), looks materials up in the
-built-in catalog, calls the chemistry core and returns a frozen dataclass whose fields
+built-in catalog, calls the chemistry core and returns a frozen record whose fields
 are the keys of the command's JSON.
 No SQLAlchemy here: ``prepbook calc`` must start fast.
 """

@@ -1,6 +1,6 @@
 """The titration-curve calculations behind ``prepbook calc endpoint`` and ``calc eqpoint``.
 
-Database-free, like ``prepbook.lab.calcs``: values as typed in, a frozen dataclass whose
+Database-free, like ``prepbook.lab.calcs``: values as typed in, a frozen record whose
 fields are the keys of the command's JSON out.
 """
 

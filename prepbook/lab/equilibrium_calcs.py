@@ -3,7 +3,7 @@
 
 Takes the values as typed, finds the analyte, titrant or ions in the catalog, computes
 with ``prepbook.chem.equilibria``, ``chem.indicators`` and ``chem.salts`` and returns
-frozen dataclasses whose fields are the keys of the commands' JSON. No SQLAlchemy here.
+frozen records whose fields are the keys of the commands' JSON. No SQLAlchemy here.
 """
 
 from __future__ import annotations

@@ -2,7 +2,7 @@
 dilute, adjust, buoyancy, temperature and titer.
 
 Each function takes the values as typed (strings), looks materials up in the
-built-in catalog, calls the chemistry core and returns a frozen dataclass whose fields
+built-in catalog, calls the chemistry core and returns a frozen record whose fields
 are the keys of the command's JSON. Apart from ``lab.calcs`` so that ``calc
 normality``, the command a bench runs most, does not build these types at start-up.
 """

@@ -2,7 +2,7 @@
 
 Takes the values as typed (strings), finds the analyte, its method and the titrant in the
 built-in catalog (``catalog.samples.analyte_titration``), computes with
-``prepbook.chem.sample`` and returns a frozen dataclass whose fields are the keys of the
+``prepbook.chem.sample`` and returns a frozen record whose fields are the keys of the
 command's JSON. No SQLAlchemy here.
 """
 
