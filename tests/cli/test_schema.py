@@ -196,8 +196,8 @@ def _reached(kind: Any, seen: set[type]) -> None:
             _reached(hint, seen)
 
 
-def test_every_dataclass_written_its_own_way_is_described() -> None:
-    """A dataclass with a ``to_json()`` writes a shape of its own: its schema must say
+def test_every_record_written_its_own_way_is_described() -> None:
+    """A record with a ``to_json()`` writes a shape of its own: its schema must say
     how (``json_schemas.RESHAPED``), else the schema would describe its fields."""
     for command in json_schemas.commands():
         json_schemas.schema(command)  # binds the names the services import for mypy only
