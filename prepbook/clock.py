@@ -13,9 +13,10 @@ its offset: guessing would put the work an hour off.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from datetime import UTC, date, datetime, timedelta, tzinfo
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -137,8 +138,7 @@ def late(performed: datetime | str | None, entered: datetime | str | None,
     return done is not None and typed is not None and typed - done > allowed
 
 
-@dataclass(frozen=True)
-class LabClock:
+class LabClock(msgspec.Struct, frozen=True):
     """The lab's time zone and how late an entry may be without a reason: what a
     screen, a report or a label needs to show times in lab time and mark late entries
     (``prepbook.lab.settings.lab_clock`` reads it from the database)."""

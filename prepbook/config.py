@@ -24,9 +24,10 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Literal
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -36,8 +37,7 @@ DEFAULT_DB = "prepbook.db"
 Source = Literal["option", "environment", "file", "default"]
 
 
-@dataclass(frozen=True)
-class Setting:
+class Setting(msgspec.Struct, frozen=True):
     """One setting's value and where it came from (``origin``: the option, variable
     or file that gave it; empty for a default)."""
 
@@ -85,8 +85,7 @@ def _flag(name: str, value: Any) -> bool:
     return value
 
 
-@dataclass(frozen=True)
-class _Spec:
+class _Spec(msgspec.Struct, frozen=True):
     env: str
     parse: Callable[[str, Any], str | int | bool]
     default: str | None

@@ -11,10 +11,11 @@ from __future__ import annotations
 import math
 import re
 import sys
-from dataclasses import dataclass
 from datetime import UTC, date, datetime, time, tzinfo
 from decimal import Decimal, InvalidOperation
 from typing import TYPE_CHECKING
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -29,8 +30,7 @@ _NUMBER = re.compile(r"^[+-]?([0-9]+(\.[0-9]*)?|\.[0-9]+)([eE][+-]?[0-9]{1,3})?$
 _MAX_LEN = 32
 
 
-@dataclass(frozen=True)
-class Reading:
+class Reading(msgspec.Struct, frozen=True):
     """A number as entered (``text``) and as computed with (``value``)."""
 
     text: str
@@ -152,8 +152,7 @@ def parse_repeatability(text: str) -> Reading:
     return reading
 
 
-@dataclass(frozen=True)
-class ReplicateEntry:
+class ReplicateEntry(msgspec.Struct, frozen=True):
     """One replicate as typed: ``MASS:VOL`` (or ``ALIQUOT:VOL``); a mass read from a
     balance carries its ``weighing``, a recorded curve its ``curve`` (``volume_from_curve``
     when the volume is the curve's endpoint): see ``prepbook.lab.replicate_sources``."""

@@ -14,7 +14,6 @@ raw sqlite3 access) are skipped on PostgreSQL, each with its reason: request
 
 from __future__ import annotations
 
-import dataclasses
 import json
 import os
 import sqlite3
@@ -25,6 +24,7 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
+import msgspec
 import pytest
 from typer.testing import CliRunner, Result
 
@@ -261,7 +261,7 @@ def _isolated_env(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     # lifts that rule (tests of the policy itself restore it: ``strict_passphrases``).
     from prepbook.lab import settings
 
-    monkeypatch.setitem(settings.KNOWN, "passphrase_name_rule", dataclasses.replace(
+    monkeypatch.setitem(settings.KNOWN, "passphrase_name_rule", msgspec.structs.replace(
         settings.KNOWN["passphrase_name_rule"], default="off"))
     monkeypatch.delenv("PREPBOOK_DB", raising=False)
     monkeypatch.delenv("PREPBOOK_USER", raising=False)

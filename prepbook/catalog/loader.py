@@ -6,7 +6,7 @@ touching code. Loading goes through one path, a module per concern:
 
 - ``parsed_copy``: the files' bytes, parsed from TOML or from the parsed copy beside them;
 - ``shape``: each file's keys and types, declared once (also the editors' JSON Schema);
-- ``build``: the objects of ``models`` (frozen dataclasses) from what ``shape`` read;
+- ``build``: the objects of ``models`` (frozen records) from what ``shape`` read;
 - ``checks``: what the values mean (formulas, ranges, references, sources);
 - ``samples``: the analytes and ions of sample titrations, built when first asked for
   (only the sample commands use them).

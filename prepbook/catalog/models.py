@@ -1,4 +1,4 @@
-"""The catalog's data model: frozen dataclasses for each kind of entry, and lookup.
+"""The catalog's data model: frozen records for each kind of entry, and lookup.
 
 ``Catalog`` holds every entry and finds one by code, formula, name or alias (case- and
 whitespace-insensitive, one spelling of the hydrate dot); ``reaction_for_pair`` picks the
@@ -10,8 +10,9 @@ from __future__ import annotations
 
 import functools
 from collections.abc import Callable, Iterable, Mapping
-from dataclasses import dataclass
 from typing import Any
+
+import msgspec
 
 from prepbook.errors import NotFound, PrepbookError
 
@@ -45,8 +46,7 @@ def refuse_if_any(problems: Iterable[str]) -> None:
 # --------------------------------------------------------------------------- values
 
 
-@dataclass(frozen=True)
-class Hazard:
+class Hazard(msgspec.Struct, frozen=True):
     """GHS classification as printed on a label.
 
     ``statements`` hold "code text" (e.g. "H314 Causes severe skin burns and eye damage.")
@@ -76,8 +76,7 @@ class Hazard:
         return bool(self.signal_word or self.statements or self.pictograms)
 
 
-@dataclass(frozen=True)
-class Reaction:
+class Reaction(msgspec.Struct, frozen=True):
     """One titration reaction of a material; ``n`` is stored per reaction, not per substance.
 
     ``n`` is equivalents per mole of the material: protons (acid-base), electrons (redox),
@@ -103,8 +102,7 @@ class Reaction:
         return self.n if self.kind == "acid-base" else None
 
 
-@dataclass(frozen=True)
-class Material:
+class Material(msgspec.Struct, frozen=True):
     """A primary standard or titrant solute, in the form that is weighed.
 
     ``reactions[0]`` is the primary reaction. For the acid-base equilibrium model:
@@ -165,8 +163,7 @@ class Material:
         return "titrant-solute" in self.roles
 
 
-@dataclass(frozen=True)
-class Reagent:
+class Reagent(msgspec.Struct, frozen=True):
     """A concentrated liquid reagent, with its strength as published (not recomputed)."""
 
     code: str
@@ -194,8 +191,7 @@ class Reagent:
 
 
 
-@dataclass(frozen=True)
-class Indicator:
+class Indicator(msgspec.Struct, frozen=True):
     """An endpoint indicator. Only acid-base indicators carry a pH transition range."""
 
     name: str
@@ -231,8 +227,7 @@ class Indicator:
         return rng[0] <= ph <= rng[1]
 
 
-@dataclass(frozen=True)
-class SpecDefaults:
+class SpecDefaults(msgspec.Struct, frozen=True):
     """A built-in solution spec: what to make, how to accept it, how long it lives.
 
     ``solute`` is a material code and ``reaction_name`` the name of its reaction (hence n).
@@ -323,8 +318,7 @@ def lookup(index: Mapping[str, Any], label: Callable[[Any], str], what: str, que
     raise NotFound(f"no {what} {query!r} in the catalog ({hint})")
 
 
-@dataclass(frozen=True)
-class Catalog:
+class Catalog(msgspec.Struct, frozen=True, dict=True):
     """The built-in reference data of preparing and standardizing, indexed for lookup by
     code, formula, name or alias. The analytes and ions of sample titrations are loaded
     apart, when first asked for (``samples``)."""

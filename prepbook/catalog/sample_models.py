@@ -11,8 +11,9 @@ them); ``checks`` judges them.
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
+
+import msgspec
 
 from prepbook.catalog.models import (
     CONCENTRATION_UNITS,
@@ -30,8 +31,7 @@ __all__ = ["CONCENTRATION_UNITS", "Analyte", "AnalyteMethod", "AnalyteTitration"
            "Samples", "method_for"]
 
 
-@dataclass(frozen=True)
-class AnalyteMethod:
+class AnalyteMethod(msgspec.Struct, frozen=True):
     """One way of titrating an analyte: the titrant, and ``n`` per mole of the analyte.
 
     ``n`` counts the analyte's equivalents in the same convention as the titrant's own
@@ -57,8 +57,7 @@ class AnalyteMethod:
         return self.excess_reagent is not None
 
 
-@dataclass(frozen=True)
-class Analyte:
+class Analyte(msgspec.Struct, frozen=True):
     """What a sample is titrated for, with the ways of titrating it.
 
     ``unit`` is how the trade reports a liquid sample's result (g/L, mg/L, g/100 mL);
@@ -116,8 +115,7 @@ def method_for(analyte: Analyte, titrant: Material, name: str | None = None) -> 
     raise NotFound(f"{analyte.name} has no method{wanted} with {titrant.code}; it has: {have}")
 
 
-@dataclass(frozen=True)
-class Ion:
+class Ion(msgspec.Struct, frozen=True):
     """An ion for a salt's pH: its charge and acid/base system (``pka`` empty for a
     spectator), with ``protons`` it carries counted from the system's fully deprotonated
     member."""
@@ -136,8 +134,7 @@ class Ion:
         return (self.name, self.formula, *self.aliases)
 
 
-@dataclass(frozen=True)
-class Samples:
+class Samples(msgspec.Struct, frozen=True, dict=True):
     """The built-in analytes and ions, indexed for lookup by code, name, formula or alias."""
 
     analytes: tuple[Analyte, ...]
@@ -158,8 +155,7 @@ class Samples:
         return lookup(self._ion_index, lambda i: i.name, "ion", query)
 
 
-@dataclass(frozen=True)
-class AnalyteTitration:
+class AnalyteTitration(msgspec.Struct, frozen=True):
     """An analyte with one titrant, as ``prepbook.chem.sample`` computes it.
 
     ``analyte``/``method``: the catalog's entries; ``titrant`` the titrant's material and

@@ -23,7 +23,8 @@ Appendix I B).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -51,8 +52,7 @@ def plausible_expansion(gamma: float) -> bool:
 CORRECTION_RANGE_C = (0.0, 40.0)  # where a titrant's temperature correction is applied
 
 
-@dataclass(frozen=True)
-class Expansion:
+class Expansion(msgspec.Struct, frozen=True):
     """A non-aqueous titrant's cubic expansion: the coefficient (per C) of its solvent,
     as its spec states it, and where the value comes from."""
 

@@ -22,8 +22,9 @@ from __future__ import annotations
 
 import csv
 import re
-from dataclasses import dataclass
 from pathlib import Path
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -35,8 +36,7 @@ _NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
 _WORD = re.compile(r"[a-z]+")
 
 
-@dataclass(frozen=True)
-class CurveFile:
+class CurveFile(msgspec.Struct, frozen=True):
     """A curve as read from a file: the series, the kind of reading, which columns
     (1-based, as named in the header) they came from, and how many preamble lines
     were skipped above the header."""

@@ -25,8 +25,9 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
 from typing import Any
+
+import msgspec
 
 from prepbook.chem.curve_files import PH_READING_RANGE, read_curve
 from prepbook.errors import InvalidInput
@@ -59,8 +60,7 @@ with strong base, (V0 + V) * 10^(pH - pKw) after it (C_base (V - Ve))."""
 _PKW_25C = 14.00
 
 
-@dataclass(frozen=True)
-class Endpoint:
+class Endpoint(msgspec.Struct, frozen=True):
     """The equivalence point found on a curve.
 
     ``equivalence_ml``: the second-derivative zero crossing, mL of titrant.
@@ -80,8 +80,7 @@ class Endpoint:
     first_derivative_ml: float | None = None
 
 
-@dataclass(frozen=True)
-class GranFit:
+class GranFit(msgspec.Struct, frozen=True):
     """A Gran line: its x-intercept (``equivalence_ml``, None when the method does not fit),
     the function plotted, the points fitted, the straightness and the reasons."""
 

@@ -31,8 +31,9 @@ import functools
 import math
 import re
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 from pathlib import Path
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -46,8 +47,7 @@ _SEPARATOR_RE = re.compile("[" + re.escape("".join(HYDRATE_SEPARATORS)) + "]")
 _MULTIPLIER_RE = re.compile(r"^(\d+)\s*(.*)$", re.DOTALL)
 
 
-@dataclass(frozen=True)
-class MolarMass:
+class MolarMass(msgspec.Struct, frozen=True):
     """A formula's molar mass and its standard uncertainty (g/mol)."""
 
     formula: str  # as given

@@ -37,7 +37,8 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.chem.equilibria import (
     PKW_25C,
@@ -53,8 +54,7 @@ DEFAULT_TOLERANCE_PERCENT = 0.1
 (common practice, no source)."""
 
 
-@dataclass(frozen=True)
-class Titration:
+class Titration(msgspec.Struct, frozen=True):
     """A titration at stated concentrations.
 
     ``pkas``: ascending pKa values of the sample's acid/base system (fully protonated
@@ -136,8 +136,7 @@ def titration_error_percent(titration: Titration, ph: float) -> float | None:
     return 100.0 * (volume - ve) / ve
 
 
-@dataclass(frozen=True)
-class IndicatorAdvice:
+class IndicatorAdvice(msgspec.Struct, frozen=True):
     """One indicator judged for a titration.
 
     ``stop_ph``: the middle of its transition range; ``error_percent``: the titration

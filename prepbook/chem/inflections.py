@@ -56,8 +56,9 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
 from typing import Any
+
+import msgspec
 
 from prepbook.chem.curves import gran, validated_curve
 from prepbook.errors import InvalidInput
@@ -102,8 +103,7 @@ equivalence volume, or twice the inflection's standard uncertainty if that is la
 _MAX_GRID = 20000  # grid points at most, whatever the steps
 
 
-@dataclass(frozen=True)
-class Inflection:
+class Inflection(msgspec.Struct, frozen=True):
     """One inflection: the volume (mL), its standard uncertainty (mL), the reading
     interpolated there, the slope there (reading units per mL, signed), and the number
     of recorded points the cubic was fitted to."""
@@ -115,8 +115,7 @@ class Inflection:
     points_fitted: int
 
 
-@dataclass(frozen=True)
-class EndpointReport:
+class EndpointReport(msgspec.Struct, frozen=True):
     """Every inflection found (in order of volume) and how they were found.
 
     ``noise``: the reading noise estimated from the curve (standard deviation, reading

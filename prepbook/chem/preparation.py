@@ -14,22 +14,21 @@ within a burette's tolerance).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Literal
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
 
-@dataclass(frozen=True)
-class Dilution:
+class Dilution(msgspec.Struct, frozen=True):
     """Stock to measure and water to make up the final volume."""
 
     stock_ml: float
     water_ml: float
 
 
-@dataclass(frozen=True)
-class Adjustment:
+class Adjustment(msgspec.Struct, frozen=True):
     """What to add to a batch to bring it to the target normality."""
 
     add: Literal["water", "stock"]

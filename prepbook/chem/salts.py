@@ -21,7 +21,8 @@ of a weak acid and a weak base of equal strength, ammonium acetate, is neutral).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.chem.equilibria import PKW_25C, check_pkas, check_positive, solve_systems_ph
 from prepbook.errors import InvalidInput
@@ -31,8 +32,7 @@ NEUTRAL_BAND = 0.05
 practice, no source: the second decimal of a pH meter's reading)."""
 
 
-@dataclass(frozen=True)
-class Ion:
+class Ion(msgspec.Struct, frozen=True):
     """An ion: its charge, and its acid/base system (empty ``pkas`` for a spectator).
 
     ``protons``: protons the ion carries, counted from its system's fully deprotonated
@@ -64,8 +64,7 @@ class Ion:
         return pkw - self.pkas[n - self.protons - 1] if self.protons < n else None
 
 
-@dataclass(frozen=True)
-class Strength:
+class Strength(msgspec.Struct, frozen=True):
     """One way an ion acts: as an acid (Ka) or a base (Kb)."""
 
     ion: str
@@ -77,8 +76,7 @@ class Strength:
         return 10.0 ** (-self.pk)
 
 
-@dataclass(frozen=True)
-class SaltResult:
+class SaltResult(msgspec.Struct, frozen=True):
     """The salt's solution: pH, what it is, which ion governs and why, in words."""
 
     cation: str

@@ -32,7 +32,7 @@ factor f_rep = 1, as ``chem.standardization`` does for a standardization:
 - repeatability: a validated relative SD when given, else s/(mean sqrt(n)) of the
   replicate results, missing with one replicate.
 
-Pure computation: numbers in, a frozen dataclass out.
+Pure computation: numbers in, a frozen record out.
 """
 
 from __future__ import annotations
@@ -40,8 +40,9 @@ from __future__ import annotations
 import math
 import statistics
 from collections.abc import Collection, Sequence
-from dataclasses import dataclass, replace
 from typing import Any
+
+import msgspec
 
 from prepbook.chem.stats import ReplicateStats, check_excluded, replicate_stats
 from prepbook.chem.uncertainty import (
@@ -68,8 +69,7 @@ BALANCE_LINEARITY_G = 0.00015
 TEMPERATURE_RANGE_C = 3.0
 
 
-@dataclass(frozen=True)
-class Analyte:
+class Analyte(msgspec.Struct, frozen=True):
     """The analyte as titrated in one reaction.
 
     ``n_eq_per_mol``: equivalents per mole of the analyte in this reaction, in the
@@ -108,8 +108,7 @@ class Analyte:
         return mass / n
 
 
-@dataclass(frozen=True)
-class Solution:
+class Solution(msgspec.Struct, frozen=True):
     """A standardized solution: the titrant, or the excess reagent of a back-titration.
 
     ``U`` is its expanded uncertainty (eq/L) with coverage factor ``k``; None when not
@@ -124,8 +123,7 @@ class Solution:
     n_eq_per_mol: float | None = None
 
 
-@dataclass(frozen=True)
-class ExcessReagent:
+class ExcessReagent(msgspec.Struct, frozen=True):
     """A back-titration's reagent: the solution, the volume added (mL, each replicate
     the same) and the tolerance of the pipette that delivers it (+/- mL)."""
 
@@ -134,8 +132,7 @@ class ExcessReagent:
     pipette_tolerance_ml: float = PIPETTE_TOLERANCE_ML
 
 
-@dataclass(frozen=True)
-class Instruments:
+class Instruments(msgspec.Struct, frozen=True):
     """Tolerances and conditions for the budget (see the module docstring)."""
 
     burette_tolerance_ml: float = BURETTE_TOLERANCE_ML
@@ -145,8 +142,10 @@ class Instruments:
     u_rel_repeatability: float | None = None  # a validated relative SD of one result
 
 
-@dataclass(frozen=True)
-class SampleReplicate:
+DEFAULT_INSTRUMENTS = Instruments()
+
+
+class SampleReplicate(msgspec.Struct, frozen=True):
     """One titration of the sample and what it gives.
 
     ``value`` is the reported quantity (concentration in the analyte's unit for an
@@ -163,8 +162,7 @@ class SampleReplicate:
     excluded: bool
 
 
-@dataclass(frozen=True)
-class SampleResult:
+class SampleResult(msgspec.Struct, frozen=True):
     """The sample's result: the mean of the included replicates and its uncertainty.
 
     For an aliquot: ``normality`` and ``molarity`` of the analyte in the sample and
@@ -245,7 +243,7 @@ def sample_result(
     sample_is_mass: bool = False,
     blank_ml: float = 0.0,
     excess: ExcessReagent | None = None,
-    instruments: Instruments = Instruments(),
+    instruments: Instruments = DEFAULT_INSTRUMENTS,
     excluded: Collection[int] = (),
 ) -> SampleResult:
     """The analyte in a sample from replicate titrations with a standardized titrant.
@@ -412,4 +410,4 @@ def _budget(*, analyte: Analyte, titrant: Solution, u_titrant: float | None, bla
         hidden.add("V_blank")
     lines = tuple(line for line in result.budget
                   if line.missing is not None or line.symbol not in hidden)
-    return replace(result, budget=lines)
+    return msgspec.structs.replace(result, budget=lines)

@@ -41,7 +41,8 @@ from __future__ import annotations
 import math
 import statistics
 from collections.abc import Callable, Collection, Sequence
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.chem.corrections import buoyancy_true_mass
 from prepbook.chem.stats import OutlierFlag, ReplicateStats, check_excluded, replicate_stats
@@ -76,8 +77,7 @@ __all__ = [
 ]
 
 
-@dataclass(frozen=True)
-class PrimaryStandard:
+class PrimaryStandard(msgspec.Struct, frozen=True):
     """A primary standard as used in one reaction (n equivalents per mole)."""
 
     name: str
@@ -93,16 +93,14 @@ class PrimaryStandard:
         return self.molar_mass_g_per_mol / self.n_eq_per_mol
 
 
-@dataclass(frozen=True)
-class Buoyancy:
+class Buoyancy(msgspec.Struct, frozen=True):
     """Densities for the air-buoyancy correction (NIST IR 6969 SOP 2 defaults)."""
 
     air_g_per_cm3: float = 0.0012
     weights_g_per_cm3: float = 8.0
 
 
-@dataclass(frozen=True)
-class UncertaintyInputs:
+class UncertaintyInputs(msgspec.Struct, frozen=True):
     """Standard uncertainties of one reading of each kind (see module docstring)."""
 
     u_mass_g: float  # one net mass (by difference)
@@ -112,8 +110,7 @@ class UncertaintyInputs:
     u_rel_repeatability: float | None = None  # None -> s/(mean sqrt(n)) of the replicates
 
 
-@dataclass(frozen=True)
-class ReplicateResult:
+class ReplicateResult(msgspec.Struct, frozen=True):
     """One replicate titration and the normality it gives."""
 
     index: int  # 1-based
@@ -125,8 +122,7 @@ class ReplicateResult:
     outlier: bool
 
 
-@dataclass(frozen=True)
-class StandardizationResult:
+class StandardizationResult(msgspec.Struct, frozen=True):
     """Mean normality of the included replicates, their statistics and uncertainty."""
 
     normality: float  # eq/L

@@ -22,9 +22,10 @@ import csv
 import math
 import statistics
 from collections.abc import Collection, Sequence
-from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -33,8 +34,7 @@ TABLE_ALPHAS = (0.05, 0.01)
 TABLE_N = (3, 100)
 
 
-@dataclass(frozen=True)
-class OutlierFlag:
+class OutlierFlag(msgspec.Struct, frozen=True):
     """A replicate that Grubbs' test flags (it stays in the data)."""
 
     index: int  # 1-based position among the values given
@@ -45,8 +45,7 @@ class OutlierFlag:
     alpha: float = 0.05
 
 
-@dataclass(frozen=True)
-class ReplicateStats:
+class ReplicateStats(msgspec.Struct, frozen=True):
     """Mean and spread of the included replicates."""
 
     n: int

@@ -19,8 +19,9 @@ from __future__ import annotations
 import math
 import statistics
 from collections.abc import Sequence
-from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta
+
+import msgspec
 
 from prepbook.chem.student_t import t_975
 from prepbook.errors import InvalidInput
@@ -30,8 +31,7 @@ CONFIDENCE = 0.95
 _FLAT_SLOPE_PER_DAY = 1e-12  # below this the line is taken as flat
 
 
-@dataclass(frozen=True)
-class Trend:
+class Trend(msgspec.Struct, frozen=True):
     """Least-squares trend of the factor against time."""
 
     slope_percent_per_30d: float

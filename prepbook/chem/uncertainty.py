@@ -28,12 +28,12 @@ combining, prints 0.13 mg), 0.012 mL for calibration and 0.0069 mL for temperatu
 
 from __future__ import annotations
 
-import dataclasses
 import math
 import statistics
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
 from typing import Any
+
+import msgspec
 
 from prepbook.chem.corrections import EXPANSION_PER_C
 from prepbook.errors import InvalidInput
@@ -41,8 +41,7 @@ from prepbook.errors import InvalidInput
 COVERAGE_FACTOR = 2.0  # CG4: k = 2 for about 95 % coverage
 
 
-@dataclass(frozen=True)
-class InputQuantity:
+class InputQuantity(msgspec.Struct, frozen=True):
     """One input of a measurement model with its standard uncertainty."""
 
     quantity: str  # words, e.g. "mass of primary standard"
@@ -52,8 +51,7 @@ class InputQuantity:
     u: float  # standard uncertainty, same unit as value
 
 
-@dataclass(frozen=True)
-class BudgetLine:
+class BudgetLine(msgspec.Struct, frozen=True):
     """One row of an uncertainty budget."""
 
     quantity: str
@@ -67,8 +65,7 @@ class BudgetLine:
     missing: str | None = None  # why a term that belongs here was not evaluated
 
 
-@dataclass(frozen=True)
-class MissingTerm:
+class MissingTerm(msgspec.Struct, frozen=True):
     """A term the budget should hold but could not evaluate, and why. It is kept as a
     budget line (zero contribution, ``missing`` set) so a table or an export of the
     budget shows the gap instead of a smaller uncertainty that looks complete."""
@@ -86,8 +83,7 @@ REPEATABILITY_MISSING = MissingTerm(
     "lacks this term")
 
 
-@dataclass(frozen=True)
-class UncertaintyResult:
+class UncertaintyResult(msgspec.Struct, frozen=True):
     """Combined and expanded uncertainty of a result, with its budget."""
 
     value: float
@@ -255,8 +251,7 @@ def propagate(
 # ----------------------------------------------------------------------------- repeatability
 
 
-@dataclass(frozen=True)
-class RepeatabilityTerm:
+class RepeatabilityTerm(msgspec.Struct, frozen=True):
     """The repeatability line of a budget: the input (None when it cannot be
     evaluated), the note saying where it came from, and the missing term otherwise."""
 
@@ -397,7 +392,7 @@ def secondary_budget_from_u(
     result = propagate(model, inputs, k=k, report_value=report_value,
                        notes=(*notes, *term.notes), missing=(*missing, *term.missing))
     if u_reference_normality is None:  # N_ref shows once: as its missing line
-        result = dataclasses.replace(
+        result = msgspec.structs.replace(
             result, budget=tuple(line for line in result.budget
                                  if not (line.symbol == "N_ref" and line.missing is None)))
     return result

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
+import msgspec
 import typer
 
 from prepbook.cli import output
@@ -167,9 +168,7 @@ def show(
     b = batches.show_batch(db, code)
     made = assays_of(db, code)
     if as_json:
-        from dataclasses import fields
-
-        output.emit_json({**{f.name: getattr(b, f.name) for f in fields(b)}, "assays": made})
+        output.emit_json({**msgspec.structs.asdict(b), "assays": made})
     else:
         from prepbook.lab.replicate_sources import of_batch
 

@@ -18,10 +18,12 @@ import os
 import sys
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import contextmanager
-from dataclasses import asdict, fields, is_dataclass
 from datetime import date, datetime
 from typing import Any
 
+import msgspec
+
+from prepbook.records import as_data
 from prepbook.text import visible
 
 
@@ -30,8 +32,8 @@ def _default(value: Any) -> Any:
         return value.isoformat(timespec="seconds")
     if isinstance(value, date):
         return value.isoformat()
-    if is_dataclass(value) and not isinstance(value, type):
-        return asdict(value)
+    if isinstance(value, msgspec.Struct):
+        return as_data(value)
     if isinstance(value, set | frozenset | tuple):
         return list(value)
     raise TypeError(f"cannot write {type(value).__name__} as JSON")
@@ -39,10 +41,10 @@ def _default(value: Any) -> Any:
 
 def _finite(value: Any) -> Any:
     """JSON has no NaN or infinity: write them as null rather than invalid JSON. A
-    dataclass is written as its ``to_json()`` when it has one, else field by field."""
-    if is_dataclass(value) and not isinstance(value, type):
+    record is written as its ``to_json()`` when it has one, else field by field."""
+    if isinstance(value, msgspec.Struct):
         to_json = getattr(value, "to_json", None)
-        value = to_json() if to_json else {f.name: getattr(value, f.name) for f in fields(value)}
+        value = to_json() if to_json else msgspec.structs.asdict(value)
     if isinstance(value, float) and not math.isfinite(value):
         return None
     if isinstance(value, dict):

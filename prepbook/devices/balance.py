@@ -16,7 +16,8 @@ hold it.
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.devices.profiles import BalanceProfile
 from prepbook.errors import Refused
@@ -29,8 +30,7 @@ class ReadingRefused(Refused):
     """The balance gave no reading prepbook can take (unstable, unit, overload, silent)."""
 
 
-@dataclass(frozen=True)
-class PrintLine:
+class PrintLine(msgspec.Struct, frozen=True):
     """A print line understood: the value as printed (sign and spaces removed), its
     unit and whether the balance marked it stable."""
 
@@ -39,8 +39,7 @@ class PrintLine:
     stable: bool
 
 
-@dataclass(frozen=True)
-class BalanceReading:
+class BalanceReading(msgspec.Struct, frozen=True):
     """A stable reading in grams taken from a balance, and the line it came in."""
 
     value_text: str

@@ -10,10 +10,11 @@ from __future__ import annotations
 
 import re
 import tomllib
-from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 from typing import Any
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -24,8 +25,7 @@ DATA_BITS = (5, 6, 7, 8)
 _NAME = re.compile(r"^[a-z0-9][a-z0-9-]{0,39}$")
 
 
-@dataclass(frozen=True)
-class BalanceProfile:
+class BalanceProfile(msgspec.Struct, frozen=True):
     """One named profile (the keys of the profile file, checked)."""
 
     name: str
@@ -66,7 +66,7 @@ def _profile(name: str, raw: Any, source: str) -> BalanceProfile:
         raise InvalidInput(f"{where}: a name is lower-case letters, digits and '-'")
     if not isinstance(raw, dict):
         raise InvalidInput(f"{where}: expected a table of keys")
-    known = set(BalanceProfile.__dataclass_fields__) - {"name", "source"}
+    known = set(BalanceProfile.__struct_fields__) - {"name", "source"}
     unknown = sorted(set(raw) - known)
     if unknown:
         raise InvalidInput(f"{where}: unknown key(s) {', '.join(unknown)}")

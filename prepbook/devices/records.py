@@ -8,16 +8,16 @@ record (``prepbook.inputs.ReplicateEntry``).
 from __future__ import annotations
 
 import hashlib
-from dataclasses import dataclass
 from datetime import datetime
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
 MAX_CURVE_BYTES = 2_000_000
 
 
-@dataclass(frozen=True)
-class Weighing:
+class Weighing(msgspec.Struct, frozen=True):
     """A stable net mass read from a balance: its code, the value as printed (g), the
     line it printed (as received, escaped) and when it was read (naive UTC)."""
 
@@ -30,8 +30,7 @@ class Weighing:
     profile: str
 
 
-@dataclass(frozen=True)
-class RecordedCurve:
+class RecordedCurve(msgspec.Struct, frozen=True):
     """A titration curve exported by a meter or an automatic titrator: the file byte
     for byte, its SHA-256, and what prepbook reads in it (the points and the
     inflections found, in mL; the last one is the curve's endpoint)."""

@@ -11,11 +11,11 @@ the titrant does to the result is computed on reading (``prepbook.lab.impact``).
 from __future__ import annotations
 
 import json
-from dataclasses import asdict, dataclass, fields
 from datetime import datetime
 from decimal import Decimal
 from typing import TYPE_CHECKING, Any, cast
 
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session, selectinload
 
@@ -27,6 +27,7 @@ from prepbook.lab import specs as spec_view
 from prepbook.lab.batch_facts import when
 from prepbook.lab.common import acting, by_code, lab_time, lab_zone, work_time, write
 from prepbook.lab.volumes import draw
+from prepbook.records import as_data
 from prepbook.store import retry
 from prepbook.store.engine import Database
 from prepbook.store.models import Assay, AssayReplicate, Batch, Run, Use
@@ -35,8 +36,7 @@ if TYPE_CHECKING:
     from prepbook.lab.sample_calcs import SampleCalc
 
 
-@dataclass(frozen=True)
-class SampleInputs:
+class SampleInputs(msgspec.Struct, frozen=True):
     """Everything a sample's result is computed from, as typed, except the titrant's
     normality: kept so that the result can be recomputed with another normality
     (``impact``)."""
@@ -50,8 +50,7 @@ class SampleInputs:
     blank_ml: str
 
 
-@dataclass(frozen=True)
-class Limit:
+class Limit(msgspec.Struct, frozen=True):
     """A sample's specification limit, in the unit of its reported result."""
 
     low: float | None
@@ -97,8 +96,7 @@ def reported(calc: SampleCalc) -> tuple[float, str]:
     return calc.concentration.value, calc.concentration.unit
 
 
-@dataclass(frozen=True)
-class AssayResult:
+class AssayResult(msgspec.Struct, frozen=True):
     """An assay just recorded (or computed without recording: ``assay`` is None)."""
 
     assay: str | None
@@ -119,7 +117,7 @@ class AssayResult:
     def to_json(self) -> dict[str, Any]:
         """`calc sample`'s keys (``titrant_normality`` among them: at the temperature of
         use), then the assay's own."""
-        calc = {f.name: getattr(self.computed, f.name) for f in fields(self.computed)}
+        calc = msgspec.structs.asdict(self.computed)
         return {**calc, "assay": self.assay, "batch": self.batch,
                 "sample": self.sample, "run": self.run, "temperature_c": self.temperature_c,
                 "result": self.result, "unit": self.unit,
@@ -251,13 +249,13 @@ def assay(db: Database, *, actor: str, batch: str, sample: str, analyte: str,
             recorded_at=utc_now(), analyst=user.name, result=value, result_unit=unit,
             sd=computed.sd, rsd_percent=computed.rsd_percent, u=computed.u, U=computed.U,
             k=computed.k,
-            result_json=json.dumps(asdict(computed), sort_keys=True))
+            result_json=json.dumps(as_data(computed), sort_keys=True))
         write(s, user.name, "assay.record", row, performed_at=performed_at, reason=late_reason)
         for pos, v in enumerate(volumes, start=1):
             write(s, user.name, "assay.replicate", AssayReplicate(
                 assay_id=row.id, position=pos, volume_ml_text=v.text),
                 performed_at=performed_at)
-        return AssayResult(**{**result.__dict__, "assay": code})
+        return msgspec.structs.replace(result, assay=code)
 
 
 def _run_in_force(s: Session, batch: Batch, at: datetime) -> Run:
@@ -284,8 +282,7 @@ def _next_code(s: Session, performed_at: datetime) -> str:
     return next_code(s, cast(Any, Assay), f"A{local_date(performed_at, lab_zone(s)):%y%m%d}")
 
 
-@dataclass(frozen=True)
-class AssayRow:
+class AssayRow(msgspec.Struct, frozen=True):
     """One recorded assay of a batch (``batch show``, ``trace``, the report)."""
 
     assay: str
@@ -327,8 +324,7 @@ def assays_of(db: Database, code: str) -> tuple[AssayRow, ...]:
         return assay_rows(s, by_code(s, Batch, code, "batch"))
 
 
-@dataclass(frozen=True)
-class ImpactedAssay:
+class ImpactedAssay(msgspec.Struct, frozen=True):
     """One assay result and what the titrant's changed value does to it."""
 
     assay: str

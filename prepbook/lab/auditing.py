@@ -5,10 +5,10 @@ from __future__ import annotations
 import re
 from collections import defaultdict
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, fields, replace
 from pathlib import Path
 from typing import Any
 
+import msgspec
 from sqlalchemy import func, null, select
 from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
@@ -43,8 +43,7 @@ from prepbook.store.models import (
 )
 
 
-@dataclass(frozen=True)
-class AuditEntry(audit.LogEntry):
+class AuditEntry(audit.LogEntry, frozen=True):
     """An audit event with its record named as a person types it (``code``): the
     record's own code (a batch, run, lot, instrument, spec, material or assay code, a
     user's name, a setting's key), or for a part of a record the code of the whole:
@@ -120,7 +119,7 @@ def _codes_of(session: Session, wanted: dict[str, set[int]]) -> dict[tuple[str, 
     return named
 
 
-_LOG_FIELDS = tuple(f.name for f in fields(audit.LogEntry))
+_LOG_FIELDS = audit.LogEntry.__struct_fields__
 
 
 # "replicates #17" in a problem of verify, not already followed by its own key ("(code ...")
@@ -186,8 +185,7 @@ def verify(db: Database, *, thorough: bool = False) -> audit.VerifyReport:
     return verify_against(db, thorough=thorough)
 
 
-@dataclass(frozen=True)
-class CheckpointMade:
+class CheckpointMade(msgspec.Struct, frozen=True):
     """A signed checkpoint just made: its code, what it attests, where it is witnessed."""
 
     checkpoint: str
@@ -198,8 +196,7 @@ class CheckpointMade:
     witness_file: str | None
 
 
-@dataclass(frozen=True)
-class SigningKeyMade:
+class SigningKeyMade(msgspec.Struct, frozen=True):
     """A new lab signing key: the private key's file and the public key (hex)."""
 
     file: str
@@ -234,7 +231,7 @@ def verify_against(db: Database, *, codes: Sequence[str] = (), witness: str | No
                 problems = _problems_by_code(s, report.problems)
             except DBAPIError:  # a table verify found damaged: the problems as they are
                 return report
-            return replace(report, problems=problems)
+            return msgspec.structs.replace(report, problems=problems)
     except DBAPIError as exc:  # pages that cannot be read: one line, never a traceback
         raise IntegrityError(f"the database cannot be read to the end ({exc.orig}): restore "
                              "it from a backup; `prepbook audit verify --thorough` on a "
@@ -269,8 +266,7 @@ def checkpoint_code(db: Database) -> str | None:
         return audit.head_code(s)
 
 
-@dataclass(frozen=True)
-class KeyChanged:
+class KeyChanged(msgspec.Struct, frozen=True):
     """A key of the lab handed over to a new one by ``rotate_key``."""
 
     kind: str  # "audit" (fingerprints) or "signing" (public keys, hex)

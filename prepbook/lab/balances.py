@@ -9,8 +9,7 @@ the replicate it belongs to, see ``prepbook.lab.replicate_sources``).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -24,8 +23,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Instrument, InstrumentConnection
 
 
-@dataclass(frozen=True)
-class Connection:
+class Connection(msgspec.Struct, frozen=True):
     """A balance's connection as the commands show it (the fields are the JSON keys)."""
 
     balance: str
@@ -40,8 +38,7 @@ class Connection:
     connected_by: str
 
 
-@dataclass(frozen=True)
-class ProfileInfo:
+class ProfileInfo(msgspec.Struct, frozen=True):
     """A print-line profile as ``instrument profiles`` lists it."""
 
     name: str

@@ -6,9 +6,9 @@ Kept apart so that neither of those modules imports the other.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from datetime import date, datetime
 
+import msgspec
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
@@ -23,8 +23,7 @@ def when(value: date | datetime) -> str:
     return text
 
 
-@dataclass(frozen=True)
-class UseNeedingReview:
+class UseNeedingReview(msgspec.Struct, frozen=True):
     """A use of a batch that a later standardization puts in doubt, and why."""
 
     used_at: str

@@ -5,14 +5,15 @@
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
 from typing import Any, NotRequired, TypedDict
 
+import msgspec
+
 from prepbook.lab.batch_facts import UseNeedingReview
+from prepbook.records import as_data
 
 
-@dataclass(frozen=True)
-class MadeBatch:
+class MadeBatch(msgspec.Struct, frozen=True):
     """A batch just recorded: its code and the strength expected from how it was made."""
 
     batch: str
@@ -50,8 +51,7 @@ class BudgetRow(TypedDict):
     missing: NotRequired[str | None]  # why the term could not be evaluated (newer runs)
 
 
-@dataclass(frozen=True)
-class ReplicateRow:
+class ReplicateRow(msgspec.Struct, frozen=True):
     """One version of one replicate; ``normality`` and ``outlier`` of current ones only."""
 
     position: int
@@ -67,16 +67,14 @@ class ReplicateRow:
     recorded_at: str
 
 
-@dataclass(frozen=True)
-class ReviewRow:
+class ReviewRow(msgspec.Struct, frozen=True):
     reviewer: str
     decision: str
     reason: str | None
     signed_at: str
 
 
-@dataclass(frozen=True)
-class RunRecord:
+class RunRecord(msgspec.Struct, frozen=True):
     """A standardization as plain data (``replicates`` None when not asked for)."""
 
     run: str
@@ -118,7 +116,7 @@ class RunRecord:
 
     def to_json(self) -> dict[str, Any]:
         """The run as plain data for JSON; without replicates when they were not read."""
-        out = asdict(self)
+        out = as_data(self)
         if self.replicates is None:
             del out["replicates"]
         return out
@@ -141,7 +139,7 @@ def budget_basis(reference: Any, repeatability: str | None,
         .format(rsd=rsd_percent or 0.0)
     if reference is None:
         return text
-    ref = reference if isinstance(reference, dict) else asdict(reference)
+    ref = reference if isinstance(reference, dict) else as_data(reference)
     u, n20 = ref.get("u"), ref["normality_20c"]
     inherited = ("no uncertainty on record" if u is None
                  else f"u = {u:.6f} eq/L ({100 * u / n20:.3f} %)")
@@ -157,8 +155,7 @@ def chain_facts(result: dict[str, Any]) -> dict[str, Any]:
             "reaction": result.get("reaction")}
 
 
-@dataclass(frozen=True)
-class Preparation:
+class Preparation(msgspec.Struct, frozen=True):
     method: str
     volume_ml: str
     solute_mass_g: str | None
@@ -175,23 +172,20 @@ class Preparation:
     notes: str | None
 
 
-@dataclass(frozen=True)
-class Retired:
+class Retired(msgspec.Struct, frozen=True):
     at: str
     by: str | None
     reason: str | None
 
 
-@dataclass(frozen=True)
-class UseRow:
+class UseRow(msgspec.Struct, frozen=True):
     at: str
     by: str
     volume_ml: str | None
     purpose: str | None
 
 
-@dataclass(frozen=True)
-class BatchRecord:
+class BatchRecord(msgspec.Struct, frozen=True):
     """Everything about one batch (``batch show``): its life now, how it was made, every
     run with its replicates and reviews, its uses and the uses in doubt."""
 
@@ -217,8 +211,7 @@ class BatchRecord:
     remaining_ml: float | None = None  # made less every recorded draw (``lab.volumes``)
 
 
-@dataclass(frozen=True)
-class UseRecorded:
+class UseRecorded(msgspec.Struct, frozen=True):
     """A draw from a batch just recorded, with the strength it was used at."""
 
     batch: str

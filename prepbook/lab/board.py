@@ -8,11 +8,12 @@ from __future__ import annotations
 
 import functools
 from collections import defaultdict
-from dataclasses import dataclass
 from datetime import date
 from decimal import Decimal
 from typing import TYPE_CHECKING, Any, cast
 
+import msgspec
+from msgspec.structs import replace
 from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session, aliased
 
@@ -41,8 +42,7 @@ DEFAULT_LEAD_DAYS = 7  # warn this many days ahead: common practice, no source
 _ORDER = {"expired": 0, "due": 1, "awaiting-review": 2, "new": 3, "in-service": 4, "retired": 5}
 
 
-@dataclass(frozen=True)
-class BatchLife:
+class BatchLife(msgspec.Struct, frozen=True):
     """One batch on the board: its state, strength at 20 C, dates and warnings."""
 
     batch: str
@@ -61,8 +61,7 @@ class BatchLife:
     instruments: tuple[str, ...] = ()
 
 
-@dataclass(frozen=True)
-class InstrumentWarning:
+class InstrumentWarning(msgspec.Struct, frozen=True):
     """One instrument's calibration warning on the board, and the batches it concerns."""
 
     instrument: str
@@ -70,8 +69,7 @@ class InstrumentWarning:
     batches: tuple[str, ...]
 
 
-@dataclass(frozen=True)
-class Board:
+class Board(msgspec.Struct, frozen=True):
     """The board: the batches, and each instrument warning once (not under every batch
     that used the instrument)."""
 
@@ -85,8 +83,7 @@ class Board:
         return (*item.warnings, *(texts[code] for code in item.instruments))
 
 
-@dataclass(frozen=True)
-class _RunFacts:
+class _RunFacts(msgspec.Struct, frozen=True):
     batch_id: int
     performed_on: date
     status: RunStatus
@@ -324,7 +321,6 @@ def board_view(db: Database, today: date | None = None) -> Board:
 def _mark_impacted(session: Session, rows: list[tuple[Batch, Spec, list, Any]],
                    items: list[BatchLife]) -> list[BatchLife]:
     """A warning on each batch with assay results its titrant's changed value impacts."""
-    from dataclasses import replace
 
     from prepbook.lab.impact import impacted_counts
 

@@ -2,7 +2,7 @@
 (``normality``, ``secondary``); the preparation calculators are in ``lab.preparing``.
 
 Each function takes the values as typed (strings), looks materials up in the
-built-in catalog, calls the chemistry core and returns a frozen dataclass whose fields
+built-in catalog, calls the chemistry core and returns a frozen record whose fields
 are the keys of the command's JSON.
 No SQLAlchemy here: ``prepbook calc`` must start fast.
 """
@@ -10,8 +10,9 @@ No SQLAlchemy here: ``prepbook calc`` must start fast.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import (
@@ -35,8 +36,7 @@ MIN_REPLICATES = 3  # common practice, no source
 BURETTE_FRACTION = 0.30  # USP <31>
 
 
-@dataclass(frozen=True)
-class WeighedReplicate:
+class WeighedReplicate(msgspec.Struct, frozen=True):
     index: int
     mass_g: str  # as typed
     volume_ml: str  # as typed
@@ -46,8 +46,7 @@ class WeighedReplicate:
     excluded: bool
 
 
-@dataclass(frozen=True)
-class PipettedReplicate:
+class PipettedReplicate(msgspec.Struct, frozen=True):
     index: int
     aliquot_ml: str  # as typed
     volume_ml: str  # as typed
@@ -57,8 +56,7 @@ class PipettedReplicate:
     excluded: bool
 
 
-@dataclass(frozen=True)
-class NormalityResult:
+class NormalityResult(msgspec.Struct, frozen=True):
     """``calc normality``: its fields are the keys of the command's JSON."""
 
     standard: StandardFacts
@@ -87,8 +85,7 @@ class NormalityResult:
     expansion_source: str | None  # where the coefficient (or water's density) comes from
 
 
-@dataclass(frozen=True)
-class SecondaryResult:
+class SecondaryResult(msgspec.Struct, frozen=True):
     """``calc secondary``: its fields are the keys of the command's JSON."""
 
     reference_normality: float

@@ -11,10 +11,10 @@ import functools
 import json
 import weakref
 from collections.abc import Callable
-from dataclasses import dataclass
 from datetime import UTC, date, datetime, timedelta, tzinfo
 from typing import Any, TypeVar
 
+import msgspec
 from sqlalchemy import bindparam, func, inspect, select
 from sqlalchemy.orm import Session
 
@@ -239,8 +239,7 @@ def acting(session: Session, name: str, roles: tuple[str, ...] = RECORDERS,
     return user
 
 
-@dataclass(frozen=True)
-class Signature:
+class Signature(msgspec.Struct, frozen=True):
     """A passphrase checked for a signed action: who, the stored hash it matched, and
     what the signature means ("reviewed and accepted") and of what ("run R-12")."""
 

@@ -1,14 +1,15 @@
 """The titration-curve calculations behind ``prepbook calc endpoint`` and ``calc eqpoint``.
 
-Database-free, like ``prepbook.lab.calcs``: values as typed in, a frozen dataclass whose
+Database-free, like ``prepbook.lab.calcs``: values as typed in, a frozen record whose
 fields are the keys of the command's JSON out.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_number
@@ -17,8 +18,7 @@ if TYPE_CHECKING:
     from prepbook.chem.indicators import IndicatorAdvice
 
 
-@dataclass(frozen=True)
-class Endpoint:
+class Endpoint(msgspec.Struct, frozen=True):
     """One inflection of the curve: its volume and standard uncertainty (mL), the reading
     there, the slope there (reading units per mL) and the points the cubic was fitted to."""
 
@@ -30,8 +30,7 @@ class Endpoint:
     points_fitted: int
 
 
-@dataclass(frozen=True)
-class EndpointResult:
+class EndpointResult(msgspec.Struct, frozen=True):
     """``calc endpoint``: every inflection in ``endpoints``; ``equivalence_ml`` and
     ``u_ml`` are the last one's (the one Gran's estimate is compared with)."""
 
@@ -55,8 +54,7 @@ class EndpointResult:
     preamble_lines: int
 
 
-@dataclass(frozen=True)
-class EqpointResult:
+class EqpointResult(msgspec.Struct, frozen=True):
     """``calc eqpoint``: ``suitable`` and ``unsuitable`` judged by the titration error of
     each indicator (``indicators`` gives each one's error and reason)."""
 

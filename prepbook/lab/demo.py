@@ -5,11 +5,12 @@ from __future__ import annotations
 
 import tomllib
 from collections.abc import Callable
-from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 from importlib import resources
 from pathlib import Path
 from typing import Any
+
+import msgspec
 
 from prepbook.errors import Refused
 from prepbook.lab.board import BatchLife, InstrumentWarning
@@ -33,8 +34,7 @@ DEMO_ASSAYS = (
 
 
 
-@dataclass(frozen=True)
-class DemoLab:
+class DemoLab(msgspec.Struct, frozen=True):
     """The demo lab just built: where, how much, the story it tells and its board."""
 
     lab: str

@@ -3,13 +3,14 @@
 
 Takes the values as typed, finds the analyte, titrant or ions in the catalog, computes
 with ``prepbook.chem.equilibria``, ``chem.indicators`` and ``chem.salts`` and returns
-frozen dataclasses whose fields are the keys of the commands' JSON. No SQLAlchemy here.
+frozen records whose fields are the keys of the commands' JSON. No SQLAlchemy here.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import TYPE_CHECKING
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import parse_number
@@ -28,8 +29,7 @@ STRONG_BASE_PKA = 24.0
 SAMPLE_ML = 50.0  # any volume: the pH and the titration error depend on ratios only
 
 
-@dataclass(frozen=True)
-class EquivalencePoint:
+class EquivalencePoint(msgspec.Struct, frozen=True):
     """The solution at one equivalence point: ``protons`` exchanged per formula unit,
     the analyte's formula units per litre there and the pH."""
 
@@ -38,8 +38,7 @@ class EquivalencePoint:
     ph: float
 
 
-@dataclass(frozen=True)
-class AnalyteEqpoint:
+class AnalyteEqpoint(msgspec.Struct, frozen=True):
     """``calc eqpoint --analyte``: the method's equivalence point, each indicator judged
     by its titration error, and every equivalence point of a polyprotic analyte."""
 
@@ -75,8 +74,7 @@ def acid_base_system(analyte: Analyte | Material,
     return (STRONG_BASE_PKA,) * protons, analyte.initial_protons, units
 
 
-@dataclass(frozen=True)
-class AcidBaseSystem:
+class AcidBaseSystem(msgspec.Struct, frozen=True):
     """A weighed standard as the equilibrium model takes it, with a strong titrant."""
 
     pkas: tuple[float, ...]
@@ -179,8 +177,7 @@ def eqpoint(*, analyte: str, titrant: str, concentration_text: str,
         points=tuple(points), notes=tuple(notes))
 
 
-@dataclass(frozen=True)
-class SaltCalc:
+class SaltCalc(msgspec.Struct, frozen=True):
     """``calc salt``: the pH of the salt's solution, its nature and the governing ion."""
 
     cation: str

@@ -13,11 +13,11 @@ fingerprint, as the trail itself keeps it.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from datetime import datetime, time
 from decimal import Decimal, InvalidOperation
 from typing import Any
 
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import aliased
 
@@ -204,8 +204,7 @@ _QUERIES = {"batches": _batches, "runs": _runs, "replicates": _replicates, "uses
             "assays": _assays, "audit": _audit}
 
 
-@dataclass(frozen=True)
-class Table:
+class Table(msgspec.Struct, frozen=True):
     """One export: its columns and rows, read in one transaction."""
 
     kind: str
@@ -214,8 +213,7 @@ class Table:
     since: str | None
 
 
-@dataclass(frozen=True)
-class Exported:
+class Exported(msgspec.Struct, frozen=True):
     """What `prepbook export` wrote (the fields are the JSON keys)."""
 
     export: str

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
 from datetime import date
 from typing import Any
 
+import msgspec
+from msgspec.structs import replace
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
@@ -29,8 +30,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Instrument, Lot, Run, Use
 
 
-@dataclass(frozen=True)
-class TrendPoint:
+class TrendPoint(msgspec.Struct, frozen=True):
     """One accepted standardization and its change from the one before."""
 
     run: str
@@ -42,8 +42,7 @@ class TrendPoint:
     beyond_drift_limit: bool
 
 
-@dataclass(frozen=True)
-class Trend:
+class Trend(msgspec.Struct, frozen=True):
     """A batch's accepted history, the least-squares slope of its factor and forecast."""
 
     batch: str
@@ -59,8 +58,7 @@ class Trend:
     note: str | None
 
 
-@dataclass(frozen=True)
-class InstrumentFacts:
+class InstrumentFacts(msgspec.Struct, frozen=True):
     code: str
     kind: str
     due: str
@@ -69,8 +67,7 @@ class InstrumentFacts:
     tolerance: str | None
 
 
-@dataclass(frozen=True)
-class LotFacts:
+class LotFacts(msgspec.Struct, frozen=True):
     code: str
     material: str
     purity_percent: str
@@ -80,8 +77,7 @@ class LotFacts:
     dried_on: str | None
 
 
-@dataclass(frozen=True)
-class TracedPreparation:
+class TracedPreparation(msgspec.Struct, frozen=True):
     method: str
     made_at: str
     made_by: str
@@ -90,8 +86,7 @@ class TracedPreparation:
     balance: InstrumentFacts | None
 
 
-@dataclass(frozen=True)
-class StockBatch:
+class StockBatch(msgspec.Struct, frozen=True):
     """A batch up the dilution chain and the run that gave its strength."""
 
     batch: str
@@ -102,8 +97,7 @@ class StockBatch:
     lot: LotFacts | None
 
 
-@dataclass(frozen=True)
-class TracedRun:
+class TracedRun(msgspec.Struct, frozen=True):
     run: str
     status: str
     performed_at: str
@@ -115,15 +109,13 @@ class TracedRun:
     reviewers: tuple[str, ...]
 
 
-@dataclass(frozen=True)
-class Upward:
+class Upward(msgspec.Struct, frozen=True):
     preparation: TracedPreparation
     stock_chain: tuple[StockBatch, ...]
     standardizations: tuple[TracedRun, ...]
 
 
-@dataclass(frozen=True)
-class Dilution:
+class Dilution(msgspec.Struct, frozen=True):
     """A batch made from this one (``source`` is the batch it was diluted from)."""
 
     batch: str
@@ -136,8 +128,7 @@ class Dilution:
                 "made_at": self.made_at}
 
 
-@dataclass(frozen=True)
-class ReferenceUse:
+class ReferenceUse(msgspec.Struct, frozen=True):
     """A run of another batch standardized against this one."""
 
     batch: str
@@ -145,24 +136,21 @@ class ReferenceUse:
     status: str
 
 
-@dataclass(frozen=True)
-class TracedUse:
+class TracedUse(msgspec.Struct, frozen=True):
     used_at: str
     used_by: str
     volume_ml: str | None
     purpose: str | None
 
 
-@dataclass(frozen=True)
-class Downward:
+class Downward(msgspec.Struct, frozen=True):
     diluted_into: tuple[Dilution, ...]
     reference_for: tuple[ReferenceUse, ...]
     uses: tuple[TracedUse, ...]
     assays: tuple[AssayRow, ...]  # the sample results made with the batch
 
 
-@dataclass(frozen=True)
-class Trace:
+class Trace(msgspec.Struct, frozen=True):
     """The chain upward (standards, certificates, stock, instruments) and downward."""
 
     batch: str
@@ -172,8 +160,7 @@ class Trace:
     uses_needing_review: tuple[UseNeedingReview, ...]
 
 
-@dataclass(frozen=True)
-class Retirement:
+class Retirement(msgspec.Struct, frozen=True):
     batch: str
     retired_at: str
     retired_by: str

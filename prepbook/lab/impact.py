@@ -23,9 +23,9 @@ assay itself.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 from datetime import datetime
 
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -36,8 +36,7 @@ WITHDRAWN = ("rejected", "revoked")
 _DOUBT = "the titrant's true value at the time of use is unknown"
 
 
-@dataclass(frozen=True)
-class RunFact:
+class RunFact(msgspec.Struct, frozen=True):
     """A standardization as the impact reads it: id, time, status, normality at 20 C."""
 
     key: int
@@ -47,8 +46,7 @@ class RunFact:
     normality_20c: float | None
 
 
-@dataclass(frozen=True)
-class AssayFact:
+class AssayFact(msgspec.Struct, frozen=True):
     """An assay as the impact reads it: when, with which run, at which normality."""
 
     key: int
@@ -57,8 +55,7 @@ class AssayFact:
     normality_20c: float  # as taken from the run when the assay was made
 
 
-@dataclass(frozen=True)
-class Finding:
+class Finding(msgspec.Struct, frozen=True):
     """Why an assay is impacted and the normalities (at 20 C) to recompute it with:
     one (``kind`` corrected: exact), two (a range) or none (in doubt)."""
 

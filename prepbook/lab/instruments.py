@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
 from datetime import date, datetime
 
+import msgspec
+from msgspec.structs import asdict
 from sqlalchemy import select
 
 from prepbook.errors import InvalidInput, Refused
@@ -18,8 +19,7 @@ UNITS = {"balance": "g", "burette": "mL", "flask": "mL", "pipette": "mL",
          "thermometer": "C", "meter": ""}
 
 
-@dataclass(frozen=True)
-class InstrumentInfo:
+class InstrumentInfo(msgspec.Struct, frozen=True):
     """An instrument as the commands show it (the fields are the JSON keys)."""
 
     code: str
@@ -32,8 +32,7 @@ class InstrumentInfo:
     readability: str | None
 
 
-@dataclass(frozen=True)
-class Calibration(InstrumentInfo):
+class Calibration(InstrumentInfo, frozen=True):
     """An instrument after a recalibration: when, on what certificate, and the due date
     it replaced."""
 

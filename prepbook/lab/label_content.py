@@ -7,8 +7,9 @@ fields are the keys of the ``shown_json`` a label print keeps in the record.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import Literal, TypedDict
+
+import msgspec
 
 
 class Hazard(TypedDict, total=False):
@@ -19,8 +20,7 @@ class Hazard(TypedDict, total=False):
     pictograms: list[str] | None
 
 
-@dataclass(frozen=True)
-class Standing:
+class Standing(msgspec.Struct, frozen=True):
     """A batch's state, accepted result and dates on a day, as its label shows them."""
 
     state: str
@@ -35,8 +35,7 @@ class Standing:
     expires: str | None
 
 
-@dataclass(frozen=True)
-class BatchLabel(Standing):
+class BatchLabel(Standing, frozen=True):
     """The label of a titrant bottle: its strength, dates and state when printed."""
 
     code: str
@@ -54,8 +53,7 @@ class BatchLabel(Standing):
     checkpoint: str | None = None  # the audit trail's code when printed
 
 
-@dataclass(frozen=True)
-class LotLabel:
+class LotLabel(msgspec.Struct, frozen=True):
     """The label of a primary-standard lot: purity, certificate and dates."""
 
     code: str

@@ -12,10 +12,10 @@ from __future__ import annotations
 import json
 import re
 from collections.abc import Callable, Sequence
-from dataclasses import asdict, dataclass, replace
 from datetime import date
 from typing import Protocol, TypedDict
 
+import msgspec
 from sqlalchemy import inspect, select
 from sqlalchemy.orm import Session
 
@@ -25,6 +25,7 @@ from prepbook.inputs import utc_now
 from prepbook.lab import specs as spec_view
 from prepbook.lab.common import acting, by_code, iso, lab_zone, write
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel, Standing
+from prepbook.records import as_data
 from prepbook.store.audit import head_code
 from prepbook.store.engine import Database
 from prepbook.store.models import Batch, LabelPrint, Lot, Run
@@ -47,8 +48,7 @@ class Drawn(Protocol):
 Deliver = Callable[[LabelContent, Callable[[], None]], Drawn]
 
 
-@dataclass(frozen=True)
-class LabelPrinted:
+class LabelPrinted(msgspec.Struct, frozen=True):
     """One recorded print (the fields are the JSON keys of `prepbook label --json`)."""
 
     label: int
@@ -67,16 +67,14 @@ class LabelPrinted:
     printed_by: str
 
 
-@dataclass(frozen=True)
-class LabelShown:
+class LabelShown(msgspec.Struct, frozen=True):
     run: str | None
     factor: float | None
     restandardize_by: str | None
     expires: str | None
 
 
-@dataclass(frozen=True)
-class LabelCurrent:
+class LabelCurrent(msgspec.Struct, frozen=True):
     run: str | None
     factor: float | None
     restandardize_by: str | None
@@ -84,8 +82,7 @@ class LabelCurrent:
     state: str
 
 
-@dataclass(frozen=True)
-class StaleLabel:
+class StaleLabel(msgspec.Struct, frozen=True):
     """A bottle whose latest label no longer matches the record, and why."""
 
     batch: str
@@ -147,7 +144,7 @@ def _batch_content(batch: Batch, now: Standing, actor: str, today: date,
                    made_on: date) -> BatchLabel:
     view = spec_view.view(batch.spec)
     return BatchLabel(
-        **asdict(now), code=batch.code, spec=batch.spec.code, name=batch.spec.name,
+        **msgspec.structs.asdict(now), code=batch.code, spec=batch.spec.code, name=batch.spec.name,
         unit=view.unit, nominal=view.nominal, made_on=made_on.isoformat(),
         made_by=batch.made_by, storage=view.storage,
         hazard=Hazard(signal_word=view.hazard.get("signal_word"),
@@ -212,8 +209,8 @@ def print_label(db: Database, *, actor: str, code: str, size: str, copies: int, 
         row.sheet = sheet
         row.copies = copies
         row.file_name = file
-        content = replace(content, checkpoint=head_code(s))
-        row.shown_json = json.dumps(asdict(content), sort_keys=True, ensure_ascii=False)
+        content = msgspec.structs.replace(content, checkpoint=head_code(s))
+        row.shown_json = json.dumps(as_data(content), sort_keys=True, ensure_ascii=False)
         drawn = deliver(content, lambda: write(s, user.name, "label.print", row))
         if not inspect(row).persistent:
             raise RuntimeError("a label file was delivered without recording its print")

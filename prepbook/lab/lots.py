@@ -8,9 +8,9 @@ catalog's typical values.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from datetime import date
 
+import msgspec
 from sqlalchemy import select
 
 from prepbook.errors import InvalidInput, Refused
@@ -21,8 +21,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Lot
 
 
-@dataclass(frozen=True)
-class LotInfo:
+class LotInfo(msgspec.Struct, frozen=True):
     """A lot as the commands show it (the fields are the JSON keys)."""
 
     code: str

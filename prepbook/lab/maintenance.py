@@ -10,8 +10,9 @@ On PostgreSQL the server's own tools make the copy; prepbook says how.
 from __future__ import annotations
 
 import sqlite3
-from dataclasses import dataclass
 from pathlib import Path
+
+import msgspec
 
 from prepbook.errors import DatabaseError, InvalidInput, Refused
 
@@ -43,8 +44,7 @@ def _output_path(output: str) -> Path:
     return path
 
 
-@dataclass(frozen=True)
-class BackupReport:
+class BackupReport(msgspec.Struct, frozen=True):
     """What `prepbook backup` copied (the fields are the JSON keys)."""
 
     database: str

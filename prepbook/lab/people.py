@@ -8,8 +8,7 @@ can be neither disabled nor demoted, and no lockout lasts for good
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
+import msgspec
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
@@ -29,8 +28,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import ROLES, User
 
 
-@dataclass(frozen=True)
-class UserInfo:
+class UserInfo(msgspec.Struct, frozen=True):
     """A user as the commands show them (the fields are the JSON keys)."""
 
     name: str

@@ -2,7 +2,7 @@
 dilute, adjust, buoyancy, temperature and titer.
 
 Each function takes the values as typed (strings), looks materials up in the
-built-in catalog, calls the chemistry core and returns a frozen dataclass whose fields
+built-in catalog, calls the chemistry core and returns a frozen record whose fields
 are the keys of the command's JSON. Apart from ``lab.calcs`` so that ``calc
 normality``, the command a bench runs most, does not build these types at start-up.
 """
@@ -10,20 +10,21 @@ normality``, the command a bench runs most, does not build these types at start-
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass
 from datetime import date
 from typing import TYPE_CHECKING, Any
 
+import msgspec
+
 from prepbook.errors import InvalidInput, NotFound, Refused
 from prepbook.inputs import parse_number, parse_percent, parse_text
+from prepbook.records import as_data
 
 if TYPE_CHECKING:
     from prepbook.catalog.models import SpecDefaults
     from prepbook.chem.corrections import Expansion
 
 
-@dataclass(frozen=True)
-class SolidResult:
+class SolidResult(msgspec.Struct, frozen=True):
     solute: str
     name: str
     formula: str
@@ -37,8 +38,7 @@ class SolidResult:
     cautions: tuple[str, ...]
 
 
-@dataclass(frozen=True)
-class LiquidResult:
+class LiquidResult(msgspec.Struct, frozen=True):
     reagent: str
     name: str
     formula: str
@@ -53,8 +53,7 @@ class LiquidResult:
     source: str
 
 
-@dataclass(frozen=True)
-class DilutionResult:
+class DilutionResult(msgspec.Struct, frozen=True):
     stock_normality: float
     normality: float
     volume_ml: float
@@ -62,8 +61,7 @@ class DilutionResult:
     water_ml: float
 
 
-@dataclass(frozen=True)
-class AdjustResult:
+class AdjustResult(msgspec.Struct, frozen=True):
     normality: float
     target: float
     volume_now_ml: float
@@ -71,8 +69,7 @@ class AdjustResult:
     volume_ml: float
 
 
-@dataclass(frozen=True)
-class BuoyancyResult:
+class BuoyancyResult(msgspec.Struct, frozen=True):
     reading_g: float
     mass_g: float
     correction_g: float
@@ -81,8 +78,7 @@ class BuoyancyResult:
     weights_density_g_per_cm3: float
 
 
-@dataclass(frozen=True)
-class TemperatureResult:
+class TemperatureResult(msgspec.Struct, frozen=True):
     normality_from: float
     from_c: float
     to_c: float
@@ -93,8 +89,7 @@ class TemperatureResult:
     expansion_source: str
 
 
-@dataclass(frozen=True)
-class TiterResult:
+class TiterResult(msgspec.Struct, frozen=True):
     titrant: str
     normality: float
     analyte: str
@@ -193,8 +188,7 @@ def liquid(
                         source=rg.source)
 
 
-@dataclass(frozen=True)
-class ConcentrateLot:
+class ConcentrateLot(msgspec.Struct, frozen=True):
     """A concentrate's lot as recorded: its assay (% w/w) and density (g/mL) as typed
     from the certificate."""
 
@@ -205,8 +199,7 @@ class ConcentrateLot:
     expires: date
 
 
-@dataclass(frozen=True)
-class ConcentrateMade:
+class ConcentrateMade(msgspec.Struct, frozen=True):
     normality: float
     reagent: str
     mass_fraction: float
@@ -307,9 +300,7 @@ def spec_expansion(data: Mapping[str, Any]) -> Expansion | None:
     spec = _catalog_spec(data.get("code"))
     if not data.get("solvent"):  # stored before specs stated their solvent
         if spec is not None:
-            from dataclasses import asdict
-
-            return spec_expansion(asdict(spec))
+            return spec_expansion(as_data(spec))
         unstated = catalog_solvent(str(data["solute"])) if data.get("solute") else None
         if unstated is not None:
             raise InvalidInput(
@@ -344,13 +335,12 @@ def _catalog_spec(code: object) -> SpecDefaults | None:
 def known_solvents() -> dict[str, Expansion]:
     """The non-aqueous solvents the catalog's specs name, each with the cubic expansion
     coefficient and source its spec states (keyed by the name, case-folded)."""
-    from dataclasses import asdict
 
     from prepbook.catalog import loader
 
     known: dict[str, Expansion] = {}
     for sp in loader.specs():
-        expansion = spec_expansion(asdict(sp))
+        expansion = spec_expansion(as_data(sp))
         if expansion is not None:
             known.setdefault(expansion.solvent.casefold(), expansion)
     return known
@@ -385,11 +375,10 @@ def titrant_expansion(*, spec: str | None = None, solvent: str | None = None,
         if solvent is not None or per_c is not None or source is not None:
             raise InvalidInput("give the titrant's --spec or its --solvent (and "
                                "--expansion), not both")
-        from dataclasses import asdict
 
         from prepbook.catalog import loader
 
-        return spec_expansion(asdict(loader.find_spec(spec)))
+        return spec_expansion(as_data(loader.find_spec(spec)))
     if (per_c is None) != (source is None):
         raise InvalidInput("--expansion PER_C and --expansion-source TEXT go together: a "
                            "coefficient is used only with its source")

@@ -8,9 +8,9 @@ some runs for ``batch show`` and the report, each analysed again from its stored
 from __future__ import annotations
 
 import hashlib
-from dataclasses import dataclass
 from pathlib import Path
 
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -22,8 +22,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import ReplicateCurve, Run
 
 
-@dataclass(frozen=True)
-class StoredCurve:
+class StoredCurve(msgspec.Struct, frozen=True):
     """A replicate's stored curve: which run and replicate, the file's name and hash,
     and what prepbook reads in it."""
 

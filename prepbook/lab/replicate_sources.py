@@ -18,8 +18,9 @@ sources; ``evidence`` is what the curve check compares.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, replace
 
+import msgspec
+from msgspec.structs import replace
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -36,8 +37,7 @@ BALANCE_TOKEN = "@balance"
 CURVE_VOLUME_DECIMALS = 3  # a volume taken from a curve is written to 0.001 mL (stated)
 
 
-@dataclass(frozen=True)
-class SourceRow:
+class SourceRow(msgspec.Struct, frozen=True):
     """One replicate version's sources, as ``batch show`` and the report say them."""
 
     position: int
@@ -198,8 +198,7 @@ def sources_of_runs(s: Session, runs: list[Run]) -> dict[str, tuple[SourceRow, .
     return {code: tuple(rows) for code, rows in out.items()}
 
 
-@dataclass(frozen=True)
-class RunReadings:
+class RunReadings(msgspec.Struct, frozen=True):
     """Where one run's readings came from, and its stored curves."""
 
     run: str

@@ -9,9 +9,9 @@ prints of the batch. Drawing the PDF is the edge's work (``prepbook.render.repor
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
 from typing import TypedDict
 
+import msgspec
 from sqlalchemy import and_, or_, select
 
 from prepbook.inputs import utc_now
@@ -26,8 +26,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import AuditEvent, Batch, LabelPrint, Replicate, Review, Run, Use
 
 
-@dataclass(frozen=True)
-class SpecWindow:
+class SpecWindow(msgspec.Struct, frozen=True):
     """What the batch's spec accepts: the factor window around the nominal strength."""
 
     factor_low: float
@@ -38,8 +37,7 @@ class SpecWindow:
     cautions: tuple[str, ...]
 
 
-@dataclass(frozen=True)
-class ReasonedEvent:
+class ReasonedEvent(msgspec.Struct, frozen=True):
     """An audit event with a reason (a correction, exclusion, rejection ...)."""
 
     seq: int
@@ -50,8 +48,7 @@ class ReasonedEvent:
     reason: str | None
 
 
-@dataclass(frozen=True)
-class ChartPoint:
+class ChartPoint(msgspec.Struct, frozen=True):
     """One run on the report's chart: concentration at 20 C and its U, in the spec's unit."""
 
     run: str
@@ -61,8 +58,7 @@ class ChartPoint:
     U: float | None
 
 
-@dataclass(frozen=True)
-class AuditSummary:
+class AuditSummary(msgspec.Struct, frozen=True):
     ok: bool
     events: int
     head_hash: str | None
@@ -70,8 +66,7 @@ class AuditSummary:
     checkpoint: str | None = None  # the trail's code when printed, for `audit verify`
 
 
-@dataclass(frozen=True)
-class ReportData:
+class ReportData(msgspec.Struct, frozen=True):
     """Everything the traceability report shows."""
 
     batch: BatchRecord
@@ -81,7 +76,7 @@ class ReportData:
     labels: tuple[LabelPrintRow, ...]  # ``labels.label_prints``
     audit: AuditSummary
     printed_at: str
-    readings: Mapping[str, RunReadings] = field(default_factory=dict)  # by run code
+    readings: Mapping[str, RunReadings] = msgspec.field(default_factory=dict)  # by run code
     assays: tuple[AssayRow, ...] = ()  # the sample results made with the batch
     impact: tuple[ImpactedAssay, ...] = ()  # those a changed titrant value puts in question
 

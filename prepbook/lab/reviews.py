@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import functools
 import json
-from dataclasses import dataclass, fields
 from typing import Any
 
+import msgspec
 from sqlalchemy import bindparam, select
 from sqlalchemy.orm import Session
 
@@ -34,8 +34,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Batch, Replicate, Review, Run
 
 
-@dataclass(frozen=True)
-class QueuedRun(RunRecord):
+class QueuedRun(RunRecord, frozen=True):
     """A run with its batch's code: what ``review`` returns and the review desk lists.
     The fields are the keys of ``review --json``."""
 
@@ -155,5 +154,5 @@ def runs_awaiting_review(db: Database) -> tuple[QueuedRun, ...]:
 
 def _record(s: Session, r: Run) -> QueuedRun:
     shown = run_dict(s, r, with_replicates=False)
-    return QueuedRun(**{f.name: getattr(shown, f.name) for f in fields(shown)},
+    return QueuedRun(**msgspec.structs.asdict(shown),
                      batch=r.batch.code)

@@ -9,8 +9,7 @@ none; the uses made while the revoked result stood are flagged (``batch show``,
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
+import msgspec
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
@@ -22,8 +21,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Review, Run
 
 
-@dataclass(frozen=True)
-class Revoked:
+class Revoked(msgspec.Struct, frozen=True):
     """A revoked run and what its batch stands on now: its fields are the keys of
     ``revoke --json``."""
 

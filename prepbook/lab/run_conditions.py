@@ -9,9 +9,9 @@ Shared by recording a run and recomputing it after a correction (``lab.runs``).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
 from datetime import datetime
 
+import msgspec
 from sqlalchemy.orm import Session
 
 from prepbook.inputs import Reading, ReplicateEntry, utc_now
@@ -29,8 +29,7 @@ def _float(text: str | None) -> float | None:
     return float(text) if text is not None else None
 
 
-@dataclass(frozen=True)
-class Conditions:
+class Conditions(msgspec.Struct, frozen=True):
     """Everything a run is computed from, except its replicates."""
 
     batch: Batch
@@ -98,7 +97,7 @@ def standardization(s: Session, c: Conditions, entries: list[ReplicateEntry],
             material=lot.material_code, purity_fraction=float(lot.purity_text) / 100,
             u_purity_fraction=float(lot.purity_u_text) / 100 / math.sqrt(3)
             if lot.purity_u_text else None)
-    rules = replace(view.rules(), min_burette_fraction=_setting_number(
+    rules = msgspec.structs.replace(view.rules(), min_burette_fraction=_setting_number(
         s, "min_burette_fraction_percent", 30.0) / 100)
     rsd, rsd_from = validated_repeatability(c)
     return ev.Standardization(

@@ -12,11 +12,11 @@ from __future__ import annotations
 
 import json
 from collections.abc import Sequence
-from dataclasses import asdict, dataclass
 from datetime import datetime
 from decimal import Decimal
 from typing import Any
 
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -55,6 +55,7 @@ from prepbook.lab.run_conditions import (
     validated_repeatability,
 )
 from prepbook.lab.volumes import draw
+from prepbook.records import as_data
 from prepbook.rules import evaluation as ev
 from prepbook.rules import plausibility as plaus
 from prepbook.rules.acceptance import Check
@@ -66,8 +67,7 @@ __all__ = ["QueuedRun", "RunResult", "correct", "exclude", "review", "runs_await
            "standardize"]
 
 
-@dataclass(frozen=True)
-class RunResult:
+class RunResult(msgspec.Struct, frozen=True):
     """A standardization computed by ``standardize``, ``correct`` or ``exclude``.
 
     ``run`` is None when nothing was recorded (``record=False``); ``previous_status`` is
@@ -100,7 +100,7 @@ class RunResult:
 
     def to_json(self) -> dict[str, Any]:
         """The JSON of the command: a new run has no ``previous_status`` key."""
-        data = asdict(self)
+        data = as_data(self)
         if self.previous_status is None:
             del data["previous_status"]
         return data
@@ -120,13 +120,13 @@ def _evaluate(s: Session, c: Conditions, entries: list[ReplicateEntry],
     e = ev.evaluate(standardization(s, c, entries, excluded))
     payload = {
         "verdict": e.verdict,
-        "checks": [asdict(ch) for ch in e.checks],
-        "budget": [asdict(line) for line in e.budget],
+        "checks": [as_data(ch) for ch in e.checks],
+        "budget": [as_data(line) for line in e.budget],
         "notes": [*(notes or []), *e.notes, *e.uncertainty_notes],
         "equivalence_ph": e.equivalence_ph,
         "titrant_n_eq_per_mol": e.titrant_n_eq_per_mol,
-        "reference": asdict(c.reference) if c.reference else None,
-        "replicates": [asdict(r) for r in e.replicates],
+        "reference": as_data(c.reference) if c.reference else None,
+        "replicates": [as_data(r) for r in e.replicates],
         "repeatability": e.repeatability,
         "repeatability_rsd_percent": validated_repeatability(c)[0],
         "repeatability_given": c.repeatability.text if c.repeatability else None,

@@ -2,14 +2,15 @@
 
 Takes the values as typed (strings), finds the analyte, its method and the titrant in the
 built-in catalog (``catalog.samples.analyte_titration``), computes with
-``prepbook.chem.sample`` and returns a frozen dataclass whose fields are the keys of the
+``prepbook.chem.sample`` and returns a frozen record whose fields are the keys of the
 command's JSON. No SQLAlchemy here.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 from prepbook.inputs import Reading, parse_number, parse_percent
@@ -22,8 +23,7 @@ if TYPE_CHECKING:
 BURETTE_FRACTION = 0.30  # USP <31>: the titrant volume at least 30 % of the burette
 
 
-@dataclass(frozen=True)
-class Concentration:
+class Concentration(msgspec.Struct, frozen=True):
     """A liquid sample's mass concentration: ``value`` in ``unit``, expressed as the
     formula ``as_formula`` where the trade reports it so (JSON key ``as``), else None."""
 
@@ -35,8 +35,7 @@ class Concentration:
         return {"value": self.value, "unit": self.unit, "as": self.as_formula}
 
 
-@dataclass(frozen=True)
-class SampleRow:
+class SampleRow(msgspec.Struct, frozen=True):
     """One replicate as typed and what it gives (``value``: in the result's unit)."""
 
     index: int
@@ -48,8 +47,7 @@ class SampleRow:
     excluded: bool
 
 
-@dataclass(frozen=True)
-class ExcessFacts:
+class ExcessFacts(msgspec.Struct, frozen=True):
     """A back-titration's reagent, as given."""
 
     reagent: str
@@ -58,8 +56,7 @@ class ExcessFacts:
     volume_ml: float
 
 
-@dataclass(frozen=True)
-class SampleCalc:
+class SampleCalc(msgspec.Struct, frozen=True):
     """``calc sample``: its fields are the keys of the command's JSON."""
 
     analyte: str

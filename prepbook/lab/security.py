@@ -4,8 +4,9 @@ passphrase policy, user names checked whole, and how long a lockout lasts."""
 from __future__ import annotations
 
 import unicodedata
-from dataclasses import dataclass
 from datetime import timedelta
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -15,8 +16,7 @@ MAX_NAME = 40
 LONGEST_LOCK = timedelta(hours=24)
 
 
-@dataclass(frozen=True)
-class PassphrasePolicy:
+class PassphrasePolicy(msgspec.Struct, frozen=True):
     """What the lab asks of a new passphrase (settings ``passphrase_min_length`` and
     ``passphrase_name_rule``)."""
 
@@ -87,8 +87,7 @@ def lock_period(failures: int, after: int, first: timedelta) -> timedelta | None
     return min(first * (2 ** doublings), LONGEST_LOCK)
 
 
-@dataclass(frozen=True)
-class HashCost:
+class HashCost(msgspec.Struct, frozen=True):
     """Argon2id parameters for a new passphrase hash.
 
     Every real user gets argon2-cffi's defaults (``hash_passphrase`` without a cost).

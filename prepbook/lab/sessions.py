@@ -18,9 +18,9 @@ from __future__ import annotations
 
 import hashlib
 import secrets
-from dataclasses import dataclass
 from datetime import datetime, timedelta
 
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -75,8 +75,7 @@ class MustChoose(Refused):
     """The user's passphrase was reset by an admin: a new one is needed to log in."""
 
 
-@dataclass(frozen=True)
-class SessionInfo:
+class SessionInfo(msgspec.Struct, frozen=True):
     """A session as `prepbook whoami` shows it (the fields are the JSON keys)."""
 
     user: str
@@ -91,8 +90,7 @@ class SessionInfo:
     state: str  # live, idle, expired, ended
 
 
-@dataclass(frozen=True)
-class Opened:
+class Opened(msgspec.Struct, frozen=True):
     """A session just opened: the token its holder keeps, and the session."""
 
     token: str

@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -28,8 +27,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Setting
 
 
-@dataclass(frozen=True)
-class SettingInfo:
+class SettingInfo(msgspec.Struct, frozen=True):
     key: str
     default: str
     help: str
@@ -91,8 +89,7 @@ KNOWN: dict[str, SettingInfo] = {
 }
 
 
-@dataclass(frozen=True)
-class SettingValue:
+class SettingValue(msgspec.Struct, frozen=True):
     """A setting as `prepbook settings` shows it (the fields are the JSON keys)."""
 
     key: str
@@ -108,8 +105,7 @@ def lab_clock(db: Database) -> LabClock:
         return LabClock(zone=lab_zone(s), late_after=late_after(s))
 
 
-@dataclass(frozen=True)
-class SettingChange:
+class SettingChange(msgspec.Struct, frozen=True):
     key: str
     value: str
     changed_by: str

@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import json
-from dataclasses import asdict, dataclass
 from typing import Any
 
+import msgspec
 from sqlalchemy import select
 
 from prepbook.inputs import utc_now
 from prepbook.lab.common import write
+from prepbook.records import as_data
 from prepbook.store.models import Material, Spec
 
 
@@ -17,8 +18,7 @@ def _json(value: Any) -> str:
     return json.dumps(value, sort_keys=True, ensure_ascii=False)
 
 
-@dataclass(frozen=True)
-class InitReport:
+class InitReport(msgspec.Struct, frozen=True):
     """What `prepbook init` did (the fields are the JSON keys)."""
 
     database: str
@@ -52,7 +52,7 @@ def initialize(target: str, *, actor: str) -> InitReport:
             if m.code in have_m:
                 continue
             write(s, actor, "catalog.material", Material(
-                code=m.code, name=m.name, formula=m.formula, data=_json(asdict(m)),
+                code=m.code, name=m.name, formula=m.formula, data=_json(as_data(m)),
                 builtin=True, created_at=now))
             added_materials.append(m.code)
         for sp in loader.specs():
@@ -60,7 +60,7 @@ def initialize(target: str, *, actor: str) -> InitReport:
                 continue
             write(s, actor, "catalog.spec", Spec(
                 code=sp.code, name=sp.name, solute_code=sp.solute, nominal=sp.nominal,
-                unit=sp.unit, data=_json(asdict(sp)), builtin=True, created_at=now,
+                unit=sp.unit, data=_json(as_data(sp)), builtin=True, created_at=now,
                 created_by=actor))
             added_specs.append(sp.code)
     return InitReport(

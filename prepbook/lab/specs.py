@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import json
 import re
-from dataclasses import dataclass, field, fields
 from typing import Any
 
+import msgspec
 from sqlalchemy import select
 
 from prepbook.errors import InvalidInput, NotFound, Refused
@@ -17,8 +17,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import Spec
 
 
-@dataclass(frozen=True)
-class SpecFields:
+class SpecFields(msgspec.Struct, frozen=True):
     """A spec's identity, acceptance rules and intervals, read from its stored JSON."""
 
     code: str
@@ -41,11 +40,10 @@ class SpecFields:
     cautions: list[str]
 
 
-@dataclass(frozen=True)
-class SpecView(SpecFields):
+class SpecView(SpecFields, frozen=True):
     """What the services need of a spec: its fields and the whole stored JSON."""
 
-    data: dict[str, Any] = field(default_factory=dict)
+    data: dict[str, Any] = msgspec.field(default_factory=dict)
 
     def to_spec_unit(self, normality: float, n_eq_per_mol: float) -> float:
         """A normality expressed in the spec's unit (N as is; M divided by n)."""
@@ -95,8 +93,7 @@ def view(spec: Spec) -> SpecView:
     )
 
 
-@dataclass(frozen=True)
-class SpecInfo(SpecFields):
+class SpecInfo(SpecFields, frozen=True):
     """A solution spec as the commands show it (the fields are the JSON keys)."""
 
     builtin: bool
@@ -112,7 +109,7 @@ def spec_info(spec: Spec) -> SpecInfo:
     from prepbook.lab.preparing import spec_expansion
 
     v = view(spec)
-    shared = {f.name: getattr(v, f.name) for f in fields(SpecFields)}
+    shared = {name: getattr(v, name) for name in SpecFields.__struct_fields__}
     refused = None
     try:
         expansion = spec_expansion(v.data)

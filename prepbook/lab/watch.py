@@ -9,8 +9,7 @@ the audit events of its history (read in one query) and its factor trend.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
+import msgspec
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -23,8 +22,7 @@ from prepbook.store.engine import Database
 from prepbook.store.models import AuditHead, Batch, Replicate, Review, Run, Use
 
 
-@dataclass(frozen=True)
-class FactorPoint:
+class FactorPoint(msgspec.Struct, frozen=True):
     """The factor of one run of a batch (any status) and its change from the accepted
     run before (accepted runs only)."""
 
@@ -36,8 +34,7 @@ class FactorPoint:
     beyond_drift_limit: bool
 
 
-@dataclass(frozen=True)
-class BatchTrend:
+class BatchTrend(msgspec.Struct, frozen=True):
     """Every run's factor for a chart, the spec's window and the accepted runs' trend."""
 
     batch: str

@@ -1,18 +1,19 @@
 """JSON Schemas (draft 2020-12) of the ``--json`` documents, made from the types they are
 written from.
 
-Every ``--json`` document is a service's frozen dataclass (or a list of them) written by
-``prepbook.cli.output.emit_json``: one key a field, in field order. ``DOCUMENTS`` names,
-for each command, the type its document is written from, as ``module:name`` so nothing
-is imported until a schema is asked for. msgspec (``msgspec.json.schema_components``)
-turns the types into JSON Schema; this module then states what the writer adds:
+Every ``--json`` document is a service's record (a frozen ``msgspec.Struct``) or a list
+of them, written by ``prepbook.cli.output.emit_json``: one key a field, in field order.
+``DOCUMENTS`` names, for each command, the type its document is written from, as
+``module:name`` so nothing is imported until a schema is asked for. msgspec
+(``msgspec.json.schema_components``) turns the types into JSON Schema; this module then
+states what the writer adds:
 
 - every field is written, so every property is required;
-- a dataclass with a ``to_json()`` writes a different shape: ``RESHAPED`` says how
+- a record with a ``to_json()`` writes a different shape: ``RESHAPED`` says how
   (a key renamed, a key left out when empty, a nested document written flat);
-- a few documents are written from a mapping, not a dataclass: their shape is a
+- a few documents are written from a mapping, not a record: their shape is a
   ``TypedDict`` here (``BalanceRead``, ``ConfigShown``), or the keys added after a
-  dataclass's fields are in ``ADDED`` (`batch show` and its assays);
+  record's fields are in ``ADDED`` (`batch show` and its assays);
 - a document that is an object begins with ``version``, the version of prepbook that
   wrote it (so no type a document is written from may have a field of that name); a
   document that is a list (``status``) has none.
@@ -27,9 +28,10 @@ from __future__ import annotations
 import importlib
 import json
 import sys
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, TypedDict, cast
+
+import msgspec
 
 from prepbook import __version__
 
@@ -145,9 +147,8 @@ ADDED: dict[str, dict[str, str]] = {
 }
 
 
-@dataclass(frozen=True)
-class Reshape:
-    """How a dataclass's ``to_json()`` departs from its fields."""
+class Reshape(msgspec.Struct, frozen=True):
+    """How a record's ``to_json()`` departs from its fields."""
 
     renamed: tuple[tuple[str, str], ...] = ()  # (field, key written)
     optional: tuple[str, ...] = ()  # left out when None
@@ -250,8 +251,6 @@ def _versioned(root: dict[str, Any], components: dict[str, Any]) -> dict[str, An
 
 def schema(command: str) -> dict[str, Any]:
     """The JSON Schema of ``command``'s ``--json`` document (a KeyError if it has none)."""
-    import msgspec
-
     added = ADDED.get(command, {})
     types = [load(r) for r in (*DOCUMENTS[command], *added.values())]
     _bind_checker_names()

@@ -8,9 +8,10 @@ The command line and the terminal app both hand ``LabelJob.deliver`` to the serv
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 from prepbook.render import files, sizes
@@ -20,8 +21,7 @@ if TYPE_CHECKING:
     from prepbook.render.labels import LabelLayout
 
 
-@dataclass(frozen=True)
-class LabelJob:
+class LabelJob(msgspec.Struct, frozen=True):
     """One print run: the stock (and sheet), the copies and the checked target file."""
 
     size: sizes.LabelSize

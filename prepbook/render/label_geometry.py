@@ -4,7 +4,7 @@ the text beside it and then across the full width below it."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import msgspec
 
 from prepbook.render import pictograms
 from prepbook.render.label_side import code_lines
@@ -13,8 +13,7 @@ from prepbook.render.sizes import MM, LabelSize
 MIN_FONT_PT = 4.25  # smallest body text (a line about 1.75 mm): common practice, no source
 
 
-@dataclass(frozen=True)
-class Geometry:
+class Geometry(msgspec.Struct, frozen=True):
     margin: float
     text_boxes: tuple[tuple[float, float, float, float], ...]  # beside the side column, below
     side_box: tuple[float, float, float, float]  # QR code, code and signal word

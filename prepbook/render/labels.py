@@ -19,8 +19,9 @@ from __future__ import annotations
 
 import io
 import re
-from dataclasses import dataclass, field, replace
 from typing import Any
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 from prepbook.lab.label_content import BatchLabel, Hazard, LabelContent, LotLabel
@@ -47,8 +48,7 @@ STATE_NOTES = {
 }
 
 
-@dataclass(frozen=True)
-class Line:
+class Line(msgspec.Struct, frozen=True):
     """One paragraph of label text: ``role`` picks the style, ``text`` is plain text
     and ``bold`` lists the leading words printed in bold (the field's name)."""
 
@@ -60,8 +60,7 @@ class Line:
     parts: tuple[tuple[str, str, bool], ...] = ()
 
 
-@dataclass(frozen=True)
-class LabelLayout:
+class LabelLayout(msgspec.Struct, frozen=True):
     """How a label was laid out: the font size chosen, the boxes, and what was packed."""
 
     size: str
@@ -76,7 +75,7 @@ class LabelLayout:
     code_pt: float
     code_lines: tuple[str, ...]
     bar_h: float
-    notes: tuple[str, ...] = field(default_factory=tuple)
+    notes: tuple[str, ...] = msgspec.field(default_factory=tuple)
     pictograms: tuple[str, ...] = ()  # the GHS codes drawn
     pictogram_side_mm: float = 0.0  # side of each pictogram's square
     place: str = "under"  # the pictograms under the signal word, or beside the QR code
@@ -412,7 +411,7 @@ def layout(data: LabelContent, size: LabelSize) -> LabelLayout:
                      f"{size.name}; a larger label carries their full text")
         notes.append("the code is printed only under the QR code, and who "
                      "printed the label only in the record")
-    return replace(lay, notes=tuple(notes))
+    return msgspec.structs.replace(lay, notes=tuple(notes))
 
 
 def _draw_label(canvas: Any, data: LabelContent, lay: LabelLayout, x: float, y: float,

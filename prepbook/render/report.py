@@ -9,9 +9,10 @@ photocopy reads the same as the original.
 from __future__ import annotations
 
 import io
-from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
+
+import msgspec
 
 from prepbook.clock import LabClock
 from prepbook.errors import InvalidInput
@@ -31,8 +32,7 @@ STATUS_WORDS = {"accepted": "accepted", "rejected": "REJECTED",
                 "awaiting-review": "awaiting review"}
 
 
-@dataclass(frozen=True)
-class WrittenReport:
+class WrittenReport(msgspec.Struct, frozen=True):
     """Where a report was written and what it shows (``prepbook report --json``)."""
 
     batch: str

@@ -12,7 +12,8 @@ label per page and let the printer driver place it, or check the pitch first.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -20,8 +21,7 @@ MM = 72 / 25.4  # points per millimetre
 INCH = 72.0  # points per inch
 
 
-@dataclass(frozen=True)
-class LabelSize:
+class LabelSize(msgspec.Struct, frozen=True):
     """One label stock size; the drawing works in points (1/72 in)."""
 
     name: str  # as typed on the command line, e.g. "70x37mm"
@@ -34,8 +34,7 @@ class LabelSize:
         return f"{self.name} ({self.note})"
 
 
-@dataclass(frozen=True)
-class Sheet:
+class Sheet(msgspec.Struct, frozen=True):
     """A page that carries a grid of labels."""
 
     name: str
@@ -105,8 +104,7 @@ def find_sheet(text: str) -> Sheet:
     return sheet
 
 
-@dataclass(frozen=True)
-class Grid:
+class Grid(msgspec.Struct, frozen=True):
     """Where the labels go on one sheet: lower-left corner of each, in points."""
 
     columns: int

@@ -15,9 +15,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Collection, Sequence
-from dataclasses import dataclass
 from datetime import date
 from typing import TYPE_CHECKING, Literal
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -32,8 +33,7 @@ USP41_SD_FLOOR_FACTOR = 0.41
 USP41_MIN_WEIGHT_FACTOR = 2000.0
 
 
-@dataclass(frozen=True)
-class Check:
+class Check(msgspec.Struct, frozen=True):
     """The outcome of one acceptance rule. ``name`` is a stable kebab-case key."""
 
     name: str
@@ -42,8 +42,7 @@ class Check:
     message: str
 
 
-@dataclass(frozen=True)
-class AcceptanceRules:
+class AcceptanceRules(msgspec.Struct, frozen=True):
     """Configurable acceptance limits of a solution spec.
 
     Defaults: ``min_replicates`` 3 (common practice, no source); ``max_rsd_percent`` 0.2

@@ -10,15 +10,15 @@ from the curve itself agrees by construction and is shown as such. Pure: no I/O.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.rules.acceptance import Check
 
 CHECK_NAME = "curve-endpoint"
 
 
-@dataclass(frozen=True)
-class CurveEvidence:
+class CurveEvidence(msgspec.Struct, frozen=True):
     """One replicate's volume as entered beside the inflections of its curve (mL)."""
 
     position: int

@@ -15,9 +15,10 @@ EURACHEM/CITAC CG4 Example A2, the purity taken as a rectangular distribution).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from datetime import date
 from typing import TYPE_CHECKING, Literal
+
+import msgspec
 
 from prepbook.catalog import loader
 from prepbook.chem import corrections, formula
@@ -45,8 +46,7 @@ BuoyancyMode = Literal["off", "on", "if-known"]
 RepeatabilitySource = Literal["given", "spec", "estimated", "missing"]
 
 
-@dataclass(frozen=True)
-class Reading:
+class Reading(msgspec.Struct, frozen=True):
     """One replicate as entered: the amount (g of standard, or mL of aliquot) and the
     titrant volume at the endpoint (mL), with the text typed for messages."""
 
@@ -56,8 +56,7 @@ class Reading:
     volume_text: str
 
 
-@dataclass(frozen=True)
-class Weighed:
+class Weighed(msgspec.Struct, frozen=True):
     """A primary standard weighed from a lot (direct standardization)."""
 
     material: str  # catalog code, name or formula
@@ -65,8 +64,7 @@ class Weighed:
     u_purity_fraction: float | None = None  # standard uncertainty; None -> the default
 
 
-@dataclass(frozen=True)
-class Reference:
+class Reference(msgspec.Struct, frozen=True):
     """A standardized solution pipetted (secondary standardization), as recorded."""
 
     batch: str
@@ -75,8 +73,7 @@ class Reference:
     u: float | None  # its standard uncertainty at 20 C, eq/L; None: its record holds none
 
 
-@dataclass(frozen=True)
-class Judgement:
+class Judgement(msgspec.Struct, frozen=True):
     """What the acceptance checks need beyond the readings (a recorded run's context)."""
 
     rules: AcceptanceRules
@@ -93,8 +90,7 @@ class Judgement:
     required_instruments: tuple[str, ...] = ()  # kinds the spec requires (balance, burette)
 
 
-@dataclass(frozen=True)
-class Standardization:
+class Standardization(msgspec.Struct, frozen=True):
     """Everything one standardization is computed from. Exactly one of ``standard`` and
     ``reference`` is given; ``judgement`` asks for the acceptance checks and the factor."""
 
@@ -121,8 +117,7 @@ class Standardization:
     expansion: corrections.Expansion | None = None  # a non-aqueous titrant's solvent; None: water
 
 
-@dataclass(frozen=True)
-class StandardFacts:
+class StandardFacts(msgspec.Struct, frozen=True):
     """The primary standard as the catalog and the chemistry core give it (its reaction
     with the titrant is ``Evaluation.reaction``)."""
 
@@ -136,8 +131,7 @@ class StandardFacts:
     purity_percent: float
 
 
-@dataclass(frozen=True)
-class EvaluatedReplicate:
+class EvaluatedReplicate(msgspec.Struct, frozen=True):
     index: int
     normality: float
     outlier: bool
@@ -145,8 +139,7 @@ class EvaluatedReplicate:
     true_mass_g: float | None
 
 
-@dataclass(frozen=True)
-class Evaluation:
+class Evaluation(msgspec.Struct, frozen=True):
     normality: float  # eq/L at the run's temperature
     normality_20c: float
     factor: float | None  # only when judged (it needs the spec's nominal)

@@ -11,14 +11,14 @@ accepted one if that came first).
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 from datetime import datetime
+
+import msgspec
 
 from prepbook.rules.life import drift_between, drift_beyond
 
 
-@dataclass(frozen=True)
-class RunPoint:
+class RunPoint(msgspec.Struct, frozen=True):
     code: str
     at: datetime
     status: str  # "accepted" | "rejected" | "awaiting-review" | "revoked"
@@ -26,14 +26,12 @@ class RunPoint:
     revoked_at: datetime | None = None  # when a revoked run's result was withdrawn
 
 
-@dataclass(frozen=True)
-class UsePoint:
+class UsePoint(msgspec.Struct, frozen=True):
     key: int
     at: datetime
 
 
-@dataclass(frozen=True)
-class Flag:
+class Flag(msgspec.Struct, frozen=True):
     use: int
     reason: str
 

@@ -31,7 +31,8 @@ Sources of the bounds (each also named beside its constant):
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.errors import InvalidInput
 
@@ -53,8 +54,7 @@ def _g(x: float) -> str:
     return f"{x:.6g}"
 
 
-@dataclass(frozen=True)
-class Replicate:
+class Replicate(msgspec.Struct, frozen=True):
     """One replicate as entered: the amount (g of standard, or mL of aliquot) and the
     titrant volume (mL), with the text typed for messages (1-based ``position``)."""
 

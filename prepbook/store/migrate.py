@@ -8,10 +8,11 @@ never load Alembic.
 from __future__ import annotations
 
 import sqlite3
-from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, TextIO
+
+import msgspec
 
 from prepbook.store.revision import HEAD_REVISION
 
@@ -21,8 +22,7 @@ if TYPE_CHECKING:
     from prepbook.store.engine import Database
 
 
-@dataclass(frozen=True)
-class UpgradeReport:
+class UpgradeReport(msgspec.Struct, frozen=True):
     """What ``upgrade`` did: whether it created the schema, from and to which revision,
     and where it put the copy of the file taken before changing it."""
 

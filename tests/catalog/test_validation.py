@@ -6,10 +6,10 @@ load_catalog() to refuse with a message naming it. Nothing here touches the real
 
 from __future__ import annotations
 
-import dataclasses
 import shutil
 from pathlib import Path
 
+import msgspec
 import pytest
 
 import prepbook.catalog.loader as loader
@@ -132,9 +132,9 @@ def test_check_catalog_finds_problems_in_built_objects() -> None:
     """The semantic checks work on objects too (a lab's own entries reuse them)."""
     cat = catalog()
     khp = cat.find_material("KHP")
-    bad_rx = dataclasses.replace(khp.reactions[0], n=-1.0)
-    bad_khp = dataclasses.replace(khp, reactions=(bad_rx, *khp.reactions[1:]))
-    broken = dataclasses.replace(
+    bad_rx = msgspec.structs.replace(khp.reactions[0], n=-1.0)
+    bad_khp = msgspec.structs.replace(khp, reactions=(bad_rx, *khp.reactions[1:]))
+    broken = msgspec.structs.replace(
         cat, materials=tuple(bad_khp if m is khp else m for m in cat.materials)
     )
     problems = check_catalog(broken)

@@ -10,7 +10,6 @@ rule 2) is the oracle for the secondary budget.
 
 from __future__ import annotations
 
-import dataclasses
 import math
 
 import pytest
@@ -20,6 +19,7 @@ from hypothesis import strategies as hst
 from prepbook.chem import standardization as st
 from prepbook.chem.uncertainty import repeatability_term, secondary_budget
 from prepbook.errors import InvalidInput
+from prepbook.records import as_data
 
 A2_M_G, A2_U_M_G = 0.3888, 0.00013
 A2_P, A2_U_P = 1.0, 0.00029
@@ -51,7 +51,7 @@ def test_cg4_a2_without_repeatability_is_low_and_says_so() -> None:
     assert unc is not None
     assert unc.u_relative == pytest.approx(0.000824, abs=0.000005)
     assert unc.missing == ("f_rep",)
-    exported = [dataclasses.asdict(line) for line in unc.budget]
+    exported = [as_data(line) for line in unc.budget]
     assert [row["symbol"] for row in exported if row["missing"]] == ["f_rep"]
     assert "validated repeatability" in exported[-1]["missing"]
 

@@ -9,14 +9,13 @@ V at t2 and in Vc at t1 gives N(t2) = N(t1) [1 + 0.0011 (t1 - t2)].
 
 from __future__ import annotations
 
-from dataclasses import asdict
-
 import pytest
 
 from prepbook.catalog import catalog
 from prepbook.chem import corrections as c
 from prepbook.errors import InvalidInput
 from prepbook.lab.preparing import spec_expansion
+from prepbook.records import as_data
 
 ACETIC = c.Expansion(per_c=0.0011, solvent="glacial acetic acid", source="BP Appendix I B")
 
@@ -68,13 +67,13 @@ def test_aqueous_specs_use_the_water_density_formula() -> None:
     for spec in catalog().specs:
         if spec.solvent == "water":
             assert spec.expansion_per_c is None
-            assert spec_expansion(asdict(spec)) is None
+            assert spec_expansion(as_data(spec)) is None
 
 
 def test_a_spec_stored_before_the_coefficient_takes_the_catalogs() -> None:
     """A built-in spec copied into a database before the field existed (no
     expansion_per_c in its JSON) still gets its solvent's coefficient, never water's."""
-    data = asdict(catalog().find_spec("HClO4-0.1N"))
+    data = as_data(catalog().find_spec("HClO4-0.1N"))
     del data["expansion_per_c"]
     found = spec_expansion(data)
     assert found is not None and found.per_c == 0.0011
@@ -94,20 +93,20 @@ def test_the_description_names_coefficient_solvent_and_source() -> None:
 def test_an_aqueous_spec_with_a_coefficient_is_a_catalog_problem() -> None:
     """Water's expansion is its density formula; a coefficient on an aqueous spec would
     be a second, conflicting statement of it."""
-    import dataclasses
+    import msgspec
 
     from prepbook.catalog import check_catalog
 
     cat = catalog()
     naoh = cat.find_spec("NaOH-0.1N")
-    bad = dataclasses.replace(naoh, expansion_per_c=2.1e-4)
-    broken = dataclasses.replace(cat, specs=tuple(bad if s is naoh else s for s in cat.specs))
+    bad = msgspec.structs.replace(naoh, expansion_per_c=2.1e-4)
+    broken = msgspec.structs.replace(cat, specs=tuple(bad if s is naoh else s for s in cat.specs))
     assert any("NaOH-0.1N" in p and "leave expansion_per_c" in p
                for p in check_catalog(broken))
 
 
 def test_a_builtin_spec_stored_before_the_solvent_takes_the_catalogs() -> None:
-    data = asdict(catalog().find_spec("HClO4-0.1N"))
+    data = as_data(catalog().find_spec("HClO4-0.1N"))
     del data["solvent"], data["expansion_per_c"]
     found = spec_expansion(data)
     assert found is not None and found.per_c == 0.0011

@@ -3,12 +3,12 @@ names checked whole, the passphrase policy, resets and what a signature records.
 
 from __future__ import annotations
 
-import dataclasses
 import subprocess
 import sys
 from datetime import timedelta
 from pathlib import Path
 
+import msgspec
 import pytest
 
 from prepbook.errors import InvalidInput, Refused
@@ -191,7 +191,7 @@ def test_a_name_in_another_script_is_welcome(db) -> None:  # type: ignore[no-unt
 def test_the_passphrase_policy(db, monkeypatch: pytest.MonkeyPatch) -> None:  # type: ignore[no-untyped-def]
     from prepbook.lab import people, settings
 
-    monkeypatch.setitem(settings.KNOWN, "passphrase_name_rule", dataclasses.replace(
+    monkeypatch.setitem(settings.KNOWN, "passphrase_name_rule", msgspec.structs.replace(
         settings.KNOWN["passphrase_name_rule"], default="on"))
     with pytest.raises(InvalidInput, match="at least 12 characters"):
         people.add_user(db, actor="ada", name="dan", role="technician",

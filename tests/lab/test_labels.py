@@ -177,9 +177,8 @@ def test_a_retired_batch_is_not_relabelled(lab: tuple[Cli, str, str], tmp_path: 
 def test_the_service_records_the_content_it_delivers(lab: tuple[Cli, str, str],
                                                      tmp_path: Path) -> None:
     """The service hands the edge what the label shows and records exactly that."""
-    from dataclasses import asdict
-
     from prepbook.lab.label_content import BatchLabel
+    from prepbook.records import as_data
 
     cli, batch, run = lab
     db = open_database(str(cli.db))
@@ -204,7 +203,7 @@ def test_the_service_records_the_content_it_delivers(lab: tuple[Cli, str, str],
         stored = con.execute("SELECT shown_json FROM label_prints").fetchone()[0]
     finally:
         con.close()
-    assert json.loads(stored) == json.loads(json.dumps(asdict(seen[0])))
+    assert json.loads(stored) == json.loads(json.dumps(as_data(seen[0])))
 
 
 @pytest.mark.parametrize("how", ["never records", "fails after recording"])

@@ -36,14 +36,13 @@ def _add_users(db: object) -> None:
     """The lab's invented users. Their passphrases ("ben-passphrase") contain their names,
     which the lab's default policy refuses: the rule is lifted while they are added, as
     tests/conftest.py lifts it for each test (a module fixture runs before that)."""
-    import dataclasses
-
+    import msgspec
     import pytest
 
     from prepbook.lab import people, settings
 
     with pytest.MonkeyPatch.context() as mp:
-        mp.setitem(settings.KNOWN, "passphrase_name_rule", dataclasses.replace(
+        mp.setitem(settings.KNOWN, "passphrase_name_rule", msgspec.structs.replace(
             settings.KNOWN["passphrase_name_rule"], default="off"))
         people.add_user(db, actor="ada", name="ada", role="admin",  # type: ignore[arg-type]
                         passphrase=PASSPHRASE.format("ada"), actor_passphrase=None)

@@ -113,7 +113,7 @@ def test_large_stock_carries_full_size_pictograms_for_every_spec(size: str) -> N
 
 @pytest.mark.parametrize("size", list(sizes.SIZES))
 def test_a_lot_with_five_pictograms_fits_every_size(size: str) -> None:
-    from dataclasses import replace
+    from msgspec.structs import replace
 
     from prepbook.lab.label_content import Hazard
 

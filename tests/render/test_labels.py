@@ -9,12 +9,12 @@ a pypdfium2 rendering; none of them share code with reportlab or qrcode.
 from __future__ import annotations
 
 import io
-from dataclasses import replace
 from typing import Any
 
 import pypdfium2 as pdfium
 import pytest
 import zxingcpp
+from msgspec.structs import replace
 from pypdf import PdfReader
 
 from prepbook.catalog import loader

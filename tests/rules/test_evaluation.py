@@ -10,7 +10,6 @@ c = 0.10214 mol/L; purity 1.0 +/- 0.0005 rectangular, u = 0.00029; balance linea
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from datetime import date
 
@@ -215,8 +214,8 @@ def test_excluded_replicate_stays_visible() -> None:
 
 def test_input_and_output_are_frozen() -> None:
     e = evaluate(_khp())
-    with pytest.raises(dataclasses.FrozenInstanceError):
+    with pytest.raises(AttributeError):
         e.normality = 1.0  # type: ignore[misc]
-    with pytest.raises(dataclasses.FrozenInstanceError):
+    with pytest.raises(AttributeError):
         _khp().blank_ml = 1.0  # type: ignore[misc]
     assert math.isfinite(e.normality)

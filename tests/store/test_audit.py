@@ -9,6 +9,7 @@ import threading
 from datetime import UTC, datetime, timedelta, timezone
 from pathlib import Path
 
+import msgspec
 import pytest
 from sqlalchemy import select
 
@@ -410,7 +411,7 @@ def test_log_lists_events_with_filters(db: Database) -> None:
         assert [e.seq for e in everything] == [1, 2, 3, 4, 5]
         assert everything[1].record == "batches #1"
         assert everything[4].reason == "contaminated"
-        assert set(vars(everything[0])) >= {
+        assert set(msgspec.structs.asdict(everything[0])) >= {
             "seq",
             "at",
             "actor",

@@ -27,15 +27,16 @@ import os
 import re
 import uuid
 from collections.abc import Mapping
-from dataclasses import asdict, dataclass
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+import msgspec
 from sqlalchemy import Connection, event, insert, select, true, update
 from sqlalchemy.orm import Session
 
 from prepbook.errors import InvalidInput, Refused
+from prepbook.records import as_data
 from prepbook.store.audit import rekeying
 from prepbook.store.audit.chain import canonical_json, iso
 from prepbook.store.models import AuditCheckpoint, AuditHead, AuditKeying, table_of
@@ -55,8 +56,7 @@ _CHECKPOINTS = table_of(AuditCheckpoint)
 _HEAD = table_of(AuditHead)
 
 
-@dataclass(frozen=True)
-class Keying:
+class Keying(msgspec.Struct, frozen=True):
     """How this trail is kept (the ``audit_keying`` row, and the keys changed since).
 
     ``key_fingerprint`` and ``public_key`` are the keys in use now (after the
@@ -73,8 +73,7 @@ class Keying:
     first_public_key: str | None = None
 
 
-@dataclass(frozen=True)
-class Checkpoint:
+class Checkpoint(msgspec.Struct, frozen=True):
     """One signed checkpoint, as stored in the database and in the witness folder."""
 
     lab_id: str
@@ -314,7 +313,7 @@ def append_witness(folder: Path, cp: Checkpoint) -> Path:
     path = witness_file(folder, cp.lab_id)
     try:
         with path.open("a", encoding="utf-8") as out:
-            out.write(json.dumps(asdict(cp), sort_keys=True) + "\n")
+            out.write(json.dumps(as_data(cp), sort_keys=True) + "\n")
             out.flush()
             os.fsync(out.fileno())
     except OSError as exc:
@@ -386,7 +385,7 @@ def witness(cp: Checkpoint) -> Path | None:
 
     url = witness_db.witness_database()
     if url is not None:
-        witness_db.witness(url, asdict(cp), cp.code)
+        witness_db.witness(url, as_data(cp), cp.code)
     folder = witness_folder()
     if folder is None:
         return None

@@ -23,7 +23,8 @@ TRUNCATE too. A revision that adds a column to a guarded table, or changes its
 from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
-from dataclasses import dataclass
+
+import msgspec
 
 from prepbook.store.models import AUDITED_MODELS, AuditEvent, AuditHead, Base, table_of
 
@@ -50,8 +51,7 @@ END
 """
 
 
-@dataclass(frozen=True)
-class Guarded:
+class Guarded(msgspec.Struct, frozen=True):
     """One guarded table: its name, every column, and the columns that may change."""
 
     table: str

@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 from datetime import date, datetime, time, timedelta
 
+import msgspec
 from sqlalchemy import and_, or_, select
 from sqlalchemy.orm import Session
 
@@ -17,8 +17,7 @@ _events = AuditEvent.__table__
 
 
 
-@dataclass(frozen=True)
-class LogEntry:
+class LogEntry(msgspec.Struct, frozen=True):
     """One audit event as a reader sees it (times as ISO text, UTC)."""
 
     seq: int

@@ -14,9 +14,9 @@ from __future__ import annotations
 
 import hmac
 from collections.abc import Callable
-from dataclasses import dataclass
 from pathlib import Path
 
+import msgspec
 from sqlalchemy import Connection, select
 
 from prepbook.errors import InvalidInput
@@ -31,16 +31,14 @@ KEYRING_ENV = "PREPBOOK_AUDIT_KEYRING"
 _EVENTS = table_of(AuditEvent)
 
 
-@dataclass(frozen=True)
-class Stretch:
+class Stretch(msgspec.Struct, frozen=True):
     """Events from ``first_seq`` on are keyed with ``key`` (None: not at hand, or plain)."""
 
     first_seq: int
     key: bytes | None
 
 
-@dataclass(frozen=True)
-class SigningSpan:
+class SigningSpan(msgspec.Struct, frozen=True):
     """A signing key and the checkpoints it may sign: of ``first`` to ``last`` events."""
 
     public_key: str | None
@@ -48,8 +46,7 @@ class SigningSpan:
     last: int | None  # None: the key in use now
 
 
-@dataclass(frozen=True)
-class Keys:
+class Keys(msgspec.Struct, frozen=True):
     """The keys verify checks the trail with, stretch by stretch."""
 
     stretches: tuple[Stretch, ...]

@@ -16,9 +16,9 @@ with their own.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 from typing import Any
 
+import msgspec
 from sqlalchemy import Connection, select
 
 from prepbook.store.audit.chain import canonical_json, iso
@@ -30,8 +30,7 @@ SIGNING = "signing"
 _TABLE = table_of(AuditRekeying)
 
 
-@dataclass(frozen=True)
-class Rekeying:
+class Rekeying(msgspec.Struct, frozen=True):
     """One recorded change of a key (a row of ``audit_rekeyings``)."""
 
     lab_id: str

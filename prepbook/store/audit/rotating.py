@@ -11,10 +11,10 @@ from __future__ import annotations
 
 import hashlib
 import hmac
-from dataclasses import replace
 from datetime import UTC, datetime
 from typing import TYPE_CHECKING
 
+from msgspec.structs import replace
 from sqlalchemy import insert, select
 from sqlalchemy.orm import Session
 

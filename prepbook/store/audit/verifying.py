@@ -28,11 +28,11 @@ counted, so a wholesale rewrite gives a readable report.
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator, Sequence
-from dataclasses import dataclass
 from datetime import datetime
 from pathlib import Path
 from typing import Any
 
+import msgspec
 from sqlalchemy import Connection, Table, select
 from sqlalchemy.orm import Session
 
@@ -70,8 +70,7 @@ _MAX_LISTED = 10  # problems of one kind listed one by one before they are count
 LastEvents = dict[Any, dict[Any, tuple[Any, Any]]]
 
 
-@dataclass(frozen=True)
-class VerifyReport:
+class VerifyReport(msgspec.Struct, frozen=True):
     """Outcome of ``verify``: ok only when the chain and every audited row check out.
 
     ``checkpoint`` is the code of the trail as verified (None while empty);
@@ -89,8 +88,7 @@ class VerifyReport:
     notes: tuple[str, ...]
 
 
-@dataclass(frozen=True)
-class _Chain:
+class _Chain(msgspec.Struct, frozen=True):
     """What the pass over the events found: their number, where the chain ends."""
 
     events: int

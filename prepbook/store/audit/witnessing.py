@@ -20,6 +20,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import msgspec
 from sqlalchemy import Connection
 
 from prepbook.store.audit import witness_db
@@ -42,8 +43,7 @@ Reader = Callable[[str], tuple[list[Checkpoint], list[str], list[str]]]
 _DATABASE = "database"
 
 
-@dataclass(frozen=True)
-class Source:
+class Source(msgspec.Struct, frozen=True):
     """A witness outside the database: what it is called, where, and how it is read."""
 
     name: str  # "witness folder", "witness database"
@@ -96,8 +96,7 @@ class Attestation:
         return f"the checkpoint of {self.checkpoint.when} ({' and '.join(self.sources)})"
 
 
-@dataclass(frozen=True)
-class Findings:
+class Findings(msgspec.Struct, frozen=True):
     """What the checkpoints showed: whether the trail was shortened, how far a witness
     outside the database vouches for it, and which checkpoints a witness lacks."""
 

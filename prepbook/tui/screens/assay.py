@@ -8,7 +8,6 @@ disagree. Ctrl+S records through the same call with ``record=True``.
 
 from __future__ import annotations
 
-from dataclasses import asdict
 from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
@@ -22,6 +21,7 @@ from textual.widgets import Footer, Input, Label, Select, Static
 
 from prepbook.errors import PrepbookError
 from prepbook.inputs import parse_number
+from prepbook.records import as_data
 from prepbook.tui import words
 from prepbook.tui.screens.common import LIVE_DELAY_S, budget_table
 from prepbook.tui.screens.record_view import problems_text
@@ -188,7 +188,7 @@ class AssayScreen(Screen[None]):
             lines.append((f"  {ok}\n", f"bold {tone}".strip()))
         notes = Text("".join(f"  note: {w}\n" for w in (*c.warnings, *c.uncertainty_notes)))
         return Group(Text.assemble(*lines), notes, Text("uncertainty budget", style="bold"),
-                     budget_table([asdict(line) for line in c.budget]))
+                     budget_table([as_data(line) for line in c.budget]))
 
     def action_submit(self) -> None:
         from prepbook.lab import assays

@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-from dataclasses import asdict
 from typing import TYPE_CHECKING, Any
 
 from rich.console import Group
 from rich.text import Text
 from textual.app import App
 
+from prepbook.records import as_data
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, small_table
 from prepbook.tui.widgets import check_cell, colour
@@ -47,8 +47,8 @@ def result_view(app: App[Any], res: RunResult, title: str) -> Group:
         ("  verdict: ", "bold"), (verdict.upper(), f"bold {v_style}".strip()))
     checks = small_table("check", "outcome", "why")
     for c in res.checks:
-        checks.add_row(c.name, check_cell(app, asdict(c)), c.message)
+        checks.add_row(c.name, check_cell(app, as_data(c)), c.message)
     extra = [n for n in res.warnings if n not in {c.message for c in res.checks}]
     notes = Text("".join(f"  note: {n}\n" for n in extra))
     return Group(head, Text(""), checks, notes, Text("uncertainty budget", style="bold"),
-                 budget_table([asdict(line) for line in res.budget]))
+                 budget_table([as_data(line) for line in res.budget]))
