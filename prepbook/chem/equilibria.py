@@ -149,6 +149,13 @@ def solution_ph(
     return _solve_ph(values, c * units, c * p0 - base + acid, float(pkw))
 
 
+def load_solver() -> None:
+    """Import the root finder (scipy.optimize) now: the first import in a process takes
+    0.3-1 s, which a service does before it takes the lab's writer lock rather than in
+    the middle of a computation under it."""
+    import scipy.optimize  # noqa: F401
+
+
 def _solve_ph(pkas: tuple[float, ...], sites_mol_per_l: float,
               proton_excess_mol_per_l: float, pkw: float) -> float:
     """Root of the proton condition; ``proton_excess`` = protons the system starts with

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import functools
 import json
+from collections import defaultdict
 from datetime import date
 from decimal import Decimal
 from typing import Any, cast
@@ -283,15 +284,22 @@ def run_dict(session: Session, run: Run, *, with_replicates: bool = True,
         **chain_facts(result))
 
 
+def reviews_of_runs(session: Session, run_ids: Any) -> dict[int, list[Review]]:
+    """The reviews of many runs (a list of ids, or a subquery selecting them) in one
+    query, in id order: run id -> its reviews (an empty list for none)."""
+    reviews: dict[int, list[Review]] = defaultdict(list)
+    for rv in session.scalars(select(Review).where(Review.run_id.in_(run_ids))
+                              .order_by(Review.id)):
+        reviews[rv.run_id].append(rv)
+    return reviews
+
+
 def _run_dicts(session: Session, runs: list[Run]) -> tuple[RunRecord, ...]:
     """``run_dict`` of many runs with a fixed number of queries (not two per run)."""
     ids = [r.id for r in runs]
-    reviews: dict[int, list[Review]] = {i: [] for i in ids}
+    reviews = reviews_of_runs(session, ids) if ids else {}
     replicates: dict[int, list[Replicate]] = {i: [] for i in ids}
     if ids:
-        for rv in session.scalars(select(Review).where(Review.run_id.in_(ids))
-                                  .order_by(Review.id)):
-            reviews[rv.run_id].append(rv)
         for rep in session.scalars(select(Replicate).where(Replicate.run_id.in_(ids))
                                    .order_by(Replicate.position, Replicate.version)):
             replicates[rep.run_id].append(rep)

@@ -10,7 +10,7 @@ import difflib
 import functools
 import json
 import weakref
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from datetime import UTC, date, datetime, timedelta, tzinfo
 from typing import Any, TypeVar
 
@@ -327,6 +327,23 @@ def signed(db: Any, name: str, passphrase: str | None, roles: tuple[str, ...] = 
 def write(session: Session, actor: str, action: str, row: Base, *, reason: str | None = None,
           performed_at: datetime | None = None) -> None:
     """Add/flush a row and its audit event in the current transaction."""
+    write_all(session, actor, action, [row], reason=reason, performed_at=performed_at)
+
+
+def write_all(session: Session, actor: str, action: str, rows: Sequence[Base], *,
+              reason: str | None = None, performed_at: datetime | None = None) -> None:
+    """``write`` for several rows of one action (the replicates of a run): flushed
+    together and their events chained and sent together, in the order given."""
+    for row in rows:
+        _forget_facts(session, row)
+    session.add_all(rows)
+    session.flush()
+    audit.record_all(session, actor=actor, action=action, rows=rows, reason=reason,
+                     performed_at=performed_at)
+
+
+def _forget_facts(session: Session, row: Base) -> None:
+    """Drop what this transaction remembered that ``row`` (about to be written) changes."""
     if isinstance(row, Setting):
         _memo(session).pop(_SETTINGS, None)
     elif row.__tablename__ in _LIFE_TABLES:
@@ -349,10 +366,6 @@ def write(session: Session, actor: str, action: str, row: Base, *, reason: str |
         # A new coded row is found by code for the rest of the transaction without a
         # query (codes never change once recorded).
         _memo(session)[(type(row), code)] = row
-    session.add(row)
-    session.flush()
-    audit.record(session, actor=actor, action=action, row=row, reason=reason,
-                 performed_at=performed_at)
 
 
 def not_future(moment: datetime | None, what: str, zone: tzinfo = UTC) -> datetime:

@@ -28,7 +28,7 @@ from prepbook.devices.records import RecordedCurve
 from prepbook.errors import InvalidInput
 from prepbook.inputs import Reading, ReplicateEntry, parse_number, parse_replicate, utc_now
 from prepbook.lab import replicate_curves
-from prepbook.lab.common import setting, write
+from prepbook.lab.common import setting, write, write_all
 from prepbook.rules.curve_check import CurveEvidence
 from prepbook.store.engine import Database
 from prepbook.store.models import Replicate, ReplicateSource, Run
@@ -128,18 +128,24 @@ def evidence(s: Session, items: Sequence[ReplicateEntry]) -> tuple[CurveEvidence
                  for pos, e in enumerate(items, start=1) if e.curve is not None)
 
 
-def record(s: Session, actor: str, run: Run, replicate: Replicate,
-           entry: ReplicateEntry) -> None:
-    """Write where a new replicate's readings came from (and its curve) beside it."""
-    w = entry.weighing
-    write(s, actor, "replicate.source", ReplicateSource(
-        replicate_id=replicate.id, amount_source="balance" if w else "typed",
-        amount_instrument=w.balance if w else None, amount_read_at=w.read_at if w else None,
-        amount_raw=w.raw if w else None,
-        volume_source="curve" if entry.volume_from_curve else "typed",
-        created_at=utc_now(), created_by=actor))
-    if entry.curve is not None:
-        replicate_curves.store(s, actor, run, replicate.position, entry.curve)
+def record(s: Session, actor: str, run: Run, replicates: Sequence[Replicate],
+           entries: Sequence[ReplicateEntry]) -> None:
+    """Write where new replicates' readings came from (and their curves) beside them,
+    the sources in one insert and their events in one."""
+    now = utc_now()
+    rows = []
+    for replicate, entry in zip(replicates, entries, strict=True):
+        w = entry.weighing
+        rows.append(ReplicateSource(
+            replicate_id=replicate.id, amount_source="balance" if w else "typed",
+            amount_instrument=w.balance if w else None,
+            amount_read_at=w.read_at if w else None, amount_raw=w.raw if w else None,
+            volume_source="curve" if entry.volume_from_curve else "typed",
+            created_at=now, created_by=actor))
+    write_all(s, actor, "replicate.source", rows)
+    for replicate, entry in zip(replicates, entries, strict=True):
+        if entry.curve is not None:
+            replicate_curves.store(s, actor, run, replicate.position, entry.curve)
 
 
 def carry(s: Session, actor: str, old: Replicate, new: Replicate) -> None:

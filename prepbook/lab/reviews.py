@@ -18,7 +18,7 @@ from sqlalchemy.orm import Session
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_text
 from prepbook.lab.batch_records import RunRecord
-from prepbook.lab.batches import run_dict
+from prepbook.lab.batches import reviews_of_runs, run_dict
 from prepbook.lab.common import (
     REVIEWERS,
     acting,
@@ -146,13 +146,15 @@ def review(
 
 
 def runs_awaiting_review(db: Database) -> tuple[QueuedRun, ...]:
+    awaiting = Run.status == "awaiting-review"
     with db.session(write=False) as s:
-        rows = s.scalars(select(Run).where(Run.status == "awaiting-review")
-                         .order_by(Run.performed_at)).all()
-        return tuple(_record(s, r) for r in rows)
+        rows = s.scalars(select(Run).where(awaiting).order_by(Run.performed_at)).all()
+        # Their reviews (a run rejected and corrected has some) in one query, not one a run.
+        reviews = reviews_of_runs(s, select(Run.id).where(awaiting).scalar_subquery())
+        return tuple(_record(s, r, reviews[r.id]) for r in rows)
 
 
-def _record(s: Session, r: Run) -> QueuedRun:
-    shown = run_dict(s, r, with_replicates=False)
+def _record(s: Session, r: Run, reviews: list[Review] | None = None) -> QueuedRun:
+    shown = run_dict(s, r, with_replicates=False, reviews=reviews)
     return QueuedRun(**msgspec.structs.asdict(shown),
                      batch=r.batch.code)

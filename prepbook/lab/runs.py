@@ -21,6 +21,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from prepbook import clock
+from prepbook.chem import equilibria
 from prepbook.chem.uncertainty import BudgetLine
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import (
@@ -44,6 +45,7 @@ from prepbook.lab.common import (
     signed,
     work_time,
     write,
+    write_all,
 )
 from prepbook.lab.reviews import QueuedRun, review, runs_awaiting_review
 from prepbook.lab.run_conditions import (
@@ -240,9 +242,13 @@ def standardize(
     if reaction is not None and secondary:
         raise InvalidInput("--reaction goes with --lot: it names the standard's reaction")
 
+    from prepbook.lab import board
+
+    equilibria.load_solver()  # before the writer lock, not under it (``load_solver``)
     with db.session(write=record) as s:
         user = acting(s, actor, doing="standardize")
-        b = by_code(s, Batch, batch, "batch")
+        # The batch with what its state is computed from, in one query.
+        b = board.batch_of_code(s, batch) or by_code(s, Batch, batch, "batch")
         state = _batch_state(s, b, performed_at)
         if state in ("expired", "retired"):
             raise Refused(f"batch {b.code} is {state} and cannot be standardized")
@@ -295,12 +301,13 @@ def standardize(
         write(s, user.name, "run.record", run, performed_at=performed_at,
               reason=parse_text(late_reason, "reason", max_len=500))
         now = utc_now()
-        for pos, entry in enumerate(entries, start=1):
-            rep = Replicate(run_id=run.id, position=pos, version=1, amount_text=entry.amount.text,
-                            volume_ml_text=entry.volume.text, excluded=False, created_at=now,
-                            created_by=user.name)
-            write(s, user.name, "replicate.record", rep, performed_at=performed_at)
-            sources.record(s, user.name, run, rep, entry)
+        # The replicates in one insert and their events in one, then their sources.
+        reps = [Replicate(run_id=run.id, position=pos, version=1,
+                          amount_text=entry.amount.text, volume_ml_text=entry.volume.text,
+                          excluded=False, created_at=now, created_by=user.name)
+                for pos, entry in enumerate(entries, start=1)]
+        write_all(s, user.name, "replicate.record", reps, performed_at=performed_at)
+        sources.record(s, user.name, run, reps, entries)
         return _result(cond, e, run=code, status=run.status, notes=ref_notes)
 
 
@@ -341,6 +348,7 @@ def _revise(db: Database, *, actor: str, run: str, position: int, reason: str | 
         raise InvalidInput("--replicate counts from 1")
     signed(db, actor, passphrase, RECORDERS, f"{action} replicates",
            meaning=f"{action.rstrip('e')}ed a replicate", what=f"run {run} #{position}")
+    equilibria.load_solver()  # before the writer lock, not under it
     with db.session() as s:
         user = acting(s, actor, RECORDERS, f"{action} replicates")
         r = by_code(s, Run, run, "run")

@@ -11,7 +11,7 @@ from collections.abc import Mapping
 from decimal import Decimal
 from typing import Any
 
-from sqlalchemy import or_, select
+from sqlalchemy import Integer, String, cast, null, or_, select, union_all
 from sqlalchemy.orm import Session
 
 from prepbook.errors import Refused
@@ -24,32 +24,36 @@ def remaining_volumes(session: Session, batch_ids: Any,
     the volume made, less every recorded draw: uses (the assays' too), aliquots taken to
     make other batches, the titrant of its standardizations and the aliquots pipetted
     from it to standardize others (the latest version of each replicate). Exact decimal
-    arithmetic on the readings as entered; a fixed number of queries for any number of
-    batches. The one place the remaining volume is computed. ``made`` gives the volumes
-    made (id -> mL as typed) of batches the caller already holds, which are then not read
-    again."""
+    arithmetic on the readings as entered; one query for any number of batches (two
+    without ``made``). The one place the remaining volume is computed. ``made`` gives
+    the volumes made (id -> mL as typed) of batches the caller already holds, which are
+    then not read again."""
     if made is None:
         made = dict(session.execute(
             select(Batch.id, Batch.volume_ml_text).where(Batch.id.in_(batch_ids))).all())
     left: dict[int, Decimal] = {bid: Decimal(text) for bid, text in made.items()}
-    drawn: Any = session.execute(  # the NULLs are filtered out: every text is a volume
-        select(Use.batch_id, Use.volume_ml_text)
-        .where(Use.batch_id.in_(batch_ids), Use.volume_ml_text.is_not(None))
-        .union_all(select(Batch.parent_batch_id, Batch.aliquot_ml_text)
-                   .where(Batch.parent_batch_id.in_(batch_ids),
-                          Batch.aliquot_ml_text.is_not(None))))
-    for bid, text in drawn:  # uses, and aliquots taken to make other batches
-        left[bid] -= Decimal(text)
-    latest: dict[tuple[int, int], tuple[int, int | None, str, str]] = {}
-    # Ordered by version: the latest version of each replicate is the one kept.
-    for own, ref, run_id, pos, amount, volume in session.execute(
-            select(Run.batch_id, Run.reference_batch_id, Replicate.run_id, Replicate.position,
-                   Replicate.amount_text, Replicate.volume_ml_text)
-            .join(Run, Replicate.run_id == Run.id)
-            .where(or_(Run.batch_id.in_(batch_ids), Run.reference_batch_id.in_(batch_ids)))
-            .order_by(Replicate.run_id, Replicate.position, Replicate.version)):
-        latest[(run_id, pos)] = (own, ref, amount, volume)
-    for own, ref, amount, volume in latest.values():
+    # Every draw in one query (one round trip under the writer lock), a row each:
+    # (batch drawn from, reference batch, replicate run, position, version, amount,
+    # volume); uses and aliquots fill only the first column and the volume.
+    no_int, no_text = cast(null(), Integer), cast(null(), String)
+    drawn: Any = session.execute(union_all(  # the NULLs are filtered out: every text is a volume
+        select(Use.batch_id, no_int, no_int, no_int, no_int, no_text, Use.volume_ml_text)
+        .where(Use.batch_id.in_(batch_ids), Use.volume_ml_text.is_not(None)),
+        select(Batch.parent_batch_id, no_int, no_int, no_int, no_int, no_text,
+               Batch.aliquot_ml_text)
+        .where(Batch.parent_batch_id.in_(batch_ids), Batch.aliquot_ml_text.is_not(None)),
+        select(Run.batch_id, Run.reference_batch_id, Replicate.run_id, Replicate.position,
+               Replicate.version, Replicate.amount_text, Replicate.volume_ml_text)
+        .join(Run, Replicate.run_id == Run.id)
+        .where(or_(Run.batch_id.in_(batch_ids), Run.reference_batch_id.in_(batch_ids)))))
+    latest: dict[tuple[int, int], tuple[int, int, int | None, str, str]] = {}
+    for own, ref, run_id, pos, version, amount, volume in drawn:
+        if run_id is None:  # a use, or an aliquot taken to make another batch
+            left[own] -= Decimal(volume)
+        elif (run_id, pos) not in latest or version > latest[(run_id, pos)][0]:
+            latest[(run_id, pos)] = (version, own, ref, amount, volume)
+    # The latest version of each replicate is the one kept.
+    for _version, own, ref, amount, volume in latest.values():
         if own in left:
             left[own] -= Decimal(volume)
         if ref in left:

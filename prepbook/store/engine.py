@@ -12,11 +12,12 @@ query and compared with ``prepbook.store.revision.HEAD_REVISION``.
 
 from __future__ import annotations
 
+import gc
 import os
 import re
 import sqlite3
 from collections.abc import Iterator
-from contextlib import contextmanager, suppress
+from contextlib import contextmanager, nullcontext, suppress
 from pathlib import Path, PureWindowsPath
 from typing import Any
 from urllib.parse import quote
@@ -223,6 +224,21 @@ def _refuse_bulk_writes(state: ORMExecuteState) -> None:
         raise IntegrityError("bulk UPDATE bypasses the audit trail; update rows one by one")
 
 
+@contextmanager
+def _no_collection() -> Iterator[None]:
+    """Python's cyclic garbage collector paused for the block (a write transaction): a
+    full collection in a long-running process takes 100-200 ms, and every other bench
+    would wait that long for the writer lock. A write makes little garbage; it is
+    collected after the commit, as usual. Left as found when the caller had paused it."""
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
 # The advisory lock every PostgreSQL write transaction holds (any constant bigint;
 # this one spells "prepbook" in ASCII, truncated to 63 bits).
 WRITER_LOCK_KEY = int.from_bytes(b"prepbook", "big") & (2**63 - 1)
@@ -267,7 +283,8 @@ class Database:
             return
         factory = self._write if write else self._read
         try:
-            with factory() as session, session.begin():
+            with (_no_collection() if write else nullcontext()), factory() as session, \
+                    session.begin():
                 if write:
                     self.hold_writer_lock(session)
                 yield session

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import argparse
 import multiprocessing as mp
+import os
 import random
 import sys
 import time
@@ -58,6 +59,7 @@ class BenchLog:
     acked: dict[str, list[str]] = field(default_factory=dict)
     refused: int = 0
     crashed: str | None = None  # a bench that stopped on an unexpected error says so
+    cpu_s: float = 0.0  # processor time the bench process spent in the timed work
 
 
 def _readings(rng: random.Random) -> list[str]:
@@ -114,18 +116,24 @@ def bench(url: str, number: int, batch: str, seconds: float, review_share: float
     log = BenchLog(bench=number)
     me = technician(number)
     reviewer = REVIEWERS[number % len(REVIEWERS)]
-    # Warm up as a bench that has been open a while: modules imported, catalog read,
-    # a connection in the pool. Only then the clock starts.
+    # Warm up as a bench that has been open a while: modules imported (a computation
+    # previewed, not recorded: what it imports, scipy's solver among them, stays
+    # imported), catalog read, a connection in the pool. Only then the clock starts.
     from prepbook.catalog import loader
-    from prepbook.lab import reviews, runs  # noqa: F401
+    from prepbook.lab import reviews, runs
 
     loader.find_spec("NaOH-0.1N")
+    runs.standardize(db, actor=me, batch=batch, replicates=_readings(random.Random(0)),
+                     lot="LB-KHP-1", balance="LB-BAL", burette="LB-BUR", temperature="20",
+                     record=False)
     reviews.runs_awaiting_review(db)
     ready.wait()  # every bench warmed up: all start together, however long that took
+    began = time.process_time()
     try:
         _work(db, rng, log, me, reviewer, batch, time.time() + seconds, review_share)
     except Exception as exc:  # reported in the table, never hidden
         log.crashed = f"{type(exc).__name__}: {exc}"
+    log.cpu_s = time.process_time() - began
     out.put(log)
 
 
@@ -237,6 +245,11 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     if signed:
         line += (f"; reviews n={len(signed)} p50 {percentile(signed, 50) * 1000:.0f} ms, "
                  f"max {max(signed) * 1000:.0f} ms")
+    # On one machine the benches, the server and anything else running share the
+    # processors; in a lab each bench is its own computer.
+    cpu = sum(log.cpu_s for log in logs)
+    line += (f"; bench processes' processor time {cpu / max(writes, 1) * 1000:.1f} ms a write"
+             f" (load average {os.getloadavg()[0]:.1f})")
     refused = sum(log.refused for log in logs)
     print(line + (f"; refused {refused}" if refused else ""))
     for log in logs:

@@ -25,7 +25,7 @@ from prepbook.store.audit.checkpoints import (
 from prepbook.store.audit.checkpoints import make as make_checkpoint
 from prepbook.store.audit.reading import LogEntry, log
 from prepbook.store.audit.verifying import VerifyReport, verify
-from prepbook.store.audit.writing import record
+from prepbook.store.audit.writing import record, record_all
 
 __all__ = [
     "SIGNING_KEY_ENV",
@@ -46,6 +46,7 @@ __all__ = [
     "log",
     "read_key",
     "record",
+    "record_all",
     "utc_naive",
     "verify",
 ]

@@ -11,6 +11,7 @@ import functools
 import getpass
 import os
 import socket
+from collections.abc import Sequence
 from datetime import UTC, datetime
 
 from sqlalchemy import Connection, Table, bindparam, insert, select, true, update
@@ -150,39 +151,62 @@ def record(
     so events never interleave. A bench whose audit key is not the trail's, or whose
     clock reads before the last event, is refused (``Refused``) and writes nothing.
     """
+    return record_all(session, actor=actor, action=action, rows=[row], reason=reason,
+                      performed_at=performed_at)
+
+
+def record_all(
+    session: Session,
+    *,
+    actor: str,
+    action: str,
+    rows: Sequence[Base],
+    reason: str | None = None,
+    performed_at: datetime | None = None,
+) -> int:
+    """``record`` for several rows written by one action (the replicates of a run): an
+    event each, chained in the order given, sent in one statement, and the head moved
+    once; the seq of the last event."""
     if not actor or not actor.strip():
         raise InvalidInput("an audit event needs an actor")
     if not action or not action.strip():
         raise InvalidInput("an audit event needs an action")
-    table: Table = row.__table__  # type: ignore[attr-defined,assignment]
-    if table.name not in AUDITED_TABLES:
-        raise InvalidInput(f"{table.name} rows are not audited")
+    if not rows:
+        raise InvalidInput("an audit record needs a row")
+    tables: list[Table] = [row.__table__ for row in rows]  # type: ignore[attr-defined,misc]
+    for table in tables:
+        if table.name not in AUDITED_TABLES:
+            raise InvalidInput(f"{table.name} rows are not audited")
     key = read_key()
     scheme, digest = hasher(key)
     key_id = key_fingerprint(key)
 
-    if getattr(row, "id", None) is None:
+    if any(getattr(row, "id", None) is None for row in rows):
         session.flush()  # a new row gets its id
-    values = canonical_json(snapshot(row))
-    record_id = int(row.id)  # type: ignore[attr-defined]
 
     head_seq, head_hash, last_at = _locked_head(session, scheme, key_id)
-    seq = head_seq + 1
     at = datetime.now(UTC).replace(tzinfo=None)
     _check_clock(at, last_at)
     when = utc_naive(performed_at) if performed_at is not None else None
     os_login, host = writer()
-    hashed = payload(seq, iso(at), actor, action, table.name, record_id, values, reason,
-                     iso(when), head_hash, os_login, host, key_id)
-    new_hash = f"{scheme}:{digest(hashed)}"
+    events = []
+    for row, table in zip(rows, tables, strict=True):
+        values = canonical_json(snapshot(row))
+        record_id = int(row.id)  # type: ignore[attr-defined]
+        seq = head_seq + 1
+        hashed = payload(seq, iso(at), actor, action, table.name, record_id, values, reason,
+                         iso(when), head_hash, os_login, host, key_id)
+        new_hash = f"{scheme}:{digest(hashed)}"
+        events.append({
+            "seq": seq, "at": at, "actor": actor, "action": action, "record_type": table.name,
+            "record_id": record_id, "values": values, "reason": reason, "performed_at": when,
+            "prev_hash": head_hash, "hash": new_hash, "os_login": os_login, "host": host,
+            "key_id": key_id})
+        head_seq, head_hash = seq, new_hash
     # Two plain statements on the session's connection, in its transaction: the trail
     # is append-only and the head one row, so the unit of work has nothing to track.
     conn = session.connection()
-    conn.execute(_ADD_EVENT, {
-        "seq": seq, "at": at, "actor": actor, "action": action, "record_type": table.name,
-        "record_id": record_id, "values": values, "reason": reason, "performed_at": when,
-        "prev_hash": head_hash, "hash": new_hash, "os_login": os_login, "host": host,
-        "key_id": key_id})
-    conn.execute(_MOVE_HEAD, {"new_seq": seq, "new_hash": new_hash})
-    session.info[checkpoints.HEAD_KEY] = (session.get_transaction(), seq, new_hash, at)
-    return seq
+    conn.execute(_ADD_EVENT, events)
+    conn.execute(_MOVE_HEAD, {"new_seq": head_seq, "new_hash": head_hash})
+    session.info[checkpoints.HEAD_KEY] = (session.get_transaction(), head_seq, head_hash, at)
+    return head_seq
