@@ -140,7 +140,13 @@ class _History:
     def new_period(self, day: datetime) -> None:
         year = day.year if self.period_year is None else self.period_year + 1
         self.period_year = year
-        due = (day + timedelta(days=365)).date().isoformat()
+        # The history is entered today, all at once, and prepbook checks a lot's expiry
+        # and an instrument's calibration when a run is entered as well as when it was
+        # done (a backdated entry cannot bring an expired lot back into use). So the
+        # invented lots and calibrations stay valid through the day of entry; otherwise
+        # every run older than its lot's shelf life fails and is rejected.
+        entered = self.today + timedelta(days=30)
+        due = max(day + timedelta(days=365), entered).date().isoformat()
         for k in (1, 2):
             instruments.add_instrument(self.db, actor=_ADMIN, code=f"BAL-{k}/C{year}",
                                        kind="balance", due=due, capacity="220",
@@ -156,7 +162,7 @@ class _History:
         instruments.add_instrument(self.db, actor=_ADMIN, code=f"PIP-25-1/C{year}",
                                    kind="pipette", due=due, capacity="25", tolerance="0.03",
                                    readability=None)
-        expires = (day + timedelta(days=730)).date().isoformat()
+        expires = max(day + timedelta(days=730), entered).date().isoformat()
         for material in sorted({k.standard for k in self.kinds if k.standard}):
             purity = f"{self.rng.uniform(99.90, 99.99):.2f}"
             self.purity[f"SY-{material}-{year}"] = float(purity) / 100
