@@ -54,6 +54,11 @@ def median_wall(cmd: list[str], repeat: int, env: dict[str, str]) -> float:
     return statistics.median(times)
 
 
+# Invented passphrases of the one-batch database, long enough for the passphrase policy
+# and without their user's name in them.
+ADA, BEN = "quartz-ladle-5521", "copper-valve-8830"
+
+
 def one_batch_database(path: Path) -> str:
     """A database holding one batch, standardized and accepted, made through the services."""
     from prepbook.lab import batches, instruments, lots, people, runs, setup
@@ -61,10 +66,10 @@ def one_batch_database(path: Path) -> str:
 
     setup.initialize(str(path), actor="ada")
     db = open_database(str(path))
-    people.add_user(db, actor="ada", name="ada", role="admin", passphrase="bench-ada-1",
+    people.add_user(db, actor="ada", name="ada", role="admin", passphrase=ADA,
                     actor_passphrase=None)
-    people.add_user(db, actor="ada", name="ben", role="reviewer", passphrase="bench-ben-1",
-                    actor_passphrase="bench-ada-1")
+    people.add_user(db, actor="ada", name="ben", role="reviewer", passphrase=BEN,
+                    actor_passphrase=ADA)
     instruments.add_instrument(db, actor="ada", code="BAL-1", kind="balance", due="2099-01-01",
                                capacity="220", tolerance="0.0002", readability="0.0001")
     instruments.add_instrument(db, actor="ada", code="BUR-1", kind="burette", due="2099-01-01",
@@ -77,7 +82,7 @@ def one_batch_database(path: Path) -> str:
                            burette="BUR-1", replicates=["0.8123:39.80", "0.8201:40.15",
                                                         "0.8150:39.90"])
     runs.review(db, actor="ben", run=run.run, accept=True, reason=None,
-                passphrase="bench-ben-1")
+                passphrase=BEN)
     batches.use_batch(db, actor="ada", code=code, volume="20", purpose="bench")
     db.dispose()
     return code
