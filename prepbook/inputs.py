@@ -240,7 +240,7 @@ def parse_text(text: str | None, what: str, *, max_len: int = 2000) -> str | Non
         return None
     if len(text) > max_len:
         raise InvalidInput(f"{what} is longer than {max_len} characters")
-    if any(not (ch.isprintable() or ch in "\n\t") for ch in text):
+    if not text.isprintable() and any(not (ch.isprintable() or ch in "\n\t") for ch in text):
         raise InvalidInput(f"{what} contains control characters")
     return text
 

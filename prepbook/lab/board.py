@@ -297,7 +297,8 @@ def board_view(db: Database, today: date | None = None) -> Board:
         # history) are never read.
         shown = select(Batch.id).where(Batch.retired_at.is_(None))
         facts = _run_facts(s, shown)
-        left = remaining_volumes(s, shown)
+        left = remaining_volumes(s, [b.id for b, *_ in rows],
+                                 {b.id: b.volume_ml_text for b, *_ in rows})
         items = [
             _life(batch=b, spec=spec, runs=facts.get(b.id, []), batch_instruments=ins,
                   solute_lot=lot, today=today, lead_days=lead, remaining_ml=left.get(b.id),

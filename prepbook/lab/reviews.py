@@ -99,11 +99,16 @@ def to_sign(db: Database, *, actor: str, run: str, accept: bool,
     """What a reviewer is about to sign (the run, its result and checks), after every
     check that can refuse the review; nothing is written. Show it, then ask the
     passphrase and call ``review``."""
+    _check_reason(accept, reason)
+    with db.session(write=False) as s:
+        return _record(s, _review_precheck(s, actor, run, accept))
+
+
+def _check_reason(accept: bool, reason: str | None) -> str | None:
     reason = parse_text(reason, "reason", max_len=1000)
     if not accept and not (reason and reason.strip()):
         raise InvalidInput("a rejection needs a --reason")
-    with db.session(write=False) as s:
-        return _record(s, _review_precheck(s, actor, run, accept))
+    return reason
 
 
 @retry.on_conflict
@@ -123,11 +128,12 @@ def review(
     ``at`` records when the review was actually done (transcribing a paper
     sign-off); the audit event keeps the time it was entered as well.
     """
-    reason = parse_text(reason, "reason", max_len=1000)
+    reason = _check_reason(accept, reason)
     late_reason = parse_text(late_reason, "reason", max_len=500) or reason
     signed_at = work_time(db, at, "review time", reason=late_reason)
     # Every refusal comes before the signature (whose check is itself written down).
-    to_sign(db, actor=actor, run=run, accept=accept, reason=reason)
+    with db.session(write=False) as s:
+        _review_precheck(s, actor, run, accept)
     signed(db, actor, passphrase, REVIEWERS, "review standardizations", what=f"run {run}",
            meaning="reviewed and accepted" if accept else "reviewed and rejected")
     with db.session() as s:

@@ -4,8 +4,9 @@
 
 builds it into a new SQLite file at PATH and prints, as JSON, its counts, the build's
 wall and CPU time and the process's peak resident memory. ``cached(folder)`` builds it
-once per schema: the file is named after the Alembic head revision, so a change of
-schema builds a new one and an old file is simply never read again.
+once per schema and builder: the file is named after the Alembic head revision and the
+builder's edition (``BUILDER``), so a change of either builds a new one and an old file
+is simply never read again.
 
 The simulated lab works day by day (Monday to Friday) over the last N years and enters
 everything through the same public services, and the same write path, a bench uses:
@@ -42,13 +43,16 @@ if __name__ == "__main__":  # run as a script: the repository's own prepbook
 
 from prepbook.catalog import loader
 from prepbook.chem import formula
-from prepbook.lab import batches, history, instruments, lots, people, preparing, runs, setup
+from prepbook.lab import batches, history, instruments, lots, people, preparing, runs, settings, setup
 from prepbook.lab.database import Database, open_database
 from prepbook.lab.security import HashCost
 
 # Cheap Argon2 parameters for the invented users only; never for a real user.
 FIXTURE_COST = HashCost(time_cost=1, memory_kib=8, parallelism=1)
 _ADMIN = "edda"
+# The builder's edition, in the cached file's name with the schema's revision: a change
+# to what the simulated lab does (not only to the schema) builds a new history.
+BUILDER = 2
 # A decade written at once: every entry is a late one, and says so.
 HISTORY = "synthetic history, entered all at once"
 _TECHNICIANS = ("mara", "jonas", "lior", "keiko", "dmitri", "sanna", "tobi", "ruth")
@@ -96,8 +100,8 @@ _KINDS = (
               cadence_days=5, uses_per_day=1.6),
     _LineKind("H2SO4-0.1N", 1, "Na2CO3", 0.0, concentrate=True, cadence_days=14,
               uses_per_day=1.3),
-    _LineKind("AgNO3-0.1N", 2, "NaCl", -0.00002, cadence_days=4, uses_per_day=1.6),
-    _LineKind("EDTA-0.05M", 2, "Zn", -0.00001, cadence_days=4, uses_per_day=1.6),
+    _LineKind("AgNO3-0.1N", 2, "NaCl", -0.00002, cadence_days=3, uses_per_day=1.6),
+    _LineKind("EDTA-0.05M", 2, "Zn", -0.00001, cadence_days=3, uses_per_day=1.6),
 )
 
 
@@ -372,6 +376,11 @@ def build(path: Path, *, years: float = 10, scale: float = 1.0,
                 people.add_user(db, actor=_ADMIN, name=name, role=role,
                                 passphrase=_passphrase(name), hash_cost=FIXTURE_COST,
                                 actor_passphrase=None if name == _ADMIN else _passphrase(_ADMIN))
+            # The simulator's clock is UTC, and so are the times it types: the lab says
+            # so, as a lab sets its zone, so the history is the same on any machine.
+            settings.set_value(db, actor=_ADMIN, key="timezone", value="UTC",
+                               reason="the simulated lab keeps its clocks in UTC",
+                               passphrase=_passphrase(_ADMIN))
         sim = _History(db, years, scale, seed)
         day = sim.start.replace(hour=0)
         # Through yesterday: every event of a simulated day is then in the past.
@@ -396,7 +405,7 @@ def cached(folder: Path, *, years: float = 10,
     seconds, peak MB); built first, in a fresh process of this script, if not there."""
     from prepbook.store.migrate import HEAD_REVISION
 
-    path = folder / f"history-{years:g}y-{scale:g}x-{HEAD_REVISION}.db"
+    path = folder / f"history-{years:g}y-{scale:g}x-b{BUILDER}-{HEAD_REVISION}.db"
     stats = path.with_suffix(".json")
     if not (path.exists() and stats.exists()):
         folder.mkdir(parents=True, exist_ok=True)

@@ -49,16 +49,31 @@ def test_history_verifies_and_its_counts_agree(history: tuple[Path, dict[str, in
     # retirements, so nothing reached the database beside the services.
     writes = sum(_count(path, f"SELECT count(*) FROM {t}") for t in (  # noqa: S608
         "users", "materials", "specs", "lots", "instruments", "batches", "runs", "replicates",
-        "reviews", "uses", "replicate_sources"))
+        "reviews", "uses", "replicate_sources", "settings"))
     # Each signature is an event of its own: every review, retirement and user added by
-    # the admin (all but the first user) is signed.
+    # the admin (all but the first user) is signed, and the lab's time zone set once.
     users = _count(path, "SELECT count(*) FROM users")
     signed = _count(path, "SELECT count(*) FROM audit_events WHERE action = 'user.signed'")
-    assert signed == runs + res["retired"] + users - 1
+    assert signed == runs + res["retired"] + users - 1 + 1
     # and the suite logs in each user it adds (tests/conftest.py), at most once each
     logins = _count(path, "SELECT count(*) FROM audit_events WHERE action = 'user.login'")
     assert logins <= users
     assert report["events"] == writes + runs + res["retired"] + signed + logins
+
+
+def test_history_lab_keeps_utc(history: tuple[Path, dict[str, int]]) -> None:
+    # The simulator types its times in UTC; the lab says so, so the history is the same
+    # on a machine in any zone: a retirement typed at 08:00 is stored at 08:00 UTC.
+    path, _ = history
+    con = sqlite3.connect(path)
+    try:
+        zone = con.execute("SELECT value FROM settings WHERE key = 'timezone'").fetchall()
+        hours = {h for (h,) in con.execute(
+            "SELECT substr(retired_at, 12, 8) FROM batches WHERE retired_at IS NOT NULL")}
+    finally:
+        con.close()
+    assert zone == [("UTC",)]
+    assert hours == {"08:00:00"}
 
 
 def test_history_users_have_the_fixture_hash_cost(history: tuple[Path, dict[str, int]]) -> None:
@@ -119,7 +134,7 @@ def test_cached_history_is_built_once_per_schema(tmp_path: Path) -> None:
 
     folder = tmp_path / "cache"
     path, stats = synthetic.cached(folder, years=0.02, scale=0.1)
-    assert path.name == f"history-0.02y-0.1x-{HEAD_REVISION}.db"
+    assert path.name == f"history-0.02y-0.1x-b{synthetic.BUILDER}-{HEAD_REVISION}.db"
     assert stats["batches"] > 0 and stats["seconds"] > 0 and stats["peak_mb"] > 0
     assert _count(path, "SELECT count(*) FROM batches") == stats["batches"]
     built = path.stat().st_mtime_ns
