@@ -56,7 +56,7 @@ def _draws_statement() -> Any:
     the first column and the volume. Built once (the ids are a bound parameter): making
     this statement costs more than running it on a young batch. One round trip under the
     writer lock."""
-    ids = bindparam("ids", expanding=True)
+    ids: Any = bindparam("ids", expanding=True)
     no_int, no_text = cast(null(), Integer), cast(null(), String)
     return union_all(  # the NULLs are filtered out: every text is a volume
         select(Use.batch_id, no_int, no_int, no_int, no_int, no_text, Use.volume_ml_text)

@@ -43,7 +43,17 @@ if __name__ == "__main__":  # run as a script: the repository's own prepbook
 
 from prepbook.catalog import loader
 from prepbook.chem import formula
-from prepbook.lab import batches, history, instruments, lots, people, preparing, runs, settings, setup
+from prepbook.lab import (
+    batches,
+    history,
+    instruments,
+    lots,
+    people,
+    preparing,
+    runs,
+    settings,
+    setup,
+)
 from prepbook.lab.database import Database, open_database
 from prepbook.lab.security import HashCost
 
