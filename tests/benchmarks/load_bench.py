@@ -11,9 +11,11 @@ it can with a bench's mix of work: uses of its own batch (most), standardization
 new batches and, at the given share, a signed review (Argon2 passphrase check at the
 default cost) of a run another person recorded. It prints, per configuration, the
 throughput of acknowledged writes and p50/p95/p99/max of the plain writes (everything
-but reviews) and of the reviews, beside the figures measured before this work. Then it
-checks that every write a bench was told had succeeded is in the database and that
-`audit verify` passes. Not part of the test suite.
+but reviews) and of the reviews, and how long a write holds the lab-wide writer lock
+(from the lock granted to the commit done: writes/s can never pass one over its mean),
+beside the figures measured before this work. Then it checks that every write a bench
+was told had succeeded is in the database and that `audit verify` passes. Not part of
+the test suite.
 """
 
 from __future__ import annotations
@@ -60,6 +62,29 @@ class BenchLog:
     refused: int = 0
     crashed: str | None = None  # a bench that stopped on an unexpected error says so
     cpu_s: float = 0.0  # processor time the bench process spent in the timed work
+    held: list[float] = field(default_factory=list)  # seconds from lock granted to commit
+
+
+def watch_the_lock(db: Any, held: list[float]) -> None:
+    """Note in ``held`` how long each write transaction of ``db`` holds the writer lock:
+    from the advisory lock granted (its statement returned) to the commit (or rollback)
+    done, when PostgreSQL releases it. A bench process has this one database."""
+    from sqlalchemy import event
+    from sqlalchemy.orm import Session
+
+    granted: list[float] = []
+
+    def after(_conn: Any, _cursor: Any, statement: str, *_args: Any) -> None:
+        if "pg_advisory_xact_lock" in statement:
+            granted[:] = [time.perf_counter()]
+
+    def ended(_session: Any, *_args: Any) -> None:
+        if granted:
+            held.append(time.perf_counter() - granted.pop())
+
+    event.listen(db.engine, "after_cursor_execute", after)
+    event.listen(Session, "after_commit", ended)
+    event.listen(Session, "after_rollback", ended)
 
 
 def _readings(rng: random.Random) -> list[str]:
@@ -128,6 +153,7 @@ def bench(url: str, number: int, batch: str, seconds: float, review_share: float
                      record=False)
     reviews.runs_awaiting_review(db)
     ready.wait()  # every bench warmed up: all start together, however long that took
+    watch_the_lock(db, log.held)
     began = time.process_time()
     try:
         _work(db, rng, log, me, reviewer, batch, time.time() + seconds, review_share)
@@ -250,6 +276,12 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     cpu = sum(log.cpu_s for log in logs)
     line += (f"; bench processes' processor time {cpu / max(writes, 1) * 1000:.1f} ms a write"
              f" (load average {os.getloadavg()[0]:.1f})")
+    held = [t for log in logs for t in log.held]
+    if held:
+        # The lock is lab-wide: writes/s can never pass 1 / (mean time held).
+        line += (f"; writer lock held p50 {percentile(held, 50) * 1000:.1f} ms, "
+                 f"mean {sum(held) / len(held) * 1000:.1f}, p99 {percentile(held, 99) * 1000:.1f},"
+                 f" max {max(held) * 1000:.0f} ms")
     refused = sum(log.refused for log in logs)
     print(line + (f"; refused {refused}" if refused else ""))
     for log in logs:
