@@ -371,11 +371,15 @@ def use_batch(db: Database, *, actor: str, code: str, volume: str | None = None,
                            "its impact can be traced")
     late_reason = parse_text(late_reason, "reason", max_len=500)
     used_at = work_time(db, at, "time of use", reason=late_reason)
-    with db.session() as s:
+    # A use changes nothing but its batch's draws: uses of different batches are
+    # written side by side on PostgreSQL (``Database.hold_writer_lock``); every other
+    # write, a retirement or a standardization of this batch say, waits for them.
+    with db.session(shared=True) as s:
         user = acting(s, actor, doing="use batches")
         # The batch and what its life needs in one query (``by_code`` names close codes
         # when there is none).
         b = board.batch_of_code(s, code) or by_code(s, Batch, code, "batch")
+        db.hold_batch_lock(s, b.id)  # the volume left is read after the last use commits
         life_row = board.batch_life(s, b, used_at.date())
         if life_row.state != "in-service":
             raise Refused(f"batch {b.code} is {life_row.state} and may not be used")

@@ -209,7 +209,8 @@ def live(db: Database, *, name: str, token: str, os_login: str, host: str) -> Se
     """The live session ``token`` holds for ``name`` here, its idle clock restarted; or
     Refused saying how to log in. Refused, it writes nothing."""
     hint = f"run `prepbook login {name}`"
-    with db.session() as s:
+    # It writes only this session's idle clock: beside uses, not beside other writes.
+    with db.session(shared=True) as s:
         found = _session_of(s, name, token)
         if found is None or not _login_recorded(s, found[0]):
             raise Refused(f"the session of {name} here is not one this database opened; {hint}")

@@ -242,6 +242,9 @@ def _no_collection() -> Iterator[None]:
 # The advisory lock every PostgreSQL write transaction holds (any constant bigint;
 # this one spells "prepbook" in ASCII, truncated to 63 bits).
 WRITER_LOCK_KEY = int.from_bytes(b"prepbook", "big") & (2**63 - 1)
+# The first key of a batch's own lock (two 32-bit keys: the second is the batch id,
+# wrapped into 31 bits; two batches sharing a lock only wait for each other).
+BATCH_LOCK_SPACE = int.from_bytes(b"pbBt", "big") & (2**31 - 1)
 
 
 class Database:
@@ -267,12 +270,16 @@ class Database:
         return self.engine.dialect.name == "sqlite"
 
     @contextmanager
-    def session(self, *, write: bool = True) -> Iterator[Session]:
+    def session(self, *, write: bool = True, shared: bool = False) -> Iterator[Session]:
         """One transaction: committed when the block ends, rolled back on any exception.
 
         ``write=False`` starts a deferred transaction on SQLite, for reads that must
         not queue behind a writer; it is still rolled back on error. Inside
-        ``one_transaction`` it is that block's transaction instead.
+        ``one_transaction`` it is that block's transaction instead. ``shared``: the
+        writer lock taken in shared mode (``hold_writer_lock``), by a write that changes
+        nothing another shared write reads, except under a lock of its own, and the
+        trail: a use (its batch's draws, read after ``hold_batch_lock``), a login
+        session's idle clock (its own row, which PostgreSQL locks as it is updated).
         """
         if self._shared is not None:
             try:
@@ -286,7 +293,7 @@ class Database:
             with (_no_collection() if write else nullcontext()), factory() as session, \
                     session.begin():
                 if write:
-                    self.hold_writer_lock(session)
+                    self.hold_writer_lock(session, shared=shared)
                 yield session
         except StaleDataError as exc:  # a trigger swallowed a write: one line, not a trace
             raise IntegrityError("the database did not store a change prepbook wrote (a "
@@ -325,7 +332,7 @@ class Database:
             finally:
                 self._shared = None
 
-    def hold_writer_lock(self, session: Session) -> None:
+    def hold_writer_lock(self, session: Session, *, shared: bool = False) -> None:
         """Make ``session``'s transaction the only writer until it ends.
 
         SQLite: BEGIN IMMEDIATE (set on connect) already does this. PostgreSQL: a
@@ -333,9 +340,29 @@ class Database:
         code, the duplicate checks and the audit head are all read after the previous
         writer has committed (READ COMMITTED sees each statement's latest commits).
         PostgreSQL releases it itself at commit or rollback, crash included.
+
+        ``shared`` (PostgreSQL; SQLite has one writer at a time whatever is asked): the
+        lock is taken in shared mode, by writes that change nothing another shared write
+        reads except under a lock of their own (uses, each under its batch's lock; a
+        login session's idle clock). They run beside one another, never beside any other
+        write, which takes it exclusively and waits for them (PostgreSQL also queues a
+        new shared request behind a waiting exclusive one, so those are not starved).
+        Two uses of the same batch are kept apart by ``hold_batch_lock``, and the audit
+        events of shared writes by the head row, which the first event of a transaction
+        locks (FOR UPDATE) until it commits.
         """
         if self.engine.dialect.name == "postgresql":
-            session.execute(text("SELECT pg_advisory_xact_lock(:key)"), {"key": WRITER_LOCK_KEY})
+            take = "pg_advisory_xact_lock_shared" if shared else "pg_advisory_xact_lock"
+            session.execute(text(f"SELECT {take}(:key)"), {"key": WRITER_LOCK_KEY})
+
+    def hold_batch_lock(self, session: Session, batch_id: int) -> None:
+        """Hold one batch's own lock until the transaction ends (PostgreSQL; a no-op on
+        SQLite), for a ``shared`` write of one batch's draws: another of the same batch waits,
+        so each reads what is left after the one before it has committed. The two-key
+        form of the advisory lock: its own space, apart from the writer lock's key."""
+        if self.engine.dialect.name == "postgresql":
+            session.execute(text("SELECT pg_advisory_xact_lock(:space, :id)"),
+                            {"space": BATCH_LOCK_SPACE, "id": batch_id & 0x7FFFFFFF})
 
     def dispose(self) -> None:
         """Close pooled connections (lets a test or a backup see a quiet file)."""

@@ -12,7 +12,8 @@ new batches and, at the given share, a signed review (Argon2 passphrase check at
 default cost) of a run another person recorded. It prints, per configuration, the
 throughput of acknowledged writes and p50/p95/p99/max of the plain writes (everything
 but reviews) and of the reviews, and how long a write holds the lab-wide writer lock
-(from the lock granted to the commit done: writes/s can never pass one over its mean),
+(from the lock granted to the commit done), exclusively (writes/s of those can never
+pass one over its mean) and shared (uses, which overlap),
 beside the figures measured before this work. Then it checks that every write a bench
 was told had succeeded is in the database and that `audit verify` passes. Not part of
 the test suite.
@@ -62,25 +63,28 @@ class BenchLog:
     refused: int = 0
     crashed: str | None = None  # a bench that stopped on an unexpected error says so
     cpu_s: float = 0.0  # processor time the bench process spent in the timed work
-    held: list[float] = field(default_factory=list)  # seconds from lock granted to commit
+    # (shared, seconds) of each write: the writer lock from granted to commit done
+    held: list[tuple[bool, float]] = field(default_factory=list)
 
 
-def watch_the_lock(db: Any, held: list[float]) -> None:
-    """Note in ``held`` how long each write transaction of ``db`` holds the writer lock:
-    from the advisory lock granted (its statement returned) to the commit (or rollback)
-    done, when PostgreSQL releases it. A bench process has this one database."""
+def watch_the_lock(db: Any, held: list[tuple[bool, float]]) -> None:
+    """Note in ``held`` how long each write transaction of ``db`` holds the writer lock,
+    and whether in shared mode (a use): from the advisory lock granted (its statement
+    returned) to the commit (or rollback) done, when PostgreSQL releases it. A bench
+    process has this one database."""
     from sqlalchemy import event
     from sqlalchemy.orm import Session
 
-    granted: list[float] = []
+    granted: list[tuple[bool, float]] = []
 
     def after(_conn: Any, _cursor: Any, statement: str, *_args: Any) -> None:
-        if "pg_advisory_xact_lock" in statement:
-            granted[:] = [time.perf_counter()]
+        if "pg_advisory_xact_lock" in statement and not granted:
+            granted.append(("_shared" in statement, time.perf_counter()))
 
     def ended(_session: Any, *_args: Any) -> None:
         if granted:
-            held.append(time.perf_counter() - granted.pop())
+            shared, began = granted.pop()
+            held.append((shared, time.perf_counter() - began))
 
     event.listen(db.engine, "after_cursor_execute", after)
     event.listen(Session, "after_commit", ended)
@@ -276,12 +280,16 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     cpu = sum(log.cpu_s for log in logs)
     line += (f"; bench processes' processor time {cpu / max(writes, 1) * 1000:.1f} ms a write"
              f" (load average {os.getloadavg()[0]:.1f})")
-    held = [t for log in logs for t in log.held]
-    if held:
-        # The lock is lab-wide: writes/s can never pass 1 / (mean time held).
-        line += (f"; writer lock held p50 {percentile(held, 50) * 1000:.1f} ms, "
-                 f"mean {sum(held) / len(held) * 1000:.1f}, p99 {percentile(held, 99) * 1000:.1f},"
-                 f" max {max(held) * 1000:.0f} ms")
+    for shared, name in ((False, "exclusive"), (True, "shared")):
+        held = [t for log in logs for mode, t in log.held if mode is shared]
+        if held:
+            # Held exclusively, the lab waits: those writes/s can never pass 1 / mean.
+            # Shared holds overlap (uses of different batches), waits for their batch
+            # and the audit head included.
+            line += (f"; writer lock held {name} n={len(held)} p50 "
+                     f"{percentile(held, 50) * 1000:.1f} ms, mean "
+                     f"{sum(held) / len(held) * 1000:.1f}, p99 "
+                     f"{percentile(held, 99) * 1000:.1f}, max {max(held) * 1000:.0f} ms")
     refused = sum(log.refused for log in logs)
     print(line + (f"; refused {refused}" if refused else ""))
     for log in logs:
