@@ -76,7 +76,8 @@ def _titrant_ml(reps: list[str]) -> float:
     return sum(float(r.split(":")[1]) for r in reps)
 
 
-def _passphrase(name: str) -> str:
+def passphrase(name: str) -> str:
+    """An invented user's passphrase (public: the history is a benchmark's fixture)."""
     return f"synthetic-{'-'.join(name)}"  # never containing the name (the policy)
 
 
@@ -313,7 +314,7 @@ class _History:
                 c.message for c in out.checks if not c.passed
                 and c.severity == "fail")[:900] or "failed its checks"
             runs.review(self.db, actor=reviewer, run=str(out.run), accept=accept,
-                        reason=reason, passphrase=_passphrase(reviewer),
+                        reason=reason, passphrase=passphrase(reviewer),
                         at=(at + timedelta(minutes=30)).isoformat(timespec="minutes"),
                         late_reason=HISTORY)
             if accept:
@@ -324,7 +325,7 @@ class _History:
     def retire(self, bottle: _Bottle, day: datetime, why: str) -> None:
         who = self.rng.choice(_TECHNICIANS)
         history.retire(self.db, actor=who, code=bottle.code, reason=why,
-                       passphrase=_passphrase(who),
+                       passphrase=passphrase(who),
                        at=day.replace(hour=8, minute=0).isoformat(timespec="minutes"))
         self.counts["retired"] += 1
 
@@ -384,13 +385,13 @@ def build(path: Path, *, years: float = 10, scale: float = 1.0,
             for name, role in [(_ADMIN, "admin"), *((t, "technician") for t in _TECHNICIANS),
                                *((r, "reviewer") for r in _REVIEWERS)]:
                 people.add_user(db, actor=_ADMIN, name=name, role=role,
-                                passphrase=_passphrase(name), hash_cost=FIXTURE_COST,
-                                actor_passphrase=None if name == _ADMIN else _passphrase(_ADMIN))
+                                passphrase=passphrase(name), hash_cost=FIXTURE_COST,
+                                actor_passphrase=None if name == _ADMIN else passphrase(_ADMIN))
             # The simulator's clock is UTC, and so are the times it types: the lab says
             # so, as a lab sets its zone, so the history is the same on any machine.
             settings.set_value(db, actor=_ADMIN, key="timezone", value="UTC",
                                reason="the simulated lab keeps its clocks in UTC",
-                               passphrase=_passphrase(_ADMIN))
+                               passphrase=passphrase(_ADMIN))
         sim = _History(db, years, scale, seed)
         day = sim.start.replace(hour=0)
         # Through yesterday: every event of a simulated day is then in the past.

@@ -57,7 +57,8 @@ def _text(widget: Any) -> str:
     return out.getvalue()
 
 
-async def measure(db_path: Path, user: str) -> dict[str, float]:
+async def measure(db_path: Path, user: str, passphrase: str) -> dict[str, float]:
+    from prepbook.lab import sessions
     from prepbook.store.engine import open_database
     from prepbook.tui.app import PrepbookApp
     from prepbook.tui.screens.audit import AuditScreen
@@ -66,8 +67,13 @@ async def measure(db_path: Path, user: str) -> dict[str, float]:
     from prepbook.tui.screens.record import RecordScreen
 
     figures: dict[str, float] = {}
+    # Signed in before the clock starts, as after the sign-in screen (the app asks for
+    # it; without it every screen would wait behind that one).
+    db = open_database(str(db_path))
+    os_login, host = sessions.os_account()
+    opened = sessions.login(db, name=user, passphrase=passphrase, os_login=os_login, host=host)
     started = time.perf_counter()
-    app = PrepbookApp(open_database(str(db_path)), user=user, poll_seconds=0)
+    app = PrepbookApp(db, user=user, session=opened, poll_seconds=0)
     async with app.run_test(size=SIZE) as pilot:
         board = None
         while board is None or not board.query_one("#board").row_count:
@@ -152,14 +158,18 @@ def main() -> None:
     parser.add_argument("--cache", type=Path, default=Path(".bench-cache"))
     parser.add_argument("--years", type=float, default=10)
     parser.add_argument("--user", default=None)
+    parser.add_argument("--passphrase", default=None,
+                        help="the user's (default: the synthetic history's, or the demo's ines)")
     args = parser.parse_args()
     if args.db is None:
         from tests.benchmarks import synthetic
 
         source, _ = synthetic.cached(args.cache, years=args.years)
         user = args.user or "edda"
+        passphrase = args.passphrase or synthetic.passphrase(user)
     else:
         source, user = args.db, args.user or "ines"
+        passphrase = args.passphrase or "burette-zero-4417"  # the demo lab's (demo_lab/)
     work = Path(tempfile.mkdtemp(prefix="prepbook-tui-bench-"))
     copy = work / "copy.db"
     src, dst = sqlite3.connect(source), sqlite3.connect(copy)
@@ -169,7 +179,7 @@ def main() -> None:
         src.close()
         dst.close()
     try:
-        figures = asyncio.run(measure(copy, user))
+        figures = asyncio.run(measure(copy, user, passphrase))
     finally:
         shutil.rmtree(work, ignore_errors=True)
     print(f"terminal app on {source}")
