@@ -98,20 +98,37 @@ def _batch_id(db: Any, code: str) -> int:
                    .scalar_one())
 
 
+def _goes_beside(url: str, in_flight: tuple[tuple[str, dict[str, int]], ...],
+                work: Callable[[], Any], what: str) -> None:
+    """``work`` completes while another bench's write holds ``in_flight``."""
+    with _write_in_flight(url, *in_flight):
+        beside = _Started(work)
+        assert beside.finished(30), f"{what} waited for the write in flight"
+        assert beside.error is None, beside.error
+
+
+def _waits_behind(url: str, in_flight: tuple[tuple[str, dict[str, int]], ...],
+                  work: Callable[[], Any], what: str) -> None:
+    """``work`` waits while another bench's write holds ``in_flight``, then completes."""
+    with _write_in_flight(url, *in_flight):
+        behind = _Started(work)
+        assert not behind.finished(WAIT_S), f"{what} did not wait for the write in flight"
+    assert behind.finished(30) and behind.error is None, behind.error
+
+
+def _use(db: Any, code: str) -> Callable[[], Any]:
+    return lambda: batches.use_batch(db, actor="ben", code=code, volume="5",
+                                     purpose="alkalinity")
+
+
 def test_a_use_of_another_batch_is_written_while_one_is_in_flight(
         bench: Cli) -> None:  # noqa: F811
     first, second = _in_service(bench), _in_service(bench)
     db = open_database(str(bench.db))
     try:
-        with _write_in_flight(str(bench.db), *_a_use_of(_batch_id(db, first))):
-            other = _Started(lambda: batches.use_batch(db, actor="ben", code=second,
-                                                       volume="5", purpose="alkalinity"))
-            assert other.finished(30), "a use of another batch waited for the one in flight"
-            assert other.error is None, other.error
-            same = _Started(lambda: batches.use_batch(db, actor="ben", code=first,
-                                                      volume="5", purpose="acidity"))
-            assert not same.finished(WAIT_S), "a use of the same batch did not wait"
-        assert same.finished(30) and same.error is None, same.error
+        url, use_of_first = str(bench.db), _a_use_of(_batch_id(db, first))
+        _goes_beside(url, use_of_first, _use(db, second), "a use of another batch")
+        _waits_behind(url, use_of_first, _use(db, first), "a use of the same batch")
         assert auditing.verify(db).ok
     finally:
         db.dispose()
@@ -122,16 +139,11 @@ def test_any_other_write_waits_for_a_use_in_flight_and_a_use_for_it(
     batch, spare = _in_service(bench), _in_service(bench)
     db = open_database(str(bench.db))
     try:
-        with _write_in_flight(str(bench.db), *_a_use_of(_batch_id(db, batch))):
-            retiring = _Started(lambda: history.retire(
-                db, actor="ben", code=spare, reason="used up", passphrase="ben-passphrase"))
-            assert not retiring.finished(WAIT_S), "a retirement did not wait for a use"
-        assert retiring.finished(30) and retiring.error is None, retiring.error
-        with _write_in_flight(str(bench.db), *ANOTHER_WRITE):
-            using = _Started(lambda: batches.use_batch(db, actor="ben", code=batch,
-                                                       volume="5", purpose="alkalinity"))
-            assert not using.finished(WAIT_S), "a use did not wait for another kind of write"
-        assert using.finished(30) and using.error is None, using.error
+        url = str(bench.db)
+        _waits_behind(url, _a_use_of(_batch_id(db, batch)), lambda: history.retire(
+            db, actor="ben", code=spare, reason="used up", passphrase="ben-passphrase"),
+            "a retirement")
+        _waits_behind(url, ANOTHER_WRITE, _use(db, batch), "a use")
         assert auditing.verify(db).ok
     finally:
         db.dispose()
@@ -185,13 +197,8 @@ def test_a_live_session_is_checked_beside_a_use_in_flight(bench: Cli) -> None:  
             return sessions.live(db, name="ben", token=opened.token, os_login="ben-os",
                                  host="bench-3")
 
-        with _write_in_flight(str(bench.db), *_a_use_of(_batch_id(db, batch))):
-            beside = _Started(check)
-            assert beside.finished(30), "the session check waited for a use"
-            assert beside.error is None, beside.error
-        with _write_in_flight(str(bench.db), *ANOTHER_WRITE):
-            behind = _Started(check)
-            assert not behind.finished(WAIT_S), "the session check did not wait for a write"
-        assert behind.finished(30) and behind.error is None, behind.error
+        url = str(bench.db)
+        _goes_beside(url, _a_use_of(_batch_id(db, batch)), check, "the session check")
+        _waits_behind(url, ANOTHER_WRITE, check, "the session check")
     finally:
         db.dispose()
