@@ -39,6 +39,16 @@ pytestmark = pytest.mark.skipif(not on_postgres(),
 WAIT_S = 1.0  # how long a write must stay blocked to count as waiting
 
 
+@pytest.fixture
+def db(bench: Cli) -> Iterator[Any]:  # noqa: F811
+    """The lab of ``bench`` opened for the services, closed after the test."""
+    opened = open_database(str(bench.db))
+    try:
+        yield opened
+    finally:
+        opened.dispose()
+
+
 def _in_service(cli: Cli) -> str:
     batch = _make_batch(cli)
     run = _standardize(cli, batch)["run"]
@@ -122,83 +132,68 @@ def _use(db: Any, code: str) -> Callable[[], Any]:
 
 
 def test_a_use_of_another_batch_is_written_while_one_is_in_flight(
-        bench: Cli) -> None:  # noqa: F811
+        bench: Cli, db: Any) -> None:  # noqa: F811
     first, second = _in_service(bench), _in_service(bench)
-    db = open_database(str(bench.db))
-    try:
-        url, use_of_first = str(bench.db), _a_use_of(_batch_id(db, first))
-        _goes_beside(url, use_of_first, _use(db, second), "a use of another batch")
-        _waits_behind(url, use_of_first, _use(db, first), "a use of the same batch")
-        assert auditing.verify(db).ok
-    finally:
-        db.dispose()
+    url, use_of_first = str(bench.db), _a_use_of(_batch_id(db, first))
+    _goes_beside(url, use_of_first, _use(db, second), "a use of another batch")
+    _waits_behind(url, use_of_first, _use(db, first), "a use of the same batch")
+    assert auditing.verify(db).ok
 
 
 def test_any_other_write_waits_for_a_use_in_flight_and_a_use_for_it(
-        bench: Cli) -> None:  # noqa: F811
+        bench: Cli, db: Any) -> None:  # noqa: F811
     batch, spare = _in_service(bench), _in_service(bench)
-    db = open_database(str(bench.db))
-    try:
-        url = str(bench.db)
-        _waits_behind(url, _a_use_of(_batch_id(db, batch)), lambda: history.retire(
-            db, actor="ben", code=spare, reason="used up", passphrase="ben-passphrase"),
-            "a retirement")
-        _waits_behind(url, ANOTHER_WRITE, _use(db, batch), "a use")
-        assert auditing.verify(db).ok
-    finally:
-        db.dispose()
+    url = str(bench.db)
+    _waits_behind(url, _a_use_of(_batch_id(db, batch)), lambda: history.retire(
+        db, actor="ben", code=spare, reason="used up", passphrase="ben-passphrase"),
+        "a retirement")
+    _waits_behind(url, ANOTHER_WRITE, _use(db, batch), "a use")
+    assert auditing.verify(db).ok
 
 
 def test_benches_drawing_one_batch_at_once_never_overdraw_it(
-        bench: Cli) -> None:  # noqa: F811
+        bench: Cli, db: Any) -> None:  # noqa: F811
     batch, other = _in_service(bench), _in_service(bench)
-    db = open_database(str(bench.db))
-    try:
-        left = Decimal(str(bench.json("batch", "show", batch)["remaining_ml"]))
-        # Twelve benches at once, each drawing a little more than a tenth of what is left
-        # (and four others using a second batch meanwhile): nine fit, three are refused.
-        draw = (left / 10).quantize(Decimal("0.01"), rounding="ROUND_UP") + Decimal("0.01")
-        go = threading.Barrier(16)
+    left = Decimal(str(bench.json("batch", "show", batch)["remaining_ml"]))
+    # Twelve benches at once, each drawing a little more than a tenth of what is left
+    # (and four others using a second batch meanwhile): nine fit, three are refused.
+    draw = (left / 10).quantize(Decimal("0.01"), rounding="ROUND_UP") + Decimal("0.01")
+    go = threading.Barrier(16)
 
-        def use(code: str, ml: Decimal) -> Callable[[], Any]:
-            def work() -> Any:
-                go.wait(30)
-                return batches.use_batch(db, actor="ben", code=code, volume=f"{ml:f}",
-                                         purpose="assay")
-            return work
+    def use(code: str, ml: Decimal) -> Callable[[], Any]:
+        def work() -> Any:
+            go.wait(30)
+            return batches.use_batch(db, actor="ben", code=code, volume=f"{ml:f}",
+                                     purpose="assay")
+        return work
 
-        started = ([_Started(use(batch, draw)) for _ in range(12)]
-                   + [_Started(use(other, Decimal(5))) for _ in range(4)])
-        assert all(s.finished(120) for s in started)
-        mine = started[:12]
-        refused = [s for s in mine if isinstance(s.error, Refused)]
-        assert all(s.error is None or isinstance(s.error, Refused) for s in started), \
-            [s.error for s in started]
-        assert len(mine) - len(refused) == 9
-        assert all("more than remains" in str(s.error) for s in refused)
-        now_left = Decimal(str(bench.json("batch", "show", batch)["remaining_ml"]))
-        assert now_left == left - 9 * draw >= 0
-        report = auditing.verify(db)
-        assert report.ok, report.problems
-    finally:
-        db.dispose()
+    started = ([_Started(use(batch, draw)) for _ in range(12)]
+               + [_Started(use(other, Decimal(5))) for _ in range(4)])
+    assert all(s.finished(120) for s in started)
+    mine = started[:12]
+    refused = [s for s in mine if isinstance(s.error, Refused)]
+    assert all(s.error is None or isinstance(s.error, Refused) for s in started), \
+        [s.error for s in started]
+    assert len(mine) - len(refused) == 9
+    assert all("more than remains" in str(s.error) for s in refused)
+    now_left = Decimal(str(bench.json("batch", "show", batch)["remaining_ml"]))
+    assert now_left == left - 9 * draw >= 0
+    report = auditing.verify(db)
+    assert report.ok, report.problems
 
 
-def test_a_live_session_is_checked_beside_a_use_in_flight(bench: Cli) -> None:  # noqa: F811
+def test_a_live_session_is_checked_beside_a_use_in_flight(
+        bench: Cli, db: Any) -> None:  # noqa: F811
     # The check before each command's write moves only its session's idle clock: it
     # need not wait for uses (it would wait for any other kind of write).
     batch = _in_service(bench)
-    db = open_database(str(bench.db))
-    try:
-        opened = sessions.login(db, name="ben", passphrase="ben-passphrase",
-                                os_login="ben-os", host="bench-3")
+    opened = sessions.login(db, name="ben", passphrase="ben-passphrase",
+                            os_login="ben-os", host="bench-3")
 
-        def check() -> Any:
-            return sessions.live(db, name="ben", token=opened.token, os_login="ben-os",
-                                 host="bench-3")
+    def check() -> Any:
+        return sessions.live(db, name="ben", token=opened.token, os_login="ben-os",
+                             host="bench-3")
 
-        url = str(bench.db)
-        _goes_beside(url, _a_use_of(_batch_id(db, batch)), check, "the session check")
-        _waits_behind(url, ANOTHER_WRITE, check, "the session check")
-    finally:
-        db.dispose()
+    url = str(bench.db)
+    _goes_beside(url, _a_use_of(_batch_id(db, batch)), check, "the session check")
+    _waits_behind(url, ANOTHER_WRITE, check, "the session check")
