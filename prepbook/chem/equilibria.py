@@ -15,21 +15,24 @@ where ``nbar`` is the mean number of protons bound per site, ``C`` the formula u
 of the dissolved form per litre, ``C_sites = C * units_per_formula``, and C_base /
 C_acid the strong base / strong acid added (mol/L in the mixture). The left side
 rises monotonically with [H+], so there is exactly one root; it is bracketed on
-log10[H+] and found with ``scipy.optimize.brentq``.
+log10[H+] and found by bisection (``_bisect``).
 
 Simplifications, stated so nobody mistakes the result for more than it is:
 concentrations stand for activities (no activity coefficients, no ionic-strength
 correction); the temperature is 25 C (pKw = 14.00); the vessel is closed (no CO2
 lost from a carbonate titration, none absorbed from air).
 
-Pure computation: scipy is imported inside the functions that need it so that the
-command line stays quick to start.
+Pure computation, standard library only. The root finder is bisection, not
+``scipy.optimize``: importing scipy's optimizers takes 0.3-1 s, longer than a command's
+whole computation, and a single root of a monotone function on a known bracket is the
+textbook case where bisection is enough (``_bisect``). The tests check it against
+``scipy.optimize.brentq``.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 from prepbook.errors import InvalidInput
@@ -149,11 +152,23 @@ def solution_ph(
     return _solve_ph(values, c * units, c * p0 - base + acid, float(pkw))
 
 
-def load_solver() -> None:
-    """Import the root finder (scipy.optimize) now: the first import in a process takes
-    0.3-1 s, which a service does before it takes the lab's writer lock rather than in
-    the middle of a computation under it."""
-    import scipy.optimize  # noqa: F401
+def _bisect(f: Callable[[float], float], low: float, high: float, xtol: float) -> float:
+    """The root of an increasing ``f`` with ``f(low) < 0 < f(high)``, to within ``xtol``.
+
+    Bisection: halve the bracket, keep the half whose ends differ in sign, stop when it
+    is narrower than ``xtol``; the midpoint is then within ``xtol / 2`` of the root. The
+    method and its bound are in R. L. Burden and J. D. Faires, *Numerical Analysis*,
+    section 2.1 (Theorem 2.1: after n halvings the error is at most (b - a) / 2^n).
+    From the bracket -20..4 to 1e-12 that is 45 halvings."""
+    while high - low > xtol:
+        mid = 0.5 * (low + high)
+        if mid in (low, high):  # the bracket is two adjacent floats: as close as it gets
+            break
+        if f(mid) < 0:
+            low = mid
+        else:
+            high = mid
+    return 0.5 * (low + high)
 
 
 def _solve_ph(pkas: tuple[float, ...], sites_mol_per_l: float,
@@ -172,8 +187,6 @@ def solve_systems_ph(systems: Sequence[tuple[tuple[float, ...], float]],
 
     where ``proton_excess`` is the protons all systems carry as dissolved plus strong acid
     minus strong base (mol/L). A salt of a weak acid and a weak base is two systems."""
-    from scipy.optimize import brentq
-
     kw = 10.0 ** (-pkw)
     checked = [(check_pkas(p), float(c)) for p, c in systems]
 
@@ -186,8 +199,7 @@ def solve_systems_ph(systems: Sequence[tuple[tuple[float, ...], float]],
     if not (low < 0 < high):
         raise InvalidInput("no pH between -4 and 20 satisfies the charge balance; "
                            "check the concentrations")
-    log_h = brentq(residual, _LOG_H_LOW, _LOG_H_HIGH, xtol=1e-12, rtol=1e-14, maxiter=200)
-    return -float(log_h)
+    return -_bisect(residual, _LOG_H_LOW, _LOG_H_HIGH, xtol=1e-12)
 
 
 def equivalence_ph(

@@ -176,6 +176,12 @@ def _ufloat() -> Callable[..., Any]:
     return ufloat
 
 
+def load_library() -> None:
+    """Import the propagation library now, the way ``propagate`` will: a service does it
+    before it takes the lab's writer lock rather than in the middle of a write."""
+    _ufloat()
+
+
 def propagate(
     model: Callable[..., Any],
     inputs: Sequence[InputQuantity],

@@ -21,7 +21,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from prepbook import clock
-from prepbook.chem import equilibria
+from prepbook.chem import uncertainty
 from prepbook.chem.uncertainty import BudgetLine
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import (
@@ -244,7 +244,7 @@ def standardize(
 
     from prepbook.lab import board
 
-    equilibria.load_solver()  # before the writer lock, not under it (``load_solver``)
+    uncertainty.load_library()  # before the writer lock, not under it
     with db.session(write=record) as s:
         user = acting(s, actor, doing="standardize")
         # The batch with what its state is computed from, in one query.
@@ -348,7 +348,7 @@ def _revise(db: Database, *, actor: str, run: str, position: int, reason: str | 
         raise InvalidInput("--replicate counts from 1")
     signed(db, actor, passphrase, RECORDERS, f"{action} replicates",
            meaning=f"{action.rstrip('e')}ed a replicate", what=f"run {run} #{position}")
-    equilibria.load_solver()  # before the writer lock, not under it
+    uncertainty.load_library()  # before the writer lock, not under it
     with db.session() as s:
         user = acting(s, actor, RECORDERS, f"{action} replicates")
         r = by_code(s, Run, run, "run")

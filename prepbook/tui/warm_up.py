@@ -1,10 +1,10 @@
 """Work the terminal app does once, in the background, after its first frame.
 
 Why: two costs used to land in the middle of a key press.
-- The first live result on the recording form imported ``scipy.optimize`` (through
-  ``chem.equilibria``), about 0.4 s; the first computation of any kind imported numpy
-  and ``uncertainties``. :func:`import_heavy_modules` imports them in a worker thread
-  right after the first frame, while the person reads the board.
+- The first computation of any kind imported numpy and ``uncertainties`` (and, until
+  the pH solver became plain bisection, ``scipy.optimize``: 0.3 s that also competed
+  with the first screen a person opened). :func:`import_heavy_modules` imports them in
+  a worker thread right after the first frame, while the person reads the board.
 - Python's cyclic garbage collector walked the app's few hundred thousand long-lived
   objects (modules, the catalog, the first screens) on every full collection, pauses of
   150-175 ms at random moments. :func:`settle_memory` collects once and then
@@ -20,7 +20,7 @@ import gc
 import importlib
 
 # What the first computation needs (measured with `python -X importtime`).
-HEAVY_MODULES = ("numpy", "uncertainties", "scipy.optimize", "prepbook.chem.equilibria",
+HEAVY_MODULES = ("numpy", "uncertainties", "prepbook.chem.equilibria",
                  "prepbook.chem.standardization", "prepbook.rules.evaluation")
 
 

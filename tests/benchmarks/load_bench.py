@@ -146,8 +146,8 @@ def bench(url: str, number: int, batch: str, seconds: float, review_share: float
     me = technician(number)
     reviewer = REVIEWERS[number % len(REVIEWERS)]
     # Warm up as a bench that has been open a while: modules imported (a computation
-    # previewed, not recorded: what it imports, scipy's solver among them, stays
-    # imported), catalog read, a connection in the pool. Only then the clock starts.
+    # previewed, not recorded: what it imports stays imported), catalog read, a
+    # connection in the pool. Only then the clock starts.
     from prepbook.catalog import loader
     from prepbook.lab import reviews, runs
 

@@ -329,3 +329,34 @@ def test_simulate_titration_refuses_negative_volume() -> None:
         simulate_titration([-1.0], pkas=ACETIC, sample_concentration_mol_per_l=0.1,
                            sample_ml=25.0, titrant_concentration_mol_per_l=0.1,
                            initial_protons=1)
+
+
+@settings(max_examples=200, deadline=None)
+@given(pkas=st.lists(st.floats(min_value=1.0, max_value=13.0), min_size=1, max_size=3),
+       log_c=st.floats(min_value=-6.0, max_value=0.0),
+       protons=st.integers(min_value=0, max_value=3),
+       log_base=st.floats(min_value=-8.0, max_value=-0.5))
+def test_bisection_finds_the_root_scipy_brentq_finds(pkas: list[float], log_c: float,
+                                                     protons: int, log_base: float) -> None:
+    # Reference: scipy.optimize.brentq (a general-purpose root finder) on the same
+    # proton condition; the solver itself is plain bisection, which imports nothing.
+    from scipy.optimize import brentq
+
+    values = tuple(sorted(pkas))
+    c, base = 10.0**log_c, 10.0**log_base
+    p0 = min(protons, len(values))
+    kw = 10.0**-PKW
+
+    def residual(log_h: float) -> float:
+        h = 10.0**log_h
+        return h - kw / h + c * mean_bound_protons(values, -log_h) - (c * p0 - base)
+
+    expected = -brentq(residual, -20.0, 4.0, xtol=1e-13, rtol=1e-15, maxiter=500)
+    got = solution_ph(values, c, initial_protons=p0, strong_base_mol_per_l=base)
+    assert got == pytest.approx(expected, abs=1e-9)
+
+
+def test_bisection_stops_within_its_tolerance_of_a_known_root() -> None:
+    # x**3 - 2 on [0, 2]: the root is the cube root of 2 (math.cbrt, Python 3.11).
+    root = equilibria._bisect(lambda x: x**3 - 2.0, 0.0, 2.0, xtol=1e-12)
+    assert abs(root - math.cbrt(2.0)) <= 0.5e-12
