@@ -74,12 +74,9 @@ class PrepbookApp(App[None]):
             self.set_interval(self.poll_seconds, self.check_for_changes)
         self.set_interval(1.0, self.lock_when_idle)
         # After the first frame: the first computation's imports and a settled heap.
-        self.call_after_refresh(self._warm_up)
-
-    def _warm_up(self) -> None:
         from prepbook.tui.warm_up import warm_up
 
-        self.run_worker(warm_up, thread=True, group="warm-up", exit_on_error=False)
+        self.call_after_refresh(warm_up)
 
     # -- who is acting ------------------------------------------------------------------
     def signed_in(self, opened: Any) -> None:

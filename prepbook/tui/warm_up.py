@@ -2,9 +2,9 @@
 
 Why: two costs used to land in the middle of a key press.
 - The first computation of any kind imported numpy and ``uncertainties`` (and, until
-  the pH solver became plain bisection, ``scipy.optimize``: 0.3 s that also competed
-  with the first screen a person opened). :func:`import_heavy_modules` imports them in
-  a worker thread right after the first frame, while the person reads the board.
+  the pH solver became plain bisection, ``scipy.optimize``: 0.3 s).
+  :func:`import_heavy_modules` imports them right after the first frame, while the
+  person reads the board.
 - Python's cyclic garbage collector walked the app's few hundred thousand long-lived
   objects (modules, the catalog, the first screens) on every full collection, pauses of
   150-175 ms at random moments. :func:`settle_memory` collects once and then
@@ -35,6 +35,12 @@ def settle_memory() -> None:
 
 
 def warm_up() -> None:
-    """Both, in this order (so the imported modules are frozen too). Run in a thread."""
+    """Both, in this order (so the imported modules are frozen too), on the app's own
+    thread: about 0.1 s in all, once, before a person has read the first row.
+
+    Not in a worker thread, as it was while scipy's 0.3 s import was part of it: a thread
+    running Python beside the screen makes every database call of the screen wait its
+    turn for the interpreter (up to 5 ms each), so a batch opened meanwhile took twice as
+    long (440 ms against 220 ms, tests/benchmarks/tui_bench.py)."""
     import_heavy_modules()
     settle_memory()

@@ -1,35 +1,51 @@
-"""The audit view's verify runs beside the screen, not in the middle of a key press."""
+"""The audit view's verify runs in a process of its own, not in the middle of a key press."""
 
 from __future__ import annotations
 
-import threading
+import os
+import sqlite3
 import time
 from pathlib import Path
 
 import pytest
 
+from tests.tui.held_verify import FOLDER_ENV
 from tests.tui.test_app import SIZE, demo_db, demo_lab, lab, make_app, shown  # noqa: F401
 
 pytest.importorskip("textual")
 
 
-@pytest.mark.asyncio
-async def test_verify_runs_in_a_worker_and_the_screen_answers_keys_meanwhile(
-        lab: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
-    from prepbook.lab import auditing
+def _alive(pid: int) -> bool:
+    import psutil
+
+    try:
+        return psutil.Process(pid).status() != psutil.STATUS_ZOMBIE
+    except psutil.NoSuchProcess:
+        return False
+
+
+def _hold_verifies(folder: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     from prepbook.tui.screens.audit import AuditScreen
 
-    real_verify = auditing.verify
-    release = threading.Event()
-    thread_of_verify: list[str] = []
+    monkeypatch.setenv(FOLDER_ENV, str(folder))
+    # The child finds the tests package where this one is.
+    monkeypatch.setenv("PYTHONPATH", str(Path(__file__).resolve().parents[2]))
+    monkeypatch.setattr(AuditScreen, "verifier", "tests.tui.held_verify")
 
-    def slow_verify(db: object) -> object:
-        # Stands for a verify of a large trail: holds until the test lets it finish.
-        thread_of_verify.append(threading.current_thread().name)
-        assert release.wait(30)
-        return real_verify(db)  # type: ignore[arg-type]
 
-    monkeypatch.setattr(auditing, "verify", slow_verify)
+async def _wait(pilot: object, test: object, seconds: float = 60) -> None:
+    deadline = time.monotonic() + seconds
+    while not test():  # type: ignore[operator]
+        assert time.monotonic() < deadline, "timed out"
+        await pilot.pause(0.05)  # type: ignore[attr-defined]
+
+
+@pytest.mark.asyncio
+async def test_verify_runs_in_another_process_and_the_screen_answers_keys_meanwhile(
+        lab: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
+    from prepbook.tui.screens.audit import AuditScreen
+
+    _hold_verifies(tmp_path, monkeypatch)
     app = make_app(lab, "ines")
     async with app.run_test(size=SIZE) as pilot:
         await pilot.press("a")
@@ -37,20 +53,68 @@ async def test_verify_runs_in_a_worker_and_the_screen_answers_keys_meanwhile(
         assert isinstance(app.screen, AuditScreen)
         screen = app.screen
         await pilot.press("v")
-        await pilot.pause()
+        await _wait(pilot, lambda: (tmp_path / "started").exists())
+        child = int((tmp_path / "started").read_text())
+        assert child != os.getpid() and _alive(child)
         assert "verifying" in shown(screen.query_one("#message"))
-        # While verify is held, keys still reach the screen: type into the actor filter.
+        # While the verify is held, keys still reach the screen: type into a filter.
         screen.query_one("#f-actor").focus()
         started = time.monotonic()
         await pilot.press("i", "n", "e", "s")
-        await pilot.pause()
-        answered = time.monotonic() - started
         assert screen.query_one("#f-actor").value == "ines"
-        assert answered < 2.0, answered
+        assert time.monotonic() - started < 2.0
         assert screen.verifying is not None  # still running
-        release.set()
-        await app.workers.wait_for_complete()
+        (tmp_path / "release").touch()
+        await _wait(pilot, lambda: screen.verifying is None)
+        assert "verified: the chain of" in shown(screen.query_one("#message"))
+    await _wait_gone(child)
+
+
+async def _wait_gone(pid: int) -> None:
+    deadline = time.monotonic() + 10
+    while _alive(pid):
+        assert time.monotonic() < deadline, f"process {pid} still running"
+        time.sleep(0.05)
+
+
+@pytest.mark.asyncio
+async def test_leaving_the_audit_view_ends_a_verify_in_progress(
+        lab: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
+    from prepbook.tui.screens.audit import AuditScreen
+
+    _hold_verifies(tmp_path, monkeypatch)
+    app = make_app(lab, "ines")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("a")
         await pilot.pause()
-        assert "verified" in shown(screen.query_one("#message"))
-        assert screen.verifying is None
-    assert thread_of_verify and thread_of_verify[0] != threading.main_thread().name
+        await pilot.press("v")
+        await _wait(pilot, lambda: (tmp_path / "started").exists())
+        child = int((tmp_path / "started").read_text())
+        await pilot.press("escape")
+        await pilot.pause()
+        assert not isinstance(app.screen, AuditScreen)
+        await _wait_gone(child)  # ended, though never released
+
+
+@pytest.mark.asyncio
+async def test_the_other_process_reports_an_altered_row(lab: Path) -> None:  # noqa: F811
+    # The real verifier, in its own process, on a database changed behind prepbook's
+    # back (sqlite3, as someone with the file would): the verdict names the failure.
+    from prepbook.tui.screens.audit import AuditScreen
+
+    con = sqlite3.connect(lab)
+    with con:
+        con.execute("UPDATE batches SET retired_reason = 'spilled on the bench' "
+                    "WHERE id = (SELECT min(id) FROM batches)")
+    con.close()
+    app = make_app(lab, "ines")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("a")
+        await pilot.pause()
+        screen = app.screen
+        assert isinstance(screen, AuditScreen)
+        await pilot.press("v")
+        await _wait(pilot, lambda: screen.verifying is None)
+        message = shown(screen.query_one("#message"))
+        assert "VERIFY FAILED" in message
+        assert "batches" in message

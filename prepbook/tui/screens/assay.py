@@ -17,7 +17,7 @@ from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import Screen
 from textual.timer import Timer
-from textual.widgets import Footer, Input, Label, Select, Static
+from textual.widgets import Input, Label, Select, Static
 
 from prepbook.errors import PrepbookError
 from prepbook.inputs import parse_number
@@ -25,7 +25,7 @@ from prepbook.records import as_data
 from prepbook.tui import words
 from prepbook.tui.screens.common import LIVE_DELAY_S, budget_table
 from prepbook.tui.screens.record_view import problems_text
-from prepbook.tui.widgets import colour
+from prepbook.tui.widgets import KeyLine, colour
 from prepbook.tui.work_time import WorkTime
 
 if TYPE_CHECKING:
@@ -80,7 +80,7 @@ class AssayScreen(Screen[None]):
                 yield Static("Ctrl+N adds a titration; Ctrl+S records.", classes="hint")
             with VerticalScroll(id="record-live"):
                 yield Static("", id="live")
-        yield Footer()
+        yield KeyLine()
 
     def _row(self, i: int) -> Horizontal:
         return Horizontal(Label(str(i), classes="rep-n"),

@@ -9,11 +9,13 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal
+from textual.message import Message
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Input, Static
+from textual.widgets import DataTable, Input, Static
 
 from prepbook.errors import PrepbookError
-from prepbook.tui.widgets import SafeTable, colour, shown, when
+from prepbook.tui.apart import VERIFY, Apart, Outcome
+from prepbook.tui.widgets import KeyLine, SafeTable, colour, shown, when
 
 if TYPE_CHECKING:
     from textual.timer import Timer
@@ -24,6 +26,9 @@ PAGE = 200  # newest events first shown; m shows older ones page by page
 
 
 class AuditScreen(Screen[None]):
+    verifier = VERIFY
+    """The module ``v`` runs in another process (a test puts a held one in its place)."""
+
     BINDINGS = [
         Binding("escape", "app.pop_screen", "Back"),
         Binding("m", "more", "Older events"),
@@ -37,6 +42,7 @@ class AuditScreen(Screen[None]):
         self.limit = PAGE
         self.verifying: float | None = None  # when the running verify started
         self._ticker: Timer | None = None
+        self._apart: Apart | None = None
 
     def compose(self) -> ComposeResult:
         yield Static("", id="topline", classes="topline")
@@ -48,7 +54,7 @@ class AuditScreen(Screen[None]):
             yield Input(placeholder="until YYYY-MM-DD", id="f-until")
         yield SafeTable(id="events", cursor_type="row", zebra_stripes=True)
         yield Static("", id="message", classes="message")
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
         table = self.query_one("#events", DataTable)
@@ -97,17 +103,24 @@ class AuditScreen(Screen[None]):
     def action_reload(self) -> None:
         self.reload()
 
+    class Verified(Message):
+        """A verify's outcome, posted from the pool's thread to the screen."""
+
+        def __init__(self, outcome: Outcome) -> None:
+            super().__init__()
+            self.outcome = outcome
+
     def action_verify(self) -> None:
-        """Verify in a worker thread: on a large trail it takes seconds, and the screen
-        stays usable meanwhile (the message counts the seconds). A second ``v`` while
-        one runs does nothing."""
+        """Verify in a process of its own (``tui/apart.py`` says why): on a large trail it
+        takes seconds, and the screen stays usable meanwhile (the message counts the
+        seconds). A second ``v`` while one runs does nothing."""
         if self.verifying is not None:
             return
         self.verifying = time.monotonic()
         self._show_progress()
         self._ticker = self.set_interval(0.5, self._show_progress)
-        self.run_worker(self._verify_in_thread, thread=True, group="verify",
-                        exit_on_error=False)
+        self._apart = Apart(self.verifier, self.app.db.url,  # type: ignore[attr-defined]
+                            lambda outcome: self.post_message(self.Verified(outcome)))
 
     def _show_progress(self) -> None:
         if self.verifying is None:
@@ -118,21 +131,23 @@ class AuditScreen(Screen[None]):
         msg.update(f"verifying the chain and every current row … {seconds:.0f} s "
                    "(keep working; the verdict appears here)")
 
-    def _verify_in_thread(self) -> None:
-        from prepbook.lab import auditing
+    def on_audit_screen_verified(self, message: Verified) -> None:
+        self._show_verdict(*message.outcome)
 
-        try:
-            rep = auditing.verify(self.app.db)  # type: ignore[attr-defined]
-        except PrepbookError as exc:
-            self.app.call_from_thread(self._show_verdict, None, str(exc))
-            return
-        self.app.call_from_thread(self._show_verdict, rep, None)
+    def on_unmount(self) -> None:
+        self._stop_verify()
 
-    def _show_verdict(self, rep: VerifyReport | None, refusal: str | None) -> None:
+    def _stop_verify(self) -> None:
         self.verifying = None
         if self._ticker is not None:
             self._ticker.stop()
             self._ticker = None
+        if self._apart is not None:
+            self._apart.stop()
+            self._apart = None
+
+    def _show_verdict(self, rep: VerifyReport | None, refusal: str | None) -> None:
+        self._stop_verify()
         msg = self.query_one("#message", Static)
         if rep is None:
             msg.set_class(True, "refusal")

@@ -11,13 +11,13 @@ from textual.app import App, ComposeResult
 from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static, TabbedContent, TabPane
+from textual.widgets import DataTable, Static, TabbedContent, TabPane
 
 from prepbook.errors import PrepbookError
 from prepbook.render.curve_text import curve_chart, curve_heading, source_lines
 from prepbook.tui import words
 from prepbook.tui.screens.common import run_block, safety, small_table
-from prepbook.tui.widgets import SafeTable, TrendChart, colour, shown, state_cell, when
+from prepbook.tui.widgets import KeyLine, SafeTable, TrendChart, colour, shown, state_cell, when
 
 if TYPE_CHECKING:
     from prepbook.lab.batch_records import BatchRecord
@@ -66,7 +66,7 @@ class BatchScreen(Screen[None]):
             with TabPane("3 audit events", id="events"):
                 yield SafeTable(id="batch-events", cursor_type="row", zebra_stripes=True)
         yield Static("", id="message", classes="message")
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
         self.reload()

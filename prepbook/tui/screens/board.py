@@ -10,10 +10,10 @@ from textual.binding import Binding
 from textual.containers import Horizontal
 from textual.coordinate import Coordinate
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Input, Select, Static
+from textual.widgets import DataTable, Input, Select, Static
 
 from prepbook.tui import words
-from prepbook.tui.widgets import SafeTable, colour, state_cell
+from prepbook.tui.widgets import KeyLine, SafeTable, colour, state_cell
 
 if TYPE_CHECKING:
     from prepbook.lab.board import BatchLife, Board
@@ -49,7 +49,7 @@ class BoardScreen(Screen[None]):
                          prompt="every state", id="state")
         yield SafeTable(id="board", cursor_type="row", zebra_stripes=True)
         yield Static("", id="board-detail", classes="detail")
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
         table = self.query_one("#board", DataTable)

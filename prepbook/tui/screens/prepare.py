@@ -14,12 +14,12 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
-from textual.widgets import Footer, Input, Label, Select, Static
+from textual.widgets import Input, Label, Select, Static
 
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import safety
-from prepbook.tui.widgets import colour
+from prepbook.tui.widgets import KeyLine, colour
 from prepbook.tui.work_time import WorkTime
 
 if TYPE_CHECKING:
@@ -73,7 +73,7 @@ class PrepareScreen(Screen[None]):
                 yield WorkTime("made", "preparation time")
             with VerticalScroll(id="record-live"):
                 yield Static("", id="live")
-        yield Footer()
+        yield KeyLine()
 
     @staticmethod
     def _field(label: str, widget: Any, fid: str | None = None) -> ComposeResult:

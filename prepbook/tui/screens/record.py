@@ -16,7 +16,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.timer import Timer
-from textual.widgets import Footer, Input, Label, Select, Static
+from textual.widgets import Input, Label, Select, Static
 
 from prepbook.errors import PrepbookError
 from prepbook.inputs import parse_number
@@ -24,7 +24,7 @@ from prepbook.tui import words
 from prepbook.tui.screens.common import LIVE_DELAY_S
 from prepbook.tui.screens.record_sources import MARK_HELP, InstrumentRows
 from prepbook.tui.screens.record_view import problems_text, result_view, short
-from prepbook.tui.widgets import colour, state_cell
+from prepbook.tui.widgets import KeyLine, colour, state_cell
 from prepbook.tui.work_time import WorkTime
 
 if TYPE_CHECKING:
@@ -85,7 +85,7 @@ class RecordScreen(InstrumentRows):
                              classes="hint")
             with VerticalScroll(id="record-live"):
                 yield Static("", id="live")
-        yield Footer()
+        yield KeyLine()
 
     @staticmethod
     def _field(label: str, widget: Any) -> ComposeResult:

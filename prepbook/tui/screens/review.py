@@ -12,12 +12,12 @@ from textual.binding import Binding
 from textual.containers import VerticalScroll
 from textual.coordinate import Coordinate
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from prepbook.errors import PrepbookError
 from prepbook.tui import words
 from prepbook.tui.screens.common import budget_table, run_block
-from prepbook.tui.widgets import SafeTable, colour, shown, when
+from prepbook.tui.widgets import KeyLine, SafeTable, colour, shown, when
 
 if TYPE_CHECKING:
     from prepbook.lab.reviews import QueuedRun
@@ -44,7 +44,7 @@ class ReviewScreen(Screen[None]):
         with VerticalScroll(id="review-detail"):
             yield Static("", id="review-body")
         yield Static("", id="message", classes="message")
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
         table = self.query_one("#queue", DataTable)
