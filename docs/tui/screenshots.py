@@ -82,6 +82,10 @@ async def shoot(db_path: Path) -> None:
         await pilot.press("escape", "a")
         await pilot.pause(0.3)
         await pilot.press("v")
+        for _ in range(300):  # the verify runs in a process of its own: its verdict
+            if app.screen.verifying is None:  # type: ignore[attr-defined]
+                break
+            await pilot.pause(0.1)
         await pilot.pause(0.3)
         app.save_screenshot("audit.svg", str(HERE))
 
