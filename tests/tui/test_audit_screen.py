@@ -6,6 +6,7 @@ import os
 import sqlite3
 import time
 from pathlib import Path
+from typing import Any
 
 import pytest
 
@@ -40,21 +41,26 @@ async def _wait(pilot: object, test: object, seconds: float = 60) -> None:
         await pilot.pause(0.05)  # type: ignore[attr-defined]
 
 
+async def _start_held_verify(pilot: Any, folder: Path) -> tuple[Any, int]:
+    """The audit view opened and ``v`` pressed: the screen, and the verify's process."""
+    from prepbook.tui.screens.audit import AuditScreen
+
+    await pilot.press("a")
+    await pilot.pause()
+    screen = pilot.app.screen
+    assert isinstance(screen, AuditScreen)
+    await pilot.press("v")
+    await _wait(pilot, lambda: (folder / "started").exists())
+    return screen, int((folder / "started").read_text())
+
+
 @pytest.mark.asyncio
 async def test_verify_runs_in_another_process_and_the_screen_answers_keys_meanwhile(
         lab: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
-    from prepbook.tui.screens.audit import AuditScreen
-
     _hold_verifies(tmp_path, monkeypatch)
     app = make_app(lab, "ines")
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("a")
-        await pilot.pause()
-        assert isinstance(app.screen, AuditScreen)
-        screen = app.screen
-        await pilot.press("v")
-        await _wait(pilot, lambda: (tmp_path / "started").exists())
-        child = int((tmp_path / "started").read_text())
+        screen, child = await _start_held_verify(pilot, tmp_path)
         assert child != os.getpid() and _alive(child)
         assert "verifying" in shown(screen.query_one("#message"))
         # While the verify is held, keys still reach the screen: type into a filter.
@@ -80,19 +86,13 @@ async def _wait_gone(pid: int) -> None:
 @pytest.mark.asyncio
 async def test_leaving_the_audit_view_ends_a_verify_in_progress(
         lab: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
-    from prepbook.tui.screens.audit import AuditScreen
-
     _hold_verifies(tmp_path, monkeypatch)
     app = make_app(lab, "ines")
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("a")
-        await pilot.pause()
-        await pilot.press("v")
-        await _wait(pilot, lambda: (tmp_path / "started").exists())
-        child = int((tmp_path / "started").read_text())
+        screen, child = await _start_held_verify(pilot, tmp_path)
         await pilot.press("escape")
         await pilot.pause()
-        assert not isinstance(app.screen, AuditScreen)
+        assert app.screen is not screen
         await _wait_gone(child)  # ended, though never released
 
 
