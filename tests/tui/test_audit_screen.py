@@ -118,3 +118,28 @@ async def test_the_other_process_reports_an_altered_row(lab: Path) -> None:  # n
         message = shown(screen.query_one("#message"))
         assert "VERIFY FAILED" in message
         assert "batches" in message
+
+
+@pytest.mark.asyncio
+async def test_a_verify_process_that_cannot_start_is_one_line(
+        lab: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
+    import subprocess
+
+    from prepbook.tui.screens.audit import AuditScreen
+
+    def no_process(*args: object, **kwargs: object) -> None:
+        raise PermissionError(13, "Permission denied")
+
+    monkeypatch.setattr(subprocess, "Popen", no_process)
+    app = make_app(lab, "ines")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("a")
+        await pilot.pause()
+        screen = app.screen
+        assert isinstance(screen, AuditScreen)
+        await pilot.press("v")
+        await pilot.pause()
+        assert screen.verifying is None
+        message = shown(screen.query_one("#message"))
+        assert "verify refused: the verify process could not start" in message
+        assert "Traceback" not in message

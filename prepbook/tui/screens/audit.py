@@ -104,7 +104,7 @@ class AuditScreen(Screen[None]):
         self.reload()
 
     class Verified(Message):
-        """A verify's outcome, posted from the pool's thread to the screen."""
+        """A verify's outcome, posted to the screen by the thread that waits for it."""
 
         def __init__(self, outcome: Outcome) -> None:
             super().__init__()
@@ -119,8 +119,11 @@ class AuditScreen(Screen[None]):
         self.verifying = time.monotonic()
         self._show_progress()
         self._ticker = self.set_interval(0.5, self._show_progress)
-        self._apart = Apart(self.verifier, self.app.db.url,  # type: ignore[attr-defined]
-                            lambda outcome: self.post_message(self.Verified(outcome)))
+        try:
+            self._apart = Apart(self.verifier, self.app.db.url,  # type: ignore[attr-defined]
+                                lambda outcome: self.post_message(self.Verified(outcome)))
+        except OSError as exc:  # no process could be started: say so, in one line
+            self._show_verdict(None, f"the verify process could not start: {exc}")
 
     def _show_progress(self) -> None:
         if self.verifying is None:
