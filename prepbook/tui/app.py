@@ -106,6 +106,8 @@ class PrepbookApp(App[None]):
 
         if self.actor is None or self.idle_seconds is None:
             return False
+        if not self.screen_stack:  # the app is closing: its timer may tick once more
+            return False
         if isinstance(self.screen, LockScreen | LoginScreen):
             return False
         if time.monotonic() - self._last_input < self.idle_seconds:

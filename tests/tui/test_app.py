@@ -257,3 +257,15 @@ def test_command_line_start_up_does_not_import_textual() -> None:
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                           check=True, timeout=120)
     assert json.loads(proc.stdout.strip().splitlines()[-1]) is False
+
+
+@pytest.mark.asyncio
+async def test_the_idle_lock_check_after_the_app_has_closed_is_quiet(lab: Path) -> None:
+    # Its timer can tick once more while the app closes, when no screen is left: that
+    # tick must not end in a traceback (it did, on a slow machine, at the end of a test).
+    app = make_app(lab, "ines")
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause()
+        assert app.idle_seconds is not None and app.actor == "ines"
+    assert not app.screen_stack
+    assert app.lock_when_idle() is False
