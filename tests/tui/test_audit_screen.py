@@ -25,13 +25,17 @@ def _alive(pid: int) -> bool:
         return False
 
 
-def _hold_verifies(folder: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+@pytest.fixture
+def held_app(lab: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Any:  # noqa: F811
+    """The app on the demo lab, its audit view's verify held until ``release`` appears in
+    ``tmp_path`` (tests/tui/held_verify.py, run as the verify's own process)."""
     from prepbook.tui.screens.audit import AuditScreen
 
-    monkeypatch.setenv(FOLDER_ENV, str(folder))
+    monkeypatch.setenv(FOLDER_ENV, str(tmp_path))
     # The child finds the tests package where this one is.
     monkeypatch.setenv("PYTHONPATH", str(Path(__file__).resolve().parents[2]))
     monkeypatch.setattr(AuditScreen, "verifier", "tests.tui.held_verify")
+    return make_app(lab, "ines")
 
 
 async def _wait(pilot: object, test: object, seconds: float = 60) -> None:
@@ -56,10 +60,8 @@ async def _start_held_verify(pilot: Any, folder: Path) -> tuple[Any, int]:
 
 @pytest.mark.asyncio
 async def test_verify_runs_in_another_process_and_the_screen_answers_keys_meanwhile(
-        lab: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
-    _hold_verifies(tmp_path, monkeypatch)
-    app = make_app(lab, "ines")
-    async with app.run_test(size=SIZE) as pilot:
+        held_app: Any, tmp_path: Path) -> None:
+    async with held_app.run_test(size=SIZE) as pilot:
         screen, child = await _start_held_verify(pilot, tmp_path)
         assert child != os.getpid() and _alive(child)
         assert "verifying" in shown(screen.query_one("#message"))
@@ -85,14 +87,12 @@ async def _wait_gone(pid: int) -> None:
 
 @pytest.mark.asyncio
 async def test_leaving_the_audit_view_ends_a_verify_in_progress(
-        lab: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:  # noqa: F811
-    _hold_verifies(tmp_path, monkeypatch)
-    app = make_app(lab, "ines")
-    async with app.run_test(size=SIZE) as pilot:
+        held_app: Any, tmp_path: Path) -> None:
+    async with held_app.run_test(size=SIZE) as pilot:
         screen, child = await _start_held_verify(pilot, tmp_path)
         await pilot.press("escape")
         await pilot.pause()
-        assert app.screen is not screen
+        assert held_app.screen is not screen
         await _wait_gone(child)  # ended, though never released
 
 
