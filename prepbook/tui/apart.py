@@ -1,9 +1,10 @@
 """Work the terminal app hands to a process of its own: a verify of the whole trail.
 
 Why a process, not a thread: on a large trail verify is seconds of pure Python (hashing,
-decoding, comparing rows). In a thread it shares the interpreter's lock with the screen,
-which then answers a key in 60-70 ms instead of 10-30 ms, and the verify itself takes
-longer (tests/benchmarks/tui_bench.py). In its own process it runs on another core.
+decoding, comparing rows). In a thread it shares the interpreter's lock with the screen:
+the screen still answers keys in about 10 ms, but the verify itself took 8.9-9.4 s on the
+ten-year database; in its own process, on another core, 6.3-6.5 s
+(tests/benchmarks/tui_bench.py).
 
 The child is ``python -m prepbook.tui.apart``, the same on Linux, macOS and Windows. It
 reads the database's address from its standard input (never its command line, where
