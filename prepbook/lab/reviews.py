@@ -13,7 +13,7 @@ from typing import Any
 
 import msgspec
 from sqlalchemy import bindparam, select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, joinedload
 
 from prepbook.errors import InvalidInput, Refused
 from prepbook.inputs import parse_text
@@ -154,7 +154,9 @@ def review(
 def runs_awaiting_review(db: Database) -> tuple[QueuedRun, ...]:
     awaiting = Run.status == "awaiting-review"
     with db.session(write=False) as s:
-        rows = s.scalars(select(Run).where(awaiting).order_by(Run.performed_at)).all()
+        rows = s.scalars(select(Run).where(awaiting).order_by(Run.performed_at).options(
+            *(joinedload(getattr(Run, name)) for name in (
+                "batch", "lot", "reference_batch", "balance", "burette")))).all()
         # Their reviews (a run rejected and corrected has some) in one query, not one a run.
         reviews = reviews_of_runs(s, select(Run.id).where(awaiting).scalar_subquery())
         return tuple(_record(s, r, reviews[r.id]) for r in rows)

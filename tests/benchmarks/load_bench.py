@@ -1,15 +1,23 @@
 """Many benches writing to one PostgreSQL lab at once, through the services.
 
     python tests/benchmarks/load_bench.py [--benches 1,4,16] [--reviews 0,0.06]
-                                          [--seconds 20] [--url SERVER_URL]
+                                          [--pace 0,300] [--seconds 20] [--url SERVER_URL]
 
 Without ``--url`` it starts its own throwaway PostgreSQL server (tests/benchmarks/
 pg_throwaway.py, as .ci/run does) with a real collation (C.UTF-8) and removes it at the
 end. For each configuration (number of benches x share of signed reviews) it makes a
-fresh lab database, then runs one process per bench for ``--seconds``, each as fast as
-it can with a bench's mix of work: uses of its own batch (most), standardizations of it,
+fresh lab database, then runs one process per bench for ``--seconds`` with a bench's
+mix of work: uses of its own batch (most), standardizations of it,
 new batches and, at the given share, a signed review (Argon2 passphrase check at the
-default cost) of a run another person recorded. It prints, per configuration, the
+default cost) of a run another person recorded. Each bench writes as fast as it can
+(``--pace 0``: the lab's throughput), or at a given pace, writes a minute a bench, the
+arrivals at random (a Poisson process) whether or not the last write has returned, each
+timed from when it was due, so a write that waited for the one before counts its wait
+(``--pace 300``: how long a person waits while the lab is busy but not saturated). Run
+flat out, N benches each always waiting for one write keep N writes in flight, so the
+mean time of a write is N over the throughput (Little's law): at 16 benches a
+machine doing 160 writes/s gives a mean of 100 ms, whatever the code, and only a paced
+run tells how long a write takes below saturation. It prints, per configuration, the
 throughput of acknowledged writes and p50/p95/p99/max of the plain writes (everything
 but reviews) and of the reviews, and how long a write holds the lab-wide writer lock
 (from the lock granted to the commit done), exclusively (writes/s of those can never
@@ -47,7 +55,8 @@ BATCH_ML = "500000"
 # Measured before this work (the issue's figures), for the side-by-side table.
 BEFORE = {(16, 0.0): "135 writes/s", (16, 0.06): "64 writes/s; use p95 163 ms, p99 820 ms, "
           "max 2.2 s"}
-TARGET = "16 benches, 6 % reviews: plain p99 <= 100 ms, none over 500 ms; 1.5x throughput"
+TARGET = ("16 benches, 6 % reviews: plain p99 <= 100 ms, none over 500 ms; throughput (flat "
+          "out) 1.5x before: 203 writes/s without reviews, 96 with")
 
 
 def passphrase(name: str) -> str:
@@ -140,7 +149,7 @@ def set_up_lab(url: str, benches: int) -> dict[str, str]:
 
 
 def bench(url: str, number: int, batch: str, seconds: float, review_share: float,
-          ready: Any, out: Any) -> None:
+          pace: float, ready: Any, out: Any) -> None:
     from prepbook.lab.database import open_database
 
     db = open_database(url)
@@ -163,7 +172,7 @@ def bench(url: str, number: int, batch: str, seconds: float, review_share: float
     watch_the_lock(db, log.held)
     began = time.process_time()
     try:
-        _work(db, rng, log, me, reviewer, batch, time.time() + seconds, review_share)
+        _work(db, rng, log, me, reviewer, batch, time.time() + seconds, review_share, pace)
     except Exception as exc:  # reported in the table, never hidden
         log.crashed = f"{type(exc).__name__}: {exc}"
     log.cpu_s = time.process_time() - began
@@ -171,11 +180,16 @@ def bench(url: str, number: int, batch: str, seconds: float, review_share: float
 
 
 def _work(db: Any, rng: random.Random, log: BenchLog, me: str, reviewer: str, batch: str,
-          end: float, review_share: float) -> None:
+          end: float, review_share: float, pace: float) -> None:
+    """Write until ``end``: flat out, or (``pace`` writes a minute) each write timed from
+    when it was due, the gaps between them drawn from an exponential distribution of
+    their own random stream, so the mix of work is the same either way."""
     from prepbook.errors import PrepbookError
     from prepbook.lab import batches, reviews, runs
 
     number = log.bench
+    arrivals = random.Random(10_000 + number)
+    due = time.perf_counter()
     i = 0
     while time.time() < end:
         i += 1
@@ -183,7 +197,14 @@ def _work(db: Any, rng: random.Random, log: BenchLog, me: str, reviewer: str, ba
         kind = ("review" if roll < review_share else
                 "standardize" if roll < review_share + 0.12 else
                 "make" if roll < review_share + 0.18 else "use")
-        began = time.perf_counter()
+        if pace:
+            due += arrivals.expovariate(pace / 60)
+            wait = due - time.perf_counter()
+            if wait > 0:
+                time.sleep(wait)
+            began = due  # a write that is late because of the one before counts its wait
+        else:
+            began = time.perf_counter()
         try:
             if kind == "use":
                 tag = f"load {number}-{i} {uuid.uuid4().hex[:6]}"
@@ -242,12 +263,13 @@ def check_everything_acknowledged_is_there(url: str, logs: list[BenchLog]) -> st
             f"({report.events} events)")
 
 
-def run_configuration(server: str, benches: int, review_share: float, seconds: float) -> None:
+def run_configuration(server: str, benches: int, review_share: float, seconds: float,
+                      pace: float = 0.0) -> None:
     from sqlalchemy import create_engine, text
     from sqlalchemy.engine import make_url
     from sqlalchemy.pool import NullPool
 
-    name = f"load_{benches}_{round(review_share * 100)}_{uuid.uuid4().hex[:6]}"
+    name = f"load_{benches}_{round(review_share * 100)}_{round(pace)}_{uuid.uuid4().hex[:6]}"
     admin = create_engine(server, isolation_level="AUTOCOMMIT", poolclass=NullPool)
     with admin.connect() as conn:
         conn.execute(text(f'CREATE DATABASE "{name}"'))
@@ -260,7 +282,7 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     # that takes far longer than on an idle one).
     ready = ctx.Barrier(benches + 1)
     procs = [ctx.Process(target=bench, args=(url, b, mine[technician(b)], seconds,
-                                             review_share, ready, out))
+                                             review_share, pace, ready, out))
              for b in range(benches)]
     for p in procs:
         p.start()
@@ -271,7 +293,9 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     plain = [t for log in logs for k, ts in log.times.items() if k != "review" for t in ts]
     signed = [t for log in logs for t in log.times.get("review", [])]
     writes = len(plain) + len(signed)
-    line = (f"{benches:>3} benches, {review_share * 100:>3.0f} % reviews: "
+    how = (f"paced at {pace:g} writes/min a bench (offered {benches * pace / 60:.1f} writes/s)"
+           if pace else "flat out")
+    line = (f"{benches:>3} benches, {review_share * 100:>3.0f} % reviews, {how}: "
             f"{writes / seconds:7.1f} writes/s; plain writes n={len(plain)} "
             f"p50 {percentile(plain, 50) * 1000:.1f} ms, p95 {percentile(plain, 95) * 1000:.1f}, "
             f"p99 {percentile(plain, 99) * 1000:.1f}, max {max(plain) * 1000:.0f} ms")
@@ -304,7 +328,7 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
               f"p95 {percentile(uses, 95) * 1000:.1f}, p99 {percentile(uses, 99) * 1000:.1f}, "
               f"max {max(uses) * 1000:.0f} ms")
     before = BEFORE.get((benches, review_share))
-    if before:
+    if before and not pace:
         print(f"      before: {before}")
     print("      " + check_everything_acknowledged_is_there(url, logs))
 
@@ -313,22 +337,24 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--benches", default="1,4,16")
     parser.add_argument("--reviews", default="0,0.06")
+    parser.add_argument("--pace", default="0",
+                        help="writes a minute a bench, comma-separated; 0: flat out")
     parser.add_argument("--seconds", type=float, default=20.0)
     parser.add_argument("--url", help="a PostgreSQL server URL whose user may create databases")
     parser.add_argument("--locale", default="C.UTF-8")
     args = parser.parse_args()
-    configs = [(int(b), float(r)) for b in args.benches.split(",")
-               for r in args.reviews.split(",")]
+    configs = [(int(b), float(r), float(p)) for b in args.benches.split(",")
+               for r in args.reviews.split(",") for p in args.pace.split(",")]
     print(f"target: {TARGET}")
     if args.url:
-        for b, r in configs:
-            run_configuration(args.url, b, r, args.seconds)
+        for b, r, p in configs:
+            run_configuration(args.url, b, r, args.seconds, p)
         return
     from tests.benchmarks.pg_throwaway import throwaway_server
 
     with throwaway_server(locale=args.locale) as server:
-        for b, r in configs:
-            run_configuration(server, b, r, args.seconds)
+        for b, r, p in configs:
+            run_configuration(server, b, r, args.seconds, p)
 
 
 if __name__ == "__main__":
