@@ -1,7 +1,8 @@
 """Many benches writing to one PostgreSQL lab at once, through the services.
 
     python tests/benchmarks/load_bench.py [--benches 1,4,16] [--reviews 0,0.06]
-                                          [--pace 0,300] [--seconds 20] [--url SERVER_URL]
+                                          [--pace 0,300] [--latency 0,5] [--seconds 20]
+                                          [--url SERVER_URL]
 
 Without ``--url`` it starts its own throwaway PostgreSQL server (tests/benchmarks/
 pg_throwaway.py, as .ci/run does) with a real collation (C.UTF-8) and removes it at the
@@ -17,7 +18,10 @@ timed from when it was due, so a write that waited for the one before counts its
 flat out, N benches each always waiting for one write keep N writes in flight, so the
 mean time of a write is N over the throughput (Little's law): at 16 benches a
 machine doing 160 writes/s gives a mean of 100 ms, whatever the code, and only a paced
-run tells how long a write takes below saturation. It prints, per configuration, the
+run tells how long a write takes below saturation. ``--latency MS`` puts a slow link
+between the benches and the server (slow_link.py: every byte delivered MS later, each
+way), as when the server is in another building or behind a VPN: a write that holds the
+lab while it waits for round trips then shows. It prints, per configuration, the
 throughput of acknowledged writes and p50/p95/p99/max of the plain writes (everything
 but reviews) and of the reviews, and how long a write holds the lab-wide writer lock
 (from the lock granted to the commit done), exclusively (writes/s of those can never
@@ -264,7 +268,7 @@ def check_everything_acknowledged_is_there(url: str, logs: list[BenchLog]) -> st
 
 
 def run_configuration(server: str, benches: int, review_share: float, seconds: float,
-                      pace: float = 0.0) -> None:
+                      pace: float = 0.0, latency_ms: float = 0.0) -> None:
     from sqlalchemy import create_engine, text
     from sqlalchemy.engine import make_url
     from sqlalchemy.pool import NullPool
@@ -276,6 +280,21 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     admin.dispose()
     url = make_url(server).set(database=name).render_as_string(hide_password=False)
     mine = set_up_lab(url, benches)
+    if latency_ms:
+        from tests.benchmarks.slow_link import SlowLink
+
+        there = make_url(url)
+        with SlowLink(there.host or "127.0.0.1", there.port or 5432, latency_ms / 1000) as link:
+            far = there.set(host="127.0.0.1", port=link.port).render_as_string(
+                hide_password=False)
+            logs = _run_benches(far, benches, mine, seconds, review_share, pace)
+    else:
+        logs = _run_benches(url, benches, mine, seconds, review_share, pace)
+    _report(url, logs, benches, review_share, seconds, pace, latency_ms)
+
+
+def _run_benches(url: str, benches: int, mine: dict[str, str], seconds: float,
+                 review_share: float, pace: float) -> list[BenchLog]:
     ctx = mp.get_context("spawn")
     out = ctx.Queue()
     # The clock starts when every process has imported and connected (on a busy machine
@@ -290,11 +309,18 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
     logs = [out.get(timeout=seconds + 600) for _ in procs]
     for p in procs:
         p.join()
+    return logs
+
+
+def _report(url: str, logs: list[BenchLog], benches: int, review_share: float, seconds: float,
+            pace: float, latency_ms: float) -> None:
     plain = [t for log in logs for k, ts in log.times.items() if k != "review" for t in ts]
     signed = [t for log in logs for t in log.times.get("review", [])]
     writes = len(plain) + len(signed)
     how = (f"paced at {pace:g} writes/min a bench (offered {benches * pace / 60:.1f} writes/s)"
            if pace else "flat out")
+    if latency_ms:
+        how += f", {latency_ms:g} ms each way to the server"
     line = (f"{benches:>3} benches, {review_share * 100:>3.0f} % reviews, {how}: "
             f"{writes / seconds:7.1f} writes/s; plain writes n={len(plain)} "
             f"p50 {percentile(plain, 50) * 1000:.1f} ms, p95 {percentile(plain, 95) * 1000:.1f}, "
@@ -328,7 +354,7 @@ def run_configuration(server: str, benches: int, review_share: float, seconds: f
               f"p95 {percentile(uses, 95) * 1000:.1f}, p99 {percentile(uses, 99) * 1000:.1f}, "
               f"max {max(uses) * 1000:.0f} ms")
     before = BEFORE.get((benches, review_share))
-    if before and not pace:
+    if before and not pace and not latency_ms:
         print(f"      before: {before}")
     print("      " + check_everything_acknowledged_is_there(url, logs))
 
@@ -339,22 +365,25 @@ def main() -> None:
     parser.add_argument("--reviews", default="0,0.06")
     parser.add_argument("--pace", default="0",
                         help="writes a minute a bench, comma-separated; 0: flat out")
+    parser.add_argument("--latency", default="0",
+                        help="ms each way between the benches and the server, comma-separated")
     parser.add_argument("--seconds", type=float, default=20.0)
     parser.add_argument("--url", help="a PostgreSQL server URL whose user may create databases")
     parser.add_argument("--locale", default="C.UTF-8")
     args = parser.parse_args()
-    configs = [(int(b), float(r), float(p)) for b in args.benches.split(",")
-               for r in args.reviews.split(",") for p in args.pace.split(",")]
+    configs = [(int(b), float(r), float(p), float(ms)) for b in args.benches.split(",")
+               for r in args.reviews.split(",") for p in args.pace.split(",")
+               for ms in args.latency.split(",")]
     print(f"target: {TARGET}")
     if args.url:
-        for b, r, p in configs:
-            run_configuration(args.url, b, r, args.seconds, p)
+        for b, r, p, ms in configs:
+            run_configuration(args.url, b, r, args.seconds, p, ms)
         return
     from tests.benchmarks.pg_throwaway import throwaway_server
 
     with throwaway_server(locale=args.locale) as server:
-        for b, r, p in configs:
-            run_configuration(server, b, r, args.seconds, p)
+        for b, r, p, ms in configs:
+            run_configuration(server, b, r, args.seconds, p, ms)
 
 
 if __name__ == "__main__":
