@@ -154,9 +154,11 @@ def review(
 def runs_awaiting_review(db: Database) -> tuple[QueuedRun, ...]:
     awaiting = Run.status == "awaiting-review"
     with db.session(write=False) as s:
+        # With what each shows (its batch, lot and instruments) joined: not one query
+        # more a batch, nor a lazy load on every run.
         rows = s.scalars(select(Run).where(awaiting).order_by(Run.performed_at).options(
-            *(joinedload(getattr(Run, name)) for name in (
-                "batch", "lot", "reference_batch", "balance", "burette")))).all()
+            joinedload(Run.batch), joinedload(Run.lot), joinedload(Run.reference_batch),
+            joinedload(Run.balance), joinedload(Run.burette))).all()
         # Their reviews (a run rejected and corrected has some) in one query, not one a run.
         reviews = reviews_of_runs(s, select(Run.id).where(awaiting).scalar_subquery())
         return tuple(_record(s, r, reviews[r.id]) for r in rows)
