@@ -355,7 +355,7 @@ def _report(url: str, logs: list[BenchLog], benches: int, review_share: float, s
               f"max {max(uses) * 1000:.0f} ms")
     before = BEFORE.get((benches, review_share))
     if before and not pace and not latency_ms:
-        print(f"      before (the issue's figures, another machine and day): {before}")
+        print(f"      before (the issue's figures, measured under other conditions): {before}")
     print("      " + check_everything_acknowledged_is_there(url, logs))
 
 
